@@ -1,0 +1,5 @@
+"""Run the command line tool as ``python -m enumerator``."""
+
+from .cli import main
+
+main()
