@@ -299,6 +299,45 @@ def configuration_weight(model: Occupancy, config) -> int:
     return 1
 
 
+def _prime_factors(r: int) -> List[int]:
+    """The distinct primes dividing *r* (FLINT ``fmpz.factor``)."""
+    return [int(p) for p, _ in fmpz(r).factor()]
+
+
+def _reduced_mb_probability(model: Occupancy, values) -> Fraction:
+    """``multinomial(k) / r^n`` in lowest terms without a big gcd.
+
+    Only the primes of ``r`` can cancel, so each is removed from the
+    multinomial (GMP ``mpz_remove``) up to its exponent in ``r^n``; that is
+    several times cheaper than a general gcd of numbers of ``n log r`` bits.
+    """
+    memo = model._memo
+    fac_n = memo.get("fac_n")
+    if fac_n is None:
+        fac_n = memo["fac_n"] = gmpy2.fac(model.balls)
+        memo["primes"] = [(p, model.balls * int(gmpy2.remove(model.urns, p)[1]))
+                          for p in _prime_factors(model.urns)]
+    fac = gmpy2.fac
+    den = mpz(1)
+    for v in values:
+        if v > 1:
+            den *= fac(v)
+    num = gmpy2.divexact(fac_n, den)
+    denominator = _microstates(model)
+    for p, top in memo["primes"]:
+        reduced, times = gmpy2.remove(num, p)
+        if times > top:
+            times = top
+            reduced = gmpy2.divexact(num, mpz(p) ** top)
+        if times:
+            num = reduced
+            denominator = gmpy2.divexact(denominator, mpz(p) ** times)
+    f = object.__new__(Fraction)
+    f._numerator = int(num)
+    f._denominator = int(denominator)
+    return f
+
+
 def configuration_probability(model: Occupancy, config) -> Fraction:
     """The exact probability of the occupancy vector *config* under *model*'s rule.
 
@@ -315,6 +354,10 @@ def configuration_probability(model: Occupancy, config) -> Fraction:
     if not model._within_bounds(values):
         return Fraction(0)
     if model.rule is Rule.MB:
+        if model.is_uniform and model.bounds[0][0] == 0 and (
+            model.bounds[0][1] is None or model.bounds[0][1] >= model.balls
+        ):
+            return _reduced_mb_probability(model, values)
         return _to_fraction(multinomial(values), _microstates(model))
     return _to_fraction(1, _configurations(model))
 

@@ -35,6 +35,7 @@ from .errors import InvalidConfiguration, InvalidParameters
 __all__ = ["Occupancy", "Rule", "as_count", "parse_bounds"]
 
 Bound = Tuple[int, Optional[int]]
+_PLAIN_INT = frozenset({int})
 
 
 class Rule(str, Enum):
@@ -298,12 +299,16 @@ class Occupancy:
                 f"a configuration is a sequence of {self.urns} whole numbers, not the string {config!r}"
             )
         try:
-            values = tuple(map(operator.index, config))
+            kinds = set(map(type, config))
+            if kinds <= _PLAIN_INT:
+                values = tuple(config)
+            else:
+                values = tuple(map(operator.index, config))
         except TypeError:
             raise InvalidConfiguration(
                 f"a configuration must be a sequence of {self.urns} whole numbers (got {config!r})"
             ) from None
-        if bool in set(map(type, values)):
+        if bool in kinds:
             raise InvalidConfiguration("configuration entries must be whole numbers, not booleans")
         if len(values) != self.urns:
             raise InvalidConfiguration(

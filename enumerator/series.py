@@ -97,24 +97,23 @@ def one_minus_power(step: int, exponent: int, degree: int) -> fmpz_poly:
 
 
 def power(base: fmpz_poly, exponent: int, degree: int) -> fmpz_poly:
-    """``base^exponent`` truncated at *degree* (exact).
+    """``base^exponent``, exact in every coefficient up to *degree*.
 
     Chooses FLINT's full binary power when the full degree is within
-    :data:`FULL_POWER_RATIO` of the truncation, else ``pow_trunc``.
+    :data:`FULL_POWER_RATIO` of the truncation, else ``pow_trunc``.  The
+    result may carry terms above *degree* (truncating costs a copy); use
+    ``truncate`` or :func:`coefficients` when they matter.
     """
     if exponent == 0:
         return fmpz_poly([1])
     full_degree = base.degree() * exponent
     if full_degree <= FULL_POWER_RATIO * (degree + 1):
-        result = base ** exponent
-        if full_degree > degree:
-            result = result.truncate(degree + 1)
-        return result
+        return base ** exponent
     return base.pow_trunc(exponent, degree + 1)
 
 
 def product(factors: Iterable[fmpz_poly], degree: int) -> fmpz_poly:
-    """The product of *factors* truncated at *degree*, by a balanced product tree.
+    """The product of *factors*, exact up to *degree*, by a balanced product tree.
 
     Balancing keeps the operands of each multiplication of similar size,
     which is where fast multiplication pays (FLINT ``mul_low``).
@@ -122,6 +121,8 @@ def product(factors: Iterable[fmpz_poly], degree: int) -> fmpz_poly:
     items = list(factors)
     if not items:
         return fmpz_poly([1])
+    if len(items) == 1:
+        return items[0]
     length = degree + 1
     while len(items) > 1:
         nxt = []
@@ -130,10 +131,7 @@ def product(factors: Iterable[fmpz_poly], degree: int) -> fmpz_poly:
         if len(items) % 2:
             nxt.append(items[-1])
         items = nxt
-    result = items[0]
-    if result.degree() > degree:
-        result = result.truncate(length)
-    return result
+    return items[0]
 
 
 def binomial_row(r: int, degree: int) -> List:
