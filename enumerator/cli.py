@@ -1,0 +1,723 @@
+"""The ``enumerator`` command line: a thin typer layer over the library.
+
+Every command parses its options into an :class:`~enumerator.model.Occupancy`
+(:func:`build_model`), calls one or two library functions and prints the answer
+either as rich tables for people or, with ``--json``, as one JSON object for
+programs (:func:`emit_json`).  No counting happens here.
+
+Layout, for whoever adds a command:
+
+1. shared options, defined once as ``Annotated`` aliases (``Balls``, ``Urns``,
+   ``RuleOpt``, ``Capacity``, ``Minimum``, ``Bounds``, ``Store``, ``NoCache``,
+   ``Json``) — reuse them so every command spells its options the same way;
+2. helpers: :func:`build_model`, :func:`emit_json`, :func:`exact`,
+   :func:`show_table`;
+3. the commands, one function each; the docstring is the ``--help`` text
+   (one line, then an Example block);
+4. the error wrapper, :class:`_Group.main`, which turns every failure into one
+   line on stderr: exit 2 for bad input (any
+   :class:`~enumerator.errors.EnumeratorError`, any usage error), exit 1 for
+   an internal failure (traceback only with ``ENUMERATOR_DEBUG=1``).
+
+JSON encoding (DESIGN.md): exact integers are strings of decimal digits,
+exact rationals are ``str(Fraction)`` (``"p/q"`` in lowest terms, ``"p"`` when
+``q = 1``), floats appear only in fields named ``approx``/``float``.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import sys
+import traceback
+from enum import Enum
+from fractions import Fraction
+from typing import Annotated, Iterable, Optional, Sequence
+
+import typer
+from rich.console import Console
+from rich.table import Table
+from typer.core import TyperGroup
+
+try:  # recent typer releases vendor click as typer._click
+    from typer._click.exceptions import ClickException, NoArgsIsHelpError
+except ImportError:  # pragma: no cover - older typer on top of click
+    from click.exceptions import ClickException, NoArgsIsHelpError
+
+from .errors import EnumeratorError, InvalidConfiguration
+from .model import Occupancy, Rule, as_count
+
+__all__ = ["app", "build_model", "emit_json", "main"]
+
+#: Values longer than this are printed on a line of their own, never wrapped.
+LONG = 60
+
+
+# --------------------------------------------------------------------------
+# The error wrapper
+# --------------------------------------------------------------------------
+class _Group(TyperGroup):
+    """The application's command group: one place that handles every failure."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        # Counts of 100,000+ digits must print in full (and big ranks parse).
+        sys.set_int_max_str_digits(0)
+        try:
+            result = super().main(
+                args=args, prog_name=prog_name, complete_var=complete_var,
+                standalone_mode=False, **extra,
+            )
+        except EnumeratorError as error:
+            _fail(f"Error: {error}", 2)
+        except NoArgsIsHelpError as error:
+            error.show()
+            sys.exit(error.exit_code)
+        except ClickException as error:
+            hint = ""
+            ctx = getattr(error, "ctx", None)
+            if ctx is not None:
+                hint = f" Try '{ctx.command_path} --help'."
+            message = error.format_message().strip()
+            if message and message[-1] not in ".?!":
+                message += "."
+            _fail(f"Error: {message}{hint}", error.exit_code)
+        except BrokenPipeError:
+            # The reader stopped early (``enumerator list | head``): not a failure.
+            _silence_stdout()
+            sys.exit(0)
+        except KeyboardInterrupt:
+            _fail("Interrupted.", 130)
+        except Exception as error:  # noqa: BLE001 - the last line of defence
+            if os.environ.get("ENUMERATOR_DEBUG", "").strip() not in ("", "0"):
+                traceback.print_exc()
+            _fail(
+                f"Internal error: {type(error).__name__}: {error} "
+                "(this is a bug; set ENUMERATOR_DEBUG=1 for a traceback)",
+                1,
+            )
+        sys.exit(result if isinstance(result, int) else 0)
+
+
+def _fail(message: str, code: int) -> None:
+    """Write *message* as one line on stderr and exit with *code*."""
+    line = " ".join(str(message).split())
+    try:
+        sys.stdout.flush()
+    except (BrokenPipeError, ValueError):
+        _silence_stdout()
+    sys.stderr.write(line + "\n")
+    sys.stderr.flush()
+    sys.exit(code)
+
+
+def _silence_stdout() -> None:
+    """Point stdout at /dev/null so the interpreter's final flush cannot fail."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+app = typer.Typer(
+    cls=_Group,
+    name="enumerator",
+    help=(
+        "Exact counts, probabilities and listings for n balls placed in r labelled urns.\n\n"
+        "Rules: MB (Maxwell–Boltzmann) distinguishable balls, every assignment of balls "
+        "to urns equally likely; BE (Bose–Einstein) identical balls, every occupancy "
+        "vector equally likely; FD (Fermi–Dirac) identical balls, at most one per urn, "
+        "every occupancy vector equally likely.\n\n"
+        "Add --json to any command for one JSON object (exact numbers as strings)."
+    ),
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+
+def main(argv: Optional[Sequence[str]] = None) -> None:
+    """Run the command line tool (the ``enumerator`` console script)."""
+    typer.main.get_command(app).main(args=argv)
+
+
+# --------------------------------------------------------------------------
+# Shared options (define once, reuse everywhere)
+# --------------------------------------------------------------------------
+_MODEL = "Model"
+_OUTPUT = "Store and output"
+
+Balls = Annotated[
+    int,
+    typer.Option(
+        "--balls", "-n",
+        help="Number of balls n (particles, keys, items), a whole number >= 0.",
+        rich_help_panel=_MODEL,
+    ),
+]
+Urns = Annotated[
+    Optional[int],
+    typer.Option(
+        "--urns", "-r",
+        help="Number of labelled urns r (states, sites, bins), >= 1. "
+        "May be left out when --bounds gives one bound per urn.",
+        rich_help_panel=_MODEL,
+    ),
+]
+RuleOpt = Annotated[
+    str,
+    typer.Option(
+        "--rule",
+        metavar="MB|BE|FD",
+        help="Counting rule. MB: distinguishable balls, each assignment of balls to urns "
+        "equally likely. BE: identical balls, each occupancy vector equally likely. "
+        "FD: identical balls, at most one per urn, each occupancy vector equally likely. "
+        "Any case.",
+        rich_help_panel=_MODEL,
+    ),
+]
+Capacity = Annotated[
+    Optional[int],
+    typer.Option(
+        "--capacity",
+        help="Uniform upper bound: at most this many balls in every urn (FD: at most 1).",
+        rich_help_panel=_MODEL,
+    ),
+]
+Minimum = Annotated[
+    Optional[int],
+    typer.Option(
+        "--minimum",
+        help="Uniform lower bound: at least this many balls in every urn (default 0).",
+        rich_help_panel=_MODEL,
+    ),
+]
+Bounds = Annotated[
+    Optional[str],
+    typer.Option(
+        "--bounds",
+        help='Per-urn bounds "a:b,a:b,..." (lower:upper for each urn in turn; "a:" means '
+        "no upper bound). Use instead of --capacity/--minimum.",
+        rich_help_panel=_MODEL,
+    ),
+]
+Store = Annotated[
+    Optional[str],
+    typer.Option(
+        "--store",
+        metavar="PATH-OR-URL",
+        help="Result store: a SQLite file path or a database URL.",
+        rich_help_panel=_OUTPUT,
+    ),
+]
+NoCache = Annotated[
+    bool,
+    typer.Option(
+        "--no-cache",
+        help="Compute afresh; neither read nor write the result store.",
+        rich_help_panel=_OUTPUT,
+    ),
+]
+Json = Annotated[
+    bool,
+    typer.Option(
+        "--json",
+        help="Print one JSON object: exact integers as decimal strings, rationals as "
+        '"p/q", floats only in fields named approx.',
+        rich_help_panel=_OUTPUT,
+    ),
+]
+
+
+class ListFormat(str, Enum):
+    """Row formats of ``enumerator list``."""
+
+    csv = "csv"
+    jsonl = "jsonl"
+
+
+# --------------------------------------------------------------------------
+# Helpers
+# --------------------------------------------------------------------------
+def build_model(
+    balls: int,
+    urns: Optional[int] = None,
+    rule: "Rule | str" = Rule.MB,
+    capacity: Optional[int] = None,
+    minimum: Optional[int] = None,
+    bounds: Optional[str] = None,
+) -> Occupancy:
+    """Return the :class:`Occupancy` described by the shared model options.
+
+    Validation is the model's: malformed input raises
+    :class:`~enumerator.errors.InvalidParameters`, which the error wrapper
+    prints as one line with exit code 2.
+    """
+    return Occupancy(
+        balls=balls,
+        urns=urns,
+        rule=rule,
+        capacity=capacity,
+        minimum=minimum,
+        bounds=bounds,
+    )
+
+
+def exact(value) -> str:
+    """Encode an exact ``int`` or ``Fraction`` for JSON (decimal / ``p/q`` string)."""
+    if isinstance(value, bool):
+        raise TypeError("booleans are not exact numbers")
+    if isinstance(value, Fraction):
+        return str(value)
+    return str(int(value))
+
+
+def emit_json(payload: dict) -> None:
+    """Print *payload* as one JSON object on one line of stdout."""
+    sys.stdout.write(json.dumps(payload, ensure_ascii=False) + "\n")
+    sys.stdout.flush()
+
+
+def _console() -> Console:
+    # Built per call so that a redirected sys.stdout (tests, pipes) is honoured.
+    return Console(file=sys.stdout, highlight=False, soft_wrap=False)
+
+
+def show_table(
+    title: str,
+    columns: Sequence[str],
+    rows: Iterable[Sequence[str]],
+    labels: Optional[Sequence[str]] = None,
+) -> None:
+    """Print a rich table; cells longer than ``LONG`` characters follow it in full.
+
+    A rich table wraps long cells, which would cut a 100,000-digit count into
+    pieces; such a cell shows its length instead and the value is then written
+    on a line of its own, unbroken, as ``<label> <column> = <value>``.
+    """
+    table = Table()
+    for i, name in enumerate(columns):
+        table.add_column(name, justify="left" if i == 0 else "right", overflow="fold")
+    spill = []
+    for row_number, row in enumerate(rows):
+        cells = []
+        for i, cell in enumerate(row):
+            if i > 0 and len(cell) > LONG:
+                label = labels[row_number] if labels else row[0]
+                spill.append((f"{label} {columns[i]}".strip(), cell))
+                cells.append(f"{len(cell):,} characters, in full below")
+            else:
+                cells.append(cell)
+        table.add_row(*cells)
+    console = _console()
+    console.print(title, style="bold")
+    console.print(table)
+    for label, cell in spill:
+        sys.stdout.write(f"{label} = {cell}\n")
+    sys.stdout.flush()
+
+
+_WHOLE = re.compile(r"[+-]?\d+")
+
+
+def parse_config(text: str) -> tuple:
+    """Parse ``"2,0,1"`` into a tuple of ints (length, sum and signs are the model's to check)."""
+    items = text.split(",")
+    values = []
+    for position, item in enumerate(items, start=1):
+        item = item.strip()
+        if not _WHOLE.fullmatch(item):
+            raise InvalidConfiguration(
+                f"config entry {position} ({item!r}) is not a whole number; "
+                'write one occupancy per urn separated by commas, e.g. --config 2,0,1'
+            )
+        values.append(int(item))
+    return tuple(values)
+
+
+def _approx(value: Fraction) -> float:
+    # Fraction.__float__ divides the exact integers, correctly rounded.
+    return float(value)
+
+
+def _describe(model: Occupancy) -> str:
+    bounds = "" if model.canonical_bounds() == f"{model.urns}*0:" else f", bounds {model.canonical_bounds()}"
+    return (
+        f"{model.rule.title} ({model.rule.value}): {model.balls} balls in "
+        f"{model.urns} urns{bounds}"
+    )
+
+
+# --------------------------------------------------------------------------
+# Commands
+# --------------------------------------------------------------------------
+@app.command("count")
+def count_command(
+    balls: Balls,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Count the admissible occupancy vectors and the equally likely outcomes.
+
+    configurations: how many occupancy vectors (k1,...,kr) fit the bounds.
+    microstates: how many equally likely outcomes there are under the rule
+    (MB: assignments of distinguishable balls to urns; BE and FD: the vectors
+    themselves).  Both are exact, however many digits they have.
+
+    Example:
+
+        $ enumerator count -n 3 -r 2 --rule BE
+        $ enumerator count -n 10 -r 4 --capacity 3 --json
+        $ enumerator count -n 5 --bounds "0:2,1:,0:3"
+    """
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    configurations = model.configurations()
+    microstates = model.microstates()
+    if as_json:
+        emit_json(
+            {
+                "rule": model.rule.value,
+                "balls": exact(model.balls),
+                "urns": exact(model.urns),
+                "configurations": exact(configurations),
+                "microstates": exact(microstates),
+            }
+        )
+        return
+    show_table(
+        _describe(model),
+        ["quantity", "exact value"],
+        [
+            ["configurations", exact(configurations)],
+            ["microstates", exact(microstates)],
+        ],
+    )
+
+
+@app.command("prob")
+def prob_command(
+    balls: Balls,
+    config: Annotated[
+        str,
+        typer.Option(
+            "--config",
+            help='The occupancy vector "k1,k2,...,kr": one whole number per urn, summing to n.',
+        ),
+    ],
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Give the exact probability of one occupancy vector under the rule.
+
+    MB: n!/(k1!...kr!) assignments out of all admissible ones; BE and FD: one
+    vector out of all admissible vectors.  A vector that breaks a bound has
+    probability exactly 0; one of the wrong length or sum is an error.
+
+    Example:
+
+        $ enumerator prob -n 3 -r 3 --config 2,0,1
+        $ enumerator prob -n 3 -r 3 --config 2,0,1 --rule BE --json
+    """
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    vector = parse_config(config)
+    probability = model.probability(vector)
+    text = ",".join(map(str, vector))
+    if as_json:
+        emit_json(
+            {
+                "rule": model.rule.value,
+                "balls": exact(model.balls),
+                "urns": exact(model.urns),
+                "config": text,
+                "probability": exact(probability),
+                "approx": _approx(probability),
+            }
+        )
+        return
+    show_table(
+        f"{_describe(model)}; configuration ({text})",
+        ["quantity", "value"],
+        [
+            ["probability (exact)", exact(probability)],
+            ["probability (approx)", f"{_approx(probability):.6g}"],
+        ],
+    )
+
+
+#: Rows per numpy block when listing; large enough to amortise the call.
+_BLOCK = 1 << 14
+
+
+@app.command("list")
+def list_command(
+    balls: Balls,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    limit: Annotated[
+        Optional[int],
+        typer.Option("--limit", help="Print at most this many configurations."),
+    ] = None,
+    start: Annotated[
+        int,
+        typer.Option("--start", help="First lexicographic rank to print (0-based)."),
+    ] = 0,
+    stop: Annotated[
+        Optional[int],
+        typer.Option("--stop", help="Stop before this rank (default: the end)."),
+    ] = None,
+    fmt: Annotated[
+        ListFormat,
+        typer.Option(
+            "--format",
+            case_sensitive=False,
+            help="csv: a header k1,...,kr then one row per configuration; "
+            "jsonl: one JSON array of integers per line.",
+        ),
+    ] = ListFormat.csv,
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """List the admissible occupancy vectors in lexicographic order, streaming.
+
+    Ranks start at 0; --start/--stop select the ranks [start, stop) without
+    walking the earlier ones, so a long listing can be split into shards.
+    Nothing is held in memory.  With --json the output is one JSON object
+    whose "configurations" field is the array of the listed vectors (arrays
+    of integers, as in jsonl) and whose "listed" field counts them.
+
+    Example:
+
+        $ enumerator list -n 3 -r 3 --rule BE
+        $ enumerator list -n 20 -r 6 --start 1000 --limit 5 --format jsonl
+    """
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    start = as_count(start, "--start")
+    if stop is not None:
+        stop = as_count(stop, "--stop")
+    if limit is not None:
+        limit = as_count(limit, "--limit")
+        stop = start + limit if stop is None else min(stop, start + limit)
+    rows = _text_rows(model, start, stop)
+    out = sys.stdout
+    if as_json:
+        out.write(
+            '{"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d", "configurations": ['
+            % (model.rule.value, model.balls, model.urns, start)
+        )
+        listed = 0
+        for chunk, size in rows:
+            out.write(("," if listed else "") + ",".join(f"[{row}]" for row in chunk))
+            listed += size
+        out.write('], "listed": "%d"}\n' % listed)
+    elif fmt is ListFormat.csv:
+        out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
+        for chunk, _ in rows:
+            out.write("\n".join(chunk) + "\n")
+    else:
+        for chunk, _ in rows:
+            out.write("\n".join(f"[{row}]" for row in chunk) + "\n")
+    out.flush()
+
+
+def _text_rows(model: Occupancy, start: int, stop: Optional[int]):
+    """Yield ``(rows, count)``: each configuration as ``"k1,k2,...,kr"`` text, in blocks."""
+    for block in model.iter_blocks(_BLOCK, start, stop):
+        if len(block) == 0:
+            continue
+        text = [",".join(row) for row in block.astype(str).tolist()]
+        yield text, len(text)
+
+
+_PER_URN = [("any", "any number"), ("at_most_one", "at most one"), ("at_least_one", "at least one")]
+
+
+@app.command("ways")
+def ways_command(
+    balls: Balls,
+    urns: Annotated[
+        int,
+        typer.Option("--urns", "-r", help="Number of urns r, >= 1.", rich_help_panel=_MODEL),
+    ],
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Print the twelvefold way: n balls into r urns, twelve exact counts.
+
+    Balls labelled (distinguishable) or unlabelled (identical), urns labelled
+    or unlabelled, and any number / at most one / at least one ball per urn.
+    Labelled balls into labelled urns, any number, is MB's r^n; unlabelled
+    balls into labelled urns is BE (any) and FD (at most one).
+
+    Example:
+
+        $ enumerator ways -n 5 -r 3
+        $ enumerator ways -n 5 -r 3 --json
+    """
+    from .counting import twelvefold
+
+    n = as_count(balls, "balls")
+    r = as_count(urns, "urns", 1)
+    ways = twelvefold(n, r)
+    if as_json:
+        emit_json(
+            {
+                "balls": exact(n),
+                "urns": exact(r),
+                "ways": [
+                    {
+                        "balls": way["balls"],
+                        "urns": way["urns"],
+                        "per_urn": way["per_urn"],
+                        "count": exact(way["count"]),
+                    }
+                    for way in ways
+                ],
+            }
+        )
+        return
+    lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
+    rows, labels = [], []
+    for ball_kind in ("labelled", "unlabelled"):
+        for urn_kind in ("labelled", "unlabelled"):
+            rows.append(
+                [f"{ball_kind} balls, {urn_kind} urns"]
+                + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+            )
+            labels.append(f"{ball_kind} balls, {urn_kind} urns,")
+    show_table(
+        f"The twelvefold way: {n} balls into {r} urns (balls per urn)",
+        [""] + [title for _, title in _PER_URN],
+        rows,
+        labels,
+    )
+
+
+# -- demo ------------------------------------------------------------------
+_DEMO_BALLS = 3
+_DEMO_SITES = 5
+_DEMO_CONFIGS = [(3, 0, 0, 0, 0), (2, 1, 0, 0, 0), (1, 1, 1, 0, 0)]
+_DEMO_CONFIG_NAMES = ["all three on site 1", "two on site 1, one on site 2", "one each on sites 1-3"]
+_DEMO_LISTED = 4
+_DEMO_STORY = {
+    Rule.MB: (
+        "Tagged molecules (say, each carries a different isotope label), each landing on a "
+        "site uniformly at random and independently: all {micro} assignments are equally "
+        "likely, and they fall into {conf} occupancy patterns of unequal weight."
+    ),
+    Rule.BE: (
+        "Identical molecules that may stack on a site: each of the {conf} occupancy "
+        "patterns is equally likely, so piling up is far likelier than under MB."
+    ),
+    Rule.FD: (
+        "Identical molecules that block their site (at most one per site): only {conf} "
+        "patterns remain, each equally likely; a doubly occupied site has probability 0."
+    ),
+}
+
+
+@app.command("demo")
+def demo_command(as_json: Json = False) -> None:
+    """Show the whole job on an invented scenario: gas molecules on catalyst sites.
+
+    Three gas molecules adsorb onto a catalyst grain with five binding sites.
+    The three rules are three different physical assumptions about the
+    molecules; for each the demo prints the exact counts, the exact
+    probability of three occupancy patterns and the first few patterns in
+    lexicographic order.
+
+    Example:
+
+        $ enumerator demo
+        $ enumerator demo --json
+    """
+    results = []
+    for rule in (Rule.MB, Rule.BE, Rule.FD):
+        model = build_model(_DEMO_BALLS, _DEMO_SITES, rule)
+        probabilities = [model.probability(k) for k in _DEMO_CONFIGS]
+        first = list(model.iter_configurations(0, _DEMO_LISTED))
+        results.append((model, model.configurations(), model.microstates(), probabilities, first))
+
+    if as_json:
+        emit_json(
+            {
+                "scenario": f"{_DEMO_BALLS} gas molecules adsorbed on {_DEMO_SITES} catalyst sites",
+                "balls": exact(_DEMO_BALLS),
+                "urns": exact(_DEMO_SITES),
+                "rules": [
+                    {
+                        "rule": model.rule.value,
+                        "configurations": exact(conf),
+                        "microstates": exact(micro),
+                        "probabilities": [
+                            {
+                                "config": ",".join(map(str, k)),
+                                "probability": exact(p),
+                                "approx": _approx(p),
+                            }
+                            for k, p in zip(_DEMO_CONFIGS, probabilities)
+                        ],
+                        "first": [",".join(map(str, k)) for k in first],
+                    }
+                    for model, conf, micro, probabilities, first in results
+                ],
+            }
+        )
+        return
+
+    console = _console()
+    console.print(
+        f"Scenario: {_DEMO_BALLS} gas molecules adsorb onto a catalyst grain with "
+        f"{_DEMO_SITES} binding sites (urns).\nWhich occupancy patterns can arise, and how "
+        "likely is each?  The answer depends on what the molecules are:\n"
+    )
+    for model, conf, micro, _, _ in results:
+        console.print(
+            f"- {model.rule.value} ({model.rule.title}): "
+            + _DEMO_STORY[model.rule].format(conf=conf, micro=micro)
+        )
+    console.print()
+    show_table(
+        "Exact counts",
+        ["rule", "configurations", "microstates"],
+        [[m.rule.value, exact(c), exact(u)] for m, c, u, _, _ in results],
+    )
+    show_table(
+        "Exact probability of an occupancy pattern (approximate value in brackets)",
+        ["pattern"] + [m.rule.value for m, *_ in results],
+        [
+            [f"{','.join(map(str, k))}  ({name})"]
+            + [f"{exact(r[3][i])}  ({_approx(r[3][i]):.4f})" for r in results]
+            for i, (k, name) in enumerate(zip(_DEMO_CONFIGS, _DEMO_CONFIG_NAMES))
+        ],
+    )
+    show_table(
+        f"The first {_DEMO_LISTED} patterns in lexicographic order (rank: pattern)",
+        ["rank"] + [m.rule.value for m, *_ in results],
+        [
+            [str(i)] + [",".join(map(str, r[4][i])) if i < len(r[4]) else "" for r in results]
+            for i in range(_DEMO_LISTED)
+        ],
+    )
+    console.print(
+        "\nTry it yourself: enumerator count -n 3 -r 5 --rule BE, enumerator prob -n 3 -r 5 "
+        "--config 2,1,0,0,0, enumerator list -n 3 -r 5 --rule FD."
+    )
