@@ -466,16 +466,19 @@ def _profiles_by_enumeration(model: Occupancy) -> int:
             f"counting profiles with differing per-urn bounds examines {budget} partitions, "
             f"above the limit {PROFILE_ENUMERATION_LIMIT}; use uniform bounds or fewer balls"
         )
+    if n == 0:
+        return 1 if _interval_matching([0] * r, model.bounds) else 0
+    if budget == 0:
+        return 0
     from sympy.utilities.iterables import partitions
 
     found = 0
+    # sympy yields one empty dict when no partition exists; budget > 0 rules that out
     for part in partitions(n, m=r, k=largest):
         values = [v for v, times in part.items() for _ in range(times)]
         values.extend([0] * (r - len(values)))
         if _interval_matching(values, model.bounds):
             found += 1
-    if n == 0:
-        return 1 if _interval_matching([0] * r, model.bounds) else 0
     return found
 
 
