@@ -50,8 +50,8 @@ from .model import Occupancy, Rule, as_count
 
 __all__ = ["app", "build_model", "emit_json", "main"]
 
-#: Values longer than this are printed on a line of their own, never wrapped.
-LONG = 60
+#: A value column narrower than this still gets the value in the table.
+NARROW = 12
 
 
 # --------------------------------------------------------------------------
@@ -285,33 +285,36 @@ def _console() -> Console:
     return Console(file=sys.stdout, highlight=False, soft_wrap=False)
 
 
-def show_table(
-    title: str,
-    columns: Sequence[str],
-    rows: Iterable[Sequence[str]],
-    labels: Optional[Sequence[str]] = None,
-) -> None:
-    """Print a rich table; cells longer than ``LONG`` characters follow it in full.
+def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]) -> None:
+    """Print a rich table; values too wide for it follow the table in full.
 
-    A rich table wraps long cells, which would cut a 100,000-digit count into
-    pieces; such a cell shows its length instead and the value is then written
-    on a line of its own, unbroken, as ``<label> <column> = <value>``.
+    A rich table folds long cells, which would cut a 100,000-digit count into
+    pieces; such a cell gives its length instead and the value is then written
+    on a line of its own, unbroken, as ``<row> = <value>`` (two columns) or
+    ``<row>, <column> = <value>``.  The width each value column may use is
+    what the terminal leaves after the first column, shared equally.
     """
+    rows = [list(row) for row in rows]
+    console = _console()
+    first = max([len(columns[0])] + [len(row[0]) for row in rows])
+    share = (console.width - first - 3 * len(columns) - 1) // max(1, len(columns) - 1)
+    share = max(share, NARROW)
     table = Table()
     for i, name in enumerate(columns):
         table.add_column(name, justify="left" if i == 0 else "right", overflow="fold")
     spill = []
-    for row_number, row in enumerate(rows):
-        cells = []
-        for i, cell in enumerate(row):
-            if i > 0 and len(cell) > LONG:
-                label = labels[row_number] if labels else row[0]
-                spill.append((f"{label} {columns[i]}".strip(), cell))
-                cells.append(f"{len(cell):,} characters, in full below")
-            else:
+    for row in rows:
+        cells = [row[0]]
+        for i, cell in enumerate(row[1:], start=1):
+            if len(cell) <= share:
                 cells.append(cell)
+                continue
+            label = row[0] if len(columns) == 2 else f"{row[0]}, {columns[i]}"
+            spill.append((label, cell))
+            unit = "digits" if cell.isdigit() else "characters"
+            note = f"{len(cell):,} {unit}, see below"
+            cells.append(note if len(note) <= share else "see below")
         table.add_row(*cells)
-    console = _console()
     console.print(title, style="bold")
     console.print(table)
     for label, cell in spill:
@@ -595,19 +598,16 @@ def ways_command(
         )
         return
     lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
-    rows, labels = [], []
-    for ball_kind in ("labelled", "unlabelled"):
-        for urn_kind in ("labelled", "unlabelled"):
-            rows.append(
-                [f"{ball_kind} balls, {urn_kind} urns"]
-                + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
-            )
-            labels.append(f"{ball_kind} balls, {urn_kind} urns,")
+    rows = [
+        [f"{ball_kind} balls, {urn_kind} urns"]
+        + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+        for ball_kind in ("labelled", "unlabelled")
+        for urn_kind in ("labelled", "unlabelled")
+    ]
     show_table(
-        f"The twelvefold way: {n} balls into {r} urns (balls per urn)",
-        [""] + [title for _, title in _PER_URN],
+        f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
+        ["balls and urns"] + [title for _, title in _PER_URN],
         rows,
-        labels,
     )
 
 
@@ -615,23 +615,30 @@ def ways_command(
 _DEMO_BALLS = 3
 _DEMO_SITES = 5
 _DEMO_CONFIGS = [(3, 0, 0, 0, 0), (2, 1, 0, 0, 0), (1, 1, 1, 0, 0)]
-_DEMO_CONFIG_NAMES = ["all three on site 1", "two on site 1, one on site 2", "one each on sites 1-3"]
+_DEMO_CONFIG_NAMES = ["all three on site 1", "two on site 1 and one on site 2", "one each on sites 1, 2, 3"]
 _DEMO_LISTED = 4
 _DEMO_STORY = {
     Rule.MB: (
-        "Tagged molecules (say, each carries a different isotope label), each landing on a "
-        "site uniformly at random and independently: all {micro} assignments are equally "
-        "likely, and they fall into {conf} occupancy patterns of unequal weight."
+        "Tagged molecules (each carries a different isotope label), each landing on a "
+        "site uniformly at random and independently of the others: all {micro} "
+        "assignments are equally likely, and they fall into {conf} occupancy patterns "
+        "of unequal weight."
     ),
     Rule.BE: (
         "Identical molecules that may stack on a site: each of the {conf} occupancy "
-        "patterns is equally likely, so piling up is far likelier than under MB."
+        "patterns is equally likely, so all three on site 1 has probability {pile} "
+        "here against {pile_mb} under MB."
     ),
     Rule.FD: (
         "Identical molecules that block their site (at most one per site): only {conf} "
-        "patterns remain, each equally likely; a doubly occupied site has probability 0."
+        "patterns remain, each equally likely, and any doubly occupied site has "
+        "probability 0."
     ),
 }
+
+
+def _demo_cell(p: Fraction) -> str:
+    return "0" if p == 0 else f"{exact(p)} ≈ {_approx(p):.4f}"
 
 
 @app.command("demo")
@@ -686,38 +693,51 @@ def demo_command(as_json: Json = False) -> None:
     console = _console()
     console.print(
         f"Scenario: {_DEMO_BALLS} gas molecules adsorb onto a catalyst grain with "
-        f"{_DEMO_SITES} binding sites (urns).\nWhich occupancy patterns can arise, and how "
-        "likely is each?  The answer depends on what the molecules are:\n"
+        f"{_DEMO_SITES} binding sites (the urns). Which occupancy patterns can arise, and "
+        "how likely is each? That depends on what the molecules are:"
     )
-    for model, conf, micro, _, _ in results:
-        console.print(
-            f"- {model.rule.value} ({model.rule.title}): "
-            + _DEMO_STORY[model.rule].format(conf=conf, micro=micro)
+    stories = Table.grid(padding=(0, 1))
+    stories.add_column(no_wrap=True)
+    stories.add_column()
+    pile_mb = results[0][3][0]
+    for model, conf, micro, probabilities, _ in results:
+        story = _DEMO_STORY[model.rule].format(
+            conf=conf, micro=micro, pile=exact(probabilities[0]), pile_mb=exact(pile_mb)
         )
+        stories.add_row(f"  {model.rule.value} ({model.rule.title})", story)
+    console.print(stories)
     console.print()
     show_table(
         "Exact counts",
         ["rule", "configurations", "microstates"],
         [[m.rule.value, exact(c), exact(u)] for m, c, u, _, _ in results],
     )
+    console.print()
     show_table(
-        "Exact probability of an occupancy pattern (approximate value in brackets)",
+        "Exact probability of an occupancy pattern (≈ its approximate value)",
         ["pattern"] + [m.rule.value for m, *_ in results],
         [
-            [f"{','.join(map(str, k))}  ({name})"]
-            + [f"{exact(r[3][i])}  ({_approx(r[3][i]):.4f})" for r in results]
-            for i, (k, name) in enumerate(zip(_DEMO_CONFIGS, _DEMO_CONFIG_NAMES))
+            [",".join(map(str, k))] + [_demo_cell(r[3][i]) for r in results]
+            for i, k in enumerate(_DEMO_CONFIGS)
         ],
     )
+    console.print(
+        "Patterns: "
+        + "; ".join(f"{','.join(map(str, k))} is {name}" for k, name in zip(_DEMO_CONFIGS, _DEMO_CONFIG_NAMES))
+        + "."
+    )
+    console.print()
     show_table(
-        f"The first {_DEMO_LISTED} patterns in lexicographic order (rank: pattern)",
+        f"The first {_DEMO_LISTED} patterns in lexicographic order",
         ["rank"] + [m.rule.value for m, *_ in results],
         [
             [str(i)] + [",".join(map(str, r[4][i])) if i < len(r[4]) else "" for r in results]
             for i in range(_DEMO_LISTED)
         ],
     )
+    console.print()
     console.print(
-        "\nTry it yourself: enumerator count -n 3 -r 5 --rule BE, enumerator prob -n 3 -r 5 "
-        "--config 2,1,0,0,0, enumerator list -n 3 -r 5 --rule FD."
+        f"Try: enumerator count -n {_DEMO_BALLS} -r {_DEMO_SITES} --rule BE;  "
+        f"enumerator prob -n {_DEMO_BALLS} -r {_DEMO_SITES} --config 2,1,0,0,0;  "
+        f"enumerator list -n {_DEMO_BALLS} -r {_DEMO_SITES} --rule FD"
     )
