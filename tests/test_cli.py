@@ -10,15 +10,18 @@ and partition counts, SciPy's multinomial pmf, and brute-force enumeration with
 from __future__ import annotations
 
 import csv
+import doctest
 import io
 import itertools
 import json
 import math
 import os
 import re
+import shlex
 import subprocess
 import sys
 from fractions import Fraction
+from pathlib import Path
 
 import pytest
 import sympy
@@ -472,3 +475,42 @@ def test_demo_runs_all_three_rules():
             assert item["approx"] == pytest.approx(float(Fraction(item["probability"])))
             total += Fraction(item["probability"])
         assert total <= 1
+
+
+# ---------------------------------------------------------------- README examples are real
+
+README = Path(__file__).resolve().parent.parent / "README.md"
+
+
+def _readme_blocks(kind: str):
+    return re.findall(rf"```{kind}\n(.*?)```", README.read_text(encoding="utf-8"), re.S)
+
+
+def _console_examples():
+    examples = []
+    for block in _readme_blocks("console"):
+        for line in block.splitlines():
+            if line.startswith("$ "):
+                examples.append((line[2:], []))
+            else:
+                examples[-1][1].append(line)
+    return examples
+
+
+@pytest.mark.parametrize("command, expected", _console_examples(), ids=lambda v: v if isinstance(v, str) else "")
+def test_readme_console_examples_are_real_output(command, expected):
+    args = shlex.split(command)
+    assert args[0] == "enumerator"
+    result = runner.invoke(app, args[1:], env={"COLUMNS": "80"})
+    shown = (result.stdout + result.stderr).splitlines()
+    assert [line.rstrip() for line in shown] == [line.rstrip() for line in expected]
+
+
+def test_readme_python_examples_run():
+    blocks = _readme_blocks("pycon")
+    assert blocks
+    parser, doctest_runner = doctest.DocTestParser(), doctest.DocTestRunner()
+    for number, block in enumerate(blocks):
+        test = parser.get_doctest(block, {}, f"README.md pycon block {number}", str(README), 0)
+        doctest_runner.run(test)
+    assert doctest_runner.summarize(verbose=False).failed == 0
