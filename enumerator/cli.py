@@ -346,11 +346,19 @@ def _approx(value: Fraction) -> float:
 
 
 def _describe(model: Occupancy) -> str:
-    bounds = "" if model.canonical_bounds() == f"{model.urns}*0:" else f", bounds {model.canonical_bounds()}"
-    return (
-        f"{model.rule.title} ({model.rule.value}): {model.balls} balls in "
-        f"{model.urns} urns{bounds}"
-    )
+    """One line naming the model for the title of a table."""
+    text = f"{model.rule.title} ({model.rule.value}): {model.balls} balls in {model.urns} urns"
+    if not model.is_uniform:
+        return text + ", bounds " + model.canonical_bounds()
+    low, high = model.bounds[0]
+    limits = []
+    if low:
+        limits.append(f"at least {low}")
+    if high is not None and not (model.rule is Rule.FD and high == 1):
+        limits.append(f"at most {high}")
+    if limits:
+        text += ", " + " and ".join(limits) + " per urn"
+    return text
 
 
 # --------------------------------------------------------------------------
