@@ -290,6 +290,37 @@ def test_list_many_rows_in_blocks():
     assert lines[1] == "0,0,0,0,0,0,12" and lines[-1] == "12,0,0,0,0,0,0"
 
 
+@settings(max_examples=40, deadline=None)
+@given(
+    rows=st.lists(st.lists(st.integers(0, 10**6), min_size=3, max_size=3), min_size=1, max_size=30),
+    dtype=st.sampled_from(["uint8", "uint16", "int32", "int64"]),
+)
+def test_format_rows_equals_plain_str_join(rows, dtype):
+    # The vectorised writer against the obvious str/join formatting.
+    import numpy as np
+
+    from enumerator.cli import format_rows
+
+    limit = np.iinfo(dtype).max
+    rows = [[min(v, limit) for v in row] for row in rows]
+    block = np.array(rows, dtype=dtype)
+    assert format_rows(block) == "".join(",".join(map(str, row)) + "\n" for row in rows)
+    assert format_rows(block, "[", "]\n") == "".join(json.dumps(row, separators=(",", ":")) + "\n" for row in rows)
+
+
+def test_list_stops_quietly_when_the_reader_goes_away():
+    # ``enumerator list ... | head -n 2``: exit 0, nothing on stderr.
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "enumerator", "list", "-n", "40", "-r", "12"],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+    )
+    assert proc.stdout.readline().strip() == b",".join(b"k%d" % i for i in range(1, 13))
+    proc.stdout.readline()
+    proc.stdout.close()
+    assert proc.wait(timeout=120) == 0
+    assert proc.stderr.read() == b""
+
+
 # ---------------------------------------------------------------- ways
 
 
