@@ -344,16 +344,32 @@ class Occupancy:
 
     # -- exact quantities (implemented in counting / listing) -----------
     def configurations(self) -> int:
-        """The number of admissible occupancy vectors (exact ``int``)."""
-        from .counting import count_configurations
+        """The number of admissible occupancy vectors (exact ``int``).
 
-        return count_configurations(self)
+        Remembered in the result store (:func:`enumerator.store.remember`);
+        the pure computation is :func:`enumerator.counting.count_configurations`.
+        """
+        from functools import partial
+
+        from .counting import count_configurations
+        from .store import remember
+
+        return remember("configurations", self, partial(count_configurations, self))
 
     def microstates(self) -> int:
-        """The number of equally likely outcomes (MB: assignments; BE/FD: vectors)."""
-        from .counting import count_microstates
+        """The number of equally likely outcomes (MB: assignments; BE/FD: vectors).
 
-        return count_microstates(self)
+        Remembered in the result store; BE and FD share the entry of
+        :meth:`configurations`.  Pure: :func:`enumerator.counting.count_microstates`.
+        """
+        if self.rule is not Rule.MB:
+            return self.configurations()
+        from functools import partial
+
+        from .counting import count_microstates
+        from .store import remember
+
+        return remember("microstates", self, partial(count_microstates, self))
 
     def weight(self, config) -> int:
         """The number of equally likely outcomes with occupancy *config*."""
@@ -368,10 +384,16 @@ class Occupancy:
         return configuration_probability(self, config)
 
     def profiles(self) -> int:
-        """The number of distinct occupancy profiles (multisets of entries)."""
-        from .counting import count_profiles
+        """The number of distinct occupancy profiles (multisets of entries).
 
-        return count_profiles(self)
+        Remembered in the result store; pure: :func:`enumerator.counting.count_profiles`.
+        """
+        from functools import partial
+
+        from .counting import count_profiles
+        from .store import remember
+
+        return remember("profiles", self, partial(count_profiles, self))
 
     def iter_configurations(self, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
         """Yield admissible configurations of ranks ``[start, stop)`` in lexicographic order."""
