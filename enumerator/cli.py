@@ -31,6 +31,7 @@ import os
 import re
 import sys
 import traceback
+from contextlib import contextmanager
 from enum import Enum
 from fractions import Fraction
 from typing import Annotated, Iterable, Optional, Sequence
@@ -49,7 +50,7 @@ except ImportError:  # pragma: no cover - older typer on top of click
 from .errors import EnumeratorError, InvalidConfiguration
 from .model import Occupancy, Rule, as_count
 
-__all__ = ["app", "build_model", "emit_json", "exact", "format_rows", "main", "show_table"]
+__all__ = ["app", "build_model", "emit_json", "exact", "format_rows", "main", "show_table", "store_scope"]
 
 #: A value column narrower than this still gets the value in the table.
 NARROW = 12
@@ -218,7 +219,8 @@ Store = Annotated[
     typer.Option(
         "--store",
         metavar="PATH-OR-URL",
-        help="Result store: a SQLite file path or a database URL.",
+        help="Result store to remember results in: a SQLite file path or a database URL "
+        "(default: $ENUMERATOR_STORE, else store/ in a source checkout, else the user cache).",
         rich_help_panel=_OUTPUT,
     ),
 ]
@@ -226,7 +228,7 @@ NoCache = Annotated[
     bool,
     typer.Option(
         "--no-cache",
-        help="Compute afresh; neither read nor write the result store.",
+        help="Compute afresh; neither read nor write the result store (wins over --store).",
         rich_help_panel=_OUTPUT,
     ),
 ]
@@ -273,6 +275,28 @@ def build_model(
         minimum=minimum,
         bounds=bounds,
     )
+
+
+@contextmanager
+def store_scope(location: Optional[str], no_cache: bool):
+    """Run the block against the result store chosen by ``--store`` / ``--no-cache``.
+
+    ``--no-cache`` computes everything afresh and stores nothing (it wins over
+    ``--store``); ``--store PATH-OR-URL`` remembers results there; neither
+    leaves the store's own default (``ENUMERATOR_STORE``, else the checkout's
+    ``store/`` folder, else the user cache directory; see
+    :mod:`enumerator.store`).
+    """
+    from . import store as results
+
+    if no_cache:
+        with results.bypass():
+            yield
+    elif location is not None:
+        with results.using(location):
+            yield
+    else:
+        yield
 
 
 def exact(value) -> str:
@@ -399,28 +423,29 @@ def count_command(
         $ enumerator count -n 10 -r 4 --capacity 3 --json
         $ enumerator count -n 5 --bounds "0:2,1:,0:3"
     """
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
-    configurations = model.configurations()
-    microstates = model.microstates()
-    if as_json:
-        emit_json(
-            {
-                "rule": model.rule.value,
-                "balls": exact(model.balls),
-                "urns": exact(model.urns),
-                "configurations": exact(configurations),
-                "microstates": exact(microstates),
-            }
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        configurations = model.configurations()
+        microstates = model.microstates()
+        if as_json:
+            emit_json(
+                {
+                    "rule": model.rule.value,
+                    "balls": exact(model.balls),
+                    "urns": exact(model.urns),
+                    "configurations": exact(configurations),
+                    "microstates": exact(microstates),
+                }
+            )
+            return
+        show_table(
+            _describe(model),
+            ["quantity", "exact value"],
+            [
+                ["configurations", exact(configurations)],
+                ["microstates", exact(microstates)],
+            ],
         )
-        return
-    show_table(
-        _describe(model),
-        ["quantity", "exact value"],
-        [
-            ["configurations", exact(configurations)],
-            ["microstates", exact(microstates)],
-        ],
-    )
 
 
 @app.command("prob")
@@ -453,30 +478,31 @@ def prob_command(
         $ enumerator prob -n 3 -r 3 --config 2,0,1
         $ enumerator prob -n 3 -r 3 --config 2,0,1 --rule BE --json
     """
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
-    vector = parse_config(config)
-    probability = model.probability(vector)
-    text = ",".join(map(str, vector))
-    if as_json:
-        emit_json(
-            {
-                "rule": model.rule.value,
-                "balls": exact(model.balls),
-                "urns": exact(model.urns),
-                "config": text,
-                "probability": exact(probability),
-                "approx": _approx(probability),
-            }
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        vector = parse_config(config)
+        probability = model.probability(vector)
+        text = ",".join(map(str, vector))
+        if as_json:
+            emit_json(
+                {
+                    "rule": model.rule.value,
+                    "balls": exact(model.balls),
+                    "urns": exact(model.urns),
+                    "config": text,
+                    "probability": exact(probability),
+                    "approx": _approx(probability),
+                }
+            )
+            return
+        show_table(
+            f"{_describe(model)}; configuration ({text})",
+            ["quantity", "value"],
+            [
+                ["probability (exact)", exact(probability)],
+                ["probability (approx)", f"{_approx(probability):.6g}"],
+            ],
         )
-        return
-    show_table(
-        f"{_describe(model)}; configuration ({text})",
-        ["quantity", "value"],
-        [
-            ["probability (exact)", exact(probability)],
-            ["probability (approx)", f"{_approx(probability):.6g}"],
-        ],
-    )
 
 
 #: Rows per numpy block when listing; large enough to amortise the call.
@@ -529,34 +555,35 @@ def list_command(
         $ enumerator list -n 3 -r 3 --rule BE
         $ enumerator list -n 20 -r 6 --start 1000 --limit 5 --format jsonl
     """
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
-    start = as_count(start, "--start")
-    if stop is not None:
-        stop = as_count(stop, "--stop")
-    if limit is not None:
-        limit = as_count(limit, "--limit")
-        stop = start + limit if stop is None else min(stop, start + limit)
-    blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
-    out = sys.stdout
-    if as_json:
-        out.write(
-            '{"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d", "configurations": ['
-            % (model.rule.value, model.balls, model.urns, start)
-        )
-        listed = 0
-        for block in blocks:
-            # Rows "[k1,...,kr]," with the last comma dropped; one more comma between blocks.
-            out.write(("," if listed else "") + format_rows(block, "[", "],")[:-1])
-            listed += len(block)
-        out.write('], "listed": "%d"}\n' % listed)
-    elif fmt is ListFormat.csv:
-        out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
-        for block in blocks:
-            out.write(format_rows(block))
-    else:
-        for block in blocks:
-            out.write(format_rows(block, "[", "]\n"))
-    out.flush()
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        start = as_count(start, "--start")
+        if stop is not None:
+            stop = as_count(stop, "--stop")
+        if limit is not None:
+            limit = as_count(limit, "--limit")
+            stop = start + limit if stop is None else min(stop, start + limit)
+        blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
+        out = sys.stdout
+        if as_json:
+            out.write(
+                '{"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d", "configurations": ['
+                % (model.rule.value, model.balls, model.urns, start)
+            )
+            listed = 0
+            for block in blocks:
+                # Rows "[k1,...,kr]," with the last comma dropped; one more comma between blocks.
+                out.write(("," if listed else "") + format_rows(block, "[", "],")[:-1])
+                listed += len(block)
+            out.write('], "listed": "%d"}\n' % listed)
+        elif fmt is ListFormat.csv:
+            out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
+            for block in blocks:
+                out.write(format_rows(block))
+        else:
+            for block in blocks:
+                out.write(format_rows(block, "[", "]\n"))
+        out.flush()
 
 
 def format_rows(block, prefix: str = "", suffix: str = "\n") -> str:
@@ -619,40 +646,41 @@ def ways_command(
         $ enumerator ways -n 5 -r 3
         $ enumerator ways -n 5 -r 3 --json
     """
-    from .counting import twelvefold
+    with store_scope(store, no_cache):
+        from .counting import twelvefold
 
-    n = as_count(balls, "balls")
-    r = as_count(urns, "urns", 1)
-    ways = twelvefold(n, r)
-    if as_json:
-        emit_json(
-            {
-                "balls": exact(n),
-                "urns": exact(r),
-                "ways": [
-                    {
-                        "balls": way["balls"],
-                        "urns": way["urns"],
-                        "per_urn": way["per_urn"],
-                        "count": exact(way["count"]),
-                    }
-                    for way in ways
-                ],
-            }
+        n = as_count(balls, "balls")
+        r = as_count(urns, "urns", 1)
+        ways = twelvefold(n, r)
+        if as_json:
+            emit_json(
+                {
+                    "balls": exact(n),
+                    "urns": exact(r),
+                    "ways": [
+                        {
+                            "balls": way["balls"],
+                            "urns": way["urns"],
+                            "per_urn": way["per_urn"],
+                            "count": exact(way["count"]),
+                        }
+                        for way in ways
+                    ],
+                }
+            )
+            return
+        lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
+        rows = [
+            [f"{ball_kind} balls, {urn_kind} urns"]
+            + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+            for ball_kind in ("labelled", "unlabelled")
+            for urn_kind in ("labelled", "unlabelled")
+        ]
+        show_table(
+            f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
+            ["balls and urns"] + [title for _, title in _PER_URN],
+            rows,
         )
-        return
-    lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
-    rows = [
-        [f"{ball_kind} balls, {urn_kind} urns"]
-        + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
-        for ball_kind in ("labelled", "unlabelled")
-        for urn_kind in ("labelled", "unlabelled")
-    ]
-    show_table(
-        f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
-        ["balls and urns"] + [title for _, title in _PER_URN],
-        rows,
-    )
 
 
 # -- demo ------------------------------------------------------------------

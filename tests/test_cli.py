@@ -35,6 +35,15 @@ runner = CliRunner()
 DIGITS = re.compile(r"\d+")
 
 
+@pytest.fixture(autouse=True, scope="module")
+def _private_store(tmp_path_factory):
+    """Keep this module's results out of the checkout's store/ (subprocesses inherit it)."""
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("ENUMERATOR_STORE", str(tmp_path_factory.mktemp("store") / "cli.sqlite"))
+        patch.delenv("ENUMERATOR_NO_CACHE", raising=False)
+        yield
+
+
 def run(*args: str, env=None):
     """Invoke the CLI in-process and return the result."""
     return runner.invoke(app, [str(a) for a in args], env=env)
@@ -480,11 +489,23 @@ def test_python_m_enumerator_help():
         assert command in proc.stdout
 
 
-def test_store_options_are_accepted(tmp_path):
+def test_store_option_remembers_and_no_cache_writes_nothing(tmp_path):
     target = tmp_path / "results.sqlite"
-    plain = run_json("count", "-n", 9, "-r", 4)
-    assert run_json("count", "-n", 9, "-r", 4, "--store", str(target)) == plain
-    assert run_json("count", "-n", 9, "-r", 4, "--no-cache") == plain
+    fresh = run_json("count", "-n", 9, "-r", 4, "--no-cache")
+    # r^n and stars and bars (common practice).
+    assert fresh["microstates"] == str(4**9) and fresh["configurations"] == str(math.comb(12, 3))
+    assert run_json("count", "-n", 9, "-r", 4, "--store", str(target)) == fresh
+    assert target.is_file()
+    assert run_json("count", "-n", 9, "-r", 4, "--store", str(target)) == fresh  # now from the store
+    untouched = tmp_path / "untouched.sqlite"
+    assert run_json("count", "-n", 9, "-r", 4, "--store", str(untouched), "--no-cache") == fresh
+    assert not untouched.exists()
+
+
+def test_unusable_store_url_is_bad_input():
+    result = runner.invoke(app, ["count", "-n", "3", "-r", "2", "--store", "nosuchdialect://x"])
+    assert result.exit_code == 2
+    assert len(result.stderr.splitlines()) == 1 and result.stderr.startswith("Error: ")
 
 
 def test_demo_runs_all_three_rules():
