@@ -1085,9 +1085,52 @@ class Store:
 
         return bool(self._guard(self._retry, attempt))
 
+    def export_lines(self, fmt: str = "jsonl") -> Iterator[str]:
+        """Yield every stored row as text: ``csv`` (with a header) or ``jsonl``.
+
+        Exact values in full (decimal, ``p/q`` or canonical JSON); every
+        exact integer in JSON is a string of digits; the compute time is the
+        approximation ``seconds_approx``.
+        """
+        fmt = str(fmt).lower()
+        if fmt not in EXPORT_ENTRY_FORMATS:
+            raise ValueError(f"format must be one of {', '.join(EXPORT_ENTRY_FORMATS)} (got {fmt!r})")
+        columns = ["quantity", "rule", "balls", "urns", "bounds", "params", "version", "kind",
+                   "value", "digits", "method", "seconds_approx", "created_at"]
+        if fmt == "csv":
+            import csv
+            import io
+
+            buffer = io.StringIO()
+            writer = csv.writer(buffer, lineterminator="\n")
+            writer.writerow(columns)
+            yield buffer.getvalue()
+            for entry in self.entries():
+                buffer.seek(0)
+                buffer.truncate()
+                writer.writerow(_export_fields(entry))
+                yield buffer.getvalue()
+            return
+        for entry in self.entries():
+            fields = _export_fields(entry)
+            record = dict(zip(columns, fields))
+            record["seconds_approx"] = entry.seconds_approx
+            yield json.dumps(record, ensure_ascii=False) + "\n"
+
     def close(self) -> None:
         """Release the engine's connections."""
         self.engine.dispose()
+
+
+#: Formats of :meth:`Store.export_lines`.
+EXPORT_ENTRY_FORMATS = ("csv", "jsonl")
+
+
+def _export_fields(entry: StoredEntry) -> list:
+    created = entry.created_at.isoformat() if entry.created_at is not None else ""
+    return [entry.quantity, entry.rule, _int_text(entry.balls), str(entry.urns), entry.bounds,
+            entry.params, str(entry.version), entry.kind, entry.text, str(entry.digits),
+            entry.method, f"{entry.seconds_approx:.6g}", created]
 
 
 def _plain_insert(model):
@@ -1156,9 +1199,14 @@ def _resolve(location: str) -> Tuple[URL, Optional[Path]]:
 # the process-wide default store
 # ---------------------------------------------------------------------------
 
-def _checkout_store_dir() -> Optional[Path]:
-    """``<checkout>/store`` when the package runs from a source checkout."""
-    package = Path(__file__).resolve().parent
+def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
+    """``<checkout>/store`` when the package (*package_dir*, default this one) runs from a checkout.
+
+    A checkout has ``pyproject.toml`` and a ``store/`` folder beside the
+    package folder; an installed copy (anything under ``site-packages`` or
+    ``dist-packages``) never counts, so the store is never written there.
+    """
+    package = Path(package_dir or Path(__file__).parent).resolve()
     root = package.parent
     if any(part in ("site-packages", "dist-packages") for part in root.parts):
         return None
@@ -1219,10 +1267,20 @@ def current_store() -> Optional[Store]:
     return open_store(location)
 
 
-def configure(location=None, *, enabled: bool = True) -> None:
-    """Choose the process-wide store (*location*: path, URL, Store or None for the default) and whether it is used."""
-    _config["location"] = location
-    _config["enabled"] = bool(enabled)
+_UNSET = object()
+
+
+def configure(location=_UNSET, *, enabled=_UNSET) -> None:
+    """Set the process-wide store and whether it is used; omitted settings stay as they are.
+
+    :param location: a path, URL or :class:`Store`; ``None`` means
+        :func:`default_location`.
+    :param enabled: False bypasses the store (as ``ENUMERATOR_NO_CACHE=1`` does).
+    """
+    if location is not _UNSET:
+        _config["location"] = location
+    if enabled is not _UNSET:
+        _config["enabled"] = bool(enabled)
 
 
 @contextmanager
