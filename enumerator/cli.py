@@ -10,11 +10,14 @@ Layout, for whoever adds a command:
 1. shared options, defined once as ``Annotated`` aliases (``Balls``, ``Urns``,
    ``RuleOpt``, ``Capacity``, ``Minimum``, ``Bounds``, ``Store``, ``NoCache``,
    ``Json``) — reuse them so every command spells its options the same way;
-2. helpers: :func:`build_model`, :func:`emit_json`, :func:`exact`,
-   :func:`show_table`;
+2. helpers: :func:`build_model` (options -> model), :func:`store_scope`
+   (``--store``/``--no-cache`` -> the result store used inside the block),
+   :func:`exact` and :func:`emit_json` (the JSON encoding), :func:`show_table`
+   (rich tables that never cut a long number), :func:`parse_config`,
+   :func:`format_rows` (fast CSV/JSON rows from numpy blocks);
 3. the commands, one function each; the docstring is the ``--help`` text
    (one line, then an Example block);
-4. the error wrapper, :class:`_Group.main`, which turns every failure into one
+4. the error wrapper, ``_Group.main``, which turns every failure into one
    line on stderr: exit 2 for bad input (any
    :class:`~enumerator.errors.EnumeratorError`, any usage error), exit 1 for
    an internal failure (traceback only with ``ENUMERATOR_DEBUG=1``).

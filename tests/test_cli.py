@@ -15,7 +15,6 @@ import io
 import itertools
 import json
 import math
-import os
 import re
 import shlex
 import subprocess
