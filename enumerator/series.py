@@ -22,13 +22,17 @@ __all__ = [
     "binomial_row",
     "coefficient",
     "coefficients",
+    "dot_reversed",
+    "falling_window",
     "from_coefficients",
+    "inverse",
     "one_minus_power",
     "power",
     "product",
+    "scaled_power",
+    "scaled_product",
     "window",
-    "falling_window",
-    "dot_reversed",
+    "window_power_row",
 ]
 
 mpz = gmpy2.mpz
@@ -109,7 +113,154 @@ def power(base: fmpz_poly, exponent: int, degree: int) -> fmpz_poly:
     full_degree = base.degree() * exponent
     if full_degree <= FULL_POWER_RATIO * (degree + 1):
         return base ** exponent
+    span = _window_span(base)
+    if span is not None:
+        # A window far above the truncation: the three-term recurrence of
+        # window_power_row costs O(degree) big operations, pow_trunc
+        # O(M(degree) log exponent).
+        return fmpz_poly([int(c) for c in window_power_row(span, exponent, degree)])
     return base.pow_trunc(exponent, degree + 1)
+
+
+def _window_span(base: fmpz_poly):
+    """``s`` when *base* is ``1 + x + ... + x^s`` (``s >= 1``), else ``None``."""
+    length = base.length()
+    if length < 2 or length > 64:
+        return None
+    if all(c == 1 for c in base.coeffs()):
+        return length - 1
+    return None
+
+
+def window_power_row(span: int, exponent: int, degree: int, unbounded: int = 0) -> List:
+    r"""``[x^m] (1 + x + ... + x^span)^exponent (1 - x)^(-unbounded)`` for ``m = 0..degree``.
+
+    The configurations of ``m`` balls in ``exponent`` urns of capacity
+    *span* and *unbounded* urns without a bound, as ``mpz``.  The series
+    ``y = (1 - x^d)^e (1 - x)^{-f}`` (``d = span + 1``, ``f = e + unbounded``)
+    satisfies ``(1 - x)(1 - x^d) y' = (f - e d x^{d-1} + (e d - f) x^d) y``, so
+    its coefficients obey the three-term recurrence
+
+    ``m c_m = (m - 1 + f) c_{m-1} + (m - d - e d) c_{m-d} + (e d - f - m + d + 1) c_{m-d-1}``
+
+    whatever the exponent: ``O(degree)`` small multiplications and exact
+    divisions, against ``O(M(degree) log e)`` for repeated squaring.  This
+    is the differential-equation method for powers of series (Euler;
+    J. C. P. Miller; Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §4.7).  Without
+    unbounded urns the result is a palindromic polynomial of degree
+    ``e * span``, so only its lower half is computed and the rest mirrored.
+    """
+    if degree < 0:
+        return []
+    if span < 0 or exponent < 0 or unbounded < 0:
+        raise ValueError("window_power_row needs span, exponent and unbounded >= 0")
+    if span == 0 or exponent == 0:
+        if unbounded:
+            return binomial_row(unbounded, degree)
+        return [mpz(1)] + [mpz(0)] * degree
+    d = span + 1
+    e = exponent
+    f = exponent + unbounded
+    c = [mpz(0)] * (degree + 1)
+    c[0] = mpz(1)
+    if unbounded:
+        top = None
+        last = degree
+    else:
+        top = e * span
+        last = min(degree, top // 2)
+    divexact = gmpy2.divexact
+    ed = e * d
+    # m < d: only the c_{m-1} term; m == d: no c_{m-d-1} term yet.
+    for m in range(1, min(last, d - 1) + 1):
+        c[m] = divexact((m - 1 + f) * c[m - 1], m)
+    if last >= d:
+        c[d] = divexact((d - 1 + f) * c[d - 1] - ed * c[0], d)
+    for m in range(d + 1, last + 1):
+        c[m] = divexact(
+            (m - 1 + f) * c[m - 1] + (m - d - ed) * c[m - d] + (ed - f - m + d + 1) * c[m - d - 1],
+            m,
+        )
+    if top is not None:
+        for m in range(last + 1, min(degree, top) + 1):
+            c[m] = c[top - m]
+    return c
+
+
+def inverse(series, length: int):
+    """``1 / series`` modulo ``x^length`` by Newton's iteration.
+
+    ``g <- g + g (1 - f g)`` doubles the number of correct terms each step
+    (Sieveking 1972, Kung 1974; von zur Gathen & Gerhard, *Modern Computer
+    Algebra*, 3rd ed., 2013, §9.1): about three multiplications of the
+    final length in all.  Works for ``fmpq_poly`` with any nonzero constant
+    term and for ``fmpz_poly`` whose constant term is ``±1`` (the inverse is
+    then integral); raises ``ZeroDivisionError`` for a zero constant term
+    and ``ValueError`` for an integer series without a unit constant term.
+    """
+    kind = type(series)
+    c0 = series[0]
+    if c0 == 0:
+        raise ZeroDivisionError("the constant term is 0: the series has no power-series inverse")
+    if kind is fmpz_poly:
+        if c0 not in (1, -1):
+            raise ValueError("an integer series needs constant term 1 or -1 to have an integer inverse")
+        g = fmpz_poly([int(c0)])
+    else:
+        g = kind([1 / c0])
+    if length <= 1:
+        return g if length == 1 else kind([])
+    one = kind([1])
+    k = 1
+    while k < length:
+        k = min(2 * k, length)
+        error = one - series.truncate(k).mul_low(g, k)
+        g = g + g.mul_low(error, k)
+    return g
+
+
+def scaled_product(factors: Iterable[fmpz_poly], degree: int, scale) -> fmpz_poly:
+    """The product of series held as ``scale * S_i``, again as ``scale * prod S_i``.
+
+    Each factor is an integer polynomial equal to *scale* times a series
+    with rational coefficients (an exponential generating function times a
+    common denominator, say ``n!``); after each truncated multiplication the
+    extra factor *scale* is removed by one exact scalar division, so the
+    coefficients stay the size of the answer instead of growing with the
+    number of factors.  Balanced product tree as in :func:`product`.
+    """
+    items = list(factors)
+    if not items:
+        return fmpz_poly([int(scale)])
+    length = degree + 1
+    scale = int(scale)
+    while len(items) > 1:
+        nxt = []
+        for i in range(0, len(items) - 1, 2):
+            nxt.append(items[i].mul_low(items[i + 1], length) // scale)
+        if len(items) % 2:
+            nxt.append(items[-1])
+        items = nxt
+    return items[0]
+
+
+def scaled_power(base: fmpz_poly, exponent: int, degree: int, scale) -> fmpz_poly:
+    """``scale * S^exponent`` from ``base = scale * S``, exact up to *degree*.
+
+    Left-to-right binary powering with truncated multiplications, each
+    followed by one exact division by *scale* (see :func:`scaled_product`);
+    ``O(M(degree) log exponent)``.
+    """
+    scale = int(scale)
+    if exponent == 0:
+        return fmpz_poly([scale])
+    length = degree + 1
+    result = base.truncate(length)
+    for bit in bin(exponent)[3:]:
+        result = result.mul_low(result, length) // scale
+        if bit == "1":
+            result = result.mul_low(base, length) // scale
+    return result
 
 
 def product(factors: Iterable[fmpz_poly], degree: int) -> fmpz_poly:
