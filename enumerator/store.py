@@ -176,12 +176,20 @@ for _name in ("configurations", "microstates", "profiles"):
 # ---------------------------------------------------------------------------
 
 def _int_text(value) -> str:
-    # gmpy2 converts in subquadratic time and ignores Python's 4300-digit limit.
+    # Small ints: str() is quickest.  Large ones: gmpy2 converts in
+    # subquadratic time and ignores Python's 4300-digit conversion limit.
+    if type(value) is int and -_SMALL < value < _SMALL:
+        return str(value)
     return gmpy2.mpz(value).digits(10)
 
 
 def _text_int(text: str) -> int:
+    if len(text) < 1000:
+        return int(text)
     return int(gmpy2.mpz(text, 10))
+
+
+_SMALL = 1 << 3000  # about 900 digits: well inside int/str conversion limits
 
 
 def _is_int(value) -> bool:
@@ -765,7 +773,7 @@ class Store:
             # another writer on a backend without upserts got there first
             return 0
 
-    def _row(self, quantity, key: Key, version, value, params, method, elapsed_ns) -> dict:
+    def _row(self, quantity, key: Key, version, value, params, method, elapsed_ns, created_at=None) -> dict:
         digest = _digest(quantity, key, params, version)
         kind, text, digits = encode_value(value)
         return {
@@ -783,7 +791,7 @@ class Store:
             "checksum": _checksum(digest, kind, text),
             "method": method[:200],
             "elapsed_ns": int(elapsed_ns),
-            "created_at": _now(),
+            "created_at": created_at or _now(),
         }
 
     # -- the public operations ---------------------------------------------
@@ -830,7 +838,8 @@ class Store:
         NOTHING``); returns how many rows were new.  A read-only store
         stores nothing and returns 0.
         """
-        rows = [self._row(*item) for item in items]
+        now = _now()
+        rows = [self._row(*item, created_at=now) for item in items]
         if not rows or self.read_only or not self._schema_ready:
             if rows and (self.read_only or not self._schema_ready):
                 self._warn_read_only("it cannot be written")
@@ -838,22 +847,30 @@ class Store:
         return self._guard(self._write_rows, rows)
 
     def stored_balls(self, quantity: str, rule: str, bounds: str, urns: int, version: int,
-                     params: str = "") -> Dict[int, Tuple[str, str, int, int, str]]:
-        """Map ``n`` -> ``(kind, text, digits, checksum, digest)`` for one row of a table."""
+                     params: str = "", values: bool = True):
+        """One row of a table: the stored ``n`` for fixed quantity, rule, bounds, version.
+
+        With *values*, a dict ``n -> (kind, text, digits, checksum, digest)``;
+        without, just the set of ``n`` (cheaper: the values are not read).
+        """
         if not self._schema_ready:
-            return {}
+            return {} if values else set()
+        columns = [Result.balls]
+        if values:
+            columns += [Result.kind, Result.value, Result.digits, Result.checksum, Result.key_digest]
+        stmt = select(*columns).where(
+            Result.quantity == quantity, Result.rule == rule, Result.urns == urns,
+            Result.version == version, Result.bounds == bounds, Result.params == params,
+        )
 
         def fetch():
             with self._reading() as conn:
-                return conn.execute(
-                    select(Result.balls, Result.kind, Result.value, Result.digits,
-                           Result.checksum, Result.key_digest)
-                    .where(Result.quantity == quantity, Result.rule == rule,
-                           Result.urns == urns, Result.version == version,
-                           Result.bounds == bounds, Result.params == params)
-                ).all()
+                return conn.execute(stmt).all()
 
-        return {row[0]: tuple(row[1:]) for row in self._guard(fetch)}
+        rows = self._guard(fetch)
+        if not values:
+            return {row[0] for row in rows}
+        return {row[0]: tuple(row[1:]) for row in rows}
 
     def entries(self, quantity: Optional[str] = None, stale: Optional[bool] = None) -> Iterator[StoredEntry]:
         """Yield every stored row (optionally one quantity, or only stale/current versions)."""

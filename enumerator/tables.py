@@ -316,7 +316,7 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     version = ALGORITHM_VERSIONS[spec.quantity]
     for r in spec.urns:
         bounds = spec.bounds_text(r)
-        have = target.stored_balls(spec.quantity, spec.rule, bounds, r, version)
+        have = target.stored_balls(spec.quantity, spec.rule, bounds, r, version, values=False)
         missing = [n for n in spec.balls if n not in have]
         reused = len(spec.balls) - len(missing)
         report.reused += reused
