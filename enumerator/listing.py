@@ -1,0 +1,882 @@
+r"""Lexicographic listing, ranking and unranking of admissible configurations.
+
+A configuration of an :class:`~enumerator.model.Occupancy` is an occupancy
+vector ``k = (k_1, ..., k_r)`` with ``a_i <= k_i <= b_i`` and
+``k_1 + ... + k_r = n``.  This module lists them in **ascending lexicographic
+order** (``n = 2, r = 2``: ``(0, 2), (1, 1), (2, 0)``), gives the rank of a
+vector in that order (0-based) and the vector of a given rank.  The rule (MB,
+BE, FD) does not change the set of vectors; FD bounds are already capped at 1
+by the model.
+
+Conventions
+-----------
+* Ranks run over ``[0, count)`` where ``count`` is the number of admissible
+  vectors; a model whose bounds admit no vector lists nothing.  ``n = 0``
+  lists the single vector of lower bounds (all zeros without minimums).
+* Ranges ``[start, stop)`` follow slicing: ``stop=None`` is the end, ``start``
+  and ``stop`` are clamped to ``count``, and ``stop <= start`` lists nothing.
+* Internally every urn is shifted by its lower bound, ``x_i = k_i - a_i``, with
+  capacity ``c_i = min(b_i, n') `` where ``n' = n - sum a_i``; the shift keeps
+  the lexicographic order.
+
+Listing
+-------
+The successor rule is the lexicographic one of Knuth, *The Art of Computer
+Programming*, vol. 4A, *Combinatorial Algorithms, Part 1* (2011), §7.2.1.3
+(there for compositions and combinations), with suffix feasibility: urn ``i``
+takes values in ``[max(0, m - R_i), min(c_i, m)]`` where ``m`` balls remain
+and ``R_i`` is the total capacity of the urns after ``i``, so the walk never
+enters a dead end.
+
+Only the first ``p = r - t`` urns are walked by that successor in Python.  The
+last ``t`` urns come from a small table, built lazily and once per model, of
+every admissible suffix holding ``m`` balls, in lexicographic order; ``t`` is
+the largest for which the table stays within a fixed budget (about 10^5
+entries for tuples, a few MB for arrays).  Each prefix then contributes its
+whole run of configurations through C-level iterators: in tuple mode a
+``zip`` of ``itertools.repeat`` columns (the prefix) and the table's columns,
+so CPython can reuse the result tuple when the consumer drops it; in block
+mode one broadcast ``numpy.add`` of the prefix row onto the table slice.
+With no room for a table, the last two urns are ``range`` objects and no
+table is built at all.  Memory is the table plus one block, independent of
+the number of configurations.
+
+Ranking
+-------
+Rank and unrank use suffix counts, as in Nijenhuis and Wilf, *Combinatorial
+Algorithms*, 2nd ed. (1978), ch. 5 and 13 (ranking by counting the objects
+that precede a given one).  With ``N_j(m)`` the number of ways urns
+``j, ..., r-1`` hold ``m`` balls and ``P_j(m) = N_j(0) + ... + N_j(m)``,
+
+.. math::  \operatorname{rank}(x) = \sum_{i<r-1} \bigl(P_{i+1}(m_i) - P_{i+1}(m_i - x_i)\bigr),
+
+``m_i`` being the balls left for urns ``i, ...``.  Three ways to get ``P``:
+
+* no upper bound bites (every ``c_i >= n'``): the hockey-stick identity gives
+  ``P_j(m) = C(m + r - j, r - j)`` (stars and bars), no table;
+* every ``c_i <= 1`` (FD-like): ``N_j(m) = C(J, m)`` with ``J`` the urns of
+  capacity 1 from ``j`` on, no table;
+* otherwise a table of the prefix sums ``P_j(m)`` for all ``j`` and
+  ``m <= n'``, built once per model by the recurrence
+  ``N_j(m) = P_{j+1}(m) - P_{j+1}(m - c_j - 1)`` in ``O(r n')`` big-integer
+  additions; above :data:`RANK_TABLE_LIMIT` bytes it raises
+  :class:`~enumerator.errors.TooLarge`.
+
+Unranking inverts each term with a binary search (``bisect`` on the table
+rows, or on the binomial), ``O(r log n')`` look-ups.
+
+Caching: the plan, the suffix tables and the rank table live in the model's
+``_memo`` under keys starting with ``"listing."``; they go when the model
+does.
+"""
+
+from __future__ import annotations
+
+import math
+import operator
+from bisect import bisect_left
+from itertools import accumulate, chain, islice, repeat
+from typing import Iterator, List, Optional, Tuple
+
+import numpy as np
+
+from .errors import InvalidConfiguration, InvalidParameters, TooLarge
+from .model import as_count
+
+__all__ = ["block_dtype", "iter_blocks", "iter_configurations", "rank", "unrank"]
+
+#: Upper limit (bytes, estimated) of the suffix-count table used by ``rank``
+#: and ``unrank`` for bounded models; raise it to allow larger models.
+RANK_TABLE_LIMIT = 512 * 2**20
+
+# Building a level copies one slice per ball count when there are at most this
+# many (memcpy speed); beyond, one gather per column avoids the Python loop.
+_SLICE_COPIES = 2048
+
+#: Budget (bytes, estimated) of the suffix table behind tuple listing.
+TUPLE_TABLE_BUDGET = 8 * 2**20
+
+#: Budget (bytes, estimated) of the suffix table behind block listing.
+BLOCK_TABLE_BUDGET = 4 * 2**20
+
+# ---------------------------------------------------------------------------
+# the plan: shifted bounds and feasibility data, cached per model
+# ---------------------------------------------------------------------------
+class _Plan:
+    """Shifted description of a model: ``x_i = k_i - a_i``, ``0 <= x_i <= c_i``, sum ``N``."""
+
+    __slots__ = ("r", "n", "N", "lows", "caps", "rest", "empty", "dtype", "memo")
+
+    def __init__(self, model):
+        self.memo = model._memo
+        self.n = model.balls
+        self.r = model.urns
+        self.lows = tuple(a for a, _ in model.bounds)
+        self.N = self.n - sum(self.lows)
+        caps = []
+        for (a, top) in model.effective_bounds():
+            caps.append(top - a)
+        self.caps = tuple(caps)
+        # rest[i] = total capacity of urns i+1 .. r-1
+        rest = [0] * self.r
+        running = 0
+        for i in range(self.r - 1, -1, -1):
+            rest[i] = running
+            running += max(self.caps[i], 0)
+        self.rest = tuple(rest)
+        self.empty = self.N < 0 or min(self.caps) < 0 or running < self.N
+        self.dtype = block_dtype_for(self.n)
+
+    def first_prefix(self, p: int) -> List[int]:
+        """The lexicographically first feasible values of urns ``0 .. p-1`` (shifted)."""
+        x, m = [], self.N
+        for i in range(p):
+            v = m - self.rest[i]
+            if v < 0:
+                v = 0
+            x.append(v)
+            m -= v
+        return x
+
+    def unshift(self, x) -> Tuple[int, ...]:
+        return tuple(map(operator.add, x, self.lows))
+
+
+def _plan(model) -> _Plan:
+    plan = model._memo.get("listing.plan")
+    if plan is None:
+        plan = model._memo["listing.plan"] = _Plan(model)
+    return plan
+
+
+def block_dtype_for(n: int):
+    """The smallest unsigned numpy integer type that holds *n*, else ``object``."""
+    for dtype in (np.uint8, np.uint16, np.uint32, np.uint64):
+        if n <= np.iinfo(dtype).max:
+            return np.dtype(dtype)
+    return np.dtype(object)
+
+
+def block_dtype(model):
+    """Return the numpy dtype of the arrays :func:`iter_blocks` yields for *model*.
+
+    It is the smallest unsigned integer type holding ``n`` (``uint8`` for
+    ``n <= 255``, then ``uint16``, ``uint32``, ``uint64``); beyond ``2^64 - 1``
+    balls it is ``object`` (exact Python ints).  Cast before subtracting:
+    unsigned arithmetic wraps around.
+    """
+    return _plan(model).dtype
+
+
+# ---------------------------------------------------------------------------
+# the prefix walk (Knuth-style lexicographic successor with feasibility)
+# ---------------------------------------------------------------------------
+def _walk(plan: _Plan, p: int, x: List[int]):
+    """Advance the shifted prefix *x* (length *p*, mutated in place) in lex order.
+
+    Yields ``(i, m)`` for the current prefix: positions ``>= i`` changed since
+    the previous yield (0 at first), and ``m`` the balls left for the suffix.
+    The caller sets *x* to a feasible first prefix.  Each step costs
+    ``O(p)`` in the worst case, amortised ``O(1)``.
+    """
+    caps, rest = plan.caps, plan.rest
+    rem = [plan.N] * (p + 1)
+    for i in range(p):
+        rem[i + 1] = rem[i] - x[i]
+    changed = 0
+    while True:
+        yield changed, rem[p]
+        # find the rightmost position that can still grow
+        i = p - 1
+        while i >= 0 and (x[i] >= caps[i] or rem[i + 1] == 0):
+            i -= 1
+        if i < 0:
+            return
+        x[i] += 1
+        rem[i + 1] -= 1
+        for j in range(i + 1, p):
+            v = rem[j] - rest[j]
+            if v < 0:
+                v = 0
+            x[j] = v
+            rem[j + 1] = rem[j] - v
+        changed = i
+
+
+# ---------------------------------------------------------------------------
+# suffix tables
+# ---------------------------------------------------------------------------
+def _level_rows(plan: _Plan, limit: int):
+    """Row counts of the suffix levels: ``[sum_m N_l(m) for l = 1, 2, ...]``.
+
+    Level ``l`` is the last ``l`` urns; ``N_l(m)`` (``m <= N``) comes from
+    ``N_l(m) = sum_{v <= c} N_{l-1}(m - v)`` by prefix sums, in int64
+    clipped at ``limit + 1`` (only the comparison with *limit* matters).
+    Stops after the first level with more than *limit* rows or sums.
+    """
+    r, N, caps = plan.r, plan.N, plan.caps
+    out = []
+    row, top = np.ones(1, dtype=np.int64), 0
+    for level in range(1, r + 1):
+        c = caps[r - level]
+        prev_top, top = top, min(N, top + c)
+        if top + 1 > limit:
+            break
+        prefix = np.cumsum(row)
+        ms = np.arange(top + 1, dtype=np.int64)
+        new = prefix[np.minimum(ms, prev_top)]
+        if c + 1 <= top:
+            below = ms[c + 1 :] - (c + 1)
+            new[c + 1 :] -= prefix[np.minimum(below, prev_top)]
+        row = np.minimum(new, limit + 1)
+        out.append(int(row.sum()))
+        if out[-1] > limit:
+            break
+    return out
+
+
+def _choose_suffix(plan: _Plan, budget: int, top_column: int) -> int:
+    """The largest ``t >= 3`` whose suffix table fits *budget* bytes, else 2 (range columns).
+
+    A table for ``t`` urns stores level ``t - 1`` (all its rows, every
+    ``m <= N``) and, while it is built, level ``t - 2``; with
+    ``top_column > 0`` it also caches level ``t`` at that many bytes per
+    entry (tuple mode).
+    """
+    r = plan.r
+    if r <= 2:
+        return r
+    size = plan.dtype.itemsize
+    rows = _level_rows(plan, budget // size)
+    best = 2
+    for t in range(3, min(r, len(rows)) + 1):
+        cost = (rows[t - 2] * (t - 1) + rows[t - 3] * (t - 2)) * size
+        cost += rows[t - 1] * t * top_column
+        if cost > budget:
+            break
+        best = t
+    return best
+
+
+def _repeat(values, lengths, dtype=np.int64):
+    """``numpy.repeat(values, lengths)`` for positive *lengths*, as *dtype*, by a running sum.
+
+    ``numpy.repeat`` copies element by element; writing the jumps at the
+    stretch boundaries and summing is several times faster.  For unsigned
+    *dtype* the sum runs modulo ``2^bits``, which is exact because every
+    partial sum is one of the *values*.
+    """
+    if dtype == object:
+        return np.repeat(np.asarray(values, dtype=object), lengths)
+    total = int(lengths.sum())
+    out = np.zeros(total, dtype=dtype)
+    if total:
+        firsts = np.cumsum(lengths) - lengths
+        out[firsts] = np.diff(values, prepend=0).astype(dtype)
+        np.cumsum(out, out=out)
+    return out
+
+
+def _aranges(starts, stops):
+    """Concatenation of ``arange(a, b)`` for the pairs of *starts*, *stops* (int64, ``b > a``)."""
+    lengths = stops - starts
+    total = int(lengths.sum())
+    out = np.ones(total, dtype=np.int64)
+    if total:
+        firsts = np.cumsum(lengths) - lengths
+        out[firsts] = starts - np.concatenate(([1], stops[:-1])) + 1
+        out[0] = starts[0]
+        np.cumsum(out, out=out)
+    return out
+
+
+class _SuffixTable:
+    """The admissible suffixes of urns ``p .. r-1``, from one stored level.
+
+    Level ``j`` (urns ``j .. r-1``) lists, for ``m = top_j, ..., 1, 0`` in
+    that (descending) order, the admissible suffixes holding ``m`` balls
+    (shifted), each group in lexicographic order.  Because the suffixes of
+    level ``j`` with ``m`` balls are, for ``v = lo .. hi`` in turn, the value
+    ``v`` followed by level ``j + 1``'s group ``m - v``, and those groups sit
+    next to each other in the descending order, every run of level ``j``
+    is one *contiguous slice* of level ``j + 1`` plus a column of ``v``
+    values.  So only level ``p + 1`` is stored, Fortran-ordered (each urn's
+    column contiguous), built bottom-up by one gather per level; the run of
+    the top level ``p`` is a slice of it and at most ``c_p + 1`` constant
+    stretches for urn ``p``.
+    """
+
+    def __init__(self, plan: _Plan, p: int):
+        self.plan = plan
+        self.p = p
+        r, N, caps, lows, dtype = plan.r, plan.N, plan.caps, plan.lows, plan.dtype
+        top = min(N, caps[r - 1])
+        rows = np.empty((top + 1, 1), dtype=dtype, order="F")
+        rows[:, 0] = np.arange(top + lows[r - 1], lows[r - 1] - 1, -1, dtype=np.int64) if dtype != object \
+            else np.array(range(top + lows[r - 1], lows[r - 1] - 1, -1), dtype=object)
+        counts = np.ones(top + 1, dtype=np.int64)
+        for j in range(r - 2, p, -1):
+            rows, counts = self._stack(j, rows, counts)
+        self.rows = rows  # level p + 1
+        self.counts = counts  # its group sizes, indexed by m
+        ends = np.cumsum(counts[::-1])[::-1]  # end of group q in descending order
+        self.ends = ends
+        self.runs = {}
+        self.cols = {}
+
+    def _stack(self, j, rows, counts):
+        """Level ``j`` from level ``j + 1`` (*rows*, group sizes *counts*)."""
+        plan = self.plan
+        c, a = plan.caps[j], plan.lows[j]
+        top1 = len(counts) - 1
+        top = min(plan.N, top1 + c)
+        ends = np.cumsum(counts[::-1])[::-1]
+        starts = ends - counts
+        ms = np.arange(top, -1, -1, dtype=np.int64)
+        lo = np.maximum(0, ms - top1)
+        hi = np.minimum(c, ms)
+        # group m of level j = level j+1 rows from start(m - lo) to end(m - hi)
+        first, last = starts[ms - lo], ends[ms - hi]
+        # the value column: v = lo..hi for each m, each repeated counts[m - v] times
+        vs = _aranges(lo, hi + 1)
+        qs = _repeat(ms, hi - lo + 1) - vs
+        total = int((last - first).sum())
+        new = np.empty((total, rows.shape[1] + 1), dtype=plan.dtype, order="F")
+        new[:, 0] = _repeat(vs + a, counts[qs], plan.dtype)
+        if len(ms) <= _SLICE_COPIES:
+            pos = 0
+            for f, g in zip(first.tolist(), last.tolist()):
+                new[pos : pos + g - f, 1:] = rows[f:g]
+                pos += g - f
+        else:
+            index = _aranges(first, last)
+            for k in range(rows.shape[1]):
+                new[:, k + 1] = rows[:, k][index]
+        group = (last - first)[::-1].copy()  # indexed by m ascending
+        return new, group
+
+    def run(self, m: int):
+        """``(start, stop, values, stretch_ends)`` of the top-level group ``m``."""
+        got = self.runs.get(m)
+        if got is None:
+            plan, p = self.plan, self.p
+            counts = self.counts
+            top1 = len(counts) - 1
+            lo = max(0, m - top1)
+            hi = min(plan.caps[p], m)
+            start = int(self.ends[m - lo] - counts[m - lo])
+            stop = int(self.ends[m - hi])
+            values = [v + plan.lows[p] for v in range(lo, hi + 1)]
+            stretch = list(accumulate(int(counts[m - v]) for v in range(lo, hi + 1)))
+            got = self.runs[m] = (start, stop, values, stretch)
+        return got
+
+    def fill(self, block, m: int, lo: int, take: int):
+        """Write rows ``[lo, lo + take)`` of group ``m`` into columns ``p ..`` of *block*."""
+        start, _, values, stretch = self.run(m)
+        p = self.p
+        block[:, p + 1 :] = self.rows[start + lo : start + lo + take]
+        column = block[:, p]
+        at = 0
+        end = lo + take
+        for value, last in zip(values, stretch):
+            if last <= lo:
+                continue
+            upto = (last if last < end else end) - lo
+            column[at:upto] = value
+            at = upto
+            if last >= end:
+                break
+
+    def columns(self, m: int):
+        """Group ``m`` as one ``bytes`` (uint8) or ``list`` per urn, cached."""
+        got = self.cols.get(m)
+        if got is None:
+            start, stop, values, stretch = self.run(m)
+            counts = np.diff(np.array([0] + stretch, dtype=np.int64))
+            first = np.repeat(np.array(values, dtype=self.plan.dtype), counts)
+            part = self.rows[start:stop]
+            if self.plan.dtype == np.uint8:
+                got = [first.tobytes()] + [part[:, k].tobytes() for k in range(part.shape[1])]
+            else:
+                got = [first.tolist()] + [part[:, k].tolist() for k in range(part.shape[1])]
+            self.cols[m] = got
+        return got
+
+
+def _table(plan: _Plan, mode: str):
+    """``(t, table)`` for ``mode`` "tuples" or "blocks"; ``table`` is None when the last two urns are ranges."""
+    key = "listing.table." + mode
+    got = plan.memo.get(key)
+    if got is None:
+        if mode == "tuples":
+            column = 1 if plan.dtype == np.uint8 else 8
+            t = _choose_suffix(plan, TUPLE_TABLE_BUDGET, column)
+        else:
+            t = _choose_suffix(plan, BLOCK_TABLE_BUDGET, 0)
+        table = None
+        if t >= 3:
+            other = plan.memo.get("listing.table." + ("blocks" if mode == "tuples" else "tuples"))
+            if other is not None and other[0] == t:
+                table = other[1]
+            else:
+                table = _SuffixTable(plan, plan.r - t)
+        got = plan.memo[key] = (t, table)
+    return got
+
+
+# ---------------------------------------------------------------------------
+# ranking: closed forms or the table of prefix sums P_j(m)
+# ---------------------------------------------------------------------------
+class _Ranker:
+    """Suffix counts for rank/unrank: ``kind`` is "stars", "binary" or "table"."""
+
+    def __init__(self, plan: _Plan):
+        self.plan = plan
+        r, N, caps = plan.r, plan.N, plan.caps
+        if plan.empty:
+            self.kind, self.count = "empty", 0
+        elif all(c >= N for c in caps):
+            # no upper bound bites: stars and bars
+            self.kind = "stars"
+            self.count = math.comb(N + r - 1, r - 1)
+        elif all(c <= 1 for c in caps):
+            self.kind = "binary"
+            after = [0] * r  # capacity-1 urns after i
+            running = 0
+            for i in range(r - 1, -1, -1):
+                after[i] = running
+                running += caps[i]
+            self.after = after
+            self.count = math.comb(running, N)
+        else:
+            self.kind = "table"
+            self.rows = self._build_rows()
+            P1 = self.rows[1]
+            low = N - caps[0] - 1
+            self.count = P1[N] - (P1[low] if low >= 0 else 0)
+
+    def _build_rows(self):
+        plan = self.plan
+        r, N, caps = plan.r, plan.N, plan.caps
+        entries = r * (N + 1)
+        bits = min(N + r, sum((c + 1).bit_length() for c in caps))
+        estimate = entries * (32 + bits // 16)
+        if estimate > RANK_TABLE_LIMIT:
+            raise TooLarge(
+                f"ranking this model needs a table of {r} x {N + 1} suffix counts "
+                f"(about {estimate // 2**20} MB, above the {RANK_TABLE_LIMIT // 2**20} MB limit); "
+                "reduce the number of balls or urns, or raise enumerator.listing.RANK_TABLE_LIMIT"
+            )
+        rows = [None] * (r + 1)
+        rows[r] = [1] * (N + 1)
+        zeros = [0] * (N + 1)
+        for i in range(r - 1, 0, -1):
+            prev = rows[i + 1]
+            shift = caps[i] + 1
+            if shift <= N:
+                # N_i(m) = P_{i+1}(m) - P_{i+1}(m - c_i - 1)
+                counts = map(operator.sub, prev, zeros[:shift] + prev[: N + 1 - shift])
+            else:
+                counts = prev  # capacity at least N: N_i(m) = P_{i+1}(m)
+            rows[i] = list(accumulate(counts))
+        return rows
+
+    # rank contributions of urns i0 .. r-2 given m balls left before urn i0
+    def rank_from(self, x, i0: int, m: int) -> int:
+        plan = self.plan
+        r = plan.r
+        total = 0
+        if self.kind == "stars":
+            for i in range(i0, r - 1):
+                k = x[i]
+                if k:
+                    j = r - 1 - i
+                    total += math.comb(m + j, j) - math.comb(m - k + j, j)
+                    m -= k
+        elif self.kind == "binary":
+            after = self.after
+            for i in range(i0, r - 1):
+                if x[i]:
+                    total += math.comb(after[i], m)
+                    m -= 1
+        else:
+            rows = self.rows
+            for i in range(i0, r - 1):
+                k = x[i]
+                if k:
+                    P = rows[i + 1]
+                    total += P[m] - P[m - k]
+                    m -= k
+        return total
+
+    def unrank(self, index: int) -> List[int]:
+        plan = self.plan
+        r, m = plan.r, plan.N
+        x = [0] * r
+        if self.kind == "stars":
+            for i in range(r - 1):
+                j = r - 1 - i
+                # smallest q in [0, m] with C(q + j, j) >= C(m + j, j) - index
+                target = math.comb(m + j, j) - index
+                lo, hi = 0, m
+                while lo < hi:
+                    mid = (lo + hi) // 2
+                    if math.comb(mid + j, j) >= target:
+                        hi = mid
+                    else:
+                        lo = mid + 1
+                v = m - lo
+                if v:
+                    index -= math.comb(m + j, j) - math.comb(lo + j, j)
+                x[i] = v
+                m = lo
+        elif self.kind == "binary":
+            after, caps = self.after, plan.caps
+            for i in range(r - 1):
+                if caps[i] and m:
+                    zero = math.comb(after[i], m)
+                    if index >= zero:
+                        index -= zero
+                        x[i] = 1
+                        m -= 1
+        else:
+            rows = self.rows
+            for i in range(r - 1):
+                P = rows[i + 1]
+                target = P[m] - index
+                q = bisect_left(P, target, 0, m + 1)
+                v = m - q
+                if v:
+                    index -= P[m] - P[q]
+                x[i] = v
+                m = q
+        x[r - 1] = m
+        return x
+
+
+def _ranker(plan: _Plan) -> _Ranker:
+    got = plan.memo.get("listing.ranker")
+    if got is None:
+        got = plan.memo["listing.ranker"] = _Ranker(plan)
+    return got
+
+
+def _count(plan: _Plan) -> int:
+    return _ranker(plan).count
+
+
+# ---------------------------------------------------------------------------
+# public API
+# ---------------------------------------------------------------------------
+def rank(model, config) -> int:
+    """Return the 0-based lexicographic rank of the admissible vector *config*.
+
+    Ranking by suffix counts (Nijenhuis and Wilf, *Combinatorial Algorithms*,
+    1978): the rank is the number of admissible vectors that precede
+    *config*, summed urn by urn.  Cost: ``O(r)`` binomials (no bound bites, or
+    every capacity at most 1) or ``O(r)`` table look-ups after a one-off
+    ``O(r n)`` table build (other bounds).
+
+    Raises
+    ------
+    InvalidConfiguration
+        if *config* is malformed (length, sign, sum) or breaks a bound.
+    TooLarge
+        if the suffix-count table would exceed :data:`RANK_TABLE_LIMIT`.
+    """
+    values = model.check_configuration(config)
+    plan = _plan(model)
+    for i, (v, (a, b)) in enumerate(zip(values, model.bounds), start=1):
+        if v < a:
+            raise InvalidConfiguration(
+                f"configuration entry {i} is {v} but urn {i} must hold at least {a}; "
+                "only admissible configurations have a rank"
+            )
+        if b is not None and v > b:
+            raise InvalidConfiguration(
+                f"configuration entry {i} is {v} but urn {i} holds at most {b}; "
+                "only admissible configurations have a rank"
+            )
+    x = [v - a for v, a in zip(values, plan.lows)]
+    return _ranker(plan).rank_from(x, 0, plan.N)
+
+
+def unrank(model, index) -> Tuple[int, ...]:
+    """Return the admissible vector of 0-based lexicographic rank *index*.
+
+    The inverse of :func:`rank`: urn by urn, a binary search over the suffix
+    counts finds the value whose block of successors contains *index*
+    (Nijenhuis and Wilf, *Combinatorial Algorithms*, 1978).  Cost ``O(r log n)``
+    binomials or table look-ups.
+
+    Raises
+    ------
+    InvalidParameters
+        if *index* is not a whole number in ``[0, count)``.
+    """
+    if isinstance(index, bool):
+        raise InvalidParameters(f"rank must be a whole number, not a boolean (got {index!r})")
+    try:
+        index = operator.index(index)
+    except TypeError:
+        raise InvalidParameters(
+            f"rank must be a whole number (got {index!r} of type {type(index).__name__})"
+        ) from None
+    plan = _plan(model)
+    ranker = _ranker(plan)
+    count = ranker.count
+    if count == 0:
+        raise InvalidParameters(
+            f"rank {index} is out of range: this model admits no configuration, so no rank is valid; "
+            "loosen the bounds or change the number of balls"
+        )
+    if not 0 <= index < count:
+        raise InvalidParameters(
+            f"rank {index} is out of range; valid ranks are 0 to {count - 1} "
+            f"(the model has {count} configurations)"
+        )
+    return plan.unshift(ranker.unrank(index))
+
+
+def _range(plan: _Plan, start, stop):
+    """Validate *start*/*stop*; return ``(start, total, empty)``, ``total=None`` to the end.
+
+    Only a nonzero *start* needs the count (to clamp it); ``stop`` past the
+    end simply runs out.
+    """
+    start = as_count(start, "start")
+    if stop is not None:
+        stop = as_count(stop, "stop")
+    if plan.empty or (stop is not None and stop <= start):
+        return start, None, True
+    if start:
+        count = _count(plan)
+        if start >= count:
+            return start, None, True
+        if stop is not None and stop >= count:
+            stop = None
+    return start, (None if stop is None else stop - start), False
+
+
+def _start_state(plan: _Plan, p: int, start: int):
+    """Prefix of rank *start* and its offset inside its run: ``(x_prefix, offset)``."""
+    if start == 0:
+        return plan.first_prefix(p), 0
+    ranker = _ranker(plan)
+    x = ranker.unrank(start)
+    m = plan.N - sum(x[:p])
+    return x[:p], ranker.rank_from(x, p, m)
+
+
+def iter_configurations(model, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
+    """Yield the admissible vectors of ranks ``[start, stop)`` in lexicographic order.
+
+    Lexicographic generation with suffix feasibility (Knuth, *The Art of
+    Computer Programming*, vol. 4A, 2011, §7.2.1.3 style): a Python successor
+    walks the first urns, and each prefix emits its whole run of suffixes
+    from a small precomputed table through C-level ``zip``/``repeat``
+    iterators (see the module notes).  A range starts by unranking *start*,
+    never walking earlier ranks.  Memory is bounded by the table budget,
+    whatever the number of configurations; cost per configuration is
+    ``O(r)`` C-level steps.
+
+    Parameters
+    ----------
+    start, stop : int
+        Ranks ``[start, stop)``; ``stop=None`` lists to the end.  Both are
+        clamped to the count; ``stop <= start`` yields nothing.
+
+    Yields
+    ------
+    tuple of int
+        Occupancy vectors; a tuple may be reused by CPython once the consumer
+        has dropped its reference (as ``itertools`` does), never while held.
+    """
+    plan = _plan(model)
+    start, total, empty = _range(plan, start, stop)
+    if empty:
+        return iter(())
+    r = plan.r
+    if r == 1:
+        return iter([(plan.N + plan.lows[0],)])
+    t, table = _table(plan, "tuples")
+    p = r - t
+    x, offset = _start_state(plan, p, start)
+    if table is None:
+        return chain.from_iterable(_range_runs(plan, p, x, offset, total))
+    return chain.from_iterable(_trim(_table_runs(plan, table, p, x), offset, total))
+
+
+def _table_runs(plan: _Plan, table: _SuffixTable, p: int, x: List[int]):
+    """Yield ``(run_iterator, length)`` per prefix, suffixes from the column table."""
+    lows = plan.lows
+    reps = [repeat(v + a) for v, a in zip(x, lows)]
+    for changed, m in _walk(plan, p, x):
+        for i in range(changed, p):
+            reps[i] = repeat(x[i] + lows[i])
+        cols = table.columns(m)
+        yield zip(*reps, *cols), len(cols[0])
+
+
+def _range_runs(plan: _Plan, p: int, x: List[int], offset: int, total: Optional[int]):
+    """Yield one ``zip`` per prefix of ``r - 2`` urns; the last two urns are ``range`` objects.
+
+    *offset* skips into the first run and *total* caps the number of
+    configurations, both by moving the range ends (they may exceed
+    ``sys.maxsize``, which ``islice`` refuses).
+    """
+    lows, caps = plan.lows, plan.caps
+    a, b = lows[-2], lows[-1]
+    c_last, c_pen = caps[-1], caps[-2]
+    reps = [repeat(v + w) for v, w in zip(x, lows)]
+    for changed, m in _walk(plan, p, x):
+        for i in range(changed, p):
+            reps[i] = repeat(x[i] + lows[i])
+        lo = m - c_last
+        if lo < 0:
+            lo = 0
+        lo += offset
+        offset = 0
+        hi = c_pen if c_pen < m else m
+        last = False
+        if total is not None:
+            if hi - lo + 1 >= total:
+                hi = lo + total - 1
+                last = True
+            else:
+                total -= hi - lo + 1
+        yield zip(*reps, range(lo + a, hi + 1 + a), range(m - lo + b, m - hi - 1 + b, -1))
+        if last:
+            return
+
+
+def _trim(runs, offset: int, total: Optional[int]):
+    """Skip *offset* items of the first run and stop after *total* items overall."""
+    first = True
+    for run, length in runs:
+        if first:
+            first = False
+            if offset:
+                run = islice(run, offset, None)
+                length -= offset
+        if total is not None:
+            if length >= total:
+                yield islice(run, total)
+                return
+            total -= length
+        yield run
+
+
+def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
+    """Yield numpy arrays of shape ``(<= size, r)`` holding ranks ``[start, stop)`` in order.
+
+    The same listing as :func:`iter_configurations`, many rows per array:
+    each prefix's run is written with one broadcast ``numpy.add`` of the
+    prefix row onto a precomputed full-width slice of suffixes (Knuth-style
+    lexicographic generation, vol. 4A §7.2.1.3, on the first urns only).
+    Every array but the last has exactly *size* rows; each is freshly
+    allocated.  The dtype is :func:`block_dtype` (smallest unsigned type
+    holding ``n``; ``object`` beyond ``2^64 - 1``).  Memory: the suffix table
+    (at most :data:`BLOCK_TABLE_BUDGET` bytes) plus one block.
+
+    Raises
+    ------
+    InvalidParameters
+        if *size* is not a whole number at least 1, or *start*/*stop* are
+        not whole numbers at least 0.
+    """
+    size = as_count(size, "block size", 1)
+    plan = _plan(model)
+    start, total, empty = _range(plan, start, stop)
+    if empty:
+        return iter(())
+    r = plan.r
+    if r == 1:
+        return iter([np.array([[plan.N + plan.lows[0]]], dtype=plan.dtype)])
+    t, table = _table(plan, "blocks")
+    p = r - t
+    x, offset = _start_state(plan, p, start)
+    if table is None:
+        return _blocks_ranges(plan, size, p, x, offset, total)
+    return _blocks_table(plan, table, size, p, x, offset, total)
+
+
+def _blocks_table(plan, table, size, p, x, offset, total):
+    r, dtype, lows = plan.r, plan.dtype, plan.lows
+    values = [v + a for v, a in zip(x, lows)]
+    out = np.empty((size, r), dtype=dtype, order="F")
+    pos = 0
+    fill = table.fill
+    for changed, m in _walk(plan, p, x):
+        for i in range(changed, p):
+            values[i] = x[i] + lows[i]
+        start, stop = table.run(m)[:2]
+        lo, length = offset, stop - start
+        offset = 0
+        while lo < length:
+            take = length - lo
+            if take > size - pos:
+                take = size - pos
+            if total is not None and take > total:
+                take = total
+            block = out[pos : pos + take]
+            for i in range(p):
+                block[:, i] = values[i]
+            fill(block, m, lo, take)
+            pos += take
+            lo += take
+            if total is not None:
+                total -= take
+                if total == 0:
+                    yield out[:pos]
+                    return
+            if pos == size:
+                yield out
+                out = np.empty((size, r), dtype=dtype, order="F")
+                pos = 0
+    if pos:
+        yield out[:pos]
+
+
+def _blocks_ranges(plan, size, p, x, offset, total):
+    r, dtype, lows, caps = plan.r, plan.dtype, plan.lows, plan.caps
+    a, b = lows[-2], lows[-1]
+    c_last, c_pen = caps[-1], caps[-2]
+    values = [v + w for v, w in zip(x, lows)]
+    out = np.empty((size, r), dtype=dtype, order="F")
+    pos = 0
+    for changed, m in _walk(plan, p, x):
+        for i in range(changed, p):
+            values[i] = x[i] + lows[i]
+        lo = m - c_last
+        if lo < 0:
+            lo = 0
+        hi = c_pen if c_pen < m else m
+        lo += offset
+        offset = 0
+        while lo <= hi:
+            take = hi - lo + 1
+            if take > size - pos:
+                take = size - pos
+            if total is not None and take > total:
+                take = total
+            block = out[pos : pos + take]
+            for i in range(p):
+                block[:, i] = values[i]
+            steps = np.arange(lo, lo + take, dtype=dtype)
+            block[:, r - 2] = steps + a
+            block[:, r - 1] = np.subtract(m + b, steps, dtype=dtype)
+            pos += take
+            lo += take
+            if total is not None:
+                total -= take
+                if total == 0:
+                    yield out[:pos]
+                    return
+            if pos == size:
+                yield out
+                out = np.empty((size, r), dtype=dtype, order="F")
+                pos = 0
+    if pos:
+        yield out[:pos]
