@@ -816,3 +816,643 @@ def demo_command(as_json: Json = False) -> None:
         f"enumerator prob -n {_DEMO_BALLS} -r {_DEMO_SITES} --config 2,1,0,0,0;  "
         f"enumerator list -n {_DEMO_BALLS} -r {_DEMO_SITES} --rule FD"
     )
+
+
+# --------------------------------------------------------------------------
+# Lookup tables and the result store: ``enumerator table ...``, ``enumerator cache ...``
+# (the work is in enumerator.tables and enumerator.store; these only parse and print)
+# --------------------------------------------------------------------------
+table_app = typer.Typer(
+    help="Lookup tables: exact counts over a grid of balls x urns, built into the result store.",
+    no_args_is_help=True,
+)
+cache_app = typer.Typer(
+    help="Look after the result store: statistics, verification, clearing, export.",
+    no_args_is_help=True,
+)
+app.add_typer(table_app, name="table")
+app.add_typer(cache_app, name="cache")
+
+BallsRange = Annotated[
+    str,
+    typer.Option("--balls", "-n", metavar="RANGE",
+                 help="Balls n of the grid: a range such as 0..200 (both ends included) or one number.",
+                 rich_help_panel=_MODEL),
+]
+UrnsRange = Annotated[
+    str,
+    typer.Option("--urns", "-r", metavar="RANGE",
+                 help="Urns r of the grid: a range such as 1..50 (both ends included) or one number.",
+                 rich_help_panel=_MODEL),
+]
+TableName = Annotated[str, typer.Argument(help="The table's name (see 'enumerator table list').")]
+
+
+class TableFormat(str, Enum):
+    """Formats of ``enumerator table export``."""
+
+    csv = "csv"
+    json = "json"
+    markdown = "markdown"
+    latex = "latex"
+
+
+class EntryFormat(str, Enum):
+    """Formats of ``enumerator cache export``."""
+
+    csv = "csv"
+    jsonl = "jsonl"
+
+
+def _open_store(location: Optional[str]):
+    """The store named by ``--store`` (else the default); table and cache commands always use one."""
+    from . import store as results
+
+    return results.open_store(location)
+
+
+def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
+    """Write *lines* to the file *output* (or stdout); return how many."""
+    count = 0
+    if output is None:
+        for line in lines:
+            sys.stdout.write(line)
+            count += 1
+        sys.stdout.flush()
+        return count
+    try:
+        with open(output, "w", encoding="utf-8", newline="") as handle:
+            for line in lines:
+                handle.write(line)
+                count += 1
+    except OSError as error:
+        from .errors import StoreError
+
+        raise StoreError(f"cannot write {output} ({error.strerror}); choose another --output") from None
+    return count
+
+
+def _range_text(values: range) -> str:
+    return f"{values.start}..{values.stop - 1}"
+
+
+def _bounds_words(spec) -> str:
+    limits = []
+    if spec.minimum:
+        limits.append(f"at least {spec.minimum}")
+    if spec.capacity is not None and not (spec.rule == "FD" and spec.capacity == 1):
+        limits.append(f"at most {spec.capacity}")
+    return " and ".join(limits) + " per urn" if limits else "any number per urn"
+
+
+def _short(text: str, width: int = 10) -> str:
+    """A long number as ``head…[digits]`` (previews only; exports are exact)."""
+    if len(text) <= width:
+        return text
+    return f"{text[:2]}…[{len(text)}]"
+
+
+@table_app.command("build")
+def table_build_command(
+    balls: BallsRange,
+    urns: UrnsRange,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    quantity: Annotated[
+        Optional[str],
+        typer.Option("--quantity", metavar="NAME",
+                     help="microstates (default: the equally likely outcomes; for BE and FD the "
+                     "configurations), configurations, or profiles."),
+    ] = None,
+    name: Annotated[
+        Optional[str],
+        typer.Option("--name", help="Name of the table (default: made from its definition)."),
+    ] = None,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Build a lookup table of exact counts over balls x urns into the result store.
+
+    Each row (fixed r, every n) comes from one generating-function pass;
+    cells already stored are reused, and every row is saved as soon as it is
+    done, so an interrupted build (Ctrl-C) resumes where it stopped when the
+    same command is run again.  Several builds may run at once on one store.
+
+    Example:
+
+        $ enumerator table build --rule BE --balls 0..200 --urns 1..50
+        $ enumerator table build --rule MB --balls 0..100 --urns 1..20 --capacity 4 --name shelves
+    """
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from .tables import TableSpec, build_table, parse_range
+
+    spec = TableSpec.make(rule, parse_range(balls, "--balls"), parse_range(urns, "--urns"),
+                          capacity=capacity, minimum=minimum, quantity=quantity)
+    target = _open_store(store)
+    label = name or spec.default_name()
+    err = Console(stderr=True)
+    progress = Progress(
+        TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
+        TextColumn("rows  r={task.fields[urns]}  {task.fields[computed]} computed, "
+                   "{task.fields[reused]} reused"),
+        TimeRemainingColumn(), console=err, disable=not err.is_terminal, transient=True,
+    )
+    totals = {"computed": 0, "reused": 0}
+    with progress:
+        task = progress.add_task(label, total=len(spec.urns), urns=spec.urns.start, computed=0, reused=0)
+
+        def advance(r, computed, reused):
+            totals["computed"] += computed
+            totals["reused"] += reused
+            progress.update(task, advance=1, urns=r, **totals)
+
+        try:
+            report = build_table(spec, name=name, store=target, progress=advance)
+        except KeyboardInterrupt:
+            progress.stop()
+            sys.stderr.write(
+                f"Interrupted: {totals['computed'] + totals['reused']} of {spec.cells} cells of "
+                f"table {label} are stored; run the same command again to finish "
+                "(stored cells are not recomputed).\n"
+            )
+            raise typer.Exit(130) from None
+    if as_json:
+        emit_json({
+            "name": report.name, "rule": spec.rule, "quantity": spec.quantity,
+            "minimum": exact(spec.minimum),
+            "capacity": None if spec.capacity is None else exact(spec.capacity),
+            "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+            "cells": exact(spec.cells), "computed": exact(report.computed),
+            "reused": exact(report.reused), "stored": exact(report.stored),
+            "store": target.name, "read_only": report.read_only,
+            "seconds_approx": report.seconds_approx,
+        })
+        return
+    show_table(
+        f"Table {report.name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}",
+        ["", "value"],
+        [
+            ["balls", _range_text(spec.balls)],
+            ["urns", _range_text(spec.urns)],
+            ["cells", exact(spec.cells)],
+            ["computed now", exact(report.computed)],
+            ["found stored", exact(report.reused)],
+            ["seconds (approx)", f"{report.seconds_approx:.3g}"],
+            ["store", target.name + (" (read-only: nothing saved)" if report.read_only else "")],
+        ],
+    )
+
+
+@table_app.command("list")
+def table_list_command(store: Store = None, as_json: Json = False) -> None:
+    """List the lookup tables in the store, with how many of their cells are built.
+
+    Example:
+
+        $ enumerator table list
+        $ enumerator table list --json
+    """
+    from .tables import list_tables
+
+    target = _open_store(store)
+    found = list_tables(store=target)
+    if as_json:
+        emit_json({
+            "store": target.name,
+            "tables": [
+                {"name": name, "rule": spec.rule, "quantity": spec.quantity,
+                 "minimum": exact(spec.minimum),
+                 "capacity": None if spec.capacity is None else exact(spec.capacity),
+                 "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+                 "cells": exact(spec.cells), "stored": exact(stored)}
+                for name, spec, stored in found
+            ],
+        })
+        return
+    if not found:
+        sys.stdout.write(f"No tables in {target.name} yet; build one with 'enumerator table build'.\n")
+        return
+    # one line per table, so a long name is never cut or folded
+    lines = [f"Lookup tables in {target.name}:"]
+    for name, spec, stored in found:
+        lines.append(
+            f"  {name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}, balls "
+            f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, {stored}/{spec.cells} cells built"
+        )
+    sys.stdout.write("\n".join(lines) + "\n")
+
+
+@table_app.command("show")
+def table_show_command(
+    name: TableName,
+    balls: Annotated[
+        Optional[str],
+        typer.Option("--balls", "-n", metavar="RANGE", help="Rows to show (default: the first 20)."),
+    ] = None,
+    urns: Annotated[
+        Optional[str],
+        typer.Option("--urns", "-r", metavar="RANGE", help="Columns to show (default: as many as fit, up to 8)."),
+    ] = None,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Show a lookup table: its definition and a window of its cells (n down, r across).
+
+    Long values are shortened to head…tail with their digit count; 'table
+    export' and --json give every value in full.
+
+    Example:
+
+        $ enumerator table show BE-configurations-n0..200-r1..50 --balls 0..10 --urns 1..5
+    """
+    from .tables import load_table, parse_range
+
+    data = load_table(name, store=_open_store(store))
+    spec = data.spec
+    rows = parse_range(balls, "--balls") if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
+    fit = max(1, min(8, (_console().width - 10) // 13))  # value columns that fit the terminal
+    cols = parse_range(urns, "--urns") if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    if as_json:
+        emit_json({
+            "name": name, "rule": spec.rule, "quantity": spec.quantity,
+            "minimum": exact(spec.minimum),
+            "capacity": None if spec.capacity is None else exact(spec.capacity),
+            "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+            "missing": exact(data.missing),
+            "cells": [
+                {"balls": exact(n), "urns": exact(r), "value": data.cells[(n, r)][0],
+                 "digits": exact(data.cells[(n, r)][1])}
+                for r in cols for n in rows if (n, r) in data.cells
+            ],
+        })
+        return
+    show_table(
+        f"{name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}; balls "
+        f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, "
+        f"{spec.cells - data.missing}/{spec.cells} cells built",
+        ["n \\ r"] + [str(r) for r in cols],
+        [
+            [str(n)] + [_short(data.cells[(n, r)][0]) if (n, r) in data.cells else "·" for r in cols]
+            for n in rows
+        ],
+    )
+    if any(len(data.cells[(n, r)][0]) > 10 for r in cols for n in rows if (n, r) in data.cells):
+        sys.stdout.write("ab…[d]: a value of d digits that starts with ab; 'table export' gives them in full.\n")
+    if data.missing:
+        sys.stdout.write("· not built yet; run 'enumerator table build' with the same grid to finish.\n")
+
+
+@table_app.command("export")
+def table_export_command(
+    name: TableName,
+    fmt: Annotated[
+        TableFormat,
+        typer.Option("--format", case_sensitive=False,
+                     help="csv, json, markdown or latex: one line per cell with n, r, the exact "
+                     "value and its number of digits."),
+    ] = TableFormat.csv,
+    output: Annotated[
+        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
+    ] = None,
+    store: Store = None,
+) -> None:
+    """Export a lookup table with every value exact and in full.
+
+    Example:
+
+        $ enumerator table export BE-configurations-n0..200-r1..50 --format csv > be.csv
+        $ enumerator table export shelves --format latex --output shelves.tex
+    """
+    from .tables import export_table, load_table
+
+    data = load_table(name, store=_open_store(store))
+    _write_output([export_table(data, fmt.value)], output)
+    if data.missing:
+        sys.stderr.write(
+            f"Note: {data.missing} of {data.spec.cells} cells of {name} are not built yet and are "
+            "left out; run 'enumerator table build' with the same grid to finish.\n"
+        )
+
+
+@table_app.command("drop")
+def table_drop_command(name: TableName, store: Store = None) -> None:
+    """Forget a table's definition (its cells stay in the store for other lookups).
+
+    Example:
+
+        $ enumerator table drop shelves
+    """
+    from .errors import InvalidParameters
+
+    target = _open_store(store)
+    if not target.delete_table(name):
+        raise InvalidParameters(f"no table named {name!r} in {target.name}; see 'enumerator table list'")
+    sys.stdout.write(f"Dropped table {name} (its cells stay in the store).\n")
+
+
+@cache_app.command("stats")
+def cache_stats_command(store: Store = None, as_json: Json = False) -> None:
+    """Show what the result store holds: entries by quantity and rule, sizes, time saved.
+
+    Example:
+
+        $ enumerator cache stats
+        $ enumerator cache stats --store /data/shared.sqlite --json
+    """
+    target = _open_store(store)
+    stats = target.stats()
+    if as_json:
+        emit_json({
+            "store": stats["store"], "read_only": stats["read_only"],
+            "schema_version": exact(stats["schema_version"]),
+            "entries": exact(stats["entries"]), "stale": exact(stats["stale"]),
+            "tables": exact(stats["tables"]),
+            "by_quantity": {q: {rule: exact(c) for rule, c in by.items()} for q, by in stats["by_quantity"].items()},
+            "largest_digits": exact(stats["largest_digits"]), "total_digits": exact(stats["total_digits"]),
+            "compute_seconds_approx": stats["compute_ns"] / 1e9,
+            "file_bytes": exact(stats["file_bytes"]) if "file_bytes" in stats else None,
+        })
+        return
+    rows = [["store", stats["store"] + (" (read-only)" if stats["read_only"] else "")],
+            ["entries", exact(stats["entries"])]]
+    for quantity, by in sorted(stats["by_quantity"].items()):
+        rows.append([f"  {quantity}", ", ".join(f"{rule} {count}" for rule, count in sorted(by.items()))])
+    rows += [
+        ["superseded versions", exact(stats["stale"])],
+        ["lookup tables", exact(stats["tables"])],
+        ["largest value (digits)", exact(stats["largest_digits"])],
+        ["all values (digits)", exact(stats["total_digits"])],
+        ["compute time kept (s, approx)", f"{stats['compute_ns'] / 1e9:.3g}"],
+    ]
+    if "file_bytes" in stats:
+        rows.append(["file size (bytes)", exact(stats["file_bytes"])])
+    show_table("Result store", ["", "value"], rows)
+
+
+@cache_app.command("verify")
+def cache_verify_command(
+    sample: Annotated[
+        int, typer.Option("--sample", help="Recompute this many entries, drawn at random."),
+    ] = 200,
+    verify_all: Annotated[bool, typer.Option("--all", help="Recompute every entry.")] = False,
+    seed: Annotated[Optional[int], typer.Option("--seed", help="Seed of the random sample.")] = None,
+    fix: Annotated[bool, typer.Option("--fix", help="Replace every wrong or damaged entry by the recomputed value.")] = False,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Recompute stored values (a sample, or --all) and report every mismatch.
+
+    Exit code 0 when everything matches (or was fixed), 1 when a wrong or
+    damaged entry remains.
+
+    Example:
+
+        $ enumerator cache verify --sample 500
+        $ enumerator cache verify --all --fix
+    """
+    target = _open_store(store)
+    report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
+    mismatches = report["mismatches"]
+    if as_json:
+        emit_json({
+            "store": target.name, "checked": exact(report["checked"]), "skipped": exact(report["skipped"]),
+            "fixed": exact(report["fixed"]),
+            "mismatches": [
+                {"quantity": m["quantity"], "rule": m["rule"], "balls": exact(m["balls"]),
+                 "bounds": m["bounds"], "params": m["params"], "version": exact(m["version"]),
+                 "problem": m["problem"], "stored": m["stored"], "expected": m["expected"]}
+                for m in mismatches
+            ],
+        })
+    else:
+        for m in mismatches:
+            sys.stdout.write(
+                f"MISMATCH {m['quantity']} {m['rule']} n={m['balls']} bounds {m['bounds']}"
+                f"{' ' + m['params'] if m['params'] else ''} v{m['version']}: {m['problem']}; "
+                f"stored {_short(m['stored'], 40)}, recomputed {_short(m['expected'], 40)}\n"
+            )
+        sys.stdout.write(
+            f"Checked {report['checked']} entries of {target.name}: {len(mismatches)} mismatches"
+            + (f", {report['fixed']} fixed" if fix else "")
+            + (f"; {report['skipped']} skipped (superseded version or no recomputer)" if report["skipped"] else "")
+            + ".\n"
+        )
+    if mismatches and report["fixed"] < len(mismatches):
+        raise typer.Exit(1)
+
+
+@cache_app.command("clear")
+def cache_clear_command(
+    stale: Annotated[bool, typer.Option("--stale", help="Only entries of superseded algorithm versions.")] = False,
+    quantity: Annotated[Optional[str], typer.Option("--quantity", help="Only this quantity.")] = None,
+    yes: Annotated[bool, typer.Option("--yes", "-y", help="Do not ask for confirmation.")] = False,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Delete stored results (all, one quantity, or only superseded versions).
+
+    Clearing everything also forgets the lookup-table definitions.  Asks
+    first unless --yes (or --stale, which only drops values no longer served).
+
+    Example:
+
+        $ enumerator cache clear --stale
+        $ enumerator cache clear --quantity profiles --yes
+    """
+    target = _open_store(store)
+    if not (yes or stale):
+        what = f"every {quantity} entry" if quantity else "every stored result and table definition"
+        if not sys.stdin.isatty():
+            from .errors import InvalidParameters
+
+            raise InvalidParameters(f"this would delete {what} in {target.name}; add --yes to confirm")
+        typer.confirm(f"Delete {what} in {target.name}?", abort=True)
+    removed = target.clear(quantity=quantity, stale_only=stale)
+    if as_json:
+        emit_json({"store": target.name, "removed": exact(removed)})
+        return
+    sys.stdout.write(f"Removed {removed} entries from {target.name}.\n")
+
+
+@cache_app.command("export")
+def cache_export_command(
+    fmt: Annotated[
+        EntryFormat,
+        typer.Option("--format", case_sensitive=False,
+                     help="csv (with a header) or jsonl (one JSON object a line); exact values in full."),
+    ] = EntryFormat.jsonl,
+    output: Annotated[
+        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
+    ] = None,
+    store: Store = None,
+) -> None:
+    """Export every stored result with its key, exact value, digits, method and time.
+
+    Example:
+
+        $ enumerator cache export --format csv --output results.csv
+        $ enumerator cache export | head -3
+    """
+    target = _open_store(store)
+    count = _write_output(target.export_lines(fmt.value), output)
+    if output is not None:
+        sys.stdout.write(f"Wrote {count} lines to {output}.\n")
+
+
+# -- compare -----------------------------------------------------------------
+_SWEEP = "Sweep (a whole number, or an expression of the --vary name)"
+
+
+def _tie_option(flag: str, *short: str, help: str):
+    return typer.Option(flag, *short, metavar="N|EXPR", help=help, rich_help_panel=_SWEEP)
+
+
+def _wide_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]) -> None:
+    """Print a rich table at its natural width (wider than the terminal if it must).
+
+    The cells of ``compare`` are short, already-rounded numbers (the whole
+    values are in --json/--csv), so the table is never folded and never
+    spills values below itself the way :func:`show_table` does for long counts.
+    """
+    rows = [list(row) for row in rows]
+    table = Table()
+    for i, name in enumerate(columns):
+        table.add_column(name, justify="left" if i == 0 else "right", no_wrap=True)
+    for row in rows:
+        table.add_row(*row)
+    natural = 1 + sum(3 + max(len(name), *(len(row[i]) for row in rows)) for i, name in enumerate(columns))
+    wide = Console(file=sys.stdout, highlight=False, soft_wrap=False, width=max(_console().width, natural))
+    wide.print(title, style="bold")
+    wide.print(table)
+
+
+@app.command("compare")
+def compare_command(
+    names: Annotated[
+        Optional[str],
+        typer.Argument(
+            metavar="NAME[,NAME...]",
+            help="Approximation(s) from the catalogue, comma-separated (see --list).",
+            show_default=False,
+        ),
+    ] = None,
+    vary: Annotated[
+        Optional[str],
+        typer.Option("--vary", metavar="NAME=START..STOP", rich_help_panel=_SWEEP,
+                     help="Vary one parameter (balls, urns, capacity, minimum, at) over START..STOP."),
+    ] = None,
+    step: Annotated[
+        Optional[int],
+        typer.Option("--step", rich_help_panel=_SWEEP, help="Points START, START+S, ... (up to STOP)."),
+    ] = None,
+    geometric: Annotated[
+        Optional[int],
+        typer.Option("--geometric", metavar="K", rich_help_panel=_SWEEP,
+                     help="K points evenly spaced on a log scale from START to STOP (the default, K=10)."),
+    ] = None,
+    balls: Annotated[Optional[str], _tie_option("--balls", "-n", help="Number of balls n.")] = None,
+    urns: Annotated[
+        Optional[str],
+        _tie_option("--urns", "-r", help='Number of urns r, e.g. 365 or "balls//2" or "balls*balls".'),
+    ] = None,
+    rule: Annotated[
+        Optional[str],
+        typer.Option("--rule", metavar="MB|BE|FD", rich_help_panel=_SWEEP, help="Rule (saddle only; default BE)."),
+    ] = None,
+    capacity: Annotated[Optional[str], _tie_option("--capacity", help="At most this many balls per urn (saddle).")] = None,
+    minimum: Annotated[Optional[str], _tie_option("--minimum", help="At least this many balls per urn (saddle).")] = None,
+    at: Annotated[
+        Optional[str],
+        _tie_option("--at", help="The j of poisson/normal (P(at most j empty urns)) and boltzmann (urns holding j)."),
+    ] = None,
+    pattern: Annotated[
+        Optional[str],
+        typer.Option("--pattern", metavar="W1,W2,...", rich_help_panel=_SWEEP,
+                     help="entropy: configurations proportional to this pattern (default: equal shares)."),
+    ] = None,
+    as_csv: Annotated[
+        bool, typer.Option("--csv", rich_help_panel=_OUTPUT, help="Print CSV rows (exact values whole)."),
+    ] = False,
+    plot: Annotated[
+        Optional[str],
+        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
+                     help="Also draw |relative error| against the varied parameter, log-log, to FILE.png."),
+    ] = None,
+    show_list: Annotated[
+        bool, typer.Option("--list", help="List the catalogue of approximations and exit."),
+    ] = False,
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Compare an approximation with the exact value as the system grows.
+
+    Prints, per point, the exact value, the approximation, their absolute and
+    relative errors and the local order, then the observed convergence order
+    (least-squares slope of ln|relative error| against ln of the varied
+    parameter, sign flipped: an error ~ n^-p gives p) beside the theory's.
+    Other parameters are fixed (--urns 365) or tied to the varied one by
+    whole numbers and + - * / // (--urns "balls//2"; / is exact and each
+    value must come out whole).  The exact side is exact (JSON "exact": "p"
+    or "p/q"); approximations are evaluated with mpmath at a precision that
+    makes the printed errors the approximation's, not rounding.  A single
+    point (fixed values, no --vary) has order_approx null.
+
+    Example:
+
+        $ enumerator compare --list
+        $ enumerator compare birthday --balls 23 --urns 365 --json
+        $ enumerator compare stirling1,stirling2,stirling3 --vary balls=10..1000 --urns balls --plot stirling.png
+        $ enumerator compare saddle --vary balls=100..10000 --urns "balls//2" --capacity 3 --csv
+    """
+    from . import asymptotics
+    from .errors import InvalidParameters
+
+    if show_list:
+        entries = asymptotics.catalogue_rows()
+        if as_json:
+            emit_json({"approximations": entries})
+            return
+        lines = []
+        for e in entries:
+            order = f"order {e['order']} when {e['regime']}" if e["order"] else "no order claimed"
+            lines.append(
+                f"{e['name']}: {e['quantity']}\n    ≈ {e['formula']}\n    {order}; "
+                f"uses {', '.join(e['uses'])}; {e['scale']} scale\n    source: {e['source']}\n"
+            )
+        sys.stdout.write("".join(lines))
+        sys.stdout.flush()
+        return
+    if names is None:
+        raise InvalidParameters("name an approximation, e.g. enumerator compare birthday (see --list)")
+    if as_csv and as_json:
+        raise InvalidParameters("give --csv or --json, not both")
+    with store_scope(store, no_cache):
+        comparisons = asymptotics.compare_sweep(
+            names, vary, step=step, geometric=geometric, balls=balls, urns=urns, rule=rule,
+            capacity=capacity, minimum=minimum, at=at, pattern=pattern,
+        )
+    if plot is not None:
+        asymptotics.plot_comparisons(comparisons, plot)
+    if as_json:
+        payloads = [c.to_json() for c in comparisons]
+        emit_json(payloads[0] if len(payloads) == 1 else {"comparisons": payloads})
+        return
+    if as_csv:
+        sys.stdout.write(asymptotics.comparisons_csv(comparisons))
+        sys.stdout.flush()
+        return
+    console = _console()
+    for i, comparison in enumerate(comparisons):
+        entry = comparison.approximation
+        if i:
+            console.print()
+        columns, rows = asymptotics.comparison_table(comparison)
+        scale = " (errors of ln W: log scale)" if entry.scale == "log" else ""
+        _wide_table(f"{entry.name}: {entry.quantity} ≈ {entry.formula}{scale}", columns, rows)
+        console.print(asymptotics.describe_order(comparison))
+        console.print(f"source: {entry.source}")
+    if plot is not None:
+        console.print(f"plot: {plot}")

@@ -1144,7 +1144,10 @@ EXPORT_ENTRY_FORMATS = ("csv", "jsonl")
 
 
 def _export_fields(entry: StoredEntry) -> list:
-    created = entry.created_at.isoformat() if entry.created_at is not None else ""
+    created = entry.created_at
+    if created is not None and created.tzinfo is None:
+        created = created.replace(tzinfo=timezone.utc)  # stored in UTC; SQLite drops the zone
+    created = created.isoformat() if created is not None else ""
     return [entry.quantity, entry.rule, _int_text(entry.balls), str(entry.urns), entry.bounds,
             entry.params, str(entry.version), entry.kind, entry.text, str(entry.digits),
             entry.method, f"{entry.seconds_approx:.6g}", created]

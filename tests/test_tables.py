@@ -3,8 +3,9 @@
 Rows built in one generating-function pass are checked cell by cell against
 the single counts of enumerator.counting, against brute force, and against
 outside references (SciPy's exact binomials, SymPy's Stirling numbers and
-partitions, OEIS rows).  Building is checked for reuse, resumption after an
-interruption and four processes writing one SQLite file at once.
+partitions, OEIS rows).  Building is checked for reuse and for resumption
+after an interruption or a killed process (four concurrent builders: see
+tests/test_cli_store.py).
 """
 
 from __future__ import annotations
@@ -231,41 +232,6 @@ def test_a_killed_build_process_resumes(path, tmp_path):
     report = tables.build_table(spec, store=path)
     assert report.reused == before and report.computed == spec.cells - before
     assert _rows_in_db(path) == _distinct_keys_in_db(path) == spec.cells
-
-
-def test_four_processes_building_overlapping_tables_store_every_cell_once(path):
-    jobs = [
-        ("BE", "0..80", "1..30", 9),
-        ("BE", "40..120", "10..40", 9),
-        ("BE", "0..120", "20..35", 9),
-        ("BE", "20..100", "1..40", 9),
-    ]
-    procs = []
-    for rule, balls, urns, capacity in jobs:
-        code = (
-            "from enumerator import tables;"
-            f"r = tables.build_table(tables.TableSpec.make({rule!r}, {balls!r}, {urns!r}, capacity={capacity}), store={path!r});"
-            "print(r.computed, r.reused)"
-        )
-        procs.append(subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE,
-                                      stderr=subprocess.PIPE, text=True))
-    for proc in procs:
-        out, err = proc.communicate(timeout=300)
-        assert proc.returncode == 0, err
-        assert err == ""  # in particular no "database is locked"
-        computed, reused = map(int, out.split())
-        assert computed + reused > 0
-    cells = set()
-    for _, balls, urns, _ in jobs:
-        cells.update(itertools.product(tables.parse_range(balls, "b"), tables.parse_range(urns, "u")))
-    assert _rows_in_db(path) == _distinct_keys_in_db(path) == len(cells)
-    with sqlite3.connect(path) as conn:
-        stored = conn.execute("SELECT balls, urns, value FROM enumerator_results").fetchall()
-    rows = {}
-    for balls_text, r, value in stored:
-        if r not in rows:
-            rows[r] = tables.row_values("BE", "configurations", r, 0, 9, 120)[0]
-        assert int(value) == rows[r][int(balls_text)]
 
 
 def test_a_name_with_another_definition_is_refused(path):

@@ -1,0 +1,291 @@
+"""The command line of the result store and lookup tables: ``table ...``, ``cache ...``.
+
+Values are checked against closed forms computed here with the standard
+library (stars and bars ``math.comb(n + r - 1, r - 1)``, ``r**n``: common
+practice) and against SymPy's Stirling numbers.  Exact integers in JSON are
+strings of digits (DESIGN.md).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import itertools
+import json
+import math
+import sqlite3
+import subprocess
+import sys
+
+import pytest
+from sympy.functions.combinatorial.numbers import stirling
+from typer.testing import CliRunner
+
+from enumerator import store as results
+from enumerator import tables
+from enumerator.cli import app
+
+runner = CliRunner()
+
+
+@pytest.fixture(autouse=True)
+def _isolated(monkeypatch, tmp_path):
+    monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
+    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
+    saved = dict(results._config)
+    yield
+    results._config.update(saved)
+    results.close_all()
+
+
+@pytest.fixture
+def where(tmp_path):
+    return str(tmp_path / "cli.sqlite")
+
+
+def run(*args):
+    return runner.invoke(app, [str(a) for a in args])
+
+
+def run_json(*args) -> dict:
+    result = run(*args, "--json")
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    assert len(lines) == 1
+    return json.loads(lines[0])
+
+
+def one_line_error(result, code=2) -> str:
+    assert result.exit_code == code, result.output
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("Error: "), result.stderr
+    assert "Traceback" not in result.output
+    return lines[0]
+
+
+# -- table build / list / show / export ---------------------------------------------
+
+def test_table_build_then_rebuild_reuses_every_cell(where):
+    first = run_json("table", "build", "--rule", "BE", "--balls", "0..40", "--urns", "1..8", "--store", where)
+    assert first["name"] == "BE-configurations-n0..40-r1..8"
+    assert (first["cells"], first["computed"], first["reused"]) == ("328", "328", "0")
+    again = run_json("table", "build", "--rule", "BE", "--balls", "0..40", "--urns", "1..8", "--store", where)
+    assert (again["computed"], again["reused"]) == ("0", "328")
+    payload = run_json("table", "show", first["name"], "--balls", "0..40", "--urns", "1..8", "--store", where)
+    values = {(int(c["balls"]), int(c["urns"])): c["value"] for c in payload["cells"]}
+    # stars and bars: C(n + r - 1, r - 1) (common practice)
+    assert values == {(n, r): str(math.comb(n + r - 1, r - 1)) for n in range(41) for r in range(1, 9)}
+
+
+def test_table_build_human_output_and_list(where):
+    result = run("table", "build", "--rule", "MB", "--balls", "0..30", "--urns", "1..5", "--minimum", "1",
+                 "--name", "parcels", "--store", where)
+    assert result.exit_code == 0, result.output
+    assert "Table parcels: MB microstates, at least 1 per urn" in result.stdout
+    assert "computed now" in result.stdout and "155" in result.stdout
+    listed = run("table", "list", "--store", where)
+    assert listed.stdout.splitlines()[1] == (
+        "  parcels: MB microstates, at least 1 per urn, balls 0..30 x urns 1..5, 155/155 cells built"
+    )
+    payload = run_json("table", "list", "--store", where)
+    assert payload["tables"] == [{
+        "name": "parcels", "rule": "MB", "quantity": "microstates", "minimum": "1", "capacity": None,
+        "balls": "0..30", "urns": "1..5", "cells": "155", "stored": "155",
+    }]
+    # every urn occupied: r! S(n, r) (SymPy's Stirling numbers of the second kind)
+    exported = run("table", "export", "parcels", "--format", "csv", "--store", where)
+    rows = list(csv.DictReader(io.StringIO(exported.stdout)))
+    assert len(rows) == 155
+    for row in rows:
+        n, r = int(row["balls"]), int(row["urns"])
+        expected = math.factorial(r) * int(stirling(n, r))
+        assert row["value"] == str(expected) and row["digits"] == str(len(str(expected)))
+
+
+def test_table_show_window_for_people(where):
+    run("table", "build", "--rule", "MB", "--balls", "0..100", "--urns", "1..4", "--name", "cavity", "--store", where)
+    result = run("table", "show", "cavity", "--balls", "98..100", "--urns", "1..3", "--store", where)
+    assert result.exit_code == 0, result.output
+    assert "cavity: MB microstates, any number per urn" in result.stdout
+    line = next(l for l in result.stdout.splitlines() if l.startswith("│ 100"))
+    # 2^100 has 31 digits and starts 12...; 3^100 has 48 digits and starts 51... (r^n)
+    assert "1" in line and "12…[31]" in line and "51…[48]" in line
+    assert "'table export' gives them in full" in result.stdout
+
+
+def test_table_export_formats_and_output_file(where, tmp_path):
+    run("table", "build", "--rule", "FD", "--balls", "0..6", "--urns", "1..6", "--name", "sites", "--store", where)
+    payload = json.loads(run("table", "export", "sites", "--format", "json", "--store", where).stdout)
+    # FD: C(r, n) (common practice)
+    assert {(c["balls"], c["urns"]): c["value"] for c in payload["cells"]} == {
+        (str(n), str(r)): str(math.comb(r, n)) for n in range(7) for r in range(1, 7)
+    }
+    markdown = run("table", "export", "sites", "--format", "markdown", "--store", where).stdout
+    assert "| 3 | 6 | 20 | 2 |" in markdown
+    target = tmp_path / "sites.tex"
+    result = run("table", "export", "sites", "--format", "latex", "--output", target, "--store", where)
+    assert result.exit_code == 0 and result.stdout == ""
+    assert "3 & 6 & 20 & 2 \\\\" in target.read_text()
+
+
+def test_table_errors_are_one_line(where):
+    assert "no table named 'nothing'" in one_line_error(run("table", "show", "nothing", "--store", where))
+    assert "--balls" in one_line_error(run("table", "build", "--rule", "BE", "--balls", "9..2", "--urns", "1", "--store", where))
+    assert "FD allows at most one" in one_line_error(
+        run("table", "build", "--rule", "FD", "--balls", "0..3", "--urns", "1..2", "--capacity", "2", "--store", where)
+    )
+    run("table", "build", "--rule", "BE", "--balls", "0..3", "--urns", "1..2", "--name", "t", "--store", where)
+    assert "already exists with another definition" in one_line_error(
+        run("table", "build", "--rule", "BE", "--balls", "0..4", "--urns", "1..2", "--name", "t", "--store", where)
+    )
+    assert run("table", "drop", "t", "--store", where).exit_code == 0
+    assert "no table named 't'" in one_line_error(run("table", "drop", "t", "--store", where))
+
+
+def test_ctrl_c_during_a_build_keeps_finished_rows_and_the_rerun_finishes(where, monkeypatch):
+    real = tables.row_values
+    calls = []
+
+    def interrupted_on_the_fourth_row(*args):
+        calls.append(args)
+        if len(calls) == 4:
+            raise KeyboardInterrupt
+        return real(*args)
+
+    monkeypatch.setattr(tables, "row_values", interrupted_on_the_fourth_row)
+    args = ("table", "build", "--rule", "BE", "--balls", "0..50", "--urns", "1..10", "--capacity", "5", "--store", where)
+    result = run(*args)
+    assert result.exit_code == 130
+    assert "run the same command again to finish" in result.stderr
+    monkeypatch.setattr(tables, "row_values", real)
+    resumed = run_json(*args)
+    assert (resumed["reused"], resumed["computed"]) == (str(3 * 51), str(7 * 51))
+    with sqlite3.connect(where) as conn:
+        assert conn.execute("SELECT count(*) FROM enumerator_results").fetchone()[0] == 510
+
+
+def test_four_cli_builds_at_once_store_every_cell_once(where):
+    grids = [("0..80", "1..30"), ("40..120", "10..40"), ("0..120", "20..35"), ("20..100", "1..40")]
+    procs = [
+        subprocess.Popen(
+            [sys.executable, "-m", "enumerator", "table", "build", "--rule", "BE", "--capacity", "9",
+             "--balls", balls, "--urns", urns, "--store", where, "--json"],
+            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+        )
+        for balls, urns in grids
+    ]
+    for proc in procs:
+        out, err = proc.communicate(timeout=300)
+        assert proc.returncode == 0, err
+        assert err == ""  # nothing reaches the user: no "database is locked"
+        assert json.loads(out)["cells"]
+    cells = set()
+    for balls, urns in grids:
+        cells.update(itertools.product(tables.parse_range(balls, "b"), tables.parse_range(urns, "u")))
+    stats = run_json("cache", "stats", "--store", where)
+    assert stats["entries"] == str(len(cells)) and stats["tables"] == "4"
+    with sqlite3.connect(where) as conn:
+        stored = conn.execute("SELECT balls, urns, value FROM enumerator_results").fetchall()
+    assert len({(b, r) for b, r, _ in stored}) == len(stored) == len(cells)
+    rows = {}
+    for balls_text, r, value in stored:
+        if r not in rows:
+            rows[r] = tables.row_values("BE", "configurations", r, 0, 9, 120)[0]
+        assert int(value) == rows[r][int(balls_text)]
+    assert run("cache", "verify", "--all", "--store", where).exit_code == 0
+
+
+# -- cache stats / verify / clear / export ---------------------------------------------
+
+def test_cache_stats_after_counts(where):
+    for n in range(6):
+        run("count", "-n", n, "-r", 3, "--rule", "MB", "--store", where)
+    stats = run_json("cache", "stats", "--store", where)
+    # MB count stores microstates (MB) and configurations (MB) per model
+    assert stats["entries"] == "12" and stats["by_quantity"]["microstates"] == {"MB": "6"}
+    assert stats["largest_digits"] == "3"  # 3^5 = 243
+    human = run("cache", "stats", "--store", where).stdout
+    assert "entries" in human and "12" in human
+
+
+def test_cache_verify_reports_and_fixes_a_wrong_value(where):
+    for n in range(8):
+        run("count", "-n", n, "-r", 4, "--rule", "BE", "--capacity", 3, "--store", where)
+    assert run("cache", "verify", "--all", "--store", where).exit_code == 0
+    with sqlite3.connect(where) as conn:
+        conn.execute("UPDATE enumerator_results SET value = '99' WHERE balls = '7'")
+    result = run("cache", "verify", "--all", "--store", where)
+    assert result.exit_code == 1
+    [line] = [l for l in result.stdout.splitlines() if l.startswith("MISMATCH")]
+    # C(n, r) with bounds 0..3 in 4 urns at n = 7: 16 vectors (brute force, small case)
+    brute = sum(1 for k in itertools.product(range(4), repeat=4) if sum(k) == 7)
+    assert "configurations BE n=7 bounds 4*0:3" in line and f"recomputed {brute}" in line
+    payload = run_json("cache", "verify", "--all", "--fix", "--store", where)
+    assert payload["fixed"] == "1" and payload["mismatches"][0]["expected"] == str(brute)
+    assert run("cache", "verify", "--all", "--store", where).exit_code == 0
+    assert run_json("count", "-n", 7, "-r", 4, "--rule", "BE", "--capacity", 3, "--store", where)["configurations"] == str(brute)
+
+
+def test_cache_clear_asks_for_yes_and_clears(where):
+    run("count", "-n", 5, "-r", 3, "--store", where)
+    assert "add --yes to confirm" in one_line_error(run("cache", "clear", "--store", where))
+    assert run_json("cache", "clear", "--stale", "--store", where)["removed"] == "0"
+    assert run_json("cache", "clear", "--yes", "--store", where)["removed"] == "2"
+    assert run_json("cache", "stats", "--store", where)["entries"] == "0"
+
+
+def test_cache_export_jsonl_and_csv(where, tmp_path):
+    run("count", "-n", 70, "-r", 2, "--rule", "MB", "--store", where)
+    records = [json.loads(l) for l in run("cache", "export", "--store", where).stdout.splitlines()]
+    micro = next(r for r in records if r["quantity"] == "microstates")
+    assert micro["value"] == str(2**70) and micro["digits"] == "22" and micro["balls"] == "70"
+    target = tmp_path / "all.csv"
+    result = run("cache", "export", "--format", "csv", "--output", target, "--store", where)
+    assert result.stdout == f"Wrote 3 lines to {target}.\n"
+    rows = list(csv.DictReader(target.open()))
+    assert {r["quantity"] for r in rows} == {"microstates", "configurations"}
+
+
+# -- the store options on the counting commands ------------------------------------------
+
+def test_a_non_database_store_is_a_one_line_error(tmp_path):
+    bad = tmp_path / "notes.txt"
+    bad.write_text("shopping list\n" * 100)
+    line = one_line_error(run("count", "-n", 3, "-r", 2, "--store", bad))
+    assert str(bad) in line and "delete" in line
+    line = one_line_error(run("cache", "stats", "--store", bad))
+    assert str(bad) in line
+
+
+def test_a_newer_schema_is_refused_through_the_cli(where):
+    run("count", "-n", 3, "-r", 2, "--store", where)
+    results.close_all()
+    with sqlite3.connect(where) as conn:
+        conn.execute("UPDATE enumerator_meta SET value = '99' WHERE key = 'schema_version'")
+    line = one_line_error(run("count", "-n", 3, "-r", 2, "--store", where))
+    assert "schema version 99" in line and "upgrade enumerator" in line
+
+
+def test_a_read_only_store_answers_and_warns_once(where):
+    run("count", "-n", 3, "-r", 2, "--store", where)
+    url = f"sqlite:///file:{where}?mode=ro&uri=true"
+    proc = subprocess.run(
+        [sys.executable, "-m", "enumerator", "count", "-n", "40", "-r", "6", "--rule", "MB",
+         "--capacity", "9", "--store", url, "--json"],
+        capture_output=True, text=True, timeout=120,
+    )
+    assert proc.returncode == 0, proc.stderr
+    from enumerator import Occupancy
+    from enumerator.counting import count_microstates
+
+    assert json.loads(proc.stdout)["microstates"] == str(count_microstates(Occupancy(balls=40, urns=6, rule="MB", capacity=9)))
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "read-only" in lines[0] and where in lines[0]
+
+
+def test_env_no_cache_for_the_cli(tmp_path, monkeypatch):
+    target = tmp_path / "never.sqlite"
+    monkeypatch.setenv(results.ENV_STORE, str(target))
+    monkeypatch.setenv(results.ENV_NO_CACHE, "1")
+    assert run_json("count", "-n", 6, "-r", 3, "--rule", "BE")["configurations"] == str(math.comb(8, 2))
+    assert not target.exists()
