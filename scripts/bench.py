@@ -1,0 +1,996 @@
+"""Benchmarks: enumerator against general-purpose peers, with every answer checked.
+
+Usage::
+
+    python scripts/bench.py                 # every workload, full repeats
+    python scripts/bench.py --quick         # every workload in under a minute
+    python scripts/bench.py --only NAME     # one workload (repeatable)
+    python scripts/bench.py --list          # names and descriptions
+    python scripts/bench.py --json FILE     # also write the results as JSON
+
+Each workload runs enumerator and, in the same process and run, its peers
+(plain gmpy2 formulas, python-flint ``fmpz_poly``, SymPy ``Poly``,
+``itertools``), prints the best and median time of each method, the ratio
+enumerator/peer and the fastest peer, and checks that every method returns the
+same answer.  A disagreement prints a line starting ``MISMATCH`` and the script
+exits with status 1 (an exception inside a workload prints ``ERROR`` and also
+exits 1).  A compact table closes the run: workload, enumerator best, fastest
+peer, ratio, target, met.  Targets are reported, never asserted.
+
+Timing (``time.perf_counter``, garbage collector off while timing, as
+``timeit`` does): one warm-up call gives the answer and a second one sets the
+number of loops and samples.  Calls shorter than ``MIN_SAMPLE`` are looped so
+a sample lasts about that long; the number of samples is chosen so one method
+spends about its time budget (0.3 s with ``--quick``, 2 s otherwise), at
+least 3.  A call longer than the budget gets one timed sample after the
+warm-up, and one longer than 4 budgets only the warm-up itself (the output
+says so: first-call costs are then included).
+A peer that may be very slow is first run on scaled-down copies
+of the instance (1/32, 1/16, ... of the size); when the extrapolated full-size
+time exceeds the per-call limit (3 s quick, 60 s full) it is skipped with a
+note ``skipped: too slow (>Ns)`` giving the estimate and the size it came from.
+A skipped peer's answer is not checked, and the note says so.
+
+Counts are measured cold: ``ENUMERATOR_NO_CACHE=1`` is set before enumerator
+is imported, so the result store is bypassed (a workload that measures the
+store turns it on for its own calls), and every count builds a fresh model
+(the model memoises its own answers).  Memory is the peak resident set of a child process, read with
+``os.wait4`` (the per-child form of ``getrusage(RUSAGE_CHILDREN)``).
+
+Adding a workload
+-----------------
+Write a function that takes the :class:`Context` and returns a
+:class:`Result`, usually through :meth:`Context.compare`, and register it with
+the :func:`workload` decorator; nothing else needs to change (``--list``,
+``--only``, the table, ``--json`` and the test pick it up)::
+
+    @workload("be-closed-form", "BE configurations, n=5000 r=300, no bounds",
+              target=faster_by(1))
+    def _be_closed_form(ctx):
+        return ctx.compare(
+            Method("enumerator",
+                   lambda: Occupancy(balls=5000, urns=300, rule="BE").configurations()),
+            [Method("gmpy2 comb", lambda: gmpy2.comb(5299, 299))],
+        )
+
+A :class:`Method` may give ``scaled=`` (a function of the size fraction that
+returns a call) so that a slow peer is estimated before it is run, ``check=``
+(an untimed call returning the answer, when the timed call returns nothing)
+and ``normalise=`` (maps the answer to plain ``int``/``Fraction``/tuples
+before comparing).  ``compare(..., items=N)`` also prints rates in items/s.
+A workload with no peer (e.g. "in seconds" figures) passes ``[]`` and
+``target=None``.  Workloads that are not timings (memory) build the
+:class:`Result` themselves; see :func:`_list_memory`.
+"""
+
+from __future__ import annotations
+
+import argparse
+import collections
+import gc
+import itertools
+import json
+import math
+import os
+import platform
+import random
+import statistics
+import subprocess
+import sys
+import time
+import traceback
+from dataclasses import asdict, dataclass, field
+from fractions import Fraction
+from pathlib import Path
+from typing import Any, Callable, Dict, List, Optional
+
+# Cold measurements: the store (when present) must not answer from a cache.
+os.environ["ENUMERATOR_NO_CACHE"] = "1"
+
+ROOT = Path(__file__).resolve().parent.parent
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+import gmpy2  # noqa: E402
+from flint import fmpz, fmpz_poly  # noqa: E402
+
+from enumerator import Occupancy  # noqa: E402
+
+mpz = gmpy2.mpz
+perf_counter = time.perf_counter
+
+#: A sample of a fast call loops it until the sample lasts about this long.
+MIN_SAMPLE = 2e-3
+
+
+# ---------------------------------------------------------------------------
+# registry
+# ---------------------------------------------------------------------------
+
+@dataclass
+class Target:
+    """A goal for a workload: ``value <= limit`` (``< limit`` if strict)."""
+
+    text: str
+    limit: float
+    on: str = "ratio"  # "ratio": enumerator/fastest peer; "value": enumerator's own figure
+    strict: bool = False
+
+    def met(self, ratio: Optional[float], value: Optional[float]) -> Optional[bool]:
+        x = ratio if self.on == "ratio" else value
+        if x is None:
+            return None
+        return x < self.limit if self.strict else x <= self.limit
+
+
+def faster_by(k: float) -> Target:
+    """Enumerator at least *k* times faster than the fastest peer."""
+    return Target(f"<={1 / k:.3g} (>={k:g}x faster)", 1 / k)
+
+
+def at_most(k: float) -> Target:
+    """Enumerator's time at most *k* times the fastest peer's."""
+    return Target(f"<={k:g}", k)
+
+
+def rate_at_least(k: float) -> Target:
+    """Enumerator's rate (items/s) at least *k* times the fastest peer's."""
+    return Target(f"<={1 / k:.3g} (rate >={k:g}x)", 1 / k)
+
+
+def peak_below_mb(limit: float) -> Target:
+    """Enumerator's peak resident memory below *limit* MB."""
+    return Target(f"<{limit:g} MB peak", limit, on="value", strict=True)
+
+
+@dataclass
+class Workload:
+    name: str
+    description: str
+    run: Callable[["Context"], "Result"]
+    target: Optional[Target]
+
+
+WORKLOADS: Dict[str, Workload] = {}
+
+
+def workload(name: str, description: str, target: Optional[Target] = None):
+    """Register a workload function ``f(ctx) -> Result`` under *name*."""
+    def deco(fn):
+        if name in WORKLOADS:
+            raise ValueError(f"workload {name!r} registered twice")
+        WORKLOADS[name] = Workload(name, description, fn, target)
+        return fn
+    return deco
+
+
+# ---------------------------------------------------------------------------
+# methods, measurements, results
+# ---------------------------------------------------------------------------
+
+def exact(value):
+    """Map gmpy2/FLINT/numpy values to plain ``int``, ``Fraction`` and tuples."""
+    if isinstance(value, (bool, str)) or value is None:
+        return value
+    if isinstance(value, Fraction):
+        return value
+    if isinstance(value, (int, type(mpz(0)), fmpz)):
+        return int(value)
+    if isinstance(value, type(gmpy2.mpq(0))):
+        return Fraction(int(value.numerator), int(value.denominator))
+    if isinstance(value, (tuple, list)):
+        return tuple(exact(v) for v in value)
+    if hasattr(value, "tolist"):  # numpy
+        return exact(value.tolist())
+    if hasattr(value, "__index__"):
+        return int(value)
+    return value
+
+
+@dataclass
+class Method:
+    """One way of computing a workload's answer.
+
+    ``run`` is timed; ``check`` (untimed, optional) returns the answer when
+    ``run`` does not; ``scaled(s)`` returns a call on the instance shrunk to
+    fraction ``s`` of its size, used to estimate a slow peer before running
+    it; ``normalise`` maps the answer before comparison.
+    """
+
+    name: str
+    run: Callable[[], Any]
+    scaled: Optional[Callable[[float], Callable[[], Any]]] = None
+    check: Optional[Callable[[], Any]] = None
+    normalise: Callable[[Any], Any] = exact
+
+
+@dataclass
+class Measurement:
+    method: str
+    best: Optional[float] = None  # seconds per call (or MB for memory)
+    median: Optional[float] = None
+    samples: int = 0
+    loops: int = 0  # calls per sample
+    skipped: bool = False
+    note: str = ""
+    estimate: Optional[float] = None  # extrapolated seconds when skipped
+    agrees: Optional[bool] = None
+    answer: Any = field(default=None, repr=False)
+
+
+@dataclass
+class Result:
+    name: str
+    description: str
+    enumerator: Measurement
+    peers: List[Measurement]
+    unit: str = "s"  # "s" or "MB"
+    items: Optional[int] = None
+    target: Optional[Target] = None
+    notes: List[str] = field(default_factory=list)
+    mismatches: List[str] = field(default_factory=list)
+    error: Optional[str] = None
+
+    @property
+    def fastest(self) -> Optional[Measurement]:
+        done = [m for m in self.peers if not m.skipped and m.best is not None]
+        return min(done, key=lambda m: m.best) if done else None
+
+    @property
+    def ratio(self) -> Optional[float]:
+        f = self.fastest
+        if f is None or self.enumerator.best is None or not f.best:
+            return None
+        return self.enumerator.best / f.best
+
+    @property
+    def met(self) -> Optional[bool]:
+        if self.target is None or self.error:
+            return None
+        return self.target.met(self.ratio, self.enumerator.best)
+
+
+def _digits(value: int) -> str:
+    # gmpy2 has no limit on decimal conversion (Python's int -> str stops at 4300 digits)
+    return mpz(value).digits(10)
+
+
+def describe(value) -> str:
+    """A short description of an answer (digit count and last digits of big integers)."""
+    if isinstance(value, int):
+        text = _digits(abs(value))
+        if len(text) <= 30:
+            return str(value)
+        return f"{len(text)}-digit integer ...{text[-8:]}"
+    if isinstance(value, Fraction):
+        return (f"fraction {describe(value.numerator)} / {describe(value.denominator)}"
+                if value.denominator > 10 ** 30 else str(value))
+    text = repr(value)
+    return text if len(text) <= 100 else text[:97] + "..."
+
+
+# ---------------------------------------------------------------------------
+# the context: budgets and the timing loop
+# ---------------------------------------------------------------------------
+
+class Context:
+    """Budgets for one run (``quick`` or full) and the measuring helpers."""
+
+    def __init__(self, quick: bool):
+        self.quick = quick
+        self.time_budget = 0.3 if quick else 2.0  # seconds spent sampling one method
+        self.call_limit = 3.0 if quick else 60.0  # longest single call of a peer
+        self.max_samples = 7 if quick else 31
+
+    # -- timing -----------------------------------------------------------
+    def time(self, call: Callable[[], Any]) -> Measurement:
+        """Time *call*; the warm-up call's return value is kept as the answer."""
+        enabled = gc.isenabled()
+        gc.disable()
+        try:
+            t = perf_counter()
+            value = call()
+            first = perf_counter() - t
+            if first >= 4 * self.time_budget:
+                return Measurement("", first, first, 1, 1, answer=value,
+                                   note="a single call: its time includes first-call costs")
+            # the warm-up may be slow (lazy imports, one-time tables): calibrate on a second call
+            t = perf_counter()
+            call()
+            first = perf_counter() - t
+            if first >= self.time_budget:
+                return Measurement("", first, first, 1, 1, answer=value)
+            loops = max(1, math.ceil(MIN_SAMPLE / max(first, 1e-9)))
+            count = int(self.time_budget / (max(first, 1e-9) * loops))
+            count = max(3, min(self.max_samples, count))
+            samples = []
+            for _ in range(count):
+                t = perf_counter()
+                for _ in range(loops):
+                    call()
+                samples.append((perf_counter() - t) / loops)
+        finally:
+            if enabled:
+                gc.enable()
+        return Measurement("", min(samples), statistics.median(samples), count, loops, answer=value)
+
+    def estimate(self, method: Method):
+        """Run *method* on growing copies; return ``(fits, note, estimate)``.
+
+        Sizes 1/32, 1/16, ... of the instance, one doubling at a time.  The
+        growth per doubling is read from consecutive runs (taken as at least
+        2: the answer grows at least linearly with the size) and the full-size
+        time extrapolated from the steepest growth seen between runs of at
+        least 10 ms (timings on a busy machine jitter).  The ladder jumps to the full size only
+        when the extrapolation is 8 times below the per-call limit (small
+        instances are dominated by overheads and understate the growth), and
+        stops, skipping the peer, when the next doubling is expected to pass
+        the limit.
+        """
+        limit = self.call_limit
+        previous = None
+        steepest = 2.0
+        s = 1 / 32
+        while s < 1:
+            call = method.scaled(s)
+            t = perf_counter()
+            call()
+            dt = perf_counter() - t
+            doublings = math.log2(1 / s)
+            if previous is not None and previous >= 1e-2:  # shorter runs jitter too much
+                steepest = max(steepest, dt / previous)
+            growth = steepest
+            full = dt * growth ** doublings
+            if previous is not None and dt >= 1e-3 and 8 * full <= limit:
+                return True, "", full
+            if dt > limit or (previous is not None and dt * growth > limit):
+                bound = "" if previous is not None else "at least "
+                note = (f"skipped: too slow (>{limit:g}s): estimated {bound}{fmt_time(full)} "
+                        f"at full size from {fmt_time(dt)} at 1/{round(1 / s)} size")
+                return False, note, full
+            previous = dt
+            s *= 2
+        return True, "", None
+
+    def measure(self, method: Method, guard: bool) -> Measurement:
+        if guard and method.scaled is not None:
+            fits, note, est = self.estimate(method)
+            if not fits:
+                return Measurement(method.name, skipped=True, note=note, estimate=est)
+        m = self.time(method.run)
+        m.method = method.name
+        if method.check is not None:
+            m.answer = method.check()
+        m.answer = method.normalise(m.answer)
+        return m
+
+    # -- the usual workload shape ---------------------------------------
+    def compare(self, enumerator: Method, peers: List[Method], *, items: Optional[int] = None,
+                notes: Optional[List[str]] = None) -> Result:
+        """Time enumerator and each peer, check the answers, return the Result."""
+        ours = self.measure(enumerator, guard=False)
+        ours.agrees = True
+        done = []
+        result = Result("", "", ours, done, items=items, notes=list(notes or []))
+        for peer in peers:
+            m = self.measure(peer, guard=True)
+            if not m.skipped:
+                m.agrees = m.answer == ours.answer
+                if not m.agrees:
+                    result.mismatches.append(
+                        f"{peer.name} returned {describe(m.answer)}, enumerator {describe(ours.answer)}"
+                    )
+            else:
+                m.note += "; answer not checked"
+            done.append(m)
+        fastest = result.fastest
+        for m in done:
+            if m.skipped and m.estimate is not None and fastest is not None and m.estimate < fastest.best:
+                result.notes.append(f"{m.method} was skipped although its estimate is below the "
+                                    "fastest measured peer; the ratio may flatter enumerator")
+        return result
+
+
+# ---------------------------------------------------------------------------
+# formatting
+# ---------------------------------------------------------------------------
+
+def fmt_time(seconds: Optional[float]) -> str:
+    if seconds is None:
+        return "-"
+    for unit, scale in (("s", 1.0), ("ms", 1e-3), ("us", 1e-6)):
+        if seconds >= scale:
+            return f"{seconds / scale:.3g} {unit}"
+    return f"{seconds / 1e-9:.3g} ns"
+
+
+def fmt_value(value: Optional[float], unit: str) -> str:
+    if unit == "MB":
+        return "-" if value is None else f"{value:.1f} MB"
+    return fmt_time(value)
+
+
+def fmt_rate(items: int, seconds: Optional[float]) -> str:
+    if not seconds:
+        return "-"
+    rate = items / seconds
+    return f"{rate / 1e6:.3g} M/s" if rate >= 1e6 else f"{rate / 1e3:.3g} k/s"
+
+
+def print_result(result: Result) -> None:
+    print(f"\n== {result.name}: {result.description}")
+    if result.error:
+        print("  ERROR: " + result.error.rstrip().replace("\n", "\n  "))
+        return
+    rows = [result.enumerator] + result.peers
+    width = max(len(m.method) for m in rows) + 2
+    extra = "  rate" if result.items else ""
+    print(f"  {'method':<{width}}{'best':>11}{'median':>11}{'samples':>9}{'enum/this':>11}  agrees{extra}")
+    for m in rows:
+        if m.skipped:
+            print(f"  {m.method:<{width}}{m.note}")
+            continue
+        reps = f"{m.samples}x{m.loops}" if m.loops > 1 else str(m.samples)
+        agree = "yes" if m.agrees else ("-" if m.agrees is None else "NO")
+        rate = f"  {fmt_rate(result.items, m.best)}" if result.items else ""
+        ours = result.enumerator.best
+        ratio = "" if m is result.enumerator or not m.best or ours is None else f"{ours / m.best:.3g}"
+        print(f"  {m.method:<{width}}{fmt_value(m.best, result.unit):>11}"
+              f"{fmt_value(m.median, result.unit):>11}{reps:>9}{ratio:>11}  {agree:<6}{rate}")
+        if m.note:
+            print(f"  {'':<{width}}({m.note})")
+    fastest, ratio = result.fastest, result.ratio
+    if fastest is not None and ratio is not None:
+        if result.unit == "s":
+            speed = f"enumerator {1 / ratio:.3g}x faster" if ratio < 1 else f"enumerator {ratio:.3g}x slower"
+        else:
+            speed = "ratio of peaks"
+        label = "fastest peer" if result.unit == "s" else "leanest peer"
+        line = f"  {label}: {fastest.method}; enumerator/peer = {ratio:.3g} ({speed})"
+    else:
+        line = "  no peer measured"
+    if result.target is not None:
+        met = result.met
+        line += f"; target {result.target.text}: {'met' if met else ('not met' if met is False else '-')}"
+    print(line)
+    for note in result.notes:
+        print(f"  note: {note}")
+    for text in result.mismatches:
+        print(f"  MISMATCH: {text}")
+    if not result.mismatches:
+        print(f"  answer: {describe(result.enumerator.answer)}; every measured method agrees")
+
+
+def print_table(results: List[Result]) -> None:
+    head = ("workload", "enumerator", "fastest peer (best)", "ratio", "target", "met")
+    rows = []
+    for r in results:
+        if r.error:
+            rows.append((r.name, "ERROR", "-", "-", r.target.text if r.target else "-", "-"))
+            continue
+        f = r.fastest
+        peer = f"{f.method} {fmt_value(f.best, r.unit)}" if f else "-"
+        ratio = "-" if r.ratio is None else f"{r.ratio:.3g}"
+        met = {True: "yes", False: "no", None: "-"}[r.met]
+        if r.mismatches:
+            met += " (MISMATCH)"
+        rows.append((r.name, fmt_value(r.enumerator.best, r.unit), peer, ratio,
+                     r.target.text if r.target else "-", met))
+    widths = [max(len(str(x[i])) for x in rows + [head]) for i in range(len(head))]
+    print("\nSummary (ratio = enumerator / fastest peer; lower is better for enumerator)")
+    for line in [head, tuple("-" * w for w in widths)] + rows:
+        print("  " + "  ".join(str(x).ljust(w) for x, w in zip(line, widths)).rstrip())
+
+
+def sympy_ground_types() -> str:
+    """Which integer arithmetic SymPy's ``Poly`` runs on (``flint`` when python-flint is used)."""
+    try:
+        from sympy.external.gmpy import GROUND_TYPES
+    except ImportError:  # older SymPy
+        return "unknown"
+    return GROUND_TYPES
+
+
+def environment() -> Dict[str, str]:
+    import flint
+    import numpy
+    import sympy
+    return {
+        "python": platform.python_version(),
+        "platform": platform.platform(),
+        "cpus": str(os.cpu_count()),
+        "gmpy2": gmpy2.version(),
+        "python-flint": flint.__version__,
+        "sympy": f"{sympy.__version__} (ground types {sympy_ground_types()})",
+        "numpy": numpy.__version__,
+    }
+
+
+# ---------------------------------------------------------------------------
+# peers: plain general-purpose routes, written the way a user would
+# ---------------------------------------------------------------------------
+
+def ie_gmpy2(n: int, r: int, c: int):
+    """``sum_j (-1)^j C(r, j) C(n - j(c+1) + r - 1, r - 1)``, every binomial by ``gmpy2.comb``."""
+    s = c + 1
+    total = mpz(0)
+    comb = gmpy2.comb
+    for j in range(min(r, n // s) + 1):
+        term = comb(r, j) * comb(n - j * s + r - 1, r - 1)
+        total = total - term if j & 1 else total + term
+    return total
+
+
+def flint_power_coeff(n: int, r: int, c: int):
+    """``[x^n] (1 + x + ... + x^c)^r`` by FLINT's full power."""
+    return (fmpz_poly([1] * (c + 1)) ** r)[n]
+
+
+def flint_pow_trunc_coeff(n: int, r: int, c: int):
+    """``[x^n] (1 + x + ... + x^c)^r`` by FLINT's truncated power."""
+    return fmpz_poly([1] * (c + 1)).pow_trunc(r, n + 1)[n]
+
+
+def sympy_power_coeff(n: int, r: int, c: int):
+    """``[x^n] (1 + x + ... + x^c)^r`` by SymPy ``Poly`` power."""
+    from sympy import Poly, ZZ, Symbol
+    return (Poly([1] * (c + 1), Symbol("x"), domain=ZZ) ** r).nth(n)
+
+
+def flint_tree_coeff(uppers: List[int], n: int):
+    """``[x^n] prod_i (1 + ... + x^{b_i})`` by a balanced product tree, truncated (FLINT ``mul_low``)."""
+    items = [fmpz_poly([1] * (b + 1)) for b in uppers]
+    length = n + 1
+    while len(items) > 1:
+        nxt = [items[i].mul_low(items[i + 1], length) for i in range(0, len(items) - 1, 2)]
+        if len(items) % 2:
+            nxt.append(items[-1])
+        items = nxt
+    return items[0][n]
+
+
+def sympy_tree_coeff(uppers: List[int], n: int):
+    """``[x^n] prod_i (1 + ... + x^{b_i})`` by a balanced product tree of SymPy ``Poly``."""
+    from sympy import Poly, ZZ, Symbol
+    x = Symbol("x")
+    items = [Poly([1] * (b + 1), x, domain=ZZ) for b in uppers]
+    while len(items) > 1:
+        nxt = [items[i] * items[i + 1] for i in range(0, len(items) - 1, 2)]
+        if len(items) % 2:
+            nxt.append(items[-1])
+        items = nxt
+    return items[0].nth(n)
+
+
+def _scaled_window(c: int, r: int, n: int, how: str):
+    """``n! [x^n] (sum_{k<=c} x^k/k!)^r`` via the integer polynomial ``sum (c!/k!) x^k``."""
+    fac = gmpy2.fac
+    coeffs = [int(fac(c) // fac(k)) for k in range(c + 1)]
+    if how == "flint":
+        coef = (fmpz_poly(coeffs) ** r)[n]
+    elif how == "flint-trunc":
+        coef = fmpz_poly(coeffs).pow_trunc(r, n + 1)[n]
+    else:
+        from sympy import Poly, ZZ, Symbol
+        coef = (Poly(coeffs[::-1], Symbol("x"), domain=ZZ) ** r).nth(n)
+    return gmpy2.divexact(mpz(int(coef)) * fac(n), fac(c) ** r)
+
+
+def multinomial_probability_gmpy2(k, r: int):
+    """``prod_i C(k_1+...+k_i, k_i) / r^n`` as a ``gmpy2.mpq`` (reduced by GMP)."""
+    num = mpz(1)
+    s = 0
+    comb = gmpy2.comb
+    for v in k:
+        s += v
+        num *= comb(s, v)
+    return gmpy2.mpq(num, mpz(r) ** s)
+
+
+def multinomial_probability_stdlib(k, r: int):
+    """``prod_i C(k_1+...+k_i, k_i) / r^n`` with ``math.comb`` and ``fractions.Fraction``."""
+    num = 1
+    s = 0
+    for v in k:
+        s += v
+        num *= math.comb(s, v)
+    return Fraction(num, r ** s)
+
+
+def occupancy_of(indices, r: int):
+    """The occupancy vector of a sorted tuple of urn indices (a cwr item)."""
+    k = [0] * r
+    for i in indices:
+        k[i] += 1
+    return tuple(k)
+
+
+def first_last_count(iterator):
+    """``(count, first, last)`` of an iterator, consumed at C speed."""
+    first = next(iterator, None)
+    if first is None:
+        return 0, None, None
+    tail = collections.deque(zip(iterator, itertools.count(2)), maxlen=1)
+    if not tail:
+        return 1, first, first
+    last, count = tail[0]
+    return count, first, last
+
+
+def _scale(value: int, s: float) -> int:
+    return max(1, round(value * s))
+
+
+# ---------------------------------------------------------------------------
+# workloads
+# ---------------------------------------------------------------------------
+
+def _capacity_count(ctx: Context, n: int, r: int, c: int) -> Result:
+    def ours():
+        return Occupancy(balls=n, urns=r, rule="BE", capacity=c).configurations()
+
+    def peer(name, fn):
+        return Method(name, lambda: fn(n, r, c),
+                      scaled=lambda s: (lambda: fn(_scale(n, s), _scale(r, s), c)))
+
+    return ctx.compare(
+        Method("enumerator", ours),
+        [peer("gmpy2 inclusion-exclusion", ie_gmpy2),
+         peer("flint fmpz_poly power", flint_power_coeff),
+         peer("flint fmpz_poly pow_trunc", flint_pow_trunc_coeff),
+         peer("sympy Poly power", sympy_power_coeff)],
+        notes=[f"SymPy Poly ground types: {sympy_ground_types()}"],
+    )
+
+
+@workload("be-capacity-20000", "BE configurations, n=20000 r=5000 capacity 7", target=faster_by(3))
+def _be_capacity_small(ctx):
+    return _capacity_count(ctx, 20000, 5000, 7)
+
+
+@workload("be-capacity-100000", "BE configurations, n=100000 r=10000 capacity 30", target=faster_by(3))
+def _be_capacity_large(ctx):
+    return _capacity_count(ctx, 10 ** 5, 10 ** 4, 30)
+
+
+@workload("be-per-urn-bounds",
+          "BE configurations, r=300, urn i holds 0..(i mod 10)+1, n=800", target=at_most(1.2))
+def _be_per_urn(ctx):
+    r, n = 300, 800
+    uppers = [(i % 10) + 1 for i in range(r)]
+    bounds = [(0, b) for b in uppers]
+
+    def scaled(fn):
+        return lambda s: (lambda: fn(uppers[:_scale(r, s)], _scale(n, s)))
+
+    return ctx.compare(
+        Method("enumerator", lambda: Occupancy(balls=n, bounds=bounds, rule="BE").configurations()),
+        [Method("flint product tree", lambda: flint_tree_coeff(uppers, n), scaled=scaled(flint_tree_coeff)),
+         Method("sympy Poly product tree", lambda: sympy_tree_coeff(uppers, n), scaled=scaled(sympy_tree_coeff))],
+    )
+
+
+@workload("mb-capacity-microstates", "MB microstates, n=1000 r=200 capacity 8", target=at_most(1.2))
+def _mb_capacity(ctx):
+    n, r, c = 1000, 200, 8
+
+    def peer(name, how):
+        return Method(name, lambda: _scaled_window(c, r, n, how),
+                      scaled=lambda s: (lambda: _scaled_window(c, _scale(r, s), _scale(n, s), how)))
+
+    return ctx.compare(
+        Method("enumerator", lambda: Occupancy(balls=n, urns=r, rule="MB", capacity=c).microstates()),
+        [peer("flint fmpz_poly power", "flint"),
+         peer("flint fmpz_poly pow_trunc", "flint-trunc"),
+         peer("sympy Poly power", "sympy")],
+    )
+
+
+def _mb_configuration(seed: int = 20240611, n: int = 1000, r: int = 100):
+    """A fixed random MB configuration: n balls thrown uniformly into r urns."""
+    rng = random.Random(seed)
+    k = [0] * r
+    for _ in range(n):
+        k[rng.randrange(r)] += 1
+    return tuple(k)
+
+
+def _probability(ctx: Context, fresh: bool) -> Result:
+    n, r = 1000, 100
+    k = _mb_configuration(n=n, r=r)
+    model = Occupancy(balls=n, urns=r, rule="MB")
+    if fresh:
+        def ours():
+            return Occupancy(balls=n, urns=r, rule="MB").probability(k)
+    else:
+        def ours():
+            return model.probability(k)
+    return ctx.compare(
+        Method("enumerator", ours),
+        [Method("gmpy2 binomials / r^n (mpq)", lambda: multinomial_probability_gmpy2(k, r)),
+         Method("math.comb / r^n (Fraction)", lambda: multinomial_probability_stdlib(k, r))],
+        notes=["configuration: 1000 balls thrown into 100 urns by random.Random(20240611)"],
+    )
+
+
+@workload("mb-probability-same-model",
+          "MB probability of one configuration, n=1000 r=100, one model reused", target=at_most(1.5))
+def _prob_same(ctx):
+    return _probability(ctx, fresh=False)
+
+
+@workload("mb-probability-fresh-model",
+          "MB probability of one configuration, n=1000 r=100, a new model each call", target=at_most(1.5))
+def _prob_fresh(ctx):
+    return _probability(ctx, fresh=True)
+
+
+def _cwr_method(n: int, r: int, loop: bool = False) -> Method:
+    def consume_loop():
+        for _ in itertools.combinations_with_replacement(range(r), n):
+            pass
+
+    def check():
+        count, first, last = first_last_count(itertools.combinations_with_replacement(range(r), n))
+        # cwr runs in reverse lexicographic order of occupancy vectors
+        return count, occupancy_of(last, r), occupancy_of(first, r)
+
+    if loop:
+        return Method("itertools cwr, for loop", consume_loop, check=check)
+    return Method("itertools cwr + deque",
+                  lambda: collections.deque(itertools.combinations_with_replacement(range(r), n), maxlen=0),
+                  check=check)
+
+
+@workload("list-tuples", "list n=16 r=10 unbounded as tuples (2042975 configurations)",
+          target=rate_at_least(0.5))
+def _list_tuples(ctx):
+    n, r = 16, 10
+
+    def model():
+        return Occupancy(balls=n, urns=r, rule="BE")
+
+    return ctx.compare(
+        Method("enumerator tuples",
+               lambda: collections.deque(model().iter_configurations(), maxlen=0),
+               check=lambda: first_last_count(model().iter_configurations())),
+        [_cwr_method(n, r)],
+        items=math.comb(n + r - 1, r - 1),
+    )
+
+
+@workload("list-tuples-for-loop",
+          "list n=16 r=10 unbounded as tuples, both consumed by a Python for loop",
+          target=rate_at_least(0.5))
+def _list_tuples_loop(ctx):
+    # deque(maxlen=0) drops each tuple at once, which lets cwr (and zip) reuse
+    # one result tuple; a for loop holds it, as a real consumer does.
+    n, r = 16, 10
+
+    def model():
+        return Occupancy(balls=n, urns=r, rule="BE")
+
+    def consume():
+        for _ in model().iter_configurations():
+            pass
+
+    return ctx.compare(
+        Method("enumerator tuples, for loop", consume,
+               check=lambda: first_last_count(model().iter_configurations())),
+        [_cwr_method(n, r, loop=True)],
+        items=math.comb(n + r - 1, r - 1),
+    )
+
+
+@workload("list-blocks", "list n=16 r=10 unbounded in numpy blocks of 65536",
+          target=rate_at_least(5))
+def _list_blocks(ctx):
+    n, r = 16, 10
+
+    def blocks():
+        count, first, last = 0, None, None
+        for block in Occupancy(balls=n, urns=r, rule="BE").iter_blocks(65536):
+            if first is None and len(block):
+                first = block[0]
+            if len(block):
+                last = block[-1]
+            count += len(block)
+        return count, tuple(first.tolist()), tuple(last.tolist())
+
+    return ctx.compare(
+        Method("enumerator blocks", blocks),
+        [_cwr_method(n, r)],
+        items=math.comb(n + r - 1, r - 1),
+    )
+
+
+_MEMORY_CHILD = r"""
+import collections, itertools, json, math, resource, sys, time
+
+def hwm_kb():
+    # the peak RSS of this process image (Linux); ru_maxrss also counts the parent's pages at fork
+    try:
+        with open("/proc/self/status") as f:
+            for line in f:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1])
+    except OSError:
+        pass
+    return None
+
+mode, n, r, count = sys.argv[1], int(sys.argv[2]), int(sys.argv[3]), int(sys.argv[4])
+if mode == "enumerator":
+    from enumerator import Occupancy
+    model = Occupancy(balls=n, urns=r, rule="BE")
+    base = hwm_kb()
+    t = time.perf_counter()
+    it = model.iter_configurations(0, count)
+else:
+    total = math.comb(n + r - 1, r - 1)
+    base = hwm_kb()
+    t = time.perf_counter()
+    # cwr runs in reverse lexicographic order: its last `count` items are the first `count` ranks
+    it = itertools.islice(itertools.combinations_with_replacement(range(r), n), total - count, None)
+first = next(it)
+tail = collections.deque(zip(it, itertools.count(2)), maxlen=1)
+last, seen = tail[0] if tail else (first, 1)
+print(json.dumps({"count": seen, "first": list(first), "last": list(last), "base_kb": base,
+                  "hwm_kb": hwm_kb(), "seconds": time.perf_counter() - t}))
+"""
+
+# A small process between the benchmark and the measured child: Linux carries a
+# process's peak RSS across fork and exec, so a child started straight from the
+# (large) benchmark process would report the benchmark's own peak.  The launcher
+# is a bare Python, so the grandchild's ru_maxrss is its own (or the launcher's
+# few MB, whichever is larger).
+_MEMORY_LAUNCHER = r"""
+import json, resource, subprocess, sys
+proc = subprocess.run([sys.executable, "-c"] + sys.argv[1:], stdout=subprocess.PIPE)
+if proc.returncode:
+    sys.exit(proc.returncode)
+report = json.loads(proc.stdout)
+report["children_maxrss"] = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+print(json.dumps(report))
+"""
+
+
+def _child_peak(mode: str, n: int, r: int, count: int):
+    """List in a grandchild process; return its report and its peak RSS in MB.
+
+    The peak is ``getrusage(RUSAGE_CHILDREN).ru_maxrss`` read by the launcher
+    after its one child exits.
+    """
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    proc = subprocess.run(
+        [sys.executable, "-c", _MEMORY_LAUNCHER, _MEMORY_CHILD, mode, str(n), str(r), str(count)],
+        capture_output=True, text=True, cwd=str(ROOT), env=env,
+    )
+    if proc.returncode != 0:
+        raise RuntimeError(f"{mode} listing child failed:\n{proc.stderr}")
+    report = json.loads(proc.stdout)
+    # ru_maxrss is in KiB on Linux, in bytes on macOS
+    raw = report["children_maxrss"]
+    peak_mb = raw / (1024 * 1024) if sys.platform == "darwin" else raw / 1024
+    return report, peak_mb
+
+
+@workload("list-memory", "peak RSS listing the first 10^7 configurations of n=20 r=10 BE as tuples",
+          target=peak_below_mb(100))
+def _list_memory(ctx):
+    n, r, count = 20, 10, 10 ** 7
+    notes = []
+    if ctx.quick:
+        probe, _ = _child_peak("enumerator", n, r, 10 ** 6)
+        if probe["seconds"] * 10 > 15:
+            count = 10 ** 6
+            notes.append("quick: listed 10^6 configurations instead of 10^7 "
+                         f"(10^6 took {fmt_time(probe['seconds'])})")
+    ours, ours_mb = _child_peak("enumerator", n, r, count)
+    peer, peer_mb = _child_peak("cwr", n, r, count)
+    mine = Measurement("enumerator tuples (child process)", ours_mb, ours_mb, 1, 1, agrees=True,
+                       answer=(ours["count"], tuple(ours["first"]), tuple(ours["last"])))
+    other = Measurement("itertools cwr + deque (child process)", peer_mb, peer_mb, 1, 1,
+                        answer=(peer["count"], occupancy_of(peer["last"], r), occupancy_of(peer["first"], r)))
+    other.agrees = other.answer == mine.answer
+    result = Result("", "", mine, [other], unit="MB", notes=notes)
+    if ours["count"] != count:
+        result.mismatches.append(f"enumerator listed {ours['count']} configurations, asked for {count}")
+    if not other.agrees:
+        result.mismatches.append(f"cwr gave {describe(other.answer)}, enumerator {describe(mine.answer)}")
+    def kb(value):
+        return "-" if value is None else f"{value / 1024:.1f} MB"
+
+    for label, rep in (("enumerator", ours), ("cwr", peer)):
+        result.notes.append(f"{label} child: {rep['count']} configurations in {fmt_time(rep['seconds'])}; "
+                            f"{kb(rep['base_kb'])} after import, VmHWM {kb(rep['hwm_kb'])} at the end")
+    return result
+
+
+# ---------------------------------------------------------------------------
+# main
+# ---------------------------------------------------------------------------
+
+def run_one(ctx: Context, w: Workload) -> Result:
+    try:
+        result = w.run(ctx)
+    except Exception:
+        result = Result(w.name, w.description, Measurement("enumerator"), [], error=traceback.format_exc())
+    result.name, result.description, result.target = w.name, w.description, w.target
+    return result
+
+
+def to_json(results: List[Result], ctx: Context, env: Dict[str, str]) -> Dict[str, Any]:
+    def meas(m: Measurement):
+        # measured figures are floats, so their names say approximation
+        d = asdict(m)
+        d.pop("answer")
+        for key in ("best", "median", "estimate"):
+            d[f"{key}_approx"] = d.pop(key)
+        return d
+
+    out = []
+    for r in results:
+        f = r.fastest
+        out.append({
+            "name": r.name,
+            "description": r.description,
+            "unit": "seconds" if r.unit == "s" else "megabytes",
+            "enumerator": meas(r.enumerator),
+            "peers": [meas(m) for m in r.peers],
+            "fastest_peer": f.method if f else None,
+            "ratio_approx": r.ratio,
+            "items": r.items,
+            "target": r.target.text if r.target else None,
+            "met": r.met,
+            "answer": None if r.error else describe(r.enumerator.answer),
+            "notes": r.notes,
+            "mismatches": r.mismatches,
+            "error": r.error,
+        })
+    return {"mode": "quick" if ctx.quick else "full", "environment": env, "workloads": out}
+
+
+def main(argv: Optional[List[str]] = None) -> int:
+    parser = argparse.ArgumentParser(description="Benchmark enumerator against general-purpose peers.")
+    parser.add_argument("--quick", action="store_true", help="every workload in under a minute")
+    parser.add_argument("--only", action="append", metavar="NAME", help="run only this workload (repeatable)")
+    parser.add_argument("--list", action="store_true", help="list the workloads and exit")
+    parser.add_argument("--json", metavar="FILE", help="also write the results to FILE as JSON")
+    args = parser.parse_args(argv)
+
+    if args.list:
+        width = max(len(name) for name in WORKLOADS)
+        for w in WORKLOADS.values():
+            target = f"  [target {w.target.text}]" if w.target else ""
+            print(f"{w.name:<{width}}  {w.description}{target}")
+        return 0
+    names = args.only or list(WORKLOADS)
+    unknown = [name for name in names if name not in WORKLOADS]
+    if unknown:
+        print(f"unknown workload {', '.join(unknown)}; choose from: {', '.join(WORKLOADS)}", file=sys.stderr)
+        return 2
+
+    ctx = Context(quick=args.quick)
+    env = environment()
+    print(f"enumerator benchmarks ({'quick' if ctx.quick else 'full'}): "
+          + ", ".join(f"{k} {v}" for k, v in env.items()))
+    start = perf_counter()
+    results = []
+    for name in names:
+        result = run_one(ctx, WORKLOADS[name])
+        print_result(result)
+        sys.stdout.flush()
+        results.append(result)
+    print_table(results)
+    print(f"\ntotal {fmt_time(perf_counter() - start)}")
+    if args.json:
+        Path(args.json).write_text(json.dumps(to_json(results, ctx, env), indent=2) + "\n")
+    failed = [r.name for r in results if r.mismatches or r.error]
+    if failed:
+        print(f"FAILED (answers differ or a workload raised): {', '.join(failed)}", file=sys.stderr)
+        return 1
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
