@@ -76,8 +76,12 @@ __all__ = [
     "Tie",
     "apportion",
     "approximation",
+    "catalogue_rows",
     "compare",
+    "compare_sweep",
+    "comparison_table",
     "comparisons_csv",
+    "describe_order",
     "empty_urns_at_most",
     "observed_order",
     "parse_pattern",
@@ -264,7 +268,7 @@ class Approximation:
     formula: str = ""
     source: str = ""
     scale: str = "linear"
-    order: Optional[float] = None
+    order: Optional[Fraction] = None
     regime: str = ""
     uses: Tuple[str, ...] = ("urns",)
 
@@ -329,7 +333,7 @@ class StirlingBE(Approximation):
         kept = ["n ln n - n + ½ ln(2πn)", "+ 1/(12n)", "- 1/(360n³)", "+ 1/(1260n⁵)"][:terms]
         self.formula = "each m! replaced by exp(" + " ".join(kept) + ")"
         self.source = "Stirling 1730; Abramowitz & Stegun 1964, 6.1.41; DLMF §5.11"
-        self.order = 2 * terms - 1
+        self.order = Fraction(2 * terms - 1)
         self.regime = "urns proportional to balls (e.g. --urns balls)"
 
     def exact(self, point):
@@ -373,7 +377,7 @@ class Entropy(Approximation):
     formula = "W ≈ exp(n H(k/n)), judged on ln W"
     source = "Boltzmann 1877; Cover & Thomas 2006, Thm 11.1.3"
     scale = "log"
-    order = 1
+    order = Fraction(1)
     regime = "k proportional to a fixed pattern (order 1 up to a log factor)"
     uses = ("urns", "pattern")
 
@@ -433,7 +437,7 @@ class Birthday(Approximation):
     quantity = "P(no two balls share an urn) under MB"
     formula = "exp(-n(n-1)/(2r))"
     source = "Feller 1968, vol. 1, §II.3; von Mises 1939"
-    order = 1
+    order = Fraction(1)
     regime = 'urns proportional to balls squared (e.g. --urns "balls*balls")'
 
     def exact(self, point):
@@ -465,7 +469,7 @@ class EmptyMean(Approximation):
     quantity = "the mean number of empty urns r(1-1/r)^n under MB"
     formula = "r e^{-n/r}"
     source = "Feller 1968, vol. 1, ch. IX; Kolchin, Sevast'yanov & Chistyakov 1978"
-    order = 1
+    order = Fraction(1)
     regime = "balls proportional to urns (e.g. --urns balls//2)"
 
     def exact(self, point):
@@ -502,7 +506,7 @@ class EmptyPoisson(Approximation):
     quantity = "P(at most j urns empty) under MB (j = --at, default 0)"
     formula = "Poisson law with mean r e^{-n/r}"
     source = "von Mises 1939; Kolchin et al. 1978, ch. II; Barbour, Holst & Janson 1992, ch. 6"
-    order = 1
+    order = Fraction(1)
     regime = "n, r -> ∞ with r e^{-n/r} fixed (order 1 up to a log factor)"
     uses = ("urns", "at")
 
@@ -547,7 +551,7 @@ class EmptyNormal(Approximation):
     quantity = "P(at most j urns empty) under MB (j = --at, default floor(r e^{-n/r}))"
     formula = "Φ((j + ½ - μ)/σ), μ = r e^{-α}, σ² = r e^{-α}(1 - (1+α)e^{-α}), α = n/r"
     source = "Weiss 1958; Rényi 1962; Kolchin et al. 1978, ch. II"
-    order = 0.5
+    order = Fraction(1, 2)
     regime = "balls proportional to urns (e.g. --urns balls//2)"
     uses = ("urns", "at")
 
@@ -601,7 +605,7 @@ class Saddle(Approximation):
     quantity = "the bounded count [x^n] B(x)^r (BE/FD: vectors; MB: n! times, EGF)"
     formula = "B(ζ)^r / (ζ^n sqrt(2π r σ²)), ζ B'(ζ)/B(ζ) = n/r"
     source = "Flajolet & Sedgewick 2009, Analytic Combinatorics, Thm VIII.8"
-    order = 1
+    order = Fraction(1)
     regime = "balls proportional to urns, minimum < balls/urns < capacity"
     uses = ("urns", "rule", "capacity", "minimum")
 
@@ -726,7 +730,7 @@ class Boltzmann(Approximation):
     quantity = "the mean fraction of urns holding exactly j balls, BE rule (j = --at, default 0)"
     formula = "geometric (Boltzmann) law (1-q) q^j, q = n/(n+r)"
     source = "Boltzmann 1877; Feller 1968, vol. 1, §II.5"
-    order = 1
+    order = Fraction(1)
     regime = "balls proportional to urns (e.g. --urns balls//2)"
     uses = ("urns", "at")
 
@@ -799,9 +803,12 @@ class Row:
         return mpmath.nstr(self.approx, min(wanted, self.dps - 5), min_fixed=-5, max_fixed=20)
 
     def relative_float(self) -> Optional[float]:
-        """The relative error as a float, or ``None`` when undefined."""
+        """The relative error as a float; ``None`` when undefined or beyond float range."""
         rel = self.relative_error_approx
-        return None if rel is None else float(rel)
+        if rel is None:
+            return None
+        value = float(rel)
+        return None if math.isinf(value) else value
 
 
 @dataclass(frozen=True)
@@ -1186,9 +1193,117 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
     return variable, points
 
 
+def _split_names(names) -> List[Approximation]:
+    if isinstance(names, str):
+        names = [part for part in names.split(",")]
+    entries = []
+    for part in names:
+        if isinstance(part, Approximation):
+            entries.append(part)
+        elif str(part).strip():
+            entries.append(approximation(part))
+    if not entries:
+        raise InvalidParameters(f"name at least one approximation: {', '.join(CATALOGUE)}")
+    return entries
+
+
+def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **parameters) -> List[Comparison]:
+    """Compare one or more approximations over one :func:`sweep`.
+
+    *names* is ``"stirling1,stirling2"`` or a list of names.  Every
+    parameter given (and the varied one) must be one that each named
+    approximation uses (``balls`` always; the rest as listed in its
+    ``uses``), so that a forgotten or misspelt option is an error rather
+    than silently ignored.  Returns one :class:`Comparison` per name.
+
+    >>> [c.approximation.name for c in compare_sweep("stirling1,stirling2", "balls=10..20", step=10, urns="balls")]
+    ['stirling1', 'stirling2']
+    """
+    entries = _split_names(names)
+    given = {k for k, v in parameters.items() if v is not None}
+    if vary is not None:
+        given.add(parse_range(vary)[0])
+    for entry in entries:
+        unused = sorted(given - {"balls"} - set(entry.uses))
+        if unused:
+            options = ", ".join(f"--{name}" for name in unused)
+            raise InvalidParameters(
+                f"{entry.name} does not use {options}; leave it out (it uses balls"
+                + "".join(f", {u}" for u in entry.uses) + ")"
+            )
+    variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
+    return [compare(entry, points, variable) for entry in entries]
+
+
 # ---------------------------------------------------------------------------
 # Output helpers shared by the CLI and scripts
 # ---------------------------------------------------------------------------
+def _short(value, digits: int = 10) -> str:
+    return mpmath.nstr(value, digits, min_fixed=-5, max_fixed=digits)
+
+
+def comparison_table(comparison: Comparison) -> Tuple[List[str], List[List[str]]]:
+    """Column names and text rows of *comparison* for people.
+
+    An exact value longer than 16 characters is shown rounded to 10 digits
+    and marked ``≈`` (the ``--json`` and ``--csv`` forms carry it whole);
+    the approximation is shown to 10 digits, the errors to 4.
+    """
+    entry = comparison.approximation
+    extra = [name for name in ("capacity", "minimum", "at") if name in entry.uses]
+    log = entry.scale == "log"
+    columns = ["balls", "urns"] + extra + [
+        "exact", "approx",
+        "abs error of ln" if log else "abs error",
+        "rel error of ln" if log else "rel error",
+        "local order",
+    ]
+    rows = []
+    for row, local in zip(comparison.rows, comparison.local_orders()):
+        text = exact_text(row.exact)
+        if len(text) > 16:
+            with mpmath.workdps(row.dps):
+                text = "≈" + _short(_to_mpf(row.exact))
+        rel = row.relative_error_approx
+        rows.append(
+            [str(row.point.balls), str(row.point.urns)]
+            + [str(row.point.value(name)) for name in extra]
+            + [
+                text,
+                _short(row.approx),
+                mpmath.nstr(row.absolute_error_approx, 4),
+                "undefined" if rel is None else mpmath.nstr(rel, 4),
+                "" if local is None else f"{local:.2f}",
+            ]
+        )
+    return columns, rows
+
+
+def describe_order(comparison: Comparison) -> str:
+    """One line: the observed order and what theory says."""
+    entry = comparison.approximation
+    seen = "n/a (needs two points with a nonzero error)" if comparison.order_approx is None else f"{comparison.order_approx:.3f}"
+    theory = "" if entry.order is None else f"; theory: {exact_text(entry.order)} when {entry.regime}"
+    return f"observed order (slope of ln|rel error| vs ln {comparison.variable}, sign flipped) ≈ {seen}{theory}"
+
+
+def catalogue_rows() -> List[dict]:
+    """The catalogue as plain dicts (name, quantity, formula, scale, order, regime, uses, source)."""
+    return [
+        {
+            "name": entry.name,
+            "quantity": entry.quantity,
+            "formula": entry.formula,
+            "scale": entry.scale,
+            "order": None if entry.order is None else exact_text(entry.order),
+            "regime": entry.regime,
+            "uses": ["balls", *entry.uses],
+            "source": entry.source,
+        }
+        for entry in CATALOGUE.values()
+    ]
+
+
 CSV_COLUMNS = (
     "approximation", "balls", "urns", "capacity", "minimum", "at", "exact", "approx",
     "absolute_error_approx", "relative_error_approx", "local_order_approx",
@@ -1196,15 +1311,21 @@ CSV_COLUMNS = (
 
 
 def _float_text(value) -> str:
-    return "" if value is None else repr(float(value))
+    # mpmath's decimal text: no overflow to inf for errors of counts beyond 1e308
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return repr(value)
+    return mpmath.nstr(value, 17, min_fixed=-5, max_fixed=17)
 
 
 def comparisons_csv(comparisons: Sequence[Comparison]) -> str:
     """All rows of *comparisons* as CSV text with a header (:data:`CSV_COLUMNS`).
 
-    ``exact`` is exact (``p`` or ``p/q``); ``approx`` a decimal string;
-    the ``*_approx`` error and order columns are floats; parameters a
-    comparison does not use are empty.
+    ``exact`` is exact (``p`` or ``p/q``); ``approx`` and the ``*_approx``
+    error and order columns are decimal numbers (17 significant digits for
+    the errors, never overflowing to ``inf``); parameters a comparison does
+    not use, and undefined errors or orders, are empty.
     """
     out = io.StringIO()
     writer = csv.writer(out, lineterminator="\n")

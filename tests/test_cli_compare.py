@@ -1,0 +1,184 @@
+"""``enumerator compare``: the JSON contract, CSV, plots, tables and errors.
+
+Expected values come from outside the project: ``math.perm``/``math.comb``
+(falling factorials and binomials: common practice), mpmath's ``exp`` and
+``loggamma``, and the well-known birthday decimal (from memory).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from fractions import Fraction
+
+import mpmath
+import pytest
+from typer.testing import CliRunner
+
+from enumerator.cli import app
+
+runner = CliRunner()
+
+
+def run(*args):
+    return runner.invoke(app, ["compare", *map(str, args)])
+
+
+def run_json(*args) -> dict:
+    result = run(*args, "--json")
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    assert len(lines) == 1, "--json prints one line holding one object"
+    return json.loads(lines[0])
+
+
+def test_birthday_single_point_json_contract():
+    payload = run_json("birthday", "--balls", 23, "--urns", 365)
+    assert payload == {
+        "approximation": "birthday",
+        "rows": [
+            {
+                "balls": 23,
+                "urns": 365,
+                # 365!/(342! 365^23) in lowest terms (math.perm, Fraction)
+                "exact": str(Fraction(math.perm(365, 23), 365**23)),
+                "approx": payload["rows"][0]["approx"],
+                "relative_error_approx": payload["rows"][0]["relative_error_approx"],
+            }
+        ],
+        "order_approx": None,  # a single point has no order
+    }
+    row = payload["rows"][0]
+    assert float(Fraction(row["exact"])) == pytest.approx(0.4927027656, abs=1e-10)  # from memory
+    with mpmath.workdps(40):
+        approx = mpmath.exp(mpmath.mpf(-253) / 365)  # mpmath (outside reference)
+        assert abs(mpmath.mpf(row["approx"]) - approx) < mpmath.mpf(10) ** -19
+        exact = mpmath.mpf(math.perm(365, 23)) / mpmath.mpf(365) ** 23
+        assert row["relative_error_approx"] == pytest.approx(float(abs(approx - exact) / exact), rel=1e-14)
+
+
+def test_sweep_json_rows_and_order():
+    payload = run_json("stirling2", "--vary", "balls=10..1000", "--geometric", 5, "--urns", "balls")
+    assert payload["approximation"] == "stirling2"
+    assert [row["balls"] for row in payload["rows"]] == [10, 32, 100, 316, 1000]
+    for row in payload["rows"]:
+        n, r = row["balls"], row["urns"]
+        assert r == n
+        assert row["exact"] == str(math.comb(n + r - 1, n))  # BE count, stars and bars (common practice)
+        assert set(row) == {"balls", "urns", "exact", "approx", "relative_error_approx"}
+    # Stirling with two terms: error ~ n^-3 (A&S 6.1.41)
+    assert payload["order_approx"] == pytest.approx(3, abs=0.1)
+
+
+def test_several_names_give_one_object_with_comparisons():
+    payload = run_json("stirling1,stirling2,stirling3", "--vary", "balls=100..1000", "--step", 300, "--urns", "balls//2")
+    assert [c["approximation"] for c in payload["comparisons"]] == ["stirling1", "stirling2", "stirling3"]
+    orders = [c["order_approx"] for c in payload["comparisons"]]
+    assert orders == pytest.approx([1, 3, 5], abs=0.1)  # 2k-1 (A&S 6.1.41)
+
+
+def test_tie_by_expression_and_whole_values():
+    payload = run_json("birthday", "--vary", "balls=10..30", "--step", 10, "--urns", "balls*balls+1")
+    assert [(row["balls"], row["urns"]) for row in payload["rows"]] == [(10, 101), (20, 401), (30, 901)]
+    result = run("birthday", "--vary", "balls=10..11", "--step", 1, "--urns", "balls/2")
+    assert result.exit_code == 2
+    assert result.stderr.strip() == (
+        "Error: 'balls/2' is 11/2 at balls=11, not a whole number; use // to round down "
+        "(e.g. balls//2) or a --step that keeps it whole"
+    )
+
+
+def test_vary_urns():
+    payload = run_json("saddle", "--vary", "urns=10..40", "--step", 10, "--balls", "urns*3/2", "--capacity", 2)
+    assert [(row["balls"], row["urns"]) for row in payload["rows"]] == [(15, 10), (30, 20), (45, 30), (60, 40)]
+
+
+def _bounded_count(n, r, c):
+    """[x^n] (1 + x + ... + x^c)^r by repeated convolution (plain Python, a slow reference)."""
+    poly = [1]
+    for _ in range(r):
+        nxt = [0] * min(len(poly) + c, n + 1)
+        for i, a in enumerate(poly):
+            for k in range(c + 1):
+                if i + k <= n:
+                    nxt[i + k] += a
+        poly = nxt
+    return poly[n] if n < len(poly) else 0
+
+
+def test_csv_output():
+    result = run("saddle", "--vary", "balls=40..120", "--step", 40, "--urns", "balls//2", "--capacity", 3, "--csv")
+    assert result.exit_code == 0, result.output
+    rows = list(csv.DictReader(io.StringIO(result.stdout)))
+    assert [row["balls"] for row in rows] == ["40", "80", "120"]
+    for row in rows:
+        n, r = int(row["balls"]), int(row["urns"])
+        assert row["capacity"] == "3" and row["minimum"] == "0" and row["at"] == ""
+        assert row["exact"] == str(_bounded_count(n, r, 3))
+        with mpmath.workdps(40):
+            rel = abs(mpmath.mpf(row["approx"]) / int(row["exact"]) - 1)
+            assert float(row["relative_error_approx"]) == pytest.approx(float(rel), rel=1e-6)
+    assert rows[0]["local_order_approx"] == ""
+    # Flajolet & Sedgewick 2009, Thm VIII.8: relative error O(1/r)
+    assert float(rows[-1]["local_order_approx"]) == pytest.approx(1, abs=0.1)
+
+
+def test_table_output():
+    result = run("boltzmann", "--vary", "balls=100..400", "--step", 100, "--urns", "balls//2")
+    assert result.exit_code == 0, result.output
+    out = result.stdout
+    assert "boltzmann: the mean fraction of urns holding exactly j balls" in out
+    # (r-1)/(n+r-1) at n=100, r=50 is 49/149 (Feller vol. 1, §II.5, from memory)
+    assert "49/149" in out
+    assert "observed order" in out and "theory: 1 when" in out
+    assert "source: Boltzmann 1877" in out
+
+
+def test_list_catalogue():
+    result = run("--list")
+    assert result.exit_code == 0
+    for name in ("stirling1", "stirling2", "stirling3", "entropy", "birthday", "empty-mean",
+                 "poisson", "normal", "saddle", "boltzmann"):
+        assert f"\n{name}: " in "\n" + result.stdout
+    payload = json.loads(run("--list", "--json").stdout)
+    assert payload["approximations"][0]["name"] == "stirling1"
+    assert payload["approximations"][0]["order"] == "1"
+
+
+def test_plot(tmp_path):
+    path = tmp_path / "stirling.png"
+    result = run("stirling1,stirling2,stirling3", "--vary", "balls=10..1000", "--geometric", 4,
+                 "--urns", "balls", "--plot", path)
+    assert result.exit_code == 0, result.output
+    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)
+    assert f"plot: {path}" in result.stdout
+
+
+@pytest.mark.parametrize("args,message", [
+    (["nosuch", "--balls", 3, "--urns", 3], "Error: unknown approximation 'nosuch'; choose one of stirling1"),
+    (["birthday", "--urns", 3], "Error: give --balls N, or --vary balls=START..STOP"),
+    (["birthday", "--balls", 3], "Error: birthday needs urns"),
+    (["birthday", "--balls", 3, "--urns", 3, "--capacity", 2],
+     "Error: birthday does not use --capacity; leave it out (it uses balls, urns)"),
+    (["birthday", "--vary", "balls=3-9", "--urns", 3], "Error: --vary must look like balls=10..1000"),
+    (["birthday", "--vary", "balls=3..9", "--urns", "urns+1"], "Error: 'urns+1' mentions 'urns' at column 1"),
+    (["birthday", "--vary", "balls=3..9", "--urns", "balls**2"], "Error: cannot read 'balls**2' at column 7"),
+    (["birthday", "--balls", 3, "--urns", 3, "--csv", "--json"], "Error: give --csv or --json, not both"),
+    (["saddle", "--balls", 6, "--urns", 3, "--capacity", 2], "Error: saddle needs minimum*urns < balls < capacity*urns"),
+    (["entropy", "--balls", 6, "--pattern", "3,x"], "Error: pattern entry 2 ('x') is not a whole number"),
+    ([], "Error: name an approximation"),
+])
+def test_bad_input_is_one_line_and_exit_2(args, message):
+    result = run(*args)
+    assert result.exit_code == 2
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1
+    assert lines[0].startswith(message)
+
+
+def test_help_has_examples():
+    result = runner.invoke(app, ["compare", "--help"])
+    assert result.exit_code == 0
+    assert "enumerator compare birthday --balls 23 --urns 365 --json" in result.stdout
