@@ -1324,7 +1324,7 @@ def _wide_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]
         table.add_row(*row)
     natural = 1 + sum(3 + max(len(name), *(len(row[i]) for row in rows)) for i, name in enumerate(columns))
     wide = Console(file=sys.stdout, highlight=False, soft_wrap=False, width=max(_console().width, natural))
-    wide.print(title, style="bold")
+    wide.print(title, style="bold", markup=False)
     wide.print(table)
 
 
@@ -1452,10 +1452,10 @@ def compare_command(
         columns, rows = asymptotics.comparison_table(comparison)
         scale = " (errors of ln W: log scale)" if entry.scale == "log" else ""
         _wide_table(f"{entry.name}: {entry.quantity} ≈ {entry.formula}{scale}", columns, rows)
-        console.print(asymptotics.describe_order(comparison))
-        console.print(f"source: {entry.source}")
+        console.print(asymptotics.describe_order(comparison), markup=False)
+        console.print(f"source: {entry.source}", markup=False)
     if plot is not None:
-        console.print(f"plot: {plot}")
+        console.print(f"plot: {plot}", markup=False)
 
 
 # -- levels and contact --------------------------------------------------------

@@ -182,3 +182,10 @@ def test_help_has_examples():
     result = runner.invoke(app, ["compare", "--help"])
     assert result.exit_code == 0
     assert "enumerator compare birthday --balls 23 --urns 365 --json" in result.stdout
+
+
+def test_titles_print_brackets_literally():
+    # "[x^n]" must not be taken for rich markup and dropped
+    result = run("saddle", "--balls", 100, "--urns", 50, "--capacity", 3)
+    assert result.exit_code == 0, result.output
+    assert "[x^n] B(x)^r" in result.stdout
