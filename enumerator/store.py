@@ -599,26 +599,28 @@ class Store:
         """Run *action*, turning database failures into one clear StoreError."""
         try:
             return action(*args, **kwargs)
-        except StoreError:
-            raise
         except sa_exc.DBAPIError as error:
-            detail = " ".join(str(getattr(error, "orig", error)).split())
-            if _is_damaged(error):
-                raise StoreError(
-                    f"the store {self.name} is damaged or is not an SQLite database ({detail}); "
-                    "it only holds a cache, so move it aside or delete it, or choose another "
-                    "store with --store or ENUMERATOR_STORE"
-                ) from None
-            if _is_busy(error):
-                raise StoreError(
-                    f"the store {self.name} stayed locked by another process for "
-                    f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with --no-cache"
-                ) from None
-            raise StoreError(
-                f"cannot use the store {self.name} ({detail}); check the path or URL and its "
-                "permissions, choose another store with --store or ENUMERATOR_STORE, "
-                "or run with --no-cache"
-            ) from None
+            raise self._translate(error) from None
+
+    def _translate(self, error: "sa_exc.DBAPIError") -> StoreError:
+        """The one-line StoreError that tells the user what went wrong and what to do."""
+        detail = " ".join(str(getattr(error, "orig", error)).split())
+        if _is_damaged(error):
+            return StoreError(
+                f"the store {self.name} is damaged or is not an SQLite database ({detail}); "
+                "it only holds a cache, so move it aside or delete it, or choose another "
+                "store with --store or ENUMERATOR_STORE"
+            )
+        if _is_busy(error):
+            return StoreError(
+                f"the store {self.name} stayed locked by another process for "
+                f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with --no-cache"
+            )
+        return StoreError(
+            f"cannot use the store {self.name} ({detail}); check the path or URL and its "
+            "permissions, choose another store with --store or ENUMERATOR_STORE, "
+            "or run with --no-cache"
+        )
 
     def _retry(self, action, *args, **kwargs):
         """Run a write, retrying while another process holds the lock."""
@@ -880,14 +882,15 @@ class Store:
         if quantity is not None:
             stmt = stmt.where(Result.quantity == quantity)
 
-        def fetch():
+        # streamed in batches, so exporting a large store needs little memory
+        try:
             with Session(self.engine) as session:
-                return [_entry(row) for row in session.scalars(stmt)]
-
-        for entry in self._guard(fetch):
-            if stale is not None and _is_stale(entry) != stale:
-                continue
-            yield entry
+                for row in session.scalars(stmt.execution_options(yield_per=500)):
+                    entry = _entry(row)
+                    if stale is None or _is_stale(entry) == stale:
+                        yield entry
+        except sa_exc.DBAPIError as error:
+            raise self._translate(error) from None
 
     def stats(self) -> Dict[str, Any]:
         """Counts by quantity and rule, stale rows, the largest value, time spent, file size."""
@@ -1235,12 +1238,17 @@ def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
     return None
 
 
+_located: Dict[str, Optional[Path]] = {}  # the checkout test runs once per process
+
+
 def default_location() -> str:
     """The store used when none is configured (see the module docstring for the rule)."""
     env = os.environ.get(ENV_STORE, "").strip()
     if env:
         return env
-    checkout = _checkout_store_dir()
+    if "checkout" not in _located:
+        _located["checkout"] = _checkout_store_dir()
+    checkout = _located["checkout"]
     if checkout is not None:
         return str(checkout / DEFAULT_FILENAME)
     import platformdirs

@@ -291,7 +291,7 @@ def test_location_rule_explicit_then_env_then_checkout_then_user_cache(tmp_path,
     if (repo / "pyproject.toml").is_file() and (repo / "store").is_dir():
         assert checkout == repo / "store"
         assert results.default_location() == str(repo / "store" / results.DEFAULT_FILENAME)
-    monkeypatch.setattr(results, "_checkout_store_dir", lambda package_dir=None: None)
+    monkeypatch.setitem(results._located, "checkout", None)  # as if installed, not a checkout
     expected = Path(platformdirs.user_cache_dir("enumerator", appauthor=False)) / results.DEFAULT_FILENAME
     assert results.default_location() == str(expected)
 
