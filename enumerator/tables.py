@@ -28,9 +28,11 @@ once.
 
 from __future__ import annotations
 
+import os
 import re
 import tempfile
 import time
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, Dict, Iterable, List, Optional, Tuple
@@ -485,7 +487,9 @@ def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], o
     """Named zero-argument workloads for the benchmark harness, each on a fresh store.
 
     ``warm_lookup``: one ``Occupancy(...).microstates()`` answered from the
-    store (a new model each call, so the instance memo does not help);
+    store (a new model each call, so the instance memo does not help; the
+    store is switched on for the call even if the harness set
+    ``ENUMERATOR_NO_CACHE=1`` for its cold measurements);
     ``table_cold``: the 201 x 50 BE table built into an empty store;
     ``table_warm``: the same build again, every cell found stored;
     ``cold_count_stored`` / ``cold_count_pure``: a count of ~10+ ms with the
@@ -499,11 +503,22 @@ def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], o
     root = Path(directory or tempfile.mkdtemp(prefix="enumerator-bench-"))
     lookup_store = open_store(str(root / "lookup.sqlite"))
     model_args = dict(balls=300, urns=40, rule="MB", capacity=12)
-    with store_module.using(lookup_store):
+
+    @contextmanager
+    def store_on():
+        saved = os.environ.pop(store_module.ENV_NO_CACHE, None)
+        try:
+            with store_module.using(lookup_store):
+                yield
+        finally:
+            if saved is not None:
+                os.environ[store_module.ENV_NO_CACHE] = saved
+
+    with store_on():
         Occupancy(**model_args).microstates()
 
     def warm_lookup():
-        with store_module.using(lookup_store):
+        with store_on():
             return Occupancy(**model_args).microstates()
 
     spec = TableSpec.make("BE", "0..200", "1..50")

@@ -287,8 +287,15 @@ def test_exports_carry_exact_values_and_digit_counts(path):
         tables.export_table(data, "xlsx")
 
 
-def test_bench_workloads_answer_consistently(tmp_path):
+def test_bench_workloads_answer_consistently(tmp_path, monkeypatch):
+    # the harness sets ENUMERATOR_NO_CACHE=1 for cold counts; the store workloads still use the store
+    monkeypatch.setenv(results.ENV_NO_CACHE, "1")
     workloads = tables.bench_workloads(str(tmp_path))
+    lookup = results.open_store(str(tmp_path / "lookup.sqlite"))
+    assert lookup.stats()["entries"] == 1
+    lookup.clear()
+    workloads["warm_lookup"]()
+    assert lookup.stats()["entries"] == 1
     assert set(workloads) == {"warm_lookup", "table_cold", "table_warm", "cold_count_stored", "cold_count_pure"}
     model = Occupancy(balls=300, urns=40, rule="MB", capacity=12)
     assert workloads["warm_lookup"]() == count_microstates(model)
