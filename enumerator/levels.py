@@ -163,7 +163,10 @@ def _split_list(values, name: str) -> list:
 
 
 def _parse_temperature(value) -> Fraction:
-    if isinstance(value, float):
+    if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
+        man, exp = value.man_exp
+        number = Fraction(man) * Fraction(2) ** exp
+    elif isinstance(value, float):
         if not math.isfinite(value):
             raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
         number = Fraction(value)
@@ -1133,6 +1136,18 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
         spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
         system = System(spectrum, system.particles, system.rule, system.capacity)
     n = system.particles
+    states = spectrum.states()
+    if n and system.capacity is not None and states is not None and n == system.capacity * states:
+        # Every state full: one microstate, no fluctuations (the recursion
+        # would spend ever more bits resolving a variance that is exactly 0).
+        with mpmath.workdps(digits + GUARD_DIGITS):
+            T = mpmath.mpf(temperature.numerator) / temperature.denominator
+            energy = mpmath.mpf(ground_energy(system) * spectrum.unit.numerator) / spectrum.unit.denominator
+            lnZ = -energy / T
+            occ = [mpmath.mpf(system.capacity * g) for g in spectrum.degeneracies[:count]]
+            zero = mpmath.mpf(0)
+            with mpmath.workdps(digits):
+                return +lnZ, +energy, zero, +energy, zero, tuple(occ)
     target = math.ceil(digits * math.log2(10))
     margin = 8 + 2 * (n + 1).bit_length()
     bits = target + margin + 16
@@ -1193,14 +1208,19 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                     continue
                 need = target + margin + max(0, _bits(H[n]) - _bits(ZN))
                 if moments:
+                    # With two distinct level energies (and not every state full,
+                    # handled above) the energy fluctuates: M1_N > 0 and V > 0
+                    # exactly, so a zero or negative value is rounding noise and
+                    # the bounds below then ask for more bits.
+                    fluctuates = n > 0 and len(set(spectrum.energies)) > 1
                     M1N, M2N = seqs[1][n], seqs[2][n]
-                    if M1N:
-                        need = max(need, target + margin + _bits(H1[n] + H[n]) - _bits(M1N))
+                    if fluctuates:
+                        need = max(need, target + margin + _bits(H1[n] + H[n]) - _bits(max(M1N, 1)))
                     V = M2N * ZN - M1N * M1N
                     W = ZN * (H2[n] + H[n]) + M2N * H[n] + 2 * abs(M1N) * (H1[n] + H[n])
-                    if V > 0:
+                    if fluctuates:
                         # V and W both carry the scale 2^(2 bits); V's error is N 2^-bits W.
-                        need = max(need, target + margin + _bits(W) - _bits(V))
+                        need = max(need, target + margin + _bits(W) - _bits(max(V, 1)))
                 if need > bits:
                     bits = need + 16
                     continue
@@ -1320,8 +1340,18 @@ def _occupation_formula(system: System):
         return lambda X: 1 / (X - 1)
     if system.capacity == 1:
         return lambda X: 1 / (X + 1)
-    c1 = system.capacity + 1
-    return lambda X: 1 / (X - 1) - c1 / (X ** c1 - 1)
+    cap = system.capacity
+
+    def gentile(X):
+        # <n> = sum_j j y^j / sum_j y^j over j = 0..c, y = 1/X: the definition,
+        # equal to 1/(X-1) - (c+1)/(X^(c+1)-1) but without its removable pole at X = 1.
+        y = 1 / X
+        powers = [mpmath.mpf(1)]
+        for _ in range(cap):
+            powers.append(powers[-1] * y)
+        return mpmath.fsum(j * p for j, p in enumerate(powers)) / mpmath.fsum(powers)
+
+    return gentile
 
 
 def _gc_total(system: System, b, eta, formula):
@@ -1420,7 +1450,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
                 lo -= 2 * (1 + abs(lo))
             while h(hi) > 0:
                 hi += 2 * (1 + abs(hi))
-            s = _bracketed_root(h, lo, hi)
+            s = _bracketed_root(h, lo, hi, target)
             eta = -mpmath.exp(s)
         else:
             def h(e):
@@ -1431,7 +1461,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
                 lo = 2 * lo
             while h(hi) < 0:
                 hi = 2 * hi
-            eta = _bracketed_root(h, lo, hi)
+            eta = _bracketed_root(h, lo, hi, target)
         occ = [
             g * formula(mpmath.exp(b * (e - shift) - eta))
             for e, g in zip(spectrum.energies[:count], spectrum.degeneracies[:count])
@@ -1441,16 +1471,35 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
             return +mu, tuple(+x for x in occ)
 
 
-def _bracketed_root(h, lo, hi):
-    """A root of the monotone *h* inside ``[lo, hi]`` (mpmath Anderson–Björck, bisection fallback)."""
-    tol = mpmath.mpf(2) ** (-mpmath.mp.prec + 8)
+def _bracketed_root(h, lo, hi, scale):
+    """A root of the monotone *h* inside ``[lo, hi]`` (``h(lo)``, ``h(hi)`` of opposite signs).
+
+    mpmath's Anderson–Björck bracketing solver first; its answer is kept when
+    ``|h|`` is below ``scale`` times the working precision.  Otherwise (a
+    nearly flat ``h``, as inside the gap of a filled Fermi shell) bisection,
+    which keeps the bracket and cannot stall.
+    """
+    prec = mpmath.mp.prec
+    tol = mpmath.ldexp(mpmath.mpf(1), -prec + 8)
+    good = scale * mpmath.ldexp(mpmath.mpf(1), -prec + 24)
     try:
-        root = mpmath.findroot(h, (lo, hi), solver="anderson", tol=tol, verify=False)
-        if lo <= root <= hi:
+        root = mpmath.findroot(h, (lo, hi), solver="anderson", tol=tol, maxsteps=200, verify=False)
+        if lo <= root <= hi and abs(h(root)) <= good:
             return root
-    except (ValueError, ZeroDivisionError):  # pragma: no cover - fall back to bisection
+    except (ValueError, ZeroDivisionError):
         pass
-    return mpmath.findroot(h, (lo, hi), solver="bisect", tol=tol, verify=False)  # pragma: no cover
+    a, b = lo, hi
+    ha = h(a)
+    for _ in range(4 * prec):
+        m = (a + b) / 2
+        hm = h(m)
+        if hm == 0 or b - a <= tol * max(1, abs(m)):
+            return m
+        if (hm > 0) == (ha > 0):
+            a, ha = m, hm
+        else:
+            b = m
+    return (a + b) / 2
 
 
 # --------------------------------------------------------------------------
