@@ -26,9 +26,11 @@ least 3.  A call longer than the budget gets one timed sample after the
 warm-up, and one longer than 4 budgets only the warm-up itself (the output
 says so: first-call costs are then included).
 A peer that may be very slow is first run on scaled-down copies
-of the instance (1/32, 1/16, ... of the size); when the extrapolated full-size
-time exceeds the per-call limit (3 s quick, 60 s full) it is skipped with a
-note ``skipped: too slow (>Ns)`` giving the estimate and the size it came from.
+of the instance (1/32, 1/16, ... of the size); when the extrapolated time
+exceeds the per-call limit (3 s quick, 60 s full) it is skipped with a note
+``skipped: too slow (>Ns)`` giving the estimate and the size it came from.
+Otherwise its first full-size call runs in a forked child stopped at the
+limit (the same note then says so); a call that long is timed once, there.
 A skipped peer's answer is not checked, and the note says so.
 
 Counts are measured cold: ``ENUMERATOR_NO_CACHE=1`` is set before enumerator
@@ -318,18 +320,18 @@ class Context:
         """Run *method* on growing copies; return ``(fits, note, estimate)``.
 
         Sizes 1/32, 1/16, ... of the instance, one doubling at a time.  The
-        growth per doubling is read from consecutive runs (taken as at least
-        2: the answer grows at least linearly with the size) and the full-size
-        time extrapolated from the steepest growth seen between runs of at
-        least 10 ms (timings on a busy machine jitter).  The ladder jumps to the full size only
-        when the extrapolation is 8 times below the per-call limit (small
-        instances are dominated by overheads and understate the growth), and
-        stops, skipping the peer, when the next doubling is expected to pass
-        the limit.
+        time at full size is extrapolated with the steepest growth per
+        doubling seen between runs of at least 10 ms (shorter ones jitter on
+        a busy machine), at least 2 (the answer grows at least linearly) and
+        taken as 4 until measured.  The ladder jumps to the full size when the
+        extrapolation is 8 times below the per-call limit, and stops,
+        skipping the peer, when the next doubling is expected to pass the
+        limit.  The caller still runs the full size under a time limit.
         """
         limit = self.call_limit
         previous = None
-        steepest = 2.0
+        measured = False
+        steepest = 4.0  # until measured: the answer's length and the work per coefficient both grow
         s = 1 / 32
         while s < 1:
             call = method.scaled(s)
@@ -338,7 +340,8 @@ class Context:
             dt = perf_counter() - t
             doublings = math.log2(1 / s)
             if previous is not None and previous >= 1e-2:  # shorter runs jitter too much
-                steepest = max(steepest, dt / previous)
+                steepest = max(2.0, dt / previous) if not measured else max(steepest, dt / previous)
+                measured = True
             growth = steepest
             full = dt * growth ** doublings
             if previous is not None and dt >= 1e-3 and 8 * full <= limit:
@@ -357,6 +360,17 @@ class Context:
             fits, note, est = self.estimate(method)
             if not fits:
                 return Measurement(method.name, skipped=True, note=note, estimate=est)
+            # Extrapolation can be wrong both ways: the first full-size call
+            # runs in a forked child that is stopped at the per-call limit.
+            status, seconds, answer = run_forked(lambda: method.normalise(method.run()), self.call_limit)
+            if status == "timeout":
+                note = f"skipped: too slow (>{self.call_limit:g}s): stopped at the limit"
+                if est is not None:
+                    note += f" (extrapolated {fmt_time(est)} from smaller sizes)"
+                return Measurement(method.name, skipped=True, note=note, estimate=self.call_limit)
+            if status == "ok" and seconds >= self.time_budget and method.check is None:
+                return Measurement(method.name, seconds, seconds, 1, 1, answer=answer,
+                                   note="one call, timed in a forked child")
         m = self.time(method.run)
         m.method = method.name
         if method.check is not None:
@@ -389,6 +403,65 @@ class Context:
                 result.notes.append(f"{m.method} was skipped although its estimate is below the "
                                     "fastest measured peer; the ratio may flatter enumerator")
         return result
+
+
+def run_forked(call: Callable[[], Any], limit: float):
+    """Run *call* once in a forked child, stopped after *limit* seconds.
+
+    Returns ``("ok", seconds, answer)``, ``("timeout", None, None)``, or
+    ``("unavailable", None, None)`` where ``os.fork`` does not exist or the
+    child failed (the caller then runs the call in process, where an error
+    shows with its traceback).  The answer comes back pickled through a pipe.
+    """
+    if not hasattr(os, "fork"):
+        return "unavailable", None, None
+    import pickle
+    import select
+    import signal
+
+    read_end, write_end = os.pipe()
+    sys.stdout.flush()
+    pid = os.fork()
+    if pid == 0:  # child
+        code = 1
+        try:
+            os.close(read_end)
+            gc.disable()
+            t = perf_counter()
+            answer = call()
+            seconds = perf_counter() - t
+            data = pickle.dumps((seconds, answer))
+            with os.fdopen(write_end, "wb") as out:
+                out.write(data)
+            code = 0
+        finally:
+            os._exit(code)
+    os.close(write_end)
+    chunks = []
+    deadline = perf_counter() + limit
+    timed_out = False
+    with os.fdopen(read_end, "rb") as pipe:
+        while True:
+            left = deadline - perf_counter()
+            if left <= 0:
+                timed_out = True
+                break
+            ready, _, _ = select.select([pipe], [], [], left)
+            if not ready:
+                continue
+            chunk = os.read(pipe.fileno(), 1 << 20)
+            if not chunk:
+                break
+            chunks.append(chunk)
+    if timed_out:
+        os.kill(pid, signal.SIGKILL)
+    _, status = os.waitpid(pid, 0)
+    if timed_out:
+        return "timeout", None, None
+    if os.waitstatus_to_exitcode(status) != 0 or not chunks:
+        return "unavailable", None, None
+    seconds, answer = pickle.loads(b"".join(chunks))
+    return "ok", seconds, answer
 
 
 # ---------------------------------------------------------------------------
