@@ -1,0 +1,203 @@
+"""The ``levels`` and ``contact`` commands: the JSON contract, tables, plots, errors.
+
+Expected values come from outside the project: brute-force enumeration of
+microstates (``itertools``) with direct mpmath Boltzmann sums, ``math.comb``
+(stars and bars, common practice) and D. V. Schroeder, *An Introduction to
+Thermal Physics* (2000), Figure 2.6 (from memory).
+"""
+
+from __future__ import annotations
+
+import itertools
+import json
+import math
+from collections import Counter
+from fractions import Fraction
+
+import mpmath
+import pytest
+from typer.testing import CliRunner
+
+from enumerator.cli import app
+
+runner = CliRunner()
+
+
+def run(*args):
+    return runner.invoke(app, [str(a) for a in args])
+
+
+def run_json(*args) -> dict:
+    result = run(*args, "--json")
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    assert len(lines) == 1, "--json prints exactly one line holding one object"
+    return json.loads(lines[0])
+
+
+def brute_states(energies, degeneracies, n, rule):
+    """Total energy of every microstate (MB assignments, BE multisets, FD sets)."""
+    states = [e for e, g in zip(energies, degeneracies) for _ in range(g)]
+    index = range(len(states))
+    if rule == "MB":
+        combos = itertools.product(index, repeat=n)
+    elif rule == "BE":
+        combos = itertools.combinations_with_replacement(index, n)
+    else:
+        combos = itertools.combinations(index, n)
+    return [[states[s] for s in combo] for combo in combos], states
+
+
+@pytest.mark.parametrize("rule", ["MB", "BE", "FD"])
+def test_levels_json_contract_matches_brute_force(rule):
+    energies, degs, n, top = [0, 1, 2, 3], [1, 3, 5, 7], 3, 7
+    payload = run_json(
+        "levels", "--particles", n, "--energies", "0,1,2,3", "--degeneracies", "1,3,5,7",
+        "--rule", rule, "--max-energy", top,
+    )
+    assert set(payload) == {"unit", "multiplicity"}
+    assert payload["unit"] == "1"
+    micro, _ = brute_states(energies, degs, n, rule)
+    counts = Counter(sum(m) for m in micro)
+    low = min(counts)
+    assert list(payload["multiplicity"]) == [str(e) for e in range(low, top + 1)]
+    assert payload["multiplicity"] == {str(e): str(counts.get(e, 0)) for e in range(low, top + 1)}
+
+
+def test_levels_canonical_entries_match_direct_sums():
+    # Direct Boltzmann sums over the brute-force BE microstates (mpmath).
+    energies, degs, n = [0, 1, 2, 3], [1, 3, 5, 7], 3
+    payload = run_json(
+        "levels", "--particles", n, "--energies", "0,1,2,3", "--degeneracies", "1,3,5,7",
+        "--rule", "BE", "--max-energy", 9, "--temperatures", "0.5,1,2",
+    )
+    assert set(payload) == {"unit", "multiplicity", "canonical"}
+    assert [entry["temperature"] for entry in payload["canonical"]] == [0.5, 1.0, 2.0]
+    micro, states = brute_states(energies, degs, n, "BE")
+    level_of = [i for i, g in enumerate(degs) for _ in range(g)]
+    combos = list(itertools.combinations_with_replacement(range(len(states)), n))
+    for entry in payload["canonical"]:
+        for key in ("mean_energy_approx", "heat_capacity_approx"):
+            assert isinstance(entry[key], float)
+        beta = 1 / mpmath.mpf(entry["temperature"])
+        weights = [mpmath.exp(-beta * sum(m)) for m in micro]
+        Z = mpmath.fsum(weights)
+        U = mpmath.fsum(w * sum(m) for w, m in zip(weights, micro)) / Z
+        U2 = mpmath.fsum(w * sum(m) ** 2 for w, m in zip(weights, micro)) / Z
+        occ = [mpmath.fsum(w * sum(1 for s in c if level_of[s] == i) for w, c in zip(weights, combos)) / Z for i in range(4)]
+        assert entry["mean_energy_approx"] == pytest.approx(float(U), rel=1e-12)
+        assert entry["heat_capacity_approx"] == pytest.approx(float((U2 - U * U) * beta**2), rel=1e-12)
+        assert entry["occupation_approx"] == pytest.approx([float(o) for o in occ], rel=1e-12)
+        assert len(entry["grand_canonical_occupation_approx"]) == 4
+        assert sum(entry["grand_canonical_occupation_approx"]) == pytest.approx(n, rel=1e-12)
+        assert all(g > 0 for g in entry["grand_canonical_occupation_approx"])
+
+
+def test_einstein_preset_is_stars_and_bars():
+    # C(q + N - 1, q) (common practice).
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 4, "--max-energy", 10)
+    assert payload["multiplicity"] == {str(q): str(math.comb(q + 3, q)) for q in range(11)}
+
+
+def test_trap_preset_reports_the_levels_up_to_the_maximum_energy():
+    payload = run_json(
+        "levels", "--preset", "trap", "--particles", 20, "--rule", "BE", "--max-energy", 6,
+        "--temperatures", "1",
+    )
+    assert list(payload["multiplicity"]) == [str(e) for e in range(7)]
+    (entry,) = payload["canonical"]
+    assert len(entry["occupation_approx"]) == 7  # levels 0..6
+    # Lower levels hold more bosons on average (common practice).
+    assert entry["occupation_approx"][0] > entry["occupation_approx"][1]
+
+
+def test_rational_energies_report_their_unit():
+    payload = run_json("levels", "--particles", 2, "--energies", "0,1/2", "--rule", "BE", "--max-energy", "1")
+    assert payload == {"unit": "1/2", "multiplicity": {"0": "1", "1": "1", "2": "1"}}
+
+
+def test_microcanonical_flag_adds_ln_omega_and_temperature():
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 3, "--max-energy", 6, "--microcanonical")
+    micro = payload["microcanonical"]
+    assert [m["energy"] for m in micro] == [str(q) for q in range(7)]
+    # ln C(q + 2, q) (stars and bars) and the central difference 2 / (ln W(q+1) - ln W(q-1)).
+    assert micro[3]["ln_multiplicity_approx"] == pytest.approx(math.log(10))
+    assert micro[3]["temperature_approx"] == pytest.approx(2 / (math.log(15) - math.log(6)))
+    assert micro[0]["temperature_approx"] is None
+
+
+def test_contact_contract_for_two_einstein_solids():
+    # Schroeder (2000), Figure 2.6 (from memory): N_A = 300, N_B = 200, q = 100,
+    # most probable q_A = 60; total C(599, 100) by stars and bars.
+    payload = run_json("contact", "--oscillators-a", 300, "--oscillators-b", 200, "--quanta", 100)
+    assert set(payload) == {"total", "split", "most_probable", "probability"}
+    assert payload["total"] == str(math.comb(599, 100))
+    assert payload["most_probable"] == 60
+    assert list(payload["split"]) == [str(q) for q in range(101)]
+    assert payload["split"]["0"] == str(math.comb(199 + 100, 100))
+    for q in (0, 37, 60, 100):
+        expected = Fraction(math.comb(q + 299, q) * math.comb(100 - q + 199, 100 - q), math.comb(599, 100))
+        assert payload["probability"][str(q)] == str(expected)
+    assert sum(Fraction(p) for p in payload["probability"].values()) == 1
+
+
+def test_contact_of_two_spectra_matches_brute_force():
+    # Brute force: convolve the two enumerated energy histograms.
+    payload = run_json(
+        "contact", "--energies-a", "0,1,2", "--degeneracies-a", "1,2,1", "--particles-a", 2, "--rule-a", "FD",
+        "--energies-b", "0,1", "--degeneracies-b", "2,3", "--particles-b", 3, "--rule-b", "BE", "--energy", 4,
+    )
+    micro_a, _ = brute_states([0, 1, 2], [1, 2, 1], 2, "FD")
+    micro_b, _ = brute_states([0, 1], [2, 3], 3, "BE")
+    ca, cb = Counter(sum(m) for m in micro_a), Counter(sum(m) for m in micro_b)
+    split = {ea: ca[ea] * cb[4 - ea] for ea in range(min(ca), 4 - min(cb) + 1)}
+    total = sum(split.values())
+    assert payload["split"] == {str(e): str(v) for e, v in split.items()}
+    assert payload["total"] == str(total)
+    best = max(split.values())
+    assert payload["most_probable"] == min(e for e, v in split.items() if v == best)
+    assert payload["probability"] == {str(e): str(Fraction(v, total)) for e, v in split.items()}
+
+
+def test_plots_are_png_files(tmp_path):
+    levels_png = tmp_path / "levels.png"
+    result = run("levels", "--preset", "trap", "--particles", 10, "--rule", "BE", "--max-energy", 8,
+                 "--temperatures", "1,3", "--plot", levels_png)
+    assert result.exit_code == 0, result.output
+    assert levels_png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    contact_png = tmp_path / "contact.png"
+    result = run("contact", "--oscillators-a", 30, "--oscillators-b", 20, "--quanta", 10, "--plot", contact_png)
+    assert result.exit_code == 0, result.output
+    assert contact_png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_human_output_is_tables_with_the_exact_counts():
+    result = run("levels", "--particles", 3, "--energies", "0,1,2,3", "--degeneracies", "1,3,5,7",
+                 "--rule", "BE", "--max-energy", 6, "--temperatures", "1")
+    assert result.exit_code == 0, result.output
+    assert "Multiplicities: 3 particles (BE)" in result.stdout
+    assert "168" in result.stdout and "Mean level occupations at T = 1" in result.stdout
+    result = run("contact", "--oscillators-a", 3, "--oscillators-b", 3, "--quanta", 6)
+    assert result.exit_code == 0, result.output
+    assert "most probable split: E_A = 3, probability 50/231" in result.stdout
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["levels", "--particles", 3, "--energies", "0,x", "--max-energy", 3], "Error: energy 2 ('x') is not a number"),
+        (["levels", "--energies", "0,1", "--max-energy", 3], "Error: give the number of particles (--particles N)"),
+        (["levels", "--particles", 2, "--preset", "moon"], "Error: unknown preset 'moon'"),
+        (["levels", "--particles", 2, "--preset", "trap"], "Error: an infinite ladder of levels needs a maximum energy"),
+        (["levels", "--particles", 2, "--energies", "0,1", "--rule", "FD", "--capacity", 2], "Error: FD allows at most one particle per state"),
+        (["levels", "--particles", 2, "--energies", "0,1", "--temperatures", "-1"], "Error: temperature must be positive"),
+        (["levels", "--particles", 2, "--energies", "0,1", "--degeneracies", "1,2,3"], "Error: give one degeneracy per energy"),
+        (["contact", "--oscillators-a", 3, "--quanta", 6], "Error: describe the levels"),
+    ],
+)
+def test_bad_input_exits_2_with_one_line(args, message):
+    result = run(*args)
+    assert result.exit_code == 2
+    lines = result.stderr.strip().splitlines() if result.stderr else result.output.strip().splitlines()
+    assert len(lines) == 1
+    assert lines[0].startswith(message)
