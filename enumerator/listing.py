@@ -28,24 +28,35 @@ takes values in ``[max(0, m - R_i), min(c_i, m)]`` where ``m`` balls remain
 and ``R_i`` is the total capacity of the urns after ``i``, so the walk never
 enters a dead end.
 
-Only the first ``p = r - t`` urns are walked by that successor in Python.  The
-last ``t`` urns come from a small table, built lazily and once per model, of
-every admissible suffix holding ``m`` balls, in lexicographic order; ``t`` is
-the largest for which the table stays within a fixed budget (about 10^5
-entries for tuples, a few MB for arrays).  Each prefix then contributes its
-whole run of configurations through C-level iterators: in tuple mode a
-``zip`` of ``itertools.repeat`` columns (the prefix) and the table's columns,
-so CPython can reuse the result tuple when the consumer drops it; in block
-mode one broadcast ``numpy.add`` of the prefix row onto the table slice.
-With no room for a table, the last two urns are ``range`` objects and no
-table is built at all.  Memory is the table plus one block, independent of
-the number of configurations.
+Only the first ``p = r - t`` urns are walked by that successor in Python;
+each prefix then emits its whole run of suffixes (the last ``t`` urns
+holding the ``m`` balls left) at C speed:
+
+* A table of suffixes, built once per model and lazily, stores one level:
+  every admissible vector of the last ``t - 1`` urns, grouped by the balls
+  ``m`` they hold, groups in descending ``m``, each in lexicographic order.
+  In that layout the run of the last ``t`` urns holding ``m`` is one
+  contiguous slice of the table plus at most ``c + 1`` constant stretches
+  for the first of them (urn ``p`` taking ``v = lo, ..., hi`` is followed
+  by the groups ``m - lo, ..., m - hi``, which are adjacent).  Each level is
+  built from the one below with one gather, bottom-up.  ``t`` is the
+  largest depth whose table fits :data:`TUPLE_TABLE_BUDGET` or
+  :data:`BLOCK_TABLE_BUDGET` (a few MB; ``t = 8`` for ``n = 16, r = 10``).
+* Tuple mode yields a ``zip`` over ``itertools.repeat`` objects (the prefix)
+  and the run's columns (``bytes`` when ``n <= 255``, else lists), so each
+  tuple is built in C and CPython recycles it when the consumer drops it.
+* Block mode writes runs into Fortran-ordered (column-major) numpy arrays:
+  per run, one ``memset`` per prefix urn and one column-wise slice copy.
+* Without room for a table, the last two urns are ``range`` objects.
+
+Memory is the table plus one block, independent of the number of
+configurations.
 
 Ranking
 -------
-Rank and unrank use suffix counts, as in Nijenhuis and Wilf, *Combinatorial
-Algorithms*, 2nd ed. (1978), ch. 5 and 13 (ranking by counting the objects
-that precede a given one).  With ``N_j(m)`` the number of ways urns
+Rank and unrank use suffix counts, the ranking-by-counting method of
+Nijenhuis and Wilf, *Combinatorial Algorithms*, 2nd ed. (1978): the rank of
+a vector is the number of admissible vectors before it.  With ``N_j(m)`` the number of ways urns
 ``j, ..., r-1`` hold ``m`` balls and ``P_j(m) = N_j(0) + ... + N_j(m)``,
 
 .. math::  \operatorname{rank}(x) = \sum_{i<r-1} \bigl(P_{i+1}(m_i) - P_{i+1}(m_i - x_i)\bigr),
@@ -53,17 +64,20 @@ that precede a given one).  With ``N_j(m)`` the number of ways urns
 ``m_i`` being the balls left for urns ``i, ...``.  Three ways to get ``P``:
 
 * no upper bound bites (every ``c_i >= n'``): the hockey-stick identity gives
-  ``P_j(m) = C(m + r - j, r - j)`` (stars and bars), no table;
+  ``P_j(m) = C(m + r - j, r - j)`` (stars and bars), no table; the binomials
+  are carried from urn to urn by exact small multiplications and divisions;
 * every ``c_i <= 1`` (FD-like): ``N_j(m) = C(J, m)`` with ``J`` the urns of
-  capacity 1 from ``j`` on, no table;
+  capacity 1 from ``j`` on, no table, carried the same way;
 * otherwise a table of the prefix sums ``P_j(m)`` for all ``j`` and
   ``m <= n'``, built once per model by the recurrence
   ``N_j(m) = P_{j+1}(m) - P_{j+1}(m - c_j - 1)`` in ``O(r n')`` big-integer
   additions; above :data:`RANK_TABLE_LIMIT` bytes it raises
   :class:`~enumerator.errors.TooLarge`.
 
-Unranking inverts each term with a binary search (``bisect`` on the table
-rows, or on the binomial), ``O(r log n')`` look-ups.
+Unranking inverts each term: ``bisect`` on a table row (``O(r log n')``
+look-ups), a scan of the carried binomial (``O(n' + r)`` small steps in
+all; a binary search on ``math.comb`` when ``n'`` dwarfs ``r``), or one
+comparison per urn (capacities at most 1).
 
 Caching: the plan, the suffix tables and the rank table live in the model's
 ``_memo`` under keys starting with ``"listing."``; they go when the model
@@ -482,43 +496,90 @@ class _Ranker:
             rows[i] = list(accumulate(counts))
         return rows
 
-    # rank contributions of urns i0 .. r-2 given m balls left before urn i0
     def rank_from(self, x, i0: int, m: int) -> int:
-        plan = self.plan
-        r = plan.r
-        total = 0
+        """Rank contributions of urns ``i0 ..`` (shifted values *x*), *m* balls left before ``i0``."""
         if self.kind == "stars":
-            for i in range(i0, r - 1):
-                k = x[i]
-                if k:
-                    j = r - 1 - i
-                    total += math.comb(m + j, j) - math.comb(m - k + j, j)
-                    m -= k
-        elif self.kind == "binary":
-            after = self.after
-            for i in range(i0, r - 1):
-                if x[i]:
-                    total += math.comb(after[i], m)
-                    m -= 1
-        else:
-            rows = self.rows
-            for i in range(i0, r - 1):
-                k = x[i]
-                if k:
-                    P = rows[i + 1]
-                    total += P[m] - P[m - k]
-                    m -= k
+            return self._rank_stars(x, i0, m)
+        if self.kind == "binary":
+            return self._rank_binary(x, i0, m)
+        rows = self.rows
+        total = 0
+        for i in range(i0, self.plan.r - 1):
+            k = x[i]
+            if k:
+                P = rows[i + 1]
+                total += P[m] - P[m - k]
+                m -= k
         return total
 
     def unrank(self, index: int) -> List[int]:
-        plan = self.plan
-        r, m = plan.r, plan.N
-        x = [0] * r
+        """Shifted vector of rank *index* (``0 <= index < count``)."""
         if self.kind == "stars":
-            for i in range(r - 1):
-                j = r - 1 - i
-                # smallest q in [0, m] with C(q + j, j) >= C(m + j, j) - index
-                target = math.comb(m + j, j) - index
+            return self._unrank_stars(index)
+        if self.kind == "binary":
+            return self._unrank_binary(index)
+        r, m = self.plan.r, self.plan.N
+        x = [0] * r
+        rows = self.rows
+        for i in range(r - 1):
+            P = rows[i + 1]
+            # the value v is the one with P[m] - P[m - v] <= index < P[m] - P[m - v - 1]
+            q = bisect_left(P, P[m] - index, 0, m + 1)
+            if q < m:
+                index -= P[m] - P[q]
+            x[i] = m - q
+            m = q
+        x[r - 1] = m
+        return x
+
+    # Stars and bars: with j urns after urn i, B = C(m + j, j) is both the
+    # number of completions of the prefix and P_{i+1}(m).  It is carried from
+    # urn to urn by exact small multiplications and divisions,
+    # C(q - 1 + j, j) = C(q + j, j) q / (q + j) and
+    # C(q + j - 1, j - 1) = C(q + j, j) j / (q + j), instead of calling comb.
+    def _rank_stars(self, x, i0: int, m: int) -> int:
+        r = self.plan.r
+        if i0 >= r - 1:
+            return 0
+        j = r - 1 - i0
+        B = math.comb(m + j, j)
+        total = 0
+        for i in range(i0, r - 1):
+            j = r - 1 - i
+            k = x[i]
+            if k == 0:
+                low = B
+            elif k <= 16:
+                low, q = B, m
+                for _ in range(k):
+                    low = low * q // (q + j)
+                    q -= 1
+            else:
+                low = math.comb(m - k + j, j)
+            total += B - low
+            m -= k
+            if j > 1:
+                B = low * j // (m + j)
+        return total
+
+    def _unrank_stars(self, index: int) -> List[int]:
+        r, m = self.plan.r, self.plan.N
+        x = [0] * r
+        # scanning values upward costs n + r steps in all; a binary search on
+        # comb costs r log n binomials, better when n is much larger than r
+        scan = m <= 64 * r
+        B = self.count
+        for i in range(r - 1):
+            j = r - 1 - i
+            target = B - index  # smallest q with C(q + j, j) >= target
+            if scan:
+                q, cur = m, B
+                while q:
+                    below = cur * q // (q + j)
+                    if below < target:
+                        break
+                    cur, q = below, q - 1
+            else:
                 lo, hi = 0, m
                 while lo < hi:
                     mid = (lo + hi) // 2
@@ -526,32 +587,55 @@ class _Ranker:
                         hi = mid
                     else:
                         lo = mid + 1
-                v = m - lo
-                if v:
-                    index -= math.comb(m + j, j) - math.comb(lo + j, j)
-                x[i] = v
-                m = lo
-        elif self.kind == "binary":
-            after, caps = self.after, plan.caps
-            for i in range(r - 1):
-                if caps[i] and m:
-                    zero = math.comb(after[i], m)
-                    if index >= zero:
-                        index -= zero
-                        x[i] = 1
-                        m -= 1
-        else:
-            rows = self.rows
-            for i in range(r - 1):
-                P = rows[i + 1]
-                target = P[m] - index
-                q = bisect_left(P, target, 0, m + 1)
-                v = m - q
-                if v:
-                    index -= P[m] - P[q]
-                x[i] = v
-                m = q
+                q, cur = lo, math.comb(lo + j, j)
+            index -= B - cur
+            x[i] = m - q
+            m = q
+            if j > 1:
+                B = cur * j // (m + j)
         x[r - 1] = m
+        return x
+
+    # Capacities 0 or 1: with J capacity-1 urns after urn i, B = C(J, m) is
+    # the number of completions with urn i empty, carried by
+    # C(J - 1, m) = C(J, m) (J - m) / J and C(J - 1, m - 1) = C(J, m) m / J.
+    def _rank_binary(self, x, i0: int, m: int) -> int:
+        caps, after = self.plan.caps, self.after
+        total, J, B = 0, None, 0
+        for i in range(i0, self.plan.r):
+            if not caps[i]:
+                continue
+            if J is None:
+                J = after[i]
+                B = math.comb(J, m)
+            if x[i]:
+                total += B
+                B = B * m // J if J else 0
+                m -= 1
+            else:
+                B = B * (J - m) // J if J else 0
+            J -= 1
+        return total
+
+    def _unrank_binary(self, index: int) -> List[int]:
+        caps, after = self.plan.caps, self.after
+        m = self.plan.N
+        x = [0] * self.plan.r
+        J, B = None, 0
+        for i in range(self.plan.r):
+            if not caps[i]:
+                continue
+            if J is None:
+                J = after[i]
+                B = math.comb(J, m)
+            if index >= B:
+                index -= B
+                x[i] = 1
+                B = B * m // J if J else 0
+                m -= 1
+            else:
+                B = B * (J - m) // J if J else 0
+            J -= 1
         return x
 
 
@@ -574,9 +658,18 @@ def rank(model, config) -> int:
 
     Ranking by suffix counts (Nijenhuis and Wilf, *Combinatorial Algorithms*,
     1978): the rank is the number of admissible vectors that precede
-    *config*, summed urn by urn.  Cost: ``O(r)`` binomials (no bound bites, or
-    every capacity at most 1) or ``O(r)`` table look-ups after a one-off
-    ``O(r n)`` table build (other bounds).
+    *config*, summed urn by urn.  Cost: ``O(r)`` carried binomials (no bound
+    bites, or every capacity at most 1) or ``O(r)`` table look-ups after a
+    one-off ``O(r n)`` table build (other bounds).
+
+    Examples
+    --------
+    >>> from enumerator import Occupancy
+    >>> model = Occupancy(balls=2, urns=2, rule="BE")
+    >>> [model.rank(k) for k in [(0, 2), (1, 1), (2, 0)]]
+    [0, 1, 2]
+    >>> model.unrank(1)
+    (1, 1)
 
     Raises
     ------
@@ -605,10 +698,12 @@ def rank(model, config) -> int:
 def unrank(model, index) -> Tuple[int, ...]:
     """Return the admissible vector of 0-based lexicographic rank *index*.
 
-    The inverse of :func:`rank`: urn by urn, a binary search over the suffix
-    counts finds the value whose block of successors contains *index*
-    (Nijenhuis and Wilf, *Combinatorial Algorithms*, 1978).  Cost ``O(r log n)``
-    binomials or table look-ups.
+    The inverse of :func:`rank`: urn by urn, the suffix counts locate the
+    value whose block of successors contains *index* (Nijenhuis and Wilf,
+    *Combinatorial Algorithms*, 1978).  Cost: ``O(r log n)`` table look-ups,
+    or ``O(n + r)`` exact small multiplications of a carried binomial (no
+    bound bites), or ``O(r)`` (capacities at most 1).  Exact for counts of
+    any size.
 
     Raises
     ------
@@ -709,7 +804,7 @@ def iter_configurations(model, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
 
 
 def _table_runs(plan: _Plan, table: _SuffixTable, p: int, x: List[int]):
-    """Yield ``(run_iterator, length)`` per prefix, suffixes from the column table."""
+    """Yield ``(zip, length)`` per prefix: ``repeat`` columns, then the table's run."""
     lows = plan.lows
     reps = [repeat(v + a) for v, a in zip(x, lows)]
     for changed, m in _walk(plan, p, x):
@@ -771,14 +866,21 @@ def _trim(runs, offset: int, total: Optional[int]):
 def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
     """Yield numpy arrays of shape ``(<= size, r)`` holding ranks ``[start, stop)`` in order.
 
-    The same listing as :func:`iter_configurations`, many rows per array:
-    each prefix's run is written with one broadcast ``numpy.add`` of the
-    prefix row onto a precomputed full-width slice of suffixes (Knuth-style
-    lexicographic generation, vol. 4A §7.2.1.3, on the first urns only).
-    Every array but the last has exactly *size* rows; each is freshly
-    allocated.  The dtype is :func:`block_dtype` (smallest unsigned type
-    holding ``n``; ``object`` beyond ``2^64 - 1``).  Memory: the suffix table
-    (at most :data:`BLOCK_TABLE_BUDGET` bytes) plus one block.
+    The same listing as :func:`iter_configurations`, many rows per array
+    (Knuth-style lexicographic generation, *TAOCP* vol. 4A, 2011, §7.2.1.3,
+    walked in Python on the first urns only): each prefix's run is written
+    with one fill per prefix urn and one column-wise copy of a slice of the
+    suffix table, ``O(1)`` numpy calls per run and memory-bandwidth speed.
+
+    Conventions: row ``i`` of the concatenated arrays is the configuration
+    of rank ``start + i``; every array but the last has exactly *size* rows,
+    and each is freshly allocated (keep or modify it freely).  Arrays are
+    **Fortran-ordered** (column-major: each urn's column is contiguous),
+    which is what makes the fill fast; use ``numpy.ascontiguousarray`` for
+    row-major memory.  The dtype is :func:`block_dtype`: the smallest
+    unsigned integer type holding ``n`` (``object`` beyond ``2^64 - 1``).
+    Memory: the suffix table (at most :data:`BLOCK_TABLE_BUDGET` bytes) plus
+    one block.  Ranges and clamping are as in :func:`iter_configurations`.
 
     Raises
     ------

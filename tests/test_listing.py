@@ -142,6 +142,25 @@ def test_rank_and_unrank_are_inverse_bijections(model):
         assert model.unrank(i) == k
 
 
+@pytest.mark.parametrize(
+    "model",
+    [
+        Occupancy(balls=9, bounds=[(1, None), (0, None), (2, None), (0, None)], rule="BE"),  # closed form
+        Occupancy(balls=4, bounds=[(0, 1), (1, 1), (0, 1), (0, 0), (0, 1), (1, 2)], rule="BE"),  # caps 0/1
+        Occupancy(balls=4, urns=7, rule="FD"),
+        Occupancy(balls=10, bounds=[(0, 2), (1, None), (0, 4), (0, 0), (2, 5)], rule="MB"),  # table
+    ],
+    ids=["stars", "binary", "FD", "table"],
+)
+def test_every_ranking_method_matches_brute_force(model):
+    expected = brute(model)
+    assert expected
+    assert [model.rank(k) for k in expected] == list(range(len(expected)))
+    assert [model.unrank(i) for i in range(len(expected))] == expected
+    for start in range(len(expected) + 1):
+        assert list(model.iter_configurations(start)) == expected[start:]
+
+
 def test_small_order_example():
     # the order stated in the design: n=2, r=2 lists (0,2), (1,1), (2,0)
     model = Occupancy(balls=2, urns=2, rule="BE")
