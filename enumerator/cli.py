@@ -246,6 +246,17 @@ Json = Annotated[
 ]
 
 
+EventLimit = Annotated[
+    Optional[int],
+    typer.Option(
+        "--limit",
+        help="dist/prob: the most configurations (or profiles) handled one by one when no exact "
+        "shortcut applies; above it the command stops with an error (default 1000000).",
+        rich_help_panel=_OUTPUT,
+    ),
+]
+
+
 class ListFormat(str, Enum):
     """Row formats of ``enumerator list``."""
 
@@ -455,10 +466,113 @@ def count_command(
 def prob_command(
     balls: Balls,
     config: Annotated[
-        str,
+        Optional[str],
         typer.Option(
             "--config",
             help='The occupancy vector "k1,k2,...,kr": one whole number per urn, summing to n.',
+        ),
+    ] = None,
+    event: Annotated[
+        Optional[str],
+        typer.Option(
+            "--event",
+            help='An event instead of one vector, e.g. "max <= 1", "empty == 3", '
+            '"k1 >= 2 and not count(== 2) >= 3" (see enumerator.events).',
+        ),
+    ] = None,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    limit: EventLimit = None,
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Give the exact probability of one occupancy vector, or of an event, under the rule.
+
+    --config: MB n!/(k1!...kr!) assignments out of all admissible ones; BE and
+    FD one vector out of all admissible vectors.  A vector that breaks a bound
+    has probability exactly 0; one of the wrong length or sum is an error.
+
+    --event: a statement about the vector built from max, min, empty,
+    occupied, k1..kr and count(OP J), compared with == != < <= > >= and joined
+    by and, or, not and parentheses.  Give exactly one of --config and --event.
+
+    Example:
+
+        $ enumerator prob -n 3 -r 3 --config 2,0,1
+        $ enumerator prob -n 3 -r 3 --config 2,0,1 --rule BE --json
+        $ enumerator prob -n 23 -r 365 --event "max <= 1"
+        $ enumerator prob -n 10 -r 6 --event "empty >= 2 or k1 == 0" --json
+    """
+    from .errors import InvalidParameters
+
+    if (config is None) == (event is None):
+        raise InvalidParameters(
+            'give exactly one of --config (one occupancy vector, e.g. 2,0,1) '
+            'or --event (an event, e.g. "max <= 1")'
+        )
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        if event is not None:
+            from .events import event_probability
+
+            probability = event_probability(model, event, limit=_limit(limit))
+            field, text, title = "event", event, f"{_describe(model)}; event {event}"
+        else:
+            vector = parse_config(config)
+            probability = model.probability(vector)
+            text = ",".join(map(str, vector))
+            field, title = "config", f"{_describe(model)}; configuration ({text})"
+        if as_json:
+            emit_json(
+                {
+                    "rule": model.rule.value,
+                    "balls": exact(model.balls),
+                    "urns": exact(model.urns),
+                    field: text,
+                    "probability": exact(probability),
+                    "approx": _approx(probability),
+                }
+            )
+            return
+        show_table(
+            title,
+            ["quantity", "value"],
+            [
+                ["probability (exact)", exact(probability)],
+                ["probability (approx)", f"{_approx(probability):.6g}"],
+            ],
+        )
+
+
+def _limit(limit: Optional[int]) -> int:
+    """The ``--limit`` of dist/prob, or the library default."""
+    from .statistics import DEFAULT_LIMIT
+
+    return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
+
+
+def _value_text(value) -> str:
+    """A statistic's value as a JSON key: decimal digits, or a profile's parts joined by '+'."""
+    if isinstance(value, tuple):
+        return "+".join(map(str, value))
+    return str(value)
+
+
+@app.command("dist")
+def dist_command(
+    balls: Balls,
+    stat: Annotated[
+        str,
+        typer.Option(
+            "--stat",
+            metavar="empty|occupied|max|min|urn:I|exactly:J|atleast:J|profile",
+            help="The statistic: empty or occupied urns, the largest or smallest occupancy, "
+            "urn I's occupancy (1-based), the number of urns holding exactly / at least J "
+            "balls, or the occupancy profile (the occupancies sorted, urns unlabelled).",
         ),
     ],
     urns: Urns = None,
@@ -466,46 +580,51 @@ def prob_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    limit: EventLimit = None,
     store: Store = None,
     no_cache: NoCache = False,
     as_json: Json = False,
 ) -> None:
-    """Give the exact probability of one occupancy vector under the rule.
+    """Give the exact distribution of a statistic: every value's probability, mean, variance.
 
-    MB: n!/(k1!...kr!) assignments out of all admissible ones; BE and FD: one
-    vector out of all admissible vectors.  A vector that breaks a bound has
-    probability exactly 0; one of the wrong length or sum is an error.
+    The probabilities are exact fractions over the whole support and sum to
+    exactly 1.  A profile is written as its parts in decreasing order joined
+    by "+", e.g. 3+1+1+0; profiles have no mean or variance (null in JSON).
 
     Example:
 
-        $ enumerator prob -n 3 -r 3 --config 2,0,1
-        $ enumerator prob -n 3 -r 3 --config 2,0,1 --rule BE --json
+        $ enumerator dist -n 10 -r 4 --stat empty
+        $ enumerator dist -n 2000 -r 500 --stat max --json
+        $ enumerator dist -n 6 -r 3 --rule BE --stat profile
     """
+    from .statistics import distribution
+
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
-        vector = parse_config(config)
-        probability = model.probability(vector)
-        text = ",".join(map(str, vector))
+        law = distribution(model, stat, limit=_limit(limit))
+        moment = (lambda x: None if x is None else exact(x))
         if as_json:
             emit_json(
                 {
-                    "rule": model.rule.value,
-                    "balls": exact(model.balls),
-                    "urns": exact(model.urns),
-                    "config": text,
-                    "probability": exact(probability),
-                    "approx": _approx(probability),
+                    "statistic": law.statistic,
+                    "pmf": {_value_text(v): exact(p) for v, p in law.pmf.items()},
+                    "mean": moment(law.mean),
+                    "variance": moment(law.variance),
                 }
             )
             return
-        show_table(
-            f"{_describe(model)}; configuration ({text})",
-            ["quantity", "value"],
-            [
-                ["probability (exact)", exact(probability)],
-                ["probability (approx)", f"{_approx(probability):.6g}"],
-            ],
-        )
+        rows = [[_value_text(v), exact(p), f"{_approx(p):.6g}"] for v, p in law.pmf.items()]
+        show_table(f"{_describe(model)}; distribution of {law.statistic}",
+                   [law.statistic, "probability (exact)", "approx"], rows)
+        if law.mean is not None:
+            show_table(
+                f"Moments of {law.statistic}",
+                ["moment", "exact", "approx"],
+                [
+                    ["mean", exact(law.mean), f"{_approx(law.mean):.6g}"],
+                    ["variance", exact(law.variance), f"{_approx(law.variance):.6g}"],
+                ],
+            )
 
 
 #: Rows per numpy block when listing; large enough to amortise the call.
