@@ -272,6 +272,13 @@ def _choose_suffix(plan: _Plan, budget: int, top_column: int) -> int:
     return best
 
 
+def _plus(values, a: int, dtype):
+    """``values + a`` in *dtype*: small shifted int64 values plus a lower bound of any size."""
+    if dtype == object:
+        return values.astype(object) + a
+    return values.astype(dtype) + dtype.type(a)
+
+
 def _repeat(values, lengths, dtype=np.int64):
     """``numpy.repeat(values, lengths)`` for positive *lengths*, as *dtype*, by a running sum.
 
@@ -287,7 +294,7 @@ def _repeat(values, lengths, dtype=np.int64):
     if total:
         firsts = np.cumsum(lengths) - lengths
         out[firsts] = np.diff(values, prepend=0).astype(dtype)
-        np.cumsum(out, out=out)
+        np.cumsum(out, dtype=out.dtype, out=out)
     return out
 
 
@@ -300,7 +307,7 @@ def _aranges(starts, stops):
         firsts = np.cumsum(lengths) - lengths
         out[firsts] = starts - np.concatenate(([1], stops[:-1])) + 1
         out[0] = starts[0]
-        np.cumsum(out, out=out)
+        np.cumsum(out, dtype=out.dtype, out=out)
     return out
 
 
@@ -326,8 +333,7 @@ class _SuffixTable:
         r, N, caps, lows, dtype = plan.r, plan.N, plan.caps, plan.lows, plan.dtype
         top = min(N, caps[r - 1])
         rows = np.empty((top + 1, 1), dtype=dtype, order="F")
-        rows[:, 0] = np.arange(top + lows[r - 1], lows[r - 1] - 1, -1, dtype=np.int64) if dtype != object \
-            else np.array(range(top + lows[r - 1], lows[r - 1] - 1, -1), dtype=object)
+        rows[:, 0] = _plus(np.arange(top, -1, -1, dtype=np.int64), lows[r - 1], dtype)
         counts = np.ones(top + 1, dtype=np.int64)
         for j in range(r - 2, p, -1):
             rows, counts = self._stack(j, rows, counts)
@@ -356,7 +362,7 @@ class _SuffixTable:
         qs = _repeat(ms, hi - lo + 1) - vs
         total = int((last - first).sum())
         new = np.empty((total, rows.shape[1] + 1), dtype=plan.dtype, order="F")
-        new[:, 0] = _repeat(vs + a, counts[qs], plan.dtype)
+        new[:, 0] = _repeat(_plus(vs, a, plan.dtype), counts[qs], plan.dtype)
         if len(ms) <= _SLICE_COPIES:
             pos = 0
             for f, g in zip(first.tolist(), last.tolist()):
@@ -906,13 +912,13 @@ def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
 
 def _blocks_table(plan, table, size, p, x, offset, total):
     r, dtype, lows = plan.r, plan.dtype, plan.lows
-    values = [v + a for v, a in zip(x, lows)]
+    prefix = np.array([v + a for v, a in zip(x, lows)], dtype=dtype)
     out = np.empty((size, r), dtype=dtype, order="F")
     pos = 0
     fill = table.fill
     for changed, m in _walk(plan, p, x):
         for i in range(changed, p):
-            values[i] = x[i] + lows[i]
+            prefix[i] = x[i] + lows[i]
         start, stop = table.run(m)[:2]
         lo, length = offset, stop - start
         offset = 0
@@ -923,8 +929,8 @@ def _blocks_table(plan, table, size, p, x, offset, total):
             if total is not None and take > total:
                 take = total
             block = out[pos : pos + take]
-            for i in range(p):
-                block[:, i] = values[i]
+            if p:
+                block[:, :p] = prefix  # one memset per prefix urn, in one call
             fill(block, m, lo, take)
             pos += take
             lo += take
@@ -945,12 +951,12 @@ def _blocks_ranges(plan, size, p, x, offset, total):
     r, dtype, lows, caps = plan.r, plan.dtype, plan.lows, plan.caps
     a, b = lows[-2], lows[-1]
     c_last, c_pen = caps[-1], caps[-2]
-    values = [v + w for v, w in zip(x, lows)]
+    prefix = np.array([v + w for v, w in zip(x, lows)], dtype=dtype)
     out = np.empty((size, r), dtype=dtype, order="F")
     pos = 0
     for changed, m in _walk(plan, p, x):
         for i in range(changed, p):
-            values[i] = x[i] + lows[i]
+            prefix[i] = x[i] + lows[i]
         lo = m - c_last
         if lo < 0:
             lo = 0
@@ -964,8 +970,8 @@ def _blocks_ranges(plan, size, p, x, offset, total):
             if total is not None and take > total:
                 take = total
             block = out[pos : pos + take]
-            for i in range(p):
-                block[:, i] = values[i]
+            if p:
+                block[:, :p] = prefix
             steps = np.arange(lo, lo + take, dtype=dtype)
             block[:, r - 2] = steps + a
             block[:, r - 1] = np.subtract(m + b, steps, dtype=dtype)

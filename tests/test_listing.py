@@ -293,6 +293,27 @@ def test_huge_ball_counts_list_exactly():
     assert model.unrank(middle) == a
 
 
+@pytest.mark.parametrize(
+    "bounds",
+    [
+        [(0, None)] * 3 + [(2**63 + 1, None)],  # uint64 blocks, a lower bound above 2^63 in the table
+        [(2**63 + 1, None)] + [(0, None)] * 3,
+        [(0, 3), (0, 3), (2**70, None), (0, None)],  # object blocks
+    ],
+)
+def test_huge_lower_bounds_with_few_free_balls(bounds):
+    n = sum(a for a, _ in bounds) + 6
+    model = Occupancy(balls=n, bounds=bounds, rule="BE")
+    # brute force over the free part only: each urn holds a + 0..6
+    boxes = [range(a, a + 7) if b is None else range(a, min(b, a + 6) + 1) for a, b in bounds]
+    expected = sorted(k for k in itertools.product(*boxes) if sum(k) == n)
+    assert list(model.iter_configurations()) == expected
+    assert as_rows(model.iter_blocks(7)) == expected
+    assert [model.rank(k) for k in expected] == list(range(len(expected)))
+    assert model.unrank(len(expected) - 1) == expected[-1]
+    assert list(model.iter_configurations(5, 9)) == expected[5:9]
+
+
 # -- rank and unrank at scale ---------------------------------------------------
 def test_unrank_near_the_end_of_a_count_of_hundreds_of_digits():
     n, r = 300, 100
