@@ -1,0 +1,326 @@
+"""Exact distributions of statistics: brute force, classical formulas, SciPy and SymPy.
+
+The slow references here enumerate every vector of the bounded box
+(``tests/reference.py``) and weigh it under the rule; keep their inputs small.
+Outside references are named beside each check.
+"""
+
+from __future__ import annotations
+
+import math
+from fractions import Fraction
+
+import pytest
+import scipy.stats
+import sympy
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import enumerator.statistics as statistics
+from enumerator import Occupancy
+from enumerator.counting import count_configurations, count_microstates
+from enumerator.errors import InvalidParameters, TooLarge
+from enumerator.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
+
+from reference import box, weight
+
+STATS = ["empty", "occupied", "max", "min", "urn:1", "urn:2", "exactly:0", "exactly:1", "exactly:2",
+         "atleast:1", "atleast:2", "atleast:3", "profile"]
+
+
+def brute_law(model, stat: str):
+    """{value: Fraction} by listing the box and weighing each vector (slow reference)."""
+    s = parse_statistic(stat)
+    found, total = {}, 0
+    for k in box(model):
+        w = weight(model, k)
+        total += w
+        v = s.value(k)
+        found[v] = found.get(v, 0) + w
+    return {v: Fraction(c, total) for v, c in sorted(found.items()) if c}
+
+
+def moments(pmf):
+    mean = sum(v * p for v, p in pmf.items())
+    return mean, sum(v * v * p for v, p in pmf.items()) - mean * mean
+
+
+@st.composite
+def small_models(draw):
+    """Small models of every rule, uniform or per-urn bounds, with at least one configuration."""
+    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
+    r = draw(st.integers(1, 4))
+    n = draw(st.integers(0, 7))
+    shape = draw(st.sampled_from(["free", "uniform", "per-urn"]))
+    if shape == "free":
+        model = Occupancy(balls=n, urns=r, rule=rule)
+    elif shape == "uniform":
+        a = draw(st.integers(0, 1 if rule == "FD" else 2))
+        top = 1 if rule == "FD" else a + draw(st.integers(0, 4))
+        cap = draw(st.sampled_from([None, top])) if rule != "FD" else top
+        model = Occupancy(balls=n, urns=r, rule=rule, capacity=cap, minimum=a)
+    else:
+        bounds = []
+        for _ in range(r):
+            a = draw(st.integers(0, 1 if rule == "FD" else 2))
+            b = draw(st.sampled_from([None, a, a + 1, a + 3]))
+            if rule == "FD":
+                b = max(a, 1 if b is None else min(b, 1))
+            bounds.append((a, b))
+        model = Occupancy(balls=n, bounds=bounds, rule=rule)
+    if not any(True for _ in box(model)):
+        model = Occupancy(balls=n, urns=r, rule="BE")
+    return model
+
+
+# ---------------------------------------------------------------- brute force
+
+@settings(max_examples=150, deadline=None)
+@given(small_models(), st.sampled_from(STATS))
+def test_every_statistic_matches_brute_force(model, stat):
+    if stat == "urn:2" and model.urns < 2:
+        stat = "urn:1"
+    law = distribution(model, stat)
+    expected = brute_law(model, stat)
+    assert law.pmf == expected
+    assert sum(law.pmf.values()) == 1
+    assert all(p > 0 for p in law.pmf.values())
+    if stat == "profile":
+        assert law.mean is None and law.variance is None
+    else:
+        assert (law.mean, law.variance) == moments(expected)
+
+
+@settings(max_examples=60, deadline=None)
+@given(small_models())
+def test_counts_add_up_to_the_number_of_outcomes(model):
+    # the outcomes are MB microstates or BE/FD configurations (the model's own counts)
+    for stat in ("max", "min", "empty", "profile"):
+        counts, total = statistics.statistic_counts(model, stat)
+        assert total == count_microstates(model)
+        assert sum(counts.values()) == total
+
+
+@settings(max_examples=80, deadline=None)
+@given(small_models(), st.integers(0, 7))
+def test_outcome_count_is_the_brute_force_count_of_any_bounds(model, shift):
+    bounds = [(a, None if b is None else b + shift % 2) for a, b in model.bounds]
+    if model.rule.value == "FD":
+        bounds = [(a, min(1, 1 if b is None else b)) for a, b in bounds]
+    wide = Occupancy(balls=model.balls, bounds=bounds, rule=model.rule)
+    expected = sum(weight(wide, k) for k in box(wide))
+    assert outcome_count(bounds, model.rule, model.balls) == expected
+
+
+# ---------------------------------------------------------------- the fast paths against other algorithms
+
+@pytest.mark.parametrize("n, r", [(60, 7), (41, 3), (100, 20), (37, 37), (50, 2), (30, 100), (9, 1)])
+@pytest.mark.parametrize("costs", [(2.45, 4.5, 8.0), (100.0, 1.0, 0.01), (100.0, 1.0, 1e9), (1e-9, 1.0, 1.0)])
+def test_mb_maximum_in_every_regime_equals_the_egf_power(monkeypatch, n, r, costs):
+    # Miller's recurrence, the level recursion with and without extensions and the
+    # one-term inclusion-exclusion, each forced by the cost model, against
+    # counting's truncated-EGF power (FLINT) for the same bounded counts.
+    monkeypatch.setattr(statistics, "_COST_MILLER", costs[0])
+    monkeypatch.setattr(statistics, "_COST_LEVEL", costs[1])
+    monkeypatch.setattr(statistics, "_COST_EXTEND", costs[2])
+    cumulative = statistics._mb_max_cumulative(n, r, n)
+    lo = -(-n // r)
+    assert sorted(cumulative) == list(range(lo, n + 1))
+    for m, value in cumulative.items():
+        assert value == count_microstates(Occupancy(balls=n, urns=r, rule="MB", capacity=m))
+
+
+@pytest.mark.parametrize("n, r", [(40, 6), (25, 5), (13, 2), (50, 24)])
+def test_mb_at_least_equals_the_egf_power(n, r):
+    for m in range(0, n // r + 2):
+        expected = count_microstates(Occupancy(balls=n, urns=r, rule="MB", minimum=m)) if n >= r * m else 0
+        assert statistics._mb_at_least(n, r, m) == expected
+
+
+def test_be_maximum_rows_equal_the_capacity_counts():
+    for n, r, a in [(30, 4, 0), (40, 6, 2), (9, 9, 1)]:
+        lo = max(a, -(-n // r))
+        rows = statistics._be_max_cumulative(n, r, a, lo, n)
+        for m, value in rows.items():
+            expected = count_configurations(Occupancy(balls=n, urns=r, rule="BE", capacity=m, minimum=a))
+            assert value == expected
+
+
+def test_maximum_with_a_capacity_stops_at_the_capacity():
+    model = Occupancy(balls=30, urns=8, rule="MB", capacity=6)
+    law = distribution(model, "max")
+    assert max(law.pmf) == 6 and min(law.pmf) == 4
+    # brute-force-free check: P(max <= 5) is the capacity-5 count over the capacity-6 one
+    below = Fraction(count_microstates(Occupancy(balls=30, urns=8, rule="MB", capacity=5)),
+                     count_microstates(model))
+    assert law.pmf[6] == 1 - below
+
+
+# ---------------------------------------------------------------- outside references
+
+def feller_empty(n: int, r: int, m: int) -> Fraction:
+    """P(exactly m of r cells empty) for n balls, Feller vol. 1, ch. IV, eq. (2.4) (from memory):
+    C(r, m) sum_k (-1)^k C(r-m, k) (1 - (m+k)/r)^n."""
+    return math.comb(r, m) * sum(
+        (-1) ** k * math.comb(r - m, k) * Fraction(r - m - k, r) ** n for k in range(r - m + 1)
+    )
+
+
+@pytest.mark.parametrize("n, r", [(7, 5), (20, 7), (40, 10), (10, 30), (100, 60)])
+def test_empty_cells_follow_the_classical_formula(n, r):
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "empty")
+    expected = {m: feller_empty(n, r, m) for m in range(r + 1) if feller_empty(n, r, m)}
+    assert law.pmf == expected
+
+
+@pytest.mark.parametrize("n, r", [(1, 1), (5, 3), (25, 10), (500, 100), (2000, 333)])
+def test_mean_and_variance_of_empty_cells(n, r):
+    # E = r (1 - 1/r)^n (Feller vol. 1, ch. IV; common practice), and
+    # Var = r (1-1/r)^n + r (r-1) (1-2/r)^n - r^2 (1-1/r)^(2n) (from memory)
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "empty")
+    q1, q2 = Fraction(r - 1, r), Fraction(r - 2, r)
+    assert law.mean == r * q1 ** n
+    assert law.variance == r * q1 ** n + r * (r - 1) * q2 ** n - r * r * q1 ** (2 * n)
+
+
+@pytest.mark.parametrize("n, r", [(12, 5), (30, 12), (200, 50)])
+def test_occupied_cells_are_surjections_counted_by_sympy_stirling(n, r):
+    # P(occupied = j) = C(r, j) j! S(n, j) / r^n, with SymPy's Stirling numbers of the second kind
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "occupied")
+    for j in range(r + 1):
+        s2 = int(sympy.functions.combinatorial.numbers.stirling(n, j))
+        assert law.probability(j) == Fraction(math.comb(r, j) * math.factorial(j) * s2, r ** n)
+
+
+@pytest.mark.parametrize("n, r", [(10, 4), (57, 9), (300, 7)])
+def test_one_urn_under_mb_is_binomial_per_scipy(n, r):
+    # the occupancy of one urn is Binomial(n, 1/r) (scipy.stats.binom)
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "urn:2")
+    for v in range(n + 1):
+        reference = scipy.stats.binom.pmf(v, n, 1 / r)
+        assert float(law.probability(v)) == pytest.approx(reference, rel=1e-9, abs=1e-300)
+    assert law.mean == Fraction(n, r)
+    assert law.variance == Fraction(n * (r - 1), r * r)
+
+
+@pytest.mark.parametrize("n, r", [(10, 4), (40, 9), (200, 3)])
+def test_one_urn_under_be_is_beta_binomial_per_scipy(n, r):
+    # BE is uniform over compositions: Dirichlet-multinomial with all alphas 1, so one
+    # urn is BetaBinomial(n, 1, r - 1) (scipy.stats.betabinom)
+    law = distribution(Occupancy(balls=n, urns=r, rule="BE"), "urn:1")
+    for v in range(n + 1):
+        reference = scipy.stats.betabinom.pmf(v, n, 1, r - 1)
+        assert float(law.probability(v)) == pytest.approx(reference, rel=1e-9)
+
+
+@pytest.mark.parametrize("n, r", [(5, 3), (12, 6), (100, 30)])
+def test_empty_cells_under_be(n, r):
+    # P(m empty) = C(r, m) C(n-1, r-m-1) / C(n+r-1, n) (Feller vol. 1, ch. II.11; from memory)
+    law = distribution(Occupancy(balls=n, urns=r, rule="BE"), "empty")
+    for m in range(r):
+        assert law.probability(m) == Fraction(math.comb(r, m) * math.comb(n - 1, r - m - 1), math.comb(n + r - 1, n))
+
+
+def test_fd_leaves_exactly_r_minus_n_urns_empty():
+    law = distribution(Occupancy(balls=4, urns=9, rule="FD"), "empty")
+    assert law.pmf == {5: Fraction(1)}
+    assert law.variance == 0
+
+
+def test_birthday_problem_through_the_maximum():
+    # P(23 birthdays all distinct) = 365!/(342! 365^23) = 0.4927027656... (well known; from memory)
+    law = distribution(Occupancy(balls=23, urns=365, rule="MB"), "max")
+    assert law.probability(1) == Fraction(math.perm(365, 23), 365 ** 23)
+    assert float(law.probability(1)) == pytest.approx(0.4927027656, abs=1e-10)
+    assert law.probability(23) == Fraction(365, 365 ** 23)
+
+
+def test_three_balls_in_three_cells_profiles():
+    # Feller vol. 1, ch. I: of the 27 MB arrangements, 3 put all balls in one cell,
+    # 18 give the pattern (2, 1, 0) and 6 put one ball in each cell (from memory);
+    # under BE each of the 10 vectors counts once.
+    mb = distribution(Occupancy(balls=3, urns=3, rule="MB"), "profile")
+    assert mb.pmf == {(1, 1, 1): Fraction(6, 27), (2, 1, 0): Fraction(18, 27), (3, 0, 0): Fraction(3, 27)}
+    be = distribution(Occupancy(balls=3, urns=3, rule="BE"), "profile")
+    assert be.pmf == {(1, 1, 1): Fraction(1, 10), (2, 1, 0): Fraction(6, 10), (3, 0, 0): Fraction(3, 10)}
+
+
+def test_number_of_profiles_is_the_partition_count():
+    # partitions of 12 into at most 4 parts: 34 (OEIS A001400, a(12) = 34; from memory)
+    law = distribution(Occupancy(balls=12, urns=4, rule="BE"), "profile")
+    assert len(law.pmf) == 34
+    assert all(len(p) == 4 and list(p) == sorted(p, reverse=True) and sum(p) == 12 for p in law.pmf)
+
+
+def test_exactly_and_at_least_agree_with_each_other_on_a_larger_model():
+    # count(>= J) - count(>= J+1) is count(== J) in distribution: the means must agree
+    model = Occupancy(balls=300, urns=40, rule="MB")
+    at2, at3, ex2 = (distribution(model, s) for s in ("atleast:2", "atleast:3", "exactly:2"))
+    assert ex2.mean == at2.mean - at3.mean
+    # E[#urns with exactly 2] = r C(n, 2) (1/r)^2 (1 - 1/r)^(n-2) (binomial occupancy; common practice)
+    assert ex2.mean == 40 * math.comb(300, 2) * Fraction(1, 40) ** 2 * Fraction(39, 40) ** 298
+
+
+def test_per_urn_bounds_with_many_groups_fall_back_to_listing(monkeypatch):
+    model = Occupancy(balls=6, bounds=[(0, 3), (1, 4), (0, None), (2, 5)], rule="MB")
+    monkeypatch.setattr(statistics, "GROUP_TUPLE_LIMIT", 1)
+    assert distribution(model, "exactly:2").pmf == brute_law(model, "exactly:2")
+    with pytest.raises(TooLarge, match="raise limit="):
+        distribution(model, "exactly:2", limit=3)
+
+
+def test_large_mb_maximum_is_exact_and_sums_to_one():
+    law = distribution(Occupancy(balls=400, urns=60, rule="MB"), "max")
+    assert sum(law.pmf.values()) == 1
+    assert sorted(law.pmf) == list(range(7, 401))
+    assert law.probability(400) == Fraction(60, 60 ** 400)
+    # above n/2 only one urn can reach m: P(max = m) = r C(n, m) (r-1)^(n-m) / r^n (common practice)
+    for m in (201, 250, 399):
+        assert law.probability(m) == Fraction(60 * math.comb(400, m) * 59 ** (400 - m), 60 ** 400)
+
+
+# ---------------------------------------------------------------- errors and API
+
+def test_statistic_names():
+    assert parse_statistic(" Urn : 3 ") == Statistic("urn", 3)
+    assert parse_statistic("ATLEAST:0").name == "atleast:0"
+    assert [parse_statistic(s).name for s in ("empty", "max", "profile")] == ["empty", "max", "profile"]
+
+
+@pytest.mark.parametrize("text, message", [
+    ("maximum", "unknown statistic 'maximum'; choose empty, occupied, max, min, urn:I (I = 1..r), "
+                "exactly:J, atleast:J or profile"),
+    ("max:2", "statistic 'max' takes no number (got 'max:2'); write just 'max'"),
+    ("urn", "statistic 'urn' needs a number after a colon, urn:I (for example 'urn:1')"),
+    ("urn:0", "urns are numbered from 1 (got 'urn:0'); write urn:1 for the first urn"),
+    ("exactly:-1", "the number in statistic 'exactly:-1' must be a whole number >= 0 (for example 'exactly:2')"),
+    ("atleast:x", "the number in statistic 'atleast:x' must be a whole number >= 0 (for example 'atleast:2')"),
+])
+def test_malformed_statistics_are_rejected(text, message):
+    with pytest.raises(InvalidParameters) as info:
+        distribution(Occupancy(balls=3, urns=3), text)
+    assert str(info.value) == message
+
+
+def test_urn_beyond_the_model_is_rejected():
+    with pytest.raises(InvalidParameters, match=r"names urn 4, but the model has 3 urns; use urn:1 to urn:3"):
+        distribution(Occupancy(balls=3, urns=3), "urn:4")
+
+
+def test_model_without_configurations_has_no_distribution():
+    with pytest.raises(InvalidParameters, match="admits no configuration"):
+        distribution(Occupancy(balls=9, urns=2, rule="BE", capacity=4), "max")
+
+
+def test_too_many_profiles_name_the_limit():
+    with pytest.raises(TooLarge, match=r"has 34 occupancy profiles, above the limit 10; raise limit= \(CLI: --limit\)"):
+        distribution(Occupancy(balls=12, urns=4, rule="BE"), "profile", limit=10)
+
+
+def test_distribution_object():
+    law = distribution(Occupancy(balls=2, urns=2, rule="MB"), "urn:1")
+    assert isinstance(law, Distribution)
+    assert law.statistic == "urn:1"
+    assert law.support == [0, 1, 2]
+    assert law.probability(1) == Fraction(1, 2) and law.probability(5) == 0
+    assert distribution(Occupancy(balls=3, urns=3), "profile").probability([2, 1, 0]) == Fraction(2, 3)
