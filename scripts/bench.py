@@ -323,10 +323,11 @@ class Context:
         time at full size is extrapolated with the steepest growth per
         doubling seen between runs of at least 10 ms (shorter ones jitter on
         a busy machine), at least 2 (the answer grows at least linearly) and
-        taken as 4 until measured.  The ladder jumps to the full size when the
-        extrapolation is 8 times below the per-call limit, and stops,
-        skipping the peer, when the next doubling is expected to pass the
-        limit.  The caller still runs the full size under a time limit.
+        taken as 4 until measured.  The ladder climbs to half the size (about
+        as much work again as the full call, when the cost is at least
+        linear) unless it stops, skipping the peer, because the next doubling
+        is expected to pass the limit.  The caller still runs the full size
+        under a time limit, since extrapolation can miss either way.
         """
         limit = self.call_limit
         previous = None
@@ -344,8 +345,6 @@ class Context:
                 measured = True
             growth = steepest
             full = dt * growth ** doublings
-            if previous is not None and dt >= 1e-3 and 8 * full <= limit:
-                return True, "", full
             if dt > limit or (previous is not None and dt * growth > limit):
                 bound = "" if previous is not None else "at least "
                 note = (f"skipped: too slow (>{limit:g}s): estimated {bound}{fmt_time(full)} "
@@ -353,7 +352,7 @@ class Context:
                 return False, note, full
             previous = dt
             s *= 2
-        return True, "", None
+        return True, "", full
 
     def measure(self, method: Method, guard: bool) -> Measurement:
         if guard and method.scaled is not None:
