@@ -68,6 +68,7 @@ from typing import Dict, List, Optional, Sequence, Tuple, Union
 
 import gmpy2
 
+from .counting import count_configurations
 from .errors import InvalidParameters, TooLarge
 from .model import Occupancy, Rule, as_count
 from .statistics import DEFAULT_LIMIT, Statistic, outcome_count, statistic_counts
@@ -870,7 +871,7 @@ def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[boo
     """Outcomes satisfying *node*, by listing every admissible configuration."""
     import numpy as np
 
-    total = model.configurations()
+    total = count_configurations(model)
     if total > limit:
         raise TooLarge(
             f"the event {text!r} has no exact shortcut here (it mixes counting statistics), so it needs all "

@@ -1208,7 +1208,7 @@ def _arrangements(multiplicity: Counter, groups) -> int:
 
 def _enumerated_counts(model: Occupancy, label: str, limit: int, value: Callable) -> Dict:
     """Counts of ``value(k)`` by listing every admissible configuration (refused above *limit*)."""
-    how_many = model.configurations()
+    how_many = count_configurations(model)
     if how_many > limit:
         raise TooLarge(
             f"{label} for these per-urn bounds needs all {how_many} configurations listed, "
