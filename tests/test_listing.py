@@ -171,7 +171,7 @@ def test_small_order_example():
 @pytest.mark.parametrize(
     "model",
     [
-        Occupancy(balls=12, urns=6, rule="BE"),
+        Occupancy(balls=12, urns=5, rule="BE"),
         Occupancy(balls=12, urns=7, rule="BE", capacity=3),
         Occupancy(balls=11, bounds=[(0, None), (1, 3), (0, 0), (2, None), (0, 5), (0, 2), (1, 4)], rule="MB"),
         Occupancy(balls=6, urns=12, rule="FD"),
