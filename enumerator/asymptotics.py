@@ -84,6 +84,7 @@ __all__ = [
     "describe_order",
     "empty_urns_at_most",
     "observed_order",
+    "parse_factor",
     "parse_pattern",
     "parse_range",
     "parse_tie",
@@ -113,7 +114,9 @@ class Point:
     ``balls`` (``n``) and ``urns`` (``r``) as in :class:`~enumerator.model.Occupancy`;
     ``rule``, ``capacity`` and ``minimum`` for the saddle-point entry; ``at``
     the ``j`` of the empty-urn and profile entries; ``pattern`` the shape of
-    the configurations of the entropy entry.  Fields an approximation does
+    the configurations of the entropy entry; ``factor`` the Boltzmann factor
+    ``e^{-ε/T}`` (a ``Fraction`` in ``(0, 1)``) of the grand-canonical entry.
+    Fields an approximation does
     not use stay ``None``.
     """
 
@@ -124,6 +127,7 @@ class Point:
     minimum: Optional[int] = None
     at: Optional[int] = None
     pattern: Optional[Tuple[int, ...]] = None
+    factor: Optional[Fraction] = None
 
     def value(self, name: str) -> Optional[int]:
         """The parameter *name* (``"balls"``, ``"urns"``, ...)."""
@@ -754,9 +758,142 @@ class Boltzmann(Approximation):
         return (1 - q) * q**j
 
 
+class GrandCanonical(Approximation):
+    r"""Grand-canonical occupation formulas against the exact canonical occupations.
+
+    The system: ``N`` identical particles (the balls) on ``r`` equally spaced
+    non-degenerate single-particle levels ``ε_i = i`` (the urns; a harmonic
+    oscillator truncated to ``r`` levels), at the temperature whose Boltzmann
+    factor ``t = e^{-1/T}`` is the rational ``factor`` (default ½, i.e.
+    ``T = 1/ln 2`` in units of the level spacing).  Rule BE (default) or FD.
+
+    Exact: the canonical mean occupation of level ``j`` (``at``, default 0),
+    ``<n_j> = sum_k w_k t^{kj} Z_{N-k} / Z_N`` with the particle-number
+    recursion ``M Z_M = sum_{k=1}^{M} w_k Z_1(t^k) Z_{M-k}`` (``w_k = 1`` for
+    BE, ``(-1)^{k+1}`` for FD; P. Borrmann & G. Franke, *Recursion formulas
+    for quantum statistical partition functions*, J. Chem. Phys. 98, 1993;
+    P. Borrmann, J. Harting, O. Mülken & E. Hilf, Phys. Rev. A 60, 1999).
+    With ``t = p/q`` every ``q^{M(r-1)} Z_M`` is an integer, so the
+    recursion runs in exact integers (one exact division by ``M`` per step)
+    and ``<n_j>`` is an exact fraction.  Cost ``O(N^2)`` products of
+    ``N r log q``-bit integers.
+
+    Approximation: the grand-canonical formula ``1/(e^{(ε_j - μ)/T} ∓ 1)``
+    at the ``μ`` that makes the mean total ``N``
+    (:func:`enumerator.levels.grand_canonical`, given ``T`` as a fraction
+    within ``10^{-(P+10)}`` of ``1/ln(1/t)`` at working precision ``P``).
+
+    Expected, and observed: bosons with ``r`` tied to ``N`` (``--urns
+    balls``) converge; the grand-canonical fugacity is ``1 - O(1/N)``, which
+    shifts each excited occupation by ``O(1/N)`` (order 1 at ``j >= 1``) and
+    the ground level by ``O(1/N)`` out of ``N`` (order 2 at ``j = 0``).
+    Fermions in this one-dimensional spectrum at fixed ``T`` do not
+    converge: the grand-canonical number fluctuation stays ``O(1)`` however
+    large ``N`` is, so the ensembles stay apart at the Fermi level.
+
+    Source of the approximation: the Bose–Einstein and Fermi–Dirac
+    distributions of the grand canonical ensemble, R. K. Pathria &
+    P. D. Beale, *Statistical Mechanics*, 3rd ed., 2011, ch. 6.
+    """
+
+    name = "grand-canonical"
+    quantity = "the canonical mean occupation of level j (--at, default 0), N particles on r levels ε_i = i"
+    formula = "grand-canonical 1/(e^{(ε_j-μ)/T} ∓ 1), μ fixed by mean N, T = 1/ln(1/factor)"
+    source = "Pathria & Beale 2011, ch. 6; exact side: Borrmann & Franke 1993, Borrmann et al. 1999"
+    order = Fraction(2)
+    regime = "BE ground level, urns tied to balls (e.g. --urns balls), fixed --factor"
+    uses = ("urns", "rule", "at", "factor")
+    #: Largest ``N^3 r log2(q)`` (bit operations, roughly) of the exact recursion.
+    WORK_LIMIT = 6 * 10**9
+
+    def check(self, point):
+        point = super().check(point)
+        rule = Rule.parse(point.rule or "BE")
+        if rule is Rule.MB:
+            raise InvalidParameters(
+                "for MB the grand-canonical occupation equals the canonical one exactly; choose --rule BE or FD"
+            )
+        factor = Fraction(1, 2) if point.factor is None else parse_factor(point.factor)
+        at = 0 if point.at is None else as_count(point.at, "at")
+        n, r = point.balls, point.urns
+        if at >= r:
+            raise InvalidParameters(f"at is {at} but the levels are 0..{r - 1}; give --at below urns")
+        if n < 1:
+            raise InvalidParameters("grand-canonical needs at least 1 particle (balls >= 1)")
+        if rule is Rule.FD and n >= r:
+            raise InvalidParameters(
+                f"{n} fermions fill {r} levels completely (every occupation is exactly 1); give urns > balls"
+            )
+        work = n**3 * r * max(1, factor.denominator.bit_length())
+        if work > self.WORK_LIMIT:
+            raise TooLarge(
+                f"the exact canonical recursion for {n} particles on {r} levels is too large "
+                f"(about {work:.1e} bit operations, limit {self.WORK_LIMIT:.0e}); use fewer balls or urns"
+            )
+        return replace(point, rule=rule.value, at=at, factor=factor)
+
+    def exact(self, point):
+        n, r, j, t = point.balls, point.urns, point.at, point.factor
+        p, q = gmpy2.mpz(t.numerator), gmpy2.mpz(t.denominator)
+        top = r - 1
+        fermions = point.rule == "FD"
+        weights = [0] + [(-1 if fermions and k % 2 == 0 else 1) for k in range(1, n + 1)]
+        # S_k = q^{k(r-1)} Z_1(t^k) = sum_i p^{ki} q^{k(r-1-i)}
+        singles = [gmpy2.mpz(0)]
+        for k in range(1, n + 1):
+            pk, qk = p**k, q**k
+            term = total = qk**top
+            for _ in range(top):
+                term = gmpy2.divexact(term, qk) * pk
+                total += term
+            singles.append(total)
+        scaled = [gmpy2.mpz(1)]  # q^{M(r-1)} Z_M
+        for m in range(1, n + 1):
+            acc = gmpy2.mpz(0)
+            for k in range(1, m + 1):
+                acc += weights[k] * singles[k] * scaled[m - k]
+            scaled.append(gmpy2.divexact(acc, m))
+        numerator = gmpy2.mpz(0)
+        for k in range(1, n + 1):
+            numerator += weights[k] * p ** (k * j) * q ** (k * (top - j)) * scaled[n - k]
+        return Fraction(int(numerator), int(scaled[n]))
+
+    def approximate(self, point):
+        from . import levels
+
+        dps = mpmath.mp.dps
+        t = point.factor
+        temperature = 1 / mpmath.log(mpf(t.denominator) / t.numerator)
+        as_fraction = Fraction(mpmath.nstr(temperature, dps + 10, min_fixed=-mpmath.inf, max_fixed=mpmath.inf))
+        system = levels.System.create(levels.harmonic_oscillator(point.urns), point.balls, point.rule)
+        _, occupations = levels.grand_canonical(system, as_fraction, digits=dps, levels=point.at + 1)
+        return +occupations[point.at]
+
+
+def parse_factor(value) -> Fraction:
+    """A Boltzmann factor ``e^{-ε/T}``: an exact fraction strictly between 0 and 1 (``"1/2"``, ``"0.3"``)."""
+    if isinstance(value, Fraction):
+        number = value
+    elif isinstance(value, (int, str)) and not isinstance(value, bool):
+        try:
+            number = Fraction(str(value).strip())
+        except (ValueError, ZeroDivisionError):
+            raise InvalidParameters(
+                f"factor must be a fraction like 1/2 or 0.3 (got {value!r})"
+            ) from None
+    else:
+        raise InvalidParameters(f"factor must be an exact fraction like 1/2, not {type(value).__name__}")
+    if not 0 < number < 1:
+        raise InvalidParameters(
+            f"factor is e^(-spacing/T), so it must lie strictly between 0 and 1 (got {number})"
+        )
+    return number
+
+
 def _build_catalogue() -> Dict[str, Approximation]:
     entries: List[Approximation] = [StirlingBE(k) for k in (1, 2, 3)]
-    entries += [Entropy(), Birthday(), EmptyMean(), EmptyPoisson(), EmptyNormal(), Saddle(), Boltzmann()]
+    entries += [Entropy(), Birthday(), EmptyMean(), EmptyPoisson(), EmptyNormal(), Saddle(), Boltzmann(),
+                GrandCanonical()]
     return {entry.name: entry for entry in entries}
 
 
@@ -1147,8 +1284,9 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
     from START to STOP (rounded, duplicates dropped; the default is 10 such
     points).  Every other keyword (``balls``, ``urns``, ``capacity``,
     ``minimum``, ``at``) is an ``int`` or a :class:`Tie` expression of the
-    varied name (``urns="balls//2"``); ``rule`` is a rule name and
-    ``pattern`` a sequence of whole numbers, both fixed.  Without *vary* the
+    varied name (``urns="balls//2"``); ``rule`` (a rule name), ``pattern``
+    (whole numbers, ``"3,2,1"``) and ``factor`` (a fraction, ``"1/2"``) are
+    fixed.  Without *vary* the
     result is the single point of fixed values.
 
     Returns ``(variable, points)``.
@@ -1157,7 +1295,7 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
     Point(balls=20, urns=10, rule=None, capacity=None, minimum=None, at=None, pattern=None)
     """
     fixed = {k: v for k, v in parameters.items() if v is not None}
-    unknown = set(fixed) - set(NUMERIC) - {"rule", "pattern"}
+    unknown = set(fixed) - set(NUMERIC) - {"rule", "pattern", "factor"}
     if unknown:
         raise InvalidParameters(f"unknown parameter(s) {', '.join(sorted(unknown))}")
     if vary is None:
@@ -1189,6 +1327,7 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
             minimum=numbers.get("minimum"),
             at=numbers.get("at"),
             pattern=pattern,
+            factor=None if fixed.get("factor") is None else parse_factor(fixed["factor"]),
         ))
     return variable, points
 
@@ -1250,7 +1389,7 @@ def comparison_table(comparison: Comparison) -> Tuple[List[str], List[List[str]]
     the approximation is shown to 10 digits, the errors to 4.
     """
     entry = comparison.approximation
-    extra = [name for name in ("capacity", "minimum", "at") if name in entry.uses]
+    extra = [name for name in ("capacity", "minimum", "at", "factor") if name in entry.uses]
     log = entry.scale == "log"
     columns = ["balls", "urns"] + extra + [
         "exact", "approx",
@@ -1305,7 +1444,7 @@ def catalogue_rows() -> List[dict]:
 
 
 CSV_COLUMNS = (
-    "approximation", "balls", "urns", "capacity", "minimum", "at", "exact", "approx",
+    "approximation", "balls", "urns", "capacity", "minimum", "at", "factor", "exact", "approx",
     "absolute_error_approx", "relative_error_approx", "local_order_approx",
 )
 
@@ -1339,6 +1478,7 @@ def comparisons_csv(comparisons: Sequence[Comparison]) -> str:
                 p.capacity if "capacity" in uses else "",
                 p.minimum if "minimum" in uses else "",
                 p.at if "at" in uses else "",
+                p.factor if "factor" in uses else "",
                 exact_text(row.exact), row.approx_text(),
                 _float_text(row.absolute_error_approx), _float_text(row.relative_error_approx),
                 _float_text(local),

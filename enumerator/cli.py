@@ -1491,6 +1491,11 @@ def compare_command(
         typer.Option("--pattern", metavar="W1,W2,...", rich_help_panel=_SWEEP,
                      help="entropy: configurations proportional to this pattern (default: equal shares)."),
     ] = None,
+    factor: Annotated[
+        Optional[str],
+        typer.Option("--factor", metavar="P/Q", rich_help_panel=_SWEEP,
+                     help="grand-canonical: Boltzmann factor e^(-spacing/T), a fraction in (0, 1) (default 1/2)."),
+    ] = None,
     as_csv: Annotated[
         bool, typer.Option("--csv", rich_help_panel=_OUTPUT, help="Print CSV rows (exact values whole)."),
     ] = False,
@@ -1525,6 +1530,7 @@ def compare_command(
         $ enumerator compare birthday --balls 23 --urns 365 --json
         $ enumerator compare stirling1,stirling2,stirling3 --vary balls=10..1000 --urns balls --plot stirling.png
         $ enumerator compare saddle --vary balls=100..10000 --urns "balls//2" --capacity 3 --csv
+        $ enumerator compare grand-canonical --vary balls=10..160 --urns balls --factor 1/2
     """
     from . import asymptotics
     from .errors import InvalidParameters
@@ -1551,7 +1557,7 @@ def compare_command(
     with store_scope(store, no_cache):
         comparisons = asymptotics.compare_sweep(
             names, vary, step=step, geometric=geometric, balls=balls, urns=urns, rule=rule,
-            capacity=capacity, minimum=minimum, at=at, pattern=pattern,
+            capacity=capacity, minimum=minimum, at=at, pattern=pattern, factor=factor,
         )
     if plot is not None:
         asymptotics.plot_comparisons(comparisons, plot)

@@ -601,7 +601,88 @@ def test_csv_and_plot(tmp_path):
     assert len(lines) == 1 + 12
     first = lines[1].split(",")
     assert first[0] == "stirling1" and first[1] == "10" and first[2] == "10"
-    assert first[6] == str(math.comb(19, 10))  # exact C(n+r-1, n) (common practice)
+    assert first[CSV_COLUMNS.index("exact")] == str(math.comb(19, 10))  # exact C(n+r-1, n) (common practice)
     path = tmp_path / "errors.png"
     plot_comparisons(results, str(path))
     assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)
+
+
+# ---------------------------------------------------------------------------
+# Grand-canonical against exact canonical occupations
+# ---------------------------------------------------------------------------
+def _canonical_brute(n, r, j, t, rule):
+    """<k_j> with weight t^(sum i k_i) over every BE (or FD) vector, by enumeration."""
+    model = Occupancy(balls=n, urns=r, rule=rule)
+    top = bottom = Fraction(0)
+    for k in reference.box(model):
+        weight = t ** sum(i * v for i, v in enumerate(k))
+        top += k[j] * weight
+        bottom += weight
+    return top / bottom
+
+
+@settings(max_examples=30, deadline=None)
+@given(n=st.integers(1, 6), r=st.integers(2, 5), rule=st.sampled_from(["BE", "FD"]),
+       t=st.sampled_from([Fraction(1, 2), Fraction(1, 3), Fraction(2, 3), Fraction(9, 10)]), data=st.data())
+def test_canonical_exact_side_is_brute_force(n, r, rule, t, data):
+    if rule == "FD" and n >= r:
+        return
+    j = data.draw(st.integers(0, r - 1))
+    row = compare("grand-canonical", [Point(balls=n, urns=r, rule=rule, at=j, factor=t)]).rows[0]
+    assert row.exact == _canonical_brute(n, r, j, t, rule)
+
+
+@pytest.mark.parametrize("rule,n,r", [("BE", 30, 30), ("FD", 12, 25)])
+def test_canonical_exact_side_matches_levels_recursion(rule, n, r):
+    # enumerator.levels evaluates the Borrmann–Franke recursion in mpmath at a
+    # temperature; T = 1/ln 2 given to 60 digits is t = 1/2 to that accuracy.
+    from enumerator import levels
+
+    with mpmath.workdps(70):
+        temperature = Fraction(mpmath.nstr(1 / mpmath.log(2), 60))
+    system = levels.System.create(levels.harmonic_oscillator(r), n, rule)
+    occupations = levels.canonical_occupations(system, [temperature], digits=40)[0]
+    for j in (0, 1, n // 2):
+        row = compare("grand-canonical", [Point(balls=n, urns=r, rule=rule, at=j)]).rows[0]
+        with mpmath.workdps(40):
+            assert abs(_mp(row.exact) - occupations[j]) < mpmath.mpf(10) ** -30
+
+
+def test_grand_canonical_side_is_the_bose_einstein_formula():
+    # Pathria & Beale 2011, ch. 6: <n_i> = 1/(z^{-1} t^{-i} - 1) with the
+    # fugacity z fixed by sum_i <n_i> = N; solved here with mpmath.findroot.
+    n, r = 20, 12
+    row = compare("grand-canonical", [Point(balls=n, urns=r, at=2, factor=Fraction(1, 3))]).rows[0]
+    with mpmath.workdps(50):
+        t = mpmath.mpf(1) / 3
+        def total(z):
+            return mpmath.fsum(1 / (t ** -i / z - 1) for i in range(r)) - n
+        z = mpmath.findroot(total, (mpmath.mpf(n) / (n + 1) - mpmath.mpf("0.05"), 1 - mpmath.mpf(10) ** -6),
+                            solver="anderson")
+        assert abs(row.approx - 1 / (t ** -2 / z - 1)) < mpmath.mpf(10) ** -30
+
+
+def test_ensembles_converge_for_bosons_not_for_fermions_at_fixed_temperature():
+    # Fugacity 1 - O(1/N) (derivation in the GrandCanonical docstring):
+    # ground level order 2, excited level order 1; 1D fermions at fixed T keep
+    # an O(1) number fluctuation, so they do not converge.
+    ground = rows_of("grand-canonical", "balls=10..160", geometric=5, urns="balls")
+    assert ground.order_approx == pytest.approx(2, abs=0.1)
+    excited = rows_of("grand-canonical", "balls=10..160", geometric=5, urns="balls", at=1)
+    assert excited.order_approx == pytest.approx(1, abs=0.1)
+    fermi = rows_of("grand-canonical", "balls=10..80", geometric=4, urns="balls*2", at="balls", rule="FD")
+    assert abs(fermi.order_approx) < 0.05
+    assert float(fermi.rows[-1].relative_error_approx) > 0.05
+
+
+@pytest.mark.parametrize("point,error,message", [
+    (Point(balls=5, urns=5, rule="MB"), InvalidParameters, "equals the canonical one exactly"),
+    (Point(balls=5, urns=5, at=5), InvalidParameters, "give --at below urns"),
+    (Point(balls=5, urns=5, rule="FD"), InvalidParameters, "fill 5 levels completely"),
+    (Point(balls=5, urns=5, factor="3/2"), InvalidParameters, "strictly between 0 and 1"),
+    (Point(balls=5, urns=5, factor="half"), InvalidParameters, "factor must be a fraction like 1/2"),
+    (Point(balls=5000, urns=5000), TooLarge, "use fewer balls or urns"),
+])
+def test_grand_canonical_errors(point, error, message):
+    with pytest.raises(error, match=message):
+        compare("grand-canonical", [point])

@@ -189,3 +189,24 @@ def test_titles_print_brackets_literally():
     result = run("saddle", "--balls", 100, "--urns", 50, "--capacity", 3)
     assert result.exit_code == 0, result.output
     assert "[x^n] B(x)^r" in result.stdout
+
+
+def test_grand_canonical_with_factor():
+    payload = run_json("grand-canonical", "--vary", "balls=10..40", "--step", 10, "--urns", "balls", "--factor", "1/2")
+    assert [row["balls"] for row in payload["rows"]] == [10, 20, 30, 40]
+    # canonical <n_0> for 10 bosons on 10 levels at t = 1/2, by brute force over
+    # all C(19, 9) occupancy vectors, listed as stars and bars (itertools)
+    import itertools
+
+    top = bottom = Fraction(0)
+    for bars in itertools.combinations(range(19), 9):
+        edges = (-1, *bars, 19)
+        k = [edges[i + 1] - edges[i] - 1 for i in range(10)]
+        w = Fraction(1, 2) ** sum(i * v for i, v in enumerate(k))
+        top += k[0] * w
+        bottom += w
+    assert payload["rows"][0]["exact"] == str(top / bottom)
+    assert payload["order_approx"] == pytest.approx(2, abs=0.15)  # ground level of bosons
+    result = run("grand-canonical", "--balls", 5, "--urns", 5, "--factor", "2")
+    assert result.exit_code == 2
+    assert "strictly between 0 and 1" in result.stderr
