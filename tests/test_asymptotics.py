@@ -686,3 +686,34 @@ def test_ensembles_converge_for_bosons_not_for_fermions_at_fixed_temperature():
 def test_grand_canonical_errors(point, error, message):
     with pytest.raises(error, match=message):
         compare("grand-canonical", [point])
+
+
+# ---------------------------------------------------------------------------
+# Cross-checks with enumerator.statistics (another route through the engine)
+# ---------------------------------------------------------------------------
+@pytest.mark.parametrize("n,r", [(40, 12), (200, 60), (500, 100)])
+def test_empty_urn_quantities_match_the_statistics_module(n, r):
+    # statistics.distribution(..., "empty") uses binomial moments and an
+    # inverse binomial transform, not the formulas used here (Feller §IV.2).
+    from enumerator.statistics import distribution
+
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "empty")
+    cumulative = Fraction(0)
+    for j in range(0, 12):
+        cumulative += law.probability(j)
+        assert empty_urns_at_most(n, r, j) == cumulative
+    assert compare("empty-mean", [Point(balls=n, urns=r)]).rows[0].exact == law.mean
+    mean = law.mean
+    # Var = r(r-1)(1-2/r)^n + mean - mean² (Feller vol. 1, ch. IX, from memory)
+    assert law.variance == Fraction(r * (r - 1) * (r - 2) ** n, r**n) + mean - mean * mean
+
+
+@pytest.mark.parametrize("n,r,j", [(30, 10, 0), (30, 10, 2), (100, 40, 5)])
+def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
+    from enumerator.statistics import distribution
+
+    model = Occupancy(balls=n, urns=r, rule="BE")
+    mean_count = distribution(model, f"exactly:{j}").mean
+    row = compare("boltzmann", [Point(balls=n, urns=r, at=j)]).rows[0]
+    assert row.exact == mean_count / r
+    assert row.exact == distribution(model, "urn:1").probability(j)
