@@ -88,6 +88,7 @@ from __future__ import annotations
 
 import math
 import operator
+import sys
 from bisect import bisect_left
 from itertools import accumulate, chain, islice, repeat
 from typing import Iterator, List, Optional, Tuple
@@ -119,10 +120,12 @@ BLOCK_TABLE_BUDGET = 4 * 2**20
 class _Plan:
     """Shifted description of a model: ``x_i = k_i - a_i``, ``0 <= x_i <= c_i``, sum ``N``."""
 
-    __slots__ = ("r", "n", "N", "lows", "caps", "rest", "empty", "dtype", "memo")
+    # No reference back to the model or its memo: the memo holds the plan and
+    # the tables, and a cycle would keep megabytes of tables alive until the
+    # cyclic collector ran (never, with gc disabled).
+    __slots__ = ("r", "n", "N", "lows", "caps", "rest", "empty", "dtype", "__weakref__")
 
     def __init__(self, model):
-        self.memo = model._memo
         self.n = model.balls
         self.r = model.urns
         self.lows = tuple(a for a, _ in model.bounds)
@@ -424,10 +427,10 @@ class _SuffixTable:
         return got
 
 
-def _table(plan: _Plan, mode: str):
+def _table(memo: dict, plan: _Plan, mode: str):
     """``(t, table)`` for ``mode`` "tuples" or "blocks"; ``table`` is None when the last two urns are ranges."""
     key = "listing.table." + mode
-    got = plan.memo.get(key)
+    got = memo.get(key)
     if got is None:
         if mode == "tuples":
             column = 1 if plan.dtype == np.uint8 else 8
@@ -436,12 +439,12 @@ def _table(plan: _Plan, mode: str):
             t = _choose_suffix(plan, BLOCK_TABLE_BUDGET, 0)
         table = None
         if t >= 3:
-            other = plan.memo.get("listing.table." + ("blocks" if mode == "tuples" else "tuples"))
+            other = memo.get("listing.table." + ("blocks" if mode == "tuples" else "tuples"))
             if other is not None and other[0] == t:
                 table = other[1]
             else:
                 table = _SuffixTable(plan, plan.r - t)
-        got = plan.memo[key] = (t, table)
+        got = memo[key] = (t, table)
     return got
 
 
@@ -645,15 +648,15 @@ class _Ranker:
         return x
 
 
-def _ranker(plan: _Plan) -> _Ranker:
-    got = plan.memo.get("listing.ranker")
+def _ranker(memo: dict, plan: _Plan) -> _Ranker:
+    got = memo.get("listing.ranker")
     if got is None:
-        got = plan.memo["listing.ranker"] = _Ranker(plan)
+        got = memo["listing.ranker"] = _Ranker(plan)
     return got
 
 
-def _count(plan: _Plan) -> int:
-    return _ranker(plan).count
+def _count(memo: dict, plan: _Plan) -> int:
+    return _ranker(memo, plan).count
 
 
 # ---------------------------------------------------------------------------
@@ -698,7 +701,7 @@ def rank(model, config) -> int:
                 "only admissible configurations have a rank"
             )
     x = [v - a for v, a in zip(values, plan.lows)]
-    return _ranker(plan).rank_from(x, 0, plan.N)
+    return _ranker(model._memo, plan).rank_from(x, 0, plan.N)
 
 
 def unrank(model, index) -> Tuple[int, ...]:
@@ -725,7 +728,7 @@ def unrank(model, index) -> Tuple[int, ...]:
             f"rank must be a whole number (got {index!r} of type {type(index).__name__})"
         ) from None
     plan = _plan(model)
-    ranker = _ranker(plan)
+    ranker = _ranker(model._memo, plan)
     count = ranker.count
     if count == 0:
         raise InvalidParameters(
@@ -740,7 +743,7 @@ def unrank(model, index) -> Tuple[int, ...]:
     return plan.unshift(ranker.unrank(index))
 
 
-def _range(plan: _Plan, start, stop):
+def _range(memo: dict, plan: _Plan, start, stop):
     """Validate *start*/*stop*; return ``(start, total, empty)``, ``total=None`` to the end.
 
     Only a nonzero *start* needs the count (to clamp it); ``stop`` past the
@@ -752,7 +755,7 @@ def _range(plan: _Plan, start, stop):
     if plan.empty or (stop is not None and stop <= start):
         return start, None, True
     if start:
-        count = _count(plan)
+        count = _count(memo, plan)
         if start >= count:
             return start, None, True
         if stop is not None and stop >= count:
@@ -760,11 +763,11 @@ def _range(plan: _Plan, start, stop):
     return start, (None if stop is None else stop - start), False
 
 
-def _start_state(plan: _Plan, p: int, start: int):
+def _start_state(memo: dict, plan: _Plan, p: int, start: int):
     """Prefix of rank *start* and its offset inside its run: ``(x_prefix, offset)``."""
     if start == 0:
         return plan.first_prefix(p), 0
-    ranker = _ranker(plan)
+    ranker = _ranker(memo, plan)
     x = ranker.unrank(start)
     m = plan.N - sum(x[:p])
     return x[:p], ranker.rank_from(x, p, m)
@@ -795,15 +798,15 @@ def iter_configurations(model, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
         has dropped its reference (as ``itertools`` does), never while held.
     """
     plan = _plan(model)
-    start, total, empty = _range(plan, start, stop)
+    start, total, empty = _range(model._memo, plan, start, stop)
     if empty:
         return iter(())
     r = plan.r
     if r == 1:
         return iter([(plan.N + plan.lows[0],)])
-    t, table = _table(plan, "tuples")
+    t, table = _table(model._memo, plan, "tuples")
     p = r - t
-    x, offset = _start_state(plan, p, start)
+    x, offset = _start_state(model._memo, plan, p, start)
     if table is None:
         return chain.from_iterable(_range_runs(plan, p, x, offset, total))
     return chain.from_iterable(_trim(_table_runs(plan, table, p, x), offset, total))
@@ -896,24 +899,59 @@ def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
     """
     size = as_count(size, "block size", 1)
     plan = _plan(model)
-    start, total, empty = _range(plan, start, stop)
+    start, total, empty = _range(model._memo, plan, start, stop)
     if empty:
         return iter(())
     r = plan.r
     if r == 1:
         return iter([np.array([[plan.N + plan.lows[0]]], dtype=plan.dtype)])
-    t, table = _table(plan, "blocks")
+    t, table = _table(model._memo, plan, "blocks")
     p = r - t
-    x, offset = _start_state(plan, p, start)
+    x, offset = _start_state(model._memo, plan, p, start)
     if table is None:
         return _blocks_ranges(plan, size, p, x, offset, total)
     return _blocks_table(plan, table, size, p, x, offset, total)
 
 
+class _Blocks:
+    """Fortran-ordered output arrays, recycled only once the consumer has dropped them.
+
+    Fresh memory costs a page fault per 4 KiB on first touch, which at
+    listing speed is most of the time, so a few arrays are kept and one is
+    reused when its reference count shows that nothing outside this pool
+    refers to it (no variable, no view, no buffer export) -- the test
+    CPython's ``zip`` and ``itertools.combinations`` apply to their result
+    tuples.  A block the consumer still holds is never written again.
+    """
+
+    __slots__ = ("shape", "dtype", "pool", "free")
+
+    def __init__(self, size: int, r: int, dtype):
+        self.shape = (size, r)
+        self.dtype = dtype
+        self.pool = [np.empty(0)]
+        self.free = self._count(0)  # the references of the pool and of this check alone
+        self.pool.clear()
+
+    def _count(self, i: int) -> int:
+        return sys.getrefcount(self.pool[i])
+
+    def take(self):
+        pool = self.pool
+        for i in range(len(pool)):
+            if self._count(i) == self.free:
+                return pool[i]
+        out = np.empty(self.shape, dtype=self.dtype, order="F")
+        if len(pool) < 3:
+            pool.append(out)
+        return out
+
+
 def _blocks_table(plan, table, size, p, x, offset, total):
     r, dtype, lows = plan.r, plan.dtype, plan.lows
+    blocks = _Blocks(size, r, dtype)
     prefix = np.array([v + a for v, a in zip(x, lows)], dtype=dtype)
-    out = np.empty((size, r), dtype=dtype, order="F")
+    out = blocks.take()
     pos = 0
     fill = table.fill
     for changed, m in _walk(plan, p, x):
@@ -941,7 +979,7 @@ def _blocks_table(plan, table, size, p, x, offset, total):
                     return
             if pos == size:
                 yield out
-                out = np.empty((size, r), dtype=dtype, order="F")
+                out = blocks.take()
                 pos = 0
     if pos:
         yield out[:pos]
@@ -949,10 +987,11 @@ def _blocks_table(plan, table, size, p, x, offset, total):
 
 def _blocks_ranges(plan, size, p, x, offset, total):
     r, dtype, lows, caps = plan.r, plan.dtype, plan.lows, plan.caps
+    blocks = _Blocks(size, r, dtype)
     a, b = lows[-2], lows[-1]
     c_last, c_pen = caps[-1], caps[-2]
     prefix = np.array([v + w for v, w in zip(x, lows)], dtype=dtype)
-    out = np.empty((size, r), dtype=dtype, order="F")
+    out = blocks.take()
     pos = 0
     for changed, m in _walk(plan, p, x):
         for i in range(changed, p):
@@ -984,7 +1023,7 @@ def _blocks_ranges(plan, size, p, x, offset, total):
                     return
             if pos == size:
                 yield out
-                out = np.empty((size, r), dtype=dtype, order="F")
+                out = blocks.take()
                 pos = 0
     if pos:
         yield out[:pos]

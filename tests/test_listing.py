@@ -418,6 +418,29 @@ def test_block_listing_memory_is_independent_of_the_count():
     assert peak < listing.BLOCK_TABLE_BUDGET + 8 * 2**20
 
 
+def test_tables_go_with_the_model_without_the_cyclic_collector():
+    # the cache must hold no reference cycle, or megabytes of tables would
+    # outlive the model wherever the garbage collector is off
+    import gc
+    import weakref
+
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        model = Occupancy(balls=16, urns=10, rule="BE", capacity=9)
+        collections.deque(model.iter_blocks(1000), maxlen=0)
+        collections.deque(model.iter_configurations(5), maxlen=0)
+        cached = [v[1] if isinstance(v, tuple) else v for k, v in model._memo.items() if k.startswith("listing.")]
+        cached += [t.rows for t in cached if isinstance(getattr(t, "rows", None), np.ndarray)]
+        assert len(cached) >= 4  # plan, tuple and block tables (maybe shared), ranker, a table's rows
+        held = [weakref.ref(v) for v in cached if v is not None]
+        del model, cached
+        assert all(ref() is None for ref in held)
+    finally:
+        if enabled:
+            gc.enable()
+
+
 # -- errors -----------------------------------------------------------------------
 def test_rank_rejects_malformed_and_inadmissible_configurations():
     model = Occupancy(balls=4, urns=3, rule="BE", capacity=2)
