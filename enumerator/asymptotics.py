@@ -1291,8 +1291,9 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
 
     Returns ``(variable, points)``.
 
-    >>> sweep("balls=10..40", step=10, urns="balls//2")[1][1]
-    Point(balls=20, urns=10, rule=None, capacity=None, minimum=None, at=None, pattern=None)
+    >>> variable, points = sweep("balls=10..40", step=10, urns="balls//2")
+    >>> variable, [(p.balls, p.urns) for p in points]
+    ('balls', [(10, 5), (20, 10), (30, 15), (40, 20)])
     """
     fixed = {k: v for k, v in parameters.items() if v is not None}
     unknown = set(fixed) - set(NUMERIC) - {"rule", "pattern", "factor"}

@@ -717,3 +717,11 @@ def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
     row = compare("boltzmann", [Point(balls=n, urns=r, at=j)]).rows[0]
     assert row.exact == mean_count / r
     assert row.exact == distribution(model, "urn:1").probability(j)
+
+
+def test_module_doctests():
+    import doctest
+
+    import enumerator.asymptotics as module
+
+    assert doctest.testmod(module).failed == 0
