@@ -46,7 +46,9 @@ holding the ``m`` balls left) at C speed:
   and the run's columns (``bytes`` when ``n <= 255``, else lists), so each
   tuple is built in C and CPython recycles it when the consumer drops it.
 * Block mode writes runs into Fortran-ordered (column-major) numpy arrays:
-  per run, one ``memset`` per prefix urn and one column-wise slice copy.
+  per run, one ``memset`` per prefix urn and one column-wise slice copy;
+  arrays the consumer has dropped are recycled (first-touch page faults
+  would otherwise cost more than the copying).
 * Without room for a table, the last two urns are ``range`` objects.
 
 Memory is the table plus one block, independent of the number of
@@ -882,8 +884,10 @@ def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
     suffix table, ``O(1)`` numpy calls per run and memory-bandwidth speed.
 
     Conventions: row ``i`` of the concatenated arrays is the configuration
-    of rank ``start + i``; every array but the last has exactly *size* rows,
-    and each is freshly allocated (keep or modify it freely).  Arrays are
+    of rank ``start + i``; every array but the last has exactly *size* rows.
+    An array you hold (or a view of it) is never written again, so keep or
+    modify it freely; the memory of one you dropped may be recycled for a
+    later block, as CPython recycles the tuples of ``zip``.  Arrays are
     **Fortran-ordered** (column-major: each urn's column is contiguous),
     which is what makes the fill fast; use ``numpy.ascontiguousarray`` for
     row-major memory.  The dtype is :func:`block_dtype`: the smallest

@@ -270,6 +270,24 @@ def test_listed_tuples_survive_being_kept():
     assert len(set(kept)) == len(kept)
 
 
+def test_recycled_blocks_never_overwrite_what_the_consumer_holds():
+    model = Occupancy(balls=9, urns=6, rule="BE")
+    expected = brute(model)
+    size = 37
+    # dropping each block before the next: contents copied out as they come
+    seen = []
+    for block in model.iter_blocks(size):
+        seen += [tuple(row) for row in block.tolist()]
+    assert seen == expected
+    # holding only a view (the first row) of each block
+    firsts = [block[0] for block in model.iter_blocks(size)]
+    assert [tuple(int(v) for v in row) for row in firsts] == expected[::size]
+    # holding every block
+    held = list(model.iter_blocks(size))
+    assert len({id(b) for b in held}) == len(held)
+    assert as_rows(held) == expected
+
+
 def test_block_dtype_is_the_smallest_unsigned_type_holding_n():
     assert listing.block_dtype(Occupancy(balls=255, urns=2, rule="BE")) == np.uint8
     assert listing.block_dtype(Occupancy(balls=256, urns=2, rule="BE")) == np.uint16
