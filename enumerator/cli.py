@@ -1478,13 +1478,14 @@ def compare_command(
     ] = None,
     rule: Annotated[
         Optional[str],
-        typer.Option("--rule", metavar="MB|BE|FD", rich_help_panel=_SWEEP, help="Rule (saddle only; default BE)."),
+        typer.Option("--rule", metavar="MB|BE|FD", rich_help_panel=_SWEEP, help="Rule of saddle (BE, FD or MB) and grand-canonical (BE or FD); default BE."),
     ] = None,
     capacity: Annotated[Optional[str], _tie_option("--capacity", help="At most this many balls per urn (saddle).")] = None,
     minimum: Annotated[Optional[str], _tie_option("--minimum", help="At least this many balls per urn (saddle).")] = None,
     at: Annotated[
         Optional[str],
-        _tie_option("--at", help="The j of poisson/normal (P(at most j empty urns)) and boltzmann (urns holding j)."),
+        _tie_option("--at", help="The j of poisson/normal (P(at most j empty urns)), boltzmann (urns holding j) "
+                    "and grand-canonical (level j)."),
     ] = None,
     pattern: Annotated[
         Optional[str],
