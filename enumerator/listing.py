@@ -266,7 +266,8 @@ def _choose_suffix(plan: _Plan, budget: int, top_column: int) -> int:
     if r <= 2:
         return r
     size = plan.dtype.itemsize
-    rows = _level_rows(plan, budget // size)
+    # a stored level of l >= 2 urns costs at least 2 * size bytes a row
+    rows = _level_rows(plan, budget // (2 * size))
     best = 2
     for t in range(3, min(r, len(rows)) + 1):
         cost = (rows[t - 2] * (t - 1) + rows[t - 3] * (t - 2)) * size
