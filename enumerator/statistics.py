@@ -613,6 +613,12 @@ def _mb_max_levels(n: int, r: int, m: int, keep: Callable[[int], int]):
     tails: List[List] = [[] for _ in range(T + 1)]
     prev: List = []
     cur: List = [mpz(1)]
+    # C(k, m) for k = m .. n - 1, shared by every level
+    binomials = [mpz(1)] * max(n - m, 0)
+    c = mpz(1)
+    for k in range(m, n - 1):
+        c = divexact(c * (k + 1), k + 1 - m)
+        binomials[k + 1 - m] = c
     for t in range(T, -1, -1):
         j = r - t
         K = n - t * (m + 1)
@@ -626,11 +632,9 @@ def _mb_max_levels(n: int, r: int, m: int, keep: Callable[[int], int]):
                 v *= j
                 cur[k] = v
             if K > m:
-                c = mpz(1)  # C(k, m) for k = m
                 for k in range(m, K):
-                    v = j * (v - c * prev[k - m])
+                    v = j * (v - binomials[k - m] * prev[k - m])
                     cur[k + 1] = v
-                    c = divexact(c * (k + 1), k + 1 - m)
         take = min(K + 1, keep(t))
         tails[t] = cur[K - take + 1:][::-1]
         prev = cur
@@ -750,12 +754,13 @@ def _mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
 def _mb_at_least(n: int, r: int, m: int):
     r"""MB assignments of ``n`` balls to ``r`` urns with every urn at least ``m``.
 
-    ``m = 1`` is ``r! S(n, r)`` (FLINT's Stirling numbers).  Otherwise, with
-    ``tau = sum_{k>=m} x^k/k!`` and ``tau' = tau + x^{m-1}/(m-1)!``, the counts
-    ``N_j(k) = k! [x^k] tau^j`` obey
-    ``N_j(k+1) = j N_j(k) + j C(k, m-1) N_{j-1}(k-m+1)``; level ``j`` is
-    nonzero only for ``k`` in ``[j m, j m + n - r m]``, so the cost is
-    ``r (n - r m + 1)`` small-by-big multiplications.
+    ``m = 1`` is ``r! S(n, r)`` (FLINT's Stirling numbers).  Otherwise the
+    cheaper of two routes: with ``tau = sum_{k>=m} x^k/k!`` and
+    ``tau' = tau + x^{m-1}/(m-1)!``, the counts ``N_j(k) = k! [x^k] tau^j``
+    obey ``N_j(k+1) = j N_j(k) + j C(k, m-1) N_{j-1}(k-m+1)``, and level ``j``
+    is nonzero only for ``k`` in ``[j m, j m + n - r m]`` (cost
+    ``r (n - r m + 1)``); or inclusion–exclusion over the urns holding fewer
+    than ``m`` (:func:`_mb_capped_moments`, cost ``sum_t min(n, t(m-1))``).
     """
     target = n - r * m
     if target < 0:
@@ -765,6 +770,13 @@ def _mb_at_least(n: int, r: int, m: int):
     if m == 1:
         return mpz(int(fmpz.stirling_s2(n, r))) * gmpy2.fac(r)
     c = m - 1
+    grow = math.log2(math.factorial(c)) / 4000  # coefficients of e_c^t grow by log2(c!) bits per urn
+    if sum((min(n, t * c) + 1) * (1 + t * grow) for t in range(r + 1)) < r * (target + 1):
+        # inclusion-exclusion over the urns holding at most m - 1 is shorter
+        total = mpz(0)
+        for t, b in enumerate(_mb_capped_moments(n, r, c)):
+            total = total - b if t & 1 else total + b
+        return total
     prev = [mpz(1)] + [mpz(0)] * target  # level 0: N_0(k) = [k == 0], k = 0..target
     for j in range(1, r + 1):
         start = j * m
@@ -997,40 +1009,62 @@ def _free_binomial_moments(n: int, r: int, rule: Rule, low: int, high: Optional[
         return None
     fac = gmpy2.fac
     if high is not None and high == low:
+        # W(j) = n! / (J!^j (n - jJ)!) (r - j)^(n - jJ), the multinomial updated by
+        # the falling factorial (n - jJ)^(J) / J! from one j to the next
         J = low
         B = []
         fJ = fac(J)
+        multinomial = mpz(1)
+        choose = mpz(1)
         for j in range(r + 1):
             rest = n - j * J
             if rest < 0:
                 break
-            w = divexact(fac(n), fJ ** j * fac(rest)) * mpz(r - j) ** rest
-            B.append(comb(r, j) * w)
+            if j:
+                choose = divexact(choose * (r - j + 1), j)
+                step = mpz(1)
+                for s in range(rest + 1, rest + J + 1):
+                    step *= s
+                multinomial = divexact(multinomial * step, fJ)
+            B.append(choose * multinomial * mpz(r - j) ** rest)
         return "direct", B
     if high is None and low >= 1:
-        # Y = urns holding fewer than J = low balls: W(j) = n! [x^n] e_{J-1}^j e^{(r-j)x}
-        J = low
-        eps = series.falling_window(0, J - 1)  # (J-1)!/k! x^k
-        scale = fac(J - 1)
-        B = []
-        E = fmpz_poly([1])
-        top_u = n
-        falling = [mpz(1)] * (min(n, r * (J - 1)) + 1)  # n^{(u)}
-        for u in range(1, len(falling)):
-            falling[u] = falling[u - 1] * (n - u + 1)
-        for j in range(r + 1):
-            if j:
-                E = E.mul_low(eps, top_u + 1)
-            z = r - j
-            coeffs = E.coeffs()
-            U = min(len(coeffs) - 1, n)
-            acc = mpz(0)
-            for u in range(U + 1):
-                acc = acc * z + int(coeffs[u]) * falling[u]
-            w = divexact(acc * mpz(z) ** (n - U), scale ** j)
-            B.append(comb(r, j) * w)
-        return "complement", B
+        # Y = urns holding fewer than J = low balls
+        return "complement", _mb_capped_moments(n, r, low - 1)
     return None
+
+
+def _mb_capped_moments(n: int, r: int, c: int) -> List:
+    r"""Binomial moments ``B_t = C(r, t) W(t)`` of the number of urns holding at most *c*
+    balls, MB without bounds.
+
+    ``W(t) = n! [x^n] e_c(x)^t e^{(r-t)x} = sum_u C(n, u) N_t(u) (r-t)^{n-u}``
+    counts the assignments in which ``t`` given urns hold at most ``c`` each;
+    ``N_t(u)/u!`` are the coefficients of ``e_c^t`` (FLINT products of the
+    factorial-scaled window), and each ``W(t)`` is one Horner pass of length
+    ``min(n, t c) + 1``: ``sum_t min(n, t c)`` multiplications in all.
+    """
+    fac = gmpy2.fac
+    eps = series.falling_window(0, c)  # c!/k! x^k
+    scale = fac(c)
+    B = []
+    E = fmpz_poly([1])
+    falling = [mpz(1)] * (min(n, r * c) + 1)  # n^{(u)}
+    for u in range(1, len(falling)):
+        falling[u] = falling[u - 1] * (n - u + 1)
+    choose = mpz(1)
+    for t in range(r + 1):
+        if t:
+            E = E.mul_low(eps, n + 1)
+            choose = divexact(choose * (r - t + 1), t)
+        z = r - t
+        coeffs = E.coeffs()
+        U = min(len(coeffs) - 1, n)
+        acc = mpz(0)
+        for u in range(U + 1):
+            acc = acc * z + int(coeffs[u]) * falling[u]
+        B.append(choose * divexact(acc * mpz(z) ** (n - U), scale ** t))
+    return B
 
 
 def _group_marked_counts(model: Occupancy, low: int, high: Optional[int], limit: int) -> Dict[int, "mpz"]:

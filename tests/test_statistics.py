@@ -324,3 +324,14 @@ def test_distribution_object():
     assert law.support == [0, 1, 2]
     assert law.probability(1) == Fraction(1, 2) and law.probability(5) == 0
     assert distribution(Occupancy(balls=3, urns=3), "profile").probability([2, 1, 0]) == Fraction(2, 3)
+
+
+@pytest.mark.parametrize("n, r, c", [(40, 6, 1), (40, 6, 3), (25, 5, 4), (13, 2, 2), (9, 9, 0)])
+def test_capped_binomial_moments_give_the_minimum_by_inclusion_exclusion(n, r, c):
+    # sum_t (-1)^t B_t = outcomes with no urn holding c or fewer = min >= c + 1,
+    # checked against counting's EGF power with a uniform minimum
+    moments = statistics._mb_capped_moments(n, r, c)
+    alternating = sum(-b if t & 1 else b for t, b in enumerate(moments))
+    expected = count_microstates(Occupancy(balls=n, urns=r, rule="MB", minimum=c + 1)) if n >= r * (c + 1) else 0
+    assert alternating == expected
+    assert moments[0] == r ** n
