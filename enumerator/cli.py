@@ -555,6 +555,21 @@ def _limit(limit: Optional[int]) -> int:
     return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
 
 
+def _exact_big(value) -> str:
+    """:func:`exact` through GMP's subquadratic radix conversion.
+
+    A distribution can hold thousands of fractions of 100,000 digits; CPython
+    writes such an ``int`` in quadratic time, GMP (``mpz_get_str``) does not.
+    Same text as ``str(Fraction)``.
+    """
+    import gmpy2
+
+    if isinstance(value, Fraction):
+        num = str(gmpy2.mpz(value.numerator))
+        return num if value.denominator == 1 else f"{num}/{gmpy2.mpz(value.denominator)}"
+    return str(gmpy2.mpz(int(value)))
+
+
 def _value_text(value) -> str:
     """A statistic's value as a JSON key: decimal digits, or a profile's parts joined by '+'."""
     if isinstance(value, tuple):
@@ -602,18 +617,18 @@ def dist_command(
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
         law = distribution(model, stat, limit=_limit(limit))
-        moment = (lambda x: None if x is None else exact(x))
+        moment = (lambda x: None if x is None else _exact_big(x))
         if as_json:
             emit_json(
                 {
                     "statistic": law.statistic,
-                    "pmf": {_value_text(v): exact(p) for v, p in law.pmf.items()},
+                    "pmf": {_value_text(v): _exact_big(p) for v, p in law.pmf.items()},
                     "mean": moment(law.mean),
                     "variance": moment(law.variance),
                 }
             )
             return
-        rows = [[_value_text(v), exact(p), f"{_approx(p):.6g}"] for v, p in law.pmf.items()]
+        rows = [[_value_text(v), _exact_big(p), f"{_approx(p):.6g}"] for v, p in law.pmf.items()]
         show_table(f"{_describe(model)}; distribution of {law.statistic}",
                    [law.statistic, "probability (exact)", "approx"], rows)
         if law.mean is not None:
@@ -621,8 +636,8 @@ def dist_command(
                 f"Moments of {law.statistic}",
                 ["moment", "exact", "approx"],
                 [
-                    ["mean", exact(law.mean), f"{_approx(law.mean):.6g}"],
-                    ["variance", exact(law.variance), f"{_approx(law.variance):.6g}"],
+                    ["mean", _exact_big(law.mean), f"{_approx(law.mean):.6g}"],
+                    ["variance", _exact_big(law.variance), f"{_approx(law.variance):.6g}"],
                 ],
             )
 
