@@ -72,7 +72,7 @@ import re
 from collections import Counter
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Callable, Dict, Iterable, List, Optional, Sequence, Tuple, Union
+from typing import Callable, Dict, List, Optional, Sequence, Tuple, Union
 
 import gmpy2
 from flint import fmpz, fmpz_poly
@@ -381,9 +381,6 @@ def _reducer(model: Occupancy, total) -> Callable[[int], Fraction]:
 # ---------------------------------------------------------------------------
 # outcome counts for arbitrary bounds (the bounded counts)
 # ---------------------------------------------------------------------------
-
-Bounds = Tuple[Tuple[int, Optional[int]], ...]
-
 
 def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int) -> int:
     """The number of equally likely outcomes of ``balls`` balls in urns with *bounds*.
