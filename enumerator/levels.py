@@ -539,10 +539,10 @@ def einstein_solid(oscillators) -> System:
 
 #: Preset names and their aliases.
 PRESETS = {
-    "harmonic": ("harmonic", "oscillator", "harmonic-oscillator", "ho"),
-    "trap": ("trap", "harmonic-trap", "3d-trap", "3d"),
-    "two-level": ("two-level", "twolevel", "two-state"),
-    "einstein": ("einstein", "einstein-solid", "solid"),
+    "harmonic": ("harmonic", "oscillator", "harmonic-oscillator", "ho", "1d-oscillator", "ladder"),
+    "trap": ("trap", "harmonic-trap", "3d-trap", "3d", "trap3d", "3d-harmonic-trap", "isotropic-trap"),
+    "two-level": ("two-level", "twolevel", "two-state", "2-level", "two-level-system"),
+    "einstein": ("einstein", "einstein-solid", "solid", "einstein-crystal"),
 }
 
 
