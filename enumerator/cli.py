@@ -612,11 +612,9 @@ def dist_command(
         $ enumerator dist -n 2000 -r 500 --stat max --json
         $ enumerator dist -n 6 -r 3 --rule BE --stat profile
     """
-    from .statistics import distribution
-
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
-        law = distribution(model, stat, limit=_limit(limit))
+        law = model.distribution(stat, limit=_limit(limit))
         moment = (lambda x: None if x is None else _exact_big(x))
         if as_json:
             emit_json(

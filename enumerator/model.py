@@ -395,6 +395,60 @@ class Occupancy:
 
         return remember("profiles", self, partial(count_profiles, self))
 
+    def distribution(self, statistic, limit=None):
+        """The exact distribution of *statistic* (``"max"``, ``"empty"``, ``"urn:1"``, ...).
+
+        Remembered in the result store under the statistic's canonical name;
+        pure: :func:`enumerator.statistics.distribution`.
+        """
+        from .statistics import DEFAULT_LIMIT, Distribution, distribution, parse_statistic
+        from .store import remember
+
+        stat = parse_statistic(statistic)
+        bound = DEFAULT_LIMIT if limit is None else limit
+
+        def compute():
+            law = distribution(self, stat, limit=bound)
+            return {
+                "pmf": [[list(v) if isinstance(v, tuple) else v, p] for v, p in law.pmf.items()],
+                "mean": law.mean,
+                "variance": law.variance,
+            }
+
+        stored = remember("distribution", self, compute, params=stat.name)
+        pmf = {}
+        for value, p in stored["pmf"]:
+            pmf[tuple(value) if isinstance(value, list) else value] = p
+        return Distribution(stat.name, pmf, stored["mean"], stored["variance"])
+
+    def event_probability(self, event: str, limit=None) -> Fraction:
+        """The exact probability of an event such as ``"max <= 2 and k1 >= 1"``.
+
+        See :mod:`enumerator.events` for the language.
+        """
+        from .events import event_probability
+
+        return event_probability(self, event) if limit is None else event_probability(self, event, limit=limit)
+
+    def coefficient_row(self, upto=None):
+        """Counts for every ball number ``0..upto`` at once (one series pass).
+
+        BE/FD: configurations; MB: microstates.  Remembered in the result
+        store; pure: :func:`enumerator.generating.coefficient_row`.
+        """
+        from .generating import coefficient_row
+        from .store import remember
+
+        top = self.balls if upto is None else as_count(upto, "upto")
+        return list(remember("coefficient_row", self.with_balls(0), lambda: coefficient_row(self, top),
+                             params=f"upto={top}"))
+
+    def sample(self, size, seed=None):
+        """Draw *size* configurations exactly from the rule's law (reproducible by *seed*)."""
+        from .sampling import sample
+
+        return sample(self, size, seed)
+
     def iter_configurations(self, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
         """Yield admissible configurations of ranks ``[start, stop)`` in lexicographic order."""
         from .listing import iter_configurations

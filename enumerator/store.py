@@ -132,6 +132,8 @@ ALGORITHM_VERSIONS: Dict[str, int] = {
     "configurations": 1,
     "microstates": 1,
     "profiles": 1,
+    "distribution": 1,
+    "coefficient_row": 1,
 }
 
 #: quantity -> function(model, params) recomputing a stored value (for verify).
