@@ -61,10 +61,10 @@ MARKS = ("empty", "occupied", "exactly:J", "atleast:J")
 
 #: Largest number of bits a single exact constant (or constant term of a
 #: power) may reach in :func:`extract_coefficients` before it refuses.
-MAX_CONSTANT_BITS = 50_000_000
+MAX_CONSTANT_BITS = 10_000_000
 #: Largest estimated total size, in bits, of the coefficients of one
 #: truncated power in :func:`extract_coefficients`.
-MAX_POWER_BITS = 8 * 2**30
+MAX_POWER_BITS = 2**32
 
 
 # ---------------------------------------------------------------------------
@@ -644,6 +644,8 @@ class _Expander:
         (a binomial ``C(k + j, j)`` times the norm to the ``j``).
         """
         numer = poly.numer()
+        c0 = Fraction(int(numer[0]), int(poly.denom()))
+        _guard_constant_power(c0, k, "the constant term")  # the power's constant term is c0^k
         norm_bits = sum(abs(int(c)) for c in numer.coeffs()).bit_length()
         den_bits = int(poly.denom()).bit_length() - 1
         per = k * norm_bits
@@ -751,11 +753,11 @@ def _monomial(node, x) -> Optional[Tuple[Fraction, int]]:
     return None
 
 
-def _guard_constant_power(value: Fraction, k: int) -> None:
+def _guard_constant_power(value: Fraction, k: int, what: str = "the constant") -> None:
     bits = max(abs(value.numerator).bit_length(), value.denominator.bit_length())
     if bits > 1 and (bits - 1) * abs(k) > MAX_CONSTANT_BITS:
         raise TooLarge(
-            f"the constant {value} raised to the power {k} would have about {(bits - 1) * abs(k):,} bits; "
+            f"{what} {value} raised to the power {k} would have about {(bits - 1) * abs(k):,} bits; "
             "use a smaller exponent"
         )
 
