@@ -1,0 +1,229 @@
+"""Exact samplers against the exact law.
+
+Goodness of fit: ``scipy.stats.chisquare`` at a fixed seed, with the expected
+frequencies from brute-force enumeration (tests/reference.py) or from exact
+counts; a test fails when p < 0.001.  Marginal laws of one urn: binomial for
+MB (SciPy ``binom``), ``C(n - j + r - 2, r - 2) / C(n + r - 1, r - 1)`` for BE
+(Feller, vol. 1, §II.5, from memory; checked here against exact counts).
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from fractions import Fraction
+from math import comb
+
+import numpy as np
+import pytest
+from scipy.stats import binom, chisquare
+
+from enumerator import InvalidParameters, Occupancy, TooLarge
+from enumerator.sampling import (
+    METHODS,
+    iter_sample_blocks,
+    sample,
+    sample_array,
+    sampling_method,
+)
+from enumerator import sampling
+
+import reference
+
+P_MIN = 0.001
+
+MODELS = [
+    Occupancy(balls=5, urns=3, rule="BE"),
+    Occupancy(balls=2, urns=4, rule="BE"),
+    Occupancy(balls=9, urns=3, rule="BE", minimum=2),
+    Occupancy(balls=6, urns=3, rule="BE", capacity=3),
+    Occupancy(balls=7, urns=4, rule="BE", capacity=2),
+    Occupancy(balls=6, bounds=[(0, 2), (1, None), (0, 3), (2, 2)], rule="BE"),
+    Occupancy(balls=3, urns=5, rule="FD"),
+    Occupancy(balls=2, bounds=[(0, 1), (1, 1), (0, 1), (0, 0), (0, 1)], rule="FD"),
+    Occupancy(balls=5, urns=3, rule="MB"),
+    Occupancy(balls=6, urns=3, rule="MB", capacity=3),
+    Occupancy(balls=7, urns=3, rule="MB", minimum=2),
+    Occupancy(balls=6, bounds=[(0, 2), (1, None), (0, 3), (1, 2)], rule="MB"),
+    Occupancy(balls=8, urns=4, rule="MB", minimum=1, capacity=3),
+]
+
+
+def chi_square_p(model, rows):
+    """p-value of the observed configurations against the exact law (brute force)."""
+    law = reference.probabilities(model)
+    counts = Counter(rows)
+    assert set(counts) <= set(law), "a sampled vector is not admissible"
+    keys = sorted(law)
+    if len(keys) == 1:
+        return 1.0
+    observed = [counts[k] for k in keys]
+    expected = [float(law[k] * len(rows)) for k in keys]
+    return chisquare(observed, expected).pvalue
+
+
+@pytest.mark.parametrize("model", MODELS, ids=repr)
+def test_default_sampler_matches_exact_law(model):
+    rows = sample(model, 6000, seed=20240601)
+    assert len(rows) == 6000
+    assert chi_square_p(model, rows) > P_MIN
+
+
+@pytest.mark.parametrize("model", MODELS, ids=repr)
+@pytest.mark.parametrize("method", ["sequential", "rejection"])
+def test_general_methods_match_exact_law(model, method):
+    # Every model through the urn-by-urn and the rejection sampler as well.
+    rows = sample(model, 4000, seed=7, method=method)
+    assert chi_square_p(model, rows) > P_MIN
+
+
+def test_specialised_methods_match_exact_law():
+    cases = [
+        (Occupancy(balls=4, urns=4, rule="BE"), "stars-and-bars"),  # bars chosen
+        (Occupancy(balls=2, urns=6, rule="BE"), "stars-and-bars"),  # stars chosen
+        (Occupancy(balls=4, urns=6, rule="FD"), "subset"),  # complement chosen
+        (Occupancy(balls=4, urns=3, rule="MB"), "uniform-balls"),
+    ]
+    for model, method in cases:
+        assert sampling_method(model) == method
+        assert chi_square_p(model, sample(model, 6000, seed=11)) > P_MIN
+
+
+def _pooled_chi_square(observed_values, pmf, support):
+    """Chi-square over ``support`` with the tails pooled so every bin expects >= 5."""
+    total = len(observed_values)
+    counts = Counter(int(v) for v in observed_values)
+    bins_obs, bins_exp = [], []
+    acc_obs = acc_exp = 0.0
+    for j in support:
+        acc_obs += counts.get(j, 0)
+        acc_exp += float(pmf(j)) * total
+        if acc_exp >= 5:
+            bins_obs.append(acc_obs)
+            bins_exp.append(acc_exp)
+            acc_obs = acc_exp = 0.0
+    bins_obs[-1] += acc_obs
+    bins_exp[-1] += acc_exp
+    scale = sum(bins_obs) / sum(bins_exp)
+    return chisquare(bins_obs, [e * scale for e in bins_exp]).pvalue
+
+
+def test_large_mb_marginal_is_binomial():
+    # k_1 ~ Binomial(n, 1/r) under MB (reference: scipy.stats.binom).
+    n, r = 1000, 100
+    rows = sample_array(Occupancy(balls=n, urns=r, rule="MB"), 20000, seed=5)
+    assert (rows.sum(axis=1) == n).all()
+    p = _pooled_chi_square(rows[:, 0], lambda j: binom.pmf(j, n, 1 / r), range(n + 1))
+    assert p > P_MIN
+    # every urn is exchangeable: the column sums are close to each other
+    assert chisquare(rows.sum(axis=0)).pvalue > P_MIN
+
+
+def test_large_be_marginal():
+    # P(k_1 = j) = C(n - j + r - 2, r - 2) / C(n + r - 1, r - 1) (stars and bars).
+    n, r = 1000, 100
+    model = Occupancy(balls=n, urns=r, rule="BE")
+    total = comb(n + r - 1, r - 1)
+    assert total == model.configurations()
+    rows = sample_array(model, 20000, seed=6)
+    pmf = lambda j: Fraction(comb(n - j + r - 2, r - 2), total)  # noqa: E731
+    assert _pooled_chi_square(rows[:, 0], pmf, range(n + 1)) > P_MIN
+    assert _pooled_chi_square(rows[:, -1], pmf, range(n + 1)) > P_MIN
+
+
+@pytest.mark.parametrize("rule", ["BE", "MB"])
+@pytest.mark.parametrize("method", [None, "sequential"])
+def test_large_bounded_marginal_from_exact_counts(rule, method):
+    # P(k_1 = j) = weight(j) * count(n - j balls in r - 1 urns) / count(n, r), exact counts.
+    n, r, c = 300, 30, 16
+    model = Occupancy(balls=n, urns=r, rule=rule, capacity=c)
+    rest = Occupancy(balls=0, urns=r - 1, rule=rule, capacity=c)
+    total = model.microstates()
+
+    def pmf(j):
+        ways = rest.with_balls(n - j).microstates()
+        return Fraction(comb(n, j) * ways if rule == "MB" else ways, total)
+
+    rows = sample_array(model, 6000, seed=8, method=method)
+    assert (rows <= c).all() and (rows.sum(axis=1) == n).all()
+    assert _pooled_chi_square(rows[:, 0], pmf, range(c + 1)) > P_MIN
+    assert _pooled_chi_square(rows[:, r // 2], pmf, range(c + 1)) > P_MIN
+
+
+# ---------------------------------------------------------------------------
+# reproducibility and the block interface
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("model", MODELS[::3], ids=repr)
+def test_reproducible_by_seed_and_prefix_stable(model):
+    a = sample(model, 300, seed=42)
+    assert a == sample(model, 300, seed=42)
+    assert a[:37] == sample(model, 37, seed=42)
+    assert a != sample(model, 300, seed=43)
+    blocks = list(iter_sample_blocks(model, 300, seed=42))
+    assert sum(len(b) for b in blocks) == 300
+    assert np.concatenate(blocks).tolist() == [list(k) for k in a]
+    assert sample_array(model, 300, seed=42).dtype == np.int64
+
+
+def test_unseeded_draws_are_valid():
+    model = Occupancy(balls=4, urns=3, rule="BE", capacity=2)
+    rows = sample(model, 50)
+    assert all(model.admits(k) for k in rows)
+
+
+def test_sizes_and_errors():
+    model = Occupancy(balls=3, urns=2, rule="MB")
+    assert sample(model, 0, seed=1) == []
+    assert sample_array(model, 0, seed=1).shape == (0, 2)
+    with pytest.raises(InvalidParameters, match="size must be at least 0"):
+        sample(model, -1)
+    with pytest.raises(InvalidParameters, match="seed must be a whole number"):
+        sample(model, 3, seed=1.5)
+    with pytest.raises(InvalidParameters, match="admits no configuration"):
+        sample(Occupancy(balls=7, urns=2, rule="BE", capacity=3), 1, seed=1)
+    with pytest.raises(InvalidParameters, match="method must be one of"):
+        sample(model, 1, seed=1, method="magic")
+    with pytest.raises(InvalidParameters, match="does not apply"):
+        sample(Occupancy(balls=3, urns=2, rule="BE", capacity=2), 1, seed=1, method="stars-and-bars")
+    with pytest.raises(TooLarge, match="would keep only about 1 in"):
+        sample(Occupancy(balls=60, urns=60, rule="MB", capacity=1), 1, seed=1, method="rejection")
+
+
+def test_methods_listed():
+    assert set(METHODS) == {"stars-and-bars", "subset", "uniform-balls", "rejection", "sequential"}
+
+
+# ---------------------------------------------------------------------------
+# the exact refinement when 64 random bits hit a threshold
+# ---------------------------------------------------------------------------
+
+class _ScriptedGenerator:
+    """Stands in for numpy's Generator: returns scripted 64-bit words (uint64 draws only)."""
+
+    def __init__(self, first, extra):
+        self.first = list(first)
+        self.extra = list(extra)
+
+    def integers(self, low, high, size=None, dtype=None, endpoint=False):
+        assert dtype == np.uint64 and endpoint
+        if size is None:
+            return np.uint64(self.extra.pop(0))
+        words, self.first = self.first[:size], self.first[size:]
+        return np.array(words, dtype=np.uint64)
+
+
+def test_threshold_ties_are_resolved_exactly():
+    # A word equal to a threshold is ambiguous; the refinement must give the bucket
+    # of the exact real U = (word * 2^64 + extra) / 2^128 (definition of the method).
+    model = Occupancy(balls=5, bounds=[(0, None), (1, 4)], rule="MB")
+    plan = sampling._Sequential(model)
+    k_lo, weights, total = plan._weights(0, 5)
+    k_lo_row, thresholds = plan._row(0, 5)
+    assert (k_lo, weights, total) == (k_lo_row, [5, 10, 10, 5], 30)
+    cumulative = np.cumsum([0] + weights).tolist()
+    for j, t in enumerate(thresholds.tolist()):
+        for extra in (0, 2**63, 2**64 - 1):
+            u = Fraction(t * 2**64 + extra, 2**128)
+            expected = k_lo + next(b for b in range(len(weights)) if u * total < cumulative[b + 1])
+            got = plan.draw(_ScriptedGenerator([t], [extra]), 1)
+            assert got.tolist() == [[expected, 5 - expected]], (j, extra)
