@@ -755,6 +755,205 @@ def format_rows(block, prefix: str = "", suffix: str = "\n") -> str:
     return table[mask].tobytes().decode("ascii")
 
 
+# -- generating functions, coefficient extraction, sampling ----------------
+Upto = Annotated[
+    Optional[int],
+    typer.Option("--upto", metavar="N", help="Last degree (number of balls) of the coefficient row."),
+]
+Var = Annotated[
+    str,
+    typer.Option("--var", help="Name of the variable of the generating function."),
+]
+
+
+@app.command("gf")
+def gf_command(
+    balls: Balls,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    upto: Upto = None,
+    mark: Annotated[
+        Optional[str],
+        typer.Option(
+            "--mark",
+            metavar="empty|occupied|exactly:J|atleast:J",
+            help="Also print the bivariate function whose u marks these urns "
+            "([x^n u^j] counts outcomes with j marked urns).",
+        ),
+    ] = None,
+    var: Var = "x",
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Print the model's generating function and its counts for 0..N balls.
+
+    BE and FD: the ordinary generating function, [x^m] = configurations of m
+    balls. MB: the exponential one, m! [x^m] = microstates of m balls. The
+    row comes from one exact series pass; N is --upto (default: --balls).
+
+    Example:
+
+        $ enumerator gf -n 6 -r 3 --rule BE --capacity 2
+        $ enumerator gf -n 8 -r 4 --rule MB --minimum 1 --json
+        $ enumerator gf -n 5 -r 3 --rule BE --mark empty
+    """
+    from .generating import bivariate_generating_function, generating_function, kind
+
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        top = model.balls if upto is None else as_count(upto, "--upto")
+        function = generating_function(model, var)
+        bivariate = None if mark is None else bivariate_generating_function(model, mark, var)
+        row = model.coefficient_row(top)
+    counts = "microstates" if model.rule is Rule.MB else "configurations"
+    if as_json:
+        payload = {
+            "rule": model.rule.value,
+            "generating_function": str(function),
+            "kind": kind(model),
+            "variable": str(var),
+            "counts": counts,
+            "coefficients": [_exact_big(c) for c in row],
+        }
+        if bivariate is not None:
+            payload["mark"] = mark
+            payload["bivariate"] = str(bivariate)
+        emit_json(payload)
+        return
+    reading = f"[{var}^m]" if model.rule is not Rule.MB else f"m! [{var}^m]"
+    sys.stdout.write(f"{_describe(model)}\n")
+    sys.stdout.write(f"{kind(model)} generating function ({reading} = {counts} of m balls):\n")
+    sys.stdout.write(f"  {function}\n")
+    if bivariate is not None:
+        sys.stdout.write(f"bivariate, u marking the urns '{mark}':\n  {bivariate}\n")
+    sys.stdout.flush()
+    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), _exact_big(c)] for m, c in enumerate(row)])
+
+
+@app.command("coeff")
+def coeff_command(
+    expression: Annotated[
+        str,
+        typer.Argument(
+            metavar="EXPR",
+            help='A generating function in one variable, e.g. "1/(1 - x - x^2)": whole numbers, '
+            "the variable, + - * / ^ (or **) and parentheses; 2x means 2*x.",
+        ),
+    ],
+    upto: Annotated[int, typer.Option("--upto", metavar="N", help="Last degree to expand to.")] = 10,
+    var: Var = "x",
+    as_json: Json = False,
+) -> None:
+    """Expand a generating function exactly and print its coefficients up to x^N.
+
+    Polynomials, products, integer powers (negative too) and quotients are
+    expanded by the exact series kernel, never in floating point. A
+    denominator whose constant term is not 1 or -1 gives fractions, printed
+    as p/q. Start the expression with a space (or put -- before it) if it
+    begins with a minus sign.
+
+    Example:
+
+        $ enumerator coeff "1/(1 - x - x^2)" --upto 20
+        $ enumerator coeff "1/((1-x)(1-x^2)(1-x^5)(1-x^10))" --upto 100 --json
+        $ enumerator coeff "(1 + z)^5/(2 - z)" --var z --upto 6
+    """
+    from .generating import extract_coefficients
+
+    top = as_count(upto, "--upto")
+    values = extract_coefficients(expression, top, var)
+    if as_json:
+        emit_json({"expression": expression, "variable": var, "coefficients": [_exact_big(c) for c in values]})
+        return
+    show_table(
+        f"Coefficients of {expression.strip()} in powers of {var}",
+        ["degree", "coefficient"],
+        [[str(m), _exact_big(c)] for m, c in enumerate(values)],
+    )
+
+
+@app.command("sample")
+def sample_command(
+    balls: Balls,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    size: Annotated[int, typer.Option("--size", help="How many configurations to draw.")] = 10,
+    seed: Annotated[
+        Optional[int],
+        typer.Option("--seed", help="Seed (a whole number): the same seed gives the same draws. "
+                     "Default: a fresh random seed (shown in --json)."),
+    ] = None,
+    fmt: Annotated[
+        ListFormat,
+        typer.Option(
+            "--format",
+            case_sensitive=False,
+            help="csv: a header k1,...,kr then one row per draw; jsonl: one JSON array per line.",
+        ),
+    ] = ListFormat.csv,
+    method: Annotated[
+        Optional[str],
+        typer.Option(
+            "--method",
+            metavar="stars-and-bars|subset|uniform-balls|rejection|sequential",
+            help="Force one exact method where it applies (same law; the default picks the fastest).",
+        ),
+    ] = None,
+    as_json: Json = False,
+) -> None:
+    """Draw random configurations exactly from the rule's law, streaming.
+
+    BE and FD: every admissible occupancy vector equally likely; MB: vector k
+    with probability n!/(k1!...kr!) over the microstates. Exact integer
+    arithmetic throughout (no floating-point bias); --seed makes the draws
+    reproducible, and a smaller --size gives the first rows of a larger one.
+
+    Example:
+
+        $ enumerator sample -n 10 -r 4 --rule BE --size 5 --seed 1
+        $ enumerator sample -n 1000 -r 100 --size 100000 --seed 7 > draws.csv
+        $ enumerator sample -n 6 -r 3 --capacity 3 --size 3 --seed 2 --format jsonl
+    """
+    import itertools
+    import secrets
+
+    from .sampling import iter_sample_blocks, sampling_method
+
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    size = as_count(size, "--size")
+    seed = secrets.randbits(63) if seed is None else as_count(seed, "--seed")
+    stream = iter_sample_blocks(model, size, seed, method)
+    first = next(stream, None)  # plans the draw, so a bad model fails before any output
+    blocks = (block for block in itertools.chain([first] if first is not None else [], stream) if len(block))
+    out = sys.stdout
+    if as_json:
+        used = method or sampling_method(model)
+        out.write(
+            '{"rule": "%s", "balls": "%d", "urns": "%d", "seed": "%d", "method": "%s", "configurations": ['
+            % (model.rule.value, model.balls, model.urns, seed, used)
+        )
+        drawn = 0
+        for block in blocks:
+            out.write(("," if drawn else "") + format_rows(block, "[", "],")[:-1])
+            drawn += len(block)
+        out.write('], "size": "%d"}\n' % drawn)
+    elif fmt is ListFormat.csv:
+        out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
+        for block in blocks:
+            out.write(format_rows(block))
+    else:
+        for block in blocks:
+            out.write(format_rows(block, "[", "]\n"))
+    out.flush()
+
+
 _PER_URN = [("any", "any number"), ("at_most_one", "at most one"), ("at_least_one", "at least one")]
 
 
