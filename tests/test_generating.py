@@ -398,3 +398,63 @@ def test_parse_expression_is_unevaluated_and_exact():
     assert tree != 0  # kept as written: evaluate=False
     assert sympy.simplify(tree) == 0
     assert sympy.simplify(parse_expression("2(1+x)^2") - 2 * (1 + x) ** 2) == 0
+
+
+# ---------------------------------------------------------------------------
+# the command line: enumerator gf / enumerator coeff
+# ---------------------------------------------------------------------------
+
+import json  # noqa: E402
+
+from typer.testing import CliRunner  # noqa: E402
+
+from enumerator.cli import app  # noqa: E402
+
+runner = CliRunner()
+
+
+def cli_json(*args):
+    extra = ["--json", "--no-cache"] if args[0] == "gf" else ["--json"]  # gf reads the result store
+    result = runner.invoke(app, [str(a) for a in args] + extra)
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    assert len(lines) == 1
+    return json.loads(lines[0])
+
+
+def test_cli_gf_json():
+    # m! [x^m] (e^x - 1)^4 = 4! S(m, 4) (Stirling numbers, SymPy).
+    payload = cli_json("gf", "-n", 8, "-r", 4, "--rule", "MB", "--minimum", 1)
+    assert payload["kind"] == "exponential"
+    assert sympy.simplify(sympy.sympify(payload["generating_function"]) - (sympy.exp(x) - 1) ** 4) == 0
+    assert payload["coefficients"] == [str(24 * stirling(m, 4)) for m in range(9)]
+    # BE with capacity 2: the coefficients of (1 + x + x^2)^3 (SymPy expansion).
+    payload = cli_json("gf", "-n", 3, "-r", 3, "--rule", "BE", "--capacity", 2, "--upto", 6, "--mark", "empty")
+    poly = sympy.Poly(sympy.expand((1 + x + x**2) ** 3), x)
+    assert payload["coefficients"] == [str(poly.coeff_monomial(x**m)) for m in range(7)]
+    assert payload["kind"] == "ordinary" and payload["mark"] == "empty"
+    assert sympy.simplify(sympy.sympify(payload["bivariate"]).subs(u, 1) - (1 + x + x**2) ** 3) == 0
+
+
+def test_cli_gf_text():
+    result = runner.invoke(app, ["gf", "-n", "3", "-r", "2", "--rule", "FD", "--no-cache"])
+    assert result.exit_code == 0, result.output
+    assert "ordinary generating function ([x^m] = configurations of m balls):" in result.stdout
+    assert "(x + 1)**2" in result.stdout
+
+
+def test_cli_coeff_json_and_errors():
+    # OEIS A000045 (Fibonacci), from memory.
+    assert cli_json("coeff", "1/(1 - x - x^2)", "--upto", 10)["coefficients"] == [
+        "1", "1", "2", "3", "5", "8", "13", "21", "34", "55", "89"
+    ]
+    # rationals as "p/q": 1/(2 - z) = sum z^k / 2^(k+1)
+    assert cli_json("coeff", "1/(2 - z)", "--var", "z", "--upto", 3)["coefficients"] == ["1/2", "1/4", "1/8", "1/16"]
+    result = runner.invoke(app, ["coeff", "exp(x)", "--upto", "3"])
+    assert result.exit_code == 2
+    assert result.stderr.strip() == (
+        "Error: column 1: the function 'exp' is not allowed; only the variable x, "
+        "whole numbers, + - * / ^ and parentheses are allowed"
+    )
+    result = runner.invoke(app, ["coeff", "1/x"])
+    assert result.exit_code == 2 and "Laurent series" in result.stderr

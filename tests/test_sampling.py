@@ -227,3 +227,52 @@ def test_threshold_ties_are_resolved_exactly():
             expected = k_lo + next(b for b in range(len(weights)) if u * total < cumulative[b + 1])
             got = plan.draw(_ScriptedGenerator([t], [extra]), 1)
             assert got.tolist() == [[expected, 5 - expected]], (j, extra)
+
+
+# ---------------------------------------------------------------------------
+# the command line: enumerator sample
+# ---------------------------------------------------------------------------
+
+import csv  # noqa: E402
+import io  # noqa: E402
+import json  # noqa: E402
+
+from typer.testing import CliRunner  # noqa: E402
+
+from enumerator.cli import app  # noqa: E402
+
+runner = CliRunner()
+
+
+def test_cli_sample_csv_matches_library():
+    model = Occupancy(balls=10, urns=4, rule="BE", capacity=5)
+    result = runner.invoke(app, ["sample", "-n", "10", "-r", "4", "--rule", "BE", "--capacity", "5",
+                                 "--size", "200", "--seed", "3"])
+    assert result.exit_code == 0, result.output
+    rows = list(csv.reader(io.StringIO(result.stdout)))
+    assert rows[0] == ["k1", "k2", "k3", "k4"]
+    assert [tuple(map(int, r)) for r in rows[1:]] == sample(model, 200, seed=3)
+
+
+def test_cli_sample_jsonl_and_json():
+    args = ["sample", "-n", "6", "-r", "3", "--capacity", "3", "--size", "5", "--seed", "2"]
+    lines = runner.invoke(app, args + ["--format", "jsonl"]).stdout.splitlines()
+    expected = sample(Occupancy(balls=6, urns=3, rule="MB", capacity=3), 5, seed=2)
+    assert [tuple(json.loads(line)) for line in lines] == expected
+    payload = json.loads(runner.invoke(app, args + ["--json"]).stdout)
+    assert payload["seed"] == "2" and payload["size"] == "5" and payload["rule"] == "MB"
+    assert [tuple(k) for k in payload["configurations"]] == expected
+    assert payload["method"] == sampling_method(Occupancy(balls=6, urns=3, rule="MB", capacity=3))
+    unseeded = json.loads(runner.invoke(app, ["sample", "-n", "4", "-r", "2", "--size", "3", "--json"]).stdout)
+    again = json.loads(runner.invoke(app, ["sample", "-n", "4", "-r", "2", "--size", "3", "--json",
+                                           "--seed", unseeded["seed"]]).stdout)
+    assert again["configurations"] == unseeded["configurations"]
+
+
+def test_cli_sample_errors_come_before_output():
+    result = runner.invoke(app, ["sample", "-n", "7", "-r", "2", "--capacity", "3", "--size", "3"])
+    assert result.exit_code == 2
+    assert result.stdout == ""
+    assert "admits no configuration" in result.stderr
+    result = runner.invoke(app, ["sample", "-n", "7", "-r", "2", "--method", "subset"])
+    assert result.exit_code == 2 and "does not apply" in result.stderr
