@@ -225,17 +225,25 @@ def _mb_egf_count(n: int, bounds) -> "mpz":
     ``n! / prod (b!)^e`` with one exact division (Flajolet & Sedgewick 2009,
     §II.2, labelled products).
     """
-    low = sum(a for a, _ in bounds)
-    target = n - low
-    if target < 0:
-        return mpz(0)
-    groups: Counter = Counter()
-    for a, b in bounds:
-        top = b if b is not None else a + target
-        top = min(top, a + target)
-        if top < a:
+    if len(set(bounds)) == 1:
+        # uniform bounds: one group, without a pass over the urns
+        (a, b), r = bounds[0], len(bounds)
+        target = n - r * a
+        if target < 0:
             return mpz(0)
-        groups[(a, top)] += 1
+        groups = {(a, a + target if b is None else min(b, a + target)): r}
+    else:
+        low = sum(a for a, _ in bounds)
+        target = n - low
+        if target < 0:
+            return mpz(0)
+        groups = Counter()
+        for a, b in bounds:
+            top = b if b is not None else a + target
+            top = min(top, a + target)
+            groups[(a, top)] += 1
+    if any(b < a for a, b in groups):
+        return mpz(0)
     factors = []
     scale = mpz(1)
     for (a, b), e in sorted(groups.items()):
