@@ -75,8 +75,12 @@ REJECTION_MIN = Fraction(1, 4)
 REJECTION_FLOOR = Fraction(1, 10**6)
 #: Rows of the first block; later blocks double up to a model-dependent cap.
 FIRST_BLOCK = 64
-#: About how many array cells one block may touch (sets the cap on rows).
+#: About how many array cells one block may touch (sets the cap on rows):
+#: Floyd's tables and the urn-by-urn sampler gain from long numpy calls, the
+#: ball counting of uniform-balls from staying in cache (measured).
 BLOCK_CELLS = 1 << 22
+BALL_CELLS = 1 << 20
+SEQUENTIAL_CELLS = 1 << 24
 #: Largest estimated size (bits) of the suffix-count tables of the sequential method.
 MAX_TABLE_BITS = 8 * 2**30
 
@@ -167,8 +171,8 @@ class _Plan:
     def draw(self, rng: np.random.Generator, rows: int) -> np.ndarray:  # pragma: no cover - abstract
         raise NotImplementedError
 
-    def _set_cap(self, cells_per_row: int) -> None:
-        cap = BLOCK_CELLS // max(1, cells_per_row)
+    def _set_cap(self, cells_per_row: int, budget: int = 0) -> None:
+        cap = (budget or BLOCK_CELLS) // max(1, cells_per_row)
         cap = 1 << max(0, cap.bit_length() - 1)  # a power of two
         self.cap = max(FIRST_BLOCK, min(1 << 16, cap))
 
@@ -300,6 +304,23 @@ def _floyd(rng: np.random.Generator, rows: int, population: int, k: int) -> np.n
     return chosen
 
 
+def _selection(rng: np.random.Generator, rows: int, population: int, k: int) -> np.ndarray:
+    """``rows`` independent uniform ``k``-subsets of ``range(population)`` as a 0/1 int64 matrix.
+
+    Selection sampling (Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §3.4.2,
+    Algorithm S): item ``j`` is taken when a uniform integer in
+    ``0..population-j-1`` falls below the number still wanted — one exact
+    draw per item and row, written column by column.
+    """
+    out = np.zeros((population, rows), dtype=np.int64)  # item-major: each step writes one row
+    wanted = np.full(rows, k, dtype=np.int64)
+    for j in range(population):
+        take = rng.integers(0, population - j, size=rows, dtype=np.int64) < wanted
+        out[j] = take
+        wanted -= take
+    return out.T
+
+
 class _StarsAndBars(_Plan):
     """BE without (binding) upper bounds: uniform bars among ``free + r - 1`` slots."""
 
@@ -347,10 +368,14 @@ class _Subset(_Plan):
         out = np.tile(self.lows, (rows, 1))
         m = len(self.open)
         pick, complement = (self.free, False) if 2 * self.free <= m else (m - self.free, True)
-        chosen = _floyd(rng, rows, m, pick)
-        extra = np.zeros((rows, m), dtype=np.int64)
-        if pick:
-            extra[np.arange(rows)[:, None], chosen] = 1
+        if m <= 8 * pick:
+            # Dense subsets: one cheap column step per urn beats Floyd's scattered lookups.
+            extra = _selection(rng, rows, m, pick)
+        else:
+            chosen = _floyd(rng, rows, m, pick)
+            extra = np.zeros((rows, m), dtype=np.int64)
+            if pick:
+                extra[np.arange(rows)[:, None], chosen] = 1
         if complement:
             extra = 1 - extra
         out[:, self.open] += extra
@@ -374,7 +399,7 @@ class _UniformBalls(_Plan):
             per += 1
         self.per = per  # base-r digits in one uniform draw below r^per
         self.words = -(-n // per) if n else 0
-        self._set_cap(max(n, r))
+        self._set_cap(max(n, r), BALL_CELLS)
 
     def draw(self, rng, rows):
         n, r = self.model.balls, self.r
@@ -383,14 +408,18 @@ class _UniformBalls(_Plan):
         high = r**self.per
         dtype = np.uint32 if high <= 2**32 else np.uint64
         values = rng.integers(0, high, size=(rows, self.words), dtype=dtype)
-        digits = np.empty((rows, self.per, self.words), dtype=np.int64)
-        base = values.dtype.type(r)
+        # Flat bin of each ball: urn + r * row, built in place in the narrowest type.
+        index_type = np.uint32 if dtype == np.uint32 and rows * r < 2**32 else np.int64
+        index = np.empty((rows, self.per, self.words), dtype=index_type)
+        offsets = (np.arange(rows, dtype=index_type) * index_type(r))[:, None]
+        base = dtype(r)
         for d in range(self.per):
-            values, digit = np.divmod(values, base)
-            digits[:, d, :] = digit
-        urns = digits.reshape(rows, self.per * self.words)[:, :n]
-        urns += (np.arange(rows, dtype=np.int64) * r)[:, None]
-        return np.bincount(urns.ravel(), minlength=rows * r).reshape(rows, r).astype(np.int64)
+            quotient = values // base
+            np.subtract(values, quotient * base, out=index[:, d, :], casting="unsafe")
+            index[:, d, :] += offsets
+            values = quotient
+        balls = index.reshape(rows, self.per * self.words)[:, :n]
+        return np.bincount(balls.ravel(), minlength=rows * r).reshape(rows, r)
 
 
 # ---------------------------------------------------------------------------
@@ -459,7 +488,7 @@ class _Sequential(_Plan):
         self._check_size()
         self.tables = self._suffix_tables()
         self.rows: Dict[Tuple[int, int], Tuple[int, np.ndarray]] = {}
-        self._set_cap(4 * r)
+        self._set_cap(4 * r, SEQUENTIAL_CELLS)
 
     def _check_size(self) -> None:
         bits = self.model.microstates().bit_length()
