@@ -213,20 +213,59 @@ class _ScriptedGenerator:
 
 
 def test_threshold_ties_are_resolved_exactly():
-    # A word equal to a threshold is ambiguous; the refinement must give the bucket
-    # of the exact real U = (word * 2^64 + extra) / 2^128 (definition of the method).
+    # A word within one unit of a threshold is ambiguous; the refinement must give the
+    # share of the exact real U = (word * 2^64 + extra) / 2^128 (definition of the method).
     model = Occupancy(balls=5, bounds=[(0, None), (1, 4)], rule="MB")
     plan = sampling._Sequential(model)
-    k_lo, weights, total = plan._weights(0, 5)
-    k_lo_row, thresholds = plan._row(0, 5)
-    assert (k_lo, weights, total) == (k_lo_row, [5, 10, 10, 5], 30)
+    root = plan.root
+    j_lo, j_hi, weight, total = plan._split(root, 5)
+    weights = [weight(j) for j in range(j_lo, j_hi + 1)]
+    assert (j_lo, weights, total) == (1, [5, 10, 10, 5], 30)  # C(5, j), j = 1..4
+    first, thresholds = plan._row(root, 5)
     cumulative = np.cumsum([0] + weights).tolist()
-    for j, t in enumerate(thresholds.tolist()):
+    words = [0, 1, 2**64 - 1] + [t + d for t in thresholds.tolist() for d in (0, 1)]
+    for word in words:
         for extra in (0, 2**63, 2**64 - 1):
-            u = Fraction(t * 2**64 + extra, 2**128)
-            expected = k_lo + next(b for b in range(len(weights)) if u * total < cumulative[b + 1])
-            got = plan.draw(_ScriptedGenerator([t], [extra]), 1)
-            assert got.tolist() == [[expected, 5 - expected]], (j, extra)
+            u = Fraction(word * 2**64 + extra, 2**128)
+            expected = j_lo + next(b for b in range(len(weights)) if u * total < cumulative[b + 1])
+            got = plan.draw(_ScriptedGenerator([word], [extra, 0, 0]), 1)
+            assert got.tolist() == [[expected, 5 - expected]], (word, extra)
+
+
+@pytest.mark.parametrize(
+    "model",
+    [
+        Occupancy(balls=400, urns=40, rule="MB", minimum=3),
+        Occupancy(balls=400, urns=40, rule="BE", capacity=25),
+        Occupancy(balls=300, bounds=[(0, 5), (2, None), (0, 40), (1, 9)] * 10, rule="MB"),
+    ],
+    ids=["MB-minimum", "BE-capacity", "MB-per-urn"],
+)
+def test_bulk_thresholds_are_exact_to_one_unit(model):
+    # The omitted tails are below total / 2^66, so each stored threshold t' satisfies
+    # t' <= floor(2^64 F_j / F) <= t' + 1 against the full exact row (definition).
+    plan = sampling._Sequential(model)
+    checked = 0
+    for node in plan.preorder:
+        if node.left is None:
+            continue
+        table = plan._table(node)
+        for m in range(table["m_lo"], table["m_lo"] + len(table["done"]), 7):
+            j_lo, j_hi, weight, total = plan._split(node, m)
+            first, thresholds = plan._row(node, m)
+            exact = []
+            cumulative = 0
+            for j in range(j_lo, j_hi):
+                cumulative += weight(j)
+                exact.append((cumulative << 64) // total)
+            for index, t in enumerate(thresholds.tolist()):
+                true = exact[first - j_lo + index]
+                assert t <= true <= t + 1
+            # everything before `first` is below one unit, everything after the row saturates
+            assert all(v <= 1 for v in exact[: first - j_lo])
+            assert all(v >= 2**64 - 1 for v in exact[first - j_lo + len(thresholds) :])
+            checked += 1
+    assert checked > 20
 
 
 # ---------------------------------------------------------------------------
