@@ -182,7 +182,7 @@ class _Plan:
 
 def _plan(model: Occupancy) -> _Plan:
     memo = model._memo
-    plan = memo.get("sampling_plan")
+    plan = memo.get("sampling.plan")
     if plan is not None:
         return plan
     if model.configurations() == 0:
@@ -191,7 +191,7 @@ def _plan(model: Occupancy) -> _Plan:
             "so there is nothing to sample; change the balls or the bounds"
         )
     plan = _choose(model)
-    memo["sampling_plan"] = plan
+    memo["sampling.plan"] = plan
     return plan
 
 
@@ -200,7 +200,7 @@ def _forced(model: Occupancy, method: str) -> _Plan:
     if method not in METHODS:
         raise InvalidParameters(f"method must be one of {', '.join(METHODS)} (got {method!r})")
     _plan(model)  # the emptiness check
-    key = f"sampling_plan.{method}"
+    key = f"sampling.plan.{method}"
     plan = model._memo.get(key)
     if plan is not None:
         return plan
