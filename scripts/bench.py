@@ -979,6 +979,179 @@ def _list_memory(ctx):
 
 
 # ---------------------------------------------------------------------------
+# distributions, generating functions and sampling (statistics issue)
+# ---------------------------------------------------------------------------
+
+@workload("dist-max-mb", "exact distribution of the maximum, MB n=2000 r=500 (in seconds)")
+def _dist_max(ctx):
+    from enumerator.statistics import distribution
+
+    def ours():
+        return len(distribution(Occupancy(balls=2000, urns=500, rule="MB"), "max").pmf)
+
+    return ctx.compare(Method("enumerator", ours), [], notes=["answer: the support size"])
+
+
+@workload("dist-empty-mb", "exact distribution of the number of empty urns, MB n=10^4 r=10^3 (in seconds)")
+def _dist_empty(ctx):
+    from enumerator.statistics import distribution
+
+    def ours():
+        return len(distribution(Occupancy(balls=10 ** 4, urns=10 ** 3, rule="MB"), "empty").pmf)
+
+    return ctx.compare(Method("enumerator", ours), [], notes=["answer: the support size"])
+
+
+@workload("coefficient-row", "coefficients of (1+x+...+x^7)^5000 up to degree 20000",
+          target=at_most(1.2))
+def _coefficient_row(ctx):
+    from enumerator.generating import coefficient_row
+
+    r, c, top = 5000, 7, 20000
+    window = fmpz_poly([1] * (c + 1))
+
+    def ours():
+        row = coefficient_row(Occupancy(balls=top, urns=r, rule="BE", capacity=c), top)
+        return row[top], row[top // 2], len(row)
+
+    def full():
+        p = window ** r
+        return int(p[top]), int(p[top // 2]), top + 1
+
+    def trunc():
+        p = window.pow_trunc(r, top + 1)
+        return int(p[top]), int(p[top // 2]), top + 1
+
+    return ctx.compare(
+        Method("enumerator", ours),
+        [Method("flint fmpz_poly full power", full), Method("flint fmpz_poly pow_trunc", trunc)],
+        notes=["answer: (coefficient 20000, coefficient 10000, row length)"],
+    )
+
+
+def _sampling_workload(ctx, rule: str, size: int = 10 ** 5, **bounds):
+    import numpy as np
+    from enumerator.sampling import sample_array
+
+    n, r = 1000, 100
+
+    def ours():
+        a = sample_array(Occupancy(balls=n, urns=r, rule=rule, **bounds), size, seed=7)
+        return a.shape, int(a.sum())
+
+    def numpy_multinomial():
+        a = np.random.default_rng(7).multinomial(n, [1 / r] * r, size=size)
+        return a.shape, int(a.sum())
+
+    return ctx.compare(Method("enumerator", ours), [Method("numpy Generator.multinomial", numpy_multinomial)],
+                       items=size, notes=["answer: (shape, total balls); draws differ, only shapes and sums are compared"])
+
+
+@workload("sample-be", "10^5 exact BE samples, n=1000 r=100 unbounded", target=at_most(1))
+def _sample_be(ctx):
+    return _sampling_workload(ctx, "BE")
+
+
+@workload("sample-mb", "10^5 exact MB samples, n=1000 r=100 unbounded", target=at_most(1))
+def _sample_mb(ctx):
+    return _sampling_workload(ctx, "MB")
+
+
+@workload("sample-be-capacity", "10^4 exact BE samples, n=1000 r=100 capacity 15 (rate)")
+def _sample_be_capacity(ctx):
+    return _sampling_workload(ctx, "BE", size=10 ** 4, capacity=15)
+
+
+@workload("sample-mb-capacity", "10^4 exact MB samples, n=1000 r=100 capacity 15 (rate)")
+def _sample_mb_capacity(ctx):
+    return _sampling_workload(ctx, "MB", size=10 ** 4, capacity=15)
+
+
+# ---------------------------------------------------------------------------
+# the result store (store issue)
+# ---------------------------------------------------------------------------
+
+def _store_methods():
+    from enumerator.tables import bench_workloads
+
+    return bench_workloads()
+
+
+@workload("store-warm-lookup", "a stored count answered through the public API (target 1 ms median)")
+def _store_warm(ctx):
+    calls = _store_methods()
+    return ctx.compare(Method("enumerator", calls["warm_lookup"]), [])
+
+
+@workload("table-cold", "201 x 50 BE table built into an empty store (in seconds)")
+def _table_cold(ctx):
+    calls = _store_methods()
+    return ctx.compare(Method("enumerator", calls["table_cold"]), [])
+
+
+@workload("table-warm", "the same 201 x 50 BE table again, every cell stored (well under a second)")
+def _table_warm(ctx):
+    calls = _store_methods()
+    return ctx.compare(Method("enumerator", calls["table_warm"]), [])
+
+
+@workload("store-overhead", "a cold MB count of 10+ ms remembered in the store, against the pure computation",
+          target=at_most(1.1))
+def _store_overhead(ctx):
+    import tempfile
+    from functools import partial
+
+    from enumerator import store as store_module
+    from enumerator.counting import count_microstates
+
+    target = store_module.open_store(str(Path(tempfile.mkdtemp(prefix="enumerator-bench-")) / "o.sqlite"))
+
+    def fresh_models():
+        # each call a new key, so every stored call is a cold computation plus a write
+        for n in itertools.count(4000):
+            yield Occupancy(balls=n, urns=600, rule="MB", capacity=9)
+
+    stored_models, pure_models = fresh_models(), fresh_models()
+
+    def stored():
+        model = next(stored_models)
+        return store_module.remember("microstates", model, partial(count_microstates, model), store=target)
+
+    def pure():
+        return count_microstates(next(pure_models))
+
+    return ctx.compare(Method("enumerator with store", stored), [Method("pure computation", pure)],
+                       notes=["each call counts a new n, so the answers compared are the first calls' (n = 4000)"])
+
+
+# ---------------------------------------------------------------------------
+# energy levels (levels issue)
+# ---------------------------------------------------------------------------
+
+@workload("levels-trap-multiplicity", "Omega(N=100, E<=2000), bosons in the 3D harmonic trap (in seconds)")
+def _levels_multiplicity(ctx):
+    from enumerator.levels import System, harmonic_trap, multiplicities
+
+    def ours():
+        counts = multiplicities(System.create(harmonic_trap(), 100, "BE"), 2000)
+        return len(counts), counts[max(counts)] % (10 ** 12)
+
+    return ctx.compare(Method("enumerator", ours), [])
+
+
+@workload("levels-trap-canonical", "canonical occupations, N=1000 bosons in the trap at 20 temperatures (in seconds)")
+def _levels_canonical(ctx):
+    from enumerator.levels import System, canonical_occupations, harmonic_trap
+
+    def ours():
+        system = System.create(harmonic_trap().through(30), 1000, "BE")
+        points = canonical_occupations(system, [0.5 * (i + 1) for i in range(20)])
+        return len(points)
+
+    return ctx.compare(Method("enumerator", ours), [])
+
+
+# ---------------------------------------------------------------------------
 # main
 # ---------------------------------------------------------------------------
 
@@ -1023,6 +1196,7 @@ def to_json(results: List[Result], ctx: Context, env: Dict[str, str]) -> Dict[st
 
 
 def main(argv: Optional[List[str]] = None) -> int:
+    sys.set_int_max_str_digits(0)  # answers of thousands of digits are printed and compared
     parser = argparse.ArgumentParser(description="Benchmark enumerator against general-purpose peers.")
     parser.add_argument("--quick", action="store_true", help="every workload in under a minute")
     parser.add_argument("--only", action="append", metavar="NAME", help="run only this workload (repeatable)")
