@@ -699,26 +699,35 @@ def list_command(
             limit = as_count(limit, "--limit")
             stop = start + limit if stop is None else min(stop, start + limit)
         blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
-        out = sys.stdout
-        if as_json:
-            out.write(
-                '{"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d", "configurations": ['
-                % (model.rule.value, model.balls, model.urns, start)
-            )
-            listed = 0
-            for block in blocks:
-                # Rows "[k1,...,kr]," with the last comma dropped; one more comma between blocks.
-                out.write(("," if listed else "") + format_rows(block, "[", "],")[:-1])
-                listed += len(block)
-            out.write('], "listed": "%d"}\n' % listed)
-        elif fmt is ListFormat.csv:
-            out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
-            for block in blocks:
-                out.write(format_rows(block))
-        else:
-            for block in blocks:
-                out.write(format_rows(block, "[", "]\n"))
-        out.flush()
+        head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
+            model.rule.value, model.balls, model.urns, start)
+        write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")
+
+
+def write_vectors(blocks, urns: int, fmt, json_head: Optional[str], count_field: str) -> None:
+    """Stream blocks of occupancy vectors to stdout as csv, jsonl, or one JSON object.
+
+    With *json_head* (the object's leading fields, already encoded) the
+    vectors go under ``"configurations"`` and their number under
+    *count_field*; otherwise csv (header ``k1,...,kr``) or jsonl per *fmt*.
+    """
+    out = sys.stdout
+    if json_head is not None:
+        out.write("{" + json_head + ', "configurations": [')
+        written = 0
+        for block in blocks:
+            # Rows "[k1,...,kr]," with the last comma dropped; one more comma between blocks.
+            out.write(("," if written else "") + format_rows(block, "[", "],")[:-1])
+            written += len(block)
+        out.write('], "%s": "%d"}\n' % (count_field, written))
+    elif fmt is ListFormat.csv:
+        out.write(",".join(f"k{i}" for i in range(1, urns + 1)) + "\n")
+        for block in blocks:
+            out.write(format_rows(block))
+    else:
+        for block in blocks:
+            out.write(format_rows(block, "[", "]\n"))
+    out.flush()
 
 
 def format_rows(block, prefix: str = "", suffix: str = "\n") -> str:
@@ -932,26 +941,11 @@ def sample_command(
     stream = iter_sample_blocks(model, size, seed, method)
     first = next(stream, None)  # plans the draw, so a bad model fails before any output
     blocks = (block for block in itertools.chain([first] if first is not None else [], stream) if len(block))
-    out = sys.stdout
+    head = None
     if as_json:
-        used = method or sampling_method(model)
-        out.write(
-            '{"rule": "%s", "balls": "%d", "urns": "%d", "seed": "%d", "method": "%s", "configurations": ['
-            % (model.rule.value, model.balls, model.urns, seed, used)
-        )
-        drawn = 0
-        for block in blocks:
-            out.write(("," if drawn else "") + format_rows(block, "[", "],")[:-1])
-            drawn += len(block)
-        out.write('], "size": "%d"}\n' % drawn)
-    elif fmt is ListFormat.csv:
-        out.write(",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n")
-        for block in blocks:
-            out.write(format_rows(block))
-    else:
-        for block in blocks:
-            out.write(format_rows(block, "[", "]\n"))
-    out.flush()
+        head = '"rule": "%s", "balls": "%d", "urns": "%d", "seed": "%d", "method": "%s"' % (
+            model.rule.value, model.balls, model.urns, seed, method or sampling_method(model))
+    write_vectors(blocks, model.urns, fmt, head, "size")
 
 
 _PER_URN = [("any", "any number"), ("at_most_one", "at most one"), ("at_least_one", "at least one")]
