@@ -953,17 +953,54 @@ class _Blocks:
 
 
 def _blocks_table(plan, table, size, p, x, offset, total):
+    """Blocks whose last urns come from the suffix table (one run per remaining ``m``)."""
+    run = table.run
+
+    def span(m):
+        start, stop = run(m)[:2]
+        return stop - start
+
+    return _fill_blocks(plan, size, p, x, offset, total, span, table.fill)
+
+
+def _blocks_ranges(plan, size, p, x, offset, total):
+    """Blocks whose last two urns are ranges: ``(a + j, b + m - j)`` for ``j`` in a window."""
+    r, dtype, lows, caps = plan.r, plan.dtype, plan.lows, plan.caps
+    a, b = lows[-2], lows[-1]
+    c_last, c_pen = caps[-1], caps[-2]
+
+    def first(m):
+        return m - c_last if m > c_last else 0
+
+    def span(m):
+        return (c_pen if c_pen < m else m) - first(m) + 1
+
+    def fill(block, m, j, take):
+        steps = np.arange(first(m) + j, first(m) + j + take, dtype=dtype)
+        block[:, r - 2] = steps + a
+        block[:, r - 1] = np.subtract(m + b, steps, dtype=dtype)
+
+    return _fill_blocks(plan, size, p, x, offset, total, span, fill)
+
+
+def _fill_blocks(plan, size, p, x, offset, total, span, fill):
+    """Walk the prefixes and cut their suffix runs into blocks of *size* rows.
+
+    ``span(m)`` is the length of the run of suffixes for ``m`` remaining
+    balls, ``fill(block, m, j, take)`` writes suffixes ``j .. j+take-1`` of
+    that run into the last columns; the prefix urns are written here, one
+    broadcast per block.  *offset* skips into the first run, *total* caps the
+    rows (``None``: to the end).
+    """
     r, dtype, lows = plan.r, plan.dtype, plan.lows
     blocks = _Blocks(size, r, dtype)
     prefix = np.array([v + a for v, a in zip(x, lows)], dtype=dtype)
     out = blocks.take()
     pos = 0
-    fill = table.fill
     for changed, m in _walk(plan, p, x):
         for i in range(changed, p):
             prefix[i] = x[i] + lows[i]
-        start, stop = table.run(m)[:2]
-        lo, length = offset, stop - start
+        lo, length = offset, span(m)
         offset = 0
         while lo < length:
             take = length - lo
@@ -975,50 +1012,6 @@ def _blocks_table(plan, table, size, p, x, offset, total):
             if p:
                 block[:, :p] = prefix  # one memset per prefix urn, in one call
             fill(block, m, lo, take)
-            pos += take
-            lo += take
-            if total is not None:
-                total -= take
-                if total == 0:
-                    yield out[:pos]
-                    return
-            if pos == size:
-                yield out
-                out = blocks.take()
-                pos = 0
-    if pos:
-        yield out[:pos]
-
-
-def _blocks_ranges(plan, size, p, x, offset, total):
-    r, dtype, lows, caps = plan.r, plan.dtype, plan.lows, plan.caps
-    blocks = _Blocks(size, r, dtype)
-    a, b = lows[-2], lows[-1]
-    c_last, c_pen = caps[-1], caps[-2]
-    prefix = np.array([v + w for v, w in zip(x, lows)], dtype=dtype)
-    out = blocks.take()
-    pos = 0
-    for changed, m in _walk(plan, p, x):
-        for i in range(changed, p):
-            prefix[i] = x[i] + lows[i]
-        lo = m - c_last
-        if lo < 0:
-            lo = 0
-        hi = c_pen if c_pen < m else m
-        lo += offset
-        offset = 0
-        while lo <= hi:
-            take = hi - lo + 1
-            if take > size - pos:
-                take = size - pos
-            if total is not None and take > total:
-                take = total
-            block = out[pos : pos + take]
-            if p:
-                block[:, :p] = prefix
-            steps = np.arange(lo, lo + take, dtype=dtype)
-            block[:, r - 2] = steps + a
-            block[:, r - 1] = np.subtract(m + b, steps, dtype=dtype)
             pos += take
             lo += take
             if total is not None:
