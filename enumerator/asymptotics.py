@@ -275,6 +275,8 @@ class Approximation:
     order: Optional[Fraction] = None
     regime: str = ""
     uses: Tuple[str, ...] = ("urns",)
+    #: The value of ``at`` when none is given (``None``: no default here).
+    default_at: Optional[int] = None
 
     def check(self, point: Point) -> Point:
         """Validate *point* and fill this approximation's defaults."""
@@ -287,7 +289,12 @@ class Approximation:
                     "parameter (e.g. --urns 365 or --urns balls//2)"
                 )
             r = as_count(r, "urns", 1)
-        return replace(point, balls=n, urns=r)
+        at = point.at
+        if at is None:
+            at = self.default_at
+        elif "at" in self.uses:
+            at = as_count(at, "at")
+        return replace(point, balls=n, urns=r, at=at)
 
     def exact(self, point: Point) -> Exact:  # pragma: no cover - abstract
         """The exact quantity at *point* (``int`` or ``Fraction``)."""
@@ -513,11 +520,7 @@ class EmptyPoisson(Approximation):
     order = Fraction(1)
     regime = "n, r -> ∞ with r e^{-n/r} fixed (order 1 up to a log factor)"
     uses = ("urns", "at")
-
-    def check(self, point):
-        point = super().check(point)
-        at = 0 if point.at is None else as_count(point.at, "at")
-        return replace(point, at=at)
+    default_at = 0
 
     def exact(self, point):
         return empty_urns_at_most(point.balls, point.urns, point.at)
@@ -737,11 +740,7 @@ class Boltzmann(Approximation):
     order = Fraction(1)
     regime = "balls proportional to urns (e.g. --urns balls//2)"
     uses = ("urns", "at")
-
-    def check(self, point):
-        point = super().check(point)
-        at = 0 if point.at is None else as_count(point.at, "at")
-        return replace(point, at=at)
+    default_at = 0
 
     def exact(self, point):
         n, r, j = point.balls, point.urns, point.at
@@ -803,6 +802,7 @@ class GrandCanonical(Approximation):
     order = Fraction(2)
     regime = "BE ground level, urns tied to balls (e.g. --urns balls), fixed --factor"
     uses = ("urns", "rule", "at", "factor")
+    default_at = 0
     #: Largest ``N^3 r log2(q)`` (bit operations, roughly) of the exact recursion.
     WORK_LIMIT = 6 * 10**9
 
@@ -814,7 +814,7 @@ class GrandCanonical(Approximation):
                 "for MB the grand-canonical occupation equals the canonical one exactly; choose --rule BE or FD"
             )
         factor = Fraction(1, 2) if point.factor is None else parse_factor(point.factor)
-        at = 0 if point.at is None else as_count(point.at, "at")
+        at = point.at
         n, r = point.balls, point.urns
         if at >= r:
             raise InvalidParameters(f"at is {at} but the levels are 0..{r - 1}; give --at below urns")
