@@ -26,13 +26,13 @@ from __future__ import annotations
 import math
 from collections import Counter
 from fractions import Fraction
-from typing import Dict, List, Tuple
+from typing import Dict, List
 
 import gmpy2
 from flint import fmpz, fmpz_poly
 
 from . import series
-from .errors import TooLarge, Unsupported
+from .errors import TooLarge
 from .model import Occupancy, Rule, as_count
 
 __all__ = [
@@ -65,13 +65,16 @@ def binomial(n: int, k: int):
     return gmpy2.comb(n, k)
 
 
-def multinomial(values) -> int:
+def multinomial(values, top=None) -> int:
     """``(sum k)! / prod k_i!`` as an ``mpz``.
 
     One factorial divided exactly by the product of the small factorials
     (GMP's ``mpz_fac_ui`` uses prime-swing factorisation, so this is fast).
+    *top*, when given, is ``(sum k)!`` already computed (callers weighing
+    many vectors of one model compute it once).
     """
-    top = gmpy2.fac(sum(values))
+    if top is None:
+        top = gmpy2.fac(sum(values))
     den = mpz(1)
     fac = gmpy2.fac
     for v in values:
@@ -325,12 +328,7 @@ def _reduced_mb_probability(model: Occupancy, values) -> Fraction:
         fac_n = memo["fac_n"] = gmpy2.fac(model.balls)
         memo["primes"] = [(p, model.balls * int(gmpy2.remove(model.urns, p)[1]))
                           for p in _prime_factors(model.urns)]
-    fac = gmpy2.fac
-    den = mpz(1)
-    for v in values:
-        if v > 1:
-            den *= fac(v)
-    num = gmpy2.divexact(fac_n, den)
+    num = multinomial(values, fac_n)
     denominator = _microstates(model)
     for p, top in memo["primes"]:
         reduced, times = gmpy2.remove(num, p)

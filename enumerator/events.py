@@ -68,7 +68,7 @@ from typing import Dict, List, Optional, Sequence, Tuple, Union
 
 import gmpy2
 
-from .counting import count_configurations
+from .counting import count_configurations, multinomial
 from .errors import InvalidParameters, TooLarge
 from .model import Occupancy, Rule, as_count
 from .statistics import DEFAULT_LIMIT, Statistic, outcome_count, statistic_counts
@@ -892,10 +892,7 @@ def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[boo
                 hits = [k for k in rows if _evaluate(node, k)]
                 if mb:
                     for k in hits:
-                        den = mpz(1)
-                        for v in k:
-                            den *= fac(v)
-                        found += gmpy2.divexact(fac_n, den)
+                        found += multinomial(k, fac_n)
                 else:
                     found += len(hits)
             else:
@@ -906,10 +903,7 @@ def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[boo
                     if len(chosen):
                         profiles, times = np.unique(chosen, axis=0, return_counts=True)
                         for profile, count in zip(profiles.tolist(), times.tolist()):
-                            den = mpz(1)
-                            for v in profile:
-                                den *= fac(v)
-                            found += gmpy2.divexact(fac_n, den) * count
+                            found += multinomial(profile, fac_n) * count
                 else:
                     found += int(mask.sum())
             if bar is not None:

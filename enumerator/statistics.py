@@ -78,7 +78,7 @@ import gmpy2
 from flint import fmpz, fmpz_poly
 
 from . import series
-from .counting import count_configurations, count_microstates, count_profiles
+from .counting import count_configurations, count_microstates, count_profiles, multinomial
 from .errors import InvalidParameters, TooLarge
 from .model import Occupancy, Rule, as_count
 
@@ -1072,7 +1072,7 @@ def _group_marked_counts(model: Occupancy, low: int, high: Optional[int], limit:
     which ``j_g`` urns of group ``g`` are confined to the marked set.
     Groups whose whole range is marked (or unmarked) add a constant.
     """
-    n, r = model.balls, model.urns
+    n = model.balls
     eff = model.effective_bounds()
     groups: Counter = Counter(eff)
     always = 0
@@ -1154,12 +1154,7 @@ def _profile_counts(model: Occupancy, limit: int) -> Dict[Tuple[int, ...], "mpz"
             arrangements = fac_r
             for m in mult.values():
                 arrangements = divexact(arrangements, fac(m))
-            weight = mpz(1)
-            if mb:
-                den = mpz(1)
-                for v in profile:
-                    den *= fac(v)
-                weight = divexact(fac_n, den)
+            weight = multinomial(profile, fac_n) if mb else 1
             counts[profile] = arrangements * weight
         return counts
     largest = max(b for _, b in eff)
@@ -1175,12 +1170,7 @@ def _profile_counts(model: Occupancy, limit: int) -> Dict[Tuple[int, ...], "mpz"
         arrangements = _arrangements(Counter(profile), groups)
         if not arrangements:
             continue
-        weight = mpz(1)
-        if mb:
-            den = mpz(1)
-            for v in profile:
-                den *= fac(v)
-            weight = divexact(fac_n, den)
+        weight = multinomial(profile, fac_n) if mb else 1
         counts[profile] = arrangements * weight
     return counts
 
@@ -1250,12 +1240,7 @@ def _enumerated_counts(model: Occupancy, label: str, limit: int, value: Callable
     fac_n = fac(model.balls)
     counts: Dict = {}
     for k in model.iter_configurations():
-        w = mpz(1)
-        if mb:
-            den = mpz(1)
-            for v in k:
-                den *= fac(v)
-            w = divexact(fac_n, den)
+        w = multinomial(k, fac_n) if mb else 1
         key = value(k)
         counts[key] = counts.get(key, 0) + w
     return counts
