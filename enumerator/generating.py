@@ -33,7 +33,7 @@ import math
 import tokenize
 from collections import Counter
 from fractions import Fraction
-from typing import Dict, List, Optional, Sequence, Tuple, Union
+from typing import Dict, List, Optional, Tuple, Union
 
 import gmpy2
 import sympy

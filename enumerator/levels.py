@@ -56,11 +56,10 @@ Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from fractions import Fraction
 from typing import Dict, Iterable, List, Optional, Sequence, Tuple
 
-import gmpy2
 import mpmath
 from flint import fmpz_poly
 

@@ -13,7 +13,7 @@ multiplication and division of polynomials with complex coefficients*, 1982
 
 from __future__ import annotations
 
-from typing import Iterable, List, Sequence, Tuple
+from typing import Iterable, List, Sequence
 
 import gmpy2
 from flint import fmpz_poly

@@ -42,7 +42,7 @@ from flint import fmpz_poly
 
 from . import series
 from .errors import InvalidParameters, StoreError, TooLarge
-from .model import Occupancy, Rule, as_count
+from .model import Occupancy, Rule
 from .store import ALGORITHM_VERSIONS, Key, Store, _checksum, _digit_len, current_store, open_store
 
 __all__ = [
