@@ -10,7 +10,6 @@ read.
 
 from __future__ import annotations
 
-import itertools
 import math
 from fractions import Fraction
 

@@ -26,11 +26,10 @@ import pytest
 import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from typer.testing import CliRunner
 
 from enumerator.cli import app
 
-runner = CliRunner()
+from cli_helpers import run, run_json, runner
 DIGITS = re.compile(r"\d+")
 
 
@@ -41,21 +40,6 @@ def _private_store(tmp_path_factory):
         patch.setenv("ENUMERATOR_STORE", str(tmp_path_factory.mktemp("store") / "cli.sqlite"))
         patch.delenv("ENUMERATOR_NO_CACHE", raising=False)
         yield
-
-
-def run(*args: str, env=None):
-    """Invoke the CLI in-process and return the result."""
-    return runner.invoke(app, [str(a) for a in args], env=env)
-
-
-def run_json(*args: str) -> dict:
-    result = run(*args, "--json")
-    assert result.exit_code == 0, result.output
-    lines = result.stdout.splitlines()
-    assert len(lines) == 1, "--json prints exactly one line holding one object"
-    payload = json.loads(lines[0])
-    assert isinstance(payload, dict)
-    return payload
 
 
 def brute(n: int, bounds, rule: str):

@@ -15,23 +15,19 @@ from fractions import Fraction
 
 import mpmath
 import pytest
-from typer.testing import CliRunner
 
 from enumerator.cli import app
 
-runner = CliRunner()
+import cli_helpers
+from cli_helpers import runner
 
 
 def run(*args):
-    return runner.invoke(app, ["compare", *map(str, args)])
+    return cli_helpers.run("compare", *args)
 
 
 def run_json(*args) -> dict:
-    result = run(*args, "--json")
-    assert result.exit_code == 0, result.output
-    lines = result.stdout.splitlines()
-    assert len(lines) == 1, "--json prints one line holding one object"
-    return json.loads(lines[0])
+    return cli_helpers.run_json("compare", *args)
 
 
 def test_birthday_single_point_json_contract():

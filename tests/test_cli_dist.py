@@ -9,16 +9,13 @@ problem (well known; from memory) and brute force over ``itertools.product``.
 from __future__ import annotations
 
 import itertools
-import json
 import math
 from fractions import Fraction
 
 import pytest
-from typer.testing import CliRunner
 
-from enumerator.cli import app
 
-runner = CliRunner()
+from cli_helpers import one_line_error, run, run_json
 
 
 @pytest.fixture(autouse=True, scope="module")
@@ -27,26 +24,6 @@ def _private_store(tmp_path_factory):
     with pytest.MonkeyPatch.context() as patch:
         patch.setenv("ENUMERATOR_STORE", str(tmp_path_factory.mktemp("store") / "dist.sqlite"))
         yield
-
-
-def run(*args):
-    return runner.invoke(app, [str(a) for a in args])
-
-
-def run_json(*args) -> dict:
-    result = run(*args, "--json")
-    assert result.exit_code == 0, result.output
-    lines = result.stdout.splitlines()
-    assert len(lines) == 1
-    return json.loads(lines[0])
-
-
-def one_line_error(result, code: int = 2) -> str:
-    assert result.exit_code == code
-    assert result.stdout == ""
-    lines = result.stderr.splitlines()
-    assert len(lines) == 1 and "Traceback" not in result.stderr
-    return lines[0]
 
 
 # ---------------------------------------------------------------- dist

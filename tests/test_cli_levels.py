@@ -9,30 +9,15 @@ Thermal Physics* (2000), Figure 2.6 (from memory).
 from __future__ import annotations
 
 import itertools
-import json
 import math
 from collections import Counter
 from fractions import Fraction
 
 import mpmath
 import pytest
-from typer.testing import CliRunner
-
-from enumerator.cli import app
-
-runner = CliRunner()
 
 
-def run(*args):
-    return runner.invoke(app, [str(a) for a in args])
-
-
-def run_json(*args) -> dict:
-    result = run(*args, "--json")
-    assert result.exit_code == 0, result.output
-    lines = result.stdout.splitlines()
-    assert len(lines) == 1, "--json prints exactly one line holding one object"
-    return json.loads(lines[0])
+from cli_helpers import run, run_json
 
 
 def brute_states(energies, degeneracies, n, rule):

@@ -19,13 +19,12 @@ import sys
 
 import pytest
 from sympy.functions.combinatorial.numbers import stirling
-from typer.testing import CliRunner
 
 from enumerator import store as results
 from enumerator import tables
-from enumerator.cli import app
 
-runner = CliRunner()
+import cli_helpers
+from cli_helpers import run, run_json
 
 
 @pytest.fixture(autouse=True)
@@ -43,24 +42,9 @@ def where(tmp_path):
     return str(tmp_path / "cli.sqlite")
 
 
-def run(*args):
-    return runner.invoke(app, [str(a) for a in args])
-
-
-def run_json(*args) -> dict:
-    result = run(*args, "--json")
-    assert result.exit_code == 0, result.output
-    lines = result.stdout.splitlines()
-    assert len(lines) == 1
-    return json.loads(lines[0])
-
-
 def one_line_error(result, code=2) -> str:
-    assert result.exit_code == code, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1 and lines[0].startswith("Error: "), result.stderr
-    assert "Traceback" not in result.output
-    return lines[0]
+    # some store commands report progress on stdout before they fail
+    return cli_helpers.one_line_error(result, code, quiet_stdout=False)
 
 
 # -- table build / list / show / export ---------------------------------------------

@@ -10,7 +10,6 @@ from __future__ import annotations
 import math
 from fractions import Fraction
 
-import gmpy2
 import pytest
 import sympy
 from flint import fmpz_poly
@@ -20,9 +19,6 @@ from sympy.functions.combinatorial.numbers import nT, partition, stirling
 
 from enumerator import Occupancy
 from enumerator.counting import (
-    count_configurations,
-    count_microstates,
-    count_profiles,
     multinomial,
     partitions_at_most,
     twelvefold,

@@ -8,7 +8,6 @@ belong to scripts/bench.py).
 
 from __future__ import annotations
 
-import functools
 import itertools
 import logging
 import math
