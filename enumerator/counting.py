@@ -165,7 +165,7 @@ def _bounded_product_count(n: int, bounds) -> "mpz":
     if not groups:
         return gmpy2.comb(target + r - 1, r - 1)
     top = sum((b - a) for a, b in bounds if b is not None)
-    if len(groups) and all(b is not None for _, b in bounds) and target > top:
+    if all(b is not None for _, b in bounds) and target > top:
         return mpz(0)
     numerators = [series.one_minus_power(d, e, target) for d, e in sorted(groups.items())]
     numerator = series.product(numerators, target)
