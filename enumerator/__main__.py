@@ -1,4 +1,4 @@
-"""Run the command line tool as ``python -m enumerator``."""
+"""``python -m enumerator``: the command line tool."""
 
 from .cli import main
 

@@ -622,7 +622,7 @@ def flint_pow_trunc_coeff(n: int, r: int, c: int):
 
 def sympy_power_coeff(n: int, r: int, c: int):
     """``[x^n] (1 + x + ... + x^c)^r`` by SymPy ``Poly`` power."""
-    from sympy import Poly, ZZ, Symbol
+    from sympy import ZZ, Poly, Symbol
     return (Poly([1] * (c + 1), Symbol("x"), domain=ZZ) ** r).nth(n)
 
 
@@ -640,7 +640,7 @@ def flint_tree_coeff(uppers: List[int], n: int):
 
 def sympy_tree_coeff(uppers: List[int], n: int):
     """``[x^n] prod_i (1 + ... + x^{b_i})`` by a balanced product tree of SymPy ``Poly``."""
-    from sympy import Poly, ZZ, Symbol
+    from sympy import ZZ, Poly, Symbol
     x = Symbol("x")
     items = [Poly([1] * (b + 1), x, domain=ZZ) for b in uppers]
     while len(items) > 1:
@@ -660,7 +660,7 @@ def _scaled_window(c: int, r: int, n: int, how: str):
     elif how == "flint-trunc":
         coef = fmpz_poly(coeffs).pow_trunc(r, n + 1)[n]
     else:
-        from sympy import Poly, ZZ, Symbol
+        from sympy import ZZ, Poly, Symbol
         coef = (Poly(coeffs[::-1], Symbol("x"), domain=ZZ) ** r).nth(n)
     return gmpy2.divexact(mpz(int(coef)) * fac(n), fac(c) ** r)
 
@@ -1001,7 +1001,7 @@ def _list_memory(ctx):
 
 @workload("dist-max-mb", "exact distribution of the maximum, MB n=2000 r=500 (in seconds)")
 def _dist_max(ctx):
-    from enumerator.statistics import distribution
+    from enumerator.algorithms.statistics import distribution
 
     def ours():
         return len(distribution(Occupancy(balls=2000, urns=500, rule="MB"), "max").pmf)
@@ -1011,7 +1011,7 @@ def _dist_max(ctx):
 
 @workload("dist-empty-mb", "exact distribution of the number of empty urns, MB n=10^4 r=10^3 (in seconds)")
 def _dist_empty(ctx):
-    from enumerator.statistics import distribution
+    from enumerator.algorithms.statistics import distribution
 
     def ours():
         return len(distribution(Occupancy(balls=10 ** 4, urns=10 ** 3, rule="MB"), "empty").pmf)
@@ -1022,7 +1022,7 @@ def _dist_empty(ctx):
 @workload("coefficient-row", "coefficients of (1+x+...+x^7)^5000 up to degree 20000",
           target=at_most(1.2))
 def _coefficient_row(ctx):
-    from enumerator.generating import coefficient_row
+    from enumerator.algorithms.generating import coefficient_row
 
     r, c, top = 5000, 7, 20000
     window = fmpz_poly([1] * (c + 1))
@@ -1048,7 +1048,8 @@ def _coefficient_row(ctx):
 
 def _sampling_workload(ctx, rule: str, size: int = 10 ** 5, **bounds):
     import numpy as np
-    from enumerator.sampling import sample_array
+
+    from enumerator.algorithms.sampling import sample_array
 
     n, r = 1000, 100
 
@@ -1089,7 +1090,7 @@ def _sample_mb_capacity(ctx):
 # ---------------------------------------------------------------------------
 
 def _store_methods():
-    from enumerator.tables import bench_workloads
+    from enumerator.store.tables import bench_workloads
 
     return bench_workloads()
 
@@ -1119,7 +1120,7 @@ def _store_overhead(ctx):
     from functools import partial
 
     from enumerator import store as store_module
-    from enumerator.counting import count_microstates
+    from enumerator.algorithms.counting import count_microstates
 
     target = store_module.open_store(str(Path(tempfile.mkdtemp(prefix="enumerator-bench-")) / "o.sqlite"))
 
@@ -1147,7 +1148,7 @@ def _store_overhead(ctx):
 
 @workload("levels-trap-multiplicity", "Omega(N=100, E<=2000), bosons in the 3D harmonic trap (in seconds)")
 def _levels_multiplicity(ctx):
-    from enumerator.levels import System, harmonic_trap, multiplicities
+    from enumerator.algorithms.levels import System, harmonic_trap, multiplicities
 
     def ours():
         counts = multiplicities(System.create(harmonic_trap(), 100, "BE"), 2000)
@@ -1158,7 +1159,7 @@ def _levels_multiplicity(ctx):
 
 @workload("levels-trap-canonical", "canonical occupations, N=1000 bosons in the trap at 20 temperatures (in seconds)")
 def _levels_canonical(ctx):
-    from enumerator.levels import System, canonical_occupations, harmonic_trap
+    from enumerator.algorithms.levels import System, canonical_occupations, harmonic_trap
 
     def ours():
         system = System.create(harmonic_trap().through(30), 1000, "BE")
@@ -1221,8 +1222,9 @@ def _import_everything() -> None:
     """
     import importlib
 
-    for name in ("counting", "series", "listing", "statistics", "events", "generating",
-                 "sampling", "levels", "asymptotics", "store", "tables"):
+    for name in ("algorithms.counting", "core.series", "algorithms.listing", "algorithms.statistics",
+                 "algorithms.events", "algorithms.generating", "algorithms.sampling", "algorithms.levels",
+                 "algorithms.asymptotics", "store", "store.tables"):
         importlib.import_module(f"enumerator.{name}")
     Occupancy(balls=3, urns=2, rule="BE", capacity=2).configurations()
     Occupancy(balls=3, urns=2, rule="MB", capacity=2).microstates()

@@ -15,13 +15,13 @@ from fractions import Fraction
 
 import mpmath
 import pytest
+import reference
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.special import comb as scipy_comb
 
-import reference
 from enumerator import InvalidParameters, Occupancy, TooLarge
-from enumerator.asymptotics import (
+from enumerator.algorithms.asymptotics import (
     CATALOGUE,
     CSV_COLUMNS,
     Point,
@@ -633,9 +633,9 @@ def test_canonical_exact_side_is_brute_force(n, r, rule, t, data):
 
 @pytest.mark.parametrize("rule,n,r", [("BE", 30, 30), ("FD", 12, 25)])
 def test_canonical_exact_side_matches_levels_recursion(rule, n, r):
-    # enumerator.levels evaluates the Borrmann–Franke recursion in mpmath at a
+    # enumerator.algorithms.levels evaluates the Borrmann–Franke recursion in mpmath at a
     # temperature; T = 1/ln 2 given to 60 digits is t = 1/2 to that accuracy.
-    from enumerator import levels
+    from enumerator.algorithms import levels
 
     with mpmath.workdps(70):
         temperature = Fraction(mpmath.nstr(1 / mpmath.log(2), 60))
@@ -688,13 +688,13 @@ def test_grand_canonical_errors(point, error, message):
 
 
 # ---------------------------------------------------------------------------
-# Cross-checks with enumerator.statistics (another route through the engine)
+# Cross-checks with enumerator.algorithms.statistics (another route through the engine)
 # ---------------------------------------------------------------------------
 @pytest.mark.parametrize("n,r", [(40, 12), (200, 60), (500, 100)])
 def test_empty_urn_quantities_match_the_statistics_module(n, r):
     # statistics.distribution(..., "empty") uses binomial moments and an
     # inverse binomial transform, not the formulas used here (Feller §IV.2).
-    from enumerator.statistics import distribution
+    from enumerator.algorithms.statistics import distribution
 
     law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "empty")
     cumulative = Fraction(0)
@@ -709,7 +709,7 @@ def test_empty_urn_quantities_match_the_statistics_module(n, r):
 
 @pytest.mark.parametrize("n,r,j", [(30, 10, 0), (30, 10, 2), (100, 40, 5)])
 def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
-    from enumerator.statistics import distribution
+    from enumerator.algorithms.statistics import distribution
 
     model = Occupancy(balls=n, urns=r, rule="BE")
     mean_count = distribution(model, f"exactly:{j}").mean
@@ -721,6 +721,6 @@ def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
 def test_module_doctests():
     import doctest
 
-    import enumerator.asymptotics as module
+    import enumerator.algorithms.asymptotics as module
 
     assert doctest.testmod(module).failed == 0

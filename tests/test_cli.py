@@ -24,12 +24,12 @@ from pathlib import Path
 
 import pytest
 import sympy
+from cli_helpers import run, run_json, runner
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from enumerator.cli import app
 
-from cli_helpers import run, run_json, runner
 DIGITS = re.compile(r"\d+")
 
 
@@ -435,12 +435,12 @@ def test_malformed_input_through_python_m_has_no_traceback():
 
 
 def test_internal_failure_exits_1_with_one_line(monkeypatch):
-    import enumerator.model
+    import enumerator.facade
 
-    def broken(self):
+    def broken(self, **kwargs):
         raise RuntimeError("simulated fault")
 
-    monkeypatch.setattr(enumerator.model.Occupancy, "configurations", broken)
+    monkeypatch.setattr(enumerator.facade.Occupancy, "configurations", broken)
     result = runner.invoke(app, ["count", "-n", "3", "-r", "2"], env={"ENUMERATOR_DEBUG": None})
     assert result.exit_code == 1
     lines = result.stderr.splitlines()

@@ -13,13 +13,12 @@ import json
 import math
 from fractions import Fraction
 
+import cli_helpers
 import mpmath
 import pytest
+from cli_helpers import runner
 
 from enumerator.cli import app
-
-import cli_helpers
-from cli_helpers import runner
 
 
 def run(*args):

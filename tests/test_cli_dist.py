@@ -13,8 +13,6 @@ import math
 from fractions import Fraction
 
 import pytest
-
-
 from cli_helpers import one_line_error, run, run_json
 
 

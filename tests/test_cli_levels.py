@@ -15,8 +15,6 @@ from fractions import Fraction
 
 import mpmath
 import pytest
-
-
 from cli_helpers import run, run_json
 
 

@@ -17,23 +17,20 @@ import sqlite3
 import subprocess
 import sys
 
+import cli_helpers
 import pytest
+from cli_helpers import run, run_json
 from sympy.functions.combinatorial.numbers import stirling
 
 from enumerator import store as results
-from enumerator import tables
-
-import cli_helpers
-from cli_helpers import run, run_json
+from enumerator.store import tables
 
 
 @pytest.fixture(autouse=True)
 def _isolated(monkeypatch, tmp_path):
     monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
     monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    saved = dict(results._config)
     yield
-    results._config.update(saved)
     results.close_all()
 
 
@@ -91,7 +88,7 @@ def test_table_show_window_for_people(where):
     result = run("table", "show", "cavity", "--balls", "98..100", "--urns", "1..3", "--store", where)
     assert result.exit_code == 0, result.output
     assert "cavity: MB microstates, any number per urn" in result.stdout
-    line = next(l for l in result.stdout.splitlines() if l.startswith("│ 100"))
+    line = next(row for row in result.stdout.splitlines() if row.startswith("│ 100"))
     # 2^100 has 31 digits and starts 12...; 3^100 has 48 digits and starts 51... (r^n)
     assert "1" in line and "12…[31]" in line and "51…[48]" in line
     assert "'table export' gives them in full" in result.stdout
@@ -200,7 +197,7 @@ def test_cache_verify_reports_and_fixes_a_wrong_value(where):
         conn.execute("UPDATE enumerator_results SET value = '99' WHERE balls = '7'")
     result = run("cache", "verify", "--all", "--store", where)
     assert result.exit_code == 1
-    [line] = [l for l in result.stdout.splitlines() if l.startswith("MISMATCH")]
+    [line] = [row for row in result.stdout.splitlines() if row.startswith("MISMATCH")]
     # C(n, r) with bounds 0..3 in 4 urns at n = 7: 16 vectors (brute force, small case)
     brute = sum(1 for k in itertools.product(range(4), repeat=4) if sum(k) == 7)
     assert "configurations BE n=7 bounds 4*0:3" in line and f"recomputed {brute}" in line
@@ -220,7 +217,7 @@ def test_cache_clear_asks_for_yes_and_clears(where):
 
 def test_cache_export_jsonl_and_csv(where, tmp_path):
     run("count", "-n", 70, "-r", 2, "--rule", "MB", "--store", where)
-    records = [json.loads(l) for l in run("cache", "export", "--store", where).stdout.splitlines()]
+    records = [json.loads(row) for row in run("cache", "export", "--store", where).stdout.splitlines()]
     micro = next(r for r in records if r["quantity"] == "microstates")
     assert micro["value"] == str(2**70) and micro["digits"] == "22" and micro["balls"] == "70"
     target = tmp_path / "all.csv"
@@ -260,7 +257,7 @@ def test_a_read_only_store_answers_and_warns_once(where):
     )
     assert proc.returncode == 0, proc.stderr
     from enumerator import Occupancy
-    from enumerator.counting import count_microstates
+    from enumerator.algorithms.counting import count_microstates
 
     assert json.loads(proc.stdout)["microstates"] == str(count_microstates(Occupancy(balls=40, urns=6, rule="MB", capacity=9)))
     lines = proc.stderr.strip().splitlines()

@@ -11,21 +11,20 @@ import math
 from fractions import Fraction
 
 import pytest
+import reference
 import sympy
 from flint import fmpz_poly
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.special import comb as scipy_comb
 from sympy.functions.combinatorial.numbers import nT, partition, stirling
 
 from enumerator import Occupancy
-from enumerator.counting import (
+from enumerator.algorithms.counting import (
     multinomial,
     partitions_at_most,
     twelvefold,
 )
-
-import reference
-
 
 # ---------------------------------------------------------------------------
 # brute force on small random models (hypothesis picks them)

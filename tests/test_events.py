@@ -18,16 +18,24 @@ from typing import Tuple
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-import enumerator.events as events
-from enumerator import Occupancy
-from enumerator.counting import count_microstates
-from enumerator.errors import InvalidParameters, TooLarge
-from enumerator.events import (And, Comparison, Not, Or, Term, evaluate_event, event_count,
-                               event_probability, parse_event)
-from enumerator.statistics import distribution
-
 from reference import box, weight
+
+import enumerator.algorithms.events as events
+from enumerator import Occupancy
+from enumerator.algorithms.counting import count_microstates
+from enumerator.algorithms.events import (
+    And,
+    Comparison,
+    Not,
+    Or,
+    Term,
+    evaluate_event,
+    event_count,
+    event_probability,
+    parse_event,
+)
+from enumerator.algorithms.statistics import distribution
+from enumerator.core.errors import InvalidParameters, TooLarge
 
 CMP = {"==": operator.eq, "!=": operator.ne, "<": operator.lt, "<=": operator.le, ">": operator.gt, ">=": operator.ge}
 MIRROR = {"==": "==", "!=": "!=", "<": ">", ">": "<", "<=": ">=", ">=": "<="}

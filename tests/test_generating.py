@@ -13,13 +13,15 @@ import math
 from fractions import Fraction
 
 import pytest
+import reference
 import sympy
 from flint import fmpz_poly
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from sympy.functions.combinatorial.numbers import partition, stirling
 
 from enumerator import InvalidParameters, Occupancy, TooLarge
-from enumerator.generating import (
+from enumerator.algorithms.generating import (
     bivariate_generating_function,
     coefficient_row,
     extract_coefficients,
@@ -29,14 +31,13 @@ from enumerator.generating import (
     parse_mark,
 )
 
-import reference
-
 x, u = sympy.symbols("x u")
 
 
 def sympy_row(expr, degree, exponential=False):
     """Coefficients of *expr* up to *degree* by SymPy's series (times m! if exponential)."""
-    poly = sympy.expand(sympy.series(expr, x, 0, degree + 1).removeO())
+    # doit(): an unevaluated factor such as 1**0 would otherwise survive into the row
+    poly = sympy.expand(sympy.series(expr.doit(), x, 0, degree + 1).removeO())
     out = []
     for m in range(degree + 1):
         c = poly.coeff(x, m)

@@ -28,8 +28,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from enumerator.errors import InvalidParameters, TooLarge, Unsupported
-from enumerator.levels import (
+from enumerator.algorithms.levels import (
     System,
     canonical,
     canonical_occupations,
@@ -48,7 +47,8 @@ from enumerator.levels import (
     thermal_contact,
     two_level,
 )
-from enumerator.model import Rule
+from enumerator.core.errors import InvalidParameters, TooLarge, Unsupported
+from enumerator.core.rules import Rule
 
 
 # --------------------------------------------------------------------------
@@ -395,7 +395,7 @@ def test_occupations_sum_to_n_to_working_precision(rule, temperature):
     system = System.create(harmonic_trap(levels=10), 40, rule)
     point = canonical(system, [temperature], digits=50)[0]
     assert abs(mpmath.fsum(point.occupations_approx) - 40) < mpmath.mpf(10) ** -45
-    mu, gc = point.chemical_potential_approx, point.grand_canonical_occupations_approx
+    _mu, gc = point.chemical_potential_approx, point.grand_canonical_occupations_approx
     assert abs(mpmath.fsum(gc) - 40) < mpmath.mpf(10) ** -45
 
 

@@ -16,7 +16,7 @@ from enumerator import (
     Occupancy,
     Rule,
 )
-from enumerator.model import parse_bounds
+from enumerator.core.model import parse_bounds
 
 
 @pytest.mark.parametrize(

@@ -9,8 +9,8 @@ from fractions import Fraction
 import pytest
 
 from enumerator import Occupancy, store
-from enumerator.generating import coefficient_row
-from enumerator.statistics import distribution
+from enumerator.algorithms.generating import coefficient_row
+from enumerator.algorithms.statistics import distribution
 
 
 @pytest.fixture

@@ -15,19 +15,18 @@ from math import comb
 
 import numpy as np
 import pytest
+import reference
 from scipy.stats import binom, chisquare
 
 from enumerator import InvalidParameters, Occupancy, TooLarge
-from enumerator.sampling import (
+from enumerator.algorithms import sampling
+from enumerator.algorithms.sampling import (
     METHODS,
     iter_sample_blocks,
     sample,
     sample_array,
     sampling_method,
 )
-from enumerator import sampling
-
-import reference
 
 P_MIN = 0.001
 

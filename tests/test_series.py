@@ -14,11 +14,12 @@ import gmpy2
 import pytest
 import sympy
 from flint import fmpq, fmpq_poly, fmpz_poly
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.special import comb as scipy_comb
 from sympy.functions.combinatorial.numbers import stirling
 
-from enumerator import series
+from enumerator.core import series
 
 x = sympy.Symbol("x")
 

@@ -15,14 +15,13 @@ import scipy.stats
 import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-import enumerator.statistics as statistics
-from enumerator import Occupancy
-from enumerator.counting import count_configurations, count_microstates
-from enumerator.errors import InvalidParameters, TooLarge
-from enumerator.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
-
 from reference import box, weight
+
+import enumerator.algorithms.statistics as statistics
+from enumerator import Occupancy
+from enumerator.algorithms.counting import count_configurations, count_microstates
+from enumerator.algorithms.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
+from enumerator.core.errors import InvalidParameters, TooLarge
 
 STATS = ["empty", "occupied", "max", "min", "urn:1", "urn:2", "exactly:0", "exactly:1", "exactly:2",
          "atleast:1", "atleast:2", "atleast:3", "profile"]

@@ -1,7 +1,7 @@
 """Tests of the result store (enumerator/store.py).
 
 Every stored value is compared with an independent computation: the pure
-functions of enumerator.counting, brute-force enumeration, or GMP's binomial
+functions of enumerator.algorithms.counting, brute-force enumeration, or GMP's binomial
 (gmpy2.comb) as an outside reference.  No timing is asserted here (timings
 belong to scripts/bench.py).
 """
@@ -22,7 +22,9 @@ from hypothesis import strategies as st
 
 from enumerator import Occupancy, StoreError
 from enumerator import store as results
-from enumerator.counting import count_configurations, count_microstates, count_profiles
+from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
+from enumerator.store import context as store_context
+from enumerator.store import database as store_database
 
 
 @pytest.fixture(autouse=True)
@@ -30,10 +32,7 @@ def _isolated(monkeypatch):
     """Each test starts with no configured store and no environment overrides."""
     monkeypatch.delenv(results.ENV_STORE, raising=False)
     monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    saved = dict(results._config)
-    results.configure(None, enabled=True)
     yield
-    results._config.update(saved)
     results.close_all()
 
 
@@ -237,7 +236,7 @@ def test_registered_quantity_is_verified_with_its_recomputer(store):
         assert [(m["balls"], m["stored"], m["expected"]) for m in report["mismatches"]] == [(4, "17", "16")]
     finally:
         results.ALGORITHM_VERSIONS.pop("square_of_balls")
-        results._RECOMPUTE.pop("square_of_balls")
+        store_database._RECOMPUTE.pop("square_of_balls")
 
 
 # -- bypass ------------------------------------------------------------------
@@ -254,16 +253,43 @@ def test_env_no_cache_bypasses_the_store(tmp_path, monkeypatch):
     assert _raw_count(path) == 1
 
 
-def test_bypass_and_configure_switch_the_store_off(tmp_path):
+def test_bypass_switches_the_store_off_for_its_block_only(tmp_path):
     path = tmp_path / "s.sqlite"
     with results.using(str(path)):
         with results.bypass():
             Occupancy(balls=4, urns=4, rule="MB").microstates()
-        results.configure(enabled=False)
-        Occupancy(balls=5, urns=4, rule="MB").microstates()
-        results.configure(enabled=True)
+            with results.bypass():
+                Occupancy(balls=5, urns=4, rule="MB").microstates()
+            assert results.current_store() is None
         Occupancy(balls=6, urns=4, rule="MB").microstates()
     assert _raw_count(path) == 1
+
+
+def test_the_active_store_is_per_thread_and_never_leaks(tmp_path):
+    import threading
+
+    seen = {}
+
+    def other_thread():
+        seen["other"] = results.current_store()
+
+    with results.using(str(tmp_path / "mine.sqlite")) as mine:
+        thread = threading.Thread(target=other_thread)
+        thread.start()
+        thread.join()
+        assert results.current_store() is mine
+    # a fresh thread sees the default (here: ENUMERATOR_STORE is unset, so not 'mine')
+    assert seen["other"] is not mine
+
+
+def test_an_explicit_store_argument_wins_over_the_active_one(tmp_path):
+    path, other = tmp_path / "explicit.sqlite", tmp_path / "active.sqlite"
+    explicit = results.open_store(str(path))
+    with results.using(str(other)):
+        # C(6, 3) = 20 (Feller, vol. 1, II.5: BE with 4 urns and 3 balls)
+        assert Occupancy(balls=3, urns=4, rule="BE").configurations(store=explicit) == 20
+    assert _raw_count(path) == 1
+    assert not other.exists() or _raw_count(other) == 0
 
 
 def test_be_and_fd_microstates_share_the_configurations_entry(store, tmp_path):
@@ -285,12 +311,12 @@ def test_location_rule_explicit_then_env_then_checkout_then_user_cache(tmp_path,
     with results.using(str(tmp_path / "explicit.sqlite")) as chosen:
         assert chosen.path == (tmp_path / "explicit.sqlite").resolve()
     monkeypatch.delenv(results.ENV_STORE)
-    checkout = results._checkout_store_dir()
-    repo = Path(results.__file__).resolve().parent.parent
+    checkout = store_context._checkout_store_dir()
+    repo = Path(store_context.__file__).resolve().parent.parent.parent
     if (repo / "pyproject.toml").is_file() and (repo / "store").is_dir():
         assert checkout == repo / "store"
         assert results.default_location() == str(repo / "store" / results.DEFAULT_FILENAME)
-    monkeypatch.setitem(results._located, "checkout", None)  # as if installed, not a checkout
+    monkeypatch.setitem(store_context._located, "checkout", None)  # as if installed, not a checkout
     expected = Path(platformdirs.user_cache_dir("enumerator", appauthor=False)) / results.DEFAULT_FILENAME
     assert results.default_location() == str(expected)
 
@@ -300,10 +326,10 @@ def test_checkout_detection_never_picks_site_packages(tmp_path):
         (root / "enumerator").mkdir(parents=True)
         (root / "store").mkdir()
         (root / "pyproject.toml").write_text("[project]\n")
-    assert results._checkout_store_dir(tmp_path / "checkout" / "enumerator") == (tmp_path / "checkout" / "store").resolve()
-    assert results._checkout_store_dir(tmp_path / "lib" / "site-packages" / "enumerator") is None
+    assert store_context._checkout_store_dir(tmp_path / "checkout" / "enumerator") == (tmp_path / "checkout" / "store").resolve()
+    assert store_context._checkout_store_dir(tmp_path / "lib" / "site-packages" / "enumerator") is None
     (tmp_path / "bare" / "enumerator").mkdir(parents=True)
-    assert results._checkout_store_dir(tmp_path / "bare" / "enumerator") is None
+    assert store_context._checkout_store_dir(tmp_path / "bare" / "enumerator") is None
 
 
 def test_a_directory_or_an_sqlalchemy_url_is_accepted(tmp_path):
@@ -345,7 +371,7 @@ def test_a_truncated_database_is_refused_not_misread(tmp_path):
     path.write_bytes(data[: len(data) // 2])
     with pytest.raises(StoreError) as info:
         s = results.Store(str(path))
-        for entry in s.entries():
+        for _entry in s.entries():
             pass
     assert str(path) in str(info.value) and "damaged" in str(info.value)
 
@@ -406,7 +432,7 @@ def test_a_read_only_store_answers_and_says_so_once(tmp_path, caplog):
 
 def test_an_unwritable_location_is_treated_as_read_only(tmp_path, monkeypatch, caplog):
     # (the tests may run as root, who can write anywhere, so the check is simulated)
-    monkeypatch.setattr(results.os, "access", lambda path, mode: False)
+    monkeypatch.setattr(store_database.os, "access", lambda path, mode: False)
     caplog.set_level(logging.WARNING, logger="enumerator.store")
     path = tmp_path / "nowhere" / "s.sqlite"
     with results.using(str(path)) as chosen:

@@ -1,7 +1,7 @@
 """Tests of lookup tables (enumerator/tables.py).
 
 Rows built in one generating-function pass are checked cell by cell against
-the single counts of enumerator.counting, against brute force, and against
+the single counts of enumerator.algorithms.counting, against brute force, and against
 outside references (SciPy's exact binomials, SymPy's Stirling numbers and
 partitions, OEIS rows).  Building is checked for reuse and for resumption
 after an interruption or a killed process (four concurrent builders: see
@@ -29,17 +29,15 @@ from sympy.utilities.iterables import partitions
 
 from enumerator import InvalidParameters, Occupancy, StoreError, TooLarge
 from enumerator import store as results
-from enumerator import tables
-from enumerator.counting import count_configurations, count_microstates, count_profiles
+from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
+from enumerator.store import tables
 
 
 @pytest.fixture(autouse=True)
 def _isolated(monkeypatch):
     monkeypatch.delenv(results.ENV_STORE, raising=False)
     monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    saved = dict(results._config)
     yield
-    results._config.update(saved)
     results.close_all()
 
 
@@ -208,7 +206,7 @@ def test_a_killed_build_process_resumes(path, tmp_path):
     # a build in another process, killed (SIGKILL: no clean-up at all) once rows appear
     spec_args = dict(rule="MB", balls="0..150", urns="1..120", capacity=6)
     code = (
-        "import sys; from enumerator import tables;"
+        "import sys; from enumerator.store import tables;"
         f"tables.build_table(tables.TableSpec.make(**{spec_args!r}), store={path!r})"
     )
     proc = subprocess.Popen([sys.executable, "-c", code])

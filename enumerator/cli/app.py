@@ -50,8 +50,10 @@ try:  # recent typer releases vendor click as typer._click
 except ImportError:  # pragma: no cover - older typer on top of click
     from click.exceptions import ClickException, NoArgsIsHelpError
 
-from .errors import EnumeratorError, InvalidConfiguration
-from .model import Occupancy, Rule, as_count
+from ..core.errors import EnumeratorError, InvalidConfiguration
+from ..core.model import as_count
+from ..core.rules import Rule
+from ..facade import Occupancy
 
 __all__ = ["app", "build_model", "emit_json", "exact", "format_rows", "main", "show_table", "store_scope"]
 
@@ -301,7 +303,7 @@ def store_scope(location: Optional[str], no_cache: bool):
     ``store/`` folder, else the user cache directory; see
     :mod:`enumerator.store`).
     """
-    from . import store as results
+    from .. import store as results
 
     if no_cache:
         with results.bypass():
@@ -507,7 +509,7 @@ def prob_command(
         $ enumerator prob -n 23 -r 365 --event "max <= 1"
         $ enumerator prob -n 10 -r 6 --event "empty >= 2 or k1 == 0" --json
     """
-    from .errors import InvalidParameters
+    from ..core.errors import InvalidParameters
 
     if (config is None) == (event is None):
         raise InvalidParameters(
@@ -517,7 +519,7 @@ def prob_command(
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
         if event is not None:
-            from .events import event_probability
+            from ..algorithms.events import event_probability
 
             probability = event_probability(model, event, limit=_limit(limit))
             field, text, title = "event", event, f"{_describe(model)}; event {event}"
@@ -550,7 +552,7 @@ def prob_command(
 
 def _limit(limit: Optional[int]) -> int:
     """The ``--limit`` of dist/prob, or the library default."""
-    from .statistics import DEFAULT_LIMIT
+    from ..algorithms.statistics import DEFAULT_LIMIT
 
     return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
 
@@ -810,7 +812,7 @@ def gf_command(
         $ enumerator gf -n 8 -r 4 --rule MB --minimum 1 --json
         $ enumerator gf -n 5 -r 3 --rule BE --mark empty
     """
-    from .generating import bivariate_generating_function, generating_function, kind
+    from ..algorithms.generating import bivariate_generating_function, generating_function, kind
 
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
@@ -871,7 +873,7 @@ def coeff_command(
         $ enumerator coeff "1/((1-x)(1-x^2)(1-x^5)(1-x^10))" --upto 100 --json
         $ enumerator coeff "(1 + z)^5/(2 - z)" --var z --upto 6
     """
-    from .generating import extract_coefficients
+    from ..algorithms.generating import extract_coefficients
 
     top = as_count(upto, "--upto")
     values = extract_coefficients(expression, top, var)
@@ -933,7 +935,7 @@ def sample_command(
     import itertools
     import secrets
 
-    from .sampling import iter_sample_blocks, sampling_method
+    from ..algorithms.sampling import iter_sample_blocks, sampling_method
 
     model = build_model(balls, urns, rule, capacity, minimum, bounds)
     size = as_count(size, "--size")
@@ -975,7 +977,7 @@ def ways_command(
         $ enumerator ways -n 5 -r 3 --json
     """
     with store_scope(store, no_cache):
-        from .counting import twelvefold
+        from ..algorithms.counting import twelvefold
 
         n = as_count(balls, "balls")
         r = as_count(urns, "urns", 1)
@@ -1191,7 +1193,7 @@ class EntryFormat(str, Enum):
 
 def _open_store(location: Optional[str]):
     """The store named by ``--store`` (else the default); table and cache commands always use one."""
-    from . import store as results
+    from .. import store as results
 
     return results.open_store(location)
 
@@ -1211,7 +1213,7 @@ def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
                 handle.write(line)
                 count += 1
     except OSError as error:
-        from .errors import StoreError
+        from ..core.errors import StoreError
 
         raise StoreError(f"cannot write {output} ({error.strerror}); choose another --output") from None
     return count
@@ -1271,7 +1273,7 @@ def table_build_command(
     """
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from .tables import TableSpec, build_table, parse_range
+    from ..store.tables import TableSpec, build_table, parse_range
 
     spec = TableSpec.make(rule, parse_range(balls, "--balls"), parse_range(urns, "--urns"),
                           capacity=capacity, minimum=minimum, quantity=quantity)
@@ -1339,7 +1341,7 @@ def table_list_command(store: Store = None, as_json: Json = False) -> None:
         $ enumerator table list
         $ enumerator table list --json
     """
-    from .tables import list_tables
+    from ..store.tables import list_tables
 
     target = _open_store(store)
     found = list_tables(store=target)
@@ -1392,7 +1394,7 @@ def table_show_command(
 
         $ enumerator table show BE-configurations-n0..200-r1..50 --balls 0..10 --urns 1..5
     """
-    from .tables import load_table, parse_range
+    from ..store.tables import load_table, parse_range
 
     data = load_table(name, store=_open_store(store))
     spec = data.spec
@@ -1450,7 +1452,7 @@ def table_export_command(
         $ enumerator table export BE-configurations-n0..200-r1..50 --format csv > be.csv
         $ enumerator table export shelves --format latex --output shelves.tex
     """
-    from .tables import export_table, load_table
+    from ..store.tables import export_table, load_table
 
     data = load_table(name, store=_open_store(store))
     _write_output([export_table(data, fmt.value)], output)
@@ -1469,7 +1471,7 @@ def table_drop_command(name: TableName, store: Store = None) -> None:
 
         $ enumerator table drop shelves
     """
-    from .errors import InvalidParameters
+    from ..core.errors import InvalidParameters
 
     target = _open_store(store)
     if not target.delete_table(name):
@@ -1590,7 +1592,7 @@ def cache_clear_command(
     if not (yes or stale):
         what = f"every {quantity} entry" if quantity else "every stored result and table definition"
         if not sys.stdin.isatty():
-            from .errors import InvalidParameters
+            from ..core.errors import InvalidParameters
 
             raise InvalidParameters(f"this would delete {what} in {target.name}; add --yes to confirm")
         typer.confirm(f"Delete {what} in {target.name}?", abort=True)
@@ -1739,8 +1741,8 @@ def compare_command(
         $ enumerator compare saddle --vary balls=100..10000 --urns "balls//2" --capacity 3 --csv
         $ enumerator compare grand-canonical --vary balls=10..160 --urns balls --factor 1/2
     """
-    from . import asymptotics
-    from .errors import InvalidParameters
+    from ..algorithms import asymptotics
+    from ..core.errors import InvalidParameters
 
     if show_list:
         entries = asymptotics.catalogue_rows()
@@ -1802,7 +1804,7 @@ def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[st
 
 def _level_system(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators):
     """Options -> :class:`~enumerator.levels.System` (validation is the library's)."""
-    from . import levels as lv
+    from ..algorithms import levels as lv
 
     return lv.make_system(
         particles=particles, energies=energies, degeneracies=degeneracies, rule=rule,
@@ -1897,7 +1899,7 @@ def levels_command(
         $ enumerator levels --preset trap --particles 100 --rule BE --max-energy 40 --temperatures 2,4 --json
         $ enumerator levels --preset einstein --oscillators 3 --max-energy 6 --microcanonical
     """
-    from . import levels as lv
+    from ..algorithms import levels as lv
 
     system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
                            dimension, gap, oscillators)
@@ -2041,7 +2043,7 @@ def contact_command(
         $ enumerator contact --oscillators-a 3 --oscillators-b 3 --quanta 6
         $ enumerator contact --preset-a two-level --particles-a 10 --preset-b trap --particles-b 4 --rule-b BE --energy 12
     """
-    from . import levels as lv
+    from ..algorithms import levels as lv
 
     side_a = _level_system(particles_a, energies_a, degeneracies_a, rule_a or rule, capacity_a,
                            preset_a, levels_a, dimension_a, gap_a, oscillators_a)

@@ -1,6 +1,6 @@
 r"""Lexicographic listing, ranking and unranking of admissible configurations.
 
-A configuration of an :class:`~enumerator.model.Occupancy` is an occupancy
+A configuration of an :class:`~enumerator.model.UrnModel` is an occupancy
 vector ``k = (k_1, ..., k_r)`` with ``a_i <= k_i <= b_i`` and
 ``k_1 + ... + k_r = n``.  This module lists them in **ascending lexicographic
 order** (``n = 2, r = 2``: ``(0, 2), (1, 1), (2, 0)``), gives the rank of a
@@ -81,9 +81,9 @@ look-ups), a scan of the carried binomial (``O(n' + r)`` small steps in
 all; a binary search on ``math.comb`` when ``n'`` dwarfs ``r``), or one
 comparison per urn (capacities at most 1).
 
-Caching: the plan, the suffix tables and the rank table live in the model's
-``_memo`` under keys starting with ``"listing."``; they go when the model
-does.
+Caching: the plan, the suffix tables and the rank table live in this
+module's :class:`~enumerator.core.memo.ModelMemo` under keys starting with
+``"listing."``; the 32 most recently used models keep theirs.
 """
 
 from __future__ import annotations
@@ -97,10 +97,14 @@ from typing import Iterator, List, Optional, Tuple
 
 import numpy as np
 
-from .errors import InvalidConfiguration, InvalidParameters, TooLarge
-from .model import as_count
+from ..core.errors import InvalidConfiguration, InvalidParameters, TooLarge
+from ..core.memo import ModelMemo
+from ..core.model import as_count
 
 __all__ = ["block_dtype", "iter_blocks", "iter_configurations", "rank", "unrank"]
+
+# Working data kept per model between calls (see enumerator.core.memo).
+_MEMO = ModelMemo("listing")
 
 #: Upper limit (bytes, estimated) of the suffix-count table used by ``rank``
 #: and ``unrank`` for bounded models; raise it to allow larger models.
@@ -162,9 +166,10 @@ class _Plan:
 
 
 def _plan(model) -> _Plan:
-    plan = model._memo.get("listing.plan")
+    memo = _MEMO.slots(model)
+    plan = memo.get("listing.plan")
     if plan is None:
-        plan = model._memo["listing.plan"] = _Plan(model)
+        plan = memo["listing.plan"] = _Plan(model)
     return plan
 
 
@@ -280,7 +285,7 @@ def _choose_suffix(plan: _Plan, budget: int, top_column: int) -> int:
 
 def _plus(values, a: int, dtype):
     """``values + a`` in *dtype*: small shifted int64 values plus a lower bound of any size."""
-    if dtype == object:
+    if np.dtype(dtype).kind == "O":
         return values.astype(object) + a
     return values.astype(dtype) + dtype.type(a)
 
@@ -293,7 +298,7 @@ def _repeat(values, lengths, dtype=np.int64):
     *dtype* the sum runs modulo ``2^bits``, which is exact because every
     partial sum is one of the *values*.
     """
-    if dtype == object:
+    if np.dtype(dtype).kind == "O":
         return np.repeat(np.asarray(values, dtype=object), lengths)
     total = int(lengths.sum())
     out = np.zeros(total, dtype=dtype)
@@ -676,8 +681,8 @@ def rank(model, config) -> int:
 
     Examples
     --------
-    >>> from enumerator import Occupancy
-    >>> model = Occupancy(balls=2, urns=2, rule="BE")
+    >>> from enumerator import UrnModel
+    >>> model = UrnModel(balls=2, urns=2, rule="BE")
     >>> [model.rank(k) for k in [(0, 2), (1, 1), (2, 0)]]
     [0, 1, 2]
     >>> model.unrank(1)
@@ -704,7 +709,7 @@ def rank(model, config) -> int:
                 "only admissible configurations have a rank"
             )
     x = [v - a for v, a in zip(values, plan.lows)]
-    return _ranker(model._memo, plan).rank_from(x, 0, plan.N)
+    return _ranker(_MEMO.slots(model), plan).rank_from(x, 0, plan.N)
 
 
 def unrank(model, index) -> Tuple[int, ...]:
@@ -731,7 +736,7 @@ def unrank(model, index) -> Tuple[int, ...]:
             f"rank must be a whole number (got {index!r} of type {type(index).__name__})"
         ) from None
     plan = _plan(model)
-    ranker = _ranker(model._memo, plan)
+    ranker = _ranker(_MEMO.slots(model), plan)
     count = ranker.count
     if count == 0:
         raise InvalidParameters(
@@ -797,19 +802,19 @@ def iter_configurations(model, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
     Yields
     ------
     tuple of int
-        Occupancy vectors; a tuple may be reused by CPython once the consumer
+        UrnModel vectors; a tuple may be reused by CPython once the consumer
         has dropped its reference (as ``itertools`` does), never while held.
     """
     plan = _plan(model)
-    start, total, empty = _range(model._memo, plan, start, stop)
+    start, total, empty = _range(_MEMO.slots(model), plan, start, stop)
     if empty:
         return iter(())
     r = plan.r
     if r == 1:
         return iter([(plan.N + plan.lows[0],)])
-    t, table = _table(model._memo, plan, "tuples")
+    t, table = _table(_MEMO.slots(model), plan, "tuples")
     p = r - t
-    x, offset = _start_state(model._memo, plan, p, start)
+    x, offset = _start_state(_MEMO.slots(model), plan, p, start)
     if table is None:
         return chain.from_iterable(_range_runs(plan, p, x, offset, total))
     return chain.from_iterable(_trim(_table_runs(plan, table, p, x), offset, total))
@@ -904,15 +909,15 @@ def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
     """
     size = as_count(size, "block size", 1)
     plan = _plan(model)
-    start, total, empty = _range(model._memo, plan, start, stop)
+    start, total, empty = _range(_MEMO.slots(model), plan, start, stop)
     if empty:
         return iter(())
     r = plan.r
     if r == 1:
         return iter([np.array([[plan.N + plan.lows[0]]], dtype=plan.dtype)])
-    t, table = _table(model._memo, plan, "blocks")
+    t, table = _table(_MEMO.slots(model), plan, "blocks")
     p = r - t
-    x, offset = _start_state(model._memo, plan, p, start)
+    x, offset = _start_state(_MEMO.slots(model), plan, p, start)
     if table is None:
         return _blocks_ranges(plan, size, p, x, offset, total)
     return _blocks_table(plan, table, size, p, x, offset, total)

@@ -31,9 +31,11 @@ from typing import Dict, List
 import gmpy2
 from flint import fmpz, fmpz_poly
 
-from . import series
-from .errors import TooLarge
-from .model import Occupancy, Rule, as_count
+from ..core import series
+from ..core.errors import TooLarge
+from ..core.memo import ModelMemo
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
 
 __all__ = [
     "binomial",
@@ -46,6 +48,9 @@ __all__ = [
     "partitions_at_most",
     "twelvefold",
 ]
+
+# Working data kept per model between calls (see enumerator.core.memo).
+_MEMO = ModelMemo("counting")
 
 mpz = gmpy2.mpz
 
@@ -173,8 +178,8 @@ def _bounded_product_count(n: int, bounds) -> "mpz":
     return series.dot_reversed(numerator, row, target)
 
 
-def _configurations(model: Occupancy):
-    memo = model._memo
+def _configurations(model: UrnModel):
+    memo = _MEMO.slots(model)
     if "configurations" in memo:
         return memo["configurations"]
     n, r = model.balls, model.urns
@@ -193,16 +198,16 @@ def _configurations(model: Occupancy):
     return value
 
 
-def count_configurations(model: Occupancy) -> int:
+def count_configurations(model: UrnModel) -> int:
     """The number of admissible occupancy vectors of *model*, exact.
 
     Closed form ``C(n - ra + r - 1, r - 1)`` for a uniform lower bound ``a``
     and no capacity; inclusion–exclusion for a uniform capacity; a truncated
     polynomial product for per-urn bounds (see the module docstring).
 
-    >>> count_configurations(Occupancy(balls=4, urns=3, rule="BE"))
+    >>> count_configurations(UrnModel(balls=4, urns=3, rule="BE"))
     15
-    >>> count_configurations(Occupancy(balls=4, urns=3, rule="BE", capacity=2))
+    >>> count_configurations(UrnModel(balls=4, urns=3, rule="BE", capacity=2))
     6
     """
     return int(_configurations(model))
@@ -263,8 +268,8 @@ def _mb_egf_count(n: int, bounds) -> "mpz":
     return gmpy2.divexact(mpz(c) * gmpy2.fac(n), scale)
 
 
-def _microstates(model: Occupancy):
-    memo = model._memo
+def _microstates(model: UrnModel):
+    memo = _MEMO.slots(model)
     if "microstates" in memo:
         return memo["microstates"]
     if model.rule is not Rule.MB:
@@ -284,7 +289,7 @@ def _microstates(model: Occupancy):
     return value
 
 
-def count_microstates(model: Occupancy) -> int:
+def count_microstates(model: UrnModel) -> int:
     """The number of equally likely outcomes of *model*, exact.
 
     MB: the admissible assignments of ``n`` distinguishable balls, i.e. the
@@ -292,15 +297,15 @@ def count_microstates(model: Occupancy) -> int:
     ``r! S(n, r)`` with every urn occupied, the EGF coefficient otherwise).
     BE, FD: equal to :func:`count_configurations`.
 
-    >>> count_microstates(Occupancy(balls=4, urns=3, rule="MB"))
+    >>> count_microstates(UrnModel(balls=4, urns=3, rule="MB"))
     81
-    >>> count_microstates(Occupancy(balls=4, urns=3, rule="MB", minimum=1))
+    >>> count_microstates(UrnModel(balls=4, urns=3, rule="MB", minimum=1))
     36
     """
     return int(_microstates(model))
 
 
-def configuration_weight(model: Occupancy, config) -> int:
+def configuration_weight(model: UrnModel, config) -> int:
     """How many equally likely outcomes have occupancy *config* (0 if it breaks a bound)."""
     values = model.check_configuration(config)
     if not model._within_bounds(values):
@@ -315,14 +320,14 @@ def _prime_factors(r: int) -> List[int]:
     return [int(p) for p, _ in fmpz(r).factor()]
 
 
-def _reduced_mb_probability(model: Occupancy, values) -> Fraction:
+def _reduced_mb_probability(model: UrnModel, values) -> Fraction:
     """``multinomial(k) / r^n`` in lowest terms without a big gcd.
 
     Only the primes of ``r`` can cancel, so each is removed from the
     multinomial (GMP ``mpz_remove``) up to its exponent in ``r^n``; that is
     several times cheaper than a general gcd of numbers of ``n log r`` bits.
     """
-    memo = model._memo
+    memo = _MEMO.slots(model)
     fac_n = memo.get("fac_n")
     if fac_n is None:
         fac_n = memo["fac_n"] = gmpy2.fac(model.balls)
@@ -344,16 +349,16 @@ def _reduced_mb_probability(model: Occupancy, values) -> Fraction:
     return f
 
 
-def configuration_probability(model: Occupancy, config) -> Fraction:
+def configuration_probability(model: UrnModel, config) -> Fraction:
     """The exact probability of the occupancy vector *config* under *model*'s rule.
 
     MB: ``n!/(k_1!...k_r!)`` over the microstates; BE/FD: one over the number
     of configurations.  A well-formed vector that breaks a bound has
     probability 0; a malformed one raises InvalidConfiguration.
 
-    >>> configuration_probability(Occupancy(balls=2, urns=2, rule="MB"), (1, 1))
+    >>> configuration_probability(UrnModel(balls=2, urns=2, rule="MB"), (1, 1))
     Fraction(1, 2)
-    >>> configuration_probability(Occupancy(balls=2, urns=2, rule="BE"), (1, 1))
+    >>> configuration_probability(UrnModel(balls=2, urns=2, rule="BE"), (1, 1))
     Fraction(1, 3)
     """
     values = model.check_configuration(config)
@@ -436,7 +441,7 @@ def _interval_matching(values: List[int], bounds) -> bool:
     return True
 
 
-def count_profiles(model: Occupancy) -> int:
+def count_profiles(model: UrnModel) -> int:
     """The number of distinct occupancy profiles (sorted vectors) of *model*.
 
     Uniform bounds ``a..b``: partitions of ``n - r a`` into at most ``r``
@@ -444,10 +449,10 @@ def count_profiles(model: Occupancy) -> int:
     bounds: partitions of ``n`` into at most ``r`` parts tested one by one
     with an interval matching, up to :data:`PROFILE_ENUMERATION_LIMIT`.
 
-    >>> count_profiles(Occupancy(balls=5, urns=3, rule="BE"))
+    >>> count_profiles(UrnModel(balls=5, urns=3, rule="BE"))
     5
     """
-    memo = model._memo
+    memo = _MEMO.slots(model)
     if "profiles" in memo:
         return memo["profiles"]
     n, r = model.balls, model.urns
@@ -460,7 +465,7 @@ def count_profiles(model: Occupancy) -> int:
     return value
 
 
-def _profiles_by_enumeration(model: Occupancy) -> int:
+def _profiles_by_enumeration(model: UrnModel) -> int:
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     if any(b < a for a, b in eff):

@@ -68,9 +68,11 @@ from typing import Dict, List, Optional, Sequence, Tuple, Union
 
 import gmpy2
 
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
 from .counting import count_configurations, multinomial
-from .errors import InvalidParameters, TooLarge
-from .model import Occupancy, Rule, as_count
+from .listing import iter_blocks
 from .statistics import DEFAULT_LIMIT, Statistic, outcome_count, statistic_counts
 
 __all__ = [
@@ -670,7 +672,7 @@ PLAN_STEP_LIMIT = 4096
 
 
 class _Planner:
-    def __init__(self, model: Occupancy, limit: int):
+    def __init__(self, model: UrnModel, limit: int):
         self.rule = model.rule
         self.n = model.balls
         self.r = model.urns
@@ -773,7 +775,7 @@ class _Planner:
         stat = Statistic("urn", key[1] + 1) if head == "urn" else Statistic(head, key[1])
         memo_key = ("law", bounds, stat)
         if memo_key not in self.memo:
-            model = Occupancy(balls=self.n, bounds=bounds, rule=self.rule)
+            model = UrnModel(balls=self.n, bounds=bounds, rule=self.rule)
             self.memo[memo_key] = statistic_counts(model, stat, self.limit)[0]
         counts = self.memo[memo_key]
         return sum(c for v, c in counts.items() if _truth(node, key, v))
@@ -781,7 +783,7 @@ class _Planner:
     def extreme(self, bounds, node, head: str) -> int:
         """Sum of bounded counts over the intervals of values where *node* holds."""
         n, r = self.n, self.r
-        eff = Occupancy(balls=n, bounds=bounds, rule=self.rule).effective_bounds()
+        eff = UrnModel(balls=n, bounds=bounds, rule=self.rule).effective_bounds()
         if head == "max":
             low = max(max(a for a, _ in eff), -(-n // r))
             high = min(n, max(b for _, b in eff))
@@ -867,7 +869,7 @@ def _progress(total: int, show: Optional[bool]):
     )
 
 
-def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[bool]) -> int:
+def _enumerate(model: UrnModel, node, text: str, limit: int, show: Optional[bool]) -> int:
     """Outcomes satisfying *node*, by listing every admissible configuration."""
     import numpy as np
 
@@ -886,7 +888,7 @@ def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[boo
     if bar is not None:
         bar.start()
     try:
-        for block in model.iter_blocks(_BLOCK):
+        for block in iter_blocks(model, _BLOCK):
             if block.dtype == object:
                 rows = [tuple(int(v) for v in row) for row in block]
                 hits = [k for k in rows if _evaluate(node, k)]
@@ -918,7 +920,7 @@ def _enumerate(model: Occupancy, node, text: str, limit: int, show: Optional[boo
 # public entry points
 # ---------------------------------------------------------------------------
 
-def event_count(model: Occupancy, event: Union[str, Event], limit: int = DEFAULT_LIMIT,
+def event_count(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_LIMIT,
                 progress: Optional[bool] = None) -> Tuple[int, int]:
     """Return ``(count, total)``: the equally likely outcomes where *event* holds, and all of them.
 
@@ -951,13 +953,13 @@ def event_count(model: Occupancy, event: Union[str, Event], limit: int = DEFAULT
     return int(count), int(total)
 
 
-def event_probability(model: Occupancy, event: Union[str, Event], limit: int = DEFAULT_LIMIT,
+def event_probability(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_LIMIT,
                       progress: Optional[bool] = None) -> Fraction:
     """Return the exact probability of *event* under *model*'s rule.
 
     Parameters
     ----------
-    model : Occupancy
+    model : UrnModel
     event : str
         An event in the language of this module, e.g. ``"max <= 1"``.
     limit : int
@@ -978,9 +980,9 @@ def event_probability(model: Occupancy, event: Union[str, Event], limit: int = D
     --------
     Three tagged molecules on five catalyst sites, no two on one site:
 
-    >>> event_probability(Occupancy(balls=3, urns=5, rule="MB"), "max <= 1")
+    >>> event_probability(UrnModel(balls=3, urns=5, rule="MB"), "max <= 1")
     Fraction(12, 25)
-    >>> event_probability(Occupancy(balls=3, urns=5, rule="BE"), "empty == 3 or k1 >= 2")
+    >>> event_probability(UrnModel(balls=3, urns=5, rule="BE"), "empty == 3 or k1 >= 2")
     Fraction(3, 5)
     """
     count, total = event_count(model, event, limit, progress)

@@ -64,8 +64,10 @@ import gmpy2
 import mpmath
 from flint import fmpq, fmpz
 
-from .errors import InvalidParameters, TooLarge, Unsupported
-from .model import Occupancy, Rule, as_count
+from ..core.errors import InvalidParameters, TooLarge, Unsupported
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
+from .counting import configuration_weight, count_configurations, count_microstates
 
 __all__ = [
     "Approximation",
@@ -111,7 +113,7 @@ _HONEST = 10
 class Point:
     """The parameters of one comparison.
 
-    ``balls`` (``n``) and ``urns`` (``r``) as in :class:`~enumerator.model.Occupancy`;
+    ``balls`` (``n``) and ``urns`` (``r``) as in :class:`~enumerator.model.UrnModel`;
     ``rule``, ``capacity`` and ``minimum`` for the saddle-point entry; ``at``
     the ``j`` of the empty-urn and profile entries; ``pattern`` the shape of
     the configurations of the entropy entry; ``factor`` the Boltzmann factor
@@ -348,7 +350,7 @@ class StirlingBE(Approximation):
         self.regime = "urns proportional to balls (e.g. --urns balls)"
 
     def exact(self, point):
-        return Occupancy(balls=point.balls, urns=point.urns, rule="BE").configurations()
+        return count_configurations(UrnModel(balls=point.balls, urns=point.urns, rule="BE"))
 
     def approximate(self, point):
         n, r = point.balls, point.urns
@@ -416,7 +418,7 @@ class Entropy(Approximation):
 
     def exact(self, point):
         k = self.configuration(point)
-        return Occupancy(balls=point.balls, urns=len(k), rule="MB").weight(k)
+        return configuration_weight(UrnModel(balls=point.balls, urns=len(k), rule="MB"), k)
 
     def approximate(self, point):
         k = self.configuration(point)
@@ -629,7 +631,7 @@ class Saddle(Approximation):
         capacity = as_count(capacity, "capacity")
         minimum = as_count(point.minimum or 0, "minimum")
         # the model validates FD capacities and minimum <= capacity
-        Occupancy(balls=point.balls, urns=point.urns, rule=rule, capacity=capacity, minimum=minimum)
+        UrnModel(balls=point.balls, urns=point.urns, rule=rule, capacity=capacity, minimum=minimum)
         n, r = point.balls, point.urns
         if not minimum * r < n < capacity * r:
             raise InvalidParameters(
@@ -639,15 +641,15 @@ class Saddle(Approximation):
             )
         return replace(point, rule=rule.value, capacity=capacity, minimum=minimum)
 
-    def model(self, point) -> Occupancy:
-        return Occupancy(
+    def model(self, point) -> UrnModel:
+        return UrnModel(
             balls=point.balls, urns=point.urns, rule=point.rule,
             capacity=point.capacity, minimum=point.minimum,
         )
 
     def exact(self, point):
         model = self.model(point)
-        return model.microstates() if model.rule is Rule.MB else model.configurations()
+        return count_microstates(model)
 
     def _weights(self, point):
         a, c = point.minimum, point.capacity
@@ -748,8 +750,8 @@ class Boltzmann(Approximation):
             return Fraction(0)
         if r == 1:
             return Fraction(1 if j == n else 0)
-        rest = Occupancy(balls=n - j, urns=r - 1, rule="BE").configurations()
-        return Fraction(rest, Occupancy(balls=n, urns=r, rule="BE").configurations())
+        rest = count_configurations(UrnModel(balls=n - j, urns=r - 1, rule="BE"))
+        return Fraction(rest, count_configurations(UrnModel(balls=n, urns=r, rule="BE")))
 
     def approximate(self, point):
         n, r, j = point.balls, point.urns, point.at

@@ -55,9 +55,12 @@ import gmpy2
 import numpy as np
 from flint import fmpz_poly
 
-from . import series
-from .errors import InvalidParameters, TooLarge
-from .model import Occupancy, Rule, as_count
+from ..core import series
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.memo import ModelMemo
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
+from .counting import count_configurations, count_microstates
 
 __all__ = [
     "METHODS",
@@ -67,6 +70,9 @@ __all__ = [
     "sample_array",
     "sampling_method",
 ]
+
+# Working data kept per model between calls (see enumerator.core.memo).
+_MEMO = ModelMemo("sampling")
 
 mpz = gmpy2.mpz
 
@@ -98,12 +104,12 @@ _TOP = np.uint64(2**64 - 1)
 METHODS = ("stars-and-bars", "subset", "uniform-balls", "rejection", "sequential")
 
 
-def sampling_method(model: Occupancy) -> str:
+def sampling_method(model: UrnModel) -> str:
     """The name of the exact method :func:`sample` uses for *model* (see the module docstring)."""
     return _plan(model).method
 
 
-def iter_sample_blocks(model: Occupancy, size, seed=None, method: Optional[str] = None) -> Iterator[np.ndarray]:
+def iter_sample_blocks(model: UrnModel, size, seed=None, method: Optional[str] = None) -> Iterator[np.ndarray]:
     """Yield ``size`` random configurations as int64 arrays of shape ``(rows, r)``.
 
     The laws and methods are described in the module docstring; *seed*
@@ -132,10 +138,10 @@ def iter_sample_blocks(model: Occupancy, size, seed=None, method: Optional[str] 
         rows = min(2 * rows, plan.cap)
 
 
-def sample_array(model: Occupancy, size, seed=None, method: Optional[str] = None) -> np.ndarray:
+def sample_array(model: UrnModel, size, seed=None, method: Optional[str] = None) -> np.ndarray:
     """Return ``size`` random configurations as one int64 array of shape ``(size, r)``.
 
-    >>> sample_array(Occupancy(balls=3, urns=2, rule="BE"), 4, seed=1).shape
+    >>> sample_array(UrnModel(balls=3, urns=2, rule="BE"), 4, seed=1).shape
     (4, 2)
     """
     blocks = list(iter_sample_blocks(model, size, seed, method))
@@ -144,13 +150,13 @@ def sample_array(model: Occupancy, size, seed=None, method: Optional[str] = None
     return np.concatenate(blocks) if len(blocks) > 1 else blocks[0]
 
 
-def sample(model: Occupancy, size, seed=None, method: Optional[str] = None) -> List[Tuple[int, ...]]:
+def sample(model: UrnModel, size, seed=None, method: Optional[str] = None) -> List[Tuple[int, ...]]:
     """Return ``size`` random configurations as tuples of ints, exactly from the rule's law.
 
     BE/FD: uniform over the admissible vectors; MB: probability
     ``n!/(k_1!...k_r!)`` over the microstates.  Same *seed*, same rows.
 
-    >>> rows = sample(Occupancy(balls=2, urns=3, rule="FD"), 3, seed=7)
+    >>> rows = sample(UrnModel(balls=2, urns=3, rule="FD"), 3, seed=7)
     >>> all(sum(k) == 2 and max(k) <= 1 for k in rows)
     True
     """
@@ -166,7 +172,7 @@ class _Plan:
 
     method = ""
 
-    def __init__(self, model: Occupancy):
+    def __init__(self, model: UrnModel):
         self.model = model
         self.r = model.urns
         self.cap = FIRST_BLOCK
@@ -180,12 +186,12 @@ class _Plan:
         self.cap = max(FIRST_BLOCK, min(1 << 16, cap))
 
 
-def _plan(model: Occupancy) -> _Plan:
-    memo = model._memo
+def _plan(model: UrnModel) -> _Plan:
+    memo = _MEMO.slots(model)
     plan = memo.get("sampling.plan")
     if plan is not None:
         return plan
-    if model.configurations() == 0:
+    if count_configurations(model) == 0:
         raise InvalidParameters(
             f"{model!r} admits no configuration (its bounds cannot hold {model.balls} balls), "
             "so there is nothing to sample; change the balls or the bounds"
@@ -195,13 +201,13 @@ def _plan(model: Occupancy) -> _Plan:
     return plan
 
 
-def _forced(model: Occupancy, method: str) -> _Plan:
+def _forced(model: UrnModel, method: str) -> _Plan:
     """The plan for an explicitly requested *method*, or a clear error if it does not apply."""
     if method not in METHODS:
         raise InvalidParameters(f"method must be one of {', '.join(METHODS)} (got {method!r})")
     _plan(model)  # the emptiness check
     key = f"sampling.plan.{method}"
-    plan = model._memo.get(key)
+    plan = _MEMO.slots(model).get(key)
     if plan is not None:
         return plan
     bounds = model.effective_bounds()
@@ -230,12 +236,12 @@ def _forced(model: Occupancy, method: str) -> _Plan:
             plan = _UniformBalls(model)
     else:
         if mb:
-            proposal = Occupancy(balls=model.balls, urns=model.urns, rule="MB")
-            share = Fraction(model.microstates(), proposal.microstates())
+            proposal = UrnModel(balls=model.balls, urns=model.urns, rule="MB")
+            share = Fraction(count_microstates(model), count_microstates(proposal))
             base: _Plan = _UniformBalls(proposal)
         else:
-            proposal = Occupancy(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
-            share = Fraction(model.configurations(), proposal.configurations())
+            proposal = UrnModel(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
+            share = Fraction(count_configurations(model), count_configurations(proposal))
             base = _StarsAndBars(proposal, lows, free)
         if share < REJECTION_FLOOR:
             raise TooLarge(
@@ -245,11 +251,11 @@ def _forced(model: Occupancy, method: str) -> _Plan:
         plan = _Rejection(model, base, share)
     if why:
         raise InvalidParameters(f"method {method!r} does not apply to {model!r}: {why}")
-    model._memo[key] = plan
+    _MEMO.slots(model)[key] = plan
     return plan
 
 
-def _choose(model: Occupancy) -> _Plan:
+def _choose(model: UrnModel) -> _Plan:
     bounds = model.effective_bounds()
     lows = [a for a, _ in bounds]
     free = model.balls - sum(lows)
@@ -258,8 +264,8 @@ def _choose(model: Occupancy) -> _Plan:
         unbounded = all(a == 0 and b >= model.balls for a, b in bounds)
         if unbounded:
             return _UniformBalls(model)
-        proposal = Occupancy(balls=model.balls, urns=model.urns, rule="MB")
-        share = Fraction(model.microstates(), proposal.microstates())
+        proposal = UrnModel(balls=model.balls, urns=model.urns, rule="MB")
+        share = Fraction(count_microstates(model), count_microstates(proposal))
         if share >= REJECTION_MIN:
             return _Rejection(model, _UniformBalls(proposal), share)
         return _Sequential(model)
@@ -267,8 +273,8 @@ def _choose(model: Occupancy) -> _Plan:
         return _Subset(model, lows, spans, free)
     if all(s >= free for s in spans):
         return _StarsAndBars(model, lows, free)
-    proposal = Occupancy(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
-    share = Fraction(model.configurations(), proposal.configurations())
+    proposal = UrnModel(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
+    share = Fraction(count_configurations(model), count_configurations(proposal))
     if share >= REJECTION_MIN:
         return _Rejection(model, _StarsAndBars(proposal, lows, free), share)
     return _Sequential(model)
@@ -329,7 +335,7 @@ class _StarsAndBars(_Plan):
 
     method = "stars-and-bars"
 
-    def __init__(self, model: Occupancy, lows, free: int):
+    def __init__(self, model: UrnModel, lows, free: int):
         super().__init__(model)
         self.lows = np.asarray(lows, dtype=np.int64)
         self.free = free
@@ -360,7 +366,7 @@ class _Subset(_Plan):
 
     method = "subset"
 
-    def __init__(self, model: Occupancy, lows, spans, free: int):
+    def __init__(self, model: UrnModel, lows, spans, free: int):
         super().__init__(model)
         self.lows = np.asarray(lows, dtype=np.int64)
         self.open = np.flatnonzero(np.asarray(spans) == 1)
@@ -394,7 +400,7 @@ class _UniformBalls(_Plan):
 
     method = "uniform-balls"
 
-    def __init__(self, model: Occupancy):
+    def __init__(self, model: UrnModel):
         super().__init__(model)
         n, r = model.balls, model.urns
         per = 1
@@ -434,7 +440,7 @@ class _Rejection(_Plan):
 
     method = "rejection"
 
-    def __init__(self, model: Occupancy, proposal: _Plan, share: Fraction):
+    def __init__(self, model: UrnModel, proposal: _Plan, share: Fraction):
         super().__init__(model)
         self.proposal = proposal
         self.share = share
@@ -499,7 +505,7 @@ class _Sequential(_Plan):
 
     method = "sequential"
 
-    def __init__(self, model: Occupancy):
+    def __init__(self, model: UrnModel):
         super().__init__(model)
         bounds = model.effective_bounds()
         self.bounds = bounds
@@ -517,7 +523,7 @@ class _Sequential(_Plan):
         self._set_cap(4 * self.r, SEQUENTIAL_CELLS)
 
     def _check_size(self) -> None:
-        bits = self.model.microstates().bit_length()
+        bits = count_microstates(self.model).bit_length()
         estimate = 2 * self.r * (self.free + 1) * max(bits, 1)
         if estimate > MAX_TABLE_BITS:
             raise TooLarge(

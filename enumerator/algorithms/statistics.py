@@ -1,6 +1,6 @@
 r"""Exact distributions of statistics of a random occupancy vector.
 
-A configuration ``k = (k_1, ..., k_r)`` of an :class:`~enumerator.model.Occupancy`
+A configuration ``k = (k_1, ..., k_r)`` of an :class:`~enumerator.model.UrnModel`
 is drawn under the model's rule (MB: every admissible assignment of the
 distinguishable balls equally likely; BE/FD: every admissible vector equally
 likely).  This module gives the exact law of
@@ -77,10 +77,12 @@ from typing import Callable, Dict, List, Optional, Sequence, Tuple, Union
 import gmpy2
 from flint import fmpz, fmpz_poly
 
-from . import series
+from ..core import series
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
 from .counting import count_configurations, count_microstates, count_profiles, multinomial
-from .errors import InvalidParameters, TooLarge
-from .model import Occupancy, Rule, as_count
+from .listing import iter_configurations
 
 __all__ = [
     "DEFAULT_LIMIT",
@@ -234,12 +236,12 @@ class Distribution:
         return list(self.pmf)
 
 
-def distribution(model: Occupancy, statistic: Union[str, Statistic], limit: int = DEFAULT_LIMIT) -> Distribution:
+def distribution(model: UrnModel, statistic: Union[str, Statistic], limit: int = DEFAULT_LIMIT) -> Distribution:
     """Return the exact distribution of *statistic* under *model*'s rule.
 
     Parameters
     ----------
-    model : Occupancy
+    model : UrnModel
         The model; its rule fixes which outcomes are equally likely.
     statistic : str or Statistic
         ``empty``, ``occupied``, ``max``, ``min``, ``urn:I``, ``exactly:J``,
@@ -264,12 +266,12 @@ def distribution(model: Occupancy, statistic: Union[str, Statistic], limit: int 
 
     Examples
     --------
-    >>> d = distribution(Occupancy(balls=3, urns=3, rule="MB"), "empty")
+    >>> d = distribution(UrnModel(balls=3, urns=3, rule="MB"), "empty")
     >>> d.pmf
     {0: Fraction(2, 9), 1: Fraction(2, 3), 2: Fraction(1, 9)}
     >>> d.mean, d.variance
     (Fraction(8, 9), Fraction(26, 81))
-    >>> distribution(Occupancy(balls=3, urns=2, rule="BE"), "max").pmf
+    >>> distribution(UrnModel(balls=3, urns=2, rule="BE"), "max").pmf
     {2: Fraction(1, 2), 3: Fraction(1, 2)}
     """
     stat = parse_statistic(statistic)
@@ -285,7 +287,7 @@ def distribution(model: Occupancy, statistic: Union[str, Statistic], limit: int 
     return Distribution(stat.name, pmf, mean, variance)
 
 
-def statistic_counts(model: Occupancy, statistic: Union[str, Statistic], limit: int = DEFAULT_LIMIT):
+def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: int = DEFAULT_LIMIT):
     """Return ``(counts, total)``: how many equally likely outcomes give each value.
 
     ``counts`` is ``{value: int}`` (values of count 0 may be missing) and
@@ -350,7 +352,7 @@ def _wrap(num, den) -> Fraction:
     return f
 
 
-def _reducer(model: Occupancy, total) -> Callable[[int], Fraction]:
+def _reducer(model: UrnModel, total) -> Callable[[int], Fraction]:
     """A function ``count -> Fraction(count, total)``.
 
     For MB without bounds ``total = r^n`` and only the primes of ``r`` can
@@ -412,7 +414,7 @@ def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int)
         return 0
     if rule is not Rule.MB:
         # FD's admissible vectors are BE's with the same (capped) bounds.
-        return count_configurations(Occupancy(balls=n, bounds=bounds, rule=Rule.BE))
+        return count_configurations(UrnModel(balls=n, bounds=bounds, rule=Rule.BE))
     r = len(bounds)
     free = [i for i, (a, b) in enumerate(bounds) if a == 0 and (b is None or b >= n - low)]
     uniform = all(p == bounds[0] for p in bounds)
@@ -420,9 +422,9 @@ def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int)
         a, b = bounds[0]
         if a >= 2 and (b is None or b >= n - (r - 1) * a):
             return int(_mb_at_least(n, r, a))
-        return count_microstates(Occupancy(balls=n, bounds=bounds, rule=Rule.MB))
+        return count_microstates(UrnModel(balls=n, bounds=bounds, rule=Rule.MB))
     if not free:
-        return count_microstates(Occupancy(balls=n, bounds=bounds, rule=Rule.MB))
+        return count_microstates(UrnModel(balls=n, bounds=bounds, rule=Rule.MB))
     rest = [bounds[i] for i in range(r) if i not in set(free)]
     return int(_mb_free_dot(rest, len(free), n))
 
@@ -730,7 +732,7 @@ def _mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
             A[m] = _mb_miller(n, r, m)
             m += 1
             continue
-        value, tails = _mb_max_levels(n, r, m, lambda t: t * max(D - 1, 0) + 1)
+        value, tails = _mb_max_levels(n, r, m, lambda t, D=D: t * max(D - 1, 0) + 1)
         A[m] = value
         if D:
             vtails = []
@@ -793,7 +795,7 @@ def _mb_at_least(n: int, r: int, m: int):
 # max and min
 # ---------------------------------------------------------------------------
 
-def _is_mb_free(model: Occupancy) -> bool:
+def _is_mb_free(model: UrnModel) -> bool:
     """MB, every urn ``0..`` with no effective upper bound below ``n``."""
     if model.rule is not Rule.MB or not model.is_uniform:
         return False
@@ -801,7 +803,7 @@ def _is_mb_free(model: Occupancy) -> bool:
     return a == 0 and (b is None or b >= model.balls)
 
 
-def _max_counts(model: Occupancy, total) -> Dict[int, "mpz"]:
+def _max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     lo = max(max(a for a, _ in eff), -(-n // r))
@@ -853,7 +855,7 @@ def _be_max_cumulative(n: int, r: int, a: int, lo: int, hi: int) -> Dict[int, "m
     return out
 
 
-def _min_counts(model: Occupancy, total) -> Dict[int, "mpz"]:
+def _min_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     lo = min(a for a, _ in eff)
@@ -880,7 +882,7 @@ def _min_counts(model: Occupancy, total) -> Dict[int, "mpz"]:
 # the occupancy of one urn
 # ---------------------------------------------------------------------------
 
-def _urn_counts(model: Occupancy, index: int) -> Dict[int, "mpz"]:
+def _urn_counts(model: UrnModel, index: int) -> Dict[int, "mpz"]:
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     a, b = eff[index]
@@ -958,7 +960,7 @@ def _inverse_binomial_transform(B: List) -> List:
     return out
 
 
-def _marked_counts(model: Occupancy, low: int, high: Optional[int], limit: int) -> Dict[int, "mpz"]:
+def _marked_counts(model: UrnModel, low: int, high: Optional[int], limit: int) -> Dict[int, "mpz"]:
     """Counts of ``X`` = the number of urns whose occupancy lies in ``[low, high]``."""
     n, r = model.balls, model.urns
     rule = model.rule
@@ -1064,7 +1066,7 @@ def _mb_capped_moments(n: int, r: int, c: int) -> List:
     return B
 
 
-def _group_marked_counts(model: Occupancy, low: int, high: Optional[int], limit: int) -> Dict[int, "mpz"]:
+def _group_marked_counts(model: UrnModel, low: int, high: Optional[int], limit: int) -> Dict[int, "mpz"]:
     """Binomial moments over groups of equal bounds, each a bounded count.
 
     Urns with equal (effective) bounds are exchangeable: ``B_j`` sums, over
@@ -1132,7 +1134,7 @@ def _partitions(total: int, parts: int, largest: int):
         yield [v for v in sorted(p, reverse=True) for _ in range(p[v])]
 
 
-def _profile_counts(model: Occupancy, limit: int) -> Dict[Tuple[int, ...], "mpz"]:
+def _profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]:
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     fac = gmpy2.fac
@@ -1177,7 +1179,7 @@ def _profile_counts(model: Occupancy, limit: int) -> Dict[Tuple[int, ...], "mpz"
 
 def _candidate_bound(n: int, r: int, largest: int) -> int:
     """Partitions of ``n`` into at most ``r`` parts each at most *largest* (Gaussian binomial)."""
-    return count_profiles(Occupancy(balls=n, urns=r, rule=Rule.BE, capacity=largest))
+    return count_profiles(UrnModel(balls=n, urns=r, rule=Rule.BE, capacity=largest))
 
 
 def _arrangements(multiplicity: Counter, groups) -> int:
@@ -1227,7 +1229,7 @@ def _arrangements(multiplicity: Counter, groups) -> int:
 # the last resort: listing every configuration
 # ---------------------------------------------------------------------------
 
-def _enumerated_counts(model: Occupancy, label: str, limit: int, value: Callable) -> Dict:
+def _enumerated_counts(model: UrnModel, label: str, limit: int, value: Callable) -> Dict:
     """Counts of ``value(k)`` by listing every admissible configuration (refused above *limit*)."""
     how_many = count_configurations(model)
     if how_many > limit:
@@ -1239,7 +1241,7 @@ def _enumerated_counts(model: Occupancy, label: str, limit: int, value: Callable
     fac = gmpy2.fac
     fac_n = fac(model.balls)
     counts: Dict = {}
-    for k in model.iter_configurations():
+    for k in iter_configurations(model):
         w = multinomial(k, fac_n) if mb else 1
         key = value(k)
         counts[key] = counts.get(key, 0) + w

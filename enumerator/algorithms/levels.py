@@ -63,9 +63,10 @@ from typing import Dict, Iterable, List, Optional, Sequence, Tuple
 import mpmath
 from flint import fmpz_poly
 
-from . import series
-from .errors import InvalidParameters, TooLarge, Unsupported
-from .model import Rule, as_count
+from ..core import series
+from ..core.errors import InvalidParameters, TooLarge, Unsupported
+from ..core.model import as_count
+from ..core.rules import Rule
 
 __all__ = [
     "CanonicalPoint",

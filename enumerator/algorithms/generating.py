@@ -39,9 +39,10 @@ import gmpy2
 import sympy
 from flint import fmpq, fmpq_poly, fmpz_poly
 
-from . import series
-from .errors import InvalidParameters, TooLarge
-from .model import Occupancy, Rule, as_count
+from ..core import series
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.model import UrnModel, as_count
+from ..core.rules import Rule
 
 __all__ = [
     "MARKS",
@@ -71,7 +72,7 @@ MAX_POWER_BITS = 2**32
 # the model's generating function, symbolic
 # ---------------------------------------------------------------------------
 
-def kind(model: Occupancy) -> str:
+def kind(model: UrnModel) -> str:
     """``"exponential"`` for MB (labelled balls), ``"ordinary"`` for BE and FD."""
     return "exponential" if model.rule is Rule.MB else "ordinary"
 
@@ -111,7 +112,7 @@ def _window(rule: Rule, a: int, b: Optional[int], x) -> sympy.Expr:
     return _ordinary_window(a, b, x)
 
 
-def generating_function(model: Occupancy, var="x") -> sympy.Expr:
+def generating_function(model: UrnModel, var="x") -> sympy.Expr:
     r"""Return the model's generating function as a SymPy expression in *var*.
 
     Ordinary for BE and FD (``[x^n]`` counts configurations), exponential for
@@ -119,11 +120,11 @@ def generating_function(model: Occupancy, var="x") -> sympy.Expr:
     bounds are grouped into one power; the number of balls of *model* plays
     no part (the function covers every ``n``).
 
-    >>> generating_function(Occupancy(balls=3, urns=4, rule="BE"))
+    >>> generating_function(UrnModel(balls=3, urns=4, rule="BE"))
     (1 - x)**(-4)
-    >>> generating_function(Occupancy(balls=3, urns=4, rule="FD"))
+    >>> generating_function(UrnModel(balls=3, urns=4, rule="FD"))
     (x + 1)**4
-    >>> generating_function(Occupancy(balls=3, urns=4, rule="MB", minimum=1))
+    >>> generating_function(UrnModel(balls=3, urns=4, rule="MB", minimum=1))
     (exp(x) - 1)**4
     """
     x = _symbol(var)
@@ -159,7 +160,7 @@ def parse_mark(mark) -> Tuple[str, int]:
     )
 
 
-def bivariate_generating_function(model: Occupancy, mark="empty", var="x", marker="u") -> sympy.Expr:
+def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker="u") -> sympy.Expr:
     r"""Return the generating function with a marking variable *marker* for chosen urns.
 
     Each urn's factor ``F(x)`` becomes ``F(x) + (u - 1) G(x)``, where
@@ -169,7 +170,7 @@ def bivariate_generating_function(model: Occupancy, mark="empty", var="x", marke
     Sedgewick, *Analytic Combinatorics*, 2009, §III.2).  Setting ``u = 1``
     gives back :func:`generating_function`.
 
-    >>> bivariate_generating_function(Occupancy(balls=3, urns=2, rule="BE"), "empty")
+    >>> bivariate_generating_function(UrnModel(balls=3, urns=2, rule="BE"), "empty")
     (u - 1 + 1/(1 - x))**2
     """
     x = _symbol(var)
@@ -291,7 +292,7 @@ def _exponential_row(bounds, top: int) -> List[int]:
     return out
 
 
-def coefficient_row(model: Occupancy, upto=None, count: Optional[str] = None) -> List[int]:
+def coefficient_row(model: UrnModel, upto=None, count: Optional[str] = None) -> List[int]:
     r"""Return the model's counts for every number of balls ``m = 0..upto``, in one pass.
 
     *count* is ``"configurations"`` (the ordinary coefficients) or
@@ -307,9 +308,9 @@ def coefficient_row(model: Occupancy, upto=None, count: Optional[str] = None) ->
     bounds; for MB, exponential windows scaled by ``N!`` multiplied with
     one exact division after each product.
 
-    >>> coefficient_row(Occupancy(balls=6, urns=3, rule="BE", capacity=2))
+    >>> coefficient_row(UrnModel(balls=6, urns=3, rule="BE", capacity=2))
     [1, 3, 6, 7, 6, 3, 1]
-    >>> coefficient_row(Occupancy(balls=4, urns=2, rule="MB", minimum=1))
+    >>> coefficient_row(UrnModel(balls=4, urns=2, rule="MB", minimum=1))
     [0, 0, 2, 6, 14]
     """
     top = model.balls if upto is None else as_count(upto, "upto")

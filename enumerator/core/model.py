@@ -1,6 +1,6 @@
 """The immutable description of an occupancy problem.
 
-An :class:`Occupancy` is ``n`` balls placed into ``r`` labelled urns, each urn
+An :class:`UrnModel` is ``n`` balls placed into ``r`` labelled urns, each urn
 ``i`` holding between ``a_i`` and ``b_i`` balls (``b_i = None``: no upper
 bound), counted under one of three rules:
 
@@ -26,43 +26,15 @@ raises :class:`~enumerator.errors.InvalidParameters`.
 from __future__ import annotations
 
 import operator
-from enum import Enum
-from fractions import Fraction
-from typing import Iterable, Iterator, Optional, Sequence, Tuple
+from typing import Iterable, Optional, Sequence, Tuple
 
 from .errors import InvalidConfiguration, InvalidParameters
+from .rules import Rule
 
-__all__ = ["Occupancy", "Rule", "as_count", "parse_bounds"]
+__all__ = ["Rule", "UrnModel", "as_count", "parse_bounds"]
 
 Bound = Tuple[int, Optional[int]]
 _PLAIN_INT = frozenset({int})
-
-
-class Rule(str, Enum):
-    """The three counting rules, by their trade abbreviations."""
-
-    MB = "MB"
-    BE = "BE"
-    FD = "FD"
-
-    @property
-    def title(self) -> str:
-        """The rule's full name."""
-        return {"MB": "Maxwell–Boltzmann", "BE": "Bose–Einstein", "FD": "Fermi–Dirac"}[self.value]
-
-    @classmethod
-    def parse(cls, value: "Rule | str") -> "Rule":
-        """Return the rule named by *value* (``MB``, ``BE``, ``FD``, any case)."""
-        if isinstance(value, Rule):
-            return value
-        if isinstance(value, str):
-            key = value.strip().upper()
-            if key in cls.__members__:
-                return cls[key]
-        raise InvalidParameters(
-            f"rule must be one of MB, BE, FD (got {value!r}); MB counts distinguishable "
-            "balls, BE indistinguishable ones, FD at most one ball per urn"
-        )
 
 
 def as_count(value, name: str, minimum: int = 0) -> int:
@@ -107,7 +79,7 @@ def parse_bounds(text: str) -> Tuple[Bound, ...]:
     return tuple(bounds)
 
 
-class Occupancy:
+class UrnModel:
     """``n`` balls in ``r`` labelled urns with bounds, under a counting rule.
 
     Parameters
@@ -128,15 +100,15 @@ class Occupancy:
 
     Examples
     --------
-    >>> Occupancy(balls=3, urns=2, rule="BE").configurations()
-    4
-    >>> Occupancy(balls=3, urns=2, rule="MB").microstates()
-    8
-    >>> Occupancy(balls=3, bounds=[(0, 1), (1, None)], rule="BE").configurations()
-    2
+    >>> UrnModel(balls=3, urns=2, rule="BE")
+    UrnModel(balls=3, urns=2, rule='BE')
+    >>> UrnModel(balls=3, urns=2, rule="FD").bounds
+    ((0, 1), (0, 1))
+    >>> UrnModel(balls=3, bounds=[(0, 1), (1, None)], rule="BE").effective_bounds()
+    ((0, 1), (1, 3))
     """
 
-    __slots__ = ("balls", "bounds", "rule", "_uniform", "_memo")
+    __slots__ = ("balls", "bounds", "rule", "_uniform", "_hash")
 
     def __init__(
         self,
@@ -208,19 +180,21 @@ class Occupancy:
         object.__setattr__(self, "rule", rule_)
         first = normal[0]
         object.__setattr__(self, "_uniform", all(p == first for p in normal))
-        object.__setattr__(self, "_memo", {})
+        object.__setattr__(self, "_hash", hash((n, tuple(normal), rule_)))
 
     # -- immutability and identity -------------------------------------
     def __setattr__(self, name, value):
-        raise AttributeError("Occupancy is immutable; build a new one (see with_balls)")
+        raise AttributeError(f"{type(self).__name__} is immutable; build a new one (see with_balls)")
 
     def __eq__(self, other):
-        if not isinstance(other, Occupancy):
+        if self is other:
+            return True
+        if not isinstance(other, UrnModel):
             return NotImplemented
         return (self.balls, self.bounds, self.rule) == (other.balls, other.bounds, other.rule)
 
     def __hash__(self):
-        return hash((self.balls, self.bounds, self.rule))
+        return self._hash
 
     def __repr__(self):
         if self._uniform:
@@ -228,11 +202,11 @@ class Occupancy:
             extra = "" if a == 0 else f", minimum={a}"
             if b is not None and not (self.rule is Rule.FD and b == 1):
                 extra += f", capacity={b}"
-            return f"Occupancy(balls={self.balls}, urns={self.urns}, rule={self.rule.value!r}{extra})"
-        return f"Occupancy(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
+            return f"{type(self).__name__}(balls={self.balls}, urns={self.urns}, rule={self.rule.value!r}{extra})"
+        return f"{type(self).__name__}(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
 
     def __reduce__(self):
-        return (_rebuild, (self.balls, self.bounds, self.rule.value))
+        return (_rebuild, (type(self), self.balls, self.bounds, self.rule.value))
 
     # -- derived descriptions -------------------------------------------
     @property
@@ -255,13 +229,13 @@ class Occupancy:
         """The uniform upper bound (``None``: unbounded or per-urn bounds)."""
         return self.bounds[0][1] if self._uniform else None
 
-    def with_balls(self, balls) -> "Occupancy":
+    def with_balls(self, balls) -> "UrnModel":
         """Return the same urns and rule with another number of balls."""
-        return Occupancy(balls=balls, bounds=self.bounds, rule=self.rule)
+        return type(self)(balls=balls, bounds=self.bounds, rule=self.rule)
 
-    def with_rule(self, rule) -> "Occupancy":
+    def with_rule(self, rule) -> "UrnModel":
         """Return the same balls and urns under another rule."""
-        return Occupancy(balls=self.balls, bounds=self.bounds, rule=rule)
+        return type(self)(balls=self.balls, bounds=self.bounds, rule=rule)
 
     def canonical_bounds(self) -> str:
         """The bounds in one canonical text form: ``"r*a:b"`` or ``"a:b,..."``."""
@@ -342,137 +316,5 @@ class Occupancy:
                 return False
         return True
 
-    # -- exact quantities (implemented in counting / listing) -----------
-    def configurations(self) -> int:
-        """The number of admissible occupancy vectors (exact ``int``).
-
-        Remembered in the result store (:func:`enumerator.store.remember`);
-        the pure computation is :func:`enumerator.counting.count_configurations`.
-        """
-        from functools import partial
-
-        from .counting import count_configurations
-        from .store import remember
-
-        return remember("configurations", self, partial(count_configurations, self))
-
-    def microstates(self) -> int:
-        """The number of equally likely outcomes (MB: assignments; BE/FD: vectors).
-
-        Remembered in the result store; BE and FD share the entry of
-        :meth:`configurations`.  Pure: :func:`enumerator.counting.count_microstates`.
-        """
-        if self.rule is not Rule.MB:
-            return self.configurations()
-        from functools import partial
-
-        from .counting import count_microstates
-        from .store import remember
-
-        return remember("microstates", self, partial(count_microstates, self))
-
-    def weight(self, config) -> int:
-        """The number of equally likely outcomes with occupancy *config*."""
-        from .counting import configuration_weight
-
-        return configuration_weight(self, config)
-
-    def probability(self, config) -> Fraction:
-        """The exact probability of the occupancy vector *config*."""
-        from .counting import configuration_probability
-
-        return configuration_probability(self, config)
-
-    def profiles(self) -> int:
-        """The number of distinct occupancy profiles (multisets of entries).
-
-        Remembered in the result store; pure: :func:`enumerator.counting.count_profiles`.
-        """
-        from functools import partial
-
-        from .counting import count_profiles
-        from .store import remember
-
-        return remember("profiles", self, partial(count_profiles, self))
-
-    def distribution(self, statistic, limit=None):
-        """The exact distribution of *statistic* (``"max"``, ``"empty"``, ``"urn:1"``, ...).
-
-        Remembered in the result store under the statistic's canonical name;
-        pure: :func:`enumerator.statistics.distribution`.
-        """
-        from .statistics import DEFAULT_LIMIT, Distribution, distribution, parse_statistic
-        from .store import remember
-
-        stat = parse_statistic(statistic)
-        bound = DEFAULT_LIMIT if limit is None else limit
-
-        def compute():
-            law = distribution(self, stat, limit=bound)
-            return {
-                "pmf": [[list(v) if isinstance(v, tuple) else v, p] for v, p in law.pmf.items()],
-                "mean": law.mean,
-                "variance": law.variance,
-            }
-
-        stored = remember("distribution", self, compute, params=stat.name)
-        pmf = {}
-        for value, p in stored["pmf"]:
-            pmf[tuple(value) if isinstance(value, list) else value] = p
-        return Distribution(stat.name, pmf, stored["mean"], stored["variance"])
-
-    def event_probability(self, event: str, limit=None) -> Fraction:
-        """The exact probability of an event such as ``"max <= 2 and k1 >= 1"``.
-
-        See :mod:`enumerator.events` for the language.
-        """
-        from .events import event_probability
-
-        return event_probability(self, event) if limit is None else event_probability(self, event, limit=limit)
-
-    def coefficient_row(self, upto=None):
-        """Counts for every ball number ``0..upto`` at once (one series pass).
-
-        BE/FD: configurations; MB: microstates.  Remembered in the result
-        store; pure: :func:`enumerator.generating.coefficient_row`.
-        """
-        from .generating import coefficient_row
-        from .store import remember
-
-        top = self.balls if upto is None else as_count(upto, "upto")
-        return list(remember("coefficient_row", self.with_balls(0), lambda: coefficient_row(self, top),
-                             params=f"upto={top}"))
-
-    def sample(self, size, seed=None):
-        """Draw *size* configurations exactly from the rule's law (reproducible by *seed*)."""
-        from .sampling import sample
-
-        return sample(self, size, seed)
-
-    def iter_configurations(self, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
-        """Yield admissible configurations of ranks ``[start, stop)`` in lexicographic order."""
-        from .listing import iter_configurations
-
-        return iter_configurations(self, start, stop)
-
-    def iter_blocks(self, size, start=0, stop=None):
-        """Yield numpy arrays of at most *size* configurations each, in lexicographic order."""
-        from .listing import iter_blocks
-
-        return iter_blocks(self, size, start, stop)
-
-    def rank(self, config) -> int:
-        """The lexicographic rank of an admissible configuration."""
-        from .listing import rank
-
-        return rank(self, config)
-
-    def unrank(self, index) -> Tuple[int, ...]:
-        """The admissible configuration of lexicographic rank *index*."""
-        from .listing import unrank
-
-        return unrank(self, index)
-
-
-def _rebuild(balls, bounds, rule):
-    return Occupancy(balls=balls, bounds=bounds, rule=rule)
+def _rebuild(cls, balls, bounds, rule):
+    return cls(balls=balls, bounds=bounds, rule=rule)

@@ -2,7 +2,7 @@ r"""Lookup tables: a grid of exact counts over balls x urns, built into the stor
 
 A table fixes a rule, a quantity and uniform bounds (``minimum``, ``capacity``)
 and spans ``n`` in a range of balls and ``r`` in a range of urns.  Its cells
-are ordinary store entries (the same keys as ``Occupancy(...).configurations()``
+are ordinary store entries (the same keys as ``UrnModel(...).configurations()``
 and friends), so a built table answers single lookups and single lookups
 fill tables.
 
@@ -28,11 +28,9 @@ once.
 
 from __future__ import annotations
 
-import os
 import re
 import tempfile
 import time
-from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable, Dict, Iterable, List, Optional, Tuple
@@ -40,10 +38,12 @@ from typing import Callable, Dict, Iterable, List, Optional, Tuple
 import gmpy2
 from flint import fmpz_poly
 
-from . import series
-from .errors import InvalidParameters, StoreError, TooLarge
-from .model import Occupancy, Rule
-from .store import ALGORITHM_VERSIONS, Key, Store, _checksum, _digit_len, current_store, open_store
+from ..core import series
+from ..core.errors import InvalidParameters, StoreError, TooLarge
+from ..core.model import UrnModel
+from ..core.rules import Rule
+from .context import current_store, open_store
+from .database import ALGORITHM_VERSIONS, Key, Store, _checksum, _digit_len
 
 __all__ = [
     "BuildReport",
@@ -128,7 +128,7 @@ class TableSpec:
                 f"the table would have {cells} cells, above the limit {MAX_CELLS}; narrow --balls or --urns"
             )
         # the model validates the bounds (and normalises FD's capacity to 1)
-        probe = Occupancy(balls=0, urns=urns.start, rule=rule_, capacity=capacity,
+        probe = UrnModel(balls=0, urns=urns.start, rule=rule_, capacity=capacity,
                           minimum=0 if minimum is None else minimum)
         a, b = probe.bounds[0]
         return cls(rule_.value, quantity, a, b, range(balls.start, balls.stop), range(urns.start, urns.stop))
@@ -356,13 +356,13 @@ class TableData:
 
     def value(self, balls: int, urns: int) -> int:
         """The exact value of one cell."""
-        from .store import _text_int
+        from .database import _text_int
 
         return _text_int(self.cells[(balls, urns)][0])
 
 
 def _stored_cells(target: Store, spec: TableSpec, urns: Iterable[int]) -> Dict[Tuple[int, int], Tuple[str, int]]:
-    from .store import _digest
+    from .database import _digest
 
     version = ALGORITHM_VERSIONS[spec.quantity]
     cells = {}
@@ -486,10 +486,9 @@ def _latex_escape(text: str) -> str:
 def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], object]]:
     """Named zero-argument workloads for the benchmark harness, each on a fresh store.
 
-    ``warm_lookup``: one ``Occupancy(...).microstates()`` answered from the
-    store (a new model each call, so the instance memo does not help; the
-    store is switched on for the call even if the harness set
-    ``ENUMERATOR_NO_CACHE=1`` for its cold measurements);
+    ``warm_lookup``: one ``microstates`` answered from the store (a new
+    model each call, given the store explicitly, so neither an instance's
+    memory nor ``ENUMERATOR_NO_CACHE`` plays a part);
     ``table_cold``: the 201 x 50 BE table built into an empty store;
     ``table_warm``: the same build again, every cell found stored;
     ``cold_count_stored`` / ``cold_count_pure``: a count of ~10+ ms with the
@@ -497,29 +496,19 @@ def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], o
     """
     from functools import partial
 
-    from . import store as store_module
-    from .counting import count_microstates
+    from ..algorithms.counting import count_microstates
+    from . import context as store_module
 
     root = Path(directory or tempfile.mkdtemp(prefix="enumerator-bench-"))
     lookup_store = open_store(str(root / "lookup.sqlite"))
     model_args = dict(balls=300, urns=40, rule="MB", capacity=12)
 
-    @contextmanager
-    def store_on():
-        saved = os.environ.pop(store_module.ENV_NO_CACHE, None)
-        try:
-            with store_module.using(lookup_store):
-                yield
-        finally:
-            if saved is not None:
-                os.environ[store_module.ENV_NO_CACHE] = saved
-
-    with store_on():
-        Occupancy(**model_args).microstates()
-
     def warm_lookup():
-        with store_on():
-            return Occupancy(**model_args).microstates()
+        model = UrnModel(**model_args)
+        return store_module.remember("microstates", model, partial(count_microstates, model),
+                                     store=lookup_store)
+
+    warm_lookup()
 
     spec = TableSpec.make("BE", "0..200", "1..50")
     counter = {"cold": 0, "count": 0}
@@ -539,13 +528,13 @@ def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], o
 
     def cold_count_stored():
         counter["count"] += 1
-        model = Occupancy(balls=4000 + counter["count"], urns=600, rule="MB", capacity=9)
+        model = UrnModel(balls=4000 + counter["count"], urns=600, rule="MB", capacity=9)
         return store_module.remember("microstates", model, partial(count_microstates, model),
                                      store=count_store)
 
     def cold_count_pure():
         counter["count"] += 1
-        model = Occupancy(balls=4000 + counter["count"], urns=600, rule="MB", capacity=9)
+        model = UrnModel(balls=4000 + counter["count"], urns=600, rule="MB", capacity=9)
         return count_microstates(model)
 
     return {

@@ -85,7 +85,7 @@ from sqlalchemy import exc as sa_exc
 from sqlalchemy.engine import URL, Engine, make_url
 from sqlalchemy.orm import DeclarativeBase, Mapped, Session, mapped_column
 
-from .errors import StoreError
+from ..core.errors import StoreError
 
 __all__ = [
     "ALGORITHM_VERSIONS",
@@ -95,18 +95,10 @@ __all__ = [
     "SCHEMA_VERSION",
     "Store",
     "StoredEntry",
-    "bypass",
-    "cache_enabled",
-    "configure",
-    "current_store",
     "decode_value",
-    "default_location",
     "encode_value",
     "model_from_key",
-    "open_store",
     "register_quantity",
-    "remember",
-    "using",
 ]
 
 log = logging.getLogger("enumerator.store")
@@ -158,7 +150,7 @@ def register_quantity(name: str, version: int, recompute: Optional[Callable[[Any
 
 def _recompute_builtin(name: str) -> Callable[[Any, str], Any]:
     def run(model, params):
-        from . import counting
+        from ..algorithms import counting
 
         return {
             "configurations": counting.count_configurations,
@@ -436,9 +428,9 @@ def parse_canonical_bounds(text: str) -> Tuple[Tuple[int, Optional[int]], ...]:
 
 def model_from_key(rule: str, balls: int, bounds: str):
     """Rebuild the :class:`~enumerator.model.Occupancy` a stored key describes."""
-    from .model import Occupancy
+    from ..core.model import UrnModel
 
-    return Occupancy(balls=balls, bounds=parse_canonical_bounds(bounds), rule=rule)
+    return UrnModel(balls=balls, bounds=parse_canonical_bounds(bounds), rule=rule)
 
 
 @dataclass(frozen=True)
@@ -700,7 +692,7 @@ class Store:
             Base.metadata.create_all(conn, checkfirst=True)
             version = self._schema_version(conn)
             if version is None:
-                from . import __version__
+                from ..core.version import __version__
 
                 conn.execute(
                     _plain_insert(Meta),
@@ -1218,174 +1210,3 @@ def _resolve(location: str) -> Tuple[URL, Optional[Path]]:
         path = path / DEFAULT_FILENAME
     path = path.resolve()
     return URL.create("sqlite", database=str(path)), path
-
-
-# ---------------------------------------------------------------------------
-# the process-wide default store
-# ---------------------------------------------------------------------------
-
-def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
-    """``<checkout>/store`` when the package (*package_dir*, default this one) runs from a checkout.
-
-    A checkout has ``pyproject.toml`` and a ``store/`` folder beside the
-    package folder; an installed copy (anything under ``site-packages`` or
-    ``dist-packages``) never counts, so the store is never written there.
-    """
-    package = Path(package_dir or Path(__file__).parent).resolve()
-    root = package.parent
-    if any(part in ("site-packages", "dist-packages") for part in root.parts):
-        return None
-    if (root / "pyproject.toml").is_file() and (root / "store").is_dir():
-        return root / "store"
-    return None
-
-
-_located: Dict[str, Optional[Path]] = {}  # the checkout test runs once per process
-
-
-def default_location() -> str:
-    """The store used when none is configured (see the module docstring for the rule)."""
-    env = os.environ.get(ENV_STORE, "").strip()
-    if env:
-        return env
-    if "checkout" not in _located:
-        _located["checkout"] = _checkout_store_dir()
-    checkout = _located["checkout"]
-    if checkout is not None:
-        return str(checkout / DEFAULT_FILENAME)
-    import platformdirs
-
-    return str(Path(platformdirs.user_cache_dir("enumerator", appauthor=False)) / DEFAULT_FILENAME)
-
-
-_state_lock = threading.Lock()
-_stores: Dict[str, Store] = {}
-_config: Dict[str, Any] = {"location": None, "enabled": True}
-
-
-def _env_no_cache() -> bool:
-    return os.environ.get(ENV_NO_CACHE, "").strip().lower() in ("1", "true", "yes", "on")
-
-
-def cache_enabled() -> bool:
-    """False when the store is bypassed (``configure(enabled=False)`` or ``ENUMERATOR_NO_CACHE=1``)."""
-    return _config["enabled"] and not _env_no_cache()
-
-
-def open_store(location: Optional[str] = None) -> Store:
-    """The open :class:`Store` at *location* (default: :func:`default_location`), reused per process."""
-    if isinstance(location, Store):
-        return location
-    where = str(location) if location is not None else default_location()
-    store = _stores.get(where)
-    if store is None:
-        with _state_lock:
-            store = _stores.get(where)
-            if store is None:
-                store = Store(where)
-                _stores[where] = store
-    return store
-
-
-def current_store() -> Optional[Store]:
-    """The store results are remembered in, or None when caching is off."""
-    if not cache_enabled():
-        return None
-    location = _config["location"]
-    if isinstance(location, Store):
-        return location
-    return open_store(location)
-
-
-_UNSET = object()
-
-
-def configure(location=_UNSET, *, enabled=_UNSET) -> None:
-    """Set the process-wide store and whether it is used; omitted settings stay as they are.
-
-    :param location: a path, URL or :class:`Store`; ``None`` means
-        :func:`default_location`.
-    :param enabled: False bypasses the store (as ``ENUMERATOR_NO_CACHE=1`` does).
-    """
-    if location is not _UNSET:
-        _config["location"] = location
-    if enabled is not _UNSET:
-        _config["enabled"] = bool(enabled)
-
-
-@contextmanager
-def using(location):
-    """Within the block, remember results in the store at *location*."""
-    saved = dict(_config)
-    configure(location, enabled=True)
-    try:
-        yield current_store()
-    finally:
-        _config.update(saved)
-
-
-@contextmanager
-def bypass():
-    """Within the block, compute everything afresh and store nothing."""
-    saved = dict(_config)
-    _config["enabled"] = False
-    try:
-        yield
-    finally:
-        _config.update(saved)
-
-
-def close_all() -> None:
-    """Close every store opened by this process (they reopen on next use)."""
-    with _state_lock:
-        for store in _stores.values():
-            store.close()
-        _stores.clear()
-
-
-def remember(quantity: str, model_or_key, compute: Callable[[], Any], version: Optional[int] = None,
-             *, params: str = "", method: Optional[str] = None, store: Optional[Store] = None):
-    """Return the remembered value of *quantity* for a model, computing and storing it once.
-
-    :param quantity: the quantity's name (its first key field).
-    :param model_or_key: an :class:`~enumerator.model.Occupancy` or a :class:`Key`.
-    :param compute: a function of no arguments returning the exact value
-        (``int``, ``Fraction``, or lists/dicts of them).
-    :param version: the algorithm version; default :data:`ALGORITHM_VERSIONS`
-        ``[quantity]``.  A different version is a different key.
-    :param params: canonical text of any further parameters (part of the key).
-    :param method: recorded beside the value (default: *compute*'s name).
-    :param store: a store to use instead of :func:`current_store`.
-
-    With caching off (:func:`bypass`, ``ENUMERATOR_NO_CACHE=1``) this is
-    ``compute()``.  A model's own memo (``_memo``) keeps the answer for the
-    life of that instance, so repeated calls on one model touch the database
-    once.
-    """
-    target = store if store is not None else current_store()
-    if target is None:
-        return compute()
-    if version is None:
-        try:
-            version = ALGORITHM_VERSIONS[quantity]
-        except KeyError:
-            raise ValueError(
-                f"quantity {quantity!r} has no algorithm version; pass version= or call register_quantity"
-            ) from None
-    memo = getattr(model_or_key, "_memo", None)
-    slot = ("store", quantity, params, version)
-    if memo is not None and slot in memo:
-        return memo[slot]
-    key = model_or_key if isinstance(model_or_key, Key) else Key.of(model_or_key)
-    value = target.get(quantity, key, version, params, _MISSING)
-    if value is _MISSING:
-        t0 = time.perf_counter_ns()
-        value = compute()
-        elapsed = time.perf_counter_ns() - t0
-        if method is None:
-            inner = getattr(compute, "func", compute)
-            method = getattr(inner, "__module__", "") + "." + getattr(inner, "__qualname__", repr(inner))
-        target.put(quantity, key, version, value, params=params, method=method, elapsed_ns=elapsed)
-    if memo is not None:
-        memo[slot] = value
-    return value

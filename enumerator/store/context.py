@@ -1,0 +1,242 @@
+"""Which store a computation remembers its results in: passed, never a global setting.
+
+The store reaches every stored computation in one of two ways:
+
+- explicitly, as the ``store=`` argument of :func:`remember` (and of the
+  facade's methods), a :class:`~enumerator.store.database.Store` or a location;
+- through the *active store* of the current context, a
+  :class:`contextvars.ContextVar` set only for the duration of a ``with``
+  block: :func:`using` (remember in this store), :func:`bypass` (remember
+  nothing).  Threads and asyncio tasks each see their own setting, and
+  nothing stays changed after the block.
+
+With neither, the facade uses :func:`default_location` (the
+``ENUMERATOR_STORE`` environment variable, else the checkout's ``store/``
+folder, else the user's cache directory), unless ``ENUMERATOR_NO_CACHE=1``.
+
+Open stores are reused per location within a process (:func:`open_store`);
+:func:`close_all` closes them.
+"""
+
+from __future__ import annotations
+
+import os
+import threading
+import time
+from contextlib import contextmanager
+from contextvars import ContextVar
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable, Dict, Iterator, Optional, Union
+
+from .database import ALGORITHM_VERSIONS, DEFAULT_FILENAME, ENV_NO_CACHE, ENV_STORE, Key, Store
+
+__all__ = [
+    "bypass",
+    "cache_enabled",
+    "close_all",
+    "current_store",
+    "default_location",
+    "open_store",
+    "remember",
+    "using",
+]
+
+def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
+    """``<checkout>/store`` when the package (*package_dir*, default this one) runs from a checkout.
+
+    A checkout has ``pyproject.toml`` and a ``store/`` folder beside the
+    package folder; an installed copy (anything under ``site-packages`` or
+    ``dist-packages``) never counts, so the store is never written there.
+    """
+    package = Path(package_dir or Path(__file__).resolve().parent.parent).resolve()
+    root = package.parent
+    if any(part in ("site-packages", "dist-packages") for part in root.parts):
+        return None
+    if (root / "pyproject.toml").is_file() and (root / "store").is_dir():
+        return root / "store"
+    return None
+
+
+_located: Dict[str, Optional[Path]] = {}  # the checkout test runs once per process
+
+
+def default_location() -> str:
+    """The store used when none is configured (see the module docstring for the rule)."""
+    env = os.environ.get(ENV_STORE, "").strip()
+    if env:
+        return env
+    if "checkout" not in _located:
+        _located["checkout"] = _checkout_store_dir()
+    checkout = _located["checkout"]
+    if checkout is not None:
+        return str(checkout / DEFAULT_FILENAME)
+    import platformdirs
+
+    return str(Path(platformdirs.user_cache_dir("enumerator", appauthor=False)) / DEFAULT_FILENAME)
+
+
+# ---------------------------------------------------------------------------
+# open stores, one per location and process
+# ---------------------------------------------------------------------------
+
+_open_lock = threading.Lock()
+_open: Dict[str, Store] = {}
+
+
+def open_store(location: Union[str, os.PathLike, Store, None] = None) -> Store:
+    """Return the open :class:`Store` at *location* (default: :func:`default_location`).
+
+    A store is opened once per location and process and then reused; a
+    :class:`Store` passed in is returned as it is.
+    """
+    if isinstance(location, Store):
+        return location
+    where = str(location) if location is not None else default_location()
+    store = _open.get(where)
+    if store is None:
+        with _open_lock:
+            store = _open.get(where)
+            if store is None:
+                store = Store(where)
+                _open[where] = store
+    return store
+
+
+def close_all() -> None:
+    """Close every store opened by this process (they reopen on next use)."""
+    with _open_lock:
+        for store in _open.values():
+            store.close()
+        _open.clear()
+
+
+# ---------------------------------------------------------------------------
+# the active store of the current context
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class _Choice:
+    """What :func:`using` or :func:`bypass` chose: a location (or store), or no store."""
+
+    location: Union[str, Store, None]
+    enabled: bool
+
+
+_active: ContextVar[Optional[_Choice]] = ContextVar("enumerator_active_store", default=None)
+
+
+def _env_no_cache() -> bool:
+    return os.environ.get(ENV_NO_CACHE, "").strip().lower() in ("1", "true", "yes", "on")
+
+
+def cache_enabled() -> bool:
+    """False inside :func:`bypass`, or when ``ENUMERATOR_NO_CACHE=1`` and no :func:`using` block is active."""
+    choice = _active.get()
+    if choice is not None:
+        return choice.enabled
+    return not _env_no_cache()
+
+
+def current_store() -> Optional[Store]:
+    """The store the current context remembers results in, or None when remembering is off."""
+    choice = _active.get()
+    if choice is None:
+        return None if _env_no_cache() else open_store(None)
+    if not choice.enabled:
+        return None
+    return open_store(choice.location)
+
+
+@contextmanager
+def using(location: Union[str, os.PathLike, Store, None]) -> Iterator[Optional[Store]]:
+    """Within the block, remember results in the store at *location* (``None``: the default).
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> folder = tempfile.mkdtemp()
+    >>> with using(os.path.join(folder, "s.sqlite")) as store:
+    ...     store.name.endswith("s.sqlite")
+    True
+    """
+    where = location if isinstance(location, Store) or location is None else str(location)
+    token = _active.set(_Choice(where, True))
+    try:
+        yield current_store()
+    finally:
+        _active.reset(token)
+
+
+@contextmanager
+def bypass() -> Iterator[None]:
+    """Within the block, compute everything afresh and remember nothing."""
+    token = _active.set(_Choice(None, False))
+    try:
+        yield
+    finally:
+        _active.reset(token)
+
+
+# ---------------------------------------------------------------------------
+# remembering one result
+# ---------------------------------------------------------------------------
+
+_MISSING = object()
+
+
+def remember(quantity: str, model_or_key, compute: Callable[[], Any], version: Optional[int] = None,
+             *, params: str = "", method: Optional[str] = None,
+             store: Union[str, os.PathLike, Store, None] = None):
+    """Return the remembered value of *quantity* for a model, computing and storing it once.
+
+    Parameters
+    ----------
+    quantity : str
+        The quantity's name (its first key field).
+    model_or_key : UrnModel or Key
+        The problem the value belongs to.
+    compute : callable
+        A function of no arguments returning the exact value (``int``,
+        ``Fraction``, or lists/dicts of them).
+    version : int, optional
+        The algorithm version; default ``ALGORITHM_VERSIONS[quantity]``.  A
+        different version is a different key.
+    params : str
+        Canonical text of any further parameters (part of the key).
+    method : str, optional
+        Recorded beside the value (default: *compute*'s qualified name).
+    store : Store or location, optional
+        The store to use; default :func:`current_store`.
+
+    Returns
+    -------
+    The stored or freshly computed value.  With remembering off
+    (:func:`bypass`, ``ENUMERATOR_NO_CACHE=1``) this is ``compute()``.
+
+    Notes
+    -----
+    Cost: one indexed lookup by the key's SHA-256 digest, answered from the
+    store's in-process memory of recent answers when it was asked before.
+    """
+    target = open_store(store) if store is not None else current_store()
+    if target is None:
+        return compute()
+    if version is None:
+        try:
+            version = ALGORITHM_VERSIONS[quantity]
+        except KeyError:
+            raise ValueError(
+                f"quantity {quantity!r} has no algorithm version; pass version= or call register_quantity"
+            ) from None
+    key = model_or_key if isinstance(model_or_key, Key) else Key.of(model_or_key)
+    value = target.get(quantity, key, version, params, _MISSING)
+    if value is _MISSING:
+        t0 = time.perf_counter_ns()
+        value = compute()
+        elapsed = time.perf_counter_ns() - t0
+        if method is None:
+            inner = getattr(compute, "func", compute)
+            method = getattr(inner, "__module__", "") + "." + getattr(inner, "__qualname__", repr(inner))
+        target.put(quantity, key, version, value, params=params, method=method, elapsed_ns=elapsed)
+    return value
