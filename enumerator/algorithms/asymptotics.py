@@ -65,6 +65,7 @@ import mpmath
 from flint import fmpq, fmpz
 
 from ..core.errors import InvalidParameters, TooLarge, Unsupported
+from ..core.exact import exact_text
 from ..core.model import UrnModel, as_count
 from ..core.rules import Rule
 from .counting import configuration_weight, count_configurations, count_microstates
@@ -161,16 +162,6 @@ def _to_mpf(value: Exact):
     if isinstance(value, Fraction):
         return mpf(value.numerator) / mpf(value.denominator)
     return mpf(int(value))
-
-
-def exact_text(value: Exact) -> str:
-    """``"p"`` or ``"p/q"`` in lowest terms, with no limit on the number of digits."""
-    if isinstance(value, Fraction):
-        top = gmpy2.mpz(value.numerator).digits()
-        if value.denominator == 1:
-            return top
-        return f"{top}/{gmpy2.mpz(value.denominator).digits()}"
-    return gmpy2.mpz(int(value)).digits()
 
 
 def stirling_log_factorial(n, terms: int):

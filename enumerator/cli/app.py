@@ -316,12 +316,10 @@ def store_scope(location: Optional[str], no_cache: bool):
 
 
 def exact(value) -> str:
-    """Encode an exact ``int`` or ``Fraction`` for JSON (decimal / ``p/q`` string)."""
-    if isinstance(value, bool):
-        raise TypeError("booleans are not exact numbers")
-    if isinstance(value, Fraction):
-        return str(value)
-    return str(int(value))
+    """Encode an exact ``int`` or ``Fraction`` for JSON (decimal / ``p/q`` string), any size."""
+    from ..core.exact import exact_text
+
+    return exact_text(value)
 
 
 def emit_json(payload: dict) -> None:
@@ -557,21 +555,6 @@ def _limit(limit: Optional[int]) -> int:
     return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
 
 
-def _exact_big(value) -> str:
-    """:func:`exact` through GMP's subquadratic radix conversion.
-
-    A distribution can hold thousands of fractions of 100,000 digits; CPython
-    writes such an ``int`` in quadratic time, GMP (``mpz_get_str``) does not.
-    Same text as ``str(Fraction)``.
-    """
-    import gmpy2
-
-    if isinstance(value, Fraction):
-        num = str(gmpy2.mpz(value.numerator))
-        return num if value.denominator == 1 else f"{num}/{gmpy2.mpz(value.denominator)}"
-    return str(gmpy2.mpz(int(value)))
-
-
 def _value_text(value) -> str:
     """A statistic's value as a JSON key: decimal digits, or a profile's parts joined by '+'."""
     if isinstance(value, tuple):
@@ -617,18 +600,18 @@ def dist_command(
     with store_scope(store, no_cache):
         model = build_model(balls, urns, rule, capacity, minimum, bounds)
         law = model.distribution(stat, limit=_limit(limit))
-        moment = (lambda x: None if x is None else _exact_big(x))
+        moment = (lambda x: None if x is None else exact(x))
         if as_json:
             emit_json(
                 {
                     "statistic": law.statistic,
-                    "pmf": {_value_text(v): _exact_big(p) for v, p in law.pmf.items()},
+                    "pmf": {_value_text(v): exact(p) for v, p in law.pmf.items()},
                     "mean": moment(law.mean),
                     "variance": moment(law.variance),
                 }
             )
             return
-        rows = [[_value_text(v), _exact_big(p), f"{_approx(p):.6g}"] for v, p in law.pmf.items()]
+        rows = [[_value_text(v), exact(p), f"{_approx(p):.6g}"] for v, p in law.pmf.items()]
         show_table(f"{_describe(model)}; distribution of {law.statistic}",
                    [law.statistic, "probability (exact)", "approx"], rows)
         if law.mean is not None:
@@ -636,8 +619,8 @@ def dist_command(
                 f"Moments of {law.statistic}",
                 ["moment", "exact", "approx"],
                 [
-                    ["mean", _exact_big(law.mean), f"{_approx(law.mean):.6g}"],
-                    ["variance", _exact_big(law.variance), f"{_approx(law.variance):.6g}"],
+                    ["mean", exact(law.mean), f"{_approx(law.mean):.6g}"],
+                    ["variance", exact(law.variance), f"{_approx(law.variance):.6g}"],
                 ],
             )
 
@@ -828,7 +811,7 @@ def gf_command(
             "kind": kind(model),
             "variable": str(var),
             "counts": counts,
-            "coefficients": [_exact_big(c) for c in row],
+            "coefficients": [exact(c) for c in row],
         }
         if bivariate is not None:
             payload["mark"] = mark
@@ -842,7 +825,7 @@ def gf_command(
     if bivariate is not None:
         sys.stdout.write(f"bivariate, u marking the urns '{mark}':\n  {bivariate}\n")
     sys.stdout.flush()
-    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), _exact_big(c)] for m, c in enumerate(row)])
+    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), exact(c)] for m, c in enumerate(row)])
 
 
 @app.command("coeff")
@@ -878,12 +861,12 @@ def coeff_command(
     top = as_count(upto, "--upto")
     values = extract_coefficients(expression, top, var)
     if as_json:
-        emit_json({"expression": expression, "variable": var, "coefficients": [_exact_big(c) for c in values]})
+        emit_json({"expression": expression, "variable": var, "coefficients": [exact(c) for c in values]})
         return
     show_table(
         f"Coefficients of {expression.strip()} in powers of {var}",
         ["degree", "coefficient"],
-        [[str(m), _exact_big(c)] for m, c in enumerate(values)],
+        [[str(m), exact(c)] for m, c in enumerate(values)],
     )
 
 

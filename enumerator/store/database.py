@@ -63,7 +63,6 @@ from fractions import Fraction
 from pathlib import Path
 from typing import Any, Callable, Dict, Iterable, Iterator, List, Optional, Tuple
 
-import gmpy2
 from sqlalchemy import (
     BigInteger,
     DateTime,
@@ -86,6 +85,7 @@ from sqlalchemy.engine import URL, Engine, make_url
 from sqlalchemy.orm import DeclarativeBase, Mapped, Session, mapped_column
 
 from ..core.errors import StoreError
+from ..core.exact import int_text, is_exact_int, text_int
 
 __all__ = [
     "ALGORITHM_VERSIONS",
@@ -169,33 +169,9 @@ for _name in ("configurations", "microstates", "profiles"):
 # exact values <-> canonical text
 # ---------------------------------------------------------------------------
 
-def _int_text(value) -> str:
-    # Small ints: str() is quickest.  Large ones: gmpy2 converts in
-    # subquadratic time and ignores Python's 4300-digit conversion limit.
-    if type(value) is int and -_SMALL < value < _SMALL:
-        return str(value)
-    return gmpy2.mpz(value).digits(10)
-
-
-def _text_int(text: str) -> int:
-    if len(text) < 1000:
-        return int(text)
-    return int(gmpy2.mpz(text, 10))
-
-
-_SMALL = 1 << 3000  # about 900 digits: well inside int/str conversion limits
-
-
-def _is_int(value) -> bool:
-    if isinstance(value, bool):
-        return False
-    if isinstance(value, int):
-        return True
-    try:
-        operator.index(value)
-    except TypeError:
-        return False
-    return not isinstance(value, (str, bytes))
+_int_text = int_text
+_text_int = text_int
+_is_int = is_exact_int
 
 
 def _digit_len(text: str) -> int:
