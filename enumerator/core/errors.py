@@ -18,7 +18,37 @@ __all__ = [
 
 
 class EnumeratorError(Exception):
-    """Base class of every error raised on purpose by enumerator."""
+    """Base class of every error raised on purpose by enumerator.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong and what to change, naming library parameters (``limit=``),
+        never command-line flags.
+    parameters : sequence of str, optional
+        The library parameters the message tells the user to change.  A front
+        end that spells them differently (the CLI's ``--limit``) reads this to
+        say so in its own words; see :meth:`spelled`.
+
+    Examples
+    --------
+    >>> error = TooLarge("the listing exceeds the limit; raise limit=", parameters=["limit"])
+    >>> error.spelled({"limit": "--limit"})
+    'the listing exceeds the limit; raise --limit'
+    """
+
+    def __init__(self, *args, parameters=()):
+        super().__init__(*args)
+        self.parameters = tuple(parameters)
+
+    def spelled(self, names) -> str:
+        """The message with each named parameter (``limit=``) written as *names* spells it."""
+        text = str(self)
+        for parameter in self.parameters:
+            flag = names.get(parameter)
+            if flag:
+                text = text.replace(f"{parameter}=", flag)
+        return text
 
 
 class InvalidParameters(EnumeratorError, ValueError):
