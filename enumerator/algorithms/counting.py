@@ -26,7 +26,7 @@ from __future__ import annotations
 import math
 from collections import Counter
 from fractions import Fraction
-from typing import Dict, List
+from typing import Dict, List, Tuple
 
 import gmpy2
 from flint import fmpz, fmpz_poly
@@ -35,7 +35,7 @@ from ..core import series
 from ..core.errors import TooLarge
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel, as_count
-from ..core.rules import Rule
+from ..core.rules import multinomial
 
 __all__ = [
     "binomial",
@@ -45,7 +45,9 @@ __all__ = [
     "count_microstates",
     "count_profiles",
     "multinomial",
+    "over_prime_power",
     "partitions_at_most",
+    "power_primes",
     "twelvefold",
 ]
 
@@ -68,24 +70,6 @@ def binomial(n: int, k: int):
     if k < 0 or n < 0 or k > n:
         return mpz(0)
     return gmpy2.comb(n, k)
-
-
-def multinomial(values, top=None) -> int:
-    """``(sum k)! / prod k_i!`` as an ``mpz``.
-
-    One factorial divided exactly by the product of the small factorials
-    (GMP's ``mpz_fac_ui`` uses prime-swing factorisation, so this is fast).
-    *top*, when given, is ``(sum k)!`` already computed (callers weighing
-    many vectors of one model compute it once).
-    """
-    if top is None:
-        top = gmpy2.fac(sum(values))
-    den = mpz(1)
-    fac = gmpy2.fac
-    for v in values:
-        if v > 1:
-            den *= fac(v)
-    return gmpy2.divexact(top, den)
 
 
 def _to_fraction(num, den) -> Fraction:
@@ -272,7 +256,7 @@ def _microstates(model: UrnModel):
     memo = _MEMO.slots(model)
     if "microstates" in memo:
         return memo["microstates"]
-    if model.rule is not Rule.MB:
+    if not model.rule.distinguishable:
         value = _configurations(model)
     else:
         n, r = model.balls, model.urns
@@ -310,43 +294,87 @@ def configuration_weight(model: UrnModel, config) -> int:
     values = model.check_configuration(config)
     if not model._within_bounds(values):
         return 0
-    if model.rule is Rule.MB:
-        return int(multinomial(values))
-    return 1
+    return int(model.rule.weight(values))
 
 
-def _prime_factors(r: int) -> List[int]:
-    """The distinct primes dividing *r* (FLINT ``fmpz.factor``)."""
-    return [int(p) for p, _ in fmpz(r).factor()]
+def power_primes(r: int, n: int) -> List[Tuple[int, int]]:
+    """Return the prime factorisation of ``r^n`` as ``[(p, e_p n)]``.
+
+    Parameters
+    ----------
+    r : int
+        The base, ``r >= 1``.
+    n : int
+        The exponent, ``n >= 0``.
+
+    Returns
+    -------
+    list of (int, int)
+        Each prime ``p`` dividing ``r`` with its exponent in ``r^n``.
+
+    Notes
+    -----
+    FLINT's ``fmpz.factor`` on ``r`` (small), then ``O(1)`` per prime.
+    """
+    return [(int(p), int(e) * n) for p, e in fmpz(r).factor()]
+
+
+def over_prime_power(count, total, primes) -> Fraction:
+    r"""Return ``count / total`` in lowest terms when only the primes *primes* can cancel.
+
+    Parameters
+    ----------
+    count : int or mpz
+        The numerator, ``>= 0``.
+    total : int or mpz
+        The denominator, a product of the primes in *primes* (``r^n`` for the
+        MB outcomes without bounds).
+    primes : list of (int, int)
+        ``(p, e)``: each prime of *total* with its exponent
+        (:func:`power_primes`).
+
+    Returns
+    -------
+    Fraction
+        The exact quotient, already reduced.
+
+    Notes
+    -----
+    Each prime is removed from the numerator (GMP ``mpz_remove``) up to its
+    exponent in the denominator: for a multinomial over ``r^n`` that is
+    several times cheaper than a general gcd of numbers of ``n log r`` bits
+    (T. Granlund et al., *GNU MP manual*, "Integer Division").  Cost
+    ``O(M(n log r))`` per prime.
+
+    Examples
+    --------
+    >>> over_prime_power(12, 81, power_primes(3, 4))
+    Fraction(4, 27)
+    """
+    num, den = mpz(count), mpz(total)
+    for p, top in primes:
+        stripped, times = gmpy2.remove(num, p)
+        if times > top:
+            times = top
+            stripped = gmpy2.divexact(num, mpz(p) ** top)
+        if times:
+            num = stripped
+            den = gmpy2.divexact(den, mpz(p) ** times)
+    f = object.__new__(Fraction)
+    # Fraction's slots; the pair is coprime with a positive denominator.
+    f._numerator = int(num)
+    f._denominator = int(den)
+    return f
 
 
 def _reduced_mb_probability(model: UrnModel, values) -> Fraction:
-    """``multinomial(k) / r^n`` in lowest terms without a big gcd.
-
-    Only the primes of ``r`` can cancel, so each is removed from the
-    multinomial (GMP ``mpz_remove``) up to its exponent in ``r^n``; that is
-    several times cheaper than a general gcd of numbers of ``n log r`` bits.
-    """
+    """``multinomial(k) / r^n`` in lowest terms without a big gcd (:func:`over_prime_power`)."""
     memo = _MEMO.slots(model)
     fac_n = memo.get("fac_n")
     if fac_n is None:
         fac_n = memo["fac_n"] = gmpy2.fac(model.balls)
-        memo["primes"] = [(p, model.balls * int(gmpy2.remove(model.urns, p)[1]))
-                          for p in _prime_factors(model.urns)]
-    num = multinomial(values, fac_n)
-    denominator = _microstates(model)
-    for p, top in memo["primes"]:
-        reduced, times = gmpy2.remove(num, p)
-        if times > top:
-            times = top
-            reduced = gmpy2.divexact(num, mpz(p) ** top)
-        if times:
-            num = reduced
-            denominator = gmpy2.divexact(denominator, mpz(p) ** times)
-    f = object.__new__(Fraction)
-    f._numerator = int(num)
-    f._denominator = int(denominator)
-    return f
+        memo["primes"] = power_primes(model.urns, model.balls)
+    return over_prime_power(multinomial(values, fac_n), _microstates(model), memo["primes"])
 
 
 def configuration_probability(model: UrnModel, config) -> Fraction:
@@ -364,7 +392,7 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
     values = model.check_configuration(config)
     if not model._within_bounds(values):
         return Fraction(0)
-    if model.rule is Rule.MB:
+    if model.rule.distinguishable:
         if model.is_uniform and model.bounds[0][0] == 0 and (
             model.bounds[0][1] is None or model.bounds[0][1] >= model.balls
         ):

@@ -877,7 +877,8 @@ def _enumerate(model: UrnModel, node, text: str, limit: int, show: Optional[bool
     if total > limit:
         raise TooLarge(
             f"the event {text!r} has no exact shortcut here (it mixes counting statistics), so it needs all "
-            f"{total} configurations listed, above the limit {limit}; raise limit= (CLI: --limit)"
+            f"{total} configurations listed, above the limit {limit}; raise limit=",
+            parameters=["limit"],
         )
     mb = model.rule is Rule.MB
     fac = gmpy2.fac

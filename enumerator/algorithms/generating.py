@@ -382,7 +382,8 @@ def parse_expression(text: str, var="x") -> sympy.Expr:
                 what = "function" if _followed_by_paren(tokens, tok) else "name"
                 raise InvalidParameters(
                     f"{where}: the {what} {string!r} is not allowed; {hint}"
-                    + (f" (the variable is {name}; change it with --var)" if what == "name" else "")
+                    + (f" (the variable is {name}; change it with var=)" if what == "name" else ""),
+                    parameters=["var"] if what == "name" else (),
                 )
             if previous:
                 pieces.append("*")
@@ -632,8 +633,9 @@ class _Expander:
         if bits > 1 and (bits - 1) * rel * rel // 2 > MAX_POWER_BITS:
             raise TooLarge(
                 f"the reciprocal of a series with constant term {c} up to degree {rel - 1} would need "
-                f"about {(bits - 1) * rel * rel // 16 // 2**20:,} MiB; lower --upto, or use a "
-                "denominator with constant term 1 or -1"
+                f"about {(bits - 1) * rel * rel // 16 // 2**20:,} MiB; lower upto=, or use a "
+                "denominator with constant term 1 or -1",
+                parameters=["upto"],
             )
 
     @staticmethod
@@ -656,7 +658,8 @@ class _Expander:
         if per * rel > MAX_POWER_BITS:
             raise TooLarge(
                 f"raising a series to the power {k} up to degree {rel - 1} could need about "
-                f"{per * rel // 8 // 2**20:,} MiB of coefficients; lower --upto or the exponent"
+                f"{per * rel // 8 // 2**20:,} MiB of coefficients; lower upto= or the exponent",
+                parameters=["upto"],
             )
 
     # -- the tree walk -----------------------------------------------------
@@ -884,7 +887,8 @@ def extract_coefficients(expr, upto, var="x") -> List[Union[int, Fraction]]:
         if limit > ceiling:
             raise TooLarge(
                 f"expanding this expression to degree {top} needs more than {ceiling} working terms "
-                "(large cancellations or high negative powers); simplify it or lower --upto"
+                "(large cancellations or high negative powers); simplify it or lower upto=",
+                parameters=["upto"],
             )
 
 

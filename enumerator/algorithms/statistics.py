@@ -99,7 +99,7 @@ mpz = gmpy2.mpz
 divexact = gmpy2.divexact
 
 #: Default size limit: the most configurations listed, profiles generated or
-#: bounded counts summed by one request; raise it with ``limit=`` (CLI ``--limit``).
+#: bounded counts summed by one request; raise it with ``limit=``.
 DEFAULT_LIMIT = 10 ** 6
 
 #: The statistic names :func:`parse_statistic` accepts (``I``, ``J``: whole numbers).
@@ -1147,7 +1147,8 @@ def _profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]
         if how_many > limit:
             raise TooLarge(
                 f"the model has {how_many} occupancy profiles, above the limit {limit}; "
-                "raise limit= (CLI: --limit) or choose a summary statistic such as max or empty"
+                "raise limit= or choose a summary statistic such as max or empty",
+                parameters=["limit"],
             )
         fac_r = fac(r)
         for part in _partitions(n - r * a, r, b - a):
@@ -1164,7 +1165,8 @@ def _profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]
     if candidates > limit:
         raise TooLarge(
             f"the per-urn bounds leave up to {candidates} candidate profiles to check, above the limit {limit}; "
-            "raise limit= (CLI: --limit) or use uniform bounds"
+            "raise limit= or use uniform bounds",
+            parameters=["limit"],
         )
     groups = sorted(Counter(eff).items())
     for part in _partitions(n, r, largest):
@@ -1235,7 +1237,8 @@ def _enumerated_counts(model: UrnModel, label: str, limit: int, value: Callable)
     if how_many > limit:
         raise TooLarge(
             f"{label} for these per-urn bounds needs all {how_many} configurations listed, "
-            f"above the limit {limit}; raise limit= (CLI: --limit)"
+            f"above the limit {limit}; raise limit=",
+            parameters=["limit"],
         )
     mb = model.rule is Rule.MB
     fac = gmpy2.fac

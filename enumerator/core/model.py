@@ -31,7 +31,7 @@ from typing import Iterable, Optional, Sequence, Tuple
 from .errors import InvalidConfiguration, InvalidParameters
 from .rules import Rule
 
-__all__ = ["Rule", "UrnModel", "as_count", "parse_bounds"]
+__all__ = ["Rule", "UrnModel", "as_count", "parse_bounds", "parse_canonical_bounds"]
 
 Bound = Tuple[int, Optional[int]]
 _PLAIN_INT = frozenset({int})
@@ -77,6 +77,53 @@ def parse_bounds(text: str) -> Tuple[Bound, ...]:
             ) from None
         bounds.append((a, b))
     return tuple(bounds)
+
+
+def parse_canonical_bounds(text: str) -> Tuple[Bound, ...]:
+    """Read the canonical bounds text that :meth:`UrnModel.canonical_bounds` writes.
+
+    Parameters
+    ----------
+    text : str
+        ``"r*a:b"`` (``r`` urns sharing the bounds ``a:b``) or ``"a:b,a:b,..."``,
+        with ``a:`` for no upper bound.
+
+    Returns
+    -------
+    tuple of (int, int or None)
+        One ``(lower, upper)`` pair per urn.
+
+    Raises
+    ------
+    InvalidParameters
+        when the text is not in the canonical form.
+
+    Notes
+    -----
+    The one parser of the canonical text (the store rebuilds models from its
+    keys with it); a single pass over the text, ``O(len(text))``, plus ``r``
+    tuple entries for the run-length form.
+
+    Examples
+    --------
+    >>> parse_canonical_bounds("3*0:2")
+    ((0, 2), (0, 2), (0, 2))
+    >>> parse_canonical_bounds("0:1,2:")
+    ((0, 1), (2, None))
+    """
+    def one(item):
+        a, _, b = item.partition(":")
+        return int(a), (int(b) if b else None)
+
+    try:
+        if "*" in text:
+            count, _, item = text.partition("*")
+            return (one(item),) * int(count)
+        return tuple(one(item) for item in text.split(","))
+    except (TypeError, ValueError):
+        raise InvalidParameters(
+            f'canonical bounds must look like "3*0:2" or "0:1,2:" (got {text!r})'
+        ) from None
 
 
 class UrnModel:
@@ -161,20 +208,22 @@ class UrnModel:
                     f"minimum {a} is above capacity {b}; the minimum must be <= the capacity"
                 )
             normal = [(a, b)] * r
-        if rule_ is Rule.FD:
-            fd = []
+        most = rule_.description.per_urn
+        if most is not None:
+            # the rule itself caps every urn (FD: one ball), so the cap is a bound
+            capped = []
             for i, (a, b) in enumerate(normal, start=1):
-                if b is not None and b > 1:
+                if b is not None and b > most:
                     raise InvalidParameters(
-                        f"FD allows at most one ball per urn, but urn {i} has capacity {b}; "
+                        f"{rule_.value} allows at most one ball per urn, but urn {i} has capacity {b}; "
                         "use capacity 1 (or leave it out), or rule BE for a larger capacity"
                     )
-                if a > 1:
+                if a > most:
                     raise InvalidParameters(
-                        f"FD allows at most one ball per urn, but urn {i} has minimum {a}"
+                        f"{rule_.value} allows at most one ball per urn, but urn {i} has minimum {a}"
                     )
-                fd.append((a, 1 if b is None else b))
-            normal = fd
+                capped.append((a, most if b is None else b))
+            normal = capped
         object.__setattr__(self, "balls", n)
         object.__setattr__(self, "bounds", tuple(normal))
         object.__setattr__(self, "rule", rule_)
@@ -200,7 +249,7 @@ class UrnModel:
         if self._uniform:
             a, b = self.bounds[0]
             extra = "" if a == 0 else f", minimum={a}"
-            if b is not None and not (self.rule is Rule.FD and b == 1):
+            if b is not None and b != self.rule.description.per_urn:
                 extra += f", capacity={b}"
             return f"{type(self).__name__}(balls={self.balls}, urns={self.urns}, rule={self.rule.value!r}{extra})"
         return f"{type(self).__name__}(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
@@ -237,8 +286,43 @@ class UrnModel:
         """Return the same balls and urns under another rule."""
         return type(self)(balls=self.balls, bounds=self.bounds, rule=rule)
 
+    @classmethod
+    def from_canonical(cls, rule, balls, bounds: str) -> "UrnModel":
+        """Rebuild a model from its rule, its balls and its :meth:`canonical_bounds` text.
+
+        Parameters
+        ----------
+        rule : Rule or str
+            The counting rule.
+        balls : int
+            ``n >= 0``.
+        bounds : str
+            The canonical bounds text (:func:`parse_canonical_bounds`).
+
+        Returns
+        -------
+        UrnModel
+            The model whose canonical key these are.
+
+        Raises
+        ------
+        InvalidParameters
+            for a malformed text or invalid parameters.
+
+        Examples
+        --------
+        >>> model = UrnModel(balls=3, urns=4, rule="BE", capacity=2)
+        >>> UrnModel.from_canonical("BE", 3, model.canonical_bounds()) == model
+        True
+        """
+        return cls(balls=balls, bounds=parse_canonical_bounds(bounds), rule=rule)
+
     def canonical_bounds(self) -> str:
-        """The bounds in one canonical text form: ``"r*a:b"`` or ``"a:b,..."``."""
+        """The bounds in one canonical text form: ``"r*a:b"`` or ``"a:b,..."``.
+
+        :func:`parse_canonical_bounds` reads it back; the store keys its
+        results by it.
+        """
         def one(a, b):
             return f"{a}:" if b is None else f"{a}:{b}"
         if self._uniform:
