@@ -568,3 +568,12 @@ def test_payload_lists_every_energy_as_a_string():
     system = System.create(make_spectrum("0,2"), 2, "BE")
     payload = levels_payload(system, multiplicities(system, 4))
     assert payload == {"unit": "1", "multiplicity": {"0": "1", "1": "0", "2": "1", "3": "0", "4": "1"}}
+
+
+@pytest.mark.parametrize("name", ["", ".spectra", ".multiplicities", ".ensembles"])
+def test_module_doctests(name):
+    import doctest
+    import importlib
+
+    module = importlib.import_module("enumerator.algorithms.levels" + name)
+    assert doctest.testmod(module).failed == 0

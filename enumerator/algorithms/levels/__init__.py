@@ -1,0 +1,86 @@
+r"""Energy levels with degeneracies: exact statistical mechanics of small systems.
+
+``N`` particles on single-particle levels (energy ``ε_i``, degeneracy ``g_i``)
+under the MB, BE (optionally with a capacity per state: Gentile's
+intermediate statistics) or FD rule.  The package has three rooms, and this
+module gives their public names in one place (as :mod:`networkx.algorithms`
+gathers its topic modules):
+
+:mod:`~enumerator.algorithms.levels.spectra`
+    exact energies from user values, spectra, presets (harmonic oscillator,
+    isotropic trap, two-level system, Einstein solid) and systems;
+:mod:`~enumerator.algorithms.levels.multiplicities`
+    exact multiplicities ``Ω(N, E)`` -- the coefficients of the canonical
+    partition function ``Z_N(t)`` -- by FLINT polynomial arithmetic and the
+    particle-number recursion (Newton's identities), and the exact energy
+    split of two systems in thermal contact;
+:mod:`~enumerator.algorithms.levels.ensembles`
+    the microcanonical temperature, the canonical ensemble from the
+    Borrmann–Franke recursion (P. Borrmann and G. Franke, J. Chem. Phys. 98,
+    2484 (1993)) and the grand-canonical occupation formulas.
+
+Units: energies and temperatures share the user's energy unit, with
+Boltzmann's constant ``k_B = 1``.
+
+>>> multiplicities(einstein_solid(3), 4)
+{0: 1, 1: 3, 2: 6, 3: 10, 4: 15}
+"""
+
+from __future__ import annotations
+
+from ._reports import contact_payload, levels_payload, plot_contact, plot_levels
+from .ensembles import (
+    DEFAULT_DIGITS,
+    CanonicalPoint,
+    MicroPoint,
+    canonical,
+    canonical_occupations,
+    grand_canonical,
+    microcanonical,
+)
+from .multiplicities import MAX_CELLS, Contact, multiplicities, multiplicity_table, thermal_contact
+from .spectra import (
+    PRESETS,
+    Ladder,
+    Spectrum,
+    System,
+    einstein_solid,
+    ground_energy,
+    harmonic_oscillator,
+    harmonic_trap,
+    make_spectrum,
+    make_system,
+    parse_rational,
+    two_level,
+)
+
+__all__ = [
+    "CanonicalPoint",
+    "Contact",
+    "DEFAULT_DIGITS",
+    "Ladder",
+    "MAX_CELLS",
+    "MicroPoint",
+    "PRESETS",
+    "Spectrum",
+    "System",
+    "canonical",
+    "canonical_occupations",
+    "contact_payload",
+    "einstein_solid",
+    "grand_canonical",
+    "ground_energy",
+    "harmonic_oscillator",
+    "harmonic_trap",
+    "levels_payload",
+    "make_spectrum",
+    "make_system",
+    "microcanonical",
+    "multiplicities",
+    "multiplicity_table",
+    "parse_rational",
+    "plot_contact",
+    "plot_levels",
+    "thermal_contact",
+    "two_level",
+]

@@ -1,0 +1,765 @@
+r"""Ensembles of particles on energy levels: microcanonical, canonical, grand canonical.
+
+* :func:`microcanonical` -- ``ln Ω(E)`` and the temperature from central finite
+  differences of ``ln Ω`` (approximations, so named), on the exact
+  multiplicities of :mod:`enumerator.algorithms.levels.multiplicities`.
+* :func:`canonical` -- ``Z``, mean energy, heat capacity, free energy, entropy
+  and mean level occupations at given temperatures, from the recursion for the
+  canonical partition function of ideal quantum gases (P. Borrmann and
+  G. Franke, *Recursion formulas for quantum statistical partition functions*,
+  J. Chem. Phys. 98, 2484 (1993); P. Borrmann, J. Harting, O. Mülken and
+  E. Hilf, *Calculation of thermodynamic properties of finite Bose-Einstein
+  systems*, Phys. Rev. A 60, 1519 (1999)) to a requested number of digits:
+  mpmath for the exponentials, logarithms and root finding, the recursion
+  itself in exact fixed-point integers (FLINT products, divide and conquer),
+  with the precision raised until an error bound meets the request.
+  :func:`canonical_occupations` is the same without the β-derivatives.
+* :func:`grand_canonical` -- the grand-canonical occupation formulas at the
+  chemical potential that gives mean ``N``.
+
+Units: energies and temperatures share the user's energy unit, with
+Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Dict, Iterable, List, Optional, Tuple
+
+import mpmath
+from flint import fmpz_poly
+
+from ...core.errors import InvalidParameters, TooLarge
+from ...core.model import as_count
+from ...core.rules import Rule
+from .multiplicities import multiplicities
+from .spectra import Spectrum, System, ground_energy, parse_rational
+
+__all__ = [
+    "CanonicalPoint",
+    "DEFAULT_DIGITS",
+    "MicroPoint",
+    "canonical",
+    "canonical_occupations",
+    "grand_canonical",
+    "microcanonical",
+]
+
+#: Default number of significant decimal digits of the canonical results.
+DEFAULT_DIGITS = 50
+
+#: Extra decimal digits carried beyond the requested ones.
+GUARD_DIGITS = 12
+
+#: Grand-canonical ladder sums switch to the closed-form tail where
+#: ``β(ε - μ)`` exceeds this.
+_TAIL_GAP = 4
+
+
+def _parse_temperature(value) -> Fraction:
+    if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
+        man, exp = value.man_exp
+        number = Fraction(man) * Fraction(2) ** exp
+    elif isinstance(value, float):
+        if not math.isfinite(value):
+            raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
+        number = Fraction(value)
+    else:
+        number = parse_rational(value, "temperature")
+    if number <= 0:
+        raise InvalidParameters(
+            f"temperature must be positive (got {value}); give k_B T in the energy unit"
+        )
+    return number
+
+
+
+# --------------------------------------------------------------------------
+# Microcanonical
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class MicroPoint:
+    """One total energy: ``ln Ω`` and the finite-difference temperature (approximations)."""
+
+    energy: int
+    multiplicity: int
+    ln_multiplicity_approx: Optional[float]
+    temperature_approx: Optional[float]
+
+
+def _ln(value: int) -> float:
+    return float(mpmath.log(mpmath.mpf(value))) if value > 0 else None
+
+
+def microcanonical(system: System, max_energy=None) -> List[MicroPoint]:
+    r"""Return ``ln Ω(E)`` and ``T(E)`` for every energy of :func:`multiplicities`.
+
+    ``1/T = d ln Ω / dE`` by the central difference
+    ``(ln Ω(E+h) - ln Ω(E-h)) / (2h)``, ``h`` the spacing of the lattice of
+    reachable energies (the gcd of the level differences), in the energy unit
+    with ``k_B = 1``.  ``temperature_approx`` is ``None`` where a neighbour has
+    ``Ω = 0`` or the difference vanishes (infinite temperature); it is negative
+    where ``ln Ω`` falls (population inversion, as in a two-level system).
+    """
+    counts = multiplicities(system, max_energy)
+    spectrum = system.spectrum
+    step = 0
+    ref = spectrum.lowest
+    for e in spectrum.energies:
+        step = math.gcd(step, e - ref)
+    if not spectrum.finite:
+        step = math.gcd(step, spectrum.ladder.spacing)
+    logs = {e: _ln(v) for e, v in counts.items()}
+    points = []
+    for e, v in counts.items():
+        temperature = None
+        if step and v > 0:
+            lo, hi = logs.get(e - step), logs.get(e + step)
+            if lo is not None and hi is not None and hi != lo:
+                temperature = float(2 * step * spectrum.unit) / (hi - lo)
+        points.append(MicroPoint(e, v, logs[e], temperature))
+    return points
+
+
+# --------------------------------------------------------------------------
+# Canonical ensemble (mpmath)
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class CanonicalPoint:
+    """Canonical results at one temperature (mpmath numbers; ``k_B = 1``).
+
+    Energies are in the user's energy unit; ``occupations_approx[i]`` is the
+    mean number of particles in listed level ``i`` (all its ``g_i`` states).
+    ``grand_canonical_occupations_approx`` are the grand-canonical formulas
+    at ``chemical_potential_approx`` (the one giving mean ``N``); ``None``
+    when not computed.
+    """
+
+    temperature: Fraction
+    digits: int
+    ln_partition_function_approx: mpmath.mpf
+    mean_energy_approx: mpmath.mpf
+    heat_capacity_approx: mpmath.mpf
+    free_energy_approx: mpmath.mpf
+    entropy_approx: mpmath.mpf
+    occupations_approx: Tuple[mpmath.mpf, ...]
+    chemical_potential_approx: Optional[mpmath.mpf] = None
+    grand_canonical_occupations_approx: Optional[Tuple[mpmath.mpf, ...]] = None
+
+    @property
+    def partition_function_approx(self) -> mpmath.mpf:
+        """``Z_N`` itself (may be astronomically large or small)."""
+        return mpmath.exp(self.ln_partition_function_approx)
+
+    @property
+    def occupation_differences_approx(self) -> Optional[Tuple[mpmath.mpf, ...]]:
+        """Canonical minus grand-canonical occupation, level by level."""
+        if self.grand_canonical_occupations_approx is None:
+            return None
+        return tuple(c - g for c, g in zip(self.occupations_approx, self.grand_canonical_occupations_approx))
+
+
+class _Single:
+    """Single-particle sums ``z_k = Σ g y^k``, ``z1_k = Σ g e y^k``, ``z2_k = Σ g e^2 y^k``.
+
+    ``y = e^{-b e}`` with energies ``e`` shifted to the lowest level and ``b``
+    the inverse temperature per unit; a ladder uses closed forms.
+    """
+
+    def __init__(self, spectrum: Spectrum, b, moments: bool):
+        self.spectrum = spectrum
+        self.b = b
+        self.moments = moments
+        shift = spectrum.lowest
+        self.shifted = [e - shift for e in spectrum.energies]
+        if spectrum.finite:
+            self.g = [mpmath.mpf(g) for g in spectrum.degeneracies]
+            self.ge = [mpmath.mpf(g * e) for g, e in zip(spectrum.degeneracies, self.shifted)]
+            self.gee = [mpmath.mpf(g * e * e) for g, e in zip(spectrum.degeneracies, self.shifted)]
+            self.y = [mpmath.exp(-b * e) for e in self.shifted]
+
+    def sums(self, kmax: int):
+        """Lists ``z, z1, z2`` indexed ``0..kmax`` (index 0 unused)."""
+        z, z1, z2 = [None], [None], [None]
+        if self.spectrum.finite:
+            powers = list(self.y)
+            for _ in range(kmax):
+                z.append(mpmath.fdot(self.g, powers))
+                if self.moments:
+                    z1.append(mpmath.fdot(self.ge, powers))
+                    z2.append(mpmath.fdot(self.gee, powers))
+                powers = [p * y for p, y in zip(powers, self.y)]
+            return z, z1, z2
+        lad = self.spectrum.ladder
+        d, s = lad.dimension, lad.spacing
+        q1 = mpmath.exp(-self.b * s)
+        qk = mpmath.mpf(1)
+        for _ in range(kmax):
+            qk = qk * q1
+            r = qk / (1 - qk)
+            zk = (1 + r) ** d  # (1 - q^k)^{-d}
+            z.append(zk)
+            if self.moments:
+                first = d * s * r  # -(ln z)' per unit of b k
+                z1.append(zk * first)
+                z2.append(zk * (first * first + d * s * s * r * (1 + r)))
+        return z, z1, z2
+
+
+def _to_fixed(x, bits: int) -> int:
+    """``round(x 2^bits)`` for an mpmath number (exact at the working precision)."""
+    return int(mpmath.nint(mpmath.ldexp(x, bits)))
+
+
+def _from_fixed(value: int, bits: int):
+    """The mpmath number ``value / 2^bits`` (rounded to the working precision)."""
+    return mpmath.ldexp(mpmath.mpf(value), -bits)
+
+
+def _rdiv(a: int, d: int) -> int:
+    """``a / d`` rounded to the nearest integer (``d > 0``)."""
+    return (2 * a + d) // (2 * d)
+
+
+#: Blocks of at most this many particle numbers are done by the plain loop;
+#: larger ones are split in half (measured in scripts/bench.py workloads).
+_BASE_BLOCK = 16
+
+
+def _online_recursion(kernels, couplings, starts, n_max: int, bits: int):
+    r"""Solve ``n X^t_n = Σ_{(j, s)} Σ_{k=1}^{n} K^j_k X^s_{n-k}`` for ``n = 1..n_max``, in fixed point.
+
+    All values are integers scaled by ``2^bits``.  The convolutions are
+    computed by divide and conquer over ``n`` (an "online" or relaxed
+    convolution: once ``X_lo..X_{mid-1}`` are known, their whole contribution
+    to ``n`` in ``[mid, hi)`` is one FLINT polynomial product per pair),
+    J. van der Hoeven, *Relax, but don't be too lazy*, J. Symb. Comput. 34
+    (2002); cost ``O(M(N) log N)`` instead of ``N^2/2`` multiply-adds.
+
+    :param kernels: integer lists ``K^j`` indexed ``0..n_max`` (``K^j_0`` unused).
+    :param couplings: for each target ``t`` the pairs ``(j, s)`` above.
+    :param starts: ``X^t_0`` for each target.
+    """
+    width = len(couplings)
+    seqs = [[start] + [0] * n_max for start in starts]
+    acc = [[0] * (n_max + 1) for _ in range(width)]
+    kernel_polys: Dict[Tuple[int, int], fmpz_poly] = {}
+
+    def kernel_poly(j: int, length: int) -> fmpz_poly:
+        key = (j, length)
+        poly = kernel_polys.get(key)
+        if poly is None:
+            poly = kernel_polys[key] = fmpz_poly(kernels[j][:length])
+        return poly
+
+    def finalize(n: int) -> None:
+        if n == 0:
+            return
+        d = n << bits
+        for t in range(width):
+            seqs[t][n] = _rdiv(acc[t][n], d)
+
+    def solve(lo: int, hi: int) -> None:
+        if hi - lo <= _BASE_BLOCK:
+            for n in range(lo, hi):
+                finalize(n)
+                for t, pairs in enumerate(couplings):
+                    row = acc[t]
+                    for j, s in pairs:
+                        x = seqs[s][n]
+                        if x:
+                            kern = kernels[j]
+                            for m in range(n + 1, hi):
+                                row[m] += kern[m - n] * x
+            return
+        mid = (lo + hi) // 2
+        solve(lo, mid)
+        length = hi - lo
+        sources = {}
+        for t, pairs in enumerate(couplings):
+            total = None
+            for j, s in pairs:
+                src = sources.get(s)
+                if src is None:
+                    src = sources[s] = fmpz_poly(seqs[s][lo:mid])
+                if src.is_zero():
+                    continue
+                part = src.mul_low(kernel_poly(j, length), length)
+                total = part if total is None else total + part
+            if total is not None:
+                row = acc[t]
+                for m in range(mid, hi):
+                    c = total[m - lo]
+                    if c:
+                        row[m] += int(c)
+        solve(mid, hi)
+
+    solve(0, n_max + 1)
+    return seqs
+
+
+def _bits(x: int) -> int:
+    return abs(x).bit_length()
+
+
+def _occupations(system: System, spectrum: Spectrum, b, ratios, count: int) -> List:
+    """``<n_i> = g_i Σ_k w_k y_i^k Z_{N-k} / Z_N`` for the lowest *count* listed levels.
+
+    *ratios* are ``Z_{N-k} / Z_N`` (``k = 0..N``).  BE terms are positive and,
+    with the lowest level at energy 0, decrease in ``k`` (``Z_{N-k} <= Z_N``:
+    adding a particle to a lowest state maps states into states), so the sum
+    stops once a term drops below the working precision.
+    """
+    n_max = system.particles
+    shift = spectrum.lowest
+    w = system.weights(n_max)
+    signed = [w[k] * ratios[k] for k in range(n_max + 1)]
+    eps = mpmath.ldexp(mpmath.mpf(1), -mpmath.mp.prec)
+    positive = system.capacity is None
+    result = []
+    for i in range(count):
+        e = spectrum.energies[i] - shift
+        g = spectrum.degeneracies[i]
+        if e == 0:
+            total = mpmath.fsum(signed[1:])
+        else:
+            y = mpmath.exp(-b * e)
+            if positive:
+                total = mpmath.mpf(0)
+                yk = mpmath.mpf(1)
+                for k in range(1, n_max + 1):
+                    yk = yk * y
+                    term = yk * ratios[k]
+                    total += term
+                    if term < eps * total:
+                        break
+            else:
+                powers = []
+                yk = mpmath.mpf(1)
+                for _ in range(n_max):
+                    yk = yk * y
+                    powers.append(yk)
+                total = mpmath.fdot(powers, signed[1:])
+        result.append(g * total)
+    return result
+
+
+def _report_count(spectrum: Spectrum, levels: Optional[int]) -> int:
+    if levels is None:
+        return len(spectrum.energies)
+    count = as_count(levels, "levels", 1)
+    if spectrum.finite and count > len(spectrum.energies):
+        raise InvalidParameters(
+            f"the spectrum lists {len(spectrum.energies)} levels; ask for at most that many"
+        )
+    return count
+
+
+def _canonical_mb(system, spectrum, b, count, target_bits):
+    """MB closed forms: ``ln Z = N ln z``, ``U = N z1/z``, ``Var = N (z2/z - (z1/z)^2)``.
+
+    Returns the values and the bits the one-particle variance lost to cancellation.
+    """
+    z, z1, z2 = _Single(spectrum, b, True).sums(1)
+    n = system.particles
+    mean1 = z1[1] / z[1]
+    var1 = z2[1] / z[1] - mean1 * mean1
+    lost = 0
+    if var1 > 0 and mean1 > 0:
+        lost = max(0, int(mpmath.log(mean1 * mean1 / var1, 2)) + 1)
+    occ = []
+    for i in range(count):
+        e = spectrum.energies[i] - spectrum.lowest
+        occ.append(n * spectrum.degeneracies[i] * mpmath.exp(-b * e) / z[1])
+    return n * mpmath.log(z[1]), n * mean1, n * var1, occ, lost
+
+
+def _canonical_at(system: System, temperature: Fraction, digits: int, count: int, moments: bool):
+    """One temperature; the fixed-point precision is raised until the error bound is met.
+
+    Error model (fixed point, one unit ``2^-bits`` per rounding, propagated by
+    the recursion with ``|w_k|``): the absolute error of a sequence value is
+    about ``N 2^-bits`` times its majorant (``Ẑ``: the same recursion with
+    ``|w_k|``, equal to ``Z`` for BE).  The working precision is accepted when
+    that error is below ``10^-digits`` relative to ``Z_N``, ``M1_N`` and the
+    variance ``M2_N Z_N - M1_N^2``; otherwise it is raised by the shortfall.
+    """
+    spectrum = system.spectrum
+    if count > len(spectrum.energies):
+        spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
+        system = System(spectrum, system.particles, system.rule, system.capacity)
+    n = system.particles
+    states = spectrum.states()
+    if n and system.capacity is not None and states is not None and n == system.capacity * states:
+        # Every state full: one microstate, no fluctuations (the recursion
+        # would spend ever more bits resolving a variance that is exactly 0).
+        with mpmath.workdps(digits + GUARD_DIGITS):
+            T = mpmath.mpf(temperature.numerator) / temperature.denominator
+            energy = mpmath.mpf(ground_energy(system) * spectrum.unit.numerator) / spectrum.unit.denominator
+            lnZ = -energy / T
+            occ = [mpmath.mpf(system.capacity * g) for g in spectrum.degeneracies[:count]]
+            zero = mpmath.mpf(0)
+            with mpmath.workdps(digits):
+                return +lnZ, +energy, zero, +energy, zero, tuple(occ)
+    target = math.ceil(digits * math.log2(10))
+    margin = 8 + 2 * (n + 1).bit_length()
+    bits = target + margin + 16
+    for _attempt in range(12):
+        with mpmath.workprec(bits + 32):
+            T = mpmath.mpf(temperature.numerator) / temperature.denominator
+            u = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
+            b = u / T
+            shift_e = n * spectrum.lowest
+            if system.rule is Rule.MB:
+                lnz, m1, var, occ, lost = _canonical_mb(system, spectrum, b, count, target)
+                need = target + margin + lost
+            else:
+                single = _Single(spectrum, b, moments)
+                z, z1, z2 = single.sums(n)
+                w = system.weights(n)
+                alternating = any(x < 0 for x in w[1:])
+                a0 = [0] + [_to_fixed(w[k] * z[k], bits) for k in range(1, n + 1)]
+                kernels = [a0]
+                couplings = [[(0, 0)]]
+                starts = [1 << bits]
+                if moments:
+                    a1 = [0] + [_to_fixed(w[k] * k * z1[k], bits) for k in range(1, n + 1)]
+                    a2 = [0] + [_to_fixed(w[k] * k * k * z2[k], bits) for k in range(1, n + 1)]
+                    kernels += [a1, a2, [2 * x for x in a1]]
+                    # Z: a0*Z;  M1: a1*Z + a0*M1;  M2: a2*Z + 2 a1*M1 + a0*M2
+                    couplings += [[(1, 0), (0, 1)], [(2, 0), (3, 1), (0, 2)]]
+                    starts += [0, 0]
+                if alternating:
+                    base = len(kernels)
+                    off = len(couplings)
+                    kernels += [[abs(x) for x in a0]]
+                    couplings.append([(base, off)])
+                    starts.append(1 << bits)
+                    if moments:
+                        kernels += [[abs(x) for x in a1], [abs(x) for x in a2], [2 * abs(x) for x in a1]]
+                        couplings += [
+                            [(base + 1, off), (base, off + 1)],
+                            [(base + 2, off), (base + 3, off + 1), (base, off + 2)],
+                        ]
+                        starts += [0, 0]
+                seqs = _online_recursion(kernels, couplings, starts, n, bits)
+                Z = seqs[0]
+                ZN = Z[n]
+                if alternating:
+                    H = seqs[3 if moments else 1]
+                    H1, H2 = (seqs[4], seqs[5]) if moments else (None, None)
+                else:
+                    H = Z
+                    H1, H2 = (seqs[1], seqs[2]) if moments else (None, None)
+                if ZN <= 0:
+                    # Z_N is below the rounding noise.  It is at least e^{-b E_0}
+                    # (the ground state, energy E_0 above n times the lowest
+                    # level) and the majorant is accurate, which bounds the loss.
+                    ground = ground_energy(system) - shift_e
+                    est = target + margin + _bits(H[n]) - bits + int(b * ground / mpmath.ln2) + 1
+                    bits = max(2 * bits, est + 16)
+                    continue
+                need = target + margin + max(0, _bits(H[n]) - _bits(ZN))
+                if moments:
+                    # With two distinct level energies (and not every state full,
+                    # handled above) the energy fluctuates: M1_N > 0 and V > 0
+                    # exactly, so a zero or negative value is rounding noise and
+                    # the bounds below then ask for more bits.
+                    fluctuates = n > 0 and len(set(spectrum.energies)) > 1
+                    M1N, M2N = seqs[1][n], seqs[2][n]
+                    if fluctuates:
+                        need = max(need, target + margin + _bits(H1[n] + H[n]) - _bits(max(M1N, 1)))
+                    V = M2N * ZN - M1N * M1N
+                    W = ZN * (H2[n] + H[n]) + M2N * H[n] + 2 * abs(M1N) * (H1[n] + H[n])
+                    if fluctuates:
+                        # V and W both carry the scale 2^(2 bits); V's error is N 2^-bits W.
+                        need = max(need, target + margin + _bits(W) - _bits(max(V, 1)))
+                if need > bits:
+                    bits = need + 16
+                    continue
+                ZNm = mpmath.mpf(ZN)
+                lnz = mpmath.log(ZNm) - bits * mpmath.ln2
+                if moments:
+                    m1 = mpmath.mpf(M1N) / ZNm
+                    var = mpmath.mpf(V) / (ZNm * ZNm)
+                else:
+                    m1 = var = mpmath.mpf(0)
+                ratios = [mpmath.mpf(Z[n - k]) / ZNm for k in range(n + 1)]
+                occ = _occupations(system, spectrum, b, ratios, count)
+                need = bits
+            if need > bits:
+                bits = need + 16
+                continue
+            lnZ = lnz - b * shift_e
+            U = u * (m1 + shift_e)
+            C = u * u * var / (T * T)
+            F = -T * lnZ
+            S = lnZ + U / T
+            with mpmath.workdps(digits):
+                return +lnZ, +U, +C, +F, +S, tuple(+x for x in occ)
+    raise TooLarge(
+        f"the canonical sums at T = {temperature} lose more digits than a reasonable working "
+        "precision holds; raise the temperature or lower the number of particles"
+    )
+
+
+def canonical(
+    system: System,
+    temperatures: Iterable,
+    digits: int = DEFAULT_DIGITS,
+    levels: Optional[int] = None,
+    grand: bool = True,
+) -> List[CanonicalPoint]:
+    r"""Return the canonical ensemble of *system* at each temperature.
+
+    ``Z_N`` from the Borrmann–Franke recursion for ideal quantum gases,
+    ``Z_N = (1/N) Σ_{k=1}^{N} w_k Z_1(kβ) Z_{N-k}`` (``w_k = (±1)^{k+1}``
+    for BE/FD, Gentile weights with a capacity; MB: ``Z = Z_1^N``) together
+    with its first two β-derivatives, giving ``U = -∂ ln Z/∂β`` and
+    ``C = β^2 ∂^2 ln Z/∂β^2``; ``F = -T ln Z``, ``S = ln Z + U/T``; mean
+    occupations ``<n_i> = Σ_k w_k g_i e^{-kβε_i} Z_{N-k}/Z_N`` (Borrmann,
+    Harting, Mülken, Hilf 1999).  A ladder uses ``Z_1 = e^{-βε_0}(1 -
+    e^{-βħω})^{-d}`` exactly, however many levels it takes.
+
+    Arithmetic: the single-particle sums ``Z_1(kβ)`` and its derivatives in
+    mpmath, rounded to fixed-point integers with ``bits`` fractional bits;
+    the recursion and its two β-derivatives in exact integer arithmetic, all
+    ``N`` convolutions at once by divide and conquer over FLINT products;
+    logarithms, ratios and occupations back in mpmath.  The alternating
+    FD/Gentile sums cancel at low temperature: ``bits`` is raised until the
+    rounding error, bounded through the majorant ``Ẑ`` (the same recursion
+    with ``|w_k|``), is below ``10^-digits`` relative to ``Z_N``, to the
+    energy moment and to the variance ``⟨E²⟩ - ⟨E⟩²``.  The results carry
+    about *digits* correct digits (occupations: about ``10^-digits g_i``
+    absolute).  Fermions far below the Fermi temperature need thousands of
+    bits (``β E_0 / ln 2`` for a ground energy ``E_0`` above ``N ε_min``).
+
+    :param temperatures: positive ``k_B T`` values in the energy unit (ints,
+        fractions, decimal strings or floats).
+    :param levels: how many of the lowest listed levels to report
+        occupations for (default: all listed; a ladder lists what it was
+        extended to by :meth:`Spectrum.through`).
+    :param grand: also compute the grand-canonical occupations.
+
+    Cost per temperature: ``O(M(N) log N)`` integer work for the recursion
+    (``M``: one FLINT product of length ``N``), plus ``O(N)`` mpmath
+    operations per reported level (fewer for BE, whose sums stop once
+    negligible); MB ``O(levels)``.
+    :raises InvalidParameters: no state exists (FD with more particles than
+        states), a non-positive temperature.
+    """
+    digits = as_count(digits, "digits", 5)
+    if ground_energy(system) is None:
+        raise InvalidParameters(
+            f"{system.particles} particles do not fit in the {system.spectrum.states()} "
+            "single-particle states under this rule; lower --particles or add levels"
+        )
+    count = _report_count(system.spectrum, levels)
+    points = []
+    for value in temperatures:
+        temperature = _parse_temperature(value)
+        lnZ, U, C, F, S, occ = _canonical_at(system, temperature, digits, count, True)
+        mu, gc = (None, None)
+        if grand:
+            mu, gc = grand_canonical(system, temperature, digits, count)
+        points.append(
+            CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ, mu, gc)
+        )
+    return points
+
+
+def canonical_occupations(
+    system: System, temperatures: Iterable, digits: int = DEFAULT_DIGITS, levels: Optional[int] = None
+) -> List[Tuple]:
+    """Return the canonical mean occupations only, one tuple per temperature.
+
+    The same recursion as :func:`canonical` without its β-derivatives (one
+    coupled sequence instead of three) and without the grand-canonical
+    comparison.
+    """
+    digits = as_count(digits, "digits", 5)
+    if ground_energy(system) is None:
+        raise InvalidParameters(
+            f"{system.particles} particles do not fit in the single-particle states under this rule"
+        )
+    count = _report_count(system.spectrum, levels)
+    result = []
+    for value in temperatures:
+        temperature = _parse_temperature(value)
+        result.append(_canonical_at(system, temperature, digits, count, False)[5])
+    return result
+
+
+# --------------------------------------------------------------------------
+# Grand canonical ensemble
+# --------------------------------------------------------------------------
+def _occupation_formula(system: System):
+    """Mean occupation of one state at ``x = β(ε - μ)`` (``X = e^x``)."""
+    if system.rule is Rule.MB:
+        return lambda X: 1 / X
+    if system.capacity is None:
+        return lambda X: 1 / (X - 1)
+    if system.capacity == 1:
+        return lambda X: 1 / (X + 1)
+    cap = system.capacity
+
+    def gentile(X):
+        # <n> = sum_j j y^j / sum_j y^j over j = 0..c, y = 1/X: the definition,
+        # equal to 1/(X-1) - (c+1)/(X^(c+1)-1) but without its removable pole at X = 1.
+        y = 1 / X
+        powers = [mpmath.mpf(1)]
+        for _ in range(cap):
+            powers.append(powers[-1] * y)
+        return mpmath.fsum(j * p for j, p in enumerate(powers)) / mpmath.fsum(powers)
+
+    return gentile
+
+
+def _gc_total(system: System, b, eta, formula):
+    """``Σ_i g_i f(b e_i - η)`` over the whole spectrum (a ladder until the tail is negligible)."""
+    spectrum = system.spectrum
+    shift = spectrum.lowest
+    if spectrum.finite:
+        return mpmath.fsum(
+            g * formula(mpmath.exp(b * (e - shift) - eta))
+            for e, g in zip(spectrum.energies, spectrum.degeneracies)
+        )
+    lad = spectrum.ladder
+    d = lad.dimension
+    bs = b * lad.spacing
+    # Rungs m < m0 directly; above them x = b e_m - eta >= _TAIL_GAP > 0, where
+    # f(x) = sum_j w_j e^{-jx} (the weights of the canonical recursion) and each
+    # j needs only the ladder tail T_j = sum_{m >= m0} C(m+d-1, d-1) q^m,
+    # q = e^{-j b s}, in closed form q^m0 sum_{i<d} C(m0+i-1, i) (1-q)^{-(d-i)}
+    # (Vandermonde's convolution).
+    m0 = max(0, int(mpmath.ceil((eta + _TAIL_GAP) / bs)))
+    total = mpmath.mpf(0)
+    if m0:
+        step = mpmath.exp(bs)
+        X = mpmath.exp(-eta)
+        for m in range(m0):
+            total += lad.degeneracy(m) * formula(X)
+            X = X * step
+    eps = mpmath.ldexp(mpmath.mpf(1), -mpmath.mp.prec)
+    q1 = mpmath.exp(-bs)
+    fug = mpmath.exp(eta)
+    lead = [math.comb(m0 + i - 1, i) if m0 else int(i == 0) for i in range(d)]
+    c1 = None if system.capacity is None else system.capacity + 1
+    q = mpmath.mpf(1)
+    fj = mpmath.mpf(1)
+    j = 0
+    while True:
+        j += 1
+        q = q * q1
+        fj = fj * fug
+        weight = 1 if c1 is None or j % c1 else 1 - c1
+        inv = 1 / (1 - q)
+        tail = q ** m0 * mpmath.fsum(lead[i] * inv ** (d - i) for i in range(d))
+        term = weight * fj * tail
+        total += term
+        if system.rule is Rule.MB or abs(term) < eps * abs(total):
+            return total
+
+
+def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, levels: Optional[int] = None):
+    r"""Return ``(μ, occupations)``: the grand-canonical formulas at mean particle number ``N``.
+
+    ``<n_i> = g_i f(β(ε_i - μ))`` with ``f(x) = 1/(e^x - 1)`` (BE),
+    ``1/(e^x + 1)`` (FD), ``e^{-x}`` (MB, where it equals the canonical
+    result), ``1/(e^x - 1) - (c+1)/(e^{(c+1)x} - 1)`` (capacity ``c``), and
+    ``μ`` solves ``Σ_i <n_i>(μ) = N`` over the whole spectrum:
+    ``mpmath.findroot`` with a bracketing solver (Anderson–Björck) on a
+    bracket found by doubling; for BE in the variable ``ln(ε_0 - μ)``.
+    ``μ`` is ``None`` for ``N = 0`` (``-∞``) and for a full FD/Gentile
+    spectrum (``+∞``).
+    """
+    digits = as_count(digits, "digits", 5)
+    temperature = _parse_temperature(temperature)
+    spectrum = system.spectrum
+    count = _report_count(spectrum, levels)
+    if count > len(spectrum.energies):
+        spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
+    n = system.particles
+    states = spectrum.states()
+    cap = system.capacity
+    if n == 0:
+        return None, tuple(mpmath.mpf(0) for _ in range(count))
+    if cap is not None and states is not None and n >= cap * states:
+        if n > cap * states:
+            raise InvalidParameters(
+                f"{n} particles do not fit in {states} states holding at most {cap} each"
+            )
+        return None, tuple(mpmath.mpf(cap * g) for g in spectrum.degeneracies[:count])
+    formula = _occupation_formula(system)
+    with mpmath.workdps(digits + GUARD_DIGITS):
+        T = mpmath.mpf(temperature.numerator) / temperature.denominator
+        u = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
+        b = u / T
+        target = mpmath.mpf(n)
+        shift = spectrum.lowest
+        sysx = System(spectrum, n, system.rule, system.capacity)
+        if system.rule is Rule.MB:
+            z = _Single(spectrum, b, False).sums(1)[0][1]
+            eta = mpmath.log(target / z)
+        elif cap is None:
+            # BE: eta = beta (mu - eps_0) < 0; solve in s = ln(-eta), N decreasing in s.
+            def h(s):
+                return _gc_total(sysx, b, -mpmath.exp(s), formula) - target
+
+            lo, hi = mpmath.mpf(-2), mpmath.mpf(2)
+            while h(lo) < 0:
+                lo -= 2 * (1 + abs(lo))
+            while h(hi) > 0:
+                hi += 2 * (1 + abs(hi))
+            s = _bracketed_root(h, lo, hi, target)
+            eta = -mpmath.exp(s)
+        else:
+            def h(e):
+                return _gc_total(sysx, b, e, formula) - target
+
+            lo, hi = mpmath.mpf(-1), mpmath.mpf(1)
+            while h(lo) > 0:
+                lo = 2 * lo
+            while h(hi) < 0:
+                hi = 2 * hi
+            eta = _bracketed_root(h, lo, hi, target)
+        occ = [
+            g * formula(mpmath.exp(b * (e - shift) - eta))
+            for e, g in zip(spectrum.energies[:count], spectrum.degeneracies[:count])
+        ]
+        mu = T * eta + u * shift
+        with mpmath.workdps(digits):
+            return +mu, tuple(+x for x in occ)
+
+
+def _bracketed_root(h, lo, hi, scale):
+    """A root of the monotone *h* inside ``[lo, hi]`` (``h(lo)``, ``h(hi)`` of opposite signs).
+
+    mpmath's Anderson–Björck bracketing solver first; its answer is kept when
+    ``|h|`` is below ``scale`` times the working precision.  Otherwise (a
+    nearly flat ``h``, as inside the gap of a filled Fermi shell) bisection,
+    which keeps the bracket and cannot stall.
+    """
+    prec = mpmath.mp.prec
+    tol = mpmath.ldexp(mpmath.mpf(1), -prec + 8)
+    good = scale * mpmath.ldexp(mpmath.mpf(1), -prec + 24)
+    try:
+        root = mpmath.findroot(h, (lo, hi), solver="anderson", tol=tol, maxsteps=200, verify=False)
+        if lo <= root <= hi and abs(h(root)) <= good:
+            return root
+    except (ValueError, ZeroDivisionError):
+        pass
+    a, b = lo, hi
+    ha = h(a)
+    for _ in range(4 * prec):
+        m = (a + b) / 2
+        hm = h(m)
+        if hm == 0 or b - a <= tol * max(1, abs(m)):
+            return m
+        if (hm > 0) == (ha > 0):
+            a, ha = m, hm
+        else:
+            b = m
+    return (a + b) / 2

@@ -1,0 +1,524 @@
+r"""Single-particle spectra, presets and systems of particles on them.
+
+A :class:`Spectrum` is a list of single-particle levels, energy ``ε_i`` and
+degeneracy ``g_i`` (``g_i`` single-particle states share the energy).  Energies
+are exact rationals stored as integer multiples of one common ``unit``
+(``1/lcm`` of their denominators, so integer energies keep the unit ``1``); a
+ladder (the harmonic oscillator and trap presets) goes on without end above
+its listed levels.  A :class:`System` puts ``N`` particles on a spectrum under
+a counting rule:
+
+``MB``
+    distinguishable particles (localised oscillators, tagged atoms): every
+    assignment of the ``N`` labelled particles to single-particle states is one
+    microstate.
+``BE``
+    identical bosons: a microstate is an occupancy of the single-particle
+    states; with a ``capacity`` ``c`` per state (Gentile's intermediate
+    statistics) each state holds at most ``c``.
+``FD``
+    identical fermions, at most one per state.
+
+This module holds the description only: exact numbers read from user values
+(:func:`parse_rational`), spectra and presets, systems and their ground
+energy.  What is computed from them lives in
+:mod:`enumerator.algorithms.levels.multiplicities` (exact ``Ω(N, E)``,
+thermal contact) and :mod:`enumerator.algorithms.levels.ensembles`
+(microcanonical, canonical and grand-canonical quantities).
+
+Units: energies share the user's energy unit, with Boltzmann's constant
+``k_B = 1``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import List, Optional, Tuple
+
+from ...core.errors import InvalidParameters, Unsupported
+from ...core.model import as_count
+from ...core.rules import Rule
+
+__all__ = [
+    "Ladder",
+    "PRESETS",
+    "Spectrum",
+    "System",
+    "einstein_solid",
+    "ground_energy",
+    "harmonic_oscillator",
+    "harmonic_trap",
+    "make_spectrum",
+    "make_system",
+    "parse_rational",
+    "two_level",
+]
+
+
+# --------------------------------------------------------------------------
+# Input parsing
+# --------------------------------------------------------------------------
+def parse_rational(value, name: str) -> Fraction:
+    """Return *value* as an exact :class:`Fraction`.
+
+    Accepts ``int``, ``Fraction`` and strings such as ``"3"``, ``"-1/2"`` or
+    ``"0.25"`` (a decimal string is exact).  Floats are refused: ``0.1`` is not
+    the rational one tenth.
+    """
+    if isinstance(value, bool):
+        raise InvalidParameters(f"{name} must be a number, not a boolean (got {value!r})")
+    if isinstance(value, Fraction):
+        return value
+    if isinstance(value, int):
+        return Fraction(value)
+    if isinstance(value, float):
+        raise InvalidParameters(
+            f"{name} must be exact (got the float {value!r}); write it as an integer, "
+            "a fraction like '1/3' or a decimal string like '0.25'"
+        )
+    if isinstance(value, str):
+        text = value.strip()
+        try:
+            number = Fraction(text)
+        except (ValueError, ZeroDivisionError):
+            raise InvalidParameters(
+                f"{name} ({value!r}) is not a number; write an integer, a fraction like "
+                "'1/3' or a decimal like '0.25'"
+            ) from None
+        return number
+    try:
+        return Fraction(int(value)) if int(value) == value else Fraction(value)
+    except (TypeError, ValueError):
+        raise InvalidParameters(
+            f"{name} must be an integer, a fraction or a decimal string (got {value!r})"
+        ) from None
+
+
+def _split_list(values, name: str) -> list:
+    if isinstance(values, str):
+        items = [item.strip() for item in values.split(",")]
+        if any(item == "" for item in items):
+            raise InvalidParameters(
+                f"{name} must be a comma-separated list such as '0,1,2,3' (got {values!r})"
+            )
+        return items
+    try:
+        return list(values)
+    except TypeError:
+        raise InvalidParameters(f"{name} must be a list of numbers (got {values!r})") from None
+
+
+
+# --------------------------------------------------------------------------
+# Spectra
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Ladder:
+    """An infinite ladder of levels ``offset + spacing*m`` (``m = 0, 1, ...``).
+
+    The degeneracy of rung ``m`` is ``C(m + d - 1, d - 1)``: the levels of a
+    ``d``-dimensional isotropic harmonic oscillator measured from its ground
+    state (``d = 1``: the plain oscillator; ``d = 3``: the 3D trap,
+    ``(m + 1)(m + 2)/2``).  ``offset`` and ``spacing`` are in units.
+    """
+
+    dimension: int
+    spacing: int
+    offset: int = 0
+
+    def degeneracy(self, m: int) -> int:
+        """Degeneracy ``C(m + d - 1, d - 1)`` of rung *m*."""
+        return math.comb(m + self.dimension - 1, self.dimension - 1)
+
+    def energy(self, m: int) -> int:
+        """Energy of rung *m*, in units."""
+        return self.offset + self.spacing * m
+
+
+@dataclass(frozen=True)
+class Spectrum:
+    """Single-particle levels: energies (integer multiples of ``unit``) and degeneracies.
+
+    ``energies[i] * unit`` is the energy of level ``i`` and ``degeneracies[i]``
+    its number of single-particle states.  When ``ladder`` is set the listed
+    levels are the lowest rungs of that infinite ladder and the spectrum goes
+    on above them (see :meth:`through`); otherwise it is exactly the listed
+    levels.  Build one with :func:`make_spectrum` or a preset.
+    """
+
+    energies: Tuple[int, ...]
+    degeneracies: Tuple[int, ...]
+    unit: Fraction = Fraction(1)
+    ladder: Optional[Ladder] = None
+    name: str = "levels"
+
+    @property
+    def finite(self) -> bool:
+        """True when the listed levels are the whole spectrum."""
+        return self.ladder is None
+
+    @property
+    def lowest(self) -> int:
+        """The lowest single-particle energy, in units."""
+        return min(self.energies)
+
+    def level_energy(self, i: int) -> Fraction:
+        """The exact energy of listed level *i*, in the user's energy unit."""
+        return self.energies[i] * self.unit
+
+    def states(self) -> Optional[int]:
+        """Number of single-particle states (``None`` for an infinite ladder)."""
+        return sum(self.degeneracies) if self.finite else None
+
+    def through(self, energy_units: int) -> "Spectrum":
+        """The same spectrum listing every level of energy at most *energy_units*.
+
+        Only a ladder grows (or shrinks, keeping at least its ground level); a
+        finite spectrum is returned unchanged.
+        """
+        if self.ladder is None:
+            return self
+        lad = self.ladder
+        top = max(0, (energy_units - lad.offset) // lad.spacing) if energy_units >= lad.offset else 0
+        if top + 1 == len(self.energies):
+            return self
+        return Spectrum(
+            tuple(lad.energy(m) for m in range(top + 1)),
+            tuple(lad.degeneracy(m) for m in range(top + 1)),
+            self.unit,
+            lad,
+            self.name,
+        )
+
+    def rescaled(self, unit: Fraction) -> "Spectrum":
+        """The same spectrum written in the finer *unit* (``self.unit / unit`` an integer)."""
+        ratio = self.unit / unit
+        if ratio.denominator != 1:
+            raise InvalidParameters(f"unit {unit} does not divide {self.unit}")
+        r = ratio.numerator
+        if r == 1:
+            return self
+        ladder = None
+        if self.ladder is not None:
+            ladder = Ladder(self.ladder.dimension, self.ladder.spacing * r, self.ladder.offset * r)
+        return Spectrum(
+            tuple(e * r for e in self.energies), self.degeneracies, unit, ladder, self.name
+        )
+
+    def levels_below(self, energy_units: int) -> List[Tuple[int, int]]:
+        """``(energy, degeneracy)`` of every level with energy at most *energy_units*."""
+        spectrum = self.through(energy_units)
+        return [
+            (e, g) for e, g in zip(spectrum.energies, spectrum.degeneracies) if e <= energy_units
+        ]
+
+
+def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum:
+    """Build a finite :class:`Spectrum` from exact energies and degeneracies.
+
+    :param energies: integers, fractions or decimal strings (or one
+        comma-separated string ``"0,1/2,3/2"``); any order, repeats allowed.
+    :param degeneracies: whole numbers ``>= 1``, one per energy (default all 1).
+    :returns: the spectrum with every energy an integer multiple of
+        ``unit = 1 / lcm(denominators)``.
+    :raises InvalidParameters: empty lists, lengths that differ, a degeneracy
+        below 1, a float or a non-number.
+
+    >>> s = make_spectrum("0,1/2,3/2", "1,2,1")
+    >>> s.energies, s.unit
+    ((0, 1, 3), Fraction(1, 2))
+    """
+    values = [parse_rational(v, f"energy {i + 1}") for i, v in enumerate(_split_list(energies, "energies"))]
+    if not values:
+        raise InvalidParameters("energies must list at least one level, e.g. --energies 0,1,2")
+    if degeneracies is None:
+        degs = [1] * len(values)
+    else:
+        raw = _split_list(degeneracies, "degeneracies")
+        degs = []
+        for i, g in enumerate(raw):
+            if isinstance(g, str):
+                try:
+                    g = int(g)
+                except ValueError:
+                    raise InvalidParameters(
+                        f"degeneracy {i + 1} ({g!r}) must be a whole number >= 1"
+                    ) from None
+            degs.append(as_count(g, f"degeneracy {i + 1}", 1))
+        if len(degs) != len(values):
+            raise InvalidParameters(
+                f"give one degeneracy per energy: {len(values)} energies but "
+                f"{len(degs)} degeneracies"
+            )
+    lcm = 1
+    for v in values:
+        lcm = lcm * v.denominator // math.gcd(lcm, v.denominator)
+    unit = Fraction(1, lcm)
+    return Spectrum(tuple(int(v * lcm) for v in values), tuple(degs), unit, None, name)
+
+
+def harmonic_oscillator(levels: Optional[int] = None, spacing=1) -> Spectrum:
+    """Equally spaced non-degenerate levels ``0, s, 2s, ...`` (a 1D harmonic oscillator).
+
+    :param levels: the number of levels; ``None`` for the infinite ladder
+        (computations then use as many levels as the energy range needs and
+        closed forms for the partition function).
+    :param spacing: the level spacing ``ħω`` (exact rational, default 1).
+    """
+    return harmonic_trap(levels, dimension=1, spacing=spacing)
+
+
+def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -> Spectrum:
+    """The isotropic harmonic trap in *dimension* dimensions, from its ground state.
+
+    Level ``m`` has energy ``m ħω`` and degeneracy ``C(m + d - 1, d - 1)``
+    (``(m + 1)(m + 2)/2`` in 3D: the number of ``(n_x, n_y, n_z)`` with
+    ``n_x + n_y + n_z = m``).  The zero-point energy ``d ħω / 2`` is left out.
+
+    :param levels: number of levels kept; ``None`` for the infinite ladder.
+    """
+    d = as_count(dimension, "dimension", 1)
+    step = parse_rational(spacing, "spacing")
+    if step <= 0:
+        raise InvalidParameters(f"spacing must be positive (got {step})")
+    name = "harmonic oscillator" if d == 1 else f"{d}D harmonic trap"
+    unit = Fraction(1, step.denominator)
+    s = step.numerator
+    if levels is None:
+        return Spectrum((0,), (1,), unit, Ladder(d, s), name)
+    count = as_count(levels, "levels", 1)
+    lad = Ladder(d, s)
+    return Spectrum(
+        tuple(lad.energy(m) for m in range(count)),
+        tuple(lad.degeneracy(m) for m in range(count)),
+        unit,
+        None,
+        f"{name} ({count} levels)",
+    )
+
+
+def two_level(gap=1, degeneracies=(1, 1)) -> Spectrum:
+    """Two levels ``0`` and *gap* with degeneracies ``(g_0, g_1)`` (default ``(1, 1)``)."""
+    delta = parse_rational(gap, "gap")
+    if delta <= 0:
+        raise InvalidParameters(f"gap must be positive (got {delta})")
+    degs = _split_list(degeneracies, "degeneracies")
+    if len(degs) != 2:
+        raise InvalidParameters("a two-level system takes two degeneracies, e.g. 1,1")
+    spectrum = make_spectrum([Fraction(0), delta], degs, "two-level system")
+    return spectrum
+
+
+# --------------------------------------------------------------------------
+# Systems
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class System:
+    """``particles`` particles on a :class:`Spectrum` under a counting rule.
+
+    ``capacity`` bounds the occupation of each single-particle state
+    (``None``: no bound); FD means capacity 1 and BE with a capacity is
+    Gentile's intermediate statistics.  MB particles are distinguishable and
+    take no capacity.  Build one with :meth:`create` or :func:`make_system`.
+    """
+
+    spectrum: Spectrum
+    particles: int
+    rule: Rule = Rule.BE
+    capacity: Optional[int] = None
+
+    @classmethod
+    def create(cls, spectrum: Spectrum, particles, rule="BE", capacity=None) -> "System":
+        """Validate and normalise (FD becomes capacity 1; BE with capacity 1 is FD)."""
+        n = as_count(particles, "particles")
+        rule = Rule.parse(rule)
+        if capacity is not None:
+            capacity = as_count(capacity, "capacity", 1)
+        if rule is Rule.FD:
+            if capacity not in (None, 1):
+                raise InvalidParameters(
+                    f"FD allows at most one particle per state (got capacity {capacity}); "
+                    "use --rule BE with --capacity for intermediate statistics"
+                )
+            capacity = 1
+        elif rule is Rule.BE and capacity == 1:
+            rule = Rule.FD
+        elif rule is Rule.MB and capacity is not None:
+            raise Unsupported(
+                "a capacity per state is available for BE (identical particles) only; "
+                "drop --capacity or use --rule BE"
+            )
+        return cls(spectrum, n, rule, capacity)
+
+    @property
+    def label(self) -> str:
+        """A short description for titles."""
+        if self.spectrum.name == "Einstein solid":
+            return f"Einstein solid of {self.particles} oscillators"
+        rule = self.rule.value
+        if self.rule is Rule.BE and self.capacity is not None:
+            rule = f"BE, at most {self.capacity} per state"
+        return f"{self.particles} particles ({rule}) on {self.spectrum.name}"
+
+    def weights(self, kmax: int) -> List[int]:
+        """``w_k`` of the particle-number recursion, ``k = 0..kmax`` (``w_0`` unused).
+
+        ``k [x^k] ln ∏(per-state factor) = w_k z(t^k)``: BE ``w_k = 1``; FD
+        ``(-1)^{k+1}``; capacity ``c``: ``1 - (c+1)`` when ``(c+1) | k``, else 1.
+        """
+        if self.capacity is None:
+            return [1] * (kmax + 1)
+        c1 = self.capacity + 1
+        return [1 - c1 if k % c1 == 0 else 1 for k in range(kmax + 1)]
+
+
+def make_system(
+    particles=None,
+    energies=None,
+    degeneracies=None,
+    rule=None,
+    capacity=None,
+    preset: Optional[str] = None,
+    levels: Optional[int] = None,
+    dimension: Optional[int] = None,
+    gap=None,
+    oscillators: Optional[int] = None,
+) -> System:
+    """Build a :class:`System` from explicit levels or a preset (what the CLI calls).
+
+    Presets (see :data:`PRESETS`): ``harmonic`` (``levels``), ``trap``
+    (``levels``, ``dimension``, default 3), ``two-level`` (``gap``,
+    ``degeneracies`` as two numbers), ``einstein`` (``oscillators`` or
+    ``particles``: ``N`` distinguishable oscillators, rule MB).  The default
+    rule is MB.
+    """
+    if preset is None:
+        for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap")):
+            if value is not None:
+                raise InvalidParameters(f"{option} belongs to a preset; add --preset or drop --{option}")
+        if oscillators is not None:
+            preset = "einstein"
+    if preset is None:
+        if energies is None:
+            raise InvalidParameters(
+                "describe the levels: give --energies (and --degeneracies) or --preset "
+                f"({', '.join(PRESETS)})"
+            )
+        if particles is None:
+            raise InvalidParameters("give the number of particles (--particles N)")
+        spectrum = make_spectrum(energies, degeneracies)
+        return System.create(spectrum, particles, rule or "MB", capacity)
+    key = _preset_key(preset)
+    if energies is not None:
+        raise InvalidParameters("give either --energies or --preset, not both")
+    if key == "einstein":
+        for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap"), (degeneracies, "degeneracies")):
+            if value is not None:
+                raise InvalidParameters(f"the einstein preset takes no --{option}")
+        if oscillators is not None and particles is not None and oscillators != particles:
+            raise InvalidParameters(
+                f"--oscillators ({oscillators}) and --particles ({particles}) disagree; give one"
+            )
+        count = oscillators if oscillators is not None else particles
+        if count is None:
+            raise InvalidParameters("an Einstein solid needs its number of oscillators (--oscillators N)")
+        if rule is not None and Rule.parse(rule) is not Rule.MB:
+            raise InvalidParameters(
+                "the oscillators of an Einstein solid are distinguishable (localised): "
+                "use --rule MB or leave --rule out"
+            )
+        if capacity is not None:
+            raise InvalidParameters("the einstein preset takes no --capacity")
+        return einstein_solid(count)
+    if oscillators is not None:
+        raise InvalidParameters("--oscillators belongs to the einstein preset; use --particles")
+    if particles is None:
+        raise InvalidParameters("give the number of particles (--particles N)")
+    if key == "two-level":
+        for value, option in ((levels, "levels"), (dimension, "dimension")):
+            if value is not None:
+                raise InvalidParameters(f"the two-level preset takes no --{option}")
+        spectrum = two_level(1 if gap is None else gap, (1, 1) if degeneracies is None else degeneracies)
+    else:
+        if gap is not None:
+            raise InvalidParameters(f"the {key} preset takes no --gap")
+        if degeneracies is not None:
+            raise InvalidParameters(f"the {key} preset fixes the degeneracies; drop --degeneracies")
+        if key == "harmonic":
+            if dimension not in (None, 1):
+                raise InvalidParameters("the harmonic preset is one-dimensional; use --preset trap --dimension D")
+            spectrum = harmonic_oscillator(levels)
+        else:
+            spectrum = harmonic_trap(levels, 3 if dimension is None else dimension)
+    return System.create(spectrum, particles, rule or "MB", capacity)
+
+
+def einstein_solid(oscillators) -> System:
+    """``N`` distinguishable 1D oscillators sharing quanta: MB on the harmonic ladder.
+
+    The multiplicity of ``q`` quanta is ``C(q + N - 1, q)`` (stars and bars).
+    """
+    n = as_count(oscillators, "oscillators", 1)
+    spectrum = harmonic_oscillator()
+    spectrum = Spectrum(spectrum.energies, spectrum.degeneracies, spectrum.unit, spectrum.ladder, "Einstein solid")
+    return System(spectrum, n, Rule.MB, None)
+
+
+#: Preset names and their aliases.
+PRESETS = {
+    "harmonic": ("harmonic", "oscillator", "harmonic-oscillator", "ho", "1d-oscillator", "ladder"),
+    "trap": ("trap", "harmonic-trap", "3d-trap", "3d", "trap3d", "3d-harmonic-trap", "isotropic-trap"),
+    "two-level": ("two-level", "twolevel", "two-state", "2-level", "two-level-system"),
+    "einstein": ("einstein", "einstein-solid", "solid", "einstein-crystal"),
+}
+
+
+def _preset_key(name: str) -> str:
+    text = str(name).strip().lower().replace("_", "-").replace(" ", "-")
+    for key, aliases in PRESETS.items():
+        if text in aliases:
+            return key
+    raise InvalidParameters(
+        f"unknown preset {name!r}; choose one of {', '.join(PRESETS)}"
+    )
+
+
+# --------------------------------------------------------------------------
+# Ground energy
+# --------------------------------------------------------------------------
+def ground_energy(system: System) -> Optional[int]:
+    """The lowest total energy of *system*, in units (``None`` if no state exists).
+
+    Fill the single-particle states from the bottom, at most ``capacity`` per
+    state (common practice: the ground state of an ideal gas).
+    """
+    n = system.particles
+    if n == 0:
+        return 0
+    spectrum = system.spectrum
+    if system.capacity is None:
+        return n * spectrum.lowest
+    cap = system.capacity
+    remaining, total = n, 0
+    if spectrum.finite:
+        levels = sorted(zip(spectrum.energies, spectrum.degeneracies))
+    else:
+        lad = spectrum.ladder
+        levels = ((lad.energy(m), lad.degeneracy(m)) for m in _count_up())
+    for e, g in levels:
+        take = min(remaining, g * cap)
+        total += take * e
+        remaining -= take
+        if remaining == 0:
+            return total
+    return None
+
+
+def _count_up():
+    m = 0
+    while True:
+        yield m
+        m += 1
+
