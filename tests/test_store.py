@@ -11,6 +11,7 @@ from __future__ import annotations
 import itertools
 import logging
 import math
+import os
 import sqlite3
 from fractions import Fraction
 from pathlib import Path
@@ -24,7 +25,7 @@ from enumerator import Occupancy, StoreError
 from enumerator import store as results
 from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
 from enumerator.store import context as store_context
-from enumerator.store import database as store_database
+from enumerator.store import keys as store_keys
 
 
 @pytest.fixture(autouse=True)
@@ -236,7 +237,7 @@ def test_registered_quantity_is_verified_with_its_recomputer(store):
         assert [(m["balls"], m["stored"], m["expected"]) for m in report["mismatches"]] == [(4, "17", "16")]
     finally:
         results.ALGORITHM_VERSIONS.pop("square_of_balls")
-        store_database._RECOMPUTE.pop("square_of_balls")
+        store_keys._RECOMPUTE.pop("square_of_balls")
 
 
 # -- bypass ------------------------------------------------------------------
@@ -316,7 +317,7 @@ def test_location_rule_explicit_then_env_then_checkout_then_user_cache(tmp_path,
     if (repo / "pyproject.toml").is_file() and (repo / "store").is_dir():
         assert checkout == repo / "store"
         assert results.default_location() == str(repo / "store" / results.DEFAULT_FILENAME)
-    monkeypatch.setitem(store_context._located, "checkout", None)  # as if installed, not a checkout
+    monkeypatch.setattr(store_context, "_this_checkout_store_dir", lambda: None)  # as if installed, not a checkout
     expected = Path(platformdirs.user_cache_dir("enumerator", appauthor=False)) / results.DEFAULT_FILENAME
     assert results.default_location() == str(expected)
 
@@ -432,7 +433,7 @@ def test_a_read_only_store_answers_and_says_so_once(tmp_path, caplog):
 
 def test_an_unwritable_location_is_treated_as_read_only(tmp_path, monkeypatch, caplog):
     # (the tests may run as root, who can write anywhere, so the check is simulated)
-    monkeypatch.setattr(store_database.os, "access", lambda path, mode: False)
+    monkeypatch.setattr(os, "access", lambda path, mode: False)
     caplog.set_level(logging.WARNING, logger="enumerator.store")
     path = tmp_path / "nowhere" / "s.sqlite"
     with results.using(str(path)) as chosen:

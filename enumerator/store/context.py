@@ -20,6 +20,7 @@ Open stores are reused per location within a process (:func:`open_store`);
 
 from __future__ import annotations
 
+import functools
 import os
 import threading
 import time
@@ -29,9 +30,13 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable, Dict, Iterator, Optional, Union
 
-from .database import ALGORITHM_VERSIONS, DEFAULT_FILENAME, ENV_NO_CACHE, ENV_STORE, Key, Store
+from .database import Store
+from .engine import DEFAULT_FILENAME
+from .keys import ALGORITHM_VERSIONS, Key
 
 __all__ = [
+    "ENV_NO_CACHE",
+    "ENV_STORE",
     "bypass",
     "cache_enabled",
     "close_all",
@@ -41,6 +46,12 @@ __all__ = [
     "remember",
     "using",
 ]
+
+#: Environment variable naming the store (a path or an SQLAlchemy URL).
+ENV_STORE = "ENUMERATOR_STORE"
+#: Environment variable that, set to 1/true/yes/on, bypasses the store entirely.
+ENV_NO_CACHE = "ENUMERATOR_NO_CACHE"
+
 
 def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
     """``<checkout>/store`` when the package (*package_dir*, default this one) runs from a checkout.
@@ -58,17 +69,30 @@ def _checkout_store_dir(package_dir: Optional[Path] = None) -> Optional[Path]:
     return None
 
 
-_located: Dict[str, Optional[Path]] = {}  # the checkout test runs once per process
+@functools.lru_cache(maxsize=1)
+def _this_checkout_store_dir() -> Optional[Path]:
+    """:func:`_checkout_store_dir` of this package, looked up once per process (it cannot change)."""
+    return _checkout_store_dir()
 
 
 def default_location() -> str:
-    """The store used when none is configured (see the module docstring for the rule)."""
+    """Return the store location used when none is chosen.
+
+    Returns
+    -------
+    str
+        ``ENUMERATOR_STORE`` when set, else ``store/enumerator.sqlite`` in
+        the source checkout the package runs from, else
+        ``enumerator.sqlite`` in the user's cache directory (platformdirs).
+
+    Notes
+    -----
+    Cost: one environment lookup; the checkout test runs once per process.
+    """
     env = os.environ.get(ENV_STORE, "").strip()
     if env:
         return env
-    if "checkout" not in _located:
-        _located["checkout"] = _checkout_store_dir()
-    checkout = _located["checkout"]
+    checkout = _this_checkout_store_dir()
     if checkout is not None:
         return str(checkout / DEFAULT_FILENAME)
     import platformdirs
@@ -80,35 +104,70 @@ def default_location() -> str:
 # open stores, one per location and process
 # ---------------------------------------------------------------------------
 
-_open_lock = threading.Lock()
+# A registry of open resources (one engine per location), not a setting:
+# which store a computation uses is never read from here but passed, or set
+# for a block through the context variable below.
+_open_lock = threading.Lock()  # guards the two dicts, held only for a moment
 _open: Dict[str, Store] = {}
+_opening: Dict[str, threading.Lock] = {}  # one lock per location, held while it opens
 
 
 def open_store(location: Union[str, os.PathLike, Store, None] = None) -> Store:
-    """Return the open :class:`Store` at *location* (default: :func:`default_location`).
+    """Return the open :class:`Store` at *location*, opening it on first use.
 
-    A store is opened once per location and process and then reused; a
-    :class:`Store` passed in is returned as it is.
+    Parameters
+    ----------
+    location : str, os.PathLike, Store or None
+        A path, directory or SQLAlchemy URL; ``None`` means
+        :func:`default_location`; a :class:`Store` is returned as it is.
+
+    Returns
+    -------
+    Store
+        The same object for the same location text within a process.
+
+    Raises
+    ------
+    StoreError
+        As :class:`Store` (the location is retried on the next call).
+
+    Notes
+    -----
+    Thread-safe: threads asking for the same location at once open it once
+    (the others wait for it), while opening one location never waits for
+    another (an upgrade or a locked file elsewhere does not hold them up).
+    Cost: one dict lookup once open; opening costs what :class:`Store` does.
     """
     if isinstance(location, Store):
         return location
     where = str(location) if location is not None else default_location()
     store = _open.get(where)
-    if store is None:
-        with _open_lock:
-            store = _open.get(where)
-            if store is None:
-                store = Store(where)
+    if store is not None:
+        return store
+    with _open_lock:
+        gate = _opening.setdefault(where, threading.Lock())
+    with gate:
+        store = _open.get(where)
+        if store is None:
+            store = Store(where)
+            with _open_lock:
                 _open[where] = store
     return store
 
 
 def close_all() -> None:
-    """Close every store opened by this process (they reopen on next use)."""
+    """Close every store opened by this process (they reopen on next use).
+
+    Notes
+    -----
+    A thread still holding one of them keeps working: its engine opens new
+    connections when next used.
+    """
     with _open_lock:
-        for store in _open.values():
-            store.close()
+        stores = list(_open.values())
         _open.clear()
+    for store in stores:
+        store.close()
 
 
 # ---------------------------------------------------------------------------
@@ -216,8 +275,8 @@ def remember(quantity: str, model_or_key, compute: Callable[[], Any], version: O
 
     Notes
     -----
-    Cost: one indexed lookup by the key's SHA-256 digest, answered from the
-    store's in-process memory of recent answers when it was asked before.
+    Cost: one indexed lookup by the key's SHA-256 digest; on a miss, the
+    computation plus one short write transaction.
     """
     target = open_store(store) if store is not None else current_store()
     if target is None:

@@ -40,10 +40,12 @@ from flint import fmpz_poly
 
 from ..core import series
 from ..core.errors import InvalidParameters, StoreError, TooLarge
+from ..core.exact import text_int
 from ..core.model import UrnModel
 from ..core.rules import Rule
 from .context import current_store, open_store
-from .database import ALGORITHM_VERSIONS, Key, Store, _checksum, _digit_len
+from .database import Store
+from .keys import ALGORITHM_VERSIONS, Key, key_digest, row_intact
 
 __all__ = [
     "BuildReport",
@@ -356,14 +358,10 @@ class TableData:
 
     def value(self, balls: int, urns: int) -> int:
         """The exact value of one cell."""
-        from .database import _text_int
-
-        return _text_int(self.cells[(balls, urns)][0])
+        return text_int(self.cells[(balls, urns)][0])
 
 
 def _stored_cells(target: Store, spec: TableSpec, urns: Iterable[int]) -> Dict[Tuple[int, int], Tuple[str, int]]:
-    from .database import _digest
-
     version = ALGORITHM_VERSIONS[spec.quantity]
     cells = {}
     wanted = set(spec.balls)
@@ -374,9 +372,8 @@ def _stored_cells(target: Store, spec: TableSpec, urns: Iterable[int]) -> Dict[T
         ).items():
             if n not in wanted:
                 continue
-            if (kind != "int" or _checksum(digest, kind, text) != checksum
-                    or _digit_len(text) != digits
-                    or digest != _digest(spec.quantity, Key(spec.rule, n, bounds, r), "", version)):
+            if (kind != "int" or not row_intact(digest, kind, text, digits, checksum)
+                    or digest != key_digest(spec.quantity, Key(spec.rule, n, bounds, r), "", version)):
                 raise StoreError(
                     f"the store {target.name} holds a damaged cell (n={n}, r={r}) of this table; "
                     "run 'enumerator cache verify --fix' or rebuild after 'enumerator cache clear'"

@@ -1,0 +1,266 @@
+r"""Talking to the database: locations, the engine, transactions, locks and failures.
+
+Locations
+    A store location is a file path (a directory means
+    :data:`DEFAULT_FILENAME` inside it) or any SQLAlchemy URL
+    (``postgresql://...``), so a shared database works
+    (:func:`resolve_location`).
+
+Many processes at once
+    SQLite runs in WAL mode (readers never wait for the writer) with a busy
+    timeout of :data:`BUSY_TIMEOUT`; every write is one short ``BEGIN
+    IMMEDIATE`` transaction (:func:`writing`), retried while another process
+    holds the lock (:func:`retry`, for up to :data:`LOCK_PATIENCE` seconds),
+    so overlapping writers never report "database is locked".
+
+Read-only stores
+    A file that cannot be written (or whose folder cannot be, when it does
+    not exist yet) is opened with SQLite's ``mode=ro`` (:func:`writable`,
+    :func:`make_engine`); the caller then answers reads and skips writes.
+
+Failures
+    :func:`is_busy`, :func:`is_readonly` and :func:`is_damaged` classify a
+    driver error, so the store can turn it into one line that says what to do.
+"""
+
+from __future__ import annotations
+
+import os
+import random
+import time
+import weakref
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Iterator, Optional, Tuple
+
+from sqlalchemy import create_engine, event
+from sqlalchemy import exc as sa_exc
+from sqlalchemy.engine import URL, Connection, Engine, make_url
+
+from ..core.errors import StoreError
+
+__all__ = [
+    "BUSY_TIMEOUT",
+    "DEFAULT_FILENAME",
+    "LOCK_PATIENCE",
+    "is_busy",
+    "is_damaged",
+    "is_readonly",
+    "make_engine",
+    "reading",
+    "resolve_location",
+    "retry",
+    "writable",
+    "writing",
+]
+
+#: The file name used inside a store directory.
+DEFAULT_FILENAME = "enumerator.sqlite"
+#: Seconds one SQLite call waits for another process's lock (busy timeout).
+BUSY_TIMEOUT = 30.0
+#: Seconds a write keeps retrying, in all, before it reports the store as stuck.
+LOCK_PATIENCE = 300.0
+
+#: Execution option that marks a connection whose transaction must take the write lock first.
+_WRITE_OPTION = "enumerator_write"
+
+
+def resolve_location(location: str) -> Tuple[URL, Optional[Path]]:
+    """Turn a store location into ``(SQLAlchemy URL, SQLite file path or None)``.
+
+    Parameters
+    ----------
+    location : str
+        A file path, a directory (:data:`DEFAULT_FILENAME` inside it) or an
+        SQLAlchemy URL (``sqlite:///...``, ``postgresql://...``).
+
+    Returns
+    -------
+    url : sqlalchemy.engine.URL
+    path : pathlib.Path or None
+        The resolved SQLite file, or None for an in-memory or non-SQLite store.
+
+    Raises
+    ------
+    StoreError
+        For an empty location or a malformed URL.
+
+    Notes
+    -----
+    Cost: one ``stat`` of the path.
+    """
+    text = location.strip()
+    if not text:
+        raise StoreError("the store location is empty; give a file path or a database URL")
+    if "://" in text:
+        try:
+            url = make_url(text)
+        except sa_exc.ArgumentError:
+            raise StoreError(
+                f"the store URL {text!r} is not a valid SQLAlchemy URL; write it like "
+                "sqlite:///path/to/file.sqlite or postgresql://user@host/db"
+            ) from None
+        path = None
+        if url.get_backend_name() == "sqlite" and url.database and url.database != ":memory:":
+            database = url.database
+            if database.startswith("file:"):
+                database = database[5:].split("?", 1)[0]
+            path = Path(database).expanduser().resolve()
+        return url, path
+    path = Path(text).expanduser()
+    if path.is_dir():
+        path = path / DEFAULT_FILENAME
+    path = path.resolve()
+    return URL.create("sqlite", database=str(path)), path
+
+
+def writable(path: Path) -> bool:
+    """Return True when the SQLite file *path* can be written (or created, with its folder).
+
+    A missing folder is created first (a failure counts as not writable).
+
+    Notes
+    -----
+    Cost: at most one ``mkdir`` and two ``access`` calls.
+    """
+    directory = path.parent
+    if not directory.exists():
+        try:
+            directory.mkdir(parents=True, exist_ok=True)
+        except OSError:
+            pass  # reported as not writable below
+    if path.exists():
+        return os.access(path, os.W_OK)
+    return os.access(directory, os.W_OK)
+
+
+def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> Engine:
+    """Create the engine of a store: pragmas, hand-started transactions, a fork-safe pool.
+
+    Parameters
+    ----------
+    url : sqlalchemy.engine.URL
+        Where the store lives.
+    path : pathlib.Path or None
+        Its SQLite file, if any.
+    read_only : bool
+        Open an existing SQLite file with ``mode=ro``.
+    name : str
+        The store's name for error messages.
+
+    Returns
+    -------
+    sqlalchemy.engine.Engine
+
+    Raises
+    ------
+    StoreError
+        When the URL's driver is not installed or the URL is unusable.
+
+    Notes
+    -----
+    SQLite connections run in autocommit (``isolation_level = None``):
+    reads take no lock, and a write transaction is started by hand with
+    ``BEGIN IMMEDIATE`` (:func:`writing`), which takes the write lock at once
+    under the busy timeout instead of upgrading a read lock (which SQLite
+    refuses in WAL mode without waiting).  After ``fork`` the child drops its
+    inherited connections (never sharing a SQLite handle with its parent).
+    Cost: no connection is opened until first use.
+    """
+    if url.get_backend_name() != "sqlite":
+        try:
+            return create_engine(url, pool_pre_ping=True)
+        except (sa_exc.ArgumentError, sa_exc.NoSuchModuleError, ImportError) as error:
+            raise StoreError(
+                f"cannot use store URL {name} ({error}); give a SQLite path or an "
+                "SQLAlchemy URL whose driver is installed"
+            ) from None
+    if read_only and path is not None and path.exists():
+        url = URL.create("sqlite", database=f"file:{path}?mode=ro", query={"uri": "true"})
+    engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT, "check_same_thread": False})
+
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_connection, record):
+        dbapi_connection.isolation_level = None
+        cursor = dbapi_connection.cursor()
+        cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT * 1000)}")
+        cursor.execute("PRAGMA synchronous = NORMAL")
+        cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(connection):
+        if connection.get_execution_options().get(_WRITE_OPTION):
+            connection.exec_driver_sql("BEGIN IMMEDIATE")
+
+    # a weak reference, so the fork hook (which cannot be unregistered) does
+    # not keep every engine ever made alive
+    ref = weakref.ref(engine)
+
+    def _after_fork_in_child():
+        alive = ref()
+        if alive is not None:
+            alive.dispose(close=False)
+
+    os.register_at_fork(after_in_child=_after_fork_in_child)
+    return engine
+
+
+@contextmanager
+def reading(engine: Engine) -> Iterator[Connection]:
+    """Yield a connection for reads (autocommit on SQLite: no lock is held between statements)."""
+    with engine.connect() as conn:
+        yield conn
+
+
+@contextmanager
+def writing(engine: Engine) -> Iterator[Connection]:
+    """Yield a connection inside one write transaction (``BEGIN IMMEDIATE`` on SQLite).
+
+    The transaction commits when the block ends normally and rolls back when
+    it raises.
+    """
+    with engine.connect() as conn:
+        conn = conn.execution_options(**{_WRITE_OPTION: True})
+        with conn.begin():
+            yield conn
+
+
+def retry(action, *args, **kwargs):
+    """Run the write *action*, retrying while another process holds the lock.
+
+    Waits with jittered exponential back-off (5 ms doubling to 250 ms) for
+    up to :data:`LOCK_PATIENCE` seconds in all, then lets the last
+    ``OperationalError`` through; any other error is raised at once.
+    """
+    deadline = time.monotonic() + LOCK_PATIENCE
+    delay = 0.005
+    while True:
+        try:
+            return action(*args, **kwargs)
+        except sa_exc.OperationalError as error:
+            if not is_busy(error) or time.monotonic() > deadline:
+                raise
+        time.sleep(delay * (0.5 + random.random()))
+        delay = min(delay * 2, 0.25)
+
+
+def _driver_text(error: BaseException) -> str:
+    return str(getattr(error, "orig", error)).lower()
+
+
+def is_busy(error: BaseException) -> bool:
+    """True when *error* says another process holds the database lock."""
+    text = _driver_text(error)
+    return "locked" in text or "busy" in text
+
+
+def is_readonly(error: BaseException) -> bool:
+    """True when *error* says the database cannot be written."""
+    text = _driver_text(error)
+    return "readonly" in text or "read-only" in text or "read only" in text
+
+
+def is_damaged(error: BaseException) -> bool:
+    """True when *error* says the file is not an SQLite database or is corrupt."""
+    text = _driver_text(error)
+    return "not a database" in text or "malformed" in text or "encrypted" in text

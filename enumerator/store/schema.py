@@ -1,0 +1,146 @@
+r"""The store's tables (SQLAlchemy 2.x typed declarative models) and their version.
+
+Three tables:
+
+``enumerator_meta``
+    key/value facts about the store itself: ``schema_version`` (the layout
+    of these tables, an integer written as text), ``created_by`` and
+    ``created_at``;
+``enumerator_results``
+    one row per remembered exact value, filed under the SHA-256 digest of
+    its canonical key (:mod:`enumerator.store.keys`), the value as exact
+    text (:mod:`enumerator.store.codec`) and a CRC-32 of key and value;
+``enumerator_tables``
+    the definitions of lookup tables (:mod:`enumerator.store.tables`),
+    whose cells are ordinary result rows.
+
+The models below describe the layout of :data:`SCHEMA_VERSION`.  A change of
+layout raises :data:`SCHEMA_VERSION` by one and adds the step that upgrades
+a store of the previous version to :mod:`enumerator.store.migrations`.
+
+Exact numbers never go in an SQLite ``INTEGER`` (a signed 64-bit number;
+Python's ``sqlite3`` raises ``OverflowError`` at ``2**63``): values are text,
+and so is ``n`` (:class:`DecimalInt`).
+"""
+
+from __future__ import annotations
+
+import operator
+from datetime import datetime
+from typing import Optional
+
+from sqlalchemy import BigInteger, DateTime, Index, Integer, String, Text, TypeDecorator
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+
+from ..core.exact import int_text, text_int
+
+__all__ = [
+    "Base",
+    "DecimalInt",
+    "FIRST_SCHEMA_VERSION",
+    "LookupTable",
+    "META_SCHEMA_VERSION",
+    "Meta",
+    "Result",
+    "SCHEMA_VERSION",
+]
+
+#: The layout the models below describe; a store written by a newer layout is
+#: refused, an older one is upgraded (:mod:`enumerator.store.migrations`).
+SCHEMA_VERSION = 1
+#: The first layout ever written; every store is at this version or later.
+FIRST_SCHEMA_VERSION = 1
+#: The ``enumerator_meta`` key under which a store records its layout.
+META_SCHEMA_VERSION = "schema_version"
+
+
+class DecimalInt(TypeDecorator):
+    """An exact Python ``int`` of any size kept as decimal TEXT.
+
+    SQLite's INTEGER is signed 64-bit (Python's sqlite3 raises OverflowError
+    at ``2**63``), so exact results and even ``n`` travel as text.  The
+    conversion is :mod:`enumerator.core.exact`'s (subquadratic for large
+    values).
+    """
+
+    impl = Text
+    cache_ok = True
+
+    def process_bind_param(self, value, dialect):
+        """Write an integer as its decimal digits (``None`` stays NULL)."""
+        return None if value is None else int_text(operator.index(value))
+
+    def process_result_value(self, value, dialect):
+        """Read decimal digits back as an exact ``int`` (NULL gives ``None``)."""
+        return None if value is None else text_int(value)
+
+
+class Base(DeclarativeBase):
+    """The declarative base of the store's tables."""
+
+
+class Meta(Base):
+    """Key/value facts about the store itself (``schema_version``, creator)."""
+
+    __tablename__ = "enumerator_meta"
+
+    key: Mapped[str] = mapped_column(String(64), primary_key=True)
+    value: Mapped[str] = mapped_column(Text)
+
+    def __repr__(self) -> str:
+        return f"Meta({self.key!r}={self.value!r})"
+
+
+class Result(Base):
+    """One remembered exact value under its canonical key."""
+
+    __tablename__ = "enumerator_results"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    #: SHA-256 of the canonical key text; unique, so upserts deduplicate.
+    key_digest: Mapped[str] = mapped_column(String(64), unique=True)
+    quantity: Mapped[str] = mapped_column(String(64))
+    rule: Mapped[str] = mapped_column(String(8))
+    balls: Mapped[int] = mapped_column(DecimalInt)
+    urns: Mapped[int] = mapped_column(BigInteger)
+    bounds: Mapped[str] = mapped_column(Text)
+    params: Mapped[str] = mapped_column(Text, default="")
+    version: Mapped[int] = mapped_column(Integer)
+    kind: Mapped[str] = mapped_column(String(16))
+    value: Mapped[str] = mapped_column(Text)
+    digits: Mapped[int] = mapped_column(BigInteger)
+    checksum: Mapped[int] = mapped_column(BigInteger)
+    method: Mapped[str] = mapped_column(String(200))
+    elapsed_ns: Mapped[int] = mapped_column(BigInteger)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+
+    __table_args__ = (
+        Index("ix_enumerator_results_row", "quantity", "rule", "urns", "version"),
+    )
+
+    def __repr__(self) -> str:
+        return (
+            f"Result({self.quantity} {self.rule} n={self.balls} bounds={self.bounds!r} "
+            f"v{self.version}: {self.digits} digits)"
+        )
+
+
+class LookupTable(Base):
+    """A named grid of balls x urns whose cells live in ``enumerator_results``."""
+
+    __tablename__ = "enumerator_tables"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(200), unique=True)
+    quantity: Mapped[str] = mapped_column(String(64))
+    rule: Mapped[str] = mapped_column(String(8))
+    minimum: Mapped[int] = mapped_column(BigInteger)
+    capacity: Mapped[Optional[int]] = mapped_column(BigInteger, nullable=True)
+    balls_first: Mapped[int] = mapped_column(BigInteger)
+    balls_last: Mapped[int] = mapped_column(BigInteger)
+    urns_first: Mapped[int] = mapped_column(BigInteger)
+    urns_last: Mapped[int] = mapped_column(BigInteger)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+
+    def __repr__(self) -> str:
+        return f"LookupTable({self.name!r})"
