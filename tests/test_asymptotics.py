@@ -718,9 +718,10 @@ def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
     assert row.exact == distribution(model, "urn:1").probability(j)
 
 
-def test_module_doctests():
+@pytest.mark.parametrize("name", ["", ".sweeps", ".catalogue", ".comparison"])
+def test_module_doctests(name):
     import doctest
+    import importlib
 
-    import enumerator.algorithms.asymptotics as module
-
+    module = importlib.import_module("enumerator.algorithms.asymptotics" + name)
     assert doctest.testmod(module).failed == 0

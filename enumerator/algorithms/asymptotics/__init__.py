@@ -1,0 +1,68 @@
+r"""Asymptotic approximations, and how far each is from the exact value.
+
+A catalogue of classical approximations of occupancy quantities, each one a
+named approximation paired with the exact quantity (an exact ``int`` or
+``Fraction``) it approximates and its published source, and the means to
+compare the two as the system grows.  The package has three rooms, and this
+module gives their public names in one place (as :mod:`networkx.algorithms`
+gathers its topic modules):
+
+:mod:`~enumerator.algorithms.asymptotics.sweeps`
+    the points of a comparison: one parameter varied over a range, the
+    others fixed or tied to it by a tiny integer arithmetic (never
+    ``eval``), and the observed convergence order along a sweep;
+:mod:`~enumerator.algorithms.asymptotics.catalogue`
+    the approximations (Stirling's series, the entropy of a configuration,
+    the birthday problem, empty urns: mean, Poisson and normal laws, the
+    saddle-point estimate of bounded counts, Boltzmann's geometric law,
+    grand-canonical occupations) with their exact sides;
+:mod:`~enumerator.algorithms.asymptotics.comparison`
+    exact against approximate, point by point, at a working precision that
+    makes the printed errors the approximation's, not rounding.
+
+>>> result = compare_sweep("stirling1,stirling2", "balls=10..1000", geometric=3, urns="balls")
+>>> [(c.approximation.name, round(c.order_approx)) for c in result]
+[('stirling1', 1), ('stirling2', 3)]
+"""
+
+from __future__ import annotations
+
+from ._reports import (
+    CSV_COLUMNS,
+    catalogue_rows,
+    comparison_table,
+    comparisons_csv,
+    describe_order,
+    plot_comparisons,
+)
+from .catalogue import CATALOGUE, Approximation, apportion, approximation, empty_urns_at_most, stirling_log_factorial
+from .comparison import Comparison, Row, compare, compare_sweep
+from .sweeps import NUMERIC, Point, Tie, observed_order, parse_factor, parse_pattern, parse_range, parse_tie, sweep
+
+__all__ = [
+    "Approximation",
+    "CATALOGUE",
+    "CSV_COLUMNS",
+    "Comparison",
+    "NUMERIC",
+    "Point",
+    "Row",
+    "Tie",
+    "apportion",
+    "approximation",
+    "catalogue_rows",
+    "compare",
+    "compare_sweep",
+    "comparison_table",
+    "comparisons_csv",
+    "describe_order",
+    "empty_urns_at_most",
+    "observed_order",
+    "parse_factor",
+    "parse_pattern",
+    "parse_range",
+    "parse_tie",
+    "plot_comparisons",
+    "stirling_log_factorial",
+    "sweep",
+]

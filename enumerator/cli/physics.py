@@ -1,0 +1,373 @@
+"""``enumerator levels`` and ``enumerator contact``: particles on energy levels.
+
+Spectra, multiplicities, the ensembles and thermal contact are
+:mod:`enumerator.algorithms.levels`; this module parses the options and
+prints.  Neither command reads or writes the result store, so neither offers
+``--store``/``--no-cache``.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from typing import Annotated, Optional
+
+import typer
+
+from .options import OUTPUT_PANEL, Json
+from .render import console, emit_json, exact, show_table
+
+__all__ = ["commands"]
+
+#: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
+commands = typer.Typer()
+
+_OUTPUT = OUTPUT_PANEL
+_LEVELS = "Levels"
+_PRESET = "Preset (instead of --energies/--degeneracies)"
+_THERMO = "Thermodynamics"
+
+
+def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None):
+    """An option of ``levels`` in its help panel.
+
+    Parameters
+    ----------
+    flag : str
+        The option's name.
+    help : str
+        Its help text.
+    panel : str
+        The help panel it is listed under.
+    metavar : str, optional
+        The placeholder shown for its value.
+
+    Returns
+    -------
+    typer.models.OptionInfo
+    """
+    return typer.Option(flag, help=help, rich_help_panel=panel, metavar=metavar)
+
+
+def _level_system(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators):
+    """Options -> :class:`~enumerator.algorithms.levels.System` (validation is the library's).
+
+    Parameters
+    ----------
+    particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators
+        The option values, ``None`` where not given.
+
+    Returns
+    -------
+    System
+
+    Raises
+    ------
+    EnumeratorError
+        Malformed or incomplete options (raised by the library).
+
+    Notes
+    -----
+    Imports the levels algorithms.  Cost: the library's, linear in the levels given.
+    """
+    from ..algorithms import levels as lv
+
+    return lv.make_system(
+        particles=particles, energies=energies, degeneracies=degeneracies, rule=rule,
+        capacity=capacity, preset=preset, levels=levels, dimension=dimension, gap=gap,
+        oscillators=oscillators,
+    )
+
+
+def _float_cell(x) -> str:
+    """A table cell for an approximate value: 6 significant digits, ``-`` for none.
+
+    Parameters
+    ----------
+    x : float, Fraction or None
+
+    Returns
+    -------
+    str
+    """
+    return "-" if x is None else f"{float(x):.6g}"
+
+
+@commands.command("levels")
+def levels_command(
+    particles: Annotated[Optional[int], _levels_opt("--particles", "Number of particles N, >= 0.")] = None,
+    energies: Annotated[
+        Optional[str],
+        _levels_opt("--energies", 'Level energies "0,1,2,3" (integers, fractions like 1/2 or decimals).', metavar="E1,E2,..."),
+    ] = None,
+    degeneracies: Annotated[
+        Optional[str],
+        _levels_opt("--degeneracies", 'Degeneracy g of each level, "1,3,5,7" (default all 1).', metavar="G1,G2,..."),
+    ] = None,
+    rule: Annotated[
+        Optional[str],
+        _levels_opt("--rule", "MB: distinguishable particles (every assignment of particles to "
+                    "single-particle states is a microstate); BE: bosons; FD: fermions. Default MB.",
+                    metavar="MB|BE|FD"),
+    ] = None,
+    capacity: Annotated[
+        Optional[int],
+        _levels_opt("--capacity", "BE only: at most this many particles per single-particle state "
+                    "(intermediate statistics; 1 is FD)."),
+    ] = None,
+    preset: Annotated[
+        Optional[str],
+        _levels_opt("--preset", "harmonic (1D oscillator), trap (isotropic harmonic trap), "
+                    "two-level, einstein (N distinguishable oscillators).", _PRESET, "NAME"),
+    ] = None,
+    levels: Annotated[
+        Optional[int],
+        _levels_opt("--levels", "harmonic/trap: keep only this many levels (default: the infinite ladder).", _PRESET),
+    ] = None,
+    dimension: Annotated[Optional[int], _levels_opt("--dimension", "trap: its dimension (default 3).", _PRESET)] = None,
+    gap: Annotated[Optional[str], _levels_opt("--gap", "two-level: the energy gap (default 1).", _PRESET)] = None,
+    oscillators: Annotated[
+        Optional[int], _levels_opt("--oscillators", "einstein: number of oscillators N.", _PRESET)
+    ] = None,
+    max_energy: Annotated[
+        Optional[str],
+        _levels_opt("--max-energy", "Largest total energy counted (default: the highest reachable, "
+                    "finite spectra only). Ladders list their levels up to it.", metavar="E"),
+    ] = None,
+    temperatures: Annotated[
+        Optional[str],
+        _levels_opt("--temperatures", "Canonical results at these k_B T (energy unit), e.g. 0.5,1,2.",
+                    _THERMO, "T1,T2,..."),
+    ] = None,
+    digits: Annotated[
+        int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath).", _THERMO)
+    ] = 50,
+    report_levels: Annotated[
+        Optional[int],
+        _levels_opt("--report-levels", "Report occupations of this many lowest levels (default: every listed level).", _THERMO),
+    ] = None,
+    micro: Annotated[
+        bool,
+        _levels_opt("--microcanonical", "Also give ln Ω(E) and T(E) = 1/(d ln Ω/dE) (central differences).", _THERMO),
+    ] = False,
+    plot: Annotated[
+        Optional[str],
+        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
+                     help="Draw multiplicity against energy and, with --temperatures, canonical "
+                     "occupations against the grand-canonical formula."),
+    ] = None,
+    as_json: Json = False,
+) -> None:
+    """Exact multiplicities Ω(N, E) of particles on energy levels, and the ensembles.
+
+    Ω(N, E) counts the microstates of N particles with total energy E, exactly,
+    from the generating functions prod (1 - x t^e)^-g (BE), prod (1 + x t^e)^g
+    (FD), (sum g t^e)^N (MB, distinguishable particles); they are the
+    coefficients of the canonical partition function Z_N(t).  Energies are
+    reported as whole multiples of "unit".  With --temperatures: Z, mean
+    energy, heat capacity, free energy, entropy and level occupations from the
+    exact canonical recursion (Borrmann-Franke), beside the grand-canonical
+    occupation formulas at the chemical potential giving mean N.
+
+    Example:
+
+        $ enumerator levels --particles 3 --energies 0,1,2,3 --degeneracies 1,3,5,7 --rule BE --max-energy 6
+        $ enumerator levels --preset trap --particles 100 --rule BE --max-energy 40 --temperatures 2,4 --json
+        $ enumerator levels --preset einstein --oscillators 3 --max-energy 6 --microcanonical
+    """
+    from ..algorithms import levels as lv
+
+    system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
+                           dimension, gap, oscillators)
+    unit = system.spectrum.unit
+    if max_energy is not None and not system.spectrum.finite:
+        top = lv.parse_rational(max_energy, "--max-energy")
+        listed = system.spectrum.through(_floor_fraction(top / unit))
+        system = lv.System(listed, system.particles, system.rule, system.capacity)
+    counts = lv.multiplicities(system, max_energy)
+    points = None
+    if temperatures is not None:
+        values = [t.strip() for t in temperatures.split(",")]
+        points = lv.canonical(system, values, digits=digits, levels=report_levels)
+    micro_points = lv.microcanonical(system, max_energy) if micro else None
+    if plot is not None:
+        lv.plot_levels(plot, system, counts, points or ())
+    if as_json:
+        emit_json(lv.levels_payload(system, counts, points, micro_points))
+        return
+    unit_note = "" if unit == 1 else f" (energies in units of {unit})"
+    out = console()
+    if micro_points is not None:
+        rows = [[str(m.energy), exact(m.multiplicity), _float_cell(m.ln_multiplicity_approx),
+                 _float_cell(m.temperature_approx)] for m in micro_points]
+        columns = ["E", "Ω(N, E)", "ln Ω (approx)", "T (approx)"]
+    else:
+        rows = [[str(e), exact(v)] for e, v in counts.items()]
+        columns = ["E", "Ω(N, E)"]
+    if not rows:
+        out.print(f"{system.label}: no state has total energy at most {max_energy}.")
+    else:
+        show_table(f"Multiplicities: {system.label}{unit_note}", columns, rows)
+    for p in points or ():
+        out.print()
+        show_table(
+            f"Canonical ensemble at T = {float(p.temperature):g} ({p.digits} digits; k_B = 1)",
+            ["quantity", "value (approx)"],
+            [
+                ["ln Z", _float_cell(p.ln_partition_function_approx)],
+                ["mean energy U", _float_cell(p.mean_energy_approx)],
+                ["heat capacity C", _float_cell(p.heat_capacity_approx)],
+                ["free energy F", _float_cell(p.free_energy_approx)],
+                ["entropy S", _float_cell(p.entropy_approx)],
+                ["chemical potential (grand canonical)", _float_cell(p.chemical_potential_approx)],
+            ],
+        )
+        gc = p.grand_canonical_occupations_approx or [None] * len(p.occupations_approx)
+        show_table(
+            f"Mean level occupations at T = {float(p.temperature):g}",
+            ["level energy", "g", "canonical", "grand canonical", "difference"],
+            [
+                [str(system.spectrum.level_energy(i)), str(system.spectrum.degeneracies[i]),
+                 _float_cell(c), _float_cell(g), _float_cell(None if g is None else c - g)]
+                for i, (c, g) in enumerate(zip(p.occupations_approx, gc))
+            ],
+        )
+    if plot is not None:
+        out.print(f"plot: {plot}")
+
+
+def _floor_fraction(value: Fraction) -> int:
+    """Floor of an exact fraction.
+
+    Parameters
+    ----------
+    value : Fraction
+
+    Returns
+    -------
+    int
+    """
+    return value.numerator // value.denominator
+
+
+def _side_options(side: str):
+    """The option bundle of one side (a or b) of ``enumerator contact``.
+
+    Parameters
+    ----------
+    side : str
+        ``"a"`` or ``"b"``: the suffix of every option and the name of its help panel.
+
+    Returns
+    -------
+    dict of str to typer.models.OptionInfo
+    """
+    panel = f"System {side.upper()}"
+    return {
+        "oscillators": typer.Option(f"--oscillators-{side}", rich_help_panel=panel,
+                                    help=f"{side.upper()} is an Einstein solid of this many oscillators."),
+        "particles": typer.Option(f"--particles-{side}", rich_help_panel=panel, help="Number of particles."),
+        "energies": typer.Option(f"--energies-{side}", rich_help_panel=panel, metavar="E1,E2,...",
+                                 help="Level energies."),
+        "degeneracies": typer.Option(f"--degeneracies-{side}", rich_help_panel=panel, metavar="G1,G2,...",
+                                     help="Level degeneracies (default all 1)."),
+        "rule": typer.Option(f"--rule-{side}", rich_help_panel=panel, metavar="MB|BE|FD",
+                             help="Rule of this side (default --rule, else MB)."),
+        "capacity": typer.Option(f"--capacity-{side}", rich_help_panel=panel, help="BE: at most this many per state."),
+        "preset": typer.Option(f"--preset-{side}", rich_help_panel=panel, metavar="NAME",
+                               help="harmonic, trap, two-level or einstein."),
+        "levels": typer.Option(f"--levels-{side}", rich_help_panel=panel, help="harmonic/trap: number of levels."),
+        "dimension": typer.Option(f"--dimension-{side}", rich_help_panel=panel, help="trap: dimension."),
+        "gap": typer.Option(f"--gap-{side}", rich_help_panel=panel, help="two-level: gap."),
+    }
+
+
+_A = _side_options("a")
+_B = _side_options("b")
+
+
+@commands.command("contact")
+def contact_command(
+    energy: Annotated[
+        str,
+        typer.Option("--quanta", "--energy", metavar="E",
+                     help="Total energy shared by A and B (for Einstein solids: the number of quanta)."),
+    ],
+    oscillators_a: Annotated[Optional[int], _A["oscillators"]] = None,
+    particles_a: Annotated[Optional[int], _A["particles"]] = None,
+    energies_a: Annotated[Optional[str], _A["energies"]] = None,
+    degeneracies_a: Annotated[Optional[str], _A["degeneracies"]] = None,
+    rule_a: Annotated[Optional[str], _A["rule"]] = None,
+    capacity_a: Annotated[Optional[int], _A["capacity"]] = None,
+    preset_a: Annotated[Optional[str], _A["preset"]] = None,
+    levels_a: Annotated[Optional[int], _A["levels"]] = None,
+    dimension_a: Annotated[Optional[int], _A["dimension"]] = None,
+    gap_a: Annotated[Optional[str], _A["gap"]] = None,
+    oscillators_b: Annotated[Optional[int], _B["oscillators"]] = None,
+    particles_b: Annotated[Optional[int], _B["particles"]] = None,
+    energies_b: Annotated[Optional[str], _B["energies"]] = None,
+    degeneracies_b: Annotated[Optional[str], _B["degeneracies"]] = None,
+    rule_b: Annotated[Optional[str], _B["rule"]] = None,
+    capacity_b: Annotated[Optional[int], _B["capacity"]] = None,
+    preset_b: Annotated[Optional[str], _B["preset"]] = None,
+    levels_b: Annotated[Optional[int], _B["levels"]] = None,
+    dimension_b: Annotated[Optional[int], _B["dimension"]] = None,
+    gap_b: Annotated[Optional[str], _B["gap"]] = None,
+    rule: Annotated[
+        Optional[str],
+        typer.Option("--rule", metavar="MB|BE|FD", help="Rule of both systems unless --rule-a/--rule-b say otherwise."),
+    ] = None,
+    plot: Annotated[
+        Optional[str],
+        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
+                     help="Draw the probability of each split E_A."),
+    ] = None,
+    as_json: Json = False,
+) -> None:
+    """Two systems in thermal contact: the exact energy split Ω_A(E_A) Ω_B(E - E_A).
+
+    Every split of the total energy is listed with its exact multiplicity and
+    probability (all microstates of A+B equally likely), and the most
+    probable split is named (the lowest E_A on a tie).  Each side is an
+    Einstein solid (--oscillators-a N) or any spectrum, given as for
+    'enumerator levels' with -a/-b suffixes.
+
+    Example:
+
+        $ enumerator contact --oscillators-a 300 --oscillators-b 200 --quanta 100 --json
+        $ enumerator contact --oscillators-a 3 --oscillators-b 3 --quanta 6
+        $ enumerator contact --preset-a two-level --particles-a 10 --preset-b trap --particles-b 4 --rule-b BE --energy 12
+    """
+    from ..algorithms import levels as lv
+
+    side_a = _level_system(particles_a, energies_a, degeneracies_a, rule_a or rule, capacity_a,
+                           preset_a, levels_a, dimension_a, gap_a, oscillators_a)
+    side_b = _level_system(particles_b, energies_b, degeneracies_b, rule_b or rule, capacity_b,
+                           preset_b, levels_b, dimension_b, gap_b, oscillators_b)
+    result = lv.thermal_contact(side_a, side_b, energy)
+    if plot is not None:
+        lv.plot_contact(plot, result, side_a.label, side_b.label)
+    if as_json:
+        emit_json(lv.contact_payload(result))
+        return
+    out = console()
+    unit_note = "" if result.unit == 1 else f" (energies in units of {result.unit})"
+    if not result.split:
+        out.print(f"No microstate of A and B has total energy {energy}.")
+        return
+    rows = []
+    for ea, count in result.split.items():
+        p = result.probability.get(ea)
+        rows.append([str(ea), str(result.energy - ea), exact(count), _float_cell(p)])
+    show_table(
+        f"Thermal contact{unit_note}: A = {side_a.label}; B = {side_b.label}; total energy {result.energy}",
+        ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"],
+        rows,
+    )
+    if result.most_probable is not None:
+        p = result.probability[result.most_probable]
+        out.print(
+            f"total microstates: {exact(result.total)}\nmost probable split: E_A = {result.most_probable}, "
+            f"probability {exact(p)} (≈ {float(p):.6g})"
+        )
+    if plot is not None:
+        out.print(f"plot: {plot}")

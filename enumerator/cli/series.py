@@ -1,0 +1,150 @@
+"""``gf`` and ``coeff``: generating functions of a model, and exact coefficients of any series."""
+
+from __future__ import annotations
+
+import sys
+from typing import Annotated, Optional
+
+import typer
+
+from ..core.model import as_count
+from ..core.rules import Rule
+from .options import (
+    Balls,
+    Bounds,
+    Capacity,
+    Json,
+    Minimum,
+    NoCache,
+    RuleOpt,
+    Store,
+    Urns,
+    build_model,
+    store_scope,
+)
+from .render import describe, emit_json, exact, show_table
+
+__all__ = ["commands"]
+
+#: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
+commands = typer.Typer()
+
+Upto = Annotated[
+    Optional[int],
+    typer.Option("--upto", metavar="N", help="Last degree (number of balls) of the coefficient row."),
+]
+Var = Annotated[
+    str,
+    typer.Option("--var", help="Name of the variable of the generating function."),
+]
+
+
+@commands.command("gf")
+def gf_command(
+    balls: Balls,
+    urns: Urns = None,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    bounds: Bounds = None,
+    upto: Upto = None,
+    mark: Annotated[
+        Optional[str],
+        typer.Option(
+            "--mark",
+            metavar="empty|occupied|exactly:J|atleast:J",
+            help="Also print the bivariate function whose u marks these urns "
+            "([x^n u^j] counts outcomes with j marked urns).",
+        ),
+    ] = None,
+    var: Var = "x",
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Print the model's generating function and its counts for 0..N balls.
+
+    BE and FD: the ordinary generating function, [x^m] = configurations of m
+    balls. MB: the exponential one, m! [x^m] = microstates of m balls. The
+    row comes from one exact series pass; N is --upto (default: --balls).
+
+    Example:
+
+        $ enumerator gf -n 6 -r 3 --rule BE --capacity 2
+        $ enumerator gf -n 8 -r 4 --rule MB --minimum 1 --json
+        $ enumerator gf -n 5 -r 3 --rule BE --mark empty
+    """
+    from ..algorithms.generating import bivariate_generating_function, generating_function, kind
+
+    with store_scope(store, no_cache):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+        top = model.balls if upto is None else as_count(upto, "--upto")
+        function = generating_function(model, var)
+        bivariate = None if mark is None else bivariate_generating_function(model, mark, var)
+        row = model.coefficient_row(top)
+    counts = "microstates" if model.rule is Rule.MB else "configurations"
+    if as_json:
+        payload = {
+            "rule": model.rule.value,
+            "generating_function": str(function),
+            "kind": kind(model),
+            "variable": str(var),
+            "counts": counts,
+            "coefficients": [exact(c) for c in row],
+        }
+        if bivariate is not None:
+            payload["mark"] = mark
+            payload["bivariate"] = str(bivariate)
+        emit_json(payload)
+        return
+    reading = f"[{var}^m]" if model.rule is not Rule.MB else f"m! [{var}^m]"
+    sys.stdout.write(f"{describe(model)}\n")
+    sys.stdout.write(f"{kind(model)} generating function ({reading} = {counts} of m balls):\n")
+    sys.stdout.write(f"  {function}\n")
+    if bivariate is not None:
+        sys.stdout.write(f"bivariate, u marking the urns '{mark}':\n  {bivariate}\n")
+    sys.stdout.flush()
+    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), exact(c)] for m, c in enumerate(row)])
+
+
+@commands.command("coeff")
+def coeff_command(
+    expression: Annotated[
+        str,
+        typer.Argument(
+            metavar="EXPR",
+            help='A generating function in one variable, e.g. "1/(1 - x - x^2)": whole numbers, '
+            "the variable, + - * / ^ (or **) and parentheses; 2x means 2*x.",
+        ),
+    ],
+    upto: Annotated[int, typer.Option("--upto", metavar="N", help="Last degree to expand to.")] = 10,
+    var: Var = "x",
+    as_json: Json = False,
+) -> None:
+    """Expand a generating function exactly and print its coefficients up to x^N.
+
+    Polynomials, products, integer powers (negative too) and quotients are
+    expanded by the exact series kernel, never in floating point. A
+    denominator whose constant term is not 1 or -1 gives fractions, printed
+    as p/q. Start the expression with a space (or put -- before it) if it
+    begins with a minus sign.
+
+    Example:
+
+        $ enumerator coeff "1/(1 - x - x^2)" --upto 20
+        $ enumerator coeff "1/((1-x)(1-x^2)(1-x^5)(1-x^10))" --upto 100 --json
+        $ enumerator coeff "(1 + z)^5/(2 - z)" --var z --upto 6
+    """
+    from ..algorithms.generating import extract_coefficients
+
+    top = as_count(upto, "--upto")
+    values = extract_coefficients(expression, top, var)
+    if as_json:
+        emit_json({"expression": expression, "variable": var, "coefficients": [exact(c) for c in values]})
+        return
+    show_table(
+        f"Coefficients of {expression.strip()} in powers of {var}",
+        ["degree", "coefficient"],
+        [[str(m), exact(c)] for m, c in enumerate(values)],
+    )
+

@@ -1,0 +1,505 @@
+"""``table ...`` and ``cache ...``: lookup tables and the result store (the work is in :mod:`enumerator.store`)."""
+
+from __future__ import annotations
+
+import sys
+from enum import Enum
+from typing import Annotated, Iterable, Optional
+
+import typer
+
+from ..core.model import as_count
+from .options import (
+    MODEL_PANEL,
+    Capacity,
+    Json,
+    Minimum,
+    RuleOpt,
+    Store,
+)
+from .render import console, emit_json, exact, show_table
+
+__all__ = ["commands"]
+
+#: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
+commands = typer.Typer()
+
+table_app = typer.Typer(
+    help="Lookup tables: exact counts over a grid of balls x urns, built into the result store.",
+    no_args_is_help=True,
+)
+cache_app = typer.Typer(
+    help="Look after the result store: statistics, verification, clearing, export.",
+    no_args_is_help=True,
+)
+commands.add_typer(table_app, name="table")
+commands.add_typer(cache_app, name="cache")
+
+BallsRange = Annotated[
+    str,
+    typer.Option("--balls", "-n", metavar="RANGE",
+                 help="Balls n of the grid: a range such as 0..200 (both ends included) or one number.",
+                 rich_help_panel=MODEL_PANEL),
+]
+UrnsRange = Annotated[
+    str,
+    typer.Option("--urns", "-r", metavar="RANGE",
+                 help="Urns r of the grid: a range such as 1..50 (both ends included) or one number.",
+                 rich_help_panel=MODEL_PANEL),
+]
+TableName = Annotated[str, typer.Argument(help="The table's name (see 'enumerator table list').")]
+
+
+class TableFormat(str, Enum):
+    """Formats of ``enumerator table export``."""
+
+    csv = "csv"
+    json = "json"
+    markdown = "markdown"
+    latex = "latex"
+
+
+class EntryFormat(str, Enum):
+    """Formats of ``enumerator cache export``."""
+
+    csv = "csv"
+    jsonl = "jsonl"
+
+
+def _open_store(location: Optional[str]):
+    """The store named by ``--store`` (else the default); table and cache commands always use one."""
+    from .. import store as results
+
+    return results.open_store(location)
+
+
+def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
+    """Write *lines* to the file *output* (or stdout); return how many."""
+    count = 0
+    if output is None:
+        for line in lines:
+            sys.stdout.write(line)
+            count += 1
+        sys.stdout.flush()
+        return count
+    try:
+        with open(output, "w", encoding="utf-8", newline="") as handle:
+            for line in lines:
+                handle.write(line)
+                count += 1
+    except OSError as error:
+        from ..core.errors import StoreError
+
+        raise StoreError(f"cannot write {output} ({error.strerror}); choose another --output") from None
+    return count
+
+
+def _range_text(values: range) -> str:
+    return f"{values.start}..{values.stop - 1}"
+
+
+def _bounds_words(spec) -> str:
+    limits = []
+    if spec.minimum:
+        limits.append(f"at least {spec.minimum}")
+    if spec.capacity is not None and not (spec.rule == "FD" and spec.capacity == 1):
+        limits.append(f"at most {spec.capacity}")
+    return " and ".join(limits) + " per urn" if limits else "any number per urn"
+
+
+def _short(text: str, width: int = 10) -> str:
+    """A long number as ``head…[digits]`` (previews only; exports are exact)."""
+    if len(text) <= width:
+        return text
+    return f"{text[:2]}…[{len(text)}]"
+
+
+@table_app.command("build")
+def table_build_command(
+    balls: BallsRange,
+    urns: UrnsRange,
+    rule: RuleOpt = "MB",
+    capacity: Capacity = None,
+    minimum: Minimum = None,
+    quantity: Annotated[
+        Optional[str],
+        typer.Option("--quantity", metavar="NAME",
+                     help="microstates (default: the equally likely outcomes; for BE and FD the "
+                     "configurations), configurations, or profiles."),
+    ] = None,
+    name: Annotated[
+        Optional[str],
+        typer.Option("--name", help="Name of the table (default: made from its definition)."),
+    ] = None,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Build a lookup table of exact counts over balls x urns into the result store.
+
+    Each row (fixed r, every n) comes from one generating-function pass;
+    cells already stored are reused, and every row is saved as soon as it is
+    done, so an interrupted build (Ctrl-C) resumes where it stopped when the
+    same command is run again.  Several builds may run at once on one store.
+
+    Example:
+
+        $ enumerator table build --rule BE --balls 0..200 --urns 1..50
+        $ enumerator table build --rule MB --balls 0..100 --urns 1..20 --capacity 4 --name shelves
+    """
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..store.tables import TableSpec, build_table, parse_range
+
+    spec = TableSpec.make(rule, parse_range(balls, "--balls"), parse_range(urns, "--urns"),
+                          capacity=capacity, minimum=minimum, quantity=quantity)
+    target = _open_store(store)
+    label = name or spec.default_name()
+    err = Console(stderr=True)
+    progress = Progress(
+        TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),
+        TextColumn("rows  r={task.fields[urns]}  {task.fields[computed]} computed, "
+                   "{task.fields[reused]} reused"),
+        TimeRemainingColumn(), console=err, disable=not err.is_terminal, transient=True,
+    )
+    totals = {"computed": 0, "reused": 0}
+    with progress:
+        task = progress.add_task(label, total=len(spec.urns), urns=spec.urns.start, computed=0, reused=0)
+
+        def advance(r, computed, reused):
+            totals["computed"] += computed
+            totals["reused"] += reused
+            progress.update(task, advance=1, urns=r, **totals)
+
+        try:
+            report = build_table(spec, name=name, store=target, progress=advance)
+        except KeyboardInterrupt:
+            progress.stop()
+            sys.stderr.write(
+                f"Interrupted: {totals['computed'] + totals['reused']} of {spec.cells} cells of "
+                f"table {label} are stored; run the same command again to finish "
+                "(stored cells are not recomputed).\n"
+            )
+            raise typer.Exit(130) from None
+    if as_json:
+        emit_json({
+            "name": report.name, "rule": spec.rule, "quantity": spec.quantity,
+            "minimum": exact(spec.minimum),
+            "capacity": None if spec.capacity is None else exact(spec.capacity),
+            "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+            "cells": exact(spec.cells), "computed": exact(report.computed),
+            "reused": exact(report.reused), "stored": exact(report.stored),
+            "store": target.name, "read_only": report.read_only,
+            "seconds_approx": report.seconds_approx,
+        })
+        return
+    show_table(
+        f"Table {report.name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}",
+        ["", "value"],
+        [
+            ["balls", _range_text(spec.balls)],
+            ["urns", _range_text(spec.urns)],
+            ["cells", exact(spec.cells)],
+            ["computed now", exact(report.computed)],
+            ["found stored", exact(report.reused)],
+            ["seconds (approx)", f"{report.seconds_approx:.3g}"],
+            ["store", target.name + (" (read-only: nothing saved)" if report.read_only else "")],
+        ],
+    )
+
+
+@table_app.command("list")
+def table_list_command(store: Store = None, as_json: Json = False) -> None:
+    """List the lookup tables in the store, with how many of their cells are built.
+
+    Example:
+
+        $ enumerator table list
+        $ enumerator table list --json
+    """
+    from ..store.tables import list_tables
+
+    target = _open_store(store)
+    found = list_tables(store=target)
+    if as_json:
+        emit_json({
+            "store": target.name,
+            "tables": [
+                {"name": name, "rule": spec.rule, "quantity": spec.quantity,
+                 "minimum": exact(spec.minimum),
+                 "capacity": None if spec.capacity is None else exact(spec.capacity),
+                 "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+                 "cells": exact(spec.cells), "stored": exact(stored)}
+                for name, spec, stored in found
+            ],
+        })
+        return
+    if not found:
+        sys.stdout.write(f"No tables in {target.name} yet; build one with 'enumerator table build'.\n")
+        return
+    # one line per table, so a long name is never cut or folded
+    lines = [f"Lookup tables in {target.name}:"]
+    for name, spec, stored in found:
+        lines.append(
+            f"  {name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}, balls "
+            f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, {stored}/{spec.cells} cells built"
+        )
+    sys.stdout.write("\n".join(lines) + "\n")
+
+
+@table_app.command("show")
+def table_show_command(
+    name: TableName,
+    balls: Annotated[
+        Optional[str],
+        typer.Option("--balls", "-n", metavar="RANGE", help="Rows to show (default: the first 20)."),
+    ] = None,
+    urns: Annotated[
+        Optional[str],
+        typer.Option("--urns", "-r", metavar="RANGE", help="Columns to show (default: as many as fit, up to 8)."),
+    ] = None,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Show a lookup table: its definition and a window of its cells (n down, r across).
+
+    Long values are shortened to head…tail with their digit count; 'table
+    export' and --json give every value in full.
+
+    Example:
+
+        $ enumerator table show BE-configurations-n0..200-r1..50 --balls 0..10 --urns 1..5
+    """
+    from ..store.tables import load_table, parse_range
+
+    data = load_table(name, store=_open_store(store))
+    spec = data.spec
+    rows = parse_range(balls, "--balls") if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
+    fit = max(1, min(8, (console().width - 10) // 13))  # value columns that fit the terminal
+    cols = parse_range(urns, "--urns") if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    if as_json:
+        emit_json({
+            "name": name, "rule": spec.rule, "quantity": spec.quantity,
+            "minimum": exact(spec.minimum),
+            "capacity": None if spec.capacity is None else exact(spec.capacity),
+            "balls": _range_text(spec.balls), "urns": _range_text(spec.urns),
+            "missing": exact(data.missing),
+            "cells": [
+                {"balls": exact(n), "urns": exact(r), "value": data.cells[(n, r)][0],
+                 "digits": exact(data.cells[(n, r)][1])}
+                for r in cols for n in rows if (n, r) in data.cells
+            ],
+        })
+        return
+    show_table(
+        f"{name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}; balls "
+        f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, "
+        f"{spec.cells - data.missing}/{spec.cells} cells built",
+        ["n \\ r"] + [str(r) for r in cols],
+        [
+            [str(n)] + [_short(data.cells[(n, r)][0]) if (n, r) in data.cells else "·" for r in cols]
+            for n in rows
+        ],
+    )
+    if any(len(data.cells[(n, r)][0]) > 10 for r in cols for n in rows if (n, r) in data.cells):
+        sys.stdout.write("ab…[d]: a value of d digits that starts with ab; 'table export' gives them in full.\n")
+    if data.missing:
+        sys.stdout.write("· not built yet; run 'enumerator table build' with the same grid to finish.\n")
+
+
+@table_app.command("export")
+def table_export_command(
+    name: TableName,
+    fmt: Annotated[
+        TableFormat,
+        typer.Option("--format", case_sensitive=False,
+                     help="csv, json, markdown or latex: one line per cell with n, r, the exact "
+                     "value and its number of digits."),
+    ] = TableFormat.csv,
+    output: Annotated[
+        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
+    ] = None,
+    store: Store = None,
+) -> None:
+    """Export a lookup table with every value exact and in full.
+
+    Example:
+
+        $ enumerator table export BE-configurations-n0..200-r1..50 --format csv > be.csv
+        $ enumerator table export shelves --format latex --output shelves.tex
+    """
+    from ..store.tables import export_table, load_table
+
+    data = load_table(name, store=_open_store(store))
+    _write_output([export_table(data, fmt.value)], output)
+    if data.missing:
+        sys.stderr.write(
+            f"Note: {data.missing} of {data.spec.cells} cells of {name} are not built yet and are "
+            "left out; run 'enumerator table build' with the same grid to finish.\n"
+        )
+
+
+@table_app.command("drop")
+def table_drop_command(name: TableName, store: Store = None) -> None:
+    """Forget a table's definition (its cells stay in the store for other lookups).
+
+    Example:
+
+        $ enumerator table drop shelves
+    """
+    from ..core.errors import InvalidParameters
+
+    target = _open_store(store)
+    if not target.delete_table(name):
+        raise InvalidParameters(f"no table named {name!r} in {target.name}; see 'enumerator table list'")
+    sys.stdout.write(f"Dropped table {name} (its cells stay in the store).\n")
+
+
+@cache_app.command("stats")
+def cache_stats_command(store: Store = None, as_json: Json = False) -> None:
+    """Show what the result store holds: entries by quantity and rule, sizes, time saved.
+
+    Example:
+
+        $ enumerator cache stats
+        $ enumerator cache stats --store /data/shared.sqlite --json
+    """
+    target = _open_store(store)
+    stats = target.stats()
+    if as_json:
+        emit_json({
+            "store": stats["store"], "read_only": stats["read_only"],
+            "schema_version": exact(stats["schema_version"]),
+            "entries": exact(stats["entries"]), "stale": exact(stats["stale"]),
+            "tables": exact(stats["tables"]),
+            "by_quantity": {q: {rule: exact(c) for rule, c in by.items()} for q, by in stats["by_quantity"].items()},
+            "largest_digits": exact(stats["largest_digits"]), "total_digits": exact(stats["total_digits"]),
+            "compute_seconds_approx": stats["compute_ns"] / 1e9,
+            "file_bytes": exact(stats["file_bytes"]) if "file_bytes" in stats else None,
+        })
+        return
+    rows = [["store", stats["store"] + (" (read-only)" if stats["read_only"] else "")],
+            ["entries", exact(stats["entries"])]]
+    for quantity, by in sorted(stats["by_quantity"].items()):
+        rows.append([f"  {quantity}", ", ".join(f"{rule} {count}" for rule, count in sorted(by.items()))])
+    rows += [
+        ["superseded versions", exact(stats["stale"])],
+        ["lookup tables", exact(stats["tables"])],
+        ["largest value (digits)", exact(stats["largest_digits"])],
+        ["all values (digits)", exact(stats["total_digits"])],
+        ["compute time kept (s, approx)", f"{stats['compute_ns'] / 1e9:.3g}"],
+    ]
+    if "file_bytes" in stats:
+        rows.append(["file size (bytes)", exact(stats["file_bytes"])])
+    show_table("Result store", ["", "value"], rows)
+
+
+@cache_app.command("verify")
+def cache_verify_command(
+    sample: Annotated[
+        int, typer.Option("--sample", help="Recompute this many entries, drawn at random."),
+    ] = 200,
+    verify_all: Annotated[bool, typer.Option("--all", help="Recompute every entry.")] = False,
+    seed: Annotated[Optional[int], typer.Option("--seed", help="Seed of the random sample.")] = None,
+    fix: Annotated[bool, typer.Option("--fix", help="Replace every wrong or damaged entry by the recomputed value.")] = False,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Recompute stored values (a sample, or --all) and report every mismatch.
+
+    Exit code 0 when everything matches (or was fixed), 1 when a wrong or
+    damaged entry remains.
+
+    Example:
+
+        $ enumerator cache verify --sample 500
+        $ enumerator cache verify --all --fix
+    """
+    target = _open_store(store)
+    report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
+    mismatches = report["mismatches"]
+    if as_json:
+        emit_json({
+            "store": target.name, "checked": exact(report["checked"]), "skipped": exact(report["skipped"]),
+            "fixed": exact(report["fixed"]),
+            "mismatches": [
+                {"quantity": m["quantity"], "rule": m["rule"], "balls": exact(m["balls"]),
+                 "bounds": m["bounds"], "params": m["params"], "version": exact(m["version"]),
+                 "problem": m["problem"], "stored": m["stored"], "expected": m["expected"]}
+                for m in mismatches
+            ],
+        })
+    else:
+        for m in mismatches:
+            sys.stdout.write(
+                f"MISMATCH {m['quantity']} {m['rule']} n={m['balls']} bounds {m['bounds']}"
+                f"{' ' + m['params'] if m['params'] else ''} v{m['version']}: {m['problem']}; "
+                f"stored {_short(m['stored'], 40)}, recomputed {_short(m['expected'], 40)}\n"
+            )
+        sys.stdout.write(
+            f"Checked {report['checked']} entries of {target.name}: {len(mismatches)} mismatches"
+            + (f", {report['fixed']} fixed" if fix else "")
+            + (f"; {report['skipped']} skipped (superseded version or no recomputer)" if report["skipped"] else "")
+            + ".\n"
+        )
+    if mismatches and report["fixed"] < len(mismatches):
+        raise typer.Exit(1)
+
+
+@cache_app.command("clear")
+def cache_clear_command(
+    stale: Annotated[bool, typer.Option("--stale", help="Only entries of superseded algorithm versions.")] = False,
+    quantity: Annotated[Optional[str], typer.Option("--quantity", help="Only this quantity.")] = None,
+    yes: Annotated[bool, typer.Option("--yes", "-y", help="Do not ask for confirmation.")] = False,
+    store: Store = None,
+    as_json: Json = False,
+) -> None:
+    """Delete stored results (all, one quantity, or only superseded versions).
+
+    Clearing everything also forgets the lookup-table definitions.  Asks
+    first unless --yes (or --stale, which only drops values no longer served).
+
+    Example:
+
+        $ enumerator cache clear --stale
+        $ enumerator cache clear --quantity profiles --yes
+    """
+    target = _open_store(store)
+    if not (yes or stale):
+        what = f"every {quantity} entry" if quantity else "every stored result and table definition"
+        if not sys.stdin.isatty():
+            from ..core.errors import InvalidParameters
+
+            raise InvalidParameters(f"this would delete {what} in {target.name}; add --yes to confirm")
+        typer.confirm(f"Delete {what} in {target.name}?", abort=True)
+    removed = target.clear(quantity=quantity, stale_only=stale)
+    if as_json:
+        emit_json({"store": target.name, "removed": exact(removed)})
+        return
+    sys.stdout.write(f"Removed {removed} entries from {target.name}.\n")
+
+
+@cache_app.command("export")
+def cache_export_command(
+    fmt: Annotated[
+        EntryFormat,
+        typer.Option("--format", case_sensitive=False,
+                     help="csv (with a header) or jsonl (one JSON object a line); exact values in full."),
+    ] = EntryFormat.jsonl,
+    output: Annotated[
+        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
+    ] = None,
+    store: Store = None,
+) -> None:
+    """Export every stored result with its key, exact value, digits, method and time.
+
+    Example:
+
+        $ enumerator cache export --format csv --output results.csv
+        $ enumerator cache export | head -3
+    """
+    target = _open_store(store)
+    count = _write_output(target.export_lines(fmt.value), output)
+    if output is not None:
+        sys.stdout.write(f"Wrote {count} lines to {output}.\n")
+

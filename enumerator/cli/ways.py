@@ -1,0 +1,86 @@
+"""``ways``: the twelvefold way of n balls into r urns."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+from ..core.model import as_count
+from .options import (
+    MODEL_PANEL,
+    Balls,
+    Json,
+    NoCache,
+    Store,
+    store_scope,
+)
+from .render import emit_json, exact, show_table
+
+__all__ = ["commands"]
+
+#: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
+commands = typer.Typer()
+
+_PER_URN = [("any", "any number"), ("at_most_one", "at most one"), ("at_least_one", "at least one")]
+
+
+@commands.command("ways")
+def ways_command(
+    balls: Balls,
+    urns: Annotated[
+        int,
+        typer.Option("--urns", "-r", help="Number of urns r, >= 1.", rich_help_panel=MODEL_PANEL),
+    ],
+    store: Store = None,
+    no_cache: NoCache = False,
+    as_json: Json = False,
+) -> None:
+    """Print the twelvefold way: n balls into r urns, twelve exact counts.
+
+    Balls labelled (distinguishable) or unlabelled (identical), urns labelled
+    or unlabelled, and any number / at most one / at least one ball per urn.
+    Labelled balls into labelled urns, any number, is MB's r^n; unlabelled
+    balls into labelled urns is BE (any) and FD (at most one).
+
+    Example:
+
+        $ enumerator ways -n 5 -r 3
+        $ enumerator ways -n 5 -r 3 --json
+    """
+    with store_scope(store, no_cache):
+        from ..algorithms.counting import twelvefold
+
+        n = as_count(balls, "balls")
+        r = as_count(urns, "urns", 1)
+        ways = twelvefold(n, r)
+        if as_json:
+            emit_json(
+                {
+                    "balls": exact(n),
+                    "urns": exact(r),
+                    "ways": [
+                        {
+                            "balls": way["balls"],
+                            "urns": way["urns"],
+                            "per_urn": way["per_urn"],
+                            "count": exact(way["count"]),
+                        }
+                        for way in ways
+                    ],
+                }
+            )
+            return
+        lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
+        rows = [
+            [f"{ball_kind} balls, {urn_kind} urns"]
+            + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+            for ball_kind in ("labelled", "unlabelled")
+            for urn_kind in ("labelled", "unlabelled")
+        ]
+        show_table(
+            f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
+            ["balls and urns"] + [title for _, title in _PER_URN],
+            rows,
+        )
+
