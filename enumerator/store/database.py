@@ -255,7 +255,7 @@ class Store:
         except migrations.MigrationFailed as failure:
             if isinstance(failure.error, sa_exc.DBAPIError) and is_readonly(failure.error):
                 raise self._cannot_upgrade(found, "it is read-only") from None
-            raise self._cannot_upgrade(found, f"{failure}; nothing was changed") from failure
+            raise self._upgrade_failed(found, failure) from failure
         self._schema_ready = True
         self._enable_wal()
 
@@ -309,6 +309,14 @@ class Store:
             f"({schema.SCHEMA_VERSION}), and cannot be upgraded: {reason}. Open it once with "
             "write access (any command that uses it upgrades it in place), or choose another "
             "store with --store or ENUMERATOR_STORE, or run with --no-cache"
+        )
+
+    def _upgrade_failed(self, found: int, failure: "migrations.MigrationFailed") -> StoreError:
+        return StoreError(
+            f"upgrading the store {self.name} from schema version {found} to "
+            f"{schema.SCHEMA_VERSION} failed at {failure}; nothing was changed (it is still at "
+            f"schema version {found}). Choose another store with --store or ENUMERATOR_STORE, "
+            "or run with --no-cache, and report the failure"
         )
 
     def _enable_wal(self) -> None:

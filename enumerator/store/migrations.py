@@ -97,7 +97,7 @@ class MigrationFailed(Exception):
         self.step = step
         self.error = error
         detail = " ".join(str(error).split()) or type(error).__name__
-        super().__init__(f"step {step.source}->{step.target} ({step.summary}) failed: {detail}")
+        super().__init__(f"step {step.source}->{step.target} ({step.summary}): {detail}")
 
 
 def plan(found: int, target: Optional[int] = None,
