@@ -17,6 +17,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from reference import box, weight
 
+import enumerator.algorithms.extremes as extremes
+import enumerator.algorithms.laws as laws
 import enumerator.algorithms.statistics as statistics
 from enumerator import Occupancy
 from enumerator.algorithms.counting import count_configurations, count_microstates
@@ -119,10 +121,10 @@ def test_mb_maximum_in_every_regime_equals_the_egf_power(monkeypatch, n, r, cost
     # Miller's recurrence, the level recursion with and without extensions and the
     # one-term inclusion-exclusion, each forced by the cost model, against
     # counting's truncated-EGF power (FLINT) for the same bounded counts.
-    monkeypatch.setattr(statistics, "_COST_MILLER", costs[0])
-    monkeypatch.setattr(statistics, "_COST_LEVEL", costs[1])
-    monkeypatch.setattr(statistics, "_COST_EXTEND", costs[2])
-    cumulative = statistics._mb_max_cumulative(n, r, n)
+    monkeypatch.setattr(extremes, "_COST_MILLER", costs[0])
+    monkeypatch.setattr(extremes, "_COST_LEVEL", costs[1])
+    monkeypatch.setattr(extremes, "_COST_EXTEND", costs[2])
+    cumulative = extremes.mb_max_cumulative(n, r, n)
     lo = -(-n // r)
     assert sorted(cumulative) == list(range(lo, n + 1))
     for m, value in cumulative.items():
@@ -133,13 +135,13 @@ def test_mb_maximum_in_every_regime_equals_the_egf_power(monkeypatch, n, r, cost
 def test_mb_at_least_equals_the_egf_power(n, r):
     for m in range(0, n // r + 2):
         expected = count_microstates(Occupancy(balls=n, urns=r, rule="MB", minimum=m)) if n >= r * m else 0
-        assert statistics._mb_at_least(n, r, m) == expected
+        assert extremes.mb_at_least(n, r, m) == expected
 
 
 def test_be_maximum_rows_equal_the_capacity_counts():
     for n, r, a in [(30, 4, 0), (40, 6, 2), (9, 9, 1)]:
         lo = max(a, -(-n // r))
-        rows = statistics._be_max_cumulative(n, r, a, lo, n)
+        rows = extremes.be_max_cumulative(n, r, a, lo, n)
         for m, value in rows.items():
             expected = count_configurations(Occupancy(balls=n, urns=r, rule="BE", capacity=m, minimum=a))
             assert value == expected
@@ -262,7 +264,7 @@ def test_exactly_and_at_least_agree_with_each_other_on_a_larger_model():
 
 def test_per_urn_bounds_with_many_groups_fall_back_to_listing(monkeypatch):
     model = Occupancy(balls=6, bounds=[(0, 3), (1, 4), (0, None), (2, 5)], rule="MB")
-    monkeypatch.setattr(statistics, "GROUP_TUPLE_LIMIT", 1)
+    monkeypatch.setattr(laws, "GROUP_TUPLE_LIMIT", 1)
     assert distribution(model, "exactly:2").pmf == brute_law(model, "exactly:2")
     with pytest.raises(TooLarge, match="raise limit="):
         distribution(model, "exactly:2", limit=3)
@@ -330,7 +332,7 @@ def test_distribution_object():
 def test_capped_binomial_moments_give_the_minimum_by_inclusion_exclusion(n, r, c):
     # sum_t (-1)^t B_t = outcomes with no urn holding c or fewer = min >= c + 1,
     # checked against counting's EGF power with a uniform minimum
-    moments = statistics._mb_capped_moments(n, r, c)
+    moments = extremes.mb_capped_moments(n, r, c)
     alternating = sum(-b if t & 1 else b for t, b in enumerate(moments))
     expected = count_microstates(Occupancy(balls=n, urns=r, rule="MB", minimum=c + 1)) if n >= r * (c + 1) else 0
     assert alternating == expected
