@@ -23,17 +23,14 @@ from scipy.special import comb as scipy_comb
 from enumerator import InvalidParameters, Occupancy, TooLarge
 from enumerator.algorithms.asymptotics import (
     CATALOGUE,
-    CSV_COLUMNS,
     Point,
     apportion,
     approximation,
     compare,
-    comparisons_csv,
     empty_urns_at_most,
     observed_order,
     parse_range,
     parse_tie,
-    plot_comparisons,
     stirling_log_factorial,
     sweep,
 )
@@ -228,7 +225,6 @@ def test_birthday_more_balls_than_urns_has_no_relative_error():
     row = compare("birthday", [Point(balls=4, urns=3)]).rows[0]
     assert row.exact == 0
     assert row.relative_error_approx is None
-    assert compare("birthday", [Point(balls=4, urns=3)]).to_json()["rows"][0]["relative_error_approx"] is None
 
 
 # ---------------------------------------------------------------------------
@@ -492,19 +488,6 @@ def test_single_point_has_no_order():
     assert compare("birthday", [Point(balls=23, urns=365)]).order_approx is None
 
 
-def test_json_contract_keys_exactly():
-    payload = rows_of("birthday", "balls=10..30", step=10, urns=365).to_json()
-    assert list(payload) == ["approximation", "rows", "order_approx"]
-    assert payload["approximation"] == "birthday"
-    for row in payload["rows"]:
-        assert list(row) == ["balls", "urns", "exact", "approx", "relative_error_approx"]
-        assert isinstance(row["balls"], int) and isinstance(row["urns"], int)
-        # exact is str(Fraction): p/q in lowest terms
-        assert row["exact"] == str(Fraction(math.perm(365, row["balls"]), 365 ** row["balls"]))
-        assert isinstance(row["approx"], str) and isinstance(row["relative_error_approx"], float)
-    assert isinstance(payload["order_approx"], float)
-
-
 def test_every_catalogue_entry_names_its_source():
     for name, entry in CATALOGUE.items():
         assert entry.name == name
@@ -590,20 +573,6 @@ def test_sweep_errors(kwargs, error, message):
 
 def test_parse_range():
     assert parse_range(" balls = 10 .. 1000 ") == ("balls", 10, 1000)
-
-
-def test_csv_and_plot(tmp_path):
-    results = [rows_of(f"stirling{k}", "balls=10..1000", geometric=4, urns="balls") for k in (1, 2, 3)]
-    text = comparisons_csv(results)
-    lines = text.splitlines()
-    assert tuple(lines[0].split(",")) == CSV_COLUMNS
-    assert len(lines) == 1 + 12
-    first = lines[1].split(",")
-    assert first[0] == "stirling1" and first[1] == "10" and first[2] == "10"
-    assert first[CSV_COLUMNS.index("exact")] == str(math.comb(19, 10))  # exact C(n+r-1, n) (common practice)
-    path = tmp_path / "errors.png"
-    plot_comparisons(results, str(path))
-    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)
 
 
 # ---------------------------------------------------------------------------

@@ -205,3 +205,47 @@ def test_grand_canonical_with_factor():
     result = run("grand-canonical", "--balls", 5, "--urns", 5, "--factor", "2")
     assert result.exit_code == 2
     assert "strictly between 0 and 1" in result.stderr
+
+
+# ---------------------------------------------------------------------------
+# The render module on its own (enumerator.cli.render_compare)
+# ---------------------------------------------------------------------------
+def _comparison(name, vary, **fixed):
+    from enumerator.algorithms.asymptotics import compare, sweep
+
+    variable, points = sweep(vary, **fixed)
+    return compare(name, points, variable)
+
+
+def test_payload_keys_exactly_and_undefined_errors_are_null():
+    from enumerator.algorithms.asymptotics import Point, compare
+    from enumerator.cli.render_compare import comparison_payload
+
+    payload = comparison_payload(_comparison("birthday", "balls=10..30", step=10, urns=365))
+    assert list(payload) == ["approximation", "rows", "order_approx"]
+    assert payload["approximation"] == "birthday"
+    for row in payload["rows"]:
+        assert list(row) == ["balls", "urns", "exact", "approx", "relative_error_approx"]
+        assert isinstance(row["balls"], int) and isinstance(row["urns"], int)
+        # exact is str(Fraction): p/q in lowest terms
+        assert row["exact"] == str(Fraction(math.perm(365, row["balls"]), 365 ** row["balls"]))
+        assert isinstance(row["approx"], str) and isinstance(row["relative_error_approx"], float)
+    assert isinstance(payload["order_approx"], float)
+    # A shared urn is certain (pigeonhole): exact 0, relative error undefined.
+    pigeonhole = comparison_payload(compare("birthday", [Point(balls=4, urns=3)]))
+    assert pigeonhole["rows"][0]["relative_error_approx"] is None
+
+
+def test_csv_text_and_plot_file(tmp_path):
+    from enumerator.cli.render_compare import CSV_COLUMNS, comparisons_csv, plot_comparisons
+
+    results = [_comparison(f"stirling{k}", "balls=10..1000", geometric=4, urns="balls") for k in (1, 2, 3)]
+    lines = comparisons_csv(results).splitlines()
+    assert tuple(lines[0].split(",")) == CSV_COLUMNS
+    assert len(lines) == 1 + 12
+    first = lines[1].split(",")
+    assert first[0] == "stirling1" and first[1] == "10" and first[2] == "10"
+    assert first[CSV_COLUMNS.index("exact")] == str(math.comb(19, 10))  # exact C(n+r-1, n) (common practice)
+    path = tmp_path / "errors.png"
+    plot_comparisons(results, str(path))
+    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)

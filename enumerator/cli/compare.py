@@ -1,19 +1,21 @@
 """``enumerator compare``: an approximation beside the exact value as the system grows.
 
 The catalogue, the sweep, the errors and the observed orders are
-:mod:`enumerator.algorithms.asymptotics`; this module parses the options and
-prints (a wide table, CSV, one JSON object, or a plot).
+:mod:`enumerator.algorithms.asymptotics`; this module parses the options,
+calls :func:`~enumerator.algorithms.asymptotics.compare_sweep` and hands the
+comparisons to :mod:`enumerator.cli.render_compare` (wide tables, CSV, one
+JSON object, or a plot).
 """
 
 from __future__ import annotations
 
 import sys
-from typing import Annotated, Iterable, Optional, Sequence
+from typing import Annotated, Optional
 
 import typer
 
 from .options import OUTPUT_PANEL, Json, NoCache, Store, store_scope
-from .render import console, emit_json
+from .render import emit_json
 
 __all__ = ["commands"]
 
@@ -39,42 +41,6 @@ def _tie_option(flag: str, *short: str, help: str):
     typer.models.OptionInfo
     """
     return typer.Option(flag, *short, metavar="N|EXPR", help=help, rich_help_panel=_SWEEP)
-
-
-def _wide_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]) -> None:
-    """Print a rich table at its natural width (wider than the terminal if it must).
-
-    The cells of ``compare`` are short, already-rounded numbers (the whole
-    values are in --json/--csv), so the table is never folded and never
-    spills values below itself the way :func:`~enumerator.cli.render.show_table`
-    does for long counts.
-
-    Parameters
-    ----------
-    title : str
-        Printed in bold above the table.
-    columns : sequence of str
-        Column names.
-    rows : iterable of sequence of str
-        The cells.
-
-    Notes
-    -----
-    Imports rich on first use.  Cost: linear in the total length of the cells.
-    """
-    from rich.console import Console
-    from rich.table import Table
-
-    rows = [list(row) for row in rows]
-    table = Table()
-    for i, name in enumerate(columns):
-        table.add_column(name, justify="left" if i == 0 else "right", no_wrap=True)
-    for row in rows:
-        table.add_row(*row)
-    natural = 1 + sum(3 + max(len(name), *(len(row[i]) for row in rows)) for i, name in enumerate(columns))
-    wide = Console(file=sys.stdout, highlight=False, soft_wrap=False, width=max(console().width, natural))
-    wide.print(title, style="bold", markup=False)
-    wide.print(table)
 
 
 @commands.command("compare")
@@ -163,22 +129,16 @@ def compare_command(
         $ enumerator compare saddle --vary balls=100..10000 --urns "balls//2" --capacity 3 --csv
         $ enumerator compare grand-canonical --vary balls=10..160 --urns balls --factor 1/2
     """
-    from ..algorithms import asymptotics
+    from ..algorithms.asymptotics import compare_sweep
     from ..core.errors import InvalidParameters
+    from . import render_compare
 
     if show_list:
-        entries = asymptotics.catalogue_rows()
+        entries = render_compare.catalogue_rows()
         if as_json:
             emit_json({"approximations": entries})
             return
-        lines = []
-        for e in entries:
-            order = f"order {e['order']} when {e['regime']}" if e["order"] else "no order claimed"
-            lines.append(
-                f"{e['name']}: {e['quantity']}\n    ≈ {e['formula']}\n    {order}; "
-                f"uses {', '.join(e['uses'])}; {e['scale']} scale\n    source: {e['source']}\n"
-            )
-        sys.stdout.write("".join(lines))
+        sys.stdout.write(render_compare.catalogue_text(entries))
         sys.stdout.flush()
         return
     if names is None:
@@ -186,31 +146,17 @@ def compare_command(
     if as_csv and as_json:
         raise InvalidParameters("give --csv or --json, not both")
     with store_scope(store, no_cache):
-        comparisons = asymptotics.compare_sweep(
+        comparisons = compare_sweep(
             names, vary, step=step, geometric=geometric, balls=balls, urns=urns, rule=rule,
             capacity=capacity, minimum=minimum, at=at, pattern=pattern, factor=factor,
         )
     if plot is not None:
-        asymptotics.plot_comparisons(comparisons, plot)
+        render_compare.plot_comparisons(comparisons, plot)
     if as_json:
-        payloads = [c.to_json() for c in comparisons]
-        emit_json(payloads[0] if len(payloads) == 1 else {"comparisons": payloads})
+        emit_json(render_compare.comparisons_payload(comparisons))
         return
     if as_csv:
-        sys.stdout.write(asymptotics.comparisons_csv(comparisons))
+        sys.stdout.write(render_compare.comparisons_csv(comparisons))
         sys.stdout.flush()
         return
-    out = console()
-    for i, comparison in enumerate(comparisons):
-        entry = comparison.approximation
-        if i:
-            out.print()
-        columns, rows = asymptotics.comparison_table(comparison)
-        scale = " (errors of ln W: log scale)" if entry.scale == "log" else ""
-        _wide_table(f"{entry.name}: {entry.quantity} ≈ {entry.formula}{scale}", columns, rows)
-        out.print(asymptotics.describe_order(comparison), markup=False)
-        out.print(f"source: {entry.source}", markup=False)
-    if plot is not None:
-        out.print(f"plot: {plot}", markup=False)
-
-
+    render_compare.show_comparisons(comparisons, plot)

@@ -27,14 +27,6 @@ gathers its topic modules):
 
 from __future__ import annotations
 
-from ._reports import (
-    CSV_COLUMNS,
-    catalogue_rows,
-    comparison_table,
-    comparisons_csv,
-    describe_order,
-    plot_comparisons,
-)
 from .catalogue import CATALOGUE, Approximation, apportion, approximation, empty_urns_at_most, stirling_log_factorial
 from .comparison import Comparison, Row, compare, compare_sweep
 from .sweeps import NUMERIC, Point, Tie, observed_order, parse_factor, parse_pattern, parse_range, parse_tie, sweep
@@ -42,7 +34,6 @@ from .sweeps import NUMERIC, Point, Tie, observed_order, parse_factor, parse_pat
 __all__ = [
     "Approximation",
     "CATALOGUE",
-    "CSV_COLUMNS",
     "Comparison",
     "NUMERIC",
     "Point",
@@ -50,19 +41,14 @@ __all__ = [
     "Tie",
     "apportion",
     "approximation",
-    "catalogue_rows",
     "compare",
     "compare_sweep",
-    "comparison_table",
-    "comparisons_csv",
-    "describe_order",
     "empty_urns_at_most",
     "observed_order",
     "parse_factor",
     "parse_pattern",
     "parse_range",
     "parse_tie",
-    "plot_comparisons",
     "stirling_log_factorial",
     "sweep",
 ]

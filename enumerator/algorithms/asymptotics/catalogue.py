@@ -55,6 +55,7 @@ __all__ = [
     "approximation",
     "empty_urns_at_most",
     "stirling_log_factorial",
+    "to_mpf",
 ]
 
 Exact = Union[int, Fraction]
@@ -77,7 +78,7 @@ def _digits(value) -> int:
     return len(str(abs(int(value)))) if abs(int(value)) < 10**18 else int(abs(int(value)).bit_length() * 0.30103) + 1
 
 
-def _to_mpf(value: Exact):
+def to_mpf(value: Exact):
     """*value* as an mpf at the current precision (one rounding)."""
     if isinstance(value, Fraction):
         return mpf(value.numerator) / mpf(value.denominator)

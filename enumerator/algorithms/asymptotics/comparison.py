@@ -33,8 +33,7 @@ from typing import Iterable, List, Optional, Tuple, Union
 import mpmath
 
 from ...core.errors import InvalidParameters, TooLarge, Unsupported
-from ...core.exact import exact_text
-from .catalogue import CATALOGUE, Approximation, Exact, _digits, _ln_size, _to_mpf, approximation
+from .catalogue import CATALOGUE, Approximation, Exact, _digits, _ln_size, approximation, to_mpf
 from .sweeps import NUMERIC, Point, observed_order, parse_range, sweep
 
 __all__ = ["Comparison", "MAX_DPS", "Row", "compare", "compare_sweep"]
@@ -93,23 +92,6 @@ class Comparison:
     variable: str = "balls"
     order_approx: Optional[float] = None
 
-    def to_json(self) -> dict:
-        """The machine-readable form (the ``--json`` contract of ``enumerator compare``)."""
-        return {
-            "approximation": self.approximation.name,
-            "rows": [
-                {
-                    "balls": row.point.balls,
-                    "urns": row.point.urns,
-                    "exact": exact_text(row.exact),
-                    "approx": row.approx_text(),
-                    "relative_error_approx": row.relative_float(),
-                }
-                for row in self.rows
-            ],
-            "order_approx": self.order_approx,
-        }
-
     def local_orders(self) -> List[Optional[float]]:
         """Per row, the order between it and the row before (``None`` where undefined)."""
         out: List[Optional[float]] = [None]
@@ -130,7 +112,7 @@ def _evaluate(entry: Approximation, point: Point) -> Row:
     while True:
         with mpmath.workdps(dps):
             value = entry.approximate(point)
-            e = _to_mpf(exact)
+            e = to_mpf(exact)
             if entry.scale == "log":
                 scale = mpmath.log(e)
                 absolute = abs(mpmath.log(value) - scale)
