@@ -268,14 +268,14 @@ def test_precedence_not_and_or():
     assert isinstance(node, Or)
     first = node.operands[0]
     assert isinstance(first, And) and isinstance(first.operands[0], Not)
-    assert node.operands[1] == Comparison(Term("urn", index=1), "==", 1)
+    assert node.operands[1] == Comparison(Term("urn", 1), "==", 1)
 
 
 def test_forms_that_read_the_same():
     same = ["k1 >= 2", "k_1>=2", "2 <= k1", "K1 >= 2", "(k1 >= 2)", "((k_1 >= +2))"]
     assert len({parse_event(t) for t in same}) == 1
-    assert parse_event("1 <= k2 <= 3") == And((Comparison(Term("urn", index=2), ">=", 1),
-                                               Comparison(Term("urn", index=2), "<=", 3)))
+    assert parse_event("1 <= k2 <= 3") == And((Comparison(Term("urn", 2), ">=", 1),
+                                               Comparison(Term("urn", 2), "<=", 3)))
     assert str(parse_event("count(>=1)>=4 AND NOT (empty==0 OR max<-1)")) == \
         "count(>= 1) >= 4 and not (empty == 0 or max < -1)"
 
