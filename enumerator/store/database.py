@@ -41,11 +41,8 @@ Many processes at once
 
 from __future__ import annotations
 
-import json
 import logging
 import random
-import time
-from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable, Dict, Iterable, Iterator, List, Optional, Tuple
@@ -55,13 +52,11 @@ from sqlalchemy import exc as sa_exc
 from sqlalchemy.orm import Session
 
 from ..core.errors import StoreError
-from ..core.exact import int_text
 from . import migrations, schema
-from .codec import decode_value, encode_value, round_trip
+from .codec import decode_value, encode_value
 from .engine import (
-    LOCK_PATIENCE,
-    is_busy,
-    is_damaged,
+    enable_wal,
+    explain_failure,
     is_readonly,
     make_engine,
     reading,
@@ -70,48 +65,17 @@ from .engine import (
     writable,
     writing,
 )
-from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, recomputer, row_checksum, row_intact
+from .entries import EXPORT_ENTRY_FORMATS, StoredEntry, check_entry, export_lines
+from .keys import ALGORITHM_VERSIONS, Key, key_digest, row_checksum, row_intact
 from .schema import Base, LookupTable, Meta, Result
 
 __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
 
 log = logging.getLogger("enumerator.store")
 
-#: Formats of :meth:`Store.export_lines`.
-EXPORT_ENTRY_FORMATS = ("csv", "jsonl")
-
 
 def _now() -> datetime:
     return datetime.now(timezone.utc)
-
-@dataclass(frozen=True)
-class StoredEntry:
-    """One stored row as read back (value decoded, exact)."""
-
-    quantity: str
-    rule: str
-    balls: int
-    urns: int
-    bounds: str
-    params: str
-    version: int
-    kind: str
-    text: str
-    digits: int
-    method: str
-    elapsed_ns: int
-    created_at: datetime
-    intact: bool
-
-    @property
-    def value(self):
-        """The exact value (``int``, ``Fraction``, list or dict)."""
-        return decode_value(self.kind, self.text)
-
-    @property
-    def seconds_approx(self) -> float:
-        """The compute time in seconds (an approximation)."""
-        return self.elapsed_ns / 1e9
 
 
 # ---------------------------------------------------------------------------
@@ -176,15 +140,6 @@ class Store:
         return f"Store({self.name!r}{', read-only' if self.read_only else ''})"
 
     # -- transactions and failures -----------------------------------------
-    def _reading(self):
-        return reading(self.engine)
-
-    def _writing(self):
-        return writing(self.engine)
-
-    def _retry(self, action, *args, **kwargs):
-        return retry(action, *args, **kwargs)
-
     def _guard(self, action, *args, **kwargs):
         """Run *action*, turning database failures into one clear StoreError."""
         try:
@@ -193,24 +148,7 @@ class Store:
             raise self._translate(error) from None
 
     def _translate(self, error: "sa_exc.DBAPIError") -> StoreError:
-        """The one-line StoreError that tells the user what went wrong and what to do."""
-        detail = " ".join(str(getattr(error, "orig", error)).split())
-        if is_damaged(error):
-            return StoreError(
-                f"the store {self.name} is damaged or is not an SQLite database ({detail}); "
-                "it only holds a cache, so move it aside or delete it, or choose another "
-                "store with --store or ENUMERATOR_STORE"
-            )
-        if is_busy(error):
-            return StoreError(
-                f"the store {self.name} stayed locked by another process for "
-                f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with --no-cache"
-            )
-        return StoreError(
-            f"cannot use the store {self.name} ({detail}); check the path or URL and its "
-            "permissions, choose another store with --store or ENUMERATOR_STORE, "
-            "or run with --no-cache"
-        )
+        return explain_failure(error, self.name)
 
     def _warn_read_only(self, reason: str) -> None:
         self.read_only = True
@@ -228,7 +166,7 @@ class Store:
         if self.read_only and self.path is not None and not self.path.exists():
             self._warn_read_only("its folder cannot be written, so it cannot be created")
             return
-        with self._reading() as conn:
+        with reading(self.engine) as conn:
             present = set(inspect(conn).get_table_names())
             found = self._schema_version(conn) if Meta.__tablename__ in present else None
         latest = schema.SCHEMA_VERSION
@@ -244,7 +182,7 @@ class Store:
             self._warn_read_only("it cannot be created or written")
             return
         try:
-            self._retry(self._prepare_schema)
+            retry(self._prepare_schema)
         except sa_exc.OperationalError as error:
             if is_readonly(error) or "unable to open" in str(error).lower():
                 if found is not None and found < latest:
@@ -261,7 +199,7 @@ class Store:
 
     def _prepare_schema(self) -> None:
         """In one write transaction: create a new store, or upgrade an older one, to the current schema."""
-        with self._writing() as conn:
+        with writing(self.engine) as conn:
             # read again under the write lock: another process may have
             # created or upgraded the store since the first look
             has_meta = inspect(conn).has_table(Meta.__tablename__)
@@ -320,21 +258,8 @@ class Store:
         )
 
     def _enable_wal(self) -> None:
-        if self.url.get_backend_name() != "sqlite" or self.path is None or self.read_only:
-            return
-
-        def switch():
-            with self.engine.connect() as conn:
-                mode = conn.exec_driver_sql("PRAGMA journal_mode").scalar()
-                if str(mode).lower() != "wal":
-                    conn.exec_driver_sql("PRAGMA journal_mode = WAL")
-        try:
-            self._retry(switch)
-        except sa_exc.OperationalError as error:
-            if is_readonly(error):
-                self._warn_read_only("its journal cannot be written")
-                return
-            raise
+        if self.path is not None and not self.read_only and not enable_wal(self.engine):
+            self._warn_read_only("its journal cannot be written")
 
     # -- upserts ---------------------------------------------------------
     def _upsert(self, model, unique_column):
@@ -359,7 +284,7 @@ class Store:
         stmt = self._insert()
 
         def attempt():
-            with self._writing() as conn:
+            with writing(self.engine) as conn:
                 if stmt is not False:
                     result = conn.execute(stmt, rows)
                     return result.rowcount if result.rowcount is not None and result.rowcount >= 0 else len(rows)
@@ -374,7 +299,7 @@ class Store:
                 return added
 
         try:
-            return self._retry(attempt)
+            return retry(attempt)
         except sa_exc.OperationalError as error:
             if is_readonly(error):
                 self._warn_read_only("writing to it failed")
@@ -407,10 +332,36 @@ class Store:
 
     # -- the public operations ---------------------------------------------
     def get(self, quantity: str, key: Key, version: int, params: str = "", default=None):
-        """The stored value for the key, or *default* when absent.
+        """Return the stored value of one key, or *default* when it is not stored.
 
-        Raises StoreError when the stored row is damaged (its checksum or
-        digit count disagrees), never returning a wrong value.
+        Parameters
+        ----------
+        quantity : str
+            The quantity's name.
+        key : Key
+            The problem.
+        version : int
+            The algorithm version (another version is another key).
+        params : str
+            The quantity's canonical parameter text.
+        default : object
+            Returned when the key is absent (or the store has no tables).
+
+        Returns
+        -------
+        int, Fraction, list, dict or *default*
+            The exact value as stored.
+
+        Raises
+        ------
+        StoreError
+            When the stored row is damaged (its checksum or digit count
+            disagrees) or unreadable: a wrong value is never returned.
+
+        Notes
+        -----
+        Cost: one indexed lookup by the key's SHA-256 digest, plus the
+        decoding (subquadratic in the digits).
         """
         if not self._schema_ready:
             return default
@@ -434,20 +385,55 @@ class Store:
             ) from None
 
     def _fetch(self, digest: str):
-        with self.engine.connect() as conn:
+        with reading(self.engine) as conn:
             return conn.execute(self._select_stmt, {"digest": digest}).first()
 
     def put(self, quantity: str, key: Key, version: int, value, *, params: str = "",
             method: str = "", elapsed_ns: int = 0) -> bool:
-        """Store one value (kept if the key is already there); True if it was new."""
+        """Store one value unless its key is already there.
+
+        Parameters are those of :meth:`get`, and: *value* (exact), *method*
+        (recorded beside it, at most 200 characters kept) and *elapsed_ns*
+        (the compute time).
+
+        Returns
+        -------
+        bool
+            True when the row is new.
+
+        Notes
+        -----
+        Cost: as :meth:`put_many` for one item.
+        """
         return self.put_many([(quantity, key, version, value, params, method, elapsed_ns)]) > 0
 
     def put_many(self, items: Iterable[Tuple]) -> int:
-        """Store ``(quantity, key, version, value, params, method, elapsed_ns)`` items in one transaction.
+        """Store many values in one transaction, keeping any key already there.
 
-        Existing keys are left as they are (``INSERT ... ON CONFLICT DO
-        NOTHING``); returns how many rows were new.  A read-only store
-        stores nothing and returns 0.
+        Parameters
+        ----------
+        items : iterable of tuple
+            ``(quantity, key, version, value, params, method, elapsed_ns)``.
+
+        Returns
+        -------
+        int
+            How many rows were new.  A read-only store stores nothing,
+            returns 0 and warns once.
+
+        Raises
+        ------
+        TypeError
+            When a value is not exact (see :func:`~enumerator.store.codec.encode_value`).
+        StoreError
+            When the database fails otherwise.
+
+        Notes
+        -----
+        One ``BEGIN IMMEDIATE`` transaction of ``INSERT ... ON CONFLICT DO
+        NOTHING`` upserts, retried while another process holds the lock, so
+        overlapping writers store each key once.  Cost: the encoding of the
+        values plus one indexed insert each.
         """
         now = _now()
         rows = [self._row(*item, created_at=now) for item in items]
@@ -459,10 +445,26 @@ class Store:
 
     def stored_balls(self, quantity: str, rule: str, bounds: str, urns: int, version: int,
                      params: str = "", values: bool = True):
-        """One row of a table: the stored ``n`` for fixed quantity, rule, bounds, version.
+        """Return one row of a table: the stored ``n`` for fixed quantity, rule, bounds and version.
 
-        With *values*, a dict ``n -> (kind, text, digits, checksum, digest)``;
-        without, just the set of ``n`` (cheaper: the values are not read).
+        Parameters
+        ----------
+        quantity, rule, bounds, urns, version, params
+            The key fields other than ``n``.
+        values : bool
+            Also read the values.
+
+        Returns
+        -------
+        dict or set
+            With *values*, ``n -> (kind, text, digits, checksum, digest)``
+            (unchecked: the caller checks with
+            :func:`~enumerator.store.keys.row_intact`); without, the set of
+            ``n`` (cheaper: the values are not read).
+
+        Notes
+        -----
+        Cost: one indexed range scan (quantity, rule, urns, version).
         """
         if not self._schema_ready:
             return {} if values else set()
@@ -475,7 +477,7 @@ class Store:
         )
 
         def fetch():
-            with self._reading() as conn:
+            with reading(self.engine) as conn:
                 return conn.execute(stmt).all()
 
         rows = self._guard(fetch)
@@ -484,25 +486,58 @@ class Store:
         return {row[0]: tuple(row[1:]) for row in rows}
 
     def entries(self, quantity: Optional[str] = None, stale: Optional[bool] = None) -> Iterator[StoredEntry]:
-        """Yield every stored row (optionally one quantity, or only stale/current versions)."""
+        """Yield every stored row, oldest first.
+
+        Parameters
+        ----------
+        quantity : str, optional
+            Only this quantity's rows.
+        stale : bool, optional
+            Only superseded versions (True) or only current ones (False).
+
+        Yields
+        ------
+        StoredEntry
+            Integrity checked (:attr:`StoredEntry.intact`), value decoded on demand.
+
+        Raises
+        ------
+        StoreError
+            When the database fails (a damaged file, say).
+
+        Notes
+        -----
+        Streamed in batches of 500 rows, so a large store needs little memory.
+        """
         if not self._schema_ready:
             return
         stmt = select(Result).order_by(Result.id)
         if quantity is not None:
             stmt = stmt.where(Result.quantity == quantity)
-
-        # streamed in batches, so exporting a large store needs little memory
         try:
             with Session(self.engine) as session:
                 for row in session.scalars(stmt.execution_options(yield_per=500)):
-                    entry = _entry(row)
-                    if stale is None or _is_stale(entry) == stale:
+                    entry = StoredEntry.from_row(row)
+                    if stale is None or entry.stale == stale:
                         yield entry
         except sa_exc.DBAPIError as error:
             raise self._translate(error) from None
 
     def stats(self) -> Dict[str, Any]:
-        """Counts by quantity and rule, stale rows, the largest value, time spent, file size."""
+        """Return counts by quantity and rule, stale rows, the largest value, time spent, file size.
+
+        Returns
+        -------
+        dict
+            ``store``, ``read_only``, ``schema_version``, ``entries``,
+            ``stale``, ``by_quantity`` (quantity -> rule -> count),
+            ``largest_digits``, ``total_digits``, ``compute_ns``, ``tables``,
+            and ``file_bytes`` (database plus WAL) for a file.
+
+        Notes
+        -----
+        Cost: one grouped scan of the results.
+        """
         out: Dict[str, Any] = {
             "store": self.name,
             "read_only": self.read_only,
@@ -523,7 +558,7 @@ class Store:
             return out
 
         def fetch():
-            with self._reading() as conn:
+            with reading(self.engine) as conn:
                 groups = conn.execute(
                     select(Result.quantity, Result.rule, Result.version, func.count(),
                            func.max(Result.digits), func.sum(Result.digits), func.sum(Result.elapsed_ns))
@@ -547,13 +582,31 @@ class Store:
 
     def verify(self, sample: Optional[int] = None, seed: Optional[int] = None,
                fix: bool = False, progress: Optional[Callable[[int, int], None]] = None) -> Dict[str, Any]:
-        """Recompute stored values (all, or a random *sample*) and report mismatches.
+        """Recompute stored values (all, or a random *sample*) and report the wrong ones.
 
-        Each row's checksum is checked, its value decoded and recomputed with
-        the pure function registered for its quantity; rows of quantities
-        without a recomputer, or of superseded versions, are counted as
-        skipped.  With *fix*, damaged or wrong rows are replaced by the
-        recomputed value.
+        Parameters
+        ----------
+        sample : int, optional
+            Check this many rows drawn at random (all when absent or larger).
+        seed : int, optional
+            Seed of the draw (the same seed draws the same rows).
+        fix : bool
+            Replace damaged or wrong rows by the recomputed value.
+        progress : callable, optional
+            Called as ``progress(done, total)`` before each row and at the end.
+
+        Returns
+        -------
+        dict
+            ``checked``, ``skipped`` (no recomputer, or a superseded
+            version), ``mismatches`` (one dict per wrong row: its key fields,
+            ``problem``, ``stored`` and ``expected`` texts) and ``fixed``.
+
+        Notes
+        -----
+        Each row is checked by :func:`~enumerator.store.entries.check_entry`.
+        Cost: one fresh computation per checked row; the rows' texts are held
+        in memory for the draw.
         """
         if not self._schema_ready:
             return {"checked": 0, "skipped": 0, "mismatches": [], "fixed": 0}
@@ -566,33 +619,18 @@ class Store:
         for i, entry in enumerate(rows):
             if progress is not None:
                 progress(i, len(rows))
-            recompute = recomputer(entry.quantity)
-            if recompute is None or _is_stale(entry):
+            check = check_entry(entry)
+            if check is None:
                 skipped += 1
                 continue
             checked += 1
-            model = model_from_key(entry.rule, entry.balls, entry.bounds)
-            t0 = time.perf_counter_ns()
-            fresh = recompute(model, entry.params)
-            spent = time.perf_counter_ns() - t0
-            problem = None
-            if not entry.intact:
-                problem = "damaged (checksum or digit count disagrees)"
-            else:
-                try:
-                    stored = entry.value
-                except (ValueError, TypeError):
-                    problem = "unreadable value"
-                else:
-                    if stored != fresh or type(stored) is not type(round_trip(fresh)):
-                        problem = "value differs from a fresh computation"
-            if problem is not None:
+            if check.problem is not None:
                 mismatches.append({
                     "quantity": entry.quantity, "rule": entry.rule, "balls": entry.balls,
                     "bounds": entry.bounds, "params": entry.params, "version": entry.version,
-                    "problem": problem, "stored": entry.text, "expected": encode_value(fresh)[1],
+                    "problem": check.problem, "stored": entry.text, "expected": encode_value(check.fresh)[1],
                 })
-                replacements.append((entry, fresh, spent))
+                replacements.append((entry, check.fresh, check.elapsed_ns))
         if progress is not None:
             progress(len(rows), len(rows))
         fixed = 0
@@ -606,7 +644,7 @@ class Store:
             return 0
 
         def attempt():
-            with self._writing() as conn:
+            with writing(self.engine) as conn:
                 for entry, fresh, spent in replacements:
                     key = Key(entry.rule, entry.balls, entry.bounds, entry.urns)
                     row = self._row(entry.quantity, key, entry.version, fresh, entry.params,
@@ -620,12 +658,32 @@ class Store:
                     )
             return len(replacements)
 
-        return self._retry(attempt)
+        return retry(attempt)
 
     def clear(self, quantity: Optional[str] = None, stale_only: bool = False) -> int:
-        """Delete stored rows (all, one quantity, or only superseded versions); return how many.
+        """Delete stored rows: all, one quantity's, or only superseded versions.
 
-        Clearing everything also forgets the lookup-table definitions.
+        Parameters
+        ----------
+        quantity : str, optional
+            Only this quantity's rows.
+        stale_only : bool
+            Only rows whose version is not their quantity's current one.
+
+        Returns
+        -------
+        int
+            How many rows were deleted.  Clearing everything also forgets
+            the lookup-table definitions.
+
+        Raises
+        ------
+        StoreError
+            When the store is read-only (nothing is deleted).
+
+        Notes
+        -----
+        One write transaction.
         """
         if not self._schema_ready:
             return 0
@@ -636,7 +694,7 @@ class Store:
             )
 
         def attempt():
-            with self._writing() as conn:
+            with writing(self.engine) as conn:
                 removed = 0
                 if stale_only:
                     groups = conn.execute(
@@ -656,11 +714,27 @@ class Store:
                     conn.execute(delete(LookupTable))
                 return removed
 
-        return self._guard(self._retry, attempt)
+        return self._guard(retry, attempt)
 
-    # -- lookup-table definitions (used by enumerator.tables) ----------------
+    # -- lookup-table definitions (used by enumerator.store.tables) ------------
     def save_table(self, values: dict) -> Optional[dict]:
-        """Register a table definition unless its name exists; return the stored one."""
+        """Register a table definition unless its name exists; return the stored one.
+
+        Parameters
+        ----------
+        values : dict
+            The ``enumerator_tables`` columns other than ``id`` and ``created_at``.
+
+        Returns
+        -------
+        dict
+            The definition stored under that name (an earlier one wins); on
+            a read-only store, *values* itself (with a warning, once).
+
+        Notes
+        -----
+        One write transaction and one read.
+        """
         values = dict(values, created_at=_now())
         if not self._schema_ready or self.read_only:
             self._warn_read_only("the table definition cannot be saved")
@@ -668,20 +742,20 @@ class Store:
         stmt = self._upsert(LookupTable, LookupTable.name)
 
         def attempt():
-            with self._writing() as conn:
+            with writing(self.engine) as conn:
                 if stmt is not None:
                     conn.execute(stmt, [values])
                 elif conn.execute(select(LookupTable.id).where(LookupTable.name == values["name"])).first() is None:
                     conn.execute(insert(LookupTable), [values])
 
         try:
-            self._guard(self._retry, attempt)
+            self._guard(retry, attempt)
         except sa_exc.IntegrityError:
             pass
         return self.table(values["name"])
 
     def table(self, name: str) -> Optional[dict]:
-        """The stored definition of the table *name*, or None."""
+        """Return the stored definition of the table *name* (a dict of its columns), or None."""
         if not self._schema_ready:
             return None
 
@@ -693,7 +767,7 @@ class Store:
         return self._guard(fetch)
 
     def tables(self) -> List[dict]:
-        """Every stored table definition, by name."""
+        """Return every stored table definition, by name."""
         if not self._schema_ready:
             return []
 
@@ -704,76 +778,27 @@ class Store:
         return self._guard(fetch)
 
     def delete_table(self, name: str) -> bool:
-        """Forget a table definition (its cells stay, shared with other lookups)."""
+        """Forget a table definition (its cells stay, shared with other lookups); True if it existed."""
         if not self._schema_ready or self.read_only:
             return False
 
         def attempt():
-            with self._writing() as conn:
+            with writing(self.engine) as conn:
                 return conn.execute(delete(LookupTable).where(LookupTable.name == name)).rowcount
 
-        return bool(self._guard(self._retry, attempt))
+        return bool(self._guard(retry, attempt))
 
     def export_lines(self, fmt: str = "jsonl") -> Iterator[str]:
         """Yield every stored row as text: ``csv`` (with a header) or ``jsonl``.
 
-        Exact values in full (decimal, ``p/q`` or canonical JSON); every
-        exact integer in JSON is a string of digits; the compute time is the
-        approximation ``seconds_approx``.
+        See :func:`~enumerator.store.entries.export_lines` (the format,
+        errors and cost); the rows are streamed from :meth:`entries`.
         """
-        fmt = str(fmt).lower()
-        if fmt not in EXPORT_ENTRY_FORMATS:
-            raise ValueError(f"format must be one of {', '.join(EXPORT_ENTRY_FORMATS)} (got {fmt!r})")
-        columns = ["quantity", "rule", "balls", "urns", "bounds", "params", "version", "kind",
-                   "value", "digits", "method", "seconds_approx", "created_at"]
-        if fmt == "csv":
-            import csv
-            import io
-
-            buffer = io.StringIO()
-            writer = csv.writer(buffer, lineterminator="\n")
-            writer.writerow(columns)
-            yield buffer.getvalue()
-            for entry in self.entries():
-                buffer.seek(0)
-                buffer.truncate()
-                writer.writerow(_export_fields(entry))
-                yield buffer.getvalue()
-            return
-        for entry in self.entries():
-            fields = _export_fields(entry)
-            record = dict(zip(columns, fields))
-            record["seconds_approx"] = entry.seconds_approx
-            yield json.dumps(record, ensure_ascii=False) + "\n"
+        yield from export_lines(self.entries(), fmt)
 
     def close(self) -> None:
-        """Release the engine's connections."""
+        """Release the engine's connections (the store reopens them if used again)."""
         self.engine.dispose()
-
-
-def _export_fields(entry: StoredEntry) -> list:
-    created = entry.created_at
-    if created is not None and created.tzinfo is None:
-        created = created.replace(tzinfo=timezone.utc)  # stored in UTC; SQLite drops the zone
-    created = created.isoformat() if created is not None else ""
-    return [entry.quantity, entry.rule, int_text(entry.balls), str(entry.urns), entry.bounds,
-            entry.params, str(entry.version), entry.kind, entry.text, str(entry.digits),
-            entry.method, f"{entry.seconds_approx:.6g}", created]
-
-
-def _is_stale(entry: StoredEntry) -> bool:
-    current = ALGORITHM_VERSIONS.get(entry.quantity)
-    return current is not None and current != entry.version
-
-
-def _entry(row: Result) -> StoredEntry:
-    digest = row.key_digest
-    intact = row_intact(digest, row.kind, row.value, row.digits, row.checksum)
-    return StoredEntry(
-        quantity=row.quantity, rule=row.rule, balls=row.balls, urns=row.urns, bounds=row.bounds,
-        params=row.params, version=row.version, kind=row.kind, text=row.value, digits=row.digits,
-        method=row.method, elapsed_ns=row.elapsed_ns, created_at=row.created_at, intact=intact,
-    )
 
 
 def _table_dict(row: LookupTable) -> dict:
@@ -782,4 +807,3 @@ def _table_dict(row: LookupTable) -> dict:
         "capacity": row.capacity, "balls_first": row.balls_first, "balls_last": row.balls_last,
         "urns_first": row.urns_first, "urns_last": row.urns_last, "created_at": row.created_at,
     }
-

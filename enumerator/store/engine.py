@@ -43,6 +43,8 @@ __all__ = [
     "BUSY_TIMEOUT",
     "DEFAULT_FILENAME",
     "LOCK_PATIENCE",
+    "enable_wal",
+    "explain_failure",
     "is_busy",
     "is_damaged",
     "is_readonly",
@@ -264,3 +266,64 @@ def is_damaged(error: BaseException) -> bool:
     """True when *error* says the file is not an SQLite database or is corrupt."""
     text = _driver_text(error)
     return "not a database" in text or "malformed" in text or "encrypted" in text
+
+
+def explain_failure(error: BaseException, name: str) -> StoreError:
+    """Return the one-line StoreError that says what went wrong with the store *name* and what to do.
+
+    Parameters
+    ----------
+    error : sqlalchemy.exc.DBAPIError
+        The driver's failure.
+    name : str
+        The store's path or URL (without a password).
+
+    Returns
+    -------
+    StoreError
+        For a damaged file, a lock held too long, or anything else (the
+        driver's own words in parentheses).
+    """
+    detail = " ".join(str(getattr(error, "orig", error)).split())
+    if is_damaged(error):
+        return StoreError(
+            f"the store {name} is damaged or is not an SQLite database ({detail}); "
+            "it only holds a cache, so move it aside or delete it, or choose another "
+            "store with --store or ENUMERATOR_STORE"
+        )
+    if is_busy(error):
+        return StoreError(
+            f"the store {name} stayed locked by another process for "
+            f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with --no-cache"
+        )
+    return StoreError(
+        f"cannot use the store {name} ({detail}); check the path or URL and its "
+        "permissions, choose another store with --store or ENUMERATOR_STORE, "
+        "or run with --no-cache"
+    )
+
+
+def enable_wal(engine: Engine) -> bool:
+    """Switch an SQLite file to WAL mode (readers never wait for the writer); False if it is read-only.
+
+    Notes
+    -----
+    Does nothing on other backends.  Cost: one pragma read, and one write
+    the first time (retried while another process holds the lock).
+    """
+    if engine.dialect.name != "sqlite":
+        return True
+
+    def switch():
+        with engine.connect() as conn:
+            mode = conn.exec_driver_sql("PRAGMA journal_mode").scalar()
+            if str(mode).lower() != "wal":
+                conn.exec_driver_sql("PRAGMA journal_mode = WAL")
+
+    try:
+        retry(switch)
+    except sa_exc.OperationalError as error:
+        if is_readonly(error):
+            return False
+        raise
+    return True
