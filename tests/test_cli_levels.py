@@ -184,3 +184,40 @@ def test_bad_input_exits_2_with_one_line(args, message):
     lines = result.stderr.strip().splitlines() if result.stderr else result.output.strip().splitlines()
     assert len(lines) == 1
     assert lines[0].startswith(message)
+
+
+# --------------------------------------------------------------------------
+# The render module on its own (enumerator.cli.render_levels)
+# --------------------------------------------------------------------------
+def test_contact_payload_encodes_exact_values():
+    from enumerator.algorithms.levels import einstein_solid, thermal_contact
+    from enumerator.cli.render_levels import contact_payload
+
+    # C(3 + q - 1, q) oscillator multiplicities, stars and bars (common practice)
+    payload = contact_payload(thermal_contact(einstein_solid(3), einstein_solid(3), 6))
+    assert payload == {
+        "total": "462",
+        "split": {"0": "28", "1": "63", "2": "90", "3": "100", "4": "90", "5": "63", "6": "28"},
+        "most_probable": 3,
+        "probability": {"0": "2/33", "1": "3/22", "2": "15/77", "3": "50/231", "4": "15/77", "5": "3/22", "6": "2/33"},
+    }
+
+
+def test_levels_payload_lists_every_energy_as_a_string_and_its_unit():
+    from enumerator.algorithms.levels import System, make_spectrum, multiplicities
+    from enumerator.cli.render_levels import levels_payload
+
+    # Two bosons on levels 0 and 2: totals 0, 2, 4 once each (by hand)
+    system = System.create(make_spectrum("0,2"), 2, "BE")
+    payload = levels_payload(system, multiplicities(system, 4))
+    assert payload == {"unit": "1", "multiplicity": {"0": "1", "1": "0", "2": "1", "3": "0", "4": "1"}}
+    halves = System.create(make_spectrum("0,1/2,1.5", "1,2,1"), 3, "BE")
+    assert levels_payload(halves, multiplicities(halves, 2))["unit"] == "1/2"
+
+
+def test_render_doctests():
+    import doctest
+
+    import enumerator.cli.render_levels as module
+
+    assert doctest.testmod(module).failed == 0

@@ -32,13 +32,11 @@ from enumerator.algorithms.levels import (
     System,
     canonical,
     canonical_occupations,
-    contact_payload,
     einstein_solid,
     grand_canonical,
     ground_energy,
     harmonic_oscillator,
     harmonic_trap,
-    levels_payload,
     make_spectrum,
     make_system,
     microcanonical,
@@ -268,7 +266,6 @@ def test_rational_energies_use_a_common_unit():
     system = System.create(spectrum, 3, "BE")
     integer = System.create(make_spectrum([0, 1, 3], [1, 2, 1]), 3, "BE")
     assert multiplicities(system, "7/2") == multiplicities(integer, 7)
-    assert levels_payload(system, multiplicities(system, 2))["unit"] == "1/2"
 
 
 def test_negative_energies_start_at_the_ground_state():
@@ -327,16 +324,6 @@ def test_contact_of_distinguishable_systems_is_the_combined_system():
     spectrum = make_spectrum("0,1,3", "2,1,2")
     contact = thermal_contact(System.create(spectrum, 4, "MB"), System.create(spectrum, 3, "MB"), 9)
     assert contact.total == multiplicities(System.create(spectrum, 7, "MB"), 9)[9]
-
-
-def test_contact_payload_encodes_exact_values():
-    payload = contact_payload(thermal_contact(einstein_solid(3), einstein_solid(3), 6))
-    assert payload == {
-        "total": "462",
-        "split": {"0": "28", "1": "63", "2": "90", "3": "100", "4": "90", "5": "63", "6": "28"},
-        "most_probable": 3,
-        "probability": {"0": "2/33", "1": "3/22", "2": "15/77", "3": "50/231", "4": "15/77", "5": "3/22", "6": "2/33"},
-    }
 
 
 # --------------------------------------------------------------------------
@@ -562,12 +549,6 @@ def test_malformed_input_is_an_error_that_says_what_to_change(kwargs, error, mes
 def test_infinite_ladder_needs_a_maximum_energy():
     with pytest.raises(InvalidParameters, match="--max-energy"):
         multiplicities(System.create(harmonic_trap(), 3, "BE"))
-
-
-def test_payload_lists_every_energy_as_a_string():
-    system = System.create(make_spectrum("0,2"), 2, "BE")
-    payload = levels_payload(system, multiplicities(system, 4))
-    assert payload == {"unit": "1", "multiplicity": {"0": "1", "1": "0", "2": "1", "3": "0", "4": "1"}}
 
 
 @pytest.mark.parametrize("name", ["", ".spectra", ".multiplicities", ".ensembles"])

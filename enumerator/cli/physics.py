@@ -1,8 +1,9 @@
 """``enumerator levels`` and ``enumerator contact``: particles on energy levels.
 
 Spectra, multiplicities, the ensembles and thermal contact are
-:mod:`enumerator.algorithms.levels`; this module parses the options and
-prints.  Neither command reads or writes the result store, so neither offers
+:mod:`enumerator.algorithms.levels`; this module parses the options, calls
+the library and hands the results to :mod:`enumerator.cli.render_levels`
+(one JSON object, tables or a plot).  Neither command reads or writes the result store, so neither offers
 ``--store``/``--no-cache``.
 """
 
@@ -14,7 +15,7 @@ from typing import Annotated, Optional
 import typer
 
 from .options import OUTPUT_PANEL, Json
-from .render import console, emit_json, exact, show_table
+from .render import emit_json
 
 __all__ = ["commands"]
 
@@ -76,20 +77,6 @@ def _level_system(particles, energies, degeneracies, rule, capacity, preset, lev
         capacity=capacity, preset=preset, levels=levels, dimension=dimension, gap=gap,
         oscillators=oscillators,
     )
-
-
-def _float_cell(x) -> str:
-    """A table cell for an approximate value: 6 significant digits, ``-`` for none.
-
-    Parameters
-    ----------
-    x : float, Fraction or None
-
-    Returns
-    -------
-    str
-    """
-    return "-" if x is None else f"{float(x):.6g}"
 
 
 @commands.command("levels")
@@ -175,13 +162,13 @@ def levels_command(
         $ enumerator levels --preset einstein --oscillators 3 --max-energy 6 --microcanonical
     """
     from ..algorithms import levels as lv
+    from . import render_levels
 
     system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
                            dimension, gap, oscillators)
-    unit = system.spectrum.unit
     if max_energy is not None and not system.spectrum.finite:
         top = lv.parse_rational(max_energy, "--max-energy")
-        listed = system.spectrum.through(_floor_fraction(top / unit))
+        listed = system.spectrum.through(_floor_fraction(top / system.spectrum.unit))
         system = lv.System(listed, system.particles, system.rule, system.capacity)
     counts = lv.multiplicities(system, max_energy)
     points = None
@@ -190,49 +177,11 @@ def levels_command(
         points = lv.canonical(system, values, digits=digits, levels=report_levels)
     micro_points = lv.microcanonical(system, max_energy) if micro else None
     if plot is not None:
-        lv.plot_levels(plot, system, counts, points or ())
+        render_levels.plot_levels(plot, system, counts, points or ())
     if as_json:
-        emit_json(lv.levels_payload(system, counts, points, micro_points))
+        emit_json(render_levels.levels_payload(system, counts, points, micro_points))
         return
-    unit_note = "" if unit == 1 else f" (energies in units of {unit})"
-    out = console()
-    if micro_points is not None:
-        rows = [[str(m.energy), exact(m.multiplicity), _float_cell(m.ln_multiplicity_approx),
-                 _float_cell(m.temperature_approx)] for m in micro_points]
-        columns = ["E", "Ω(N, E)", "ln Ω (approx)", "T (approx)"]
-    else:
-        rows = [[str(e), exact(v)] for e, v in counts.items()]
-        columns = ["E", "Ω(N, E)"]
-    if not rows:
-        out.print(f"{system.label}: no state has total energy at most {max_energy}.")
-    else:
-        show_table(f"Multiplicities: {system.label}{unit_note}", columns, rows)
-    for p in points or ():
-        out.print()
-        show_table(
-            f"Canonical ensemble at T = {float(p.temperature):g} ({p.digits} digits; k_B = 1)",
-            ["quantity", "value (approx)"],
-            [
-                ["ln Z", _float_cell(p.ln_partition_function_approx)],
-                ["mean energy U", _float_cell(p.mean_energy_approx)],
-                ["heat capacity C", _float_cell(p.heat_capacity_approx)],
-                ["free energy F", _float_cell(p.free_energy_approx)],
-                ["entropy S", _float_cell(p.entropy_approx)],
-                ["chemical potential (grand canonical)", _float_cell(p.chemical_potential_approx)],
-            ],
-        )
-        gc = p.grand_canonical_occupations_approx or [None] * len(p.occupations_approx)
-        show_table(
-            f"Mean level occupations at T = {float(p.temperature):g}",
-            ["level energy", "g", "canonical", "grand canonical", "difference"],
-            [
-                [str(system.spectrum.level_energy(i)), str(system.spectrum.degeneracies[i]),
-                 _float_cell(c), _float_cell(g), _float_cell(None if g is None else c - g)]
-                for i, (c, g) in enumerate(zip(p.occupations_approx, gc))
-            ],
-        )
-    if plot is not None:
-        out.print(f"plot: {plot}")
+    render_levels.show_levels(system, counts, points, micro_points, max_energy, plot)
 
 
 def _floor_fraction(value: Fraction) -> int:
@@ -338,6 +287,7 @@ def contact_command(
         $ enumerator contact --preset-a two-level --particles-a 10 --preset-b trap --particles-b 4 --rule-b BE --energy 12
     """
     from ..algorithms import levels as lv
+    from . import render_levels
 
     side_a = _level_system(particles_a, energies_a, degeneracies_a, rule_a or rule, capacity_a,
                            preset_a, levels_a, dimension_a, gap_a, oscillators_a)
@@ -345,29 +295,8 @@ def contact_command(
                            preset_b, levels_b, dimension_b, gap_b, oscillators_b)
     result = lv.thermal_contact(side_a, side_b, energy)
     if plot is not None:
-        lv.plot_contact(plot, result, side_a.label, side_b.label)
+        render_levels.plot_contact(plot, result, side_a.label, side_b.label)
     if as_json:
-        emit_json(lv.contact_payload(result))
+        emit_json(render_levels.contact_payload(result))
         return
-    out = console()
-    unit_note = "" if result.unit == 1 else f" (energies in units of {result.unit})"
-    if not result.split:
-        out.print(f"No microstate of A and B has total energy {energy}.")
-        return
-    rows = []
-    for ea, count in result.split.items():
-        p = result.probability.get(ea)
-        rows.append([str(ea), str(result.energy - ea), exact(count), _float_cell(p)])
-    show_table(
-        f"Thermal contact{unit_note}: A = {side_a.label}; B = {side_b.label}; total energy {result.energy}",
-        ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"],
-        rows,
-    )
-    if result.most_probable is not None:
-        p = result.probability[result.most_probable]
-        out.print(
-            f"total microstates: {exact(result.total)}\nmost probable split: E_A = {result.most_probable}, "
-            f"probability {exact(p)} (≈ {float(p):.6g})"
-        )
-    if plot is not None:
-        out.print(f"plot: {plot}")
+    render_levels.show_contact(result, side_a.label, side_b.label, energy, plot)

@@ -28,7 +28,6 @@ Boltzmann's constant ``k_B = 1``.
 
 from __future__ import annotations
 
-from ._reports import contact_payload, levels_payload, plot_contact, plot_levels
 from .ensembles import (
     DEFAULT_DIGITS,
     CanonicalPoint,
@@ -66,21 +65,17 @@ __all__ = [
     "System",
     "canonical",
     "canonical_occupations",
-    "contact_payload",
     "einstein_solid",
     "grand_canonical",
     "ground_energy",
     "harmonic_oscillator",
     "harmonic_trap",
-    "levels_payload",
     "make_spectrum",
     "make_system",
     "microcanonical",
     "multiplicities",
     "multiplicity_table",
     "parse_rational",
-    "plot_contact",
-    "plot_levels",
     "thermal_contact",
     "two_level",
 ]
