@@ -18,31 +18,34 @@ A marking variable ``u`` attached to the urns whose occupancy lies in a
 chosen set gives the bivariate function whose ``[x^n u^j]`` counts the
 outcomes with exactly ``j`` marked urns (Flajolet & Sedgewick §III.2).
 
-Numbers come from the project's exact series kernel (:mod:`enumerator.series`),
+Numbers come from the project's exact series kernel (:mod:`enumerator.core.series`),
 never from SymPy's ``series()``: :func:`coefficient_row` gives a model's
-counts for every ball number ``0..N`` in one pass, and
-:func:`extract_coefficients` expands a user-written expression (polynomials,
-products, integer powers, quotients) exactly.
+counts for every ball number ``0..N`` in one pass.  User-written expressions
+(:func:`parse_expression`, :func:`extract_coefficients`) are
+:mod:`enumerator.algorithms.expressions`, importable from here too.
+
+Which factor an urn contributes (ordinary or exponential) is the rule's
+:attr:`~enumerator.core.rules.RuleDescription.generating`; which urns a
+marking variable marks is the statistic's entry in the registry
+(:mod:`enumerator.algorithms.vocabulary`).
 """
 
 from __future__ import annotations
 
-import io
-import keyword
 import math
-import tokenize
 from collections import Counter
-from fractions import Fraction
-from typing import Dict, List, Optional, Tuple, Union
+from typing import List, Optional, Tuple
 
 import gmpy2
 import sympy
-from flint import fmpq, fmpq_poly, fmpz_poly
+from flint import fmpz_poly
 
 from ..core import series
-from ..core.errors import InvalidParameters, TooLarge
+from ..core.errors import InvalidParameters
 from ..core.model import UrnModel, as_count
 from ..core.rules import Rule
+from .expressions import extract_coefficients, parse_expression, plain_ints, symbol
+from .vocabulary import REGISTRY, parse_statistic
 
 __all__ = [
     "MARKS",
@@ -57,15 +60,9 @@ __all__ = [
 
 mpz = gmpy2.mpz
 
-#: The marking choices of :func:`bivariate_generating_function`.
-MARKS = ("empty", "occupied", "exactly:J", "atleast:J")
-
-#: Largest number of bits a single exact constant (or constant term of a
-#: power) may reach in :func:`extract_coefficients` before it refuses.
-MAX_CONSTANT_BITS = 10_000_000
-#: Largest estimated total size, in bits, of the coefficients of one
-#: truncated power in :func:`extract_coefficients`.
-MAX_POWER_BITS = 2**32
+#: The marking choices of :func:`bivariate_generating_function`: the statistics
+#: of the registry that count urns (those with a marking window).
+MARKS = tuple(entry.label for entry in REGISTRY.values() if entry.named and entry.marking is not None)
 
 
 # ---------------------------------------------------------------------------
@@ -73,18 +70,8 @@ MAX_POWER_BITS = 2**32
 # ---------------------------------------------------------------------------
 
 def kind(model: UrnModel) -> str:
-    """``"exponential"`` for MB (labelled balls), ``"ordinary"`` for BE and FD."""
-    return "exponential" if model.rule is Rule.MB else "ordinary"
-
-
-def _symbol(name, what: str = "var") -> sympy.Symbol:
-    if isinstance(name, sympy.Symbol):
-        return name
-    if not isinstance(name, str) or not name.isidentifier() or keyword.iskeyword(name):
-        raise InvalidParameters(
-            f"{what} must be a plain variable name such as x or z (got {name!r})"
-        )
-    return sympy.Symbol(name)
+    """``"exponential"`` for MB (labelled balls), ``"ordinary"`` for BE and FD (the rule's description)."""
+    return model.rule.generating
 
 
 def _ordinary_window(a: int, b: Optional[int], x) -> sympy.Expr:
@@ -106,10 +93,12 @@ def _exponential_window(a: int, b: Optional[int], x) -> sympy.Expr:
     return sympy.Add(*[x**k / sympy.factorial(k) for k in range(a, b + 1)])
 
 
+_WINDOWS = {"exponential": _exponential_window, "ordinary": _ordinary_window}
+
+
 def _window(rule: Rule, a: int, b: Optional[int], x) -> sympy.Expr:
-    if rule is Rule.MB:
-        return _exponential_window(a, b, x)
-    return _ordinary_window(a, b, x)
+    """One urn's factor ``sum_{k=a}^{b}`` of the rule's kind (ordinary or exponential)."""
+    return _WINDOWS[rule.generating](a, b, x)
 
 
 def generating_function(model: UrnModel, var="x") -> sympy.Expr:
@@ -127,7 +116,7 @@ def generating_function(model: UrnModel, var="x") -> sympy.Expr:
     >>> generating_function(UrnModel(balls=3, urns=4, rule="MB", minimum=1))
     (exp(x) - 1)**4
     """
-    x = _symbol(var)
+    x = symbol(var)
     groups = Counter(model.bounds)
     factors = [_window(model.rule, a, b, x) ** e for (a, b), e in sorted(groups.items(), key=_bound_key)]
     return sympy.Mul(*factors)
@@ -141,23 +130,44 @@ def _bound_key(item):
 def parse_mark(mark) -> Tuple[str, int]:
     """Parse a marking choice: ``empty``, ``occupied``, ``exactly:J`` or ``atleast:J``.
 
-    Returns ``("exactly", J)`` or ``("atleast", J)``: the urns holding
-    exactly (at least) ``J`` balls are marked; ``empty`` is ``exactly:0``
-    and ``occupied`` is ``atleast:1``.
+    Parameters
+    ----------
+    mark : str or (str, int)
+        A counting statistic of the registry (:data:`MARKS`), or the pair
+        ``("exactly", J)`` / ``("atleast", J)``.
+
+    Returns
+    -------
+    (str, int)
+        ``("exactly", J)`` or ``("atleast", J)``: the urns holding exactly
+        (at least) ``J`` balls are marked; ``empty`` is ``exactly:0`` and
+        ``occupied`` is ``atleast:1`` (each entry's marking window).
+
+    Raises
+    ------
+    InvalidParameters
+        for anything else, naming the choices.
+
+    Notes
+    -----
+    One registry look-up, ``O(len(mark))``.
+
+    Examples
+    --------
+    >>> parse_mark("occupied")
+    ('atleast', 1)
     """
     if isinstance(mark, tuple) and len(mark) == 2 and mark[0] in ("exactly", "atleast"):
         return mark[0], as_count(mark[1], "the occupancy J of the mark")
-    text = str(mark).strip().lower()
-    if text == "empty":
-        return "exactly", 0
-    if text == "occupied":
-        return "atleast", 1
-    name, sep, value = text.partition(":")
-    if sep and name in ("exactly", "atleast") and value.strip().isdigit():
-        return name, int(value)
-    raise InvalidParameters(
-        f"mark must be one of empty, occupied, exactly:J, atleast:J with J a whole number (got {mark!r})"
-    )
+    try:
+        stat = parse_statistic(str(mark).strip().lower())
+    except InvalidParameters:
+        stat = None
+    if stat is None or stat.entry.marking is None:
+        raise InvalidParameters(
+            f"mark must be one of {', '.join(MARKS)} with J a whole number (got {mark!r})"
+        )
+    return stat.entry.marking(stat.parameter)
 
 
 def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker="u") -> sympy.Expr:
@@ -173,8 +183,8 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
     >>> bivariate_generating_function(UrnModel(balls=3, urns=2, rule="BE"), "empty")
     (u - 1 + 1/(1 - x))**2
     """
-    x = _symbol(var)
-    u = _symbol(marker, "marker")
+    x = symbol(var)
+    u = symbol(marker, "marker")
     if u == x:
         raise InvalidParameters("the marker and the variable must be different names (say u and x)")
     how, j = parse_mark(mark)
@@ -185,7 +195,8 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
             if j < a or (b is not None and j > b):
                 factor = whole
             else:
-                weight = sympy.Rational(1, math.factorial(j)) if model.rule is Rule.MB else sympy.Integer(1)
+                exponential = model.rule.generating == "exponential"
+                weight = sympy.Rational(1, math.factorial(j)) if exponential else sympy.Integer(1)
                 factor = whole + (u - 1) * weight * x**j
         else:
             low = max(a, j)
@@ -202,19 +213,6 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
 # ---------------------------------------------------------------------------
 # coefficient rows of a model
 # ---------------------------------------------------------------------------
-
-def _ints(values) -> List[int]:
-    """``[int(v) for v in values]``, converting each shared object once (mirrored rows)."""
-    seen: Dict[int, int] = {}
-    out = []
-    for v in values:
-        key = id(v)
-        value = seen.get(key)
-        if value is None:
-            value = seen[key] = int(v)
-        out.append(value)
-    return out
-
 
 def _ordinary_row(bounds, top: int) -> List[int]:
     """``[x^m] prod_i (x^{a_i} + ... + x^{b_i})`` for ``m = 0..top``."""
@@ -240,7 +238,7 @@ def _ordinary_row(bounds, top: int) -> List[int]:
         first = series.from_coefficients(series.window_power_row(span, e, span_top, unbounded))
         factors = [first] + [series.power(series.window(0, s), k, span_top) for s, k in rest]
         values = series.coefficients(series.product(factors, span_top), span_top)
-    return [0] * low + _ints(values)
+    return [0] * low + plain_ints(values)
 
 
 def _exponential_row(bounds, top: int) -> List[int]:
@@ -315,600 +313,9 @@ def coefficient_row(model: UrnModel, upto=None, count: Optional[str] = None) -> 
     """
     top = model.balls if upto is None else as_count(upto, "upto")
     if count is None:
-        count = "microstates" if model.rule is Rule.MB else "configurations"
+        count = model.rule.description.outcomes
     if count not in ("configurations", "microstates"):
         raise InvalidParameters(f"count must be 'configurations' or 'microstates' (got {count!r})")
-    if model.rule is Rule.MB and count == "microstates":
+    if model.rule.generating == "exponential" and count == "microstates":
         return _exponential_row(model.bounds, top)
     return _ordinary_row(model.bounds, top)
-
-
-# ---------------------------------------------------------------------------
-# user-written expressions: safe parsing
-# ---------------------------------------------------------------------------
-
-_ALLOWED_OPS = {"+", "-", "*", "/", "**", "^", "(", ")"}
-
-
-def parse_expression(text: str, var="x") -> sympy.Expr:
-    """Parse *text* into an unevaluated SymPy expression in the one variable *var*.
-
-    Only whole numbers, the variable, ``+ - * /``, powers (``^`` or
-    ``**``) and parentheses are accepted; a number written next to the
-    variable or a parenthesis multiplies (``2x``, ``x(1+x)``,
-    ``(1-x)(1+x)``).  The text is tokenised and checked token by token before
-    anything is built, then handed to ``sympy.parse_expr`` with
-    ``evaluate=False``, a namespace holding only the variable and SymPy's
-    ``Integer``/``Add``/``Mul``/``Pow``, and no builtins — so no other
-    Python is ever run.  Errors name the offending text and its column.
-
-    >>> parse_expression("1/(1 - x - x^2)")
-    1/(-x**2 - x + 1)
-    """
-    x = _symbol(var)
-    name = x.name
-    if not isinstance(text, str):
-        raise InvalidParameters(f"the expression must be text (got {type(text).__name__})")
-    if not text.strip():
-        raise InvalidParameters(f"the expression is empty; write e.g. 1/(1 - {name} - {name}^2)")
-    hint = f"only the variable {name}, whole numbers, + - * / ^ and parentheses are allowed"
-    _check_parentheses(text)
-    pieces: List[str] = []
-    previous = None  # "number", "value" (the variable or ')'), or None after an operator
-    try:
-        tokens = list(tokenize.generate_tokens(io.StringIO(text).readline))
-    except (tokenize.TokenError, IndentationError, SyntaxError) as error:
-        raise InvalidParameters(f"cannot read the expression {text!r}: {error}; {hint}") from None
-    depth = 0
-    for tok in tokens:
-        kind_, string, (_, column) = tok.type, tok.string, tok.start
-        where = f"column {column + 1}"
-        if kind_ in (tokenize.NEWLINE, tokenize.NL, tokenize.ENDMARKER, tokenize.INDENT, tokenize.DEDENT):
-            continue
-        if kind_ == tokenize.NUMBER:
-            if not string.isdigit():
-                exact = ""
-                if "." in string or "e" in string.lower():
-                    exact = " (decimals are not exact: write a fraction such as 1/2)"
-                raise InvalidParameters(f"{where}: {string!r} is not a whole number{exact}; {hint}")
-            if previous == "number":
-                raise InvalidParameters(f"{where}: two numbers in a row; put an operator between them")
-            if previous:
-                pieces.append("*")
-            pieces.append(string)
-            previous = "number"
-        elif kind_ == tokenize.NAME:
-            if string != name:
-                what = "function" if _followed_by_paren(tokens, tok) else "name"
-                raise InvalidParameters(
-                    f"{where}: the {what} {string!r} is not allowed; {hint}"
-                    + (f" (the variable is {name}; change it with var=)" if what == "name" else ""),
-                    parameters=["var"] if what == "name" else (),
-                )
-            if previous:
-                pieces.append("*")
-            pieces.append(string)
-            previous = "value"
-        elif kind_ == tokenize.OP and string in _ALLOWED_OPS:
-            if string == "(":
-                if previous:
-                    pieces.append("*")
-                depth += 1
-                previous = None
-            elif string == ")":
-                depth -= 1
-                if depth < 0:
-                    raise InvalidParameters(f"{where}: ')' has no matching '('")
-                previous = "value"
-            else:
-                previous = None
-            pieces.append("**" if string == "^" else string)
-        else:
-            raise InvalidParameters(f"{where}: {string!r} is not allowed; {hint}")
-    if depth:
-        raise InvalidParameters(f"the expression {text!r} has {depth} unclosed '('")
-    from sympy.parsing.sympy_parser import auto_number, auto_symbol, parse_expr
-
-    namespace = {
-        "Integer": sympy.Integer,
-        "Symbol": sympy.Symbol,
-        "Add": sympy.Add,
-        "Mul": sympy.Mul,
-        "Pow": sympy.Pow,
-        "__builtins__": {},
-    }
-    try:
-        tree = parse_expr(
-            " ".join(pieces),
-            local_dict={name: x},
-            global_dict=namespace,
-            transformations=(auto_symbol, auto_number),
-            evaluate=False,
-        )
-    except (SyntaxError, TypeError, ValueError, tokenize.TokenError):
-        tree = None
-    if not isinstance(tree, sympy.Basic):
-        raise InvalidParameters(
-            f"the expression {text!r} is not well formed; check for a missing operand, "
-            f"operator or parenthesis; {hint}"
-        )
-    return tree
-
-
-def _check_parentheses(text: str) -> None:
-    """Point at the first unmatched parenthesis (tokenising would only say 'EOF')."""
-    opened: List[int] = []
-    for column, char in enumerate(text, start=1):
-        if char == "(":
-            opened.append(column)
-        elif char == ")":
-            if not opened:
-                raise InvalidParameters(f"column {column}: ')' has no matching '('")
-            opened.pop()
-    if opened:
-        raise InvalidParameters(f"column {opened[-1]}: '(' is never closed; add a ')'")
-
-
-def _followed_by_paren(tokens, tok) -> bool:
-    index = tokens.index(tok)
-    return index + 1 < len(tokens) and tokens[index + 1].string == "("
-
-
-# ---------------------------------------------------------------------------
-# user-written expressions: exact expansion by the series kernel
-# ---------------------------------------------------------------------------
-
-class _NeedPrecision(Exception):
-    """Internal: the working precision was too low; retry with more terms."""
-
-    def __init__(self, extra: int):
-        super().__init__(extra)
-        self.extra = extra
-
-
-class _Series:
-    """``x^val * poly + O(x^(val + prec))`` with ``poly(0) != 0``; ``prec=None``: exact.
-
-    A zero known only to ``O(x^k)`` is ``val=k, poly=0, prec=0``; the exact
-    zero is ``poly=0, prec=None``.  A series made by the window recurrence
-    keeps its integer coefficient list in ``row`` and builds ``poly`` only
-    when further arithmetic needs it.
-    """
-
-    __slots__ = ("val", "_poly", "prec", "row")
-
-    def __init__(self, val: int, poly: Optional[fmpq_poly], prec: Optional[int], row=None):
-        self.val, self._poly, self.prec, self.row = val, poly, prec, row
-
-    @property
-    def poly(self) -> fmpq_poly:
-        if self._poly is None:
-            self._poly = fmpq_poly(fmpz_poly(_ints(self.row)))
-        return self._poly
-
-    @property
-    def absolute(self):
-        return math.inf if self.prec is None else self.val + self.prec
-
-    def is_zero(self) -> bool:
-        """True for the zero series, exact or known only to ``O(x^k)``."""
-        if self._poly is None:
-            return not any(self.row)
-        return self._poly.is_zero()
-
-    def is_exact_zero(self) -> bool:
-        return self.prec is None and self.is_zero()
-
-
-def _normalise(val: int, poly: fmpq_poly, absolute, limit: int) -> _Series:
-    """Strip leading zero terms; keep an exact series exact while it fits below *limit*.
-
-    Anything at or above the working limit ``x^limit`` is dropped, and the
-    series then carries ``O(x^limit)``.
-    """
-    if poly.is_zero():
-        if absolute == math.inf:
-            return _Series(0, poly, None)
-        return _Series(int(min(absolute, limit)), fmpq_poly([]), 0)
-    shift = 0
-    while poly[shift] == 0:
-        shift += 1
-    if shift:
-        poly = poly.right_shift(shift)
-        val += shift
-    if absolute == math.inf and val + poly.length() <= limit:
-        return _Series(val, poly, None)
-    absolute = int(min(absolute, limit))
-    if val >= absolute:
-        return _Series(absolute, fmpq_poly([]), 0)
-    rel = absolute - val
-    if poly.length() > rel:
-        poly = poly.truncate(rel)
-    return _Series(val, poly, rel)
-
-
-class _Expander:
-    """Walk a SymPy expression tree, evaluating it in the truncated-series kernel."""
-
-    def __init__(self, x: sympy.Symbol, limit: int):
-        self.x = x
-        self.limit = limit
-        self.memo: Dict[sympy.Basic, _Series] = {}
-
-    # -- constructors ------------------------------------------------------
-    def constant(self, value: Fraction) -> _Series:
-        return _normalise(0, fmpq_poly([fmpq(value.numerator, value.denominator)]), math.inf, self.limit)
-
-    def laurent(self, terms: Dict[int, Fraction]) -> _Series:
-        terms = {k: c for k, c in terms.items() if c}
-        if not terms:
-            return _Series(0, fmpq_poly([]), None)
-        low = min(terms)
-        high = min(max(terms), self.limit - 1)
-        if high < low:
-            return _Series(self.limit, fmpq_poly([]), 0)
-        coeffs = [fmpq(0)] * (high - low + 1)
-        for k, c in terms.items():
-            if k <= high:
-                coeffs[k - low] = fmpq(c.numerator, c.denominator)
-        absolute = math.inf if max(terms) < self.limit else self.limit
-        return _normalise(low, fmpq_poly(coeffs), absolute, self.limit)
-
-    # -- arithmetic --------------------------------------------------------
-    def add(self, a: _Series, b: _Series) -> _Series:
-        if a.is_exact_zero():
-            return b
-        if b.is_exact_zero():
-            return a
-        absolute = min(a.absolute, b.absolute)
-        val = min(a.val, b.val)
-        pa = a.poly.left_shift(a.val - val) if a.val > val else a.poly
-        pb = b.poly.left_shift(b.val - val) if b.val > val else b.poly
-        return _normalise(val, pa + pb, absolute, self.limit)
-
-    def mul(self, a: _Series, b: _Series) -> _Series:
-        if a.is_exact_zero() or b.is_exact_zero():
-            return _Series(0, fmpq_poly([]), None)
-        val = a.val + b.val
-        precs = [p for p in (a.prec, b.prec) if p is not None]
-        rel = min(precs + [self.limit - val])
-        if rel <= 0:
-            # Nothing is known below the working limit beyond O(x^(val + rel)).
-            return _Series(min(val + max(rel, 0), self.limit), fmpq_poly([]), 0)
-        poly = a.poly.mul_low(b.poly, rel)
-        absolute = math.inf if not precs and a.poly.degree() + b.poly.degree() < rel else val + rel
-        return _normalise(val, poly, absolute, self.limit)
-
-    def inverse(self, a: _Series) -> _Series:
-        if a.is_exact_zero():
-            raise InvalidParameters("division by zero: a denominator of the expression is identically 0")
-        if a.is_zero():
-            # Only O(x^k) is known: the leading term lies beyond the working precision.
-            raise _NeedPrecision(max(16, self.limit // 2))
-        val = -a.val
-        rel = self.limit - val
-        if a.prec is not None:
-            rel = min(rel, a.prec)
-        if rel <= 0:
-            return _Series(self.limit, fmpq_poly([]), 0)
-        self._check_inverse(a.poly[0], rel)
-        return _normalise(val, series.inverse(a.poly, rel), val + rel, self.limit)
-
-    def power(self, a: _Series, k: int) -> _Series:
-        if k == 0:
-            return self.constant(Fraction(1))
-        if k < 0:
-            return self.power(self.inverse(a), -k)
-        if a.is_exact_zero():
-            return a
-        if a.is_zero():
-            if a.val > 0:
-                return _Series(min(self.limit, a.val * k), fmpq_poly([]), 0)
-            raise _NeedPrecision(max(16, self.limit // 2))
-        val = a.val * k
-        rel = self.limit - val
-        if a.prec is not None:
-            rel = min(rel, a.prec)
-        if rel <= 0:
-            return _Series(self.limit, fmpq_poly([]), 0)
-        self._check_power(a.poly, k, rel)
-        absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
-        if a.prec is None and a.poly.denom() == 1:
-            span = series._window_span(a.poly.numer())
-            if span is not None:
-                # (1 + x + ... + x^span)^k by the three-term recurrence: O(rel) operations.
-                row = series.window_power_row(span, k, rel - 1)
-                return _Series(val, None, None if absolute == math.inf else rel, row)
-        poly = _truncated_power(a.poly, k, rel)
-        absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
-        return _normalise(val, poly, absolute, self.limit)
-
-    # -- size guards -------------------------------------------------------
-    @staticmethod
-    def _check_inverse(c0, rel: int) -> None:
-        """Refuse a reciprocal whose coefficients would grow past :data:`MAX_POWER_BITS` in all."""
-        c = Fraction(int(c0.p), int(c0.q))
-        bits = max(abs(c.numerator).bit_length(), c.denominator.bit_length())
-        # [x^j] 1/(c0 + ...) carries c0^(j+1) in its denominator: about j*bits bits.
-        if bits > 1 and (bits - 1) * rel * rel // 2 > MAX_POWER_BITS:
-            raise TooLarge(
-                f"the reciprocal of a series with constant term {c} up to degree {rel - 1} would need "
-                f"about {(bits - 1) * rel * rel // 16 // 2**20:,} MiB; lower upto=, or use a "
-                "denominator with constant term 1 or -1",
-                parameters=["upto"],
-            )
-
-    @staticmethod
-    def _check_power(poly: fmpq_poly, k: int, rel: int) -> None:
-        """Refuse a truncated power whose coefficients would exceed :data:`MAX_POWER_BITS` in all.
-
-        Bound per coefficient: ``k log2 ||p||_1`` (the coefficient sum of
-        ``p^k``); with constant term 1 or -1 also ``j (log2(k + j) + log2 ||p||_1)``
-        (a binomial ``C(k + j, j)`` times the norm to the ``j``).
-        """
-        numer = poly.numer()
-        c0 = Fraction(int(numer[0]), int(poly.denom()))
-        _guard_constant_power(c0, k, "the constant term")  # the power's constant term is c0^k
-        norm_bits = sum(abs(int(c)) for c in numer.coeffs()).bit_length()
-        den_bits = int(poly.denom()).bit_length() - 1
-        per = k * norm_bits
-        if den_bits == 0 and abs(int(numer[0])) == 1:
-            per = min(per, rel * ((k + rel).bit_length() + norm_bits))
-        per += k * den_bits
-        if per * rel > MAX_POWER_BITS:
-            raise TooLarge(
-                f"raising a series to the power {k} up to degree {rel - 1} could need about "
-                f"{per * rel // 8 // 2**20:,} MiB of coefficients; lower upto= or the exponent",
-                parameters=["upto"],
-            )
-
-    # -- the tree walk -----------------------------------------------------
-    def expand(self, node) -> _Series:
-        cached = self.memo.get(node)
-        if cached is not None:
-            return cached
-        result = self._expand(node)
-        self.memo[node] = result
-        return result
-
-    def _expand(self, node) -> _Series:
-        x = self.x
-        if node.is_Rational:
-            return self.constant(Fraction(int(node.p), int(node.q)))
-        if node.is_Symbol:
-            if node == x:
-                return self.laurent({1: Fraction(1)})
-            raise InvalidParameters(
-                f"unknown symbol {node.name!r}: the expression may use only the variable {x.name}"
-            )
-        if node.is_Add:
-            terms: Dict[int, Fraction] = {}
-            rest = []
-            for arg in node.args:
-                mono = _monomial(arg, x)
-                if mono is None:
-                    rest.append(arg)
-                else:
-                    c, k = mono
-                    terms[k] = terms.get(k, Fraction(0)) + c
-            total = self.laurent(terms)
-            for arg in rest:
-                total = self.add(total, self.expand(arg))
-            return total
-        if node.is_Mul:
-            mono = _monomial(node, x)
-            if mono is not None:
-                return self.laurent({mono[1]: mono[0]})
-            result = self.constant(Fraction(1))
-            for arg in node.args:
-                result = self.mul(result, self.expand(arg))
-            return result
-        if node.is_Pow:
-            base, exponent = node.args
-            k = _integer_exponent(exponent, x)
-            if x not in base.free_symbols:
-                value = _constant_value(base, x)
-                if value == 0 and k < 0:
-                    raise InvalidParameters("division by zero: a denominator of the expression is 0")
-                _guard_constant_power(value, k)
-                return self.constant(value**k)
-            if base == x:
-                return self.laurent({k: Fraction(1)})
-            return self.power(self.expand(base), k)
-        raise InvalidParameters(_not_allowed(node, x))
-
-
-def _not_allowed(node, x) -> str:
-    allowed = f"build it from {x.name}, rational numbers, +, -, *, / and integer powers"
-    if node.is_Float:
-        return f"the decimal number {node} is not exact; write it as a fraction (e.g. 1/2); {allowed}"
-    if isinstance(node, sympy.Function) or getattr(node, "is_Function", False):
-        return f"the function {node.func.__name__}(...) is not allowed (only power series with rational coefficients built from polynomials); {allowed}"
-    return f"{node} (a {type(node).__name__}) is not allowed; {allowed}"
-
-
-def _monomial(node, x) -> Optional[Tuple[Fraction, int]]:
-    """``(c, k)`` when *node* is ``c * x^k`` with rational ``c`` and integer ``k``, else ``None``."""
-    if node.is_Rational:
-        return Fraction(int(node.p), int(node.q)), 0
-    if node == x:
-        return Fraction(1), 1
-    if node.is_Pow and node.args[0] == x and node.args[1].is_Integer:
-        return Fraction(1), int(node.args[1])
-    if node.is_Mul:
-        c, k = Fraction(1), 0
-        for arg in node.args:
-            if arg.is_Rational:
-                c *= Fraction(int(arg.p), int(arg.q))
-            elif arg == x:
-                k += 1
-            elif arg.is_Pow and arg.args[0] == x and arg.args[1].is_Integer:
-                k += int(arg.args[1])
-            elif arg.is_Pow and arg.args[0].is_Rational and arg.args[1].is_Integer:
-                value = Fraction(int(arg.args[0].p), int(arg.args[0].q))
-                e = int(arg.args[1])
-                if value == 0 and e < 0:
-                    return None  # the walker reports the division by zero
-                _guard_constant_power(value, e)
-                c *= value**e
-            else:
-                return None
-        return c, k
-    return None
-
-
-def _guard_constant_power(value: Fraction, k: int, what: str = "the constant") -> None:
-    bits = max(abs(value.numerator).bit_length(), value.denominator.bit_length())
-    if bits > 1 and (bits - 1) * abs(k) > MAX_CONSTANT_BITS:
-        raise TooLarge(
-            f"{what} {value} raised to the power {k} would have about {(bits - 1) * abs(k):,} bits; "
-            "use a smaller exponent"
-        )
-
-
-def _constant_value(node, x) -> Fraction:
-    """The exact rational value of an expression free of the variable."""
-    if node.is_Rational:
-        return Fraction(int(node.p), int(node.q))
-    if node.is_Add:
-        return sum((_constant_value(arg, x) for arg in node.args), Fraction(0))
-    if node.is_Mul:
-        value = Fraction(1)
-        for arg in node.args:
-            value *= _constant_value(arg, x)
-        return value
-    if node.is_Pow:
-        base, exponent = node.args
-        k = _integer_exponent(exponent, x)
-        value = _constant_value(base, x)
-        if value == 0 and k < 0:
-            raise InvalidParameters("division by zero: a denominator of the expression is 0")
-        _guard_constant_power(value, k)
-        return value**k
-    raise InvalidParameters(_not_allowed(node, x))
-
-
-def _integer_exponent(node, x) -> int:
-    """The exponent of a power: an exact integer constant, else a clear error."""
-    if x in node.free_symbols:
-        raise InvalidParameters(
-            f"the exponent {node} contains {x.name}; only constant integer exponents are allowed"
-        )
-    if node.is_Integer:
-        value = Fraction(int(node))
-    else:
-        value = _constant_value(node, x)
-    if value.denominator != 1:
-        raise InvalidParameters(
-            f"the exponent {node} is not a whole number; only integer powers give a power series "
-            "with rational coefficients"
-        )
-    k = value.numerator
-    if abs(k) > 10**12:
-        raise TooLarge(f"the exponent {k} is too large (at most 10^12 in absolute value)")
-    return k
-
-
-def _truncated_power(poly: fmpq_poly, k: int, length: int) -> fmpq_poly:
-    """``poly^k mod x^length``: the full power when it is short, else ``pow_trunc``.
-
-    Integer polynomials go through :func:`enumerator.series.power` (which
-    uses the window recurrence for ``1 + ... + x^s``); when the full power
-    is several times longer than needed FLINT's truncated power is used.
-    """
-    if poly.denom() == 1:
-        numer = poly.numer()
-        result = series.power(numer, k, length - 1)
-        if result.length() > length:
-            result = result.truncate(length)
-        return fmpq_poly(result)
-    if poly.degree() * k <= series.FULL_POWER_RATIO * length:
-        result = poly**k
-    else:
-        result = poly.pow_trunc(k, length)
-    return result.truncate(length) if result.length() > length else result
-
-
-def extract_coefficients(expr, upto, var="x") -> List[Union[int, Fraction]]:
-    r"""Expand a one-variable expression exactly and return ``[c_0, ..., c_upto]``.
-
-    *expr* is text (parsed by :func:`parse_expression`) or a SymPy
-    expression built from the variable, rational numbers, sums, products,
-    integer powers (negative ones included) and quotients.  The tree is
-    evaluated in truncated power series by the project's kernel — FLINT
-    polynomial products and powers, Newton's iteration for reciprocals
-    (:func:`enumerator.series.inverse`) — never by SymPy's ``series()``.
-    Each series carries its valuation, so dividing by a denominator with
-    zero constant term is fine as long as the result is a power series
-    (``x/(x - x^2)``); a genuine pole at 0 (a Laurent series such as
-    ``1/x``) raises :class:`~enumerator.errors.InvalidParameters`.  The
-    working precision grows and the walk repeats if cancellations ask for
-    more terms.
-
-    Returns Python ``int`` coefficients when every coefficient is an integer,
-    else ``fractions.Fraction`` for all of them (a constant term other than
-    ``±1`` in a denominator makes rational coefficients).
-
-    >>> extract_coefficients("1/(1 - x - x^2)", 10)
-    [1, 1, 2, 3, 5, 8, 13, 21, 34, 55, 89]
-    >>> extract_coefficients("1/(2 - x)", 3)
-    [Fraction(1, 2), Fraction(1, 4), Fraction(1, 8), Fraction(1, 16)]
-    """
-    x = _symbol(var)
-    top = as_count(upto, "upto")
-    if isinstance(expr, str):
-        tree = parse_expression(expr, x)
-    elif isinstance(expr, sympy.Basic):
-        tree = expr
-    elif isinstance(expr, (int, Fraction)) and not isinstance(expr, bool):
-        tree = sympy.Rational(expr.numerator, expr.denominator) if isinstance(expr, Fraction) else sympy.Integer(expr)
-    else:
-        raise InvalidParameters(
-            f"expr must be text or a SymPy expression (got {type(expr).__name__})"
-        )
-    target = top + 1
-    limit = target
-    ceiling = 2 * target + 10_000
-    while True:
-        try:
-            result = _Expander(x, limit).expand(tree)
-        except _NeedPrecision as need:
-            limit += need.extra
-        else:
-            if not result.is_zero() and result.val < 0:
-                raise InvalidParameters(
-                    f"the expression has a pole at {x.name} = 0: its expansion starts with "
-                    f"{x.name}^{result.val}, a Laurent series rather than a power series; "
-                    f"multiply it by {x.name}^{-result.val}"
-                )
-            if result.absolute >= target:
-                return _coefficients(result, top)
-            limit += target - int(result.absolute)
-        if limit > ceiling:
-            raise TooLarge(
-                f"expanding this expression to degree {top} needs more than {ceiling} working terms "
-                "(large cancellations or high negative powers); simplify it or lower upto=",
-                parameters=["upto"],
-            )
-
-
-def _coefficients(result: _Series, top: int) -> List[Union[int, Fraction]]:
-    values: List[Union[int, Fraction]] = [0] * (top + 1)
-    if result._poly is None:
-        span = min(len(result.row), top + 1 - result.val)
-        values[result.val : result.val + span] = _ints(result.row[:span])
-        return values
-    if result.poly.is_zero():
-        return values
-    poly = result.poly
-    denominator = int(poly.denom())
-    numer = poly.numer()
-    span = min(poly.length(), top + 1 - result.val)
-    if denominator == 1:
-        for i in range(span):
-            values[result.val + i] = int(numer[i])
-        return values
-    fractions = [Fraction(0)] * (top + 1)
-    for i in range(span):
-        fractions[result.val + i] = Fraction(int(numer[i]), denominator)
-    return fractions

@@ -1,0 +1,652 @@
+r"""User-written generating functions: safe parsing and exact expansion.
+
+:func:`parse_expression` reads a one-variable expression (whole numbers, the
+variable, ``+ - * /``, integer powers, parentheses) without running any
+other Python; :func:`extract_coefficients` expands it exactly in truncated
+power series by the project's kernel (:mod:`enumerator.core.series`: FLINT
+products and powers, Newton's iteration for reciprocals), never by SymPy's
+``series()``.  The generating functions of a model are
+:mod:`enumerator.algorithms.generating`.
+"""
+
+from __future__ import annotations
+
+import io
+import keyword
+import math
+import tokenize
+from fractions import Fraction
+from typing import Dict, List, Optional, Tuple, Union
+
+import sympy
+from flint import fmpq, fmpq_poly, fmpz_poly
+
+from ..core import series
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.model import as_count
+
+__all__ = ["MAX_CONSTANT_BITS", "MAX_POWER_BITS", "extract_coefficients", "parse_expression", "symbol"]
+
+#: Largest number of bits a single exact constant (or constant term of a
+#: power) may reach in :func:`extract_coefficients` before it refuses.
+MAX_CONSTANT_BITS = 10_000_000
+#: Largest estimated total size, in bits, of the coefficients of one
+#: truncated power in :func:`extract_coefficients`.
+MAX_POWER_BITS = 2**32
+
+
+def symbol(name, what: str = "var") -> sympy.Symbol:
+    """Return *name* as a SymPy symbol, or raise if it is not a plain variable name."""
+    if isinstance(name, sympy.Symbol):
+        return name
+    if not isinstance(name, str) or not name.isidentifier() or keyword.iskeyword(name):
+        raise InvalidParameters(
+            f"{what} must be a plain variable name such as x or z (got {name!r})"
+        )
+    return sympy.Symbol(name)
+
+
+
+def plain_ints(values) -> List[int]:
+    """``[int(v) for v in values]``, converting each shared object once (mirrored rows)."""
+    seen: Dict[int, int] = {}
+    out = []
+    for v in values:
+        key = id(v)
+        value = seen.get(key)
+        if value is None:
+            value = seen[key] = int(v)
+        out.append(value)
+    return out
+
+
+
+# ---------------------------------------------------------------------------
+# user-written expressions: safe parsing
+# ---------------------------------------------------------------------------
+
+_ALLOWED_OPS = {"+", "-", "*", "/", "**", "^", "(", ")"}
+
+
+def parse_expression(text: str, var="x") -> sympy.Expr:
+    """Parse *text* into an unevaluated SymPy expression in the one variable *var*.
+
+    Only whole numbers, the variable, ``+ - * /``, powers (``^`` or
+    ``**``) and parentheses are accepted; a number written next to the
+    variable or a parenthesis multiplies (``2x``, ``x(1+x)``,
+    ``(1-x)(1+x)``).  The text is tokenised and checked token by token before
+    anything is built, then handed to ``sympy.parse_expr`` with
+    ``evaluate=False``, a namespace holding only the variable and SymPy's
+    ``Integer``/``Add``/``Mul``/``Pow``, and no builtins — so no other
+    Python is ever run.  Errors name the offending text and its column.
+
+    >>> parse_expression("1/(1 - x - x^2)")
+    1/(-x**2 - x + 1)
+    """
+    x = symbol(var)
+    name = x.name
+    if not isinstance(text, str):
+        raise InvalidParameters(f"the expression must be text (got {type(text).__name__})")
+    if not text.strip():
+        raise InvalidParameters(f"the expression is empty; write e.g. 1/(1 - {name} - {name}^2)")
+    hint = f"only the variable {name}, whole numbers, + - * / ^ and parentheses are allowed"
+    _check_parentheses(text)
+    pieces: List[str] = []
+    previous = None  # "number", "value" (the variable or ')'), or None after an operator
+    try:
+        tokens = list(tokenize.generate_tokens(io.StringIO(text).readline))
+    except (tokenize.TokenError, IndentationError, SyntaxError) as error:
+        raise InvalidParameters(f"cannot read the expression {text!r}: {error}; {hint}") from None
+    depth = 0
+    for tok in tokens:
+        kind_, string, (_, column) = tok.type, tok.string, tok.start
+        where = f"column {column + 1}"
+        if kind_ in (tokenize.NEWLINE, tokenize.NL, tokenize.ENDMARKER, tokenize.INDENT, tokenize.DEDENT):
+            continue
+        if kind_ == tokenize.NUMBER:
+            if not string.isdigit():
+                exact = ""
+                if "." in string or "e" in string.lower():
+                    exact = " (decimals are not exact: write a fraction such as 1/2)"
+                raise InvalidParameters(f"{where}: {string!r} is not a whole number{exact}; {hint}")
+            if previous == "number":
+                raise InvalidParameters(f"{where}: two numbers in a row; put an operator between them")
+            if previous:
+                pieces.append("*")
+            pieces.append(string)
+            previous = "number"
+        elif kind_ == tokenize.NAME:
+            if string != name:
+                what = "function" if _followed_by_paren(tokens, tok) else "name"
+                raise InvalidParameters(
+                    f"{where}: the {what} {string!r} is not allowed; {hint}"
+                    + (f" (the variable is {name}; change it with var=)" if what == "name" else ""),
+                    parameters=["var"] if what == "name" else (),
+                )
+            if previous:
+                pieces.append("*")
+            pieces.append(string)
+            previous = "value"
+        elif kind_ == tokenize.OP and string in _ALLOWED_OPS:
+            if string == "(":
+                if previous:
+                    pieces.append("*")
+                depth += 1
+                previous = None
+            elif string == ")":
+                depth -= 1
+                if depth < 0:
+                    raise InvalidParameters(f"{where}: ')' has no matching '('")
+                previous = "value"
+            else:
+                previous = None
+            pieces.append("**" if string == "^" else string)
+        else:
+            raise InvalidParameters(f"{where}: {string!r} is not allowed; {hint}")
+    if depth:
+        raise InvalidParameters(f"the expression {text!r} has {depth} unclosed '('")
+    from sympy.parsing.sympy_parser import auto_number, auto_symbol, parse_expr
+
+    namespace = {
+        "Integer": sympy.Integer,
+        "Symbol": sympy.Symbol,
+        "Add": sympy.Add,
+        "Mul": sympy.Mul,
+        "Pow": sympy.Pow,
+        "__builtins__": {},
+    }
+    try:
+        tree = parse_expr(
+            " ".join(pieces),
+            local_dict={name: x},
+            global_dict=namespace,
+            transformations=(auto_symbol, auto_number),
+            evaluate=False,
+        )
+    except (SyntaxError, TypeError, ValueError, tokenize.TokenError):
+        tree = None
+    if not isinstance(tree, sympy.Basic):
+        raise InvalidParameters(
+            f"the expression {text!r} is not well formed; check for a missing operand, "
+            f"operator or parenthesis; {hint}"
+        )
+    return tree
+
+
+def _check_parentheses(text: str) -> None:
+    """Point at the first unmatched parenthesis (tokenising would only say 'EOF')."""
+    opened: List[int] = []
+    for column, char in enumerate(text, start=1):
+        if char == "(":
+            opened.append(column)
+        elif char == ")":
+            if not opened:
+                raise InvalidParameters(f"column {column}: ')' has no matching '('")
+            opened.pop()
+    if opened:
+        raise InvalidParameters(f"column {opened[-1]}: '(' is never closed; add a ')'")
+
+
+def _followed_by_paren(tokens, tok) -> bool:
+    index = tokens.index(tok)
+    return index + 1 < len(tokens) and tokens[index + 1].string == "("
+
+
+# ---------------------------------------------------------------------------
+# user-written expressions: exact expansion by the series kernel
+# ---------------------------------------------------------------------------
+
+class _NeedPrecision(Exception):
+    """Internal: the working precision was too low; retry with more terms."""
+
+    def __init__(self, extra: int):
+        super().__init__(extra)
+        self.extra = extra
+
+
+class _Series:
+    """``x^val * poly + O(x^(val + prec))`` with ``poly(0) != 0``; ``prec=None``: exact.
+
+    A zero known only to ``O(x^k)`` is ``val=k, poly=0, prec=0``; the exact
+    zero is ``poly=0, prec=None``.  A series made by the window recurrence
+    keeps its integer coefficient list in ``row`` and builds ``poly`` only
+    when further arithmetic needs it.
+    """
+
+    __slots__ = ("val", "_poly", "prec", "row")
+
+    def __init__(self, val: int, poly: Optional[fmpq_poly], prec: Optional[int], row=None):
+        self.val, self._poly, self.prec, self.row = val, poly, prec, row
+
+    @property
+    def poly(self) -> fmpq_poly:
+        if self._poly is None:
+            self._poly = fmpq_poly(fmpz_poly(plain_ints(self.row)))
+        return self._poly
+
+    @property
+    def absolute(self):
+        return math.inf if self.prec is None else self.val + self.prec
+
+    def is_zero(self) -> bool:
+        """True for the zero series, exact or known only to ``O(x^k)``."""
+        if self._poly is None:
+            return not any(self.row)
+        return self._poly.is_zero()
+
+    def is_exact_zero(self) -> bool:
+        return self.prec is None and self.is_zero()
+
+
+def _normalise(val: int, poly: fmpq_poly, absolute, limit: int) -> _Series:
+    """Strip leading zero terms; keep an exact series exact while it fits below *limit*.
+
+    Anything at or above the working limit ``x^limit`` is dropped, and the
+    series then carries ``O(x^limit)``.
+    """
+    if poly.is_zero():
+        if absolute == math.inf:
+            return _Series(0, poly, None)
+        return _Series(int(min(absolute, limit)), fmpq_poly([]), 0)
+    shift = 0
+    while poly[shift] == 0:
+        shift += 1
+    if shift:
+        poly = poly.right_shift(shift)
+        val += shift
+    if absolute == math.inf and val + poly.length() <= limit:
+        return _Series(val, poly, None)
+    absolute = int(min(absolute, limit))
+    if val >= absolute:
+        return _Series(absolute, fmpq_poly([]), 0)
+    rel = absolute - val
+    if poly.length() > rel:
+        poly = poly.truncate(rel)
+    return _Series(val, poly, rel)
+
+
+class _Expander:
+    """Walk a SymPy expression tree, evaluating it in the truncated-series kernel."""
+
+    def __init__(self, x: sympy.Symbol, limit: int):
+        self.x = x
+        self.limit = limit
+        self.memo: Dict[sympy.Basic, _Series] = {}
+
+    # -- constructors ------------------------------------------------------
+    def constant(self, value: Fraction) -> _Series:
+        return _normalise(0, fmpq_poly([fmpq(value.numerator, value.denominator)]), math.inf, self.limit)
+
+    def laurent(self, terms: Dict[int, Fraction]) -> _Series:
+        terms = {k: c for k, c in terms.items() if c}
+        if not terms:
+            return _Series(0, fmpq_poly([]), None)
+        low = min(terms)
+        high = min(max(terms), self.limit - 1)
+        if high < low:
+            return _Series(self.limit, fmpq_poly([]), 0)
+        coeffs = [fmpq(0)] * (high - low + 1)
+        for k, c in terms.items():
+            if k <= high:
+                coeffs[k - low] = fmpq(c.numerator, c.denominator)
+        absolute = math.inf if max(terms) < self.limit else self.limit
+        return _normalise(low, fmpq_poly(coeffs), absolute, self.limit)
+
+    # -- arithmetic --------------------------------------------------------
+    def add(self, a: _Series, b: _Series) -> _Series:
+        if a.is_exact_zero():
+            return b
+        if b.is_exact_zero():
+            return a
+        absolute = min(a.absolute, b.absolute)
+        val = min(a.val, b.val)
+        pa = a.poly.left_shift(a.val - val) if a.val > val else a.poly
+        pb = b.poly.left_shift(b.val - val) if b.val > val else b.poly
+        return _normalise(val, pa + pb, absolute, self.limit)
+
+    def mul(self, a: _Series, b: _Series) -> _Series:
+        if a.is_exact_zero() or b.is_exact_zero():
+            return _Series(0, fmpq_poly([]), None)
+        val = a.val + b.val
+        precs = [p for p in (a.prec, b.prec) if p is not None]
+        rel = min(precs + [self.limit - val])
+        if rel <= 0:
+            # Nothing is known below the working limit beyond O(x^(val + rel)).
+            return _Series(min(val + max(rel, 0), self.limit), fmpq_poly([]), 0)
+        poly = a.poly.mul_low(b.poly, rel)
+        absolute = math.inf if not precs and a.poly.degree() + b.poly.degree() < rel else val + rel
+        return _normalise(val, poly, absolute, self.limit)
+
+    def inverse(self, a: _Series) -> _Series:
+        if a.is_exact_zero():
+            raise InvalidParameters("division by zero: a denominator of the expression is identically 0")
+        if a.is_zero():
+            # Only O(x^k) is known: the leading term lies beyond the working precision.
+            raise _NeedPrecision(max(16, self.limit // 2))
+        val = -a.val
+        rel = self.limit - val
+        if a.prec is not None:
+            rel = min(rel, a.prec)
+        if rel <= 0:
+            return _Series(self.limit, fmpq_poly([]), 0)
+        self._check_inverse(a.poly[0], rel)
+        return _normalise(val, series.inverse(a.poly, rel), val + rel, self.limit)
+
+    def power(self, a: _Series, k: int) -> _Series:
+        if k == 0:
+            return self.constant(Fraction(1))
+        if k < 0:
+            return self.power(self.inverse(a), -k)
+        if a.is_exact_zero():
+            return a
+        if a.is_zero():
+            if a.val > 0:
+                return _Series(min(self.limit, a.val * k), fmpq_poly([]), 0)
+            raise _NeedPrecision(max(16, self.limit // 2))
+        val = a.val * k
+        rel = self.limit - val
+        if a.prec is not None:
+            rel = min(rel, a.prec)
+        if rel <= 0:
+            return _Series(self.limit, fmpq_poly([]), 0)
+        self._check_power(a.poly, k, rel)
+        absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
+        if a.prec is None and a.poly.denom() == 1:
+            span = series._window_span(a.poly.numer())
+            if span is not None:
+                # (1 + x + ... + x^span)^k by the three-term recurrence: O(rel) operations.
+                row = series.window_power_row(span, k, rel - 1)
+                return _Series(val, None, None if absolute == math.inf else rel, row)
+        poly = _truncated_power(a.poly, k, rel)
+        absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
+        return _normalise(val, poly, absolute, self.limit)
+
+    # -- size guards -------------------------------------------------------
+    @staticmethod
+    def _check_inverse(c0, rel: int) -> None:
+        """Refuse a reciprocal whose coefficients would grow past :data:`MAX_POWER_BITS` in all."""
+        c = Fraction(int(c0.p), int(c0.q))
+        bits = max(abs(c.numerator).bit_length(), c.denominator.bit_length())
+        # [x^j] 1/(c0 + ...) carries c0^(j+1) in its denominator: about j*bits bits.
+        if bits > 1 and (bits - 1) * rel * rel // 2 > MAX_POWER_BITS:
+            raise TooLarge(
+                f"the reciprocal of a series with constant term {c} up to degree {rel - 1} would need "
+                f"about {(bits - 1) * rel * rel // 16 // 2**20:,} MiB; lower upto=, or use a "
+                "denominator with constant term 1 or -1",
+                parameters=["upto"],
+            )
+
+    @staticmethod
+    def _check_power(poly: fmpq_poly, k: int, rel: int) -> None:
+        """Refuse a truncated power whose coefficients would exceed :data:`MAX_POWER_BITS` in all.
+
+        Bound per coefficient: ``k log2 ||p||_1`` (the coefficient sum of
+        ``p^k``); with constant term 1 or -1 also ``j (log2(k + j) + log2 ||p||_1)``
+        (a binomial ``C(k + j, j)`` times the norm to the ``j``).
+        """
+        numer = poly.numer()
+        c0 = Fraction(int(numer[0]), int(poly.denom()))
+        _guard_constant_power(c0, k, "the constant term")  # the power's constant term is c0^k
+        norm_bits = sum(abs(int(c)) for c in numer.coeffs()).bit_length()
+        den_bits = int(poly.denom()).bit_length() - 1
+        per = k * norm_bits
+        if den_bits == 0 and abs(int(numer[0])) == 1:
+            per = min(per, rel * ((k + rel).bit_length() + norm_bits))
+        per += k * den_bits
+        if per * rel > MAX_POWER_BITS:
+            raise TooLarge(
+                f"raising a series to the power {k} up to degree {rel - 1} could need about "
+                f"{per * rel // 8 // 2**20:,} MiB of coefficients; lower upto= or the exponent",
+                parameters=["upto"],
+            )
+
+    # -- the tree walk -----------------------------------------------------
+    def expand(self, node) -> _Series:
+        cached = self.memo.get(node)
+        if cached is not None:
+            return cached
+        result = self._expand(node)
+        self.memo[node] = result
+        return result
+
+    def _expand(self, node) -> _Series:
+        x = self.x
+        if node.is_Rational:
+            return self.constant(Fraction(int(node.p), int(node.q)))
+        if node.is_Symbol:
+            if node == x:
+                return self.laurent({1: Fraction(1)})
+            raise InvalidParameters(
+                f"unknown symbol {node.name!r}: the expression may use only the variable {x.name}"
+            )
+        if node.is_Add:
+            terms: Dict[int, Fraction] = {}
+            rest = []
+            for arg in node.args:
+                mono = _monomial(arg, x)
+                if mono is None:
+                    rest.append(arg)
+                else:
+                    c, k = mono
+                    terms[k] = terms.get(k, Fraction(0)) + c
+            total = self.laurent(terms)
+            for arg in rest:
+                total = self.add(total, self.expand(arg))
+            return total
+        if node.is_Mul:
+            mono = _monomial(node, x)
+            if mono is not None:
+                return self.laurent({mono[1]: mono[0]})
+            result = self.constant(Fraction(1))
+            for arg in node.args:
+                result = self.mul(result, self.expand(arg))
+            return result
+        if node.is_Pow:
+            base, exponent = node.args
+            k = _integer_exponent(exponent, x)
+            if x not in base.free_symbols:
+                value = _constant_value(base, x)
+                if value == 0 and k < 0:
+                    raise InvalidParameters("division by zero: a denominator of the expression is 0")
+                _guard_constant_power(value, k)
+                return self.constant(value**k)
+            if base == x:
+                return self.laurent({k: Fraction(1)})
+            return self.power(self.expand(base), k)
+        raise InvalidParameters(_not_allowed(node, x))
+
+
+def _not_allowed(node, x) -> str:
+    allowed = f"build it from {x.name}, rational numbers, +, -, *, / and integer powers"
+    if node.is_Float:
+        return f"the decimal number {node} is not exact; write it as a fraction (e.g. 1/2); {allowed}"
+    if isinstance(node, sympy.Function) or getattr(node, "is_Function", False):
+        return f"the function {node.func.__name__}(...) is not allowed (only power series with rational coefficients built from polynomials); {allowed}"
+    return f"{node} (a {type(node).__name__}) is not allowed; {allowed}"
+
+
+def _monomial(node, x) -> Optional[Tuple[Fraction, int]]:
+    """``(c, k)`` when *node* is ``c * x^k`` with rational ``c`` and integer ``k``, else ``None``."""
+    if node.is_Rational:
+        return Fraction(int(node.p), int(node.q)), 0
+    if node == x:
+        return Fraction(1), 1
+    if node.is_Pow and node.args[0] == x and node.args[1].is_Integer:
+        return Fraction(1), int(node.args[1])
+    if node.is_Mul:
+        c, k = Fraction(1), 0
+        for arg in node.args:
+            if arg.is_Rational:
+                c *= Fraction(int(arg.p), int(arg.q))
+            elif arg == x:
+                k += 1
+            elif arg.is_Pow and arg.args[0] == x and arg.args[1].is_Integer:
+                k += int(arg.args[1])
+            elif arg.is_Pow and arg.args[0].is_Rational and arg.args[1].is_Integer:
+                value = Fraction(int(arg.args[0].p), int(arg.args[0].q))
+                e = int(arg.args[1])
+                if value == 0 and e < 0:
+                    return None  # the walker reports the division by zero
+                _guard_constant_power(value, e)
+                c *= value**e
+            else:
+                return None
+        return c, k
+    return None
+
+
+def _guard_constant_power(value: Fraction, k: int, what: str = "the constant") -> None:
+    bits = max(abs(value.numerator).bit_length(), value.denominator.bit_length())
+    if bits > 1 and (bits - 1) * abs(k) > MAX_CONSTANT_BITS:
+        raise TooLarge(
+            f"{what} {value} raised to the power {k} would have about {(bits - 1) * abs(k):,} bits; "
+            "use a smaller exponent"
+        )
+
+
+def _constant_value(node, x) -> Fraction:
+    """The exact rational value of an expression free of the variable."""
+    if node.is_Rational:
+        return Fraction(int(node.p), int(node.q))
+    if node.is_Add:
+        return sum((_constant_value(arg, x) for arg in node.args), Fraction(0))
+    if node.is_Mul:
+        value = Fraction(1)
+        for arg in node.args:
+            value *= _constant_value(arg, x)
+        return value
+    if node.is_Pow:
+        base, exponent = node.args
+        k = _integer_exponent(exponent, x)
+        value = _constant_value(base, x)
+        if value == 0 and k < 0:
+            raise InvalidParameters("division by zero: a denominator of the expression is 0")
+        _guard_constant_power(value, k)
+        return value**k
+    raise InvalidParameters(_not_allowed(node, x))
+
+
+def _integer_exponent(node, x) -> int:
+    """The exponent of a power: an exact integer constant, else a clear error."""
+    if x in node.free_symbols:
+        raise InvalidParameters(
+            f"the exponent {node} contains {x.name}; only constant integer exponents are allowed"
+        )
+    if node.is_Integer:
+        value = Fraction(int(node))
+    else:
+        value = _constant_value(node, x)
+    if value.denominator != 1:
+        raise InvalidParameters(
+            f"the exponent {node} is not a whole number; only integer powers give a power series "
+            "with rational coefficients"
+        )
+    k = value.numerator
+    if abs(k) > 10**12:
+        raise TooLarge(f"the exponent {k} is too large (at most 10^12 in absolute value)")
+    return k
+
+
+def _truncated_power(poly: fmpq_poly, k: int, length: int) -> fmpq_poly:
+    """``poly^k mod x^length``: the full power when it is short, else ``pow_trunc``.
+
+    Integer polynomials go through :func:`enumerator.series.power` (which
+    uses the window recurrence for ``1 + ... + x^s``); when the full power
+    is several times longer than needed FLINT's truncated power is used.
+    """
+    if poly.denom() == 1:
+        numer = poly.numer()
+        result = series.power(numer, k, length - 1)
+        if result.length() > length:
+            result = result.truncate(length)
+        return fmpq_poly(result)
+    if poly.degree() * k <= series.FULL_POWER_RATIO * length:
+        result = poly**k
+    else:
+        result = poly.pow_trunc(k, length)
+    return result.truncate(length) if result.length() > length else result
+
+
+def extract_coefficients(expr, upto, var="x") -> List[Union[int, Fraction]]:
+    r"""Expand a one-variable expression exactly and return ``[c_0, ..., c_upto]``.
+
+    *expr* is text (parsed by :func:`parse_expression`) or a SymPy
+    expression built from the variable, rational numbers, sums, products,
+    integer powers (negative ones included) and quotients.  The tree is
+    evaluated in truncated power series by the project's kernel — FLINT
+    polynomial products and powers, Newton's iteration for reciprocals
+    (:func:`enumerator.series.inverse`) — never by SymPy's ``series()``.
+    Each series carries its valuation, so dividing by a denominator with
+    zero constant term is fine as long as the result is a power series
+    (``x/(x - x^2)``); a genuine pole at 0 (a Laurent series such as
+    ``1/x``) raises :class:`~enumerator.errors.InvalidParameters`.  The
+    working precision grows and the walk repeats if cancellations ask for
+    more terms.
+
+    Returns Python ``int`` coefficients when every coefficient is an integer,
+    else ``fractions.Fraction`` for all of them (a constant term other than
+    ``±1`` in a denominator makes rational coefficients).
+
+    >>> extract_coefficients("1/(1 - x - x^2)", 10)
+    [1, 1, 2, 3, 5, 8, 13, 21, 34, 55, 89]
+    >>> extract_coefficients("1/(2 - x)", 3)
+    [Fraction(1, 2), Fraction(1, 4), Fraction(1, 8), Fraction(1, 16)]
+    """
+    x = symbol(var)
+    top = as_count(upto, "upto")
+    if isinstance(expr, str):
+        tree = parse_expression(expr, x)
+    elif isinstance(expr, sympy.Basic):
+        tree = expr
+    elif isinstance(expr, (int, Fraction)) and not isinstance(expr, bool):
+        tree = sympy.Rational(expr.numerator, expr.denominator) if isinstance(expr, Fraction) else sympy.Integer(expr)
+    else:
+        raise InvalidParameters(
+            f"expr must be text or a SymPy expression (got {type(expr).__name__})"
+        )
+    target = top + 1
+    limit = target
+    ceiling = 2 * target + 10_000
+    while True:
+        try:
+            result = _Expander(x, limit).expand(tree)
+        except _NeedPrecision as need:
+            limit += need.extra
+        else:
+            if not result.is_zero() and result.val < 0:
+                raise InvalidParameters(
+                    f"the expression has a pole at {x.name} = 0: its expansion starts with "
+                    f"{x.name}^{result.val}, a Laurent series rather than a power series; "
+                    f"multiply it by {x.name}^{-result.val}"
+                )
+            if result.absolute >= target:
+                return _coefficients(result, top)
+            limit += target - int(result.absolute)
+        if limit > ceiling:
+            raise TooLarge(
+                f"expanding this expression to degree {top} needs more than {ceiling} working terms "
+                "(large cancellations or high negative powers); simplify it or lower upto=",
+                parameters=["upto"],
+            )
+
+
+def _coefficients(result: _Series, top: int) -> List[Union[int, Fraction]]:
+    values: List[Union[int, Fraction]] = [0] * (top + 1)
+    if result._poly is None:
+        span = min(len(result.row), top + 1 - result.val)
+        values[result.val : result.val + span] = plain_ints(result.row[:span])
+        return values
+    if result.poly.is_zero():
+        return values
+    poly = result.poly
+    denominator = int(poly.denom())
+    numer = poly.numer()
+    span = min(poly.length(), top + 1 - result.val)
+    if denominator == 1:
+        for i in range(span):
+            values[result.val + i] = int(numer[i])
+        return values
+    fractions = [Fraction(0)] * (top + 1)
+    for i in range(span):
+        fractions[result.val + i] = Fraction(int(numer[i]), denominator)
+    return fractions
