@@ -487,3 +487,66 @@ def test_model_from_key_inverts_the_canonical_bounds():
     ):
         again = results.model_from_key(model.rule.value, model.balls, model.canonical_bounds())
         assert again == model
+
+
+# -- threads ------------------------------------------------------------------
+
+def test_threads_opening_one_location_at_once_share_one_store(tmp_path, monkeypatch):
+    import threading
+
+    opened = []
+
+    class CountingStore(results.Store):
+        def __init__(self, location):
+            opened.append(location)
+            super().__init__(location)
+
+    monkeypatch.setattr(store_context, "Store", CountingStore)
+    where = str(tmp_path / "shared.sqlite")
+    barrier = threading.Barrier(8)
+    got = []
+
+    def opener():
+        barrier.wait()
+        got.append(results.open_store(where))
+
+    threads = [threading.Thread(target=opener) for _ in range(8)]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    assert len(opened) == 1 and len(got) == 8 and all(s is got[0] for s in got)
+
+
+def test_threads_sharing_one_store_get_exact_answers(store):
+    import threading
+
+    errors = []
+
+    def worker(offset):
+        try:
+            for n in range(offset, 40, 4):
+                model = Occupancy(balls=n, urns=5, rule="MB", capacity=9)
+                value = results.remember("microstates", model, lambda m=model: count_microstates(m), store=store)
+                # brute force where it is quick, the pure computation beyond
+                expected = _brute_microstates(n, [(0, 9)] * 5) if n < 12 else count_microstates(model)
+                assert value == expected
+        except Exception as error:  # collected, asserted below
+            errors.append(error)
+
+    threads = [threading.Thread(target=worker, args=(i % 4,)) for i in range(8)]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    assert errors == []
+    assert store.stats()["entries"] == 40  # each key stored once
+
+
+def test_the_store_modules_doctests_pass():
+    import doctest
+    import importlib
+
+    for name in ("codec", "keys", "schema", "migrations", "engine", "entries", "database", "context", "tables"):
+        module = importlib.import_module(f"enumerator.store.{name}")
+        assert doctest.testmod(module).failed == 0, name

@@ -43,6 +43,7 @@ from __future__ import annotations
 
 import logging
 import random
+import threading
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any, Callable, Dict, Iterable, Iterator, List, Optional, Tuple
@@ -119,13 +120,15 @@ class Store:
         self.url, self.path = resolve_location(self.location)
         self.read_only = self.path is not None and not writable(self.path)
         self._warned = False
+        self._warn_lock = threading.Lock()  # one warning even when threads fail together
         self._schema_ready = False
-        self._insert_stmt = None
         self._select_stmt = (
             select(Result.kind, Result.value, Result.digits, Result.checksum)
             .where(Result.key_digest == bindparam("digest"))
         )
         self.engine = make_engine(self.url, self.path, self.read_only, self.name)
+        # built once, up front, so threads sharing the store never race to build it
+        self._insert_stmt = self._upsert(Result, Result.key_digest)
         self._guard(self._initialise)
 
     # -- display ---------------------------------------------------------
@@ -152,13 +155,15 @@ class Store:
 
     def _warn_read_only(self, reason: str) -> None:
         self.read_only = True
-        if not self._warned:
+        with self._warn_lock:
+            if self._warned:
+                return
             self._warned = True
-            log.warning(
-                "enumerator: the store %s is read-only (%s); results are computed but not "
-                "saved. Point --store or ENUMERATOR_STORE at a writable place to keep them.",
-                self.name, reason,
-            )
+        log.warning(
+            "enumerator: the store %s is read-only (%s); results are computed but not "
+            "saved. Point --store or ENUMERATOR_STORE at a writable place to keep them.",
+            self.name, reason,
+        )
 
     # -- schema: create, check, upgrade --------------------------------------
     def _initialise(self) -> None:
@@ -273,19 +278,13 @@ class Store:
             return None
         return dialect_insert(model).on_conflict_do_nothing(index_elements=[unique_column])
 
-    def _insert(self):
-        if self._insert_stmt is None:
-            stmt = self._upsert(Result, Result.key_digest)
-            self._insert_stmt = False if stmt is None else stmt
-        return self._insert_stmt
-
     def _write_rows(self, rows: List[dict]) -> int:
         """Upsert *rows* in one transaction; return how many were new."""
-        stmt = self._insert()
+        stmt = self._insert_stmt
 
         def attempt():
             with writing(self.engine) as conn:
-                if stmt is not False:
+                if stmt is not None:
                     result = conn.execute(stmt, rows)
                     return result.rowcount if result.rowcount is not None and result.rowcount >= 0 else len(rows)
                 added = 0
