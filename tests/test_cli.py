@@ -24,7 +24,7 @@ from pathlib import Path
 
 import pytest
 import sympy
-from cli_helpers import run, run_json, runner
+from cli_helpers import one_line_error, run, run_json, runner
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -485,6 +485,43 @@ def test_store_option_remembers_and_no_cache_writes_nothing(tmp_path):
     untouched = tmp_path / "untouched.sqlite"
     assert run_json("count", "-n", 9, "-r", 4, "--store", str(untouched), "--no-cache") == fresh
     assert not untouched.exists()
+
+
+@pytest.mark.parametrize("command", ["count", "dist", "gf", "compare"])
+def test_commands_that_remember_results_offer_the_store_options(command):
+    result = run(command, "--help")
+    assert result.exit_code == 0
+    assert "--store" in result.stdout and "--no-cache" in result.stdout
+
+
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["prob", "-n", 3, "-r", 3, "--config", "2,0,1"],
+        ["list", "-n", 3, "-r", 2],
+        ["sample", "-n", 3, "-r", 2, "--size", 2, "--seed", 1],
+        ["ways", "-n", 3, "-r", 2],
+        ["levels", "--particles", 2, "--energies", "0,1", "--max-energy", 2],
+        ["contact", "--oscillators-a", 2, "--oscillators-b", 2, "--quanta", 3],
+    ],
+    ids=lambda args: args[0],
+)
+def test_commands_that_remember_nothing_offer_no_store_options(args, tmp_path):
+    # They never read or write the store, so --store would only create an empty file.
+    target = tmp_path / "never.sqlite"
+    for extra in (["--store", str(target)], ["--no-cache"]):
+        assert "No such option" in one_line_error(run(*args, *extra))
+    assert run(*args).exit_code == 0
+    assert not target.exists()
+
+
+def test_sample_never_writes_the_store(tmp_path):
+    target = tmp_path / "default.sqlite"
+    for method in (None, "sequential"):
+        args = ["sample", "-n", 12, "-r", 5, "--capacity", 4, "--size", 20, "--seed", 3, "--json"]
+        result = run(*args, *(["--method", method] if method else []), env={"ENUMERATOR_STORE": str(target)})
+        assert result.exit_code == 0, result.output
+    assert not target.exists()
 
 
 def test_unusable_store_url_is_bad_input():

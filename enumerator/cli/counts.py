@@ -1,7 +1,5 @@
 """``count``, ``prob``, ``dist`` and ``list``: counts, probabilities, laws and listings of one model."""
 
-from __future__ import annotations
-
 from typing import Annotated, Optional
 
 import typer
@@ -104,8 +102,6 @@ def prob_command(
     minimum: Minimum = None,
     bounds: Bounds = None,
     limit: EventLimit = None,
-    store: Store = None,
-    no_cache: NoCache = False,
     as_json: Json = False,
 ) -> None:
     """Give the exact probability of one occupancy vector, or of an event, under the rule.
@@ -132,38 +128,38 @@ def prob_command(
             'give exactly one of --config (one occupancy vector, e.g. 2,0,1) '
             'or --event (an event, e.g. "max <= 1")'
         )
-    with store_scope(store, no_cache):
-        model = build_model(balls, urns, rule, capacity, minimum, bounds)
-        if event is not None:
-            from ..algorithms.events import event_probability
+    # The facade does not remember probabilities, so prob offers no --store/--no-cache.
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    if event is not None:
+        from ..algorithms.events import event_probability
 
-            probability = event_probability(model, event, limit=_limit(limit))
-            field, text, title = "event", event, f"{describe(model)}; event {event}"
-        else:
-            vector = parse_config(config)
-            probability = model.probability(vector)
-            text = ",".join(map(str, vector))
-            field, title = "config", f"{describe(model)}; configuration ({text})"
-        if as_json:
-            emit_json(
-                {
-                    "rule": model.rule.value,
-                    "balls": exact(model.balls),
-                    "urns": exact(model.urns),
-                    field: text,
-                    "probability": exact(probability),
-                    "approx": approx(probability),
-                }
-            )
-            return
-        show_table(
-            title,
-            ["quantity", "value"],
-            [
-                ["probability (exact)", exact(probability)],
-                ["probability (approx)", f"{approx(probability):.6g}"],
-            ],
+        probability = event_probability(model, event, limit=_limit(limit))
+        field, text, title = "event", event, f"{describe(model)}; event {event}"
+    else:
+        vector = parse_config(config)
+        probability = model.probability(vector)
+        text = ",".join(map(str, vector))
+        field, title = "config", f"{describe(model)}; configuration ({text})"
+    if as_json:
+        emit_json(
+            {
+                "rule": model.rule.value,
+                "balls": exact(model.balls),
+                "urns": exact(model.urns),
+                field: text,
+                "probability": exact(probability),
+                "approx": approx(probability),
+            }
         )
+        return
+    show_table(
+        title,
+        ["quantity", "value"],
+        [
+            ["probability (exact)", exact(probability)],
+            ["probability (approx)", f"{approx(probability):.6g}"],
+        ],
+    )
 
 
 def _limit(limit: Optional[int]) -> int:
@@ -276,8 +272,6 @@ def list_command(
             "jsonl: one JSON array of integers per line.",
         ),
     ] = ListFormat.csv,
-    store: Store = None,
-    no_cache: NoCache = False,
     as_json: Json = False,
 ) -> None:
     """List the admissible occupancy vectors in lexicographic order, streaming.
@@ -293,16 +287,15 @@ def list_command(
         $ enumerator list -n 3 -r 3 --rule BE
         $ enumerator list -n 20 -r 6 --start 1000 --limit 5 --format jsonl
     """
-    with store_scope(store, no_cache):
-        model = build_model(balls, urns, rule, capacity, minimum, bounds)
-        start = as_count(start, "--start")
-        if stop is not None:
-            stop = as_count(stop, "--stop")
-        if limit is not None:
-            limit = as_count(limit, "--limit")
-            stop = start + limit if stop is None else min(stop, start + limit)
-        blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
-        head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
-            model.rule.value, model.balls, model.urns, start)
-        write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")
-
+    # A listing streams and is never remembered: no --store/--no-cache.
+    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    start = as_count(start, "--start")
+    if stop is not None:
+        stop = as_count(stop, "--stop")
+    if limit is not None:
+        limit = as_count(limit, "--limit")
+        stop = start + limit if stop is None else min(stop, start + limit)
+    blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
+    head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
+        model.rule.value, model.balls, model.urns, start)
+    write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")

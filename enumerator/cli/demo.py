@@ -1,7 +1,5 @@
 """``demo``: the whole job on an invented scenario, gas molecules on catalyst sites."""
 
-from __future__ import annotations
-
 from fractions import Fraction
 
 import typer

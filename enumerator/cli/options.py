@@ -22,6 +22,7 @@ from typing import Annotated, Iterator, Optional
 import typer
 
 from ..core.errors import InvalidConfiguration
+from ..core.model import UrnModel
 from ..core.rules import Rule
 from ..facade import Occupancy
 
@@ -40,6 +41,7 @@ __all__ = [
     "Store",
     "Urns",
     "build_model",
+    "build_problem",
     "parse_config",
     "store_scope",
 ]
@@ -178,14 +180,41 @@ def build_model(
     -----
     Cost: the model's validation, linear in the length of ``--bounds``.
     """
-    return Occupancy(
-        balls=balls,
-        urns=urns,
-        rule=rule,
-        capacity=capacity,
-        minimum=minimum,
-        bounds=bounds,
-    )
+    return Occupancy(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds)
+
+
+def build_problem(
+    balls: int,
+    urns: Optional[int] = None,
+    rule: "Rule | str" = Rule.MB,
+    capacity: Optional[int] = None,
+    minimum: Optional[int] = None,
+    bounds: Optional[str] = None,
+) -> UrnModel:
+    """Return the bare problem description of the shared model options, for commands that never use the store.
+
+    Parameters
+    ----------
+    balls, urns, rule, capacity, minimum, bounds
+        As for :func:`build_model`.
+
+    Returns
+    -------
+    UrnModel
+        The validated model without the facade's remembered methods, so
+        nothing done with it can read or write the result store (``sample``
+        uses it: draws are never remembered).
+
+    Raises
+    ------
+    InvalidParameters
+        Malformed input, with the same messages as :func:`build_model`.
+
+    Notes
+    -----
+    Cost: the model's validation, linear in the length of ``--bounds``.
+    """
+    return UrnModel(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds)
 
 
 @contextmanager

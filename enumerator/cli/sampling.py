@@ -1,7 +1,5 @@
 """``sample``: exact random draws from the rule's law, streamed (never through the result store)."""
 
-from __future__ import annotations
-
 from typing import Annotated, Optional
 
 import typer
@@ -16,7 +14,7 @@ from .options import (
     Minimum,
     RuleOpt,
     Urns,
-    build_model,
+    build_problem,
 )
 from .render import write_vectors
 
@@ -75,7 +73,8 @@ def sample_command(
 
     from ..algorithms.sampling import iter_sample_blocks, sampling_method
 
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    # The bare description, not the facade: draws never go through the result store.
+    model = build_problem(balls, urns, rule, capacity, minimum, bounds)
     size = as_count(size, "--size")
     seed = secrets.randbits(63) if seed is None else as_count(seed, "--seed")
     stream = iter_sample_blocks(model, size, seed, method)

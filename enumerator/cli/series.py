@@ -1,7 +1,5 @@
 """``gf`` and ``coeff``: generating functions of a model, and exact coefficients of any series."""
 
-from __future__ import annotations
-
 import sys
 from typing import Annotated, Optional
 

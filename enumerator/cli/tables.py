@@ -1,7 +1,5 @@
 """``table ...`` and ``cache ...``: lookup tables and the result store (the work is in :mod:`enumerator.store`)."""
 
-from __future__ import annotations
-
 import sys
 from enum import Enum
 from typing import Annotated, Iterable, Optional

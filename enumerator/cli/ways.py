@@ -1,20 +1,11 @@
 """``ways``: the twelvefold way of n balls into r urns."""
 
-from __future__ import annotations
-
 from typing import Annotated
 
 import typer
 
 from ..core.model import as_count
-from .options import (
-    MODEL_PANEL,
-    Balls,
-    Json,
-    NoCache,
-    Store,
-    store_scope,
-)
+from .options import MODEL_PANEL, Balls, Json
 from .render import emit_json, exact, show_table
 
 __all__ = ["commands"]
@@ -32,8 +23,6 @@ def ways_command(
         int,
         typer.Option("--urns", "-r", help="Number of urns r, >= 1.", rich_help_panel=MODEL_PANEL),
     ],
-    store: Store = None,
-    no_cache: NoCache = False,
     as_json: Json = False,
 ) -> None:
     """Print the twelvefold way: n balls into r urns, twelve exact counts.
@@ -48,39 +37,41 @@ def ways_command(
         $ enumerator ways -n 5 -r 3
         $ enumerator ways -n 5 -r 3 --json
     """
-    with store_scope(store, no_cache):
-        from ..algorithms.counting import twelvefold
+    # The twelvefold way is not a remembered quantity of the facade, so this
+    # command never touches the store and offers no --store/--no-cache (an
+    # option that only created an empty store file would mislead).
+    from ..algorithms.counting import twelvefold
 
-        n = as_count(balls, "balls")
-        r = as_count(urns, "urns", 1)
-        ways = twelvefold(n, r)
-        if as_json:
-            emit_json(
-                {
-                    "balls": exact(n),
-                    "urns": exact(r),
-                    "ways": [
-                        {
-                            "balls": way["balls"],
-                            "urns": way["urns"],
-                            "per_urn": way["per_urn"],
-                            "count": exact(way["count"]),
-                        }
-                        for way in ways
-                    ],
-                }
-            )
-            return
-        lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
-        rows = [
-            [f"{ball_kind} balls, {urn_kind} urns"]
-            + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
-            for ball_kind in ("labelled", "unlabelled")
-            for urn_kind in ("labelled", "unlabelled")
-        ]
-        show_table(
-            f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
-            ["balls and urns"] + [title for _, title in _PER_URN],
-            rows,
+    n = as_count(balls, "balls")
+    r = as_count(urns, "urns", 1)
+    ways = twelvefold(n, r)
+    if as_json:
+        emit_json(
+            {
+                "balls": exact(n),
+                "urns": exact(r),
+                "ways": [
+                    {
+                        "balls": way["balls"],
+                        "urns": way["urns"],
+                        "per_urn": way["per_urn"],
+                        "count": exact(way["count"]),
+                    }
+                    for way in ways
+                ],
+            }
         )
+        return
+    lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
+    rows = [
+        [f"{ball_kind} balls, {urn_kind} urns"]
+        + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+        for ball_kind in ("labelled", "unlabelled")
+        for urn_kind in ("labelled", "unlabelled")
+    ]
+    show_table(
+        f"The twelvefold way: {n} balls into {r} urns (columns: balls per urn)",
+        ["balls and urns"] + [title for _, title in _PER_URN],
+        rows,
+    )
 
