@@ -296,15 +296,36 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
                 progress: Optional[Callable[[int, int, int], None]] = None) -> BuildReport:
     """Fill every cell of *spec* into the store, one generating-function pass per row.
 
-    :param spec: the table (:meth:`TableSpec.make`).
-    :param name: its name (default :meth:`TableSpec.default_name`).
-    :param store: a store or location (default: the current store).
-    :param progress: called after each row as ``progress(urns, computed, reused)``.
+    Parameters
+    ----------
+    spec : TableSpec
+        The table (:meth:`TableSpec.make`).
+    name : str, optional
+        Its name (default :meth:`TableSpec.default_name`).
+    store : Store or location, optional
+        Where to build it (default: the current store).
+    progress : callable, optional
+        Called after each row as ``progress(urns, computed, reused)``.
 
+    Returns
+    -------
+    BuildReport
+        Cells computed now, found stored, newly stored, rows computed, time.
+
+    Raises
+    ------
+    InvalidParameters
+        When a table of that name exists with another definition.
+    StoreError
+        When the store is switched off or fails.
+
+    Notes
+    -----
     Cells already stored (by an earlier or a concurrent build, or by single
     lookups) are not recomputed; each row is committed as soon as it is
     computed, so an interrupted build loses at most the row in progress.
-    A name that exists with another definition raises InvalidParameters.
+    Cost: one generating-function pass per row with a missing cell (see the
+    module docstring) and one write transaction per such row.
     """
     target = _need_store(store)
     name = name or spec.default_name()
@@ -481,15 +502,29 @@ def _latex_escape(text: str) -> str:
 # ---------------------------------------------------------------------------
 
 def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], object]]:
-    """Named zero-argument workloads for the benchmark harness, each on a fresh store.
+    """Return named zero-argument workloads for the benchmark harness (``scripts/bench.py``).
 
-    ``warm_lookup``: one ``microstates`` answered from the store (a new
-    model each call, given the store explicitly, so neither an instance's
-    memory nor ``ENUMERATOR_NO_CACHE`` plays a part);
-    ``table_cold``: the 201 x 50 BE table built into an empty store;
-    ``table_warm``: the same build again, every cell found stored;
-    ``cold_count_stored`` / ``cold_count_pure``: a count of ~10+ ms with the
-    store (a fresh key each call) and without it, to measure the overhead.
+    Parameters
+    ----------
+    directory : str, optional
+        Where the workloads' store files go (default: a new temporary folder).
+
+    Returns
+    -------
+    dict of str to callable
+        ``warm_lookup``: one ``microstates`` answered from the store (a new
+        model each call, given the store explicitly, so neither an
+        instance's memory nor ``ENUMERATOR_NO_CACHE`` plays a part);
+        ``table_cold``: the 201 x 50 BE table built into a new, empty store
+        file; ``table_warm``: the same build again, every cell found
+        stored; ``cold_count_stored`` / ``cold_count_pure``: a count of
+        ~10+ ms with the store (a fresh key each call) and without it, to
+        measure the overhead.
+
+    Notes
+    -----
+    Setting up computes the warm lookup once and builds the warm table
+    (about a second).  Timings belong to the harness, never to tests.
     """
     from functools import partial
 
@@ -512,8 +547,12 @@ def bench_workloads(directory: Optional[str] = None) -> Dict[str, Callable[[], o
 
     def table_cold():
         counter["cold"] += 1
-        fresh = open_store(str(root / f"table-{counter['cold']}.sqlite"))
-        return build_table(spec, store=fresh)
+        # a new file each call, opened and closed here (not kept open for the process)
+        fresh = Store(str(root / f"table-{counter['cold']}.sqlite"))
+        try:
+            return build_table(spec, store=fresh)
+        finally:
+            fresh.close()
 
     warm_store = open_store(str(root / "table-warm.sqlite"))
     build_table(spec, store=warm_store)
