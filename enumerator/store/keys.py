@@ -21,9 +21,10 @@ import hashlib
 import operator
 import zlib
 from dataclasses import dataclass
-from typing import Any, Callable, Dict, Optional, Tuple
+from typing import Any, Callable, Dict, Optional
 
 from ..core.exact import int_text
+from ..core.model import UrnModel
 from .codec import digit_count
 
 __all__ = [
@@ -31,7 +32,6 @@ __all__ = [
     "Key",
     "key_digest",
     "model_from_key",
-    "parse_canonical_bounds",
     "recomputer",
     "register_quantity",
     "row_checksum",
@@ -190,43 +190,36 @@ def row_intact(digest: str, kind: str, text: str, digits: int, checksum: int) ->
     return row_checksum(digest, kind, text) == checksum and (kind != "int" or digit_count(text) == digits)
 
 
-def parse_canonical_bounds(text: str) -> Tuple[Tuple[int, Optional[int]], ...]:
-    """Invert :meth:`~enumerator.core.model.UrnModel.canonical_bounds` (``"r*a:b"`` or ``"a:b,..."``).
+def model_from_key(rule: str, balls: int, bounds: str):
+    """Return the :class:`~enumerator.core.model.UrnModel` a stored key describes.
 
-    Examples
-    --------
-    >>> parse_canonical_bounds("3*0:2")
-    ((0, 2), (0, 2), (0, 2))
-    >>> parse_canonical_bounds("1:,0:4")
-    ((1, None), (0, 4))
+    Parameters
+    ----------
+    rule : str
+        The key's rule.
+    balls : int
+        The key's ``n``.
+    bounds : str
+        The key's canonical bounds text, read by the model's own parser
+        (:func:`enumerator.core.model.parse_canonical_bounds`).
+
+    Returns
+    -------
+    UrnModel
+
+    Raises
+    ------
+    InvalidParameters
+        For a malformed bounds text.
 
     Notes
     -----
-    Cost: linear in ``r``.
-    """
-    def one(item):
-        a, _, b = item.partition(":")
-        return int(a), (int(b) if b else None)
-
-    if "*" in text:
-        count, _, item = text.partition("*")
-        return (one(item),) * int(count)
-    return tuple(one(item) for item in text.split(","))
-
-
-def model_from_key(rule: str, balls: int, bounds: str):
-    """Return the :class:`~enumerator.core.model.UrnModel` a stored key describes.
+    Cost: that of building the model.
 
     Examples
     --------
     >>> model = model_from_key("BE", 5, "3*0:2")
     >>> model.balls, model.urns, model.canonical_bounds()
     (5, 3, '3*0:2')
-
-    Notes
-    -----
-    Cost: that of building the model (linear in ``r``).
     """
-    from ..core.model import UrnModel
-
-    return UrnModel(balls=balls, bounds=parse_canonical_bounds(bounds), rule=rule)
+    return UrnModel.from_canonical(rule, balls, bounds)
