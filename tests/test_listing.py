@@ -22,6 +22,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import enumerator.algorithms.listing as listing
+import enumerator.algorithms.listing_tables as listing_tables
 from enumerator import InvalidConfiguration, InvalidParameters, Occupancy, TooLarge
 
 
@@ -67,9 +68,9 @@ def tables(budget):
     with pytest.MonkeyPatch.context() as patch:
         value = BUDGETS[budget]
         if value is not None:
-            patch.setattr(listing, "TUPLE_TABLE_BUDGET", value)
-            patch.setattr(listing, "BLOCK_TABLE_BUDGET", value)
-            patch.setattr(listing, "_SLICE_COPIES", 2)  # exercise the gather path too
+            patch.setattr(listing_tables, "TUPLE_TABLE_BUDGET", value)
+            patch.setattr(listing_tables, "BLOCK_TABLE_BUDGET", value)
+            patch.setattr(listing_tables, "_SLICE_COPIES", 2)  # exercise the gather path too
         yield
 
 
@@ -433,7 +434,7 @@ def test_block_listing_memory_is_independent_of_the_count():
         tracemalloc.stop()
     assert seen == math.comb(26, 10)  # stars and bars, common practice
     # the suffix table (BLOCK_TABLE_BUDGET) plus a few blocks, far below the 53 MB of the listing
-    assert peak < listing.BLOCK_TABLE_BUDGET + 8 * 2**20
+    assert peak < listing_tables.BLOCK_TABLE_BUDGET + 8 * 2**20
 
 
 def test_tables_go_when_the_memo_drops_them_without_the_cyclic_collector():
@@ -448,13 +449,13 @@ def test_tables_go_when_the_memo_drops_them_without_the_cyclic_collector():
         model = Occupancy(balls=16, urns=10, rule="BE", capacity=9)
         collections.deque(model.iter_blocks(1000), maxlen=0)
         collections.deque(model.iter_configurations(5), maxlen=0)
-        slots = listing._MEMO.slots(model)
+        slots = listing_tables.MEMO.slots(model)
         cached = [v[1] if isinstance(v, tuple) else v for k, v in slots.items() if k.startswith("listing.")]
         cached += [t.rows for t in cached if isinstance(getattr(t, "rows", None), np.ndarray)]
         assert len(cached) >= 4  # plan, tuple and block tables (maybe shared), ranker, a table's rows
         held = [weakref.ref(v) for v in cached if v is not None]
         del model, cached, slots
-        listing._MEMO.clear()
+        listing_tables.MEMO.clear()
         assert all(ref() is None for ref in held)
     finally:
         if enabled:
