@@ -59,7 +59,6 @@ from ..core import series
 from ..core.errors import InvalidParameters, TooLarge
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel, as_count
-from ..core.rules import Rule
 from .counting import count_configurations, count_microstates
 
 __all__ = [
@@ -214,7 +213,7 @@ def _forced(model: UrnModel, method: str) -> _Plan:
     lows = [a for a, _ in bounds]
     free = model.balls - sum(lows)
     spans = [b - a for a, b in bounds]
-    mb = model.rule is Rule.MB
+    mb = model.rule.distinguishable  # labelled balls: multinomial samplers
     unbounded_mb = all(a == 0 and b >= model.balls for a, b in bounds)
     why = None
     if method == "sequential":
@@ -260,7 +259,8 @@ def _choose(model: UrnModel) -> _Plan:
     lows = [a for a, _ in bounds]
     free = model.balls - sum(lows)
     spans = [b - a for a, b in bounds]
-    if model.rule is Rule.MB:
+    if model.rule.distinguishable:
+        # labelled balls: the draws are balls thrown one by one, not vectors
         unbounded = all(a == 0 and b >= model.balls for a, b in bounds)
         if unbounded:
             return _UniformBalls(model)
@@ -513,7 +513,7 @@ class _Sequential(_Plan):
         self.free = self.n - sum(a for a, _ in bounds)
         self.low_total = sum(a for a, _ in bounds)
         self.high_total = sum(b for _, b in bounds)
-        self.mb = model.rule is Rule.MB
+        self.mb = model.rule.distinguishable  # counts weighted by multinomials
         self._check_size()
         self.scale = int(gmpy2.fac(self.n)) if self.mb else 1
         self.info: Dict[tuple, dict] = {}  # key -> {"low", "high", "counts", "poly"}
