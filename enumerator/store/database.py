@@ -129,7 +129,11 @@ class Store:
         self.engine = make_engine(self.url, self.path, self.read_only, self.name)
         # built once, up front, so threads sharing the store never race to build it
         self._insert_stmt = self._upsert(Result, Result.key_digest)
-        self._guard(self._initialise)
+        try:
+            self._guard(self._initialise)
+        except BaseException:
+            self.engine.dispose()  # a store refused on opening keeps no file open
+            raise
 
     # -- display ---------------------------------------------------------
     @property
@@ -197,8 +201,8 @@ class Store:
             raise
         except migrations.MigrationFailed as failure:
             if isinstance(failure.error, sa_exc.DBAPIError) and is_readonly(failure.error):
-                raise self._cannot_upgrade(found, "it is read-only") from None
-            raise self._upgrade_failed(found, failure) from failure
+                raise self._cannot_upgrade(failure.found, "it is read-only") from None
+            raise self._upgrade_failed(failure) from failure
         self._schema_ready = True
         self._enable_wal()
 
@@ -254,7 +258,8 @@ class Store:
             "store with --store or ENUMERATOR_STORE, or run with --no-cache"
         )
 
-    def _upgrade_failed(self, found: int, failure: "migrations.MigrationFailed") -> StoreError:
+    def _upgrade_failed(self, failure: "migrations.MigrationFailed") -> StoreError:
+        found = failure.found
         return StoreError(
             f"upgrading the store {self.name} from schema version {found} to "
             f"{schema.SCHEMA_VERSION} failed at {failure}; nothing was changed (it is still at "

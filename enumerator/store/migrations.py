@@ -91,11 +91,16 @@ MIGRATIONS: Tuple[Migration, ...] = ()
 
 
 class MigrationFailed(Exception):
-    """An upgrade step raised; the transaction is rolled back and the store keeps its old version."""
+    """An upgrade step raised; the transaction is rolled back and the store keeps its old version.
 
-    def __init__(self, step: Migration, error: BaseException):
+    Attributes: *step* (the step that failed), *error* (what it raised) and
+    *found* (the version the store had, and keeps).
+    """
+
+    def __init__(self, step: Migration, error: BaseException, found: int):
         self.step = step
         self.error = error
+        self.found = found
         detail = " ".join(str(error).split()) or type(error).__name__
         super().__init__(f"step {step.source}->{step.target} ({step.summary}): {detail}")
 
@@ -225,6 +230,6 @@ def upgrade(connection: Connection, found: int, target: Optional[int] = None,
         try:
             step.apply(connection)
         except Exception as error:  # any failure aborts the whole upgrade
-            raise MigrationFailed(step, error) from error
+            raise MigrationFailed(step, error, found) from error
         write_version(connection, step.target)
     return pending
