@@ -190,7 +190,18 @@ def _env_no_cache() -> bool:
 
 
 def cache_enabled() -> bool:
-    """False inside :func:`bypass`, or when ``ENUMERATOR_NO_CACHE=1`` and no :func:`using` block is active."""
+    """Return whether computations in the current context remember their results.
+
+    Returns
+    -------
+    bool
+        False inside :func:`bypass`, or when ``ENUMERATOR_NO_CACHE=1`` and
+        no :func:`using` block is active; True otherwise.
+
+    Notes
+    -----
+    Cost: one context-variable read and at most one environment lookup.
+    """
     choice = _active.get()
     if choice is not None:
         return choice.enabled
@@ -198,7 +209,24 @@ def cache_enabled() -> bool:
 
 
 def current_store() -> Optional[Store]:
-    """The store the current context remembers results in, or None when remembering is off."""
+    """Return the store the current context remembers results in, or None when remembering is off.
+
+    Returns
+    -------
+    Store or None
+        The store of the innermost :func:`using` block, None inside
+        :func:`bypass`; outside both, the store at :func:`default_location`
+        unless ``ENUMERATOR_NO_CACHE=1``.
+
+    Raises
+    ------
+    StoreError
+        When that store cannot be opened (see :class:`Store`).
+
+    Notes
+    -----
+    Cost: that of :func:`open_store` (one dict lookup once open).
+    """
     choice = _active.get()
     if choice is None:
         return None if _env_no_cache() else open_store(None)
@@ -210,6 +238,23 @@ def current_store() -> Optional[Store]:
 @contextmanager
 def using(location: Union[str, os.PathLike, Store, None]) -> Iterator[Optional[Store]]:
     """Within the block, remember results in the store at *location* (``None``: the default).
+
+    Parameters
+    ----------
+    location : str, os.PathLike, Store or None
+        A path, directory or SQLAlchemy URL, an open :class:`Store`, or None
+        for :func:`default_location`.
+
+    Yields
+    ------
+    Store
+        The store now active (opened by :func:`open_store`).
+
+    Notes
+    -----
+    The choice lives in a :class:`contextvars.ContextVar`: it holds for
+    this thread or task only and is undone when the block ends, also on an
+    exception.  Cost: that of :func:`open_store`.
 
     Examples
     --------
@@ -229,7 +274,13 @@ def using(location: Union[str, os.PathLike, Store, None]) -> Iterator[Optional[S
 
 @contextmanager
 def bypass() -> Iterator[None]:
-    """Within the block, compute everything afresh and remember nothing."""
+    """Within the block, compute everything afresh and remember nothing.
+
+    Notes
+    -----
+    Like :func:`using`, for this thread or task only and undone when the
+    block ends; a :func:`using` block inside it switches remembering back on.
+    """
     token = _active.set(_Choice(None, False))
     try:
         yield
