@@ -12,12 +12,13 @@ gathers its topic modules):
 :mod:`~enumerator.algorithms.levels.multiplicities`
     exact multiplicities ``Ω(N, E)`` -- the coefficients of the canonical
     partition function ``Z_N(t)`` -- by FLINT polynomial arithmetic and the
-    particle-number recursion (Newton's identities), and the exact energy
-    split of two systems in thermal contact;
+    particle-number recursion (Newton's identities), the exact energy
+    split of two systems in thermal contact and the microcanonical
+    temperature;
 :mod:`~enumerator.algorithms.levels.ensembles`
-    the microcanonical temperature, the canonical ensemble from the
-    Borrmann–Franke recursion (P. Borrmann and G. Franke, J. Chem. Phys. 98,
-    2484 (1993)) and the grand-canonical occupation formulas.
+    the canonical ensemble from the Borrmann–Franke recursion (P. Borrmann
+    and G. Franke, J. Chem. Phys. 98, 2484 (1993)) and the grand-canonical
+    occupation formulas.
 
 Units: energies and temperatures share the user's energy unit, with
 Boltzmann's constant ``k_B = 1``.
@@ -28,16 +29,16 @@ Boltzmann's constant ``k_B = 1``.
 
 from __future__ import annotations
 
-from .ensembles import (
-    DEFAULT_DIGITS,
-    CanonicalPoint,
+from .ensembles import DEFAULT_DIGITS, CanonicalPoint, canonical, canonical_occupations, grand_canonical
+from .multiplicities import (
+    MAX_CELLS,
+    Contact,
     MicroPoint,
-    canonical,
-    canonical_occupations,
-    grand_canonical,
     microcanonical,
+    multiplicities,
+    multiplicity_table,
+    thermal_contact,
 )
-from .multiplicities import MAX_CELLS, Contact, multiplicities, multiplicity_table, thermal_contact
 from .spectra import (
     PRESETS,
     Ladder,

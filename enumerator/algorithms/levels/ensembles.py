@@ -1,8 +1,5 @@
-r"""Ensembles of particles on energy levels: microcanonical, canonical, grand canonical.
+r"""Ensembles of particles on energy levels: canonical and grand canonical.
 
-* :func:`microcanonical` -- ``ln Ω(E)`` and the temperature from central finite
-  differences of ``ln Ω`` (approximations, so named), on the exact
-  multiplicities of :mod:`enumerator.algorithms.levels.multiplicities`.
 * :func:`canonical` -- ``Z``, mean energy, heat capacity, free energy, entropy
   and mean level occupations at given temperatures, from the recursion for the
   canonical partition function of ideal quantum gases (P. Borrmann and
@@ -34,17 +31,14 @@ from flint import fmpz_poly
 from ...core.errors import InvalidParameters, TooLarge
 from ...core.model import as_count
 from ...core.rules import Rule
-from .multiplicities import multiplicities
 from .spectra import Spectrum, System, ground_energy, parse_rational
 
 __all__ = [
     "CanonicalPoint",
     "DEFAULT_DIGITS",
-    "MicroPoint",
     "canonical",
     "canonical_occupations",
     "grand_canonical",
-    "microcanonical",
 ]
 
 #: Default number of significant decimal digits of the canonical results.
@@ -74,53 +68,6 @@ def _parse_temperature(value) -> Fraction:
         )
     return number
 
-
-
-# --------------------------------------------------------------------------
-# Microcanonical
-# --------------------------------------------------------------------------
-@dataclass(frozen=True)
-class MicroPoint:
-    """One total energy: ``ln Ω`` and the finite-difference temperature (approximations)."""
-
-    energy: int
-    multiplicity: int
-    ln_multiplicity_approx: Optional[float]
-    temperature_approx: Optional[float]
-
-
-def _ln(value: int) -> float:
-    return float(mpmath.log(mpmath.mpf(value))) if value > 0 else None
-
-
-def microcanonical(system: System, max_energy=None) -> List[MicroPoint]:
-    r"""Return ``ln Ω(E)`` and ``T(E)`` for every energy of :func:`multiplicities`.
-
-    ``1/T = d ln Ω / dE`` by the central difference
-    ``(ln Ω(E+h) - ln Ω(E-h)) / (2h)``, ``h`` the spacing of the lattice of
-    reachable energies (the gcd of the level differences), in the energy unit
-    with ``k_B = 1``.  ``temperature_approx`` is ``None`` where a neighbour has
-    ``Ω = 0`` or the difference vanishes (infinite temperature); it is negative
-    where ``ln Ω`` falls (population inversion, as in a two-level system).
-    """
-    counts = multiplicities(system, max_energy)
-    spectrum = system.spectrum
-    step = 0
-    ref = spectrum.lowest
-    for e in spectrum.energies:
-        step = math.gcd(step, e - ref)
-    if not spectrum.finite:
-        step = math.gcd(step, spectrum.ladder.spacing)
-    logs = {e: _ln(v) for e, v in counts.items()}
-    points = []
-    for e, v in counts.items():
-        temperature = None
-        if step and v > 0:
-            lo, hi = logs.get(e - step), logs.get(e + step)
-            if lo is not None and hi is not None and hi != lo:
-                temperature = float(2 * step * spectrum.unit) / (hi - lo)
-        points.append(MicroPoint(e, v, logs[e], temperature))
-    return points
 
 
 # --------------------------------------------------------------------------
@@ -512,16 +459,48 @@ def canonical(
     levels: Optional[int] = None,
     grand: bool = True,
 ) -> List[CanonicalPoint]:
-    r"""Return the canonical ensemble of *system* at each temperature.
+    """Return the canonical ensemble of *system* at each temperature.
 
+    Parameters
+    ----------
+    system : System
+    temperatures : iterable
+        Positive ``k_B T`` values in the energy unit (ints, fractions, decimal
+        strings or floats).
+    digits : int
+        Significant decimal digits wanted, at least 5 (default :data:`DEFAULT_DIGITS`).
+    levels : int, optional
+        How many of the lowest listed levels to report occupations for
+        (default: all listed; a ladder lists what it was extended to by
+        :meth:`Spectrum.through`).
+    grand : bool
+        Also compute the grand-canonical occupations (:func:`grand_canonical`).
+
+    Returns
+    -------
+    list of CanonicalPoint
+        One per temperature, about *digits* correct digits each (occupations:
+        about ``10^-digits g_i`` absolute).
+
+    Raises
+    ------
+    InvalidParameters
+        No state exists (FD with more particles than states), a non-positive
+        temperature, more report levels than a finite spectrum lists.
+    TooLarge
+        The sums lose more digits than a reasonable working precision holds.
+
+    Notes
+    -----
     ``Z_N`` from the Borrmann–Franke recursion for ideal quantum gases,
     ``Z_N = (1/N) Σ_{k=1}^{N} w_k Z_1(kβ) Z_{N-k}`` (``w_k = (±1)^{k+1}``
     for BE/FD, Gentile weights with a capacity; MB: ``Z = Z_1^N``) together
     with its first two β-derivatives, giving ``U = -∂ ln Z/∂β`` and
     ``C = β^2 ∂^2 ln Z/∂β^2``; ``F = -T ln Z``, ``S = ln Z + U/T``; mean
-    occupations ``<n_i> = Σ_k w_k g_i e^{-kβε_i} Z_{N-k}/Z_N`` (Borrmann,
-    Harting, Mülken, Hilf 1999).  A ladder uses ``Z_1 = e^{-βε_0}(1 -
-    e^{-βħω})^{-d}`` exactly, however many levels it takes.
+    occupations ``<n_i> = Σ_k w_k g_i e^{-kβε_i} Z_{N-k}/Z_N`` (P. Borrmann and
+    G. Franke, J. Chem. Phys. 98, 2484 (1993); P. Borrmann, J. Harting,
+    O. Mülken and E. Hilf, Phys. Rev. A 60, 1519 (1999)).  A ladder uses
+    ``Z_1 = e^{-βε_0}(1 - e^{-βħω})^{-d}`` exactly, however many levels it takes.
 
     Arithmetic: the single-particle sums ``Z_1(kβ)`` and its derivatives in
     mpmath, rounded to fixed-point integers with ``bits`` fractional bits;
@@ -531,24 +510,14 @@ def canonical(
     FD/Gentile sums cancel at low temperature: ``bits`` is raised until the
     rounding error, bounded through the majorant ``Ẑ`` (the same recursion
     with ``|w_k|``), is below ``10^-digits`` relative to ``Z_N``, to the
-    energy moment and to the variance ``⟨E²⟩ - ⟨E⟩²``.  The results carry
-    about *digits* correct digits (occupations: about ``10^-digits g_i``
-    absolute).  Fermions far below the Fermi temperature need thousands of
-    bits (``β E_0 / ln 2`` for a ground energy ``E_0`` above ``N ε_min``).
-
-    :param temperatures: positive ``k_B T`` values in the energy unit (ints,
-        fractions, decimal strings or floats).
-    :param levels: how many of the lowest listed levels to report
-        occupations for (default: all listed; a ladder lists what it was
-        extended to by :meth:`Spectrum.through`).
-    :param grand: also compute the grand-canonical occupations.
+    energy moment and to the variance ``⟨E²⟩ - ⟨E⟩²``.  Fermions far below the
+    Fermi temperature need thousands of bits (``β E_0 / ln 2`` for a ground
+    energy ``E_0`` above ``N ε_min``).
 
     Cost per temperature: ``O(M(N) log N)`` integer work for the recursion
     (``M``: one FLINT product of length ``N``), plus ``O(N)`` mpmath
     operations per reported level (fewer for BE, whose sums stop once
     negligible); MB ``O(levels)``.
-    :raises InvalidParameters: no state exists (FD with more particles than
-        states), a non-positive temperature.
     """
     digits = as_count(digits, "digits", 5)
     if ground_energy(system) is None:
@@ -575,9 +544,33 @@ def canonical_occupations(
 ) -> List[Tuple]:
     """Return the canonical mean occupations only, one tuple per temperature.
 
-    The same recursion as :func:`canonical` without its β-derivatives (one
-    coupled sequence instead of three) and without the grand-canonical
-    comparison.
+    Parameters
+    ----------
+    system : System
+    temperatures : iterable
+        Positive ``k_B T`` values in the energy unit.
+    digits : int
+        Significant decimal digits wanted, at least 5.
+    levels : int, optional
+        How many of the lowest listed levels to report (default: all listed).
+
+    Returns
+    -------
+    list of tuple of mpmath.mpf
+
+    Raises
+    ------
+    InvalidParameters
+        No state exists, a non-positive temperature.
+    TooLarge
+        As :func:`canonical`.
+
+    Notes
+    -----
+    The same recursion as :func:`canonical` (Borrmann & Franke 1993) without
+    its β-derivatives (one coupled sequence instead of three) and without the
+    grand-canonical comparison; cost per temperature ``O(M(N) log N)`` plus
+    ``O(N)`` mpmath operations per level.
     """
     digits = as_count(digits, "digits", 5)
     if ground_energy(system) is None:
@@ -664,16 +657,43 @@ def _gc_total(system: System, b, eta, formula):
 
 
 def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, levels: Optional[int] = None):
-    r"""Return ``(μ, occupations)``: the grand-canonical formulas at mean particle number ``N``.
+    """Return ``(μ, occupations)``: the grand-canonical formulas at mean particle number ``N``.
 
+    Parameters
+    ----------
+    system : System
+    temperature : int, Fraction, str, float or mpmath.mpf
+        ``k_B T`` in the energy unit, positive.
+    digits : int
+        Significant decimal digits wanted, at least 5.
+    levels : int, optional
+        How many of the lowest listed levels to report (default: all listed).
+
+    Returns
+    -------
+    mu : mpmath.mpf or None
+        The chemical potential; ``None`` for ``N = 0`` (``-∞``) and for a full
+        FD/Gentile spectrum (``+∞``).
+    occupations : tuple of mpmath.mpf
+        ``<n_i>`` of the reported levels (all ``g_i`` states of each).
+
+    Raises
+    ------
+    InvalidParameters
+        More particles than the states hold, a non-positive temperature.
+
+    Notes
+    -----
     ``<n_i> = g_i f(β(ε_i - μ))`` with ``f(x) = 1/(e^x - 1)`` (BE),
     ``1/(e^x + 1)`` (FD), ``e^{-x}`` (MB, where it equals the canonical
     result), ``1/(e^x - 1) - (c+1)/(e^{(c+1)x} - 1)`` (capacity ``c``), and
     ``μ`` solves ``Σ_i <n_i>(μ) = N`` over the whole spectrum:
     ``mpmath.findroot`` with a bracketing solver (Anderson–Björck) on a
-    bracket found by doubling; for BE in the variable ``ln(ε_0 - μ)``.
-    ``μ`` is ``None`` for ``N = 0`` (``-∞``) and for a full FD/Gentile
-    spectrum (``+∞``).
+    bracket found by doubling, bisection when it stalls; for BE in the
+    variable ``ln(ε_0 - μ)``.  The formulas: R. K. Pathria & P. D. Beale,
+    *Statistical Mechanics*, 3rd ed., 2011, ch. 6.  Cost: ``O(levels)``
+    mpmath operations per evaluation of the total, times the root finder's
+    iterations (a ladder sums its tail in closed form).
     """
     digits = as_count(digits, "digits", 5)
     temperature = _parse_temperature(temperature)

@@ -1,4 +1,4 @@
-r"""Exact multiplicities ``Ω(N, E)`` of particles on energy levels, and thermal contact.
+r"""Exact multiplicities ``Ω(N, E)`` of particles on energy levels, and what follows from them alone.
 
 The generating functions of a :class:`~enumerator.algorithms.levels.spectra.System`:
 
@@ -25,6 +25,8 @@ function with ``t = e^{-β·unit}``, so its coefficients are exact integers.
 * :func:`thermal_contact` -- two systems sharing a total energy: the exact table
   ``Ω_A(E_A) Ω_B(E - E_A)``, the most probable split and the exact
   probabilities.
+* :func:`microcanonical` -- ``ln Ω(E)`` and the temperature from central finite
+  differences of ``ln Ω`` (approximations, so named).
 """
 
 from __future__ import annotations
@@ -34,6 +36,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Dict, List, Optional
 
+import mpmath
 from flint import fmpz_poly
 
 from ...core import series
@@ -44,6 +47,8 @@ from .spectra import Spectrum, System, ground_energy, parse_rational
 __all__ = [
     "Contact",
     "MAX_CELLS",
+    "MicroPoint",
+    "microcanonical",
     "multiplicities",
     "multiplicity_table",
     "thermal_contact",
@@ -167,23 +172,47 @@ def _mb_polynomial(system: System, degree: int) -> fmpz_poly:
 def multiplicities(
     system: System, max_energy=None, limit: Optional[int] = None
 ) -> Dict[int, int]:
-    r"""Return ``{E: Ω(N, E)}`` for every total energy from the lowest reachable to *max_energy*.
+    """Return ``{E: Ω(N, E)}`` for every total energy from the lowest reachable to *max_energy*.
 
-    Keys are total energies in units of ``system.spectrum.unit`` (the energy is
-    ``key * unit``), consecutive integers including those of count 0; values
-    are exact ``int`` -- the coefficients of the canonical partition function
-    ``Z_N(t)``.  MB counts assignments of distinguishable particles; BE and FD
-    occupancies of identical particles (module docstring).
+    Parameters
+    ----------
+    system : System
+        MB counts assignments of distinguishable particles; BE and FD
+        occupancies of identical particles (module docstring).
+    max_energy : int, Fraction or str, optional
+        The largest total energy (exact, in the energy unit); ``None`` for a
+        finite spectrum means the highest reachable energy.
+    limit : int, optional
+        The largest table (cells) to compute, default :data:`MAX_CELLS`.
 
-    :param max_energy: the largest total energy (exact, in the energy unit);
-        ``None`` for a finite spectrum means the highest reachable energy.
-    :param limit: the largest table (cells) to compute, default
-        :data:`MAX_CELLS`.
-    :returns: an empty dict when no state has energy at most *max_energy*.
+    Returns
+    -------
+    dict of int to int
+        Keys are total energies in units of ``system.spectrum.unit`` (the
+        energy is ``key * unit``), consecutive integers including those of
+        count 0; values are exact -- the coefficients of the canonical
+        partition function ``Z_N(t)``.  Empty when no state has energy at most
+        *max_energy*.
 
-    Cost: MB one truncated FLINT power; BE/FD ``N^2/2`` FLINT products of
-    length ``E - N ε_min + 1``.
+    Raises
+    ------
+    InvalidParameters
+        An infinite ladder without *max_energy*; a *max_energy* that is not a number.
+    TooLarge
+        The table would exceed *limit* cells.
 
+    Notes
+    -----
+    MB: one truncated FLINT power of ``z(t)`` (a ladder: a binomial row of
+    ``(1 - t^s)^{-dN}``).  BE/FD/Gentile: the particle-number recursion
+    ``n Z_n = Σ_k w_k z(t^k) Z_{n-k}`` (Newton's identities; Macdonald,
+    *Symmetric Functions and Hall Polynomials*, 1995, I.2), its convolutions
+    computed online by divide and conquer (van der Hoeven, J. Symb. Comput. 34,
+    2002): ``O(log N)`` FLINT products of ``N`` blocks of length
+    ``E - N ε_min + 1``.
+
+    Examples
+    --------
     >>> from enumerator.algorithms.levels.spectra import einstein_solid
     >>> multiplicities(einstein_solid(3), 4)
     {0: 1, 1: 3, 2: 6, 3: 10, 4: 15}
@@ -236,9 +265,31 @@ def multiplicity_table(
 ) -> List[Dict[int, int]]:
     """Return ``[multiplicities for n = 0..N]``: the whole bivariate table in one pass.
 
-    Row ``n`` is :func:`multiplicities` of the same spectrum and rule with
-    ``n`` particles (keys in units, from that row's lowest energy).  BE/FD
-    rows come from one run of the particle-number recursion.
+    Parameters
+    ----------
+    system : System
+        Its particle number ``N`` is the last row.
+    max_energy : int, Fraction or str
+        The largest total energy, in the energy unit.
+    limit : int, optional
+        The largest table (cells), default :data:`MAX_CELLS`.
+
+    Returns
+    -------
+    list of dict of int to int
+        Row ``n`` is :func:`multiplicities` of the same spectrum and rule with
+        ``n`` particles (keys in units, from that row's lowest energy).
+
+    Raises
+    ------
+    TooLarge
+        The table would exceed *limit* cells.
+
+    Notes
+    -----
+    BE/FD rows come from one run of the particle-number recursion (see
+    :func:`multiplicities`), so the table costs what its last row costs; MB
+    rows are ``N + 1`` truncated powers.
     """
     spectrum = system.spectrum
     top_units = _to_units(max_energy, spectrum.unit)
@@ -300,11 +351,37 @@ def _common_unit(a: Spectrum, b: Spectrum) -> Fraction:
 def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -> Contact:
     """Return the exact energy split of systems *a* and *b* sharing total *energy*.
 
-    Both spectra are written in a common unit; *energy* is exact, in the
-    energy unit.  The table is the convolution of the two multiplicity rows,
-    so ``total`` equals the multiplicity of the combined system (for two
-    Einstein solids ``C(q + N_A + N_B - 1, q)``).
+    Parameters
+    ----------
+    a, b : System
+    energy : int, Fraction or str
+        The total energy, exact, in the energy unit.
+    limit : int, optional
+        The largest multiplicity table of either side, default :data:`MAX_CELLS`.
 
+    Returns
+    -------
+    Contact
+        Energies in the common unit of the two spectra.
+
+    Raises
+    ------
+    InvalidParameters
+        An *energy* that is not a number.
+    TooLarge
+        A side's table would exceed *limit*.
+
+    Notes
+    -----
+    Both spectra are written in a common unit (``1/lcm`` of the two unit
+    denominators); the table is the convolution of the two multiplicity rows,
+    so ``total`` equals the multiplicity of the combined system (for two
+    Einstein solids ``C(q + N_A + N_B - 1, q)``, the worked example of
+    D. V. Schroeder, *An Introduction to Thermal Physics*, 2000, §2.3).  Cost:
+    the two calls of :func:`multiplicities` plus ``E`` big-integer products.
+
+    Examples
+    --------
     >>> from enumerator.algorithms.levels.spectra import einstein_solid
     >>> c = thermal_contact(einstein_solid(3), einstein_solid(3), 6)
     >>> c.total, c.most_probable, c.probability[3]
@@ -327,3 +404,70 @@ def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -
     most = min(ea for ea, v in split.items() if v == best)
     probability = {ea: Fraction(v, total) for ea, v in split.items()}
     return Contact(e, unit, total, split, probability, most)
+
+
+# --------------------------------------------------------------------------
+# Microcanonical
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class MicroPoint:
+    """One total energy: ``ln Ω`` and the finite-difference temperature (approximations)."""
+
+    energy: int
+    multiplicity: int
+    ln_multiplicity_approx: Optional[float]
+    temperature_approx: Optional[float]
+
+
+def _ln(value: int) -> float:
+    return float(mpmath.log(mpmath.mpf(value))) if value > 0 else None
+
+
+def microcanonical(system: System, max_energy=None) -> List[MicroPoint]:
+    """Return ``ln Ω(E)`` and ``T(E)`` for every energy of :func:`multiplicities`.
+
+    Parameters
+    ----------
+    system : System
+    max_energy : int, Fraction or str, optional
+        As for :func:`~enumerator.algorithms.levels.multiplicities.multiplicities`.
+
+    Returns
+    -------
+    list of MicroPoint
+        One per total energy, in increasing order.
+
+    Raises
+    ------
+    InvalidParameters, TooLarge
+        As :func:`~enumerator.algorithms.levels.multiplicities.multiplicities` raises them.
+
+    Notes
+    -----
+    ``1/T = d ln Ω / dE`` (the microcanonical definition of temperature) by the
+    central difference ``(ln Ω(E+h) - ln Ω(E-h)) / (2h)``, ``h`` the spacing of
+    the lattice of reachable energies (the gcd of the level differences), in
+    the energy unit with ``k_B = 1``.  ``temperature_approx`` is ``None`` where
+    a neighbour has ``Ω = 0`` or the difference vanishes (infinite
+    temperature); it is negative where ``ln Ω`` falls (population inversion, as
+    in a two-level system).  Cost: that of the multiplicities plus one mpmath
+    logarithm per energy.
+    """
+    counts = multiplicities(system, max_energy)
+    spectrum = system.spectrum
+    step = 0
+    ref = spectrum.lowest
+    for e in spectrum.energies:
+        step = math.gcd(step, e - ref)
+    if not spectrum.finite:
+        step = math.gcd(step, spectrum.ladder.spacing)
+    logs = {e: _ln(v) for e, v in counts.items()}
+    points = []
+    for e, v in counts.items():
+        temperature = None
+        if step and v > 0:
+            lo, hi = logs.get(e - step), logs.get(e + step)
+            if lo is not None and hi is not None and hi != lo:
+                temperature = float(2 * step * spectrum.unit) / (hi - lo)
+        points.append(MicroPoint(e, v, logs[e], temperature))
+    return points

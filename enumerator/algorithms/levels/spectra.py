@@ -23,8 +23,9 @@ This module holds the description only: exact numbers read from user values
 (:func:`parse_rational`), spectra and presets, systems and their ground
 energy.  What is computed from them lives in
 :mod:`enumerator.algorithms.levels.multiplicities` (exact ``Ω(N, E)``,
-thermal contact) and :mod:`enumerator.algorithms.levels.ensembles`
-(microcanonical, canonical and grand-canonical quantities).
+thermal contact, the microcanonical temperature) and
+:mod:`enumerator.algorithms.levels.ensembles` (canonical and
+grand-canonical quantities).
 
 Units: energies share the user's energy unit, with Boltzmann's constant
 ``k_B = 1``.
@@ -63,9 +64,31 @@ __all__ = [
 def parse_rational(value, name: str) -> Fraction:
     """Return *value* as an exact :class:`Fraction`.
 
-    Accepts ``int``, ``Fraction`` and strings such as ``"3"``, ``"-1/2"`` or
-    ``"0.25"`` (a decimal string is exact).  Floats are refused: ``0.1`` is not
-    the rational one tenth.
+    Parameters
+    ----------
+    value : int, Fraction or str
+        ``"3"``, ``"-1/2"`` or ``"0.25"`` (a decimal string is exact).
+    name : str
+        What the value is, for the error message (``"energy 2"``, ``"gap"``).
+
+    Returns
+    -------
+    Fraction
+
+    Raises
+    ------
+    InvalidParameters
+        A float (``0.1`` is not the rational one tenth), a boolean or text
+        that is not a number.
+
+    Notes
+    -----
+    ``fractions.Fraction`` parses the text exactly; cost linear in its length.
+
+    Examples
+    --------
+    >>> parse_rational("0.25", "gap"), parse_rational("-1/2", "gap")
+    (Fraction(1, 4), Fraction(-1, 2))
     """
     if isinstance(value, bool):
         raise InvalidParameters(f"{name} must be a number, not a boolean (got {value!r})")
@@ -218,14 +241,33 @@ class Spectrum:
 def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum:
     """Build a finite :class:`Spectrum` from exact energies and degeneracies.
 
-    :param energies: integers, fractions or decimal strings (or one
-        comma-separated string ``"0,1/2,3/2"``); any order, repeats allowed.
-    :param degeneracies: whole numbers ``>= 1``, one per energy (default all 1).
-    :returns: the spectrum with every energy an integer multiple of
-        ``unit = 1 / lcm(denominators)``.
-    :raises InvalidParameters: empty lists, lengths that differ, a degeneracy
-        below 1, a float or a non-number.
+    Parameters
+    ----------
+    energies : sequence or str
+        Integers, fractions or decimal strings (or one comma-separated string
+        ``"0,1/2,3/2"``); any order, repeats allowed.
+    degeneracies : sequence or str, optional
+        Whole numbers ``>= 1``, one per energy (default all 1).
+    name : str
+        The spectrum's name in titles.
 
+    Returns
+    -------
+    Spectrum
+        Every energy an integer multiple of ``unit = 1 / lcm(denominators)``.
+
+    Raises
+    ------
+    InvalidParameters
+        Empty lists, lengths that differ, a degeneracy below 1, a float or a
+        non-number.
+
+    Notes
+    -----
+    Cost linear in the number of levels (one lcm of the denominators).
+
+    Examples
+    --------
     >>> s = make_spectrum("0,1/2,3/2", "1,2,1")
     >>> s.energies, s.unit
     ((0, 1, 3), Fraction(1, 2))
@@ -262,10 +304,22 @@ def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum
 def harmonic_oscillator(levels: Optional[int] = None, spacing=1) -> Spectrum:
     """Equally spaced non-degenerate levels ``0, s, 2s, ...`` (a 1D harmonic oscillator).
 
-    :param levels: the number of levels; ``None`` for the infinite ladder
-        (computations then use as many levels as the energy range needs and
-        closed forms for the partition function).
-    :param spacing: the level spacing ``ħω`` (exact rational, default 1).
+    Parameters
+    ----------
+    levels : int, optional
+        The number of levels; ``None`` for the infinite ladder (computations
+        then use as many levels as the energy range needs and closed forms for
+        the partition function).
+    spacing : int, Fraction or str
+        The level spacing ``ħω`` (exact rational, default 1).
+
+    Returns
+    -------
+    Spectrum
+
+    Notes
+    -----
+    :func:`harmonic_trap` in one dimension.
     """
     return harmonic_trap(levels, dimension=1, spacing=spacing)
 
@@ -273,11 +327,35 @@ def harmonic_oscillator(levels: Optional[int] = None, spacing=1) -> Spectrum:
 def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -> Spectrum:
     """The isotropic harmonic trap in *dimension* dimensions, from its ground state.
 
+    Parameters
+    ----------
+    levels : int, optional
+        Number of levels kept; ``None`` for the infinite ladder.
+    dimension : int
+        ``d >= 1`` (default 3).
+    spacing : int, Fraction or str
+        The level spacing ``ħω``, positive (default 1).
+
+    Returns
+    -------
+    Spectrum
+
+    Raises
+    ------
+    InvalidParameters
+        A dimension or number of levels below 1, a spacing that is not positive.
+
+    Notes
+    -----
     Level ``m`` has energy ``m ħω`` and degeneracy ``C(m + d - 1, d - 1)``
     (``(m + 1)(m + 2)/2`` in 3D: the number of ``(n_x, n_y, n_z)`` with
-    ``n_x + n_y + n_z = m``).  The zero-point energy ``d ħω / 2`` is left out.
+    ``n_x + n_y + n_z = m``; stars and bars).  The zero-point energy
+    ``d ħω / 2`` is left out.  Cost linear in *levels* (constant for the ladder).
 
-    :param levels: number of levels kept; ``None`` for the infinite ladder.
+    Examples
+    --------
+    >>> harmonic_trap(4).degeneracies
+    (1, 3, 6, 10)
     """
     d = as_count(dimension, "dimension", 1)
     step = parse_rational(spacing, "spacing")
@@ -300,7 +378,28 @@ def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -
 
 
 def two_level(gap=1, degeneracies=(1, 1)) -> Spectrum:
-    """Two levels ``0`` and *gap* with degeneracies ``(g_0, g_1)`` (default ``(1, 1)``)."""
+    """Two levels ``0`` and *gap* with degeneracies ``(g_0, g_1)``.
+
+    Parameters
+    ----------
+    gap : int, Fraction or str
+        The energy gap, positive (default 1).
+    degeneracies : pair of int or str
+        ``(g_0, g_1)``, default ``(1, 1)``.
+
+    Returns
+    -------
+    Spectrum
+
+    Raises
+    ------
+    InvalidParameters
+        A gap that is not positive, or not exactly two degeneracies.
+
+    Notes
+    -----
+    :func:`make_spectrum` of ``[0, gap]``; constant cost.
+    """
     delta = parse_rational(gap, "gap")
     if delta <= 0:
         raise InvalidParameters(f"gap must be positive (got {delta})")
@@ -388,11 +487,41 @@ def make_system(
 ) -> System:
     """Build a :class:`System` from explicit levels or a preset (what the CLI calls).
 
-    Presets (see :data:`PRESETS`): ``harmonic`` (``levels``), ``trap``
-    (``levels``, ``dimension``, default 3), ``two-level`` (``gap``,
-    ``degeneracies`` as two numbers), ``einstein`` (``oscillators`` or
-    ``particles``: ``N`` distinguishable oscillators, rule MB).  The default
-    rule is MB.
+    Parameters
+    ----------
+    particles : int, optional
+        ``N``; required except for the ``einstein`` preset (where it may stand
+        for *oscillators*).
+    energies, degeneracies : optional
+        Explicit levels, as :func:`make_spectrum` takes them; *degeneracies*
+        also gives the two of the ``two-level`` preset.
+    rule : str or Rule, optional
+        ``MB`` (default), ``BE`` or ``FD``.
+    capacity : int, optional
+        BE only: at most this many particles per state.
+    preset : str, optional
+        One of :data:`PRESETS` (or an alias): ``harmonic`` (*levels*), ``trap``
+        (*levels*, *dimension*, default 3), ``two-level`` (*gap*,
+        *degeneracies*), ``einstein`` (*oscillators*: ``N`` distinguishable
+        oscillators, rule MB).
+    levels, dimension, gap, oscillators : optional
+        The preset's own parameters; giving *oscillators* alone means ``einstein``.
+
+    Returns
+    -------
+    System
+
+    Raises
+    ------
+    InvalidParameters
+        Missing levels or particles, both explicit levels and a preset, a
+        parameter the preset does not take, an unknown preset.
+    Unsupported
+        A capacity under MB.
+
+    Notes
+    -----
+    Validation only; cost linear in the number of levels given.
     """
     if preset is None:
         for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap")):
@@ -458,7 +587,19 @@ def make_system(
 def einstein_solid(oscillators) -> System:
     """``N`` distinguishable 1D oscillators sharing quanta: MB on the harmonic ladder.
 
-    The multiplicity of ``q`` quanta is ``C(q + N - 1, q)`` (stars and bars).
+    Parameters
+    ----------
+    oscillators : int
+        ``N >= 1``.
+
+    Returns
+    -------
+    System
+
+    Notes
+    -----
+    The multiplicity of ``q`` quanta is ``C(q + N - 1, q)`` (stars and bars);
+    Einstein's model of a solid (A. Einstein, Ann. Phys. 22, 180 (1907)).
     """
     n = as_count(oscillators, "oscillators", 1)
     spectrum = harmonic_oscillator()
@@ -491,8 +632,24 @@ def _preset_key(name: str) -> str:
 def ground_energy(system: System) -> Optional[int]:
     """The lowest total energy of *system*, in units (``None`` if no state exists).
 
+    Parameters
+    ----------
+    system : System
+
+    Returns
+    -------
+    int or None
+
+    Notes
+    -----
     Fill the single-particle states from the bottom, at most ``capacity`` per
-    state (common practice: the ground state of an ideal gas).
+    state (the ground state of an ideal gas, common practice).  Cost linear in
+    the number of levels filled.
+
+    Examples
+    --------
+    >>> ground_energy(System.create(harmonic_trap(), 4, "FD"))
+    3
     """
     n = system.particles
     if n == 0:
