@@ -22,7 +22,9 @@ from sympy.functions.combinatorial.numbers import nT, partition, stirling
 from enumerator import Occupancy
 from enumerator.algorithms.counting import (
     multinomial,
+    over_prime_power,
     partitions_at_most,
+    power_primes,
     twelvefold,
 )
 
@@ -292,3 +294,9 @@ def test_twelvefold_has_twelve_entries_in_order():
 
 def test_multinomial_helper_matches_sympy():
     assert int(multinomial([3, 2, 1])) == int(sympy.multinomial_coefficients(3, 6)[(3, 2, 1)])
+
+
+@pytest.mark.parametrize("count, r, n", [(12, 3, 4), (0, 2, 5), (96, 2, 5), (1, 6, 3), (360, 6, 3), (7, 1, 9)])
+def test_over_prime_power_is_the_reduced_fraction(count, r, n):
+    # Reference: Python's Fraction (gcd reduction) on the same quotient.
+    assert over_prime_power(count, r ** n, power_primes(r, n)) == Fraction(count, r ** n)

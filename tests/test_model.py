@@ -16,7 +16,7 @@ from enumerator import (
     Occupancy,
     Rule,
 )
-from enumerator.core.model import parse_bounds
+from enumerator.core.model import parse_bounds, parse_canonical_bounds
 
 
 @pytest.mark.parametrize(
@@ -138,3 +138,32 @@ def test_parse_bounds():
         parse_bounds("")
     with pytest.raises(InvalidParameters, match="above its upper bound"):
         Occupancy(balls=1, bounds="3:1")
+
+
+def test_rule_descriptions():
+    # Feller, vol. 1, ch. II.5 (from memory): MB balls are distinguishable and a vector
+    # k has n!/(k_1!...k_r!) equally likely assignments; BE and FD count each vector once.
+    assert [rule.distinguishable for rule in Rule] == [True, False, False]
+    assert [rule.generating for rule in Rule] == ["exponential", "ordinary", "ordinary"]
+    assert [rule.description.outcomes for rule in Rule] == ["microstates", "configurations", "configurations"]
+    assert Rule.FD.description.per_urn == 1 and Rule.BE.description.per_urn is None
+    assert Rule.MB.weight((2, 0, 1)) == 3 and Rule.BE.weight((2, 0, 1)) == 1
+    assert [rule.title for rule in Rule] == ["Maxwell–Boltzmann", "Bose–Einstein", "Fermi–Dirac"]
+
+
+@pytest.mark.parametrize("model", [
+    Occupancy(balls=5, urns=3, rule="BE", capacity=2),
+    Occupancy(balls=4, urns=6, rule="FD"),
+    Occupancy(balls=7, urns=2, rule="MB", minimum=1),
+    Occupancy(balls=3, bounds=[(0, 2), (1, None), (0, 0)], rule="MB"),
+])
+def test_canonical_bounds_read_back(model):
+    text = model.canonical_bounds()
+    assert Occupancy.from_canonical(model.rule, model.balls, text) == model
+    assert parse_canonical_bounds(text) == model.bounds
+
+
+def test_parse_canonical_bounds_rejects_other_text():
+    assert parse_canonical_bounds("2*1:") == ((1, None), (1, None))
+    with pytest.raises(InvalidParameters, match="canonical bounds must look like"):
+        parse_canonical_bounds("x*0:2")

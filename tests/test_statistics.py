@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 from fractions import Fraction
 
+import numpy as np
 import pytest
 import scipy.stats
 import sympy
@@ -23,6 +24,7 @@ import enumerator.algorithms.statistics as statistics
 from enumerator import Occupancy
 from enumerator.algorithms.counting import count_configurations, count_microstates
 from enumerator.algorithms.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
+from enumerator.algorithms.vocabulary import REGISTRY, STATISTICS
 from enumerator.core.errors import InvalidParameters, TooLarge
 
 STATS = ["empty", "occupied", "max", "min", "urn:1", "urn:2", "exactly:0", "exactly:1", "exactly:2",
@@ -337,3 +339,48 @@ def test_capped_binomial_moments_give_the_minimum_by_inclusion_exclusion(n, r, c
     expected = count_microstates(Occupancy(balls=n, urns=r, rule="MB", minimum=c + 1)) if n >= r * (c + 1) else 0
     assert alternating == expected
     assert moments[0] == r ** n
+
+
+# ---------------------------------------------------------------- the registry of statistics
+
+def test_registry_lists_every_statistic_once_in_the_documented_order():
+    assert STATISTICS == ("empty", "occupied", "max", "min", "urn:I", "exactly:J", "atleast:J", "profile")
+    assert set(REGISTRY) == {"empty", "occupied", "max", "min", "urn", "exactly", "atleast", "profile", "count"}
+
+
+@pytest.mark.parametrize("name", STATS + ["count"])
+def test_registry_block_values_equal_the_values_row_by_row(name):
+    # Reference: the entry's value on each vector of a brute-force box.
+    model = Occupancy(balls=5, urns=3, rule="BE")
+    stats = [Statistic("count", (op, 1)) for op in ("==", "!=", "<", "<=", ">", ">=")] if name == "count" \
+        else [parse_statistic(name)]
+    rows = list(box(model))
+    block = np.array(rows, dtype=np.int64)
+    for stat in stats:
+        values = stat.block_value(block)
+        assert [tuple(v) if stat.kind == "profile" else int(v) for v in values] == [stat.value(k) for k in rows]
+
+
+@settings(max_examples=25, deadline=None)
+@given(model=small_models(), op=st.sampled_from(["==", "!=", "<", "<=", ">", ">="]), j=st.integers(-1, 3))
+def test_count_conditions_follow_their_canonical_route(model, op, j):
+    # count(op j) has no name in dist, but its route (exactly/atleast or a constant) must
+    # agree with the brute-force law of its values.
+    stat = Statistic("count", (op, j))
+    counts, total = statistics.statistic_counts(model, stat)
+    law = {v: Fraction(c, total) for v, c in sorted(counts.items())}
+    found, whole = {}, 0
+    for k in box(model):
+        w = weight(model, k)
+        whole += w
+        found[stat.value(k)] = found.get(stat.value(k), 0) + w
+    assert law == {v: Fraction(c, whole) for v, c in sorted(found.items()) if c}
+
+
+def test_marks_and_event_spellings_come_from_the_registry():
+    assert [REGISTRY[k].marking(REGISTRY[k].least and 2) for k in ("empty", "occupied")] == [
+        ("exactly", 0), ("atleast", 1)]
+    assert Statistic("urn", 3).event_text == "k3" and Statistic("count", ("<=", 2)).event_text == "count(<= 2)"
+    assert Statistic("count", ("<=", 2)).name == "count(<= 2)"
+    with pytest.raises(InvalidParameters, match="unknown statistic 'count'"):
+        parse_statistic("count")

@@ -325,7 +325,7 @@ def over_prime_power(count, total, primes) -> Fraction:
     Parameters
     ----------
     count : int or mpz
-        The numerator, ``>= 0``.
+        The numerator, ``>= 0`` (0 gives ``Fraction(0)``).
     total : int or mpz
         The denominator, a product of the primes in *primes* (``r^n`` for the
         MB outcomes without bounds).
@@ -352,6 +352,8 @@ def over_prime_power(count, total, primes) -> Fraction:
     Fraction(4, 27)
     """
     num, den = mpz(count), mpz(total)
+    if num == 0:
+        return Fraction(0)
     for p, top in primes:
         stripped, times = gmpy2.remove(num, p)
         if times > top:
