@@ -79,6 +79,7 @@ import math
 import os
 import platform
 import random
+import re
 import statistics
 import subprocess
 import sys
@@ -1140,6 +1141,139 @@ def _store_overhead(ctx):
 
     return ctx.compare(Method("enumerator with store", stored), [Method("pure computation", pure)],
                        notes=["each call counts a new n, so the answers compared are the first calls' (n = 4000)"])
+
+
+# ---------------------------------------------------------------------------
+# start-up of the command line: whole processes (cli issue)
+# ---------------------------------------------------------------------------
+
+#: The peer of the start-up workloads: a Python process that imports one
+#: extension and prints one exact count (the configurations of the stored count).
+_STARTUP_PEER = "import gmpy2; print(gmpy2.comb(1199, 1000))"
+
+
+@dataclass
+class ProcessResult(Result):
+    """A timing of whole processes, whose ratio compares medians.
+
+    One process start is noisy (disk cache, scheduler, other jobs); the
+    minimum of a few starts is mostly luck, so the ratio is the ratio of
+    the medians of interleaved rounds.
+    """
+
+    @property
+    def ratio(self) -> Optional[float]:
+        f = self.fastest
+        if f is None or self.enumerator.median is None or not f.median:
+            return None
+        return self.enumerator.median / f.median
+
+
+def _process_env(pycache: str) -> Dict[str, str]:
+    """The environment of a timed process: this checkout, the store on, bytecode cached.
+
+    ``PYTHONDONTWRITEBYTECODE`` would make every start compile the package
+    from source, which an installed package never does; the bytecode goes
+    to a temporary ``PYTHONPYCACHEPREFIX`` instead (written by the warm-up
+    runs), so the checkout stays clean.  ``ENUMERATOR_NO_CACHE`` (set for the
+    in-process workloads) is dropped: the stored count must read its store.
+    """
+    env = dict(os.environ)
+    env.pop("ENUMERATOR_NO_CACHE", None)
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
+    env["PYTHONPYCACHEPREFIX"] = pycache
+    env["PYTHONPATH"] = str(ROOT) + os.pathsep + env.get("PYTHONPATH", "")
+    env["COLUMNS"] = "100"  # the same table width in every run
+    return env
+
+
+def _enumerator_argv(args: List[str]) -> List[str]:
+    """The console script next to this interpreter, else the same entry point through ``-c``."""
+    script = Path(sys.executable).with_name("enumerator")
+    if script.is_file():
+        return [str(script), *args]
+    return [sys.executable, "-c", "from enumerator.cli import main; main()", *args]
+
+
+def _timed_process(argv: List[str], env: Dict[str, str]):
+    """Run *argv* to the end; return its wall-clock seconds and stdout (an error if it fails)."""
+    t = perf_counter()
+    proc = subprocess.run(argv, env=env, capture_output=True, text=True, cwd=str(ROOT))
+    seconds = perf_counter() - t
+    if proc.returncode != 0:
+        raise RuntimeError(f"{' '.join(argv)} exited with {proc.returncode}:\n{proc.stderr}")
+    return seconds, proc.stdout
+
+
+def _startup(ctx: Context, label: str, args: List[str], answer: Callable[[str], Any],
+             compared: bool, notes: List[str]) -> Result:
+    """Time ``enumerator ARGS`` against the peer process in interleaved rounds; medians.
+
+    *answer* maps enumerator's stdout to its answer; with *compared* it must
+    equal the peer's printed integer, else the outputs are different things
+    and only enumerator's is checked (by *answer* raising).
+    """
+    import tempfile
+
+    rounds = 5 if ctx.quick else 21
+    with tempfile.TemporaryDirectory(prefix="enumerator-bench-startup-") as tmp:
+        env = _process_env(str(Path(tmp) / "pycache"))
+        ours_argv = _enumerator_argv([a.replace("{tmp}", tmp) for a in args])
+        peer_argv = [sys.executable, "-c", _STARTUP_PEER]
+        for _ in range(2):  # warm-up: bytecode written, the store filled, files in the page cache
+            _, ours_out = _timed_process(ours_argv, env)
+            _, peer_out = _timed_process(peer_argv, env)
+        ours_times, peer_times = [], []
+        for _ in range(rounds):
+            ours_times.append(_timed_process(ours_argv, env)[0])
+            peer_times.append(_timed_process(peer_argv, env)[0])
+    mine = Measurement(label, min(ours_times), statistics.median(ours_times), rounds, 1,
+                       agrees=True, answer=answer(ours_out))
+    other = Measurement("python -c gmpy2.comb (process)", min(peer_times), statistics.median(peer_times),
+                        rounds, 1, answer=int(peer_out))
+    result = ProcessResult("", "", mine, [other], notes=list(notes))
+    if compared:
+        other.agrees = other.answer == mine.answer
+        if not other.agrees:
+            result.mismatches.append(f"the peer printed {describe(other.answer)}, "
+                                     f"enumerator {describe(mine.answer)}")
+    result.notes.append(f"whole processes, {rounds} interleaved rounds after 2 warm-up rounds; "
+                        "the ratio is of the medians; bytecode cached as installed")
+    return result
+
+
+def _stored_configurations(text: str) -> int:
+    """The configurations of ``enumerator count``'s table (in the table or spilled below it)."""
+    found = re.search(r"^configurations = (\d+)$", text, re.M) or re.search(r"configurations\s*│\s*(\d+)", text)
+    if found is None:
+        raise RuntimeError(f"no configurations in the output of enumerator count:\n{text}")
+    return int(found.group(1))
+
+
+def _help_commands(text: str) -> str:
+    """Check that ``enumerator --help`` lists every command; return a short description."""
+    commands = ("count", "prob", "dist", "list", "gf", "coeff", "sample", "ways", "demo",
+                "compare", "levels", "contact", "table", "cache")
+    missing = [c for c in commands if not re.search(rf"\b{c}\b", text)]
+    if "Usage:" not in text or missing:
+        raise RuntimeError(f"enumerator --help does not list {', '.join(missing) or 'its usage'}:\n{text}")
+    return f"help text listing all {len(commands)} commands"
+
+
+@workload("startup-stored-count",
+          "process: enumerator count -n 1000 -r 200 --store S, answered from the store, against a gmpy2 one-liner",
+          target=at_most(4))
+def _startup_stored_count(ctx):
+    return _startup(ctx, "enumerator count (process)",
+                    ["count", "-n", "1000", "-r", "200", "--store", "{tmp}/stored.sqlite"],
+                    _stored_configurations, True,
+                    ["both print C(1199, 1000), the configurations (stars and bars, common practice)"])
+
+
+@workload("startup-help", "process: enumerator --help against a gmpy2 one-liner", target=at_most(3))
+def _startup_help(ctx):
+    return _startup(ctx, "enumerator --help (process)", ["--help"], _help_commands, False,
+                    ["the outputs differ (help text, a number): enumerator's is checked to list every command"])
 
 
 # ---------------------------------------------------------------------------

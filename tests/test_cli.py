@@ -530,6 +530,12 @@ def test_unusable_store_url_is_bad_input():
     assert len(result.stderr.splitlines()) == 1 and result.stderr.startswith("Error: ")
 
 
+def test_demo_leaves_the_store_untouched(tmp_path):
+    target = tmp_path / "default.sqlite"
+    assert run("demo", "--json", env={"ENUMERATOR_STORE": str(target)}).exit_code == 0
+    assert not target.exists()
+
+
 def test_demo_runs_all_three_rules():
     result = run("demo")
     assert result.exit_code == 0

@@ -5,10 +5,7 @@ from fractions import Fraction
 import typer
 
 from ..core.rules import Rule
-from .options import (
-    Json,
-    build_model,
-)
+from .options import Json, build_model, store_scope
 from .render import approx, console, emit_json, exact, show_table
 
 __all__ = ["commands"]
@@ -61,11 +58,14 @@ def demo_command(as_json: Json = False) -> None:
         $ enumerator demo --json
     """
     results = []
-    for rule in (Rule.MB, Rule.BE, Rule.FD):
-        model = build_model(_DEMO_BALLS, _DEMO_SITES, rule)
-        probabilities = [model.probability(k) for k in _DEMO_CONFIGS]
-        first = list(model.iter_configurations(0, _DEMO_LISTED))
-        results.append((model, model.configurations(), model.microstates(), probabilities, first))
+    # A demonstration leaves no trace: its tiny counts are computed afresh,
+    # never written into the user's result store (it offers no --store).
+    with store_scope(None, no_cache=True):
+        for rule in (Rule.MB, Rule.BE, Rule.FD):
+            model = build_model(_DEMO_BALLS, _DEMO_SITES, rule)
+            probabilities = [model.probability(k) for k in _DEMO_CONFIGS]
+            first = list(model.iter_configurations(0, _DEMO_LISTED))
+            results.append((model, model.configurations(), model.microstates(), probabilities, first))
 
     if as_json:
         emit_json(
