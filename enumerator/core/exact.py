@@ -23,7 +23,15 @@ from typing import Union
 
 import gmpy2
 
-__all__ = ["decimal_digits", "exact_text", "int_text", "is_exact_int", "parse_exact", "text_int"]
+__all__ = [
+    "coprime_fraction",
+    "decimal_digits",
+    "exact_text",
+    "int_text",
+    "is_exact_int",
+    "parse_exact",
+    "text_int",
+]
 
 Exact = Union[int, Fraction]
 
@@ -136,3 +144,30 @@ def decimal_digits(value: int) -> int:
         return 1
     estimate = gmpy2.num_digits(z, 10)  # exact or one too many
     return estimate - 1 if z < gmpy2.mpz(10) ** (estimate - 1) else estimate
+
+
+def coprime_fraction(numerator, denominator) -> Fraction:
+    """Return ``Fraction(numerator, denominator)`` for a pair already in lowest terms, without a gcd.
+
+    ``Fraction(p, q)`` recomputes ``gcd(p, q)`` with CPython's integer gcd,
+    which is quadratic: for numbers of millions of digits it takes minutes.
+    Callers that reduced the pair themselves (with GMP, or by removing the
+    only primes the denominator can have) use this instead.
+
+    Parameters
+    ----------
+    numerator, denominator : int or mpz
+        Coprime, with ``denominator > 0``; not checked beyond the sign.
+
+    Examples
+    --------
+    >>> coprime_fraction(3, 4)
+    Fraction(3, 4)
+    """
+    p, q = int(numerator), int(denominator)
+    if q <= 0:
+        raise ValueError("the denominator must be positive")
+    maker = getattr(Fraction, "_from_coprime_ints", None)  # Python 3.12+
+    if maker is not None:
+        return maker(p, q)
+    return Fraction(p, q, _normalize=False)  # Python 3.11
