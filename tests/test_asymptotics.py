@@ -687,7 +687,7 @@ def test_boltzmann_exact_matches_the_statistics_module(n, r, j):
     assert row.exact == distribution(model, "urn:1").probability(j)
 
 
-@pytest.mark.parametrize("name", ["", ".sweeps", ".catalogue", ".comparison"])
+@pytest.mark.parametrize("name", ["", ".sweeps", ".formulas", ".catalogue", ".comparison"])
 def test_module_doctests(name):
     import doctest
     import importlib

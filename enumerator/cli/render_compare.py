@@ -23,7 +23,7 @@ from typing import Iterable, List, Optional, Sequence, Tuple
 import mpmath
 
 from ..algorithms.asymptotics import CATALOGUE, Comparison
-from ..algorithms.asymptotics.catalogue import to_mpf
+from ..algorithms.asymptotics.formulas import to_mpf
 from ..core.errors import InvalidParameters, Unsupported
 from ..core.exact import exact_text
 from .render import console

@@ -3,7 +3,7 @@ r"""Asymptotic approximations, and how far each is from the exact value.
 A catalogue of classical approximations of occupancy quantities, each one a
 named approximation paired with the exact quantity (an exact ``int`` or
 ``Fraction``) it approximates and its published source, and the means to
-compare the two as the system grows.  The package has three rooms, and this
+compare the two as the system grows.  The package has four rooms, and this
 module gives their public names in one place (as :mod:`networkx.algorithms`
 gathers its topic modules):
 
@@ -11,6 +11,9 @@ gathers its topic modules):
     the points of a comparison: one parameter varied over a range, the
     others fixed or tied to it by a tiny integer arithmetic (never
     ``eval``), and the observed convergence order along a sweep;
+:mod:`~enumerator.algorithms.asymptotics.formulas`
+    the building blocks: Stirling's series, configurations proportional to
+    a pattern, the exact law of the number of empty urns, precision sizing;
 :mod:`~enumerator.algorithms.asymptotics.catalogue`
     the approximations (Stirling's series, the entropy of a configuration,
     the birthday problem, empty urns: mean, Poisson and normal laws, the
@@ -27,8 +30,9 @@ gathers its topic modules):
 
 from __future__ import annotations
 
-from .catalogue import CATALOGUE, Approximation, apportion, approximation, empty_urns_at_most, stirling_log_factorial
+from .catalogue import CATALOGUE, Approximation, approximation
 from .comparison import Comparison, Row, compare, compare_sweep
+from .formulas import apportion, empty_urns_at_most, stirling_log_factorial
 from .sweeps import NUMERIC, Point, Tie, observed_order, parse_factor, parse_pattern, parse_range, parse_tie, sweep
 
 __all__ = [

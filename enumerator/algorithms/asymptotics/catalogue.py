@@ -34,11 +34,10 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 from fractions import Fraction
-from typing import Dict, List, Optional, Sequence, Tuple, Union
+from typing import Dict, List, Optional, Tuple
 
 import gmpy2
 import mpmath
-from flint import fmpq, fmpz
 
 from ...core.errors import InvalidParameters, TooLarge
 from ...core.model import UrnModel, as_count
@@ -46,125 +45,16 @@ from ...core.rules import Rule
 from ..counting import configuration_weight, count_configurations, count_microstates
 from ..levels.ensembles import grand_canonical
 from ..levels.spectra import System, harmonic_oscillator
+from .formulas import Exact, apportion, decimal_digits, empty_urns_at_most, stirling_log_factorial
 from .sweeps import Point, parse_factor
 
 __all__ = [
     "Approximation",
     "CATALOGUE",
-    "apportion",
     "approximation",
-    "empty_urns_at_most",
-    "stirling_log_factorial",
-    "to_mpf",
 ]
 
-Exact = Union[int, Fraction]
 mpf = mpmath.mpf
-
-
-# ---------------------------------------------------------------------------
-# Exact helpers
-# ---------------------------------------------------------------------------
-def _ln_size(value: Exact) -> float:
-    """A cheap estimate of ``|ln |value||`` from bit lengths (for guard digits only)."""
-    if isinstance(value, Fraction):
-        bits = abs(value.numerator).bit_length() - value.denominator.bit_length()
-    else:
-        bits = abs(int(value)).bit_length()
-    return abs(bits) * 0.6931471805599453
-
-
-def _digits(value) -> int:
-    return len(str(abs(int(value)))) if abs(int(value)) < 10**18 else int(abs(int(value)).bit_length() * 0.30103) + 1
-
-
-def to_mpf(value: Exact):
-    """*value* as an mpf at the current precision (one rounding)."""
-    if isinstance(value, Fraction):
-        return mpf(value.numerator) / mpf(value.denominator)
-    return mpf(int(value))
-
-
-def stirling_log_factorial(n, terms: int):
-    r"""Stirling's series for ``ln n!`` with *terms* terms, as an mpf.
-
-    ``terms = 1``: ``n ln n - n + ½ ln(2πn)``; each further term adds
-    ``B_{2i} / (2i (2i-1) n^{2i-1})`` — ``1/(12n)``, ``-1/(360 n^3)``,
-    ``1/(1260 n^5)``, ... (Bernoulli numbers exact from FLINT).  For ``n > 0``
-    the series is enveloping: the error has the sign of, and is smaller than,
-    the first omitted term, so with *terms* terms it is ``O(n^{-(2 terms - 1)})``.
-    ``n = 0`` returns 0 (``0! = 1``; the series does not apply).  Evaluated at
-    the current mpmath precision.
-
-    References: Abramowitz & Stegun, *Handbook of Mathematical Functions*,
-    1964, 6.1.41 (with ``ln n! = ln Γ(n) + ln n``) and 6.1.42; NIST DLMF
-    §5.11(i)–(ii) (error bounds).
-    """
-    n = as_count(n, "n")
-    terms = as_count(terms, "terms", 1)
-    if n == 0:
-        return mpf(0)
-    x = mpf(n)
-    total = x * mpmath.log(x) - x + mpmath.log(2 * mpmath.pi * x) / 2
-    for i in range(1, terms):
-        b = fmpq.bernoulli(2 * i)
-        coefficient = mpf(int(b.p)) / (int(b.q) * 2 * i * (2 * i - 1))
-        total += coefficient / x ** (2 * i - 1)
-    return total
-
-
-def apportion(balls: int, pattern: Sequence[int]) -> Tuple[int, ...]:
-    """Split *balls* in proportion to *pattern* by largest remainders (Hamilton's method).
-
-    ``k_i = floor(n w_i / s)`` with ``s = sum w``; the balls left over go one
-    each to the urns with the largest remainders ``n w_i mod s``, the lower
-    index first among equal remainders.  Exact integers; ``sum k = n``, and
-    ``k = (n / s) w`` whenever ``s`` divides ``n``.
-    """
-    n = as_count(balls, "balls")
-    weights = [as_count(w, f"pattern entry {i}") for i, w in enumerate(pattern, start=1)]
-    total = sum(weights)
-    if not weights or total == 0:
-        raise InvalidParameters("pattern must have at least one positive entry, e.g. --pattern 3,2,1")
-    base = [n * w // total for w in weights]
-    left = n - sum(base)
-    order = sorted(range(len(weights)), key=lambda i: (-(n * weights[i] % total), i))
-    for i in order[:left]:
-        base[i] += 1
-    return tuple(base)
-
-
-def empty_urns_at_most(balls, urns, at) -> Fraction:
-    r"""``P(at most j urns empty)`` for ``n`` balls in ``r`` urns under MB, exact.
-
-    Two classical forms (Feller, *An Introduction to Probability Theory and
-    Its Applications*, vol. 1, 3rd ed., 1968, §IV.2):
-
-    * ``P(exactly i empty) = C(r, i) (r-i)! S(n, r-i) / r^n`` — choose the
-      empty urns, then map the balls onto the other ``r - i`` (Stirling
-      numbers of the second kind from FLINT); used for ``j < 4``, cost
-      ``j + 1`` Stirling numbers;
-    * inclusion–exclusion, ``P(exactly i empty) = sum_m (-1)^{m-i} C(m, i)
-      C(r, m) (1 - m/r)^n``, summed over ``i <= j`` with
-      ``sum_{i<=j} (-1)^i C(m, i) = (-1)^j C(m-1, j)``:
-      ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n``;
-      used for larger ``j``, cost ``r - j`` exact powers (gmpy2).
-    """
-    n = as_count(balls, "balls")
-    r = as_count(urns, "urns", 1)
-    j = as_count(at, "at")
-    mpz = gmpy2.mpz
-    if j < 4:
-        total = mpz(0)
-        for i in range(0, min(j, r) + 1):
-            occupied = r - i
-            total += gmpy2.comb(r, i) * gmpy2.fac(occupied) * mpz(int(fmpz.stirling_s2(n, occupied)))
-    else:
-        total = mpz(r) ** n
-        for m in range(j + 1, r + 1):
-            term = gmpy2.comb(r, m) * gmpy2.comb(m - 1, j) * mpz(r - m) ** n
-            total += -term if (m + j) & 1 else term
-    return Fraction(int(total), r**n)
 
 
 # ---------------------------------------------------------------------------
@@ -221,7 +111,7 @@ class Approximation:
     def guard(self, point: Point) -> int:
         """Digits the evaluation may lose to the size of the numbers involved."""
         sizes = [point.balls, point.urns or 1, point.capacity or 1, point.at or 1]
-        return 5 + max(_digits(max(1, s)) for s in sizes)
+        return 5 + max(decimal_digits(max(1, s)) for s in sizes)
 
     def __repr__(self) -> str:
         return f"<Approximation {self.name}: {self.quantity} ≈ {self.formula}>"
@@ -484,7 +374,7 @@ class EmptyNormal(Approximation):
             )
         at = point.at
         if at is None:
-            with mpmath.workdps(30 + _digits(point.urns) + _digits(point.balls)):
+            with mpmath.workdps(30 + decimal_digits(point.urns) + decimal_digits(point.balls)):
                 at = int(mpmath.floor(point.urns * mpmath.exp(-mpf(point.balls) / point.urns)))
         return replace(point, at=as_count(at, "at"))
 
@@ -794,7 +684,30 @@ CATALOGUE: Dict[str, Approximation] = _build_catalogue()
 
 
 def approximation(name: str) -> Approximation:
-    """The catalogue entry called *name* (case-insensitive)."""
+    """The catalogue entry called *name* (case-insensitive).
+
+    Parameters
+    ----------
+    name : str
+
+    Returns
+    -------
+    Approximation
+
+    Raises
+    ------
+    InvalidParameters
+        No entry has that name (the message lists the catalogue).
+
+    Notes
+    -----
+    A dictionary lookup in :data:`CATALOGUE`.
+
+    Examples
+    --------
+    >>> approximation(" Birthday ").name
+    'birthday'
+    """
     key = str(name).strip().lower()
     if key not in CATALOGUE:
         raise InvalidParameters(

@@ -33,7 +33,8 @@ from typing import Iterable, List, Optional, Tuple, Union
 import mpmath
 
 from ...core.errors import InvalidParameters, TooLarge, Unsupported
-from .catalogue import CATALOGUE, Approximation, Exact, _digits, _ln_size, approximation, to_mpf
+from .catalogue import CATALOGUE, Approximation, approximation
+from .formulas import Exact, decimal_digits, ln_size, to_mpf
 from .sweeps import NUMERIC, Point, observed_order, parse_range, sweep
 
 __all__ = ["Comparison", "MAX_DPS", "Row", "compare", "compare_sweep"]
@@ -107,7 +108,7 @@ def _evaluate(entry: Approximation, point: Point) -> Row:
     exact = entry.exact(point)
     if entry.scale == "log" and exact <= 0:
         raise Unsupported(f"{entry.name} compares logarithms but the exact value is {exact}")
-    guard = entry.guard(point) + _digits(max(1, int(_ln_size(exact)) + 1))
+    guard = entry.guard(point) + decimal_digits(max(1, int(ln_size(exact)) + 1))
     dps = 30 + guard
     while True:
         with mpmath.workdps(dps):
@@ -139,10 +140,39 @@ def _evaluate(entry: Approximation, point: Point) -> Row:
 def compare(name: Union[str, Approximation], points: Iterable[Point], variable: str = "balls") -> Comparison:
     """Evaluate approximation *name* against the exact quantity at every point.
 
-    Returns a :class:`Comparison` whose ``order_approx`` is
-    :func:`observed_order` of the relative errors against the parameter
-    *variable* (``None`` for a single point).
+    Parameters
+    ----------
+    name : str or Approximation
+        A catalogue name (:data:`~enumerator.algorithms.asymptotics.catalogue.CATALOGUE`) or an entry.
+    points : iterable of Point
+        Checked and completed by the entry's ``check``.
+    variable : str
+        The parameter the order is measured against (one of ``NUMERIC``).
 
+    Returns
+    -------
+    Comparison
+        Its ``order_approx`` is :func:`observed_order` of the relative errors
+        against *variable* (``None`` for a single point).
+
+    Raises
+    ------
+    InvalidParameters
+        An unknown name or variable, no points, a point the entry rejects.
+    TooLarge
+        An error below what :data:`MAX_DPS` digits resolve.
+    Unsupported
+        A log-scale entry whose exact value is not positive.
+
+    Notes
+    -----
+    Per point: the exact side once, then the approximation at a working
+    precision doubled from ``30 + guard`` digits until the relative error is
+    at least ``10^10`` times the rounding bound (module docstring).  Cost: the
+    entry's exact side plus ``O(log(P/P0))`` evaluations of its formula.
+
+    Examples
+    --------
     >>> result = compare("birthday", [Point(balls=23, urns=365)])
     >>> float(result.rows[0].exact)
     0.4927027656760146
@@ -177,14 +207,37 @@ def _split_names(names) -> List[Approximation]:
 
 
 def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **parameters) -> List[Comparison]:
-    """Compare one or more approximations over one :func:`sweep`.
+    """Compare one or more approximations over one :func:`~enumerator.algorithms.asymptotics.sweeps.sweep`.
 
-    *names* is ``"stirling1,stirling2"`` or a list of names.  Every
-    parameter given (and the varied one) must be one that each named
-    approximation uses (``balls`` always; the rest as listed in its
-    ``uses``), so that a forgotten or misspelt option is an error rather
-    than silently ignored.  Returns one :class:`Comparison` per name.
+    Parameters
+    ----------
+    names : str or sequence
+        ``"stirling1,stirling2"``, or a list of names or entries.
+    vary, step, geometric, **parameters
+        As :func:`~enumerator.algorithms.asymptotics.sweeps.sweep` takes them.
+        Every parameter given (and the varied one) must be one that each named
+        approximation uses (``balls`` always; the rest as listed in its
+        ``uses``), so that a forgotten or misspelt option is an error rather
+        than silently ignored.
 
+    Returns
+    -------
+    list of Comparison
+        One per name, in order.
+
+    Raises
+    ------
+    InvalidParameters
+        No name, an unknown name, a parameter an approximation does not use,
+        and whatever :func:`~enumerator.algorithms.asymptotics.sweeps.sweep`
+        and :func:`compare` raise.
+
+    Notes
+    -----
+    One sweep, shared by every name; cost the sum of the :func:`compare` calls.
+
+    Examples
+    --------
     >>> [c.approximation.name for c in compare_sweep("stirling1,stirling2", "balls=10..20", step=10, urns="balls")]
     ['stirling1', 'stirling2']
     """

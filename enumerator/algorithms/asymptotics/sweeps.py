@@ -82,7 +82,31 @@ NUMERIC = ("balls", "urns", "capacity", "minimum", "at")
 
 
 def parse_factor(value) -> Fraction:
-    """A Boltzmann factor ``e^{-ε/T}``: an exact fraction strictly between 0 and 1 (``"1/2"``, ``"0.3"``)."""
+    """A Boltzmann factor ``e^{-ε/T}``: an exact fraction strictly between 0 and 1.
+
+    Parameters
+    ----------
+    value : Fraction, int or str
+        ``"1/2"``, ``"0.3"`` (decimal text is exact).
+
+    Returns
+    -------
+    Fraction
+
+    Raises
+    ------
+    InvalidParameters
+        Not a number, not exact (a float), or outside ``(0, 1)``.
+
+    Notes
+    -----
+    ``fractions.Fraction`` parses the text; cost linear in its length.
+
+    Examples
+    --------
+    >>> parse_factor("0.25")
+    Fraction(1, 4)
+    """
     if isinstance(value, Fraction):
         number = value
     elif isinstance(value, (int, str)) and not isinstance(value, bool):
@@ -105,10 +129,29 @@ def parse_factor(value) -> Fraction:
 def observed_order(xs: Sequence, errors: Sequence) -> Optional[float]:
     """Minus the least-squares slope of ``ln |error|`` against ``ln x``.
 
-    An error ``~ C x^{-p}`` gives ``p``.  Points with an error of 0 or
-    ``None`` are left out; ``None`` unless two distinct ``x`` remain.  The
-    logarithms come from mpmath (errors may be below float range) and the
-    fit is done in floats: the result is an approximation.
+    Parameters
+    ----------
+    xs : sequence
+        The varied parameter at each point (``None`` or ``<= 0``: left out).
+    errors : sequence
+        The errors at those points (mpmath numbers, floats or ``None``).
+
+    Returns
+    -------
+    float or None
+        ``p`` for an error ``~ C x^{-p}``; ``None`` unless two distinct ``x``
+        remain once points with an error of 0 or ``None`` are left out.
+
+    Notes
+    -----
+    Ordinary least squares on the log-log points.  The logarithms come from
+    mpmath (errors may be below float range) and the fit is done in floats:
+    the result is an approximation.  Cost linear in the number of points.
+
+    Examples
+    --------
+    >>> round(observed_order([10, 100, 1000], [1e-2, 1e-4, 1e-6]), 12)
+    2.0
     """
     pairs = [
         (float(mpmath.log(x)), float(mpmath.log(abs(mpf(e)))))
@@ -203,7 +246,39 @@ def _evaluate_tree(tree, value, tie) -> Fraction:
 
 
 def parse_tie(text, variable: Optional[str] = None) -> Tie:
-    """Parse a parameter value: an integer or an expression of *variable* (see :class:`Tie`)."""
+    """Parse a parameter value: an integer or an expression of *variable* (see :class:`Tie`).
+
+    Parameters
+    ----------
+    text : int or str
+        ``365``, ``"balls//2"``, ``"balls*balls+1"``.
+    variable : str, optional
+        The one name the expression may mention (the varied parameter);
+        ``None`` when nothing is varied.
+
+    Returns
+    -------
+    Tie
+        Call it with the varied value to get the whole number.
+
+    Raises
+    ------
+    InvalidParameters
+        A boolean, an empty value, a name other than *variable*, or text the
+        grammar does not read (the message gives the column).
+
+    Notes
+    -----
+    A tokenizer and a recursive-descent parser of the grammar in :class:`Tie`
+    (the classic expression grammar, e.g. A. V. Aho, M. S. Lam, R. Sethi and
+    J. D. Ullman, *Compilers*, 2nd ed., 2006, ch. 2); nothing is passed to
+    ``eval``.  Cost linear in the length of *text*.
+
+    Examples
+    --------
+    >>> parse_tie("balls//2", "balls")(11)
+    5
+    """
     if isinstance(text, bool):
         raise InvalidParameters("a parameter must be a whole number or an expression, not a boolean")
     if isinstance(text, int):
@@ -285,7 +360,33 @@ _RANGE = re.compile(r"\s*([A-Za-z_]\w*)\s*=\s*(\d+)\s*\.\.\s*(\d+)\s*")
 
 
 def parse_range(text: str) -> Tuple[str, int, int]:
-    """Parse ``"balls=10..1000"`` into ``("balls", 10, 1000)``."""
+    """Parse ``"balls=10..1000"`` into ``("balls", 10, 1000)``.
+
+    Parameters
+    ----------
+    text : str
+        ``NAME=START..STOP`` with NAME one of :data:`NUMERIC` and whole
+        numbers ``START <= STOP`` (spaces allowed around each part).
+
+    Returns
+    -------
+    tuple of (str, int, int)
+
+    Raises
+    ------
+    InvalidParameters
+        Text of another shape, an unknown name, ``START > STOP``.
+
+    Notes
+    -----
+    One regular expression; cost linear in the length of *text*.  (The store's
+    tables read a plain ``START..STOP`` of their own, without a name.)
+
+    Examples
+    --------
+    >>> parse_range(" urns = 2 .. 9 ")
+    ('urns', 2, 9)
+    """
     match = _RANGE.fullmatch(str(text))
     if not match:
         raise InvalidParameters(
@@ -322,7 +423,30 @@ def _grid(start: int, stop: int, step: Optional[int], geometric: Optional[int]) 
 
 
 def parse_pattern(value) -> Tuple[int, ...]:
-    """A pattern ``"3,2,1"`` (or a sequence of whole numbers) as a tuple of ints."""
+    """A pattern ``"3,2,1"`` (or a sequence of whole numbers) as a tuple of ints.
+
+    Parameters
+    ----------
+    value : str or sequence of int
+
+    Returns
+    -------
+    tuple of int
+
+    Raises
+    ------
+    InvalidParameters
+        An entry that is not a whole number ``>= 0``.
+
+    Notes
+    -----
+    Cost linear in the number of entries.
+
+    Examples
+    --------
+    >>> parse_pattern("3, 2,1")
+    (3, 2, 1)
+    """
     items = value.split(",") if isinstance(value, str) else list(value)
     out = []
     for i, item in enumerate(items, start=1):
@@ -339,19 +463,46 @@ def parse_pattern(value) -> Tuple[int, ...]:
 def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -> Tuple[str, List[Point]]:
     """Build the points of a comparison: one parameter varied, the others fixed or tied.
 
-    *vary* is ``"NAME=START..STOP"`` (NAME one of ``balls``, ``urns``,
-    ``capacity``, ``minimum``, ``at``); the values are ``START, START+step,
-    ...`` with *step*, or *geometric* points spaced evenly on a log scale
-    from START to STOP (rounded, duplicates dropped; the default is 10 such
-    points).  Every other keyword (``balls``, ``urns``, ``capacity``,
-    ``minimum``, ``at``) is an ``int`` or a :class:`Tie` expression of the
-    varied name (``urns="balls//2"``); ``rule`` (a rule name), ``pattern``
-    (whole numbers, ``"3,2,1"``) and ``factor`` (a fraction, ``"1/2"``) are
-    fixed.  Without *vary* the
-    result is the single point of fixed values.
+    Parameters
+    ----------
+    vary : str, optional
+        ``"NAME=START..STOP"`` (NAME one of ``balls``, ``urns``, ``capacity``,
+        ``minimum``, ``at``; :func:`parse_range`).  Without it the result is
+        the single point of fixed values.
+    step : int, optional
+        The values are ``START, START+step, ...`` up to STOP.
+    geometric : int, optional
+        Or this many values spaced evenly on a log scale from START to STOP
+        (rounded, duplicates dropped); the default is 10 such values.
+    **parameters
+        ``balls``, ``urns``, ``capacity``, ``minimum``, ``at``: an ``int`` or a
+        :class:`Tie` expression of the varied name (``urns="balls//2"``);
+        ``rule`` (a rule name), ``pattern`` (whole numbers, ``"3,2,1"``) and
+        ``factor`` (a fraction, ``"1/2"``) are fixed.  ``None`` values are
+        ignored.
 
-    Returns ``(variable, points)``.
+    Returns
+    -------
+    variable : str
+        The varied name (``"balls"`` for a single point).
+    points : list of Point
 
+    Raises
+    ------
+    InvalidParameters
+        An unknown parameter, a malformed range or tie, the varied parameter
+        also given a value, both *step* and *geometric*, a value below 0 at
+        some point, no ``balls`` at all.
+    TooLarge
+        More than :data:`MAX_POINTS` points.
+
+    Notes
+    -----
+    Geometric spacing rounds ``START (STOP/START)^{i/(k-1)}`` at 40 digits.
+    Cost: each tie evaluated once per point, linear in its length.
+
+    Examples
+    --------
     >>> variable, points = sweep("balls=10..40", step=10, urns="balls//2")
     >>> variable, [(p.balls, p.urns) for p in points]
     ('balls', [(10, 5), (20, 10), (30, 15), (40, 20)])

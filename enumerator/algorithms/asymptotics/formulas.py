@@ -1,0 +1,227 @@
+r"""The formulas the catalogue is built from: exact sides, Stirling's series, sizes.
+
+* :func:`stirling_log_factorial` -- Stirling's series for ``ln n!`` with any
+  number of terms (Abramowitz & Stegun 6.1.41);
+* :func:`apportion` -- a configuration proportional to a pattern, by
+  largest remainders;
+* :func:`empty_urns_at_most` -- the exact law of the number of empty urns
+  under MB (Feller, vol. 1, §IV.2);
+* :func:`to_mpf`, :func:`decimal_digits`, :func:`ln_size` -- moving exact
+  values into mpmath and sizing the working precision for them.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from typing import Sequence, Tuple, Union
+
+import gmpy2
+import mpmath
+from flint import fmpq, fmpz
+
+from ...core.errors import InvalidParameters
+from ...core.model import as_count
+
+__all__ = [
+    "Exact",
+    "apportion",
+    "decimal_digits",
+    "empty_urns_at_most",
+    "ln_size",
+    "stirling_log_factorial",
+    "to_mpf",
+]
+
+#: An exact value: a count or a probability.
+Exact = Union[int, Fraction]
+mpf = mpmath.mpf
+
+
+# ---------------------------------------------------------------------------
+# Sizes and precision
+# ---------------------------------------------------------------------------
+def ln_size(value: Exact) -> float:
+    """A cheap estimate of ``|ln |value||`` from bit lengths (for guard digits only)."""
+    if isinstance(value, Fraction):
+        bits = abs(value.numerator).bit_length() - value.denominator.bit_length()
+    else:
+        bits = abs(int(value)).bit_length()
+    return abs(bits) * 0.6931471805599453
+
+
+def decimal_digits(value) -> int:
+    """The number of decimal digits of ``|int(value)|`` (estimated from the bit length above 10^18)."""
+    return len(str(abs(int(value)))) if abs(int(value)) < 10**18 else int(abs(int(value)).bit_length() * 0.30103) + 1
+
+
+def to_mpf(value: Exact):
+    """*value* as an mpf at the current mpmath precision.
+
+    Parameters
+    ----------
+    value : int or Fraction
+
+    Returns
+    -------
+    mpmath.mpf
+
+    Notes
+    -----
+    An integer is rounded once; a fraction is the quotient of its two
+    rounded integers (at most three roundings, so within a few units in the
+    last place).  Cost: one mpmath division at the working precision.
+    """
+    if isinstance(value, Fraction):
+        return mpf(value.numerator) / mpf(value.denominator)
+    return mpf(int(value))
+
+
+def stirling_log_factorial(n, terms: int):
+    """Stirling's series for ``ln n!`` with *terms* terms, as an mpf.
+
+    Parameters
+    ----------
+    n : int
+        ``n >= 0``; ``n = 0`` returns 0 (``0! = 1``; the series does not apply).
+    terms : int
+        ``>= 1``.
+
+    Returns
+    -------
+    mpmath.mpf
+        At the current mpmath precision.
+
+    Raises
+    ------
+    InvalidParameters
+        A negative *n* or *terms* below 1.
+
+    Notes
+    -----
+    ``terms = 1``: ``n ln n - n + ½ ln(2πn)``; each further term adds
+    ``B_{2i} / (2i (2i-1) n^{2i-1})`` — ``1/(12n)``, ``-1/(360 n^3)``,
+    ``1/(1260 n^5)``, ... (Bernoulli numbers exact from FLINT).  For ``n > 0``
+    the series is enveloping: the error has the sign of, and is smaller than,
+    the first omitted term, so with *terms* terms it is ``O(n^{-(2 terms - 1)})``.
+    Cost: *terms* mpmath operations.
+
+    References: Abramowitz & Stegun, *Handbook of Mathematical Functions*,
+    1964, 6.1.41 (with ``ln n! = ln Γ(n) + ln n``) and 6.1.42; NIST DLMF
+    §5.11(i)–(ii) (error bounds).
+    """
+    n = as_count(n, "n")
+    terms = as_count(terms, "terms", 1)
+    if n == 0:
+        return mpf(0)
+    x = mpf(n)
+    total = x * mpmath.log(x) - x + mpmath.log(2 * mpmath.pi * x) / 2
+    for i in range(1, terms):
+        b = fmpq.bernoulli(2 * i)
+        coefficient = mpf(int(b.p)) / (int(b.q) * 2 * i * (2 * i - 1))
+        total += coefficient / x ** (2 * i - 1)
+    return total
+
+
+def apportion(balls: int, pattern: Sequence[int]) -> Tuple[int, ...]:
+    """Split *balls* in proportion to *pattern* by largest remainders (Hamilton's method).
+
+    Parameters
+    ----------
+    balls : int
+        ``n >= 0``.
+    pattern : sequence of int
+        Whole numbers ``w_i >= 0``, at least one positive.
+
+    Returns
+    -------
+    tuple of int
+        ``k`` with ``sum k = n``, and ``k = (n / s) w`` whenever ``s = sum w``
+        divides ``n``.
+
+    Raises
+    ------
+    InvalidParameters
+        A negative entry or no positive one.
+
+    Notes
+    -----
+    ``k_i = floor(n w_i / s)``; the balls left over go one each to the urns
+    with the largest remainders ``n w_i mod s``, the lower index first among
+    equal remainders (A. Hamilton's apportionment, 1792; M. L. Balinski and
+    H. P. Young, *Fair Representation*, 2nd ed., 2001).  Exact integers; cost
+    ``O(r log r)`` for ``r`` entries.
+
+    Examples
+    --------
+    >>> apportion(10, (3, 2, 1))
+    (5, 3, 2)
+    """
+    n = as_count(balls, "balls")
+    weights = [as_count(w, f"pattern entry {i}") for i, w in enumerate(pattern, start=1)]
+    total = sum(weights)
+    if not weights or total == 0:
+        raise InvalidParameters("pattern must have at least one positive entry, e.g. --pattern 3,2,1")
+    base = [n * w // total for w in weights]
+    left = n - sum(base)
+    order = sorted(range(len(weights)), key=lambda i: (-(n * weights[i] % total), i))
+    for i in order[:left]:
+        base[i] += 1
+    return tuple(base)
+
+
+def empty_urns_at_most(balls, urns, at) -> Fraction:
+    """``P(at most j urns empty)`` for ``n`` balls in ``r`` urns under MB, exact.
+
+    Parameters
+    ----------
+    balls : int
+        ``n >= 0``.
+    urns : int
+        ``r >= 1``.
+    at : int
+        ``j >= 0``.
+
+    Returns
+    -------
+    Fraction
+
+    Raises
+    ------
+    InvalidParameters
+        A negative count or no urns.
+
+    Notes
+    -----
+    Two classical forms (Feller, *An Introduction to Probability Theory and
+    Its Applications*, vol. 1, 3rd ed., 1968, §IV.2):
+
+    * ``P(exactly i empty) = C(r, i) (r-i)! S(n, r-i) / r^n`` — choose the
+      empty urns, then map the balls onto the other ``r - i`` (Stirling
+      numbers of the second kind from FLINT); used for ``j < 4``, cost
+      ``j + 1`` Stirling numbers;
+    * inclusion–exclusion, ``P(exactly i empty) = sum_m (-1)^{m-i} C(m, i)
+      C(r, m) (1 - m/r)^n``, summed over ``i <= j`` with
+      ``sum_{i<=j} (-1)^i C(m, i) = (-1)^j C(m-1, j)``:
+      ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n``;
+      used for larger ``j``, cost ``r - j`` exact powers (gmpy2).
+
+    Examples
+    --------
+    >>> empty_urns_at_most(3, 3, 0)
+    Fraction(2, 9)
+    """
+    n = as_count(balls, "balls")
+    r = as_count(urns, "urns", 1)
+    j = as_count(at, "at")
+    mpz = gmpy2.mpz
+    if j < 4:
+        total = mpz(0)
+        for i in range(0, min(j, r) + 1):
+            occupied = r - i
+            total += gmpy2.comb(r, i) * gmpy2.fac(occupied) * mpz(int(fmpz.stirling_s2(n, occupied)))
+    else:
+        total = mpz(r) ** n
+        for m in range(j + 1, r + 1):
+            term = gmpy2.comb(r, m) * gmpy2.comb(m - 1, j) * mpz(r - m) ** n
+            total += -term if (m + j) & 1 else term
+    return Fraction(int(total), r**n)
