@@ -7,8 +7,6 @@ comparisons to :mod:`enumerator.cli.render_compare` (wide tables, CSV, one
 JSON object, or a plot).
 """
 
-from __future__ import annotations
-
 import sys
 from typing import Annotated, Optional
 

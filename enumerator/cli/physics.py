@@ -7,8 +7,6 @@ the library and hands the results to :mod:`enumerator.cli.render_levels`
 ``--store``/``--no-cache``.
 """
 
-from __future__ import annotations
-
 from fractions import Fraction
 from typing import Annotated, Optional
 
