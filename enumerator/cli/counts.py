@@ -163,14 +163,39 @@ def prob_command(
 
 
 def _limit(limit: Optional[int]) -> int:
-    """The ``--limit`` of dist/prob, or the library default."""
+    """The ``--limit`` of dist/prob, or the library default.
+
+    Parameters
+    ----------
+    limit : int or None
+        The option's value.
+
+    Returns
+    -------
+    int
+        At least 1.
+
+    Raises
+    ------
+    InvalidParameters
+        *limit* is not a whole number >= 1.
+    """
     from ..algorithms.statistics import DEFAULT_LIMIT
 
     return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
 
 
 def _value_text(value) -> str:
-    """A statistic's value as a JSON key: decimal digits, or a profile's parts joined by '+'."""
+    """A statistic's value as a JSON key: decimal digits, or a profile's parts joined by '+'.
+
+    Parameters
+    ----------
+    value : int or tuple of int
+
+    Returns
+    -------
+    str
+    """
     if isinstance(value, tuple):
         return "+".join(map(str, value))
     return str(value)

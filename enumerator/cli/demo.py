@@ -39,6 +39,16 @@ _DEMO_STORY = {
 
 
 def _demo_cell(p: Fraction) -> str:
+    """A probability cell of the demo: ``0``, or the exact value and its rounded value.
+
+    Parameters
+    ----------
+    p : Fraction
+
+    Returns
+    -------
+    str
+    """
     return "0" if p == 0 else f"{exact(p)} ≈ {approx(p):.4f}"
 
 

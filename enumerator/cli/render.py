@@ -31,6 +31,7 @@ if TYPE_CHECKING:  # pragma: no cover - annotations only
 
 __all__ = [
     "NARROW",
+    "abbreviate",
     "approx",
     "console",
     "describe",
@@ -169,6 +170,30 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
     for label, cell in spill:
         sys.stdout.write(f"{label} = {cell}\n")
     sys.stdout.flush()
+
+
+def abbreviate(text: str, width: int = 10) -> str:
+    """A long number as ``head…[digits]``, for previews only (exports are exact).
+
+    Parameters
+    ----------
+    text : str
+        The number's decimal digits (or any text).
+    width : int
+        Texts up to this length are returned whole.
+
+    Returns
+    -------
+    str
+        *text*, or its first two characters and its length: ``12…[2302]``.
+
+    Notes
+    -----
+    Cost: constant beyond the length check.
+    """
+    if len(text) <= width:
+        return text
+    return f"{text[:2]}…[{len(text)}]"
 
 
 def describe(model: "Occupancy") -> str:

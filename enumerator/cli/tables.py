@@ -15,7 +15,7 @@ from .options import (
     RuleOpt,
     Store,
 )
-from .render import console, emit_json, exact, show_table
+from .render import abbreviate, console, emit_json, exact, show_table
 
 __all__ = ["commands"]
 
@@ -65,14 +65,56 @@ class EntryFormat(str, Enum):
 
 
 def _open_store(location: Optional[str]):
-    """The store named by ``--store`` (else the default); table and cache commands always use one."""
-    from .. import store as results
+    """The store named by ``--store``, else the default one.
 
-    return results.open_store(location)
+    Parameters
+    ----------
+    location : str or None
+        A SQLite file path or a database URL.
+
+    Returns
+    -------
+    Store
+
+    Raises
+    ------
+    StoreError
+        The store cannot be opened.
+
+    Notes
+    -----
+    Table and cache commands always work on a store, so ``--no-cache`` has no
+    meaning for them.  Cost: opening the store (importing SQLAlchemy on first use).
+    """
+    from ..store.context import open_store
+
+    return open_store(location)
 
 
 def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
-    """Write *lines* to the file *output* (or stdout); return how many."""
+    """Write *lines* to the file *output*, or to stdout.
+
+    Parameters
+    ----------
+    lines : iterable of str
+        Each with its own line ending.
+    output : str or None
+        ``--output``: a file path; ``None`` for stdout.
+
+    Returns
+    -------
+    int
+        How many lines were written.
+
+    Raises
+    ------
+    StoreError
+        The file cannot be written (the message names ``--output``).
+
+    Notes
+    -----
+    Streams: nothing is held beyond one line.  Cost: linear in the output.
+    """
     count = 0
     if output is None:
         for line in lines:
@@ -93,23 +135,36 @@ def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
 
 
 def _range_text(values: range) -> str:
+    """A grid range as the ``START..STOP`` text it was given in (both ends included).
+
+    Parameters
+    ----------
+    values : range
+
+    Returns
+    -------
+    str
+    """
     return f"{values.start}..{values.stop - 1}"
 
 
 def _bounds_words(spec) -> str:
+    """A table's uniform bounds in words, e.g. ``at least 1 and at most 4 per urn``.
+
+    Parameters
+    ----------
+    spec : TableSpec
+
+    Returns
+    -------
+    str
+    """
     limits = []
     if spec.minimum:
         limits.append(f"at least {spec.minimum}")
     if spec.capacity is not None and not (spec.rule == "FD" and spec.capacity == 1):
         limits.append(f"at most {spec.capacity}")
     return " and ".join(limits) + " per urn" if limits else "any number per urn"
-
-
-def _short(text: str, width: int = 10) -> str:
-    """A long number as ``head…[digits]`` (previews only; exports are exact)."""
-    if len(text) <= width:
-        return text
-    return f"{text[:2]}…[{len(text)}]"
 
 
 @table_app.command("build")
@@ -295,7 +350,7 @@ def table_show_command(
         f"{spec.cells - data.missing}/{spec.cells} cells built",
         ["n \\ r"] + [str(r) for r in cols],
         [
-            [str(n)] + [_short(data.cells[(n, r)][0]) if (n, r) in data.cells else "·" for r in cols]
+            [str(n)] + [abbreviate(data.cells[(n, r)][0]) if (n, r) in data.cells else "·" for r in cols]
             for n in rows
         ],
     )
@@ -432,7 +487,7 @@ def cache_verify_command(
             sys.stdout.write(
                 f"MISMATCH {m['quantity']} {m['rule']} n={m['balls']} bounds {m['bounds']}"
                 f"{' ' + m['params'] if m['params'] else ''} v{m['version']}: {m['problem']}; "
-                f"stored {_short(m['stored'], 40)}, recomputed {_short(m['expected'], 40)}\n"
+                f"stored {abbreviate(m['stored'], 40)}, recomputed {abbreviate(m['expected'], 40)}\n"
             )
         sys.stdout.write(
             f"Checked {report['checked']} entries of {target.name}: {len(mismatches)} mismatches"
