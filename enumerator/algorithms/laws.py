@@ -361,7 +361,7 @@ def _free_binomial_moments(n: int, r: int, rule: Rule, low: int, high: Optional[
                 B.append(comb(r, j) * comb(rest + r - 1, r - 1))
             return "direct", B
         return None
-    if rule is not Rule.MB:
+    if not rule.distinguishable:  # FD: no closed form here
         return None
     fac = gmpy2.fac
     if high is not None and high == low:

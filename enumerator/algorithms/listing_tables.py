@@ -107,6 +107,22 @@ class Plan:
 
 
 def plan_for(model) -> Plan:
+    """Return the model's :class:`Plan`, built once and kept in :data:`MEMO`.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The model.
+
+    Returns
+    -------
+    Plan
+        Shifted bounds and suffix capacities.
+
+    Notes
+    -----
+    ``O(r)`` on the first call for a model, a dictionary look-up after.
+    """
     memo = _MEMO.slots(model)
     plan = memo.get("listing.plan")
     if plan is None:
@@ -598,6 +614,31 @@ class _Ranker:
 
 
 def ranker_for(memo: dict, plan: Plan) -> _Ranker:
+    """Return the suffix counts behind rank/unrank for *plan*, built once per model.
+
+    Parameters
+    ----------
+    memo : dict
+        The model's slots in :data:`MEMO`.
+    plan : Plan
+        The model's plan.
+
+    Returns
+    -------
+    _Ranker
+        Carried binomials or the table of prefix sums ``P_j(m)``.
+
+    Raises
+    ------
+    TooLarge
+        when the table would exceed :data:`RANK_TABLE_LIMIT` bytes.
+
+    Notes
+    -----
+    Ranking by counting (Nijenhuis and Wilf, *Combinatorial Algorithms*,
+    2nd ed., 1978): ``O(1)`` set-up without biting bounds, else an
+    ``O(r n')`` table of big-integer prefix sums.
+    """
     got = memo.get("listing.ranker")
     if got is None:
         got = memo["listing.ranker"] = _Ranker(plan)
@@ -605,4 +646,22 @@ def ranker_for(memo: dict, plan: Plan) -> _Ranker:
 
 
 def count_for(memo: dict, plan: Plan) -> int:
+    """Return the number of admissible vectors of *plan*, from its suffix counts.
+
+    Parameters
+    ----------
+    memo : dict
+        The model's slots in :data:`MEMO`.
+    plan : Plan
+        The model's plan.
+
+    Returns
+    -------
+    int
+        The exact count (the ranks run over ``[0, count)``).
+
+    Notes
+    -----
+    Read off :func:`ranker_for` (same cost).
+    """
     return ranker_for(memo, plan).count
