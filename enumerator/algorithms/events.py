@@ -168,50 +168,62 @@ def _interval(op: str, value: int):
     return None
 
 
+def _window(entry, parameter):
+    """The occupancies ``(low, high)`` a counting statistic counts (``high`` None: no end)."""
+    how, J = entry.marking(parameter)
+    return (J, J) if how == "exactly" else (J, None)
+
+
+def _outside(window):
+    """The occupancies outside *window* as one interval, or None when they are not one."""
+    low, high = window
+    if high is None:
+        return (None, low - 1) if low > 0 else None
+    return (high + 1, None) if low == 0 else None
+
+
 def _classify(atom: _Atom, r: int):
     """``(positive boxes, negated boxes)`` equivalent to *atom*, or None.
 
-    ``max <= m`` bounds every urn above, ``min >= m`` below, ``k_i op v`` urn
-    ``i``; "at least ``J`` in every urn" (``atleast:J == r``) and "no urn
-    with ``J`` or more" (``atleast:J == 0``) are bounds too.  A negated box
-    ``C`` stands for ``not C``.
+    Read from the statistic's registry entry: an urn's occupancy (``k_i op
+    v``) bounds urn ``i``; an extreme bounds every urn (``max <= m`` above,
+    ``min >= m`` below); a counting statistic equal to ``r`` puts every urn
+    in its marking window ("at least ``J`` in every urn") and equal to 0
+    puts every urn outside it when the outside is an interval ("no urn with
+    ``J`` or more").  A negated box ``C`` stands for ``not C``.
     """
     key, op, v = atom.key, atom.op, atom.value
-    head = key.kind
-    if head == "urn":
+    entry = key.entry
+    if entry.indexes_urns:
         index = key.parameter - 1
         if op == "!=":
             return [], [{index: (v, v)}]
         return [{index: _interval(op, v)}], []
-    if head == "max":
+    if entry.extreme is not None:
         if op == "!=":
             return None
         low, high = _interval(op, v)
-        pos = [{"all": (None, high)}] if high is not None else []
-        neg = [{"all": (None, low - 1)}] if low is not None else []
+        if entry.extreme == "max":
+            pos = [{"all": (None, high)}] if high is not None else []
+            neg = [{"all": (None, low - 1)}] if low is not None else []
+        else:
+            pos = [{"all": (low, None)}] if low is not None else []
+            neg = [{"all": (high + 1, None)}] if high is not None else []
         return pos, neg
-    if head == "min":
-        if op == "!=":
-            return None
-        low, high = _interval(op, v)
-        pos = [{"all": (low, None)}] if low is not None else []
-        neg = [{"all": (high + 1, None)}] if high is not None else []
-        return pos, neg
-    J = key.parameter
-    if head == "atleast":
-        if (op, v) in (("==", r), (">=", r), (">", r - 1)):
-            return [{"all": (J, None)}], []
-        if (op, v) in (("!=", r), ("<", r), ("<=", r - 1)):
-            return [], [{"all": (J, None)}]
-        if (op, v) in (("==", 0), ("<=", 0), ("<", 1)):
-            return [{"all": (None, J - 1)}], []
-        if (op, v) in (("!=", 0), (">=", 1), (">", 0)):
-            return [], [{"all": (None, J - 1)}]
+    if entry.marking is None:
         return None
+    window = _window(entry, key.parameter)
     if (op, v) in (("==", r), (">=", r), (">", r - 1)):
-        return [{"all": (J, J)}], []
+        return [{"all": window}], []
     if (op, v) in (("!=", r), ("<", r), ("<=", r - 1)):
-        return [], [{"all": (J, J)}]
+        return [], [{"all": window}]
+    outside = _outside(window)
+    if outside is None:
+        return None
+    if (op, v) in (("==", 0), ("<=", 0), ("<", 1)):
+        return [{"all": outside}], []
+    if (op, v) in (("!=", 0), (">=", 1), (">", 0)):
+        return [], [{"all": outside}]
     return None
 
 
@@ -343,9 +355,8 @@ class _Planner:
     def single(self, bounds, node) -> int:
         """*node* mentions one statistic only: read it off that statistic's law."""
         (key,) = _keys(node, set())
-        head = key.kind
-        if head in ("max", "min"):
-            return self.extreme(bounds, node, head)
+        if key.entry.extreme is not None:
+            return self.extreme(bounds, node, key.entry.extreme)
         stat = key
         memo_key = ("law", bounds, stat)
         if memo_key not in self.memo:

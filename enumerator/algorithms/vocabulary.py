@@ -95,7 +95,8 @@ class Entry:
         Whether ``dist`` accepts it by name (:func:`parse_statistic`).
     marking : callable or None
         ``marking(parameter)``: ``("exactly", J)`` or ``("atleast", J)``, the
-        urns a generating function marks for it; None if it counts no urns.
+        urns a generating function marks for it and the event planner bounds;
+        None if it counts no urns.
     canonical : callable or None
         ``canonical(parameter, r)``: the event planner's form, ``(statistic,
         sign)`` with the value ``= statistic`` (sign 1) or ``= r - statistic``
@@ -110,7 +111,12 @@ class Entry:
     event_rank : int
         Its place in the event language's list of statistics.
     indexes_urns : bool
-        Whether its number is an urn (checked against ``r``).
+        Whether its number is an urn (checked against ``r``); the event
+        planner turns a comparison on it into bounds of that urn.
+    extreme : {"max", "min"} or None
+        For the largest (smallest) occupancy: ``max <= m`` is every urn at
+        most ``m`` (``min >= m`` every urn at least ``m``), so the event
+        planner counts it by tightening every urn's bounds.
     """
 
     kind: str
@@ -129,6 +135,7 @@ class Entry:
     event_rank: int = 0
     help: str = ""
     indexes_urns: bool = False
+    extreme: Optional[str] = None
 
     @property
     def label(self) -> str:
@@ -271,6 +278,7 @@ _ENTRIES = (
         block=lambda b, _: b.max(axis=1),
         counts=lambda model, _, total, limit: max_counts(model, total),
         canonical=_itself("max"),
+        extreme="max",
         event="max", event_rank=0, event_help="max", help="max",
     ),
     Entry(
@@ -279,6 +287,7 @@ _ENTRIES = (
         block=lambda b, _: b.min(axis=1),
         counts=lambda model, _, total, limit: min_counts(model, total),
         canonical=_itself("min"),
+        extreme="min",
         event="min", event_rank=1, event_help="min", help="min",
     ),
     Entry(
