@@ -1,4 +1,4 @@
-"""Tests of the result store (enumerator/store.py).
+"""Tests of the result store (enumerator/store/: codec, keys, database, context).
 
 Every stored value is compared with an independent computation: the pure
 functions of enumerator.algorithms.counting, brute-force enumeration, or GMP's binomial

@@ -1,4 +1,4 @@
-"""Tests of lookup tables (enumerator/tables.py).
+"""Tests of lookup tables (enumerator/store/tables.py).
 
 Rows built in one generating-function pass are checked cell by cell against
 the single counts of enumerator.algorithms.counting, against brute force, and against

@@ -31,7 +31,11 @@ Adding a step
     it must not commit).  A step may rewrite rows in Python (new key digests,
     say) but must not import the facade or the CLI, and must never leave a
     value under a key that would answer a different question: a row that
-    cannot be carried over is dropped (it only holds a cache).  SQLite and
+    cannot be carried over is dropped (it only holds a cache).  A process
+    running the older code that opened the store before the upgrade may
+    still add rows of the old layout afterwards, so new key texts must never
+    coincide with old ones for a different question (such rows are then
+    merely never found).  SQLite and
     PostgreSQL run table changes inside a transaction; on a backend that
     commits them implicitly (MySQL) an upgrade is not atomic.
 """
