@@ -33,6 +33,7 @@ from flint import fmpz, fmpz_poly
 
 from ..core import series
 from ..core.errors import TooLarge
+from ..core.exact import coprime_fraction
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel, as_count
 from ..core.rules import multinomial
@@ -44,6 +45,7 @@ __all__ = [
     "count_configurations",
     "count_microstates",
     "count_profiles",
+    "exact_fraction",
     "multinomial",
     "over_prime_power",
     "partitions_at_most",
@@ -72,14 +74,33 @@ def binomial(n: int, k: int):
     return gmpy2.comb(n, k)
 
 
-def _to_fraction(num, den) -> Fraction:
-    """``Fraction(num, den)`` reduced by GMP (``mpq``), then wrapped without a second gcd."""
+def exact_fraction(num, den) -> Fraction:
+    """Return ``num / den`` in lowest terms, reduced by GMP.
+
+    Parameters
+    ----------
+    num, den : int or mpz
+        The numerator and a positive denominator.
+
+    Returns
+    -------
+    Fraction
+        The exact quotient.
+
+    Notes
+    -----
+    GMP's ``mpq`` canonicalisation uses a subquadratic gcd (T. Granlund et
+    al., *GNU MP manual*, "Greatest Common Divisor Algorithms"), then
+    :func:`~enumerator.core.exact.coprime_fraction` wraps the pair without
+    CPython's quadratic gcd: ``O(M(b) log b)`` for ``b``-bit numbers.
+
+    Examples
+    --------
+    >>> exact_fraction(6, 4)
+    Fraction(3, 2)
+    """
     q = gmpy2.mpq(num, den)
-    f = object.__new__(Fraction)
-    # Fraction's slots; the pair is already coprime with a positive denominator.
-    f._numerator = int(q.numerator)
-    f._denominator = int(q.denominator)
-    return f
+    return coprime_fraction(q.numerator, q.denominator)
 
 
 # ---------------------------------------------------------------------------
@@ -362,11 +383,7 @@ def over_prime_power(count, total, primes) -> Fraction:
         if times:
             num = stripped
             den = gmpy2.divexact(den, mpz(p) ** times)
-    f = object.__new__(Fraction)
-    # Fraction's slots; the pair is coprime with a positive denominator.
-    f._numerator = int(num)
-    f._denominator = int(den)
-    return f
+    return coprime_fraction(num, den)
 
 
 def _reduced_mb_probability(model: UrnModel, values) -> Fraction:
@@ -399,8 +416,8 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
             model.bounds[0][1] is None or model.bounds[0][1] >= model.balls
         ):
             return _reduced_mb_probability(model, values)
-        return _to_fraction(multinomial(values), _microstates(model))
-    return _to_fraction(1, _configurations(model))
+        return exact_fraction(multinomial(values), _microstates(model))
+    return exact_fraction(1, _configurations(model))
 
 
 # ---------------------------------------------------------------------------

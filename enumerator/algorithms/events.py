@@ -41,7 +41,7 @@ import gmpy2
 from ..core.errors import InvalidParameters, TooLarge
 from ..core.model import UrnModel, as_count
 from .bounded import outcome_count
-from .counting import count_configurations
+from .counting import count_configurations, exact_fraction
 from .event_language import (
     COMPLEMENT,
     MIRROR,
@@ -562,8 +562,4 @@ def event_probability(model: UrnModel, event: Union[str, Event], limit: int = DE
     Fraction(3, 5)
     """
     count, total = event_count(model, event, limit, progress)
-    q = gmpy2.mpq(count, total)
-    f = object.__new__(Fraction)
-    f._numerator = int(q.numerator)
-    f._denominator = int(q.denominator)
-    return f
+    return exact_fraction(count, total)

@@ -42,7 +42,7 @@ import gmpy2
 from ..core.errors import InvalidParameters
 from ..core.model import UrnModel, as_count
 from .bounded import outcome_count
-from .counting import over_prime_power, power_primes
+from .counting import exact_fraction, over_prime_power, power_primes
 from .vocabulary import STATISTICS, Statistic, parse_statistic
 
 __all__ = [
@@ -148,8 +148,8 @@ def distribution(model: UrnModel, statistic: Union[str, Statistic], limit: int =
     if stat.numeric:
         first = sum((mpz(v) * c for v, c in counts.items()), mpz(0))
         second = sum((mpz(v) * v * c for v, c in counts.items()), mpz(0))
-        mean = _fraction(first, total)
-        variance = _fraction(second * total - first * first, total * total)
+        mean = exact_fraction(first, total)
+        variance = exact_fraction(second * total - first * first, total * total)
     return Distribution(stat.name, pmf, mean, variance)
 
 
@@ -207,15 +207,6 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
 # exact fractions without big gcds
 # ---------------------------------------------------------------------------
 
-def _fraction(num, den) -> Fraction:
-    """``num / den`` reduced by GMP (subquadratic gcd), wrapped as a Fraction."""
-    q = gmpy2.mpq(int(num), int(den))
-    f = object.__new__(Fraction)
-    f._numerator = int(q.numerator)  # already in lowest terms with den > 0
-    f._denominator = int(q.denominator)
-    return f
-
-
 def _reducer(model: UrnModel, total) -> Callable[[int], Fraction]:
     """A function ``count -> Fraction(count, total)``.
 
@@ -228,4 +219,4 @@ def _reducer(model: UrnModel, total) -> Callable[[int], Fraction]:
     if model.rule.distinguishable and r > 1 and total == mpz(r) ** n:
         primes = power_primes(r, n)
         return lambda count: over_prime_power(count, total, primes)
-    return lambda count: _fraction(count, total)
+    return lambda count: exact_fraction(count, total)
