@@ -150,7 +150,25 @@ def evaluate_event(event: Union[str, Event], config: Sequence[int]) -> bool:
 
 
 def evaluate(node: Event, config: Sequence[int]) -> bool:
-    """*node* on one occupancy vector, each term valued by its registry entry (no checks)."""
+    """Return whether *node* holds for one occupancy vector (no checks).
+
+    Parameters
+    ----------
+    node : Event
+        A parsed event.
+    config : sequence of int
+        An occupancy vector with at least as many entries as the event's
+        highest urn.
+
+    Returns
+    -------
+    bool
+        The truth value; each term is valued by its registry entry.
+
+    Notes
+    -----
+    One walk of the tree: ``O(size of the event * r)``.
+    """
     kind = type(node)
     if kind is Comparison:
         return OPS[node.op](node.term.value(config), node.value)
@@ -162,7 +180,18 @@ def evaluate(node: Event, config: Sequence[int]) -> bool:
 
 
 def comparisons(node: Event):
-    """The comparisons of *node*, left to right."""
+    """Yield the comparisons of *node*, left to right.
+
+    Parameters
+    ----------
+    node : Event
+        A parsed event.
+
+    Yields
+    ------
+    Comparison
+        Each comparison once, in reading order (``O(size of the event)``).
+    """
     kind = type(node)
     if kind is Comparison:
         yield node

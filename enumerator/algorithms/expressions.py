@@ -36,7 +36,24 @@ MAX_POWER_BITS = 2**32
 
 
 def symbol(name, what: str = "var") -> sympy.Symbol:
-    """Return *name* as a SymPy symbol, or raise if it is not a plain variable name."""
+    """Return *name* as a SymPy symbol, or raise if it is not a plain variable name.
+
+    Parameters
+    ----------
+    name : str or sympy.Symbol
+        A Python identifier that is not a keyword.
+    what : str
+        The parameter's name, for the error message.
+
+    Returns
+    -------
+    sympy.Symbol
+
+    Raises
+    ------
+    InvalidParameters
+        for anything else.
+    """
     if isinstance(name, sympy.Symbol):
         return name
     if not isinstance(name, str) or not name.isidentifier() or keyword.iskeyword(name):
