@@ -550,3 +550,14 @@ def test_the_store_modules_doctests_pass():
     for name in ("codec", "keys", "schema", "migrations", "engine", "entries", "database", "context", "tables"):
         module = importlib.import_module(f"enumerator.store.{name}")
         assert doctest.testmod(module).failed == 0, name
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.integers() | st.fractions())
+def test_a_stored_number_is_the_text_of_the_one_exact_codec(value):
+    # the store writes numbers with enumerator.core.exact, the codec of the JSON output (no second encoder)
+    from enumerator.core.exact import exact_text
+
+    kind, text, _ = results.encode_value(value)
+    assert text == exact_text(value) == str(value)  # reference: str(int) / str(Fraction) (Python docs)
+    assert kind == ("int" if isinstance(value, int) else "fraction")

@@ -212,7 +212,7 @@ class Store:
             # read again under the write lock: another process may have
             # created or upgraded the store since the first look
             has_meta = inspect(conn).has_table(Meta.__tablename__)
-            found = self._schema_version(conn) if has_meta else None
+            found = self._schema_version(conn, lock=True) if has_meta else None
             if found is None:
                 Base.metadata.create_all(conn, checkfirst=True)
                 from ..core.version import __version__
@@ -233,9 +233,9 @@ class Store:
         if done:
             log.info("enumerator: upgraded the store %s from schema %d to %d", self.name, found, done[-1].target)
 
-    def _schema_version(self, conn) -> Optional[int]:
+    def _schema_version(self, conn, lock: bool = False) -> Optional[int]:
         try:
-            return migrations.read_version(conn)
+            return migrations.read_version(conn, lock)
         except ValueError as error:
             raise StoreError(
                 f"the store {self.name} has an {error}; "

@@ -161,8 +161,22 @@ def plan(found: int, target: Optional[int] = None,
     return tuple(chosen)
 
 
-def read_version(connection: Connection) -> Optional[int]:
+def read_version(connection: Connection, lock: bool = False) -> Optional[int]:
     """Return the schema version a store records, or None when it records none.
+
+    Parameters
+    ----------
+    connection : sqlalchemy.engine.Connection
+        A connection to the store.
+    lock : bool
+        Read with ``SELECT ... FOR UPDATE`` (inside a write transaction), so
+        on a server database two processes upgrading at once take turns and
+        the second finds the store upgraded.  SQLite needs no row lock: its
+        ``BEGIN IMMEDIATE`` already admits one writer at a time.
+
+    Returns
+    -------
+    int or None
 
     Raises
     ------
@@ -173,7 +187,10 @@ def read_version(connection: Connection) -> Optional[int]:
     -----
     Cost: one primary-key lookup in ``enumerator_meta``.
     """
-    row = connection.execute(select(Meta.value).where(Meta.key == META_SCHEMA_VERSION)).first()
+    query = select(Meta.value).where(Meta.key == META_SCHEMA_VERSION)
+    if lock:
+        query = query.with_for_update()
+    row = connection.execute(query).first()
     if row is None:
         return None
     try:
