@@ -35,9 +35,10 @@ Adding a step
     running the older code that opened the store before the upgrade may
     still add rows of the old layout afterwards, so new key texts must never
     coincide with old ones for a different question (such rows are then
-    merely never found).  SQLite and
-    PostgreSQL run table changes inside a transaction; on a backend that
-    commits them implicitly (MySQL) an upgrade is not atomic.
+    merely never found).  SQLite and PostgreSQL run table changes inside a
+    transaction; on a backend that commits them implicitly (MySQL) an
+    upgrade is not atomic.  ``tests/test_migrations.py`` shows how a step is
+    tested: a store written by the previous layout, opened, read back.
 """
 
 from __future__ import annotations
