@@ -54,13 +54,12 @@ MAX_POINTS = 10_000
 class Point:
     """The parameters of one comparison.
 
-    ``balls`` (``n``) and ``urns`` (``r``) as in :class:`~enumerator.model.UrnModel`;
+    ``balls`` (``n``) and ``urns`` (``r``) as in :class:`~enumerator.core.model.UrnModel`;
     ``rule``, ``capacity`` and ``minimum`` for the saddle-point entry; ``at``
     the ``j`` of the empty-urn and profile entries; ``pattern`` the shape of
     the configurations of the entropy entry; ``factor`` the Boltzmann factor
     ``e^{-ε/T}`` (a ``Fraction`` in ``(0, 1)``) of the grand-canonical entry.
-    Fields an approximation does
-    not use stay ``None``.
+    Fields an approximation does not use stay ``None``.
     """
 
     balls: int
