@@ -28,6 +28,7 @@ __all__ = ["commands"]
 #: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
 commands = typer.Typer()
 
+
 @commands.command("count")
 def count_command(
     balls: Balls,

@@ -23,6 +23,7 @@ __all__ = ["commands"]
 #: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
 commands = typer.Typer()
 
+
 @commands.command("sample")
 def sample_command(
     balls: Balls,
