@@ -524,6 +524,21 @@ def test_sample_never_writes_the_store(tmp_path):
     assert not target.exists()
 
 
+@pytest.mark.parametrize(
+    ("args", "flag", "library"),
+    [
+        (["coeff", "1/(1 - y)", "--upto", 3], "--var", "var="),
+        (["coeff", "1/(3 - x)", "--upto", 100000], "--upto", "upto="),
+        (["dist", "-n", 12, "-r", 4, "--rule", "BE", "--stat", "profile", "--limit", 10], "--limit", "limit="),
+    ],
+    ids=["var", "upto", "limit"],
+)
+def test_errors_name_the_flag_not_the_library_parameter(args, flag, library):
+    # The library says "limit="; the CLI spells the parameters it maps as its flags.
+    line = one_line_error(run(*args))
+    assert flag in line and library not in line
+
+
 def test_unusable_store_url_is_bad_input():
     result = runner.invoke(app, ["count", "-n", "3", "-r", "2", "--store", "nosuchdialect://x"])
     assert result.exit_code == 2
