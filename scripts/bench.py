@@ -36,6 +36,13 @@ Otherwise its first full-size call runs in a forked child stopped at the
 limit (the same note then says so); a call that long is timed once, there.
 A skipped peer's answer is not checked, and the note says so.
 
+The start-up workloads (``startup-*``) time whole processes instead: the
+``enumerator`` console script against a Python one-liner that imports gmpy2
+and prints one count, in interleaved rounds after two warm-up rounds (5
+rounds with ``--quick``, 21 otherwise), with bytecode cached as an installed
+package has it; their ratio is the ratio of the medians, since the fastest
+of a few process starts is mostly luck.
+
 Counts are measured cold: ``ENUMERATOR_NO_CACHE=1`` is set before enumerator
 is imported, so the result store is bypassed (a workload that measures the
 store turns it on for its own calls), and every count builds a fresh model
