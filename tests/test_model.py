@@ -126,7 +126,7 @@ def test_model_is_immutable_hashable_and_picklable():
     assert m == same and hash(m) == hash(same)
     assert pickle.loads(pickle.dumps(m)) == m
     assert m.canonical_bounds() == "3*0:2"
-    assert Occupancy(balls=1, bounds=[(0, 2), (1, None)]).canonical_bounds() == "0:2,1:"
+    assert Occupancy(balls=1, bounds=[(0, 2), (1, None)]).canonical_bounds() == "1x0:2,1x1:"
 
 
 def test_parse_bounds():

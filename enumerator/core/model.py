@@ -26,12 +26,20 @@ raises :class:`~enumerator.errors.InvalidParameters`.
 from __future__ import annotations
 
 import operator
+from fractions import Fraction
 from typing import Iterable, Optional, Sequence, Tuple
 
-from .errors import InvalidConfiguration, InvalidParameters
+from .errors import InvalidConfiguration, InvalidParameters, TooLarge
+from .groups import UrnGroup, make_groups, merge_groups, parse_bounds_runs, parse_weight, parse_weight_runs
 from .rules import Rule
 
-__all__ = ["Rule", "UrnModel", "as_count", "parse_bounds", "parse_canonical_bounds"]
+__all__ = ["PER_URN_LIMIT", "Rule", "UrnGroup", "UrnModel", "as_count", "parse_bounds", "parse_canonical_bounds"]
+
+#: Most urns a per-urn list (``bounds``, ``weights``) may expand to; beyond it
+#: only the groups describe the urns, and per-urn work is refused.
+PER_URN_LIMIT = 10_000_000
+#: Most urns written one by one in ``repr``.
+_REPR_URNS = 64
 
 Bound = Tuple[int, Optional[int]]
 _PLAIN_INT = frozenset({int})
@@ -80,13 +88,15 @@ def parse_bounds(text: str) -> Tuple[Bound, ...]:
 
 
 def parse_canonical_bounds(text: str) -> Tuple[Bound, ...]:
-    """Read the canonical bounds text that :meth:`UrnModel.canonical_bounds` writes.
+    """Read the per-urn bounds of a canonical text that :meth:`UrnModel.canonical_bounds` writes.
 
     Parameters
     ----------
     text : str
-        ``"r*a:b"`` (``r`` urns sharing the bounds ``a:b``) or ``"a:b,a:b,..."``,
-        with ``a:`` for no upper bound.
+        ``"r*a:b"`` (``r`` urns sharing the bounds ``a:b``), the group form
+        ``"c1xa:b,c2xa:b,..."``, or the older per-urn form ``"a:b,a:b,..."``;
+        ``a:`` for no upper bound.  Weights (``@w``) are refused here: use
+        :meth:`UrnModel.from_canonical`.
 
     Returns
     -------
@@ -96,13 +106,12 @@ def parse_canonical_bounds(text: str) -> Tuple[Bound, ...]:
     Raises
     ------
     InvalidParameters
-        when the text is not in the canonical form.
+        when the text is not in a canonical form, or describes more than
+        :data:`PER_URN_LIMIT` urns.
 
     Notes
     -----
-    The one parser of the canonical text (the store rebuilds models from its
-    keys with it); a single pass over the text, ``O(len(text))``, plus ``r``
-    tuple entries for the run-length form.
+    A single pass over the text, ``O(len(text))``, plus ``r`` tuple entries.
 
     Examples
     --------
@@ -110,40 +119,86 @@ def parse_canonical_bounds(text: str) -> Tuple[Bound, ...]:
     ((0, 2), (0, 2), (0, 2))
     >>> parse_canonical_bounds("0:1,2:")
     ((0, 1), (2, None))
+    >>> parse_canonical_bounds("2x0:1,1x2:")
+    ((0, 1), (0, 1), (2, None))
     """
-    def one(item):
-        a, _, b = item.partition(":")
-        return int(a), (int(b) if b else None)
+    groups = _canonical_groups(text)
+    if any(g.weight != 1 for g in groups):
+        raise InvalidParameters(f"canonical bounds {text!r} carry weights; rebuild the model with from_canonical")
+    return _expand(groups, lambda g: g.bound, sum(g.count for g in groups))
+
+
+def _canonical_groups(text: str) -> Tuple[UrnGroup, ...]:
+    """The groups of a canonical text (``"r*a:b[@w]"``, ``"cxa:b[@w],..."`` or ``"a:b,..."``)."""
+    def one(item, count):
+        body, at, weight = item.partition("@")
+        a, colon, b = body.partition(":")
+        if not colon:
+            raise ValueError(item)
+        return UrnGroup(int(count), int(a), int(b) if b else None, parse_weight(weight) if at else Fraction(1))
 
     try:
         if "*" in text:
             count, _, item = text.partition("*")
-            return (one(item),) * int(count)
-        return tuple(one(item) for item in text.split(","))
-    except (TypeError, ValueError):
+            return (one(item, count),)
+        out = []
+        for item in text.split(","):
+            count, x, rest = item.partition("x")
+            out.append(one(rest, count) if x else one(item, 1))
+        return merge_groups(out)
+    except (TypeError, ValueError, InvalidParameters):
         raise InvalidParameters(
-            f'canonical bounds must look like "3*0:2" or "0:1,2:" (got {text!r})'
+            f'canonical bounds must look like "3*0:2", "2x0:1,1x2:" or "0:1,2:" (got {text!r})'
         ) from None
 
 
+def _expand(groups, item, total: int) -> tuple:
+    """One entry per urn (``item(group)`` repeated ``count`` times), refused past :data:`PER_URN_LIMIT`."""
+    if total > PER_URN_LIMIT:
+        raise TooLarge(
+            f"the model has {total:,} urns; a list with one entry per urn is limited to "
+            f"{PER_URN_LIMIT:,} entries; work with the model's groups instead",
+            parameters=["urns"],
+        )
+    out = []
+    for g in groups:
+        out.extend([item(g)] * (g.count if isinstance(g, UrnGroup) else g[0]))
+    return tuple(out)
+
+
 class UrnModel:
-    """``n`` balls in ``r`` labelled urns with bounds, under a counting rule.
+    """``n`` balls in ``r`` labelled urns, described by groups of equal urns, under a counting rule.
 
     Parameters
     ----------
     balls : int
         ``n >= 0``.
     urns : int, optional
-        ``r >= 1``; required unless *bounds* is given (then it must match).
+        ``r >= 1`` (any size: nothing is stored per urn); required unless
+        *bounds*, *weights* or *groups* give the urns (then it must match).
     rule : {"MB", "BE", "FD"}
         The counting rule (default ``"MB"``).
     capacity : int, optional
         A uniform upper bound per urn; ``None`` means unbounded (FD: 1).
     minimum : int
         A uniform lower bound per urn (default 0).
-    bounds : sequence of (a, b) pairs, optional
-        Per-urn bounds, ``b = None`` for no upper bound.  Excludes
-        *capacity* and *minimum*.
+    bounds : sequence of (a, b) pairs, or str, optional
+        Per-urn bounds, ``b = None`` for no upper bound, or their text
+        ``"a:b,a:,b"`` with run-length items ``COUNTxa:b`` (``"1000x0:3,2x1:"``).
+        Excludes *capacity* and *minimum*.
+    weights : sequence of positive rationals, or str, optional
+        Per-urn weights (``int``, ``Fraction`` or their text), or the text
+        ``"365x400,97,1/3"``; 1 by default.  MB: urn ``i`` receives a ball
+        with probability ``w_i / sum w``; BE/FD: a configuration ``k`` has
+        weight ``prod w_i^{k_i}``.
+    groups : sequence of UrnGroup or (count, lower, upper[, weight]), optional
+        The urns as groups; excludes every other urn description.
+
+    Raises
+    ------
+    InvalidParameters
+        For malformed numbers, inconsistent descriptions, ``lower > upper``,
+        or an FD capacity above 1.
 
     Examples
     --------
@@ -153,9 +208,21 @@ class UrnModel:
     ((0, 1), (0, 1))
     >>> UrnModel(balls=3, bounds=[(0, 1), (1, None)], rule="BE").effective_bounds()
     ((0, 1), (1, 3))
+    >>> m = UrnModel(balls=10, bounds="4294967296x0:3", rule="MB")
+    >>> m.urns, len(m.groups), m.canonical_bounds()
+    (4294967296, 1, '4294967296*0:3')
+    >>> UrnModel(balls=2, weights="2x1,3", rule="MB").canonical_bounds()
+    '2x0:@1,1x0:@3'
+
+    Notes
+    -----
+    The model keeps ``groups`` (merged runs of equal urns); its size and
+    every derived description cost ``O(number of groups)``.  ``bounds`` and
+    ``weights`` expand to one entry per urn on request and refuse beyond
+    :data:`PER_URN_LIMIT` urns.
     """
 
-    __slots__ = ("balls", "bounds", "rule", "_uniform", "_hash")
+    __slots__ = ("balls", "groups", "rule", "_hash", "_bounds")
 
     def __init__(
         self,
@@ -165,71 +232,69 @@ class UrnModel:
         capacity=None,
         minimum=0,
         bounds: Optional[Iterable[Sequence]] = None,
+        weights=None,
+        groups=None,
     ):
         n = as_count(balls, "balls")
         rule_ = Rule.parse(rule)
-        if bounds is not None:
-            if capacity is not None or (minimum not in (0, None)):
-                raise InvalidParameters(
-                    "give either per-urn bounds or a uniform capacity/minimum, not both"
-                )
-            if isinstance(bounds, str):
-                bounds = parse_bounds(bounds)
-            normal = []
-            for i, pair in enumerate(bounds, start=1):
-                try:
-                    a, b = pair
-                except (TypeError, ValueError):
-                    raise InvalidParameters(
-                        f"bound of urn {i} must be a pair (lower, upper) with upper None for no bound (got {pair!r})"
-                    ) from None
-                a = as_count(a, f"lower bound of urn {i}")
-                if b is not None:
-                    b = as_count(b, f"upper bound of urn {i}")
-                    if b < a:
-                        raise InvalidParameters(
-                            f"urn {i} has lower bound {a} above its upper bound {b}; lower must be <= upper"
-                        )
-                normal.append((a, b))
+        if groups is not None:
+            if any(v is not None for v in (urns, capacity, bounds, weights)) or minimum not in (0, None):
+                raise InvalidParameters("give the urns either as groups or by urns/bounds/weights, not both")
+            normal = merge_groups(_as_group(g, i) for i, g in enumerate(groups, start=1))
             if not normal:
-                raise InvalidParameters("bounds must list at least one urn (urns must be at least 1)")
-            if urns is not None and as_count(urns, "urns", 1) != len(normal):
-                raise InvalidParameters(
-                    f"urns is {urns} but bounds lists {len(normal)} urns; give one bound per urn"
-                )
+                raise InvalidParameters("groups must list at least one group of urns")
         else:
-            if urns is None:
-                raise InvalidParameters("urns is required (or give per-urn bounds)")
-            r = as_count(urns, "urns", 1)
-            a = as_count(0 if minimum is None else minimum, "minimum")
-            b = None if capacity is None else as_count(capacity, "capacity")
-            if b is not None and b < a:
-                raise InvalidParameters(
-                    f"minimum {a} is above capacity {b}; the minimum must be <= the capacity"
-                )
-            normal = [(a, b)] * r
+            weight_runs = None if weights is None else _weight_runs(weights)
+            if bounds is not None:
+                if capacity is not None or (minimum not in (0, None)):
+                    raise InvalidParameters(
+                        "give either per-urn bounds or a uniform capacity/minimum, not both"
+                    )
+                bound_runs = _bound_runs(bounds)
+                if not bound_runs:
+                    raise InvalidParameters("bounds must list at least one urn (urns must be at least 1)")
+                if urns is not None:
+                    listed = sum(c for c, _ in bound_runs)
+                    if as_count(urns, "urns", 1) != listed:
+                        raise InvalidParameters(
+                            f"urns is {urns} but bounds lists {listed} urns; give one bound per urn"
+                        )
+            else:
+                if urns is None and weights is None:
+                    raise InvalidParameters("urns is required (or give per-urn bounds)")
+                a = as_count(0 if minimum is None else minimum, "minimum")
+                b = None if capacity is None else as_count(capacity, "capacity")
+                if b is not None and b < a:
+                    raise InvalidParameters(
+                        f"minimum {a} is above capacity {b}; the minimum must be <= the capacity"
+                    )
+                r = as_count(urns, "urns", 1) if urns is not None else sum(c for c, _ in weight_runs)
+                bound_runs = ((r, (a, b)),)
+            total = None if urns is None else as_count(urns, "urns", 1)
+            normal = make_groups(bound_runs, weight_runs, total)
         most = rule_.description.per_urn
         if most is not None:
             # the rule itself caps every urn (FD: one ball), so the cap is a bound
             capped = []
-            for i, (a, b) in enumerate(normal, start=1):
-                if b is not None and b > most:
+            first = 1
+            for g in normal:
+                if g.upper is not None and g.upper > most:
                     raise InvalidParameters(
-                        f"{rule_.value} allows at most one ball per urn, but urn {i} has capacity {b}; "
+                        f"{rule_.value} allows at most one ball per urn, but urn {first} has capacity {g.upper}; "
                         "use capacity 1 (or leave it out), or rule BE for a larger capacity"
                     )
-                if a > most:
+                if g.lower > most:
                     raise InvalidParameters(
-                        f"{rule_.value} allows at most one ball per urn, but urn {i} has minimum {a}"
+                        f"{rule_.value} allows at most one ball per urn, but urn {first} has minimum {g.lower}"
                     )
-                capped.append((a, most if b is None else b))
-            normal = capped
+                capped.append(UrnGroup(g.count, g.lower, most if g.upper is None else g.upper, g.weight))
+                first += g.count
+            normal = merge_groups(capped)
         object.__setattr__(self, "balls", n)
-        object.__setattr__(self, "bounds", tuple(normal))
+        object.__setattr__(self, "groups", tuple(normal))
         object.__setattr__(self, "rule", rule_)
-        first = normal[0]
-        object.__setattr__(self, "_uniform", all(p == first for p in normal))
-        object.__setattr__(self, "_hash", hash((n, tuple(normal), rule_)))
+        object.__setattr__(self, "_hash", hash((n, self.groups, rule_)))
+        object.__setattr__(self, "_bounds", None)
 
     # -- immutability and identity -------------------------------------
     def __setattr__(self, name, value):
@@ -240,51 +305,80 @@ class UrnModel:
             return True
         if not isinstance(other, UrnModel):
             return NotImplemented
-        return (self.balls, self.bounds, self.rule) == (other.balls, other.bounds, other.rule)
+        return (self.balls, self.groups, self.rule) == (other.balls, other.groups, other.rule)
 
     def __hash__(self):
         return self._hash
 
     def __repr__(self):
-        if self._uniform:
-            a, b = self.bounds[0]
+        name = type(self).__name__
+        if self.is_uniform and not self.weighted:
+            a, b = self.groups[0].bound
             extra = "" if a == 0 else f", minimum={a}"
             if b is not None and b != self.rule.description.per_urn:
                 extra += f", capacity={b}"
-            return f"{type(self).__name__}(balls={self.balls}, urns={self.urns}, rule={self.rule.value!r}{extra})"
-        return f"{type(self).__name__}(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
+            return f"{name}(balls={self.balls}, urns={self.urns}, rule={self.rule.value!r}{extra})"
+        if not self.weighted and self.urns <= _REPR_URNS:
+            return f"{name}(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
+        return f"{name}(balls={self.balls}, groups={list(map(tuple, self._group_tuples()))!r}, rule={self.rule.value!r})"
+
+    def _group_tuples(self):
+        return [(g.count, g.lower, g.upper, g.weight) for g in self.groups]
 
     def __reduce__(self):
-        return (_rebuild, (type(self), self.balls, self.bounds, self.rule.value))
+        return (_rebuild, (type(self), self.balls, self._group_tuples(), self.rule.value))
 
     # -- derived descriptions -------------------------------------------
     @property
     def urns(self) -> int:
-        """The number of urns ``r``."""
-        return len(self.bounds)
+        """The number of urns ``r`` (the sum of the groups' counts)."""
+        return sum(g.count for g in self.groups)
 
     @property
     def is_uniform(self) -> bool:
-        """True when every urn has the same bounds."""
-        return self._uniform
+        """True when every urn has the same bounds and weight (one group)."""
+        return len(self.groups) == 1
+
+    @property
+    def weighted(self) -> bool:
+        """True when some urn's weight is not 1."""
+        return any(g.weight != 1 for g in self.groups)
+
+    @property
+    def bounds(self) -> Tuple[Bound, ...]:
+        """One ``(lower, upper)`` pair per urn (refused past :data:`PER_URN_LIMIT` urns)."""
+        cached = self._bounds
+        if cached is None:
+            cached = _expand(self.groups, lambda g: g.bound, self.urns)
+            object.__setattr__(self, "_bounds", cached)
+        return cached
+
+    @property
+    def weights(self) -> Tuple[Fraction, ...]:
+        """One exact weight per urn (refused past :data:`PER_URN_LIMIT` urns)."""
+        return _expand(self.groups, lambda g: g.weight, self.urns)
 
     @property
     def minimum(self) -> Optional[int]:
         """The uniform lower bound, or ``None`` when bounds differ per urn."""
-        return self.bounds[0][0] if self._uniform else None
+        return self.groups[0].lower if self.is_uniform else None
 
     @property
     def capacity(self) -> Optional[int]:
         """The uniform upper bound (``None``: unbounded or per-urn bounds)."""
-        return self.bounds[0][1] if self._uniform else None
+        return self.groups[0].upper if self.is_uniform else None
 
     def with_balls(self, balls) -> "UrnModel":
         """Return the same urns and rule with another number of balls."""
-        return type(self)(balls=balls, bounds=self.bounds, rule=self.rule)
+        return type(self)(balls=balls, groups=self.groups, rule=self.rule)
 
     def with_rule(self, rule) -> "UrnModel":
         """Return the same balls and urns under another rule."""
-        return type(self)(balls=self.balls, bounds=self.bounds, rule=rule)
+        return type(self)(balls=self.balls, groups=self.groups, rule=rule)
+
+    def with_groups(self, groups) -> "UrnModel":
+        """Return the same balls and rule with other urn groups."""
+        return type(self)(balls=self.balls, groups=groups, rule=self.rule)
 
     @classmethod
     def from_canonical(cls, rule, balls, bounds: str) -> "UrnModel":
@@ -297,7 +391,8 @@ class UrnModel:
         balls : int
             ``n >= 0``.
         bounds : str
-            The canonical bounds text (:func:`parse_canonical_bounds`).
+            The canonical text (``"r*a:b"``, ``"cxa:b@w,..."``, or the older
+            per-urn ``"a:b,..."``).
 
         Returns
         -------
@@ -315,34 +410,54 @@ class UrnModel:
         >>> UrnModel.from_canonical("BE", 3, model.canonical_bounds()) == model
         True
         """
-        return cls(balls=balls, bounds=parse_canonical_bounds(bounds), rule=rule)
+        return cls(balls=balls, groups=_canonical_groups(bounds), rule=rule)
 
     def canonical_bounds(self) -> str:
-        """The bounds in one canonical text form: ``"r*a:b"`` or ``"a:b,..."``.
+        """The urns in one canonical text: ``"r*a:b"`` for one group, else ``"cxa:b,..."``.
 
-        :func:`parse_canonical_bounds` reads it back; the store keys its
-        results by it.
+        A weight other than 1 is written ``@w`` after the bounds of its group
+        (and every group of a weighted model carries one).  The text grows
+        with the number of groups, never with the number of urns;
+        :meth:`from_canonical` reads it back and the store keys its results
+        by it.
+
+        Examples
+        --------
+        >>> UrnModel(balls=1, bounds=[(0, 2), (0, 2), (1, None)]).canonical_bounds()
+        '2x0:2,1x1:'
         """
-        def one(a, b):
-            return f"{a}:" if b is None else f"{a}:{b}"
-        if self._uniform:
-            return f"{self.urns}*{one(*self.bounds[0])}"
-        return ",".join(one(a, b) for a, b in self.bounds)
+        weighted = self.weighted
+
+        def one(g):
+            text = f"{g.lower}:" if g.upper is None else f"{g.lower}:{g.upper}"
+            return f"{text}@{g.weight}" if weighted else text
+
+        if self.is_uniform:
+            return f"{self.urns}*{one(self.groups[0])}"
+        return ",".join(f"{g.count}x{one(g)}" for g in self.groups)
+
+    def effective_groups(self) -> Tuple[UrnGroup, ...]:
+        """Groups with every upper bound made finite and tight.
+
+        An urn of group ``g`` can hold at most ``n - (sum of all lower bounds
+        - a_g)`` balls, which replaces a missing or larger upper bound.  The
+        admissible set is unchanged; an upper bound below the lower one means
+        no vector fits (such groups are kept, with ``upper = lower - 1``
+        clipped at 0 only in the sense that nothing fits).
+
+        Cost: ``O(number of groups)``.
+        """
+        total_lower = sum(g.count * g.lower for g in self.groups)
+        out = []
+        for g in self.groups:
+            room = self.balls - (total_lower - g.lower)
+            top = room if g.upper is None else min(g.upper, room)
+            out.append((g.count, g.lower, top, g.weight))
+        return tuple(out)
 
     def effective_bounds(self) -> Tuple[Tuple[int, int], ...]:
-        """Bounds with every upper bound made finite and tight.
-
-        Urn ``i`` can hold at most ``n - sum_{j != i} a_j`` balls, so that
-        replaces a missing or larger upper bound.  The admissible set is
-        unchanged; an upper bound below the lower one means no vector fits.
-        """
-        total_lower = sum(a for a, _ in self.bounds)
-        out = []
-        for a, b in self.bounds:
-            room = self.balls - (total_lower - a)
-            top = room if b is None else min(b, room)
-            out.append((a, top))
-        return tuple(out)
+        """Per-urn bounds with every upper bound made finite and tight (see :meth:`effective_groups`)."""
+        return _expand(self.effective_groups(), lambda g: (g[1], g[2]), self.urns)
 
     # -- configurations ----------------------------------------------------
     def check_configuration(self, config) -> Tuple[int, ...]:
@@ -392,13 +507,83 @@ class UrnModel:
         return self._within_bounds(values)
 
     def _within_bounds(self, values: Tuple[int, ...]) -> bool:
-        if self._uniform:
-            a, b = self.bounds[0]
-            return min(values) >= a and (b is None or max(values) <= b)
-        for v, (a, b) in zip(values, self.bounds):
-            if v < a or (b is not None and v > b):
+        start = 0
+        for g in self.groups:
+            part = values[start:start + g.count]
+            start += g.count
+            if min(part) < g.lower or (g.upper is not None and max(part) > g.upper):
                 return False
         return True
 
-def _rebuild(cls, balls, bounds, rule):
-    return cls(balls=balls, bounds=bounds, rule=rule)
+
+def _as_group(item, position: int) -> UrnGroup:
+    """A group from an :class:`UrnGroup` or a tuple ``(count, lower, upper[, weight])``."""
+    if isinstance(item, UrnGroup):
+        return item
+    try:
+        count, lower, upper, *rest = item
+    except (TypeError, ValueError):
+        raise InvalidParameters(
+            f"group {position} must be an UrnGroup or (count, lower, upper[, weight]) (got {item!r})"
+        ) from None
+    weight = rest[0] if rest else 1
+    if isinstance(weight, str):
+        weight = parse_weight(weight, f"the weight of group {position}")
+    return UrnGroup(as_count(count, f"the count of group {position}", 1),
+                    as_count(lower, f"the lower bound of group {position}"),
+                    None if upper is None else as_count(upper, f"the upper bound of group {position}"),
+                    weight)
+
+
+def _bound_runs(bounds) -> Tuple[Tuple[int, Bound], ...]:
+    """Runs ``(count, (a, b))`` from per-urn pairs or from text (run-length items allowed)."""
+    if isinstance(bounds, str):
+        if "x" in bounds:
+            runs = parse_bounds_runs(bounds)
+        else:
+            runs = tuple((1, pair) for pair in parse_bounds(bounds))
+        pairs = runs
+    else:
+        pairs = tuple((1, pair) for pair in bounds)
+    out = []
+    first = 1
+    for count, pair in pairs:
+        i = first
+        try:
+            a, b = pair
+        except (TypeError, ValueError):
+            raise InvalidParameters(
+                f"bound of urn {i} must be a pair (lower, upper) with upper None for no bound (got {pair!r})"
+            ) from None
+        a = as_count(a, f"lower bound of urn {i}")
+        if b is not None:
+            b = as_count(b, f"upper bound of urn {i}")
+            if b < a:
+                raise InvalidParameters(
+                    f"urn {i} has lower bound {a} above its upper bound {b}; lower must be <= upper"
+                )
+        out.append((count, (a, b)))
+        first += count
+    return tuple(out)
+
+
+def _weight_runs(weights) -> Tuple[Tuple[int, Fraction], ...]:
+    """Runs ``(count, weight)`` from per-urn values or from text (run-length items allowed)."""
+    if isinstance(weights, str):
+        return parse_weight_runs(weights)
+    out = []
+    for i, w in enumerate(weights, start=1):
+        if isinstance(w, str):
+            w = parse_weight(w, f"the weight of urn {i}")
+        elif isinstance(w, bool) or not isinstance(w, (int, Fraction)):
+            raise InvalidParameters(f"the weight of urn {i} must be an int or a Fraction, not {w!r}")
+        if w <= 0:
+            raise InvalidParameters(f"the weight of urn {i} must be positive (got {w})")
+        out.append((1, Fraction(w)))
+    if not out:
+        raise InvalidParameters("weights must list at least one urn")
+    return tuple(out)
+
+
+def _rebuild(cls, balls, groups, rule):
+    return cls(balls=balls, groups=groups, rule=rule)
