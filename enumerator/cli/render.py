@@ -211,12 +211,15 @@ def describe(model: "Occupancy") -> str:
 
     Notes
     -----
-    Cost: constant for uniform bounds, linear in the groups otherwise.
+    Cost: constant for uniform bounds, linear in the groups otherwise
+    (the model's canonical bounds).
     """
     text = f"{model.rule.title} ({model.rule.value}): {model.balls} balls in {model.urns} urns"
     if not model.is_uniform:
         return text + ", bounds " + model.canonical_bounds()
-    low, high = model.bounds[0]
+    # The uniform bounds, read from the model's one group: never per urn, so a
+    # title costs nothing however many urns there are.
+    low, high = model.minimum, model.capacity
     limits = []
     if low:
         limits.append(f"at least {low}")
