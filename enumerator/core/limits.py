@@ -1,0 +1,250 @@
+"""Work limits: every route estimates its cost, and work beyond the limits is refused before it starts.
+
+Each exact route (a closed form, a series power, a recursion, a listing) states
+its cost as a :class:`Cost` — the seconds and the bytes it would need, from
+the sizes at hand (``n``, the number of urn groups, the digits of the answer),
+never from the number of urns — and calls :func:`check` before computing.
+Past the active limits, :func:`check` raises
+:class:`~enumerator.core.errors.TooLarge` with one sentence saying what the
+work would take and how to proceed.
+
+The limits in force
+    1. those of the innermost :func:`limited` block (a
+       :class:`contextvars.ContextVar`, so threads and tasks each see their
+       own);
+    2. else the environment: ``ENUMERATOR_MAX_MEMORY`` (bytes, or with a
+       suffix ``K``, ``M``, ``G``, ``T``) and ``ENUMERATOR_MAX_SECONDS``;
+    3. else :data:`DEFAULT_LIMITS`: 4 GiB and 10 minutes, sized for a
+       machine of 2 cores and 24 GiB with room to spare.
+
+Estimates are deliberately rough (a factor of a few either way): they exist
+to refuse work that is out of reach by orders of magnitude, not to predict
+run times.  The rates below were measured on the reference machine
+(``scripts/bench.py``).
+
+Examples
+--------
+>>> check(Cost(seconds=1.0, memory=10**6), "a small count")
+>>> with limited(memory=1000):
+...     check(Cost(seconds=0.1, memory=10**6), "a count of 10^6 digits")
+Traceback (most recent call last):
+...
+enumerator.core.errors.TooLarge: a count of 10^6 digits would need about 1.0 MB of memory, above the limit of 1.0 kB; raise max_memory= (or ENUMERATOR_MAX_MEMORY), or make the problem smaller
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+from contextlib import contextmanager
+from contextvars import ContextVar
+from dataclasses import dataclass, replace
+from typing import Iterator, Optional, Sequence
+
+from .errors import InvalidParameters, TooLarge
+
+__all__ = [
+    "DEFAULT_LIMITS",
+    "ENV_MAX_MEMORY",
+    "ENV_MAX_SECONDS",
+    "Cost",
+    "Limits",
+    "active_limits",
+    "bigint_bytes",
+    "check",
+    "limited",
+    "parse_size",
+    "product_seconds",
+]
+
+#: Environment variable: the most memory one computation may plan to use.
+ENV_MAX_MEMORY = "ENUMERATOR_MAX_MEMORY"
+#: Environment variable: the most seconds one computation may plan to take.
+ENV_MAX_SECONDS = "ENUMERATOR_MAX_SECONDS"
+
+#: Machine rates for the estimates: bits of GMP/FLINT multiplication per
+#: second on operands of a million bits (FFT range), and simple big-number
+#: steps (an addition or a small multiplication of a word-sized number) per second.
+MULTIPLY_BITS_PER_SECOND = 2.0e9
+STEPS_PER_SECOND = 5.0e6
+
+
+@dataclass(frozen=True)
+class Limits:
+    """How much one computation may plan to use.
+
+    Attributes
+    ----------
+    memory : int
+        Bytes.
+    seconds : float
+        Seconds of computation.
+    """
+
+    memory: int
+    seconds: float
+
+
+#: The limits when neither a :func:`limited` block nor the environment sets them.
+DEFAULT_LIMITS = Limits(memory=4 * 2**30, seconds=600.0)
+
+_active: ContextVar[Optional[Limits]] = ContextVar("enumerator_limits", default=None)
+
+
+@dataclass(frozen=True)
+class Cost:
+    """The estimated cost of one route: seconds and bytes.
+
+    Costs add (routes run one after the other, memory is the larger peak
+    unless stated otherwise): ``a + b`` sums the seconds and keeps the larger
+    memory.
+    """
+
+    seconds: float = 0.0
+    memory: int = 0
+
+    def __add__(self, other: "Cost") -> "Cost":
+        return Cost(self.seconds + other.seconds, max(self.memory, other.memory))
+
+    def times(self, factor: float) -> "Cost":
+        """This cost repeated *factor* times (seconds scale; memory is reused)."""
+        return replace(self, seconds=self.seconds * factor)
+
+
+def bigint_bytes(bits: float) -> int:
+    """Bytes held by an integer of *bits* bits (GMP limbs, plus a small header)."""
+    return int(bits // 8) + 32
+
+
+def product_seconds(bits: float) -> float:
+    """Seconds for one multiplication of two numbers of *bits* bits (GMP's FFT, ``O(b log b)``)."""
+    if bits <= 64:
+        return 1.0 / STEPS_PER_SECOND
+    return bits * max(1.0, math.log2(bits) / 20.0) / MULTIPLY_BITS_PER_SECOND
+
+
+_SIZE = re.compile(r"\s*([0-9]+(?:\.[0-9]+)?)\s*([kKmMgGtT]?)(?:i?[bB])?\s*")
+_UNITS = {"": 1, "k": 2**10, "m": 2**20, "g": 2**30, "t": 2**40}
+
+
+def parse_size(text: str, name: str = "max_memory") -> int:
+    """Read a memory size: bytes, or a number with ``K``, ``M``, ``G`` or ``T`` (powers of 1024).
+
+    Examples
+    --------
+    >>> parse_size("512M"), parse_size("2G"), parse_size("1000")
+    (536870912, 2147483648, 1000)
+    """
+    match = _SIZE.fullmatch(str(text)) if len(str(text)) < 40 else None
+    if not match:
+        raise InvalidParameters(f"{name} must be a size such as 512M, 8G or a number of bytes (got {text!r})")
+    value = float(match.group(1)) * _UNITS[match.group(2).lower()]
+    if value < 1:
+        raise InvalidParameters(f"{name} must be at least one byte (got {text!r})")
+    return int(value)
+
+
+def _parse_seconds(text: str, name: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not (value > 0 and math.isfinite(value)):
+        raise InvalidParameters(f"{name} must be a positive number of seconds (got {text!r})")
+    return value
+
+
+def active_limits() -> Limits:
+    """The limits in force here (see the module docstring for the order)."""
+    chosen = _active.get()
+    if chosen is not None:
+        return chosen
+    memory, seconds = DEFAULT_LIMITS.memory, DEFAULT_LIMITS.seconds
+    env_memory = os.environ.get(ENV_MAX_MEMORY, "").strip()
+    if env_memory:
+        memory = parse_size(env_memory, ENV_MAX_MEMORY)
+    env_seconds = os.environ.get(ENV_MAX_SECONDS, "").strip()
+    if env_seconds:
+        seconds = _parse_seconds(env_seconds, ENV_MAX_SECONDS)
+    return Limits(memory, seconds)
+
+
+@contextmanager
+def limited(memory=None, seconds=None) -> Iterator[Limits]:
+    """Within the block, plan against these limits (``None`` keeps the one in force).
+
+    Parameters
+    ----------
+    memory : int or str, optional
+        Bytes, or a size text such as ``"8G"``.
+    seconds : float, optional
+        Seconds.
+    """
+    current = active_limits()
+    if isinstance(memory, str):
+        memory = parse_size(memory)
+    if seconds is not None and not (float(seconds) > 0 and math.isfinite(float(seconds))):
+        raise InvalidParameters(f"max_seconds must be a positive number of seconds (got {seconds!r})")
+    chosen = Limits(current.memory if memory is None else int(memory),
+                    current.seconds if seconds is None else float(seconds))
+    token = _active.set(chosen)
+    try:
+        yield chosen
+    finally:
+        _active.reset(token)
+
+
+def _size_text(value: float) -> str:
+    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+        if value >= scale:
+            return f"{value / scale:.1f} {unit}"
+    return f"{int(value)} bytes"
+
+
+def _time_text(value: float) -> str:
+    if value >= 86400 * 365:
+        return f"{value / (86400 * 365):.3g} years"
+    if value >= 86400:
+        return f"{value / 86400:.3g} days"
+    if value >= 3600:
+        return f"{value / 3600:.3g} hours"
+    if value >= 60:
+        return f"{value / 60:.3g} minutes"
+    return f"{value:.3g} s"
+
+
+def check(cost: Cost, what: str, *, advice: str = "make the problem smaller",
+          parameters: Sequence[str] = ()) -> None:
+    """Refuse *what* when its estimated *cost* exceeds the active limits.
+
+    Parameters
+    ----------
+    cost : Cost
+        The route's estimate.
+    what : str
+        The work, as the message should name it (``"the count"``).
+    advice : str
+        What else the user may change (after raising the limit).
+    parameters : sequence of str
+        Library parameters the advice names (see
+        :class:`~enumerator.core.errors.EnumeratorError`).
+
+    Raises
+    ------
+    TooLarge
+        With one sentence: what the work would take, the limit, and what to do.
+    """
+    limits = active_limits()
+    if cost.memory > limits.memory:
+        raise TooLarge(
+            f"{what} would need about {_size_text(cost.memory)} of memory, above the limit of "
+            f"{_size_text(limits.memory)}; raise max_memory= (or {ENV_MAX_MEMORY}), or {advice}",
+            parameters=("max_memory", *parameters),
+        )
+    if cost.seconds > limits.seconds:
+        raise TooLarge(
+            f"{what} would take about {_time_text(cost.seconds)}, above the limit of "
+            f"{_time_text(limits.seconds)}; raise max_seconds= (or {ENV_MAX_SECONDS}), or {advice}",
+            parameters=("max_seconds", *parameters),
+        )
