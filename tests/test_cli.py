@@ -474,6 +474,36 @@ def test_python_m_enumerator_help():
         assert command in proc.stdout
 
 
+_HEAVY = ("numpy", "rich", "sqlalchemy", "sympy", "flint", "mpmath", "matplotlib", "pydantic")
+_LOADED = r"""
+import sys
+from enumerator.cli import main
+try:
+    main(sys.argv[1:])
+except SystemExit:
+    pass
+print(" ".join(sorted({m.split(".")[0] for m in sys.modules})), file=sys.stderr)
+"""
+
+
+@pytest.mark.parametrize(
+    ("args", "allowed"),
+    [
+        ([], ()),  # importing the package only
+        (["--help"], ("rich",)),  # typer renders help with rich
+        (["ways", "-n", 4, "-r", 2, "--json"], ("flint", "pydantic")),  # counting; typer parses with pydantic
+    ],
+    ids=["import", "help", "ways"],
+)
+def test_commands_import_only_what_they_need(args, allowed):
+    # Start-up time is measured in scripts/bench.py; here only what is loaded is checked.
+    argv = [sys.executable, "-c", _LOADED if args else "import sys, enumerator.cli; "
+            "print(' '.join(sorted({m.split('.')[0] for m in sys.modules})), file=sys.stderr)", *map(str, args)]
+    proc = subprocess.run(argv, capture_output=True, text=True, timeout=120)
+    loaded = set(proc.stderr.split()) & set(_HEAVY)
+    assert loaded <= set(allowed), f"{' '.join(map(str, args)) or 'import'} loaded {sorted(loaded - set(allowed))}"
+
+
 def test_store_option_remembers_and_no_cache_writes_nothing(tmp_path):
     target = tmp_path / "results.sqlite"
     fresh = run_json("count", "-n", 9, "-r", 4, "--no-cache")
