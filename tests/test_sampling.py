@@ -189,7 +189,7 @@ def test_sizes_and_errors():
 
 
 def test_methods_listed():
-    assert set(METHODS) == {"stars-and-bars", "subset", "uniform-balls", "rejection", "sequential"}
+    assert set(METHODS) == {"stars-and-bars", "subset", "uniform-balls", "rejection", "sequential", "groups"}
 
 
 # ---------------------------------------------------------------------------

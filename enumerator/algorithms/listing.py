@@ -98,6 +98,7 @@ from typing import Iterator, List, Optional, Tuple
 import numpy as np
 
 from ..core.errors import InvalidConfiguration, InvalidParameters
+from ..core.limits import Cost, check
 from ..core.model import as_count
 from .listing_tables import (
     BLOCK_TABLE_BUDGET,
@@ -113,6 +114,7 @@ from .listing_tables import (
     suffix_table,
     walk,
 )
+from .sparse_ranking import SparseRanker
 
 __all__ = [
     "BLOCK_TABLE_BUDGET",
@@ -121,9 +123,22 @@ __all__ = [
     "block_dtype",
     "iter_blocks",
     "iter_configurations",
+    "check_listing",
+    "listing_cost",
     "rank",
+    "rank_sparse",
     "unrank",
+    "unrank_sparse",
 ]
+
+#: Listing speed for the estimates: urn entries written per second (C-level
+#: tuples reach 2-5 x 10^7, blocks 4 x 10^7 to 10^9; measured on the
+#: reference machine, rounded up so that only far-out work is refused).
+CELLS_PER_SECOND = 1e8
+#: Rows produced per second at best, whatever the width.
+ROWS_PER_SECOND = 2e7
+#: Output arrays a block listing may hold at once (the recycling pool of ``_Blocks``, plus one).
+BLOCK_ARRAYS = 4
 
 # Working data kept per model between calls, shared with listing_tables.
 _MEMO = MEMO
@@ -212,6 +227,155 @@ def unrank(model, index) -> Tuple[int, ...]:
     return plan.unshift(ranker.unrank(index))
 
 
+def _sparse_ranker(model) -> SparseRanker:
+    memo = _MEMO.slots(model)
+    got = memo.get("listing.sparse")
+    if got is None:
+        got = memo["listing.sparse"] = SparseRanker(model)
+    return got
+
+
+def rank_sparse(model, occupied) -> int:
+    """Return the lexicographic rank of a configuration given by its occupied urns only.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model (any number of urns: ``2**64`` is ordinary).
+    occupied : mapping or iterable of (int, int)
+        ``{urn: count}`` or ``((urn, count), ...)`` with urns numbered from
+        1; urns not listed hold 0 (so every urn with a positive lower bound
+        must be listed).
+
+    Returns
+    -------
+    int
+        The same rank as :func:`rank` of the dense vector.
+
+    Raises
+    ------
+    InvalidConfiguration
+        For a malformed or inadmissible configuration.
+    TooLarge
+        When the suffix counts exceed the active limits.
+
+    Notes
+    -----
+    Ranking by counting (Nijenhuis & Wilf, *Combinatorial Algorithms*, 1978)
+    with suffix counts by groups
+    (:class:`enumerator.algorithms.sparse_ranking.SparseRanker`): urns that
+    hold their minimum contribute nothing, so the cost is the groups' rows
+    (``O(G)`` products of ``n' + 1`` counts) plus one row per occupied urn,
+    independent of ``r``.
+
+    Examples
+    --------
+    >>> from enumerator.core.model import UrnModel
+    >>> model = UrnModel(balls=3, urns=2**40, rule="BE")
+    >>> rank_sparse(model, {2**40: 3})
+    0
+    >>> unrank_sparse(model, rank_sparse(model, {5: 1, 7: 2}))
+    ((5, 1), (7, 2))
+    """
+    return _sparse_ranker(model).rank(occupied)
+
+
+def unrank_sparse(model, index) -> Tuple[Tuple[int, int], ...]:
+    """Return the configuration of rank *index* as its occupied urns: ``((urn, count), ...)``, 1-based, ascending.
+
+    The inverse of :func:`rank_sparse`; urns with a positive lower bound are
+    always listed.  Cost: the groups' rows, then ``O(log2 r)`` suffix counts
+    per occupied urn (a binary search for the next occupied urn: the suffix
+    counts never increase along the urns), each ``O(n')`` big-integer steps.
+
+    Raises
+    ------
+    InvalidParameters
+        If *index* is not a whole number in ``[0, count)``.
+    TooLarge
+        When the work exceeds the active limits.
+    """
+    return _sparse_ranker(model).unrank(index)
+
+
+def listing_cost(model, start=0, stop=None, size=None) -> Cost:
+    """The estimated cost of listing ranks ``[start, stop)``: rows times urns, and the blocks in memory.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The model (never expanded per urn: the count comes from its groups).
+    start, stop : int
+        The ranks; ``stop=None`` is the end (the count is then computed from
+        the groups' suffix rows, :func:`rank_sparse`'s set-up).
+    size : int, optional
+        Rows per block (:func:`iter_blocks`); ``None`` for tuples.
+
+    Returns
+    -------
+    Cost
+        Seconds ``rows * r / CELLS_PER_SECOND`` (at least ``rows /
+        ROWS_PER_SECOND``); memory :data:`BLOCK_ARRAYS` blocks of ``size``
+        rows of ``r`` 8-byte entries (what a caller converting a block to
+        int64 holds).
+
+    Raises
+    ------
+    TooLarge
+        When even counting the configurations is beyond the limits.
+    """
+    start = as_count(start, "start")
+    if stop is not None:
+        rows = max(0, as_count(stop, "stop") - start)  # an upper bound, without counting
+    elif model.urns == 1:
+        rows = 1
+    else:
+        rows = max(0, _sparse_ranker(model).count - start)
+    return _cost(model, rows, size)
+
+
+def _cost(model, rows: Optional[int], size: Optional[int]) -> Cost:
+    r = model.urns
+    seconds = 0.0 if rows is None else max(rows * r / CELLS_PER_SECOND, rows / ROWS_PER_SECOND)
+    memory = 0
+    if size is not None:
+        height = size if rows is None else min(size, rows)
+        memory = BLOCK_ARRAYS * height * r * 8
+    return Cost(seconds=seconds, memory=memory)
+
+
+def check_listing(model, start=0, stop=None, size=None) -> None:
+    """Refuse a listing of ranks ``[start, stop)`` beyond the active limits, before it starts.
+
+    For callers that will consume the whole range (a command printing a
+    listing): :func:`iter_configurations` and :func:`iter_blocks` are lazy
+    and check the time only when *stop* is given, and the memory of their
+    blocks always.  Cost of the check: the groups' suffix rows when *stop*
+    is ``None`` (see :func:`listing_cost`).
+
+    Raises
+    ------
+    TooLarge
+        Naming ``start=``/``stop=`` (and ``size=`` for blocks).
+    """
+    _check(model, listing_cost(model, start, stop, size), size)
+
+
+def _check(model, cost: Cost, size) -> None:
+    advice = "list a range of ranks (start=, stop=)"
+    parameters = ["start", "stop"]
+    if size is not None:
+        advice += " or smaller blocks (size=)"
+        parameters.append("size")
+    check(cost, f"listing {model!r}", advice=advice, parameters=parameters)
+
+
+def _check_listing(model, start, stop, size=None) -> None:
+    """The lazy iterators' check: the time of a given range, the memory of the blocks."""
+    rows = None if stop is None else max(0, as_count(stop, "stop") - as_count(start, "start"))
+    _check(model, _cost(model, rows, size), size)
+
+
 def _range(memo: dict, plan: Plan, start, stop):
     """Validate *start*/*stop*; return ``(start, total, empty)``, ``total=None`` to the end.
 
@@ -266,6 +430,7 @@ def iter_configurations(model, start=0, stop=None) -> Iterator[Tuple[int, ...]]:
         UrnModel vectors; a tuple may be reused by CPython once the consumer
         has dropped its reference (as ``itertools`` does), never while held.
     """
+    _check_listing(model, start, stop)
     plan = plan_for(model)
     start, total, empty = _range(_MEMO.slots(model), plan, start, stop)
     if empty:
@@ -369,6 +534,7 @@ def iter_blocks(model, size, start=0, stop=None) -> Iterator[np.ndarray]:
         not whole numbers at least 0.
     """
     size = as_count(size, "block size", 1)
+    _check_listing(model, start, stop, size)
     plan = plan_for(model)
     start, total, empty = _range(_MEMO.slots(model), plan, start, stop)
     if empty:

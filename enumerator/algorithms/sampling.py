@@ -39,6 +39,19 @@ Methods, chosen per model by :func:`sampling_method`:
     Han & Hoshi, *Interval algorithm for random number generation*, IEEE
     Trans. Inf. Theory, 1997).
 
+``groups``
+    Weighted models (and any model on request): group by group from exact
+    weighted suffix counts, then inside each group of interchangeable urns
+    (:mod:`enumerator.algorithms.sampling_groups`).  The same draws come
+    sparse from :func:`iter_sample_sparse` — the occupied urns and their
+    counts only — which works for any number of urns (``2**64`` is
+    ordinary); dense rows are for models whose rows fit in memory
+    (:func:`dense_sample_cost`).
+
+Weights: under MB a ball lands in urn ``i`` with probability ``w_i / W``
+(conditioned on the bounds); under BE/FD ``P(k)`` is proportional to
+``prod w_i^{k_i}``.
+
 Reproducibility: the same model, seed and size give the same rows, and
 ``sample(m, 10, seed)`` is the first 10 rows of ``sample(m, 1000, seed)``:
 rows come in blocks of fixed sizes, block ``j`` from the child ``j`` of
@@ -57,14 +70,18 @@ from flint import fmpz_poly
 
 from ..core import series
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.limits import Cost, check
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel, as_count
 from .counting import count_configurations, count_microstates
+from .sampling_groups import GroupSampler
 
 __all__ = [
     "METHODS",
     "REJECTION_MIN",
+    "dense_sample_cost",
     "iter_sample_blocks",
+    "iter_sample_sparse",
     "sample",
     "sample_array",
     "sampling_method",
@@ -100,7 +117,46 @@ _TOP = np.uint64(2**64 - 1)
 # ---------------------------------------------------------------------------
 
 #: The method names, in the order :func:`sampling_method` prefers them.
-METHODS = ("stars-and-bars", "subset", "uniform-balls", "rejection", "sequential")
+METHODS = ("stars-and-bars", "subset", "uniform-balls", "rejection", "sequential", "groups")
+#: Bytes per dense cell a block may touch at once (the int64 rows and the
+#: temporaries of the vectorised samplers), for :func:`dense_sample_cost`.
+DENSE_CELL_BYTES = 32
+
+
+def dense_sample_cost(model: UrnModel) -> Cost:
+    """The memory of dense sampling: one block of at least :data:`FIRST_BLOCK` rows of ``r`` int64 cells.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The model (only its number of urns matters; never expanded).
+
+    Returns
+    -------
+    Cost
+        ``memory`` about ``FIRST_BLOCK * r * DENSE_CELL_BYTES`` bytes; the
+        seconds are left to each method.
+
+    Notes
+    -----
+    A caller that prefers to switch rather than be refused compares this
+    with :func:`enumerator.core.limits.active_limits` and calls
+    :func:`iter_sample_sparse` instead.
+    """
+    return Cost(seconds=0.0, memory=FIRST_BLOCK * model.urns * DENSE_CELL_BYTES)
+
+
+def _check_dense(model: UrnModel) -> None:
+    check(dense_sample_cost(model), f"dense samples of {model.urns:,} urns",
+          advice="draw sparse rows (iter_sample_sparse, or sample(..., sparse=True)) that list only the occupied urns",
+          parameters=["sparse"])
+
+
+def _block_rows(r: int) -> int:
+    """The largest block of the sequence 64, 128, ... for *r* urns (a power of two in [64, 65536])."""
+    cap = BLOCK_CELLS // max(1, r)
+    cap = 1 << max(0, cap.bit_length() - 1)
+    return max(FIRST_BLOCK, min(1 << 16, cap))
 
 
 def sampling_method(model: UrnModel) -> str:
@@ -120,7 +176,11 @@ def iter_sample_blocks(model: UrnModel, size, seed=None, method: Optional[str] =
     size = as_count(size, "size")
     if seed is not None:
         seed = as_count(seed, "seed")
+    _check_dense(model)
     plan = _plan(model) if method is None else _forced(model, method)
+    if isinstance(plan, _Groups):
+        check(plan.sampler.draw_cost(size), f"{size:,} draws", advice="draw fewer rows (size=)",
+              parameters=["size"])
     root = np.random.SeedSequence(seed)
     produced = 0
     index = 0
@@ -149,16 +209,88 @@ def sample_array(model: UrnModel, size, seed=None, method: Optional[str] = None)
     return np.concatenate(blocks) if len(blocks) > 1 else blocks[0]
 
 
-def sample(model: UrnModel, size, seed=None, method: Optional[str] = None) -> List[Tuple[int, ...]]:
+def iter_sample_sparse(model: UrnModel, size, seed=None) -> Iterator[Tuple[Tuple[int, int], ...]]:
+    r"""Yield ``size`` random configurations sparsely: per draw, the occupied urns and their counts.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model, with groups and weights and any number of urns.
+    size : int
+        How many draws.
+    seed : int, optional
+        Same seed, same draws (``None``: fresh operating-system entropy).
+
+    Yields
+    ------
+    tuple of (int, int)
+        ``((urn, count), ...)``: the urns (1-based, ascending) holding at
+        least one ball, with their counts; the other urns are empty.
+
+    Raises
+    ------
+    InvalidParameters
+        For a model that admits no configuration, or a bad *size*/*seed*.
+    TooLarge
+        When the count rows or the draws exceed the active limits (the
+        estimate is checked before the first draw).
+
+    Notes
+    -----
+    Exact sequential sampling by groups
+    (:class:`enumerator.algorithms.sampling_groups.GroupSampler`: weighted
+    suffix counts between groups, Floyd's algorithm or exact halving
+    inside; Nijenhuis & Wilf, *Combinatorial Algorithms*, 1978).  Cost:
+    the rows (``O(G)`` products of ``n + 1`` counts), then ``O(G n)``
+    big-integer steps per draw, more for groups with biting capacities;
+    never per urn.  The draws equal the rows of
+    ``iter_sample_blocks(model, size, seed, method="groups")``.
+
+    Examples
+    --------
+    >>> draws = list(iter_sample_sparse(UrnModel(balls=3, urns=2**64, rule="BE"), 2, seed=1))
+    >>> [sum(k for _, k in d) for d in draws]
+    [3, 3]
+    """
+    size = as_count(size, "size")
+    if seed is not None:
+        seed = as_count(seed, "seed")
+    sampler = _group_sampler(model)
+    check(sampler.draw_cost(size), f"{size:,} draws", advice="draw fewer rows (size=)", parameters=["size"])
+    root = np.random.SeedSequence(seed)
+    produced = index = 0
+    rows = FIRST_BLOCK
+    cap = _block_rows(model.urns)
+    while produced < size:
+        rng = np.random.Generator(
+            np.random.PCG64(np.random.SeedSequence(root.entropy, spawn_key=(index,)))
+        )
+        take = min(rows, size - produced)
+        for _ in range(take):
+            yield sampler.draw(rng)
+        produced += take
+        index += 1
+        rows = min(2 * rows, cap)
+
+
+def sample(model: UrnModel, size, seed=None, method: Optional[str] = None, sparse: bool = False) -> List[tuple]:
     """Return ``size`` random configurations as tuples of ints, exactly from the rule's law.
 
-    BE/FD: uniform over the admissible vectors; MB: probability
-    ``n!/(k_1!...k_r!)`` over the microstates.  Same *seed*, same rows.
+    BE/FD: ``P(k)`` proportional to ``prod w_i^{k_i}`` over the admissible
+    vectors (uniform without weights); MB: probability ``n!/(k_1!...k_r!)
+    prod (w_i/W)^{k_i}`` conditioned on the bounds.  Same *seed*, same rows.
+    With ``sparse=True`` each draw is ``((urn, count), ...)`` over the
+    occupied urns only (:func:`iter_sample_sparse`, any number of urns).
 
     >>> rows = sample(UrnModel(balls=2, urns=3, rule="FD"), 3, seed=7)
     >>> all(sum(k) == 2 and max(k) <= 1 for k in rows)
     True
     """
+    if sparse:
+        if method not in (None, "groups"):
+            raise InvalidParameters(f"sparse draws use method 'groups' (got method={method!r})",
+                                    parameters=["method", "sparse"])
+        return list(iter_sample_sparse(model, size, seed))
     return [tuple(row) for row in sample_array(model, size, seed, method).tolist()]
 
 
@@ -209,6 +341,14 @@ def _forced(model: UrnModel, method: str) -> _Plan:
     plan = _MEMO.slots(model).get(key)
     if plan is not None:
         return plan
+    if method == "groups":
+        plan = _MEMO.slots(model)[key] = _Groups(model)
+        return plan
+    if model.weighted:
+        raise InvalidParameters(
+            f"method {method!r} does not apply to {model!r}: it ignores weights; use method 'groups' (or the default)",
+            parameters=["method"],
+        )
     bounds = model.effective_bounds()
     lows = [a for a, _ in bounds]
     free = model.balls - sum(lows)
@@ -254,7 +394,31 @@ def _forced(model: UrnModel, method: str) -> _Plan:
     return plan
 
 
+def _group_sampler(model: UrnModel) -> GroupSampler:
+    memo = _MEMO.slots(model)
+    sampler = memo.get("sampling.groups")
+    if sampler is None:
+        sampler = memo["sampling.groups"] = GroupSampler(model)
+    return sampler
+
+
+class _Groups(_Plan):
+    """Dense rows from the sparse group sampler (weighted models, or on request)."""
+
+    method = "groups"
+
+    def __init__(self, model: UrnModel):
+        super().__init__(model)
+        self.sampler = _group_sampler(model)
+        self.cap = _block_rows(self.r)
+
+    def draw(self, rng, rows):
+        return self.sampler.draw_dense(rng, rows, self.r)
+
+
 def _choose(model: UrnModel) -> _Plan:
+    if model.weighted:
+        return _Groups(model)
     bounds = model.effective_bounds()
     lows = [a for a, _ in bounds]
     free = model.balls - sum(lows)

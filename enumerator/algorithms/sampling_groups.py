@@ -1,0 +1,259 @@
+r"""Exact sampling by urn groups: weights, any number of urns, sparse draws.
+
+One draw is written sparsely, as the occupied urns with their counts, so a
+model of ``2**64`` urns costs nothing per urn.  The law is the rule's, with
+weights (``model.groups``): MB — each ball independently in urn ``i`` with
+probability ``w_i / W``, conditioned on the bounds, so ``P(k) ∝ n!/prod k_i!
+prod w_i^{k_i}``; BE/FD — ``P(k) ∝ prod w_i^{k_i}`` over the admissible
+vectors.
+
+The method (sequential sampling from exact counts, the counting-to-sampling
+reduction of Nijenhuis & Wilf, *Combinatorial Algorithms*, 2nd ed., 1978,
+ch. 13; Feller vol. 1 §II.5 for stars and bars):
+
+1. **Between groups.**  Suffix rows ``R_g(m)`` (the weighted ways for the
+   groups ``g, g+1, ...`` to hold ``m`` balls, see
+   :mod:`enumerator.algorithms.group_rows`) give the law of the balls ``j``
+   of group ``g`` given ``m`` left: weight ``S_g(j) R_{g+1}(m-j)`` (BE/FD) or
+   ``C(m, j) S_g(j) R_{g+1}(m-j)`` (MB), out of ``R_g(m)``.  Rational weights
+   are scaled to integers first, so every choice is an exact integer
+   threshold: a uniform integer below the total (whole 64-bit words from
+   NumPy's PCG64, with rejection — no floating point) against the running
+   sums.
+2. **Inside a group** the urns are interchangeable (equal weight and
+   bounds), so the weight cancels:
+
+   * BE without a biting upper bound: a uniform ``j``-multiset of the ``c``
+     urns, as ``j`` stars among ``c + j - 1`` slots chosen by Floyd's
+     algorithm (Bentley & Floyd, *A sample of brilliance*, CACM 30(9), 1987);
+   * BE/FD with room for one ball: a uniform ``j``-subset, by Floyd;
+   * MB without a biting bound: each ball a uniform urn;
+   * otherwise recursive halving of the group with exact rows of the halves
+     (at most ``2 log2 c`` distinct sizes), descending only into halves that
+     receive balls.
+
+Cost per draw: ``O(G n)`` big-integer steps between groups plus ``O(n)``
+(direct cases) or ``O(n^2 log c)`` (halving) inside; set-up: the rows of
+:func:`enumerator.algorithms.group_rows.rows_cost`.  Nothing grows with the
+number of urns ``r``.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Dict, List, Optional, Tuple
+
+import gmpy2
+import numpy as np
+
+from ..core.errors import InvalidParameters
+from ..core.limits import STEPS_PER_SECOND, Cost, bigint_bytes, check
+from .group_rows import group_row, integer_weights, row_bits, rows_cost, suffix_rows
+
+__all__ = ["GroupSampler", "uniform_below"]
+
+mpz = gmpy2.mpz
+
+Sparse = Tuple[Tuple[int, int], ...]
+
+
+def uniform_below(rng: np.random.Generator, bound: int) -> int:
+    """A uniform integer in ``[0, bound)``, exact for any size of *bound*.
+
+    Below ``2**64`` one call to NumPy's unbiased bounded integers (Lemire's
+    method); above, whole 64-bit words masked to the bit length of
+    ``bound - 1`` and rejected when too large (fewer than two tries on average).
+    """
+    if bound <= 0:
+        raise ValueError("bound must be positive")
+    if bound <= 2**64:
+        return int(rng.integers(0, bound - 1, endpoint=True, dtype=np.uint64))
+    bits = (bound - 1).bit_length()
+    words = -(-bits // 64)
+    mask = (1 << bits) - 1
+    while True:
+        value = 0
+        for word in rng.integers(0, 2**64 - 1, size=words, endpoint=True, dtype=np.uint64).tolist():
+            value = (value << 64) | word
+        value &= mask
+        if value < bound:
+            return value
+
+
+def _pick(rng, weights: List, total) -> int:
+    """The index ``i`` with ``sum_{<i} w < U <= sum_{<=i} w`` for ``U`` uniform below *total*."""
+    u = uniform_below(rng, int(total))
+    running = 0
+    for i, w in enumerate(weights):
+        running += w
+        if u < running:
+            return i
+    raise AssertionError("weights do not add up to the total")  # pragma: no cover
+
+
+def _floyd(rng, population: int, k: int) -> List[int]:
+    """A uniform ``k``-subset of ``range(population)``, sorted (Floyd's algorithm; any size of *population*)."""
+    chosen = set()
+    for j in range(population - k, population):
+        t = uniform_below(rng, j + 1)
+        chosen.add(j if t in chosen else t)
+    return sorted(chosen)
+
+
+class GroupSampler:
+    """Exact sparse draws for a model, by its urn groups (see the module docstring).
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model that admits a configuration.
+
+    Raises
+    ------
+    InvalidParameters
+        When the model admits no configuration.
+    TooLarge
+        When the rows would exceed the active limits (:func:`enumerator.core.limits.check`).
+    """
+
+    def __init__(self, model):
+        self.model = model
+        self.n = n = model.balls
+        self.kind = "exponential" if model.rule.distinguishable else "ordinary"
+        eff = model.effective_groups()
+        ints, _ = integer_weights([w for *_, w in eff])
+        self.groups = []
+        first = 1
+        for (count, lower, upper, _), w in zip(eff, ints):
+            self.groups.append((count, lower, upper, w, first))
+            first += count
+        spec = [(c, a, b, w) for c, a, b, w, _ in self.groups]
+        self.empty = any(b < a for _, a, b, _ in spec) or sum(c * a for c, a, _, _ in spec) > n
+        if self.empty:
+            raise InvalidParameters(
+                f"{model!r} admits no configuration (its bounds cannot hold {n} balls), "
+                "so there is nothing to sample; change the balls or the bounds"
+            )
+        check(rows_cost(self.kind, spec, n), "the count rows of the group sampler",
+              advice="use fewer balls or groups")
+        self.rows = suffix_rows(self.kind, spec, n)
+        if self.rows[0][n] == 0:
+            raise InvalidParameters(
+                f"{model!r} admits no configuration (its bounds cannot hold {n} balls), "
+                "so there is nothing to sample; change the balls or the bounds"
+            )
+        self.own = [group_row(self.kind, c, a, b, n, w) for c, a, b, w in spec] if len(spec) > 1 else None
+        self._halves: Dict[Tuple[int, int, int, int], List] = {}
+
+    # -- cost --------------------------------------------------------------
+    def draw_cost(self, size: int) -> Cost:
+        """Seconds for *size* draws: ``O(G n)`` big steps between groups, ``O(n^2 log c)`` in halving groups."""
+        n = self.n
+        bits = row_bits(self.kind, self.model.urns, n)
+        steps = len(self.groups) * (n + 1) * max(1, bits // 640)
+        for c, a, b, _, _ in self.groups:
+            if not self._direct(c, a, b, n):
+                steps += n * n * max(1, c.bit_length()) * max(1, bits // 640)
+        return Cost(seconds=size * steps / STEPS_PER_SECOND, memory=bigint_bytes(bits) * (n + 1) * 4)
+
+    def _direct(self, c, a, b, j) -> bool:
+        if a:
+            return False
+        if self.kind == "exponential":
+            return b >= j
+        return b >= j or b == 1
+
+    # -- one draw ------------------------------------------------------------
+    def draw(self, rng: np.random.Generator) -> Sparse:
+        """One configuration as ``((urn, count), ...)``: occupied urns, 1-based, ascending."""
+        m = self.n
+        out: List[Tuple[int, int]] = []
+        last = len(self.groups) - 1
+        for g, (c, a, b, _, first) in enumerate(self.groups):
+            if g == last:
+                j = m
+            else:
+                own, rest = self.own[g], self.rows[g + 1]
+                lo = c * a if c * a <= m else m + 1
+                weights = []
+                for t in range(lo, min(m, c * b) + 1):
+                    w = own[t] * rest[m - t]
+                    if self.kind == "exponential" and w:
+                        w *= math.comb(m, t)
+                    weights.append(w)
+                total = self.rows[g][m]  # the sum of the weights (a labelled convolution for MB)
+                j = lo + _pick(rng, weights, total)
+            m -= j
+            if j or a:
+                out.extend((first + i, k) for i, k in self._inside(rng, c, a, b, j))
+        return tuple(out)
+
+    def _inside(self, rng, c: int, a: int, b: int, j: int) -> List[Tuple[int, int]]:
+        """``j`` balls among ``c`` interchangeable urns with bounds ``a..b``: 0-based ``(urn, count)`` pairs."""
+        if j == 0 and a == 0:
+            return []
+        if not a:
+            if self.kind == "exponential" and b >= j:
+                counts: Dict[int, int] = {}
+                for _ in range(j):
+                    urn = uniform_below(rng, c)
+                    counts[urn] = counts.get(urn, 0) + 1
+                return sorted(counts.items())
+            if self.kind == "ordinary" and b >= j:
+                stars = _floyd(rng, c + j - 1, j)
+                counts = {}
+                for i, s in enumerate(stars):
+                    counts[s - i] = counts.get(s - i, 0) + 1
+                return sorted(counts.items())
+            if self.kind == "ordinary" and b == 1:
+                return [(u, 1) for u in _floyd(rng, c, j)]
+        out: List[Tuple[int, int]] = []
+        self._halve(rng, 0, c, a, b, j, out)
+        return out
+
+    def _half_row(self, c: int, a: int, b: int, top: int) -> List:
+        key = (c, a, b, top)
+        row = self._halves.get(key)
+        if row is None:
+            row = self._halves[key] = group_row(self.kind, c, a, b, top)
+        return row
+
+    def _halve(self, rng, offset: int, c: int, a: int, b: int, j: int, out: list) -> None:
+        """Split ``j`` balls between the halves of ``c`` urns with the exact conditional law, down to single urns.
+
+        Iterative (an explicit stack, left halves first), so a group of
+        ``10**4000`` urns descends its 13,000 levels without recursion.
+        """
+        top = self.n
+        stack = [(offset, c, j)]
+        while stack:
+            offset, c, j = stack.pop()
+            if j == 0 and a == 0:
+                continue
+            if c == 1:
+                out.append((offset, j))
+                continue
+            c1 = c // 2
+            c2 = c - c1
+            left, right = self._half_row(c1, a, b, top), self._half_row(c2, a, b, top)
+            lo = max(c1 * a, j - c2 * b)
+            hi = min(c1 * b, j - c2 * a)
+            weights = []
+            for t in range(lo, hi + 1):
+                w = left[t] * right[j - t]
+                if self.kind == "exponential" and w:
+                    w *= math.comb(j, t)
+                weights.append(w)
+            t = lo + _pick(rng, weights, sum(weights))
+            stack.append((offset + c1, c2, j - t))
+            stack.append((offset, c1, t))
+
+    # -- dense -------------------------------------------------------------
+    def draw_dense(self, rng: np.random.Generator, rows: int, r: Optional[int] = None) -> np.ndarray:
+        """*rows* draws as an int64 array of shape ``(rows, r)`` (small ``r`` only: the caller checks)."""
+        r = self.model.urns if r is None else r
+        out = np.zeros((rows, r), dtype=np.int64)
+        for i in range(rows):
+            for urn, k in self.draw(rng):
+                out[i, urn - 1] = k
+        return out
