@@ -7,7 +7,7 @@ the library and hands the results to :mod:`enumerator.cli.render_levels`
 ``--store``/``--no-cache``.
 """
 
-from fractions import Fraction
+import math
 from typing import Annotated, Optional
 
 import typer
@@ -166,7 +166,7 @@ def levels_command(
                            dimension, gap, oscillators)
     if max_energy is not None and not system.spectrum.finite:
         top = lv.parse_rational(max_energy, "--max-energy")
-        listed = system.spectrum.through(_floor_fraction(top / system.spectrum.unit))
+        listed = system.spectrum.through(math.floor(top / system.spectrum.unit))
         system = lv.System(listed, system.particles, system.rule, system.capacity)
     counts = lv.multiplicities(system, max_energy)
     points = None
@@ -180,20 +180,6 @@ def levels_command(
         emit_json(render_levels.levels_payload(system, counts, points, micro_points))
         return
     render_levels.show_levels(system, counts, points, micro_points, max_energy, plot)
-
-
-def _floor_fraction(value: Fraction) -> int:
-    """Floor of an exact fraction.
-
-    Parameters
-    ----------
-    value : Fraction
-
-    Returns
-    -------
-    int
-    """
-    return value.numerator // value.denominator
 
 
 def _side_options(side: str):
