@@ -83,11 +83,10 @@ class Occupancy(UrnModel):
         """The number of admissible occupancy vectors (exact ``int``).
 
         Remembered in the result store; the pure computation is
-        :func:`enumerator.algorithms.counting.count_configurations`.
+        :func:`enumerator.algorithms.counting.count_configurations` (imported
+        only on a miss, so a stored answer loads no series kernel).
         """
-        from .algorithms.counting import count_configurations
-
-        return self._remembered("configurations", partial(count_configurations, self), store=store)
+        return self._remembered("configurations", partial(_count, "count_configurations", self), store=store)
 
     def microstates(self, *, store=None) -> int:
         """The number of equally likely outcomes (MB: assignments; BE/FD: vectors).
@@ -96,11 +95,9 @@ class Occupancy(UrnModel):
         :meth:`configurations`.  Pure:
         :func:`enumerator.algorithms.counting.count_microstates`.
         """
-        if self.rule is not Rule.MB:
+        if self.rule is not Rule.MB and not self.weighted:
             return self.configurations(store=store)
-        from .algorithms.counting import count_microstates
-
-        return self._remembered("microstates", partial(count_microstates, self), store=store)
+        return self._remembered("microstates", partial(_count, "count_microstates", self), store=store)
 
     def weight(self, config) -> int:
         """The number of equally likely outcomes with occupancy *config*."""
@@ -108,11 +105,23 @@ class Occupancy(UrnModel):
 
         return configuration_weight(self, config)
 
-    def probability(self, config) -> Fraction:
-        """The exact probability of the occupancy vector *config*."""
-        from .algorithms.counting import configuration_probability
+    def probability(self, config, *, store=None) -> Fraction:
+        """The exact probability of the occupancy vector *config*.
 
-        return configuration_probability(self, config)
+        Where the law needs its normaliser (bounds, or BE/FD weights), the
+        normaliser is :meth:`microstates`, remembered in the store;
+        otherwise :func:`enumerator.algorithms.counting.configuration_probability`
+        answers from closed forms.
+        """
+        from .algorithms.counting import configuration_probability, configuration_weight
+
+        free = all(g.lower == 0 and g.upper is None for g in self.groups)
+        if free and (self.rule is Rule.MB or not self.weighted):
+            return configuration_probability(self, config)
+        weight = configuration_weight(self, config)
+        if not weight:
+            return Fraction(0)
+        return Fraction(weight) / Fraction(self.microstates(store=store))
 
     def profiles(self, *, store=None) -> int:
         """The number of distinct occupancy profiles (multisets of entries).
@@ -150,14 +159,22 @@ class Occupancy(UrnModel):
             pmf[tuple(value) if isinstance(value, list) else value] = p
         return Distribution(stat.name, pmf, stored["mean"], stored["variance"])
 
-    def event_probability(self, event: str, limit=None) -> Fraction:
+    def event_probability(self, event: str, limit=None, *, store=None) -> Fraction:
         """The exact probability of an event such as ``"max <= 2 and k1 >= 1"``.
 
-        See :mod:`enumerator.algorithms.events` for the language.
+        Remembered in the result store under the event's canonical text; see
+        :mod:`enumerator.algorithms.events` for the language.
         """
+        from .algorithms.event_language import parse_event
         from .algorithms.events import event_probability
 
-        return event_probability(self, event) if limit is None else event_probability(self, event, limit=limit)
+        text = str(parse_event(event))
+
+        def compute():
+            return event_probability(self, text) if limit is None else event_probability(self, text, limit=limit)
+
+        _register_event_probability()
+        return self._remembered("event_probability", compute, params=text, store=store)
 
     def coefficient_row(self, upto=None, *, store=None):
         """Counts for every ball number ``0..upto`` at once (one series pass).
@@ -201,3 +218,26 @@ class Occupancy(UrnModel):
         from .algorithms.listing import unrank
 
         return unrank(self, index)
+
+
+def _count(name: str, model: UrnModel):
+    """Run ``enumerator.algorithms.counting.<name>(model)``, importing the kernel only when called."""
+    from .algorithms import counting
+
+    return getattr(counting, name)(model)
+
+
+_EVENT_VERSION = 1
+
+
+def _register_event_probability() -> None:
+    """Declare the stored quantity ``event_probability`` (its version, and how verify recomputes it)."""
+    from .store.keys import ALGORITHM_VERSIONS, register_quantity
+
+    if "event_probability" not in ALGORITHM_VERSIONS:
+        def recompute(model, params):
+            from .algorithms.events import event_probability
+
+            return event_probability(model, params)
+
+        register_quantity("event_probability", _EVENT_VERSION, recompute)
