@@ -19,8 +19,6 @@ from dataclasses import dataclass
 from enum import Enum
 from typing import Optional, Sequence
 
-import gmpy2
-
 from .errors import InvalidParameters
 
 __all__ = ["Rule", "RuleDescription", "multinomial"]
@@ -55,6 +53,8 @@ def multinomial(values: Sequence[int], top=None):
     >>> int(multinomial((2, 1, 1)))
     12
     """
+    import gmpy2  # here, not at the top: the rules are read on every start, the multinomial rarely
+
     if top is None:
         top = gmpy2.fac(sum(values))
     den = gmpy2.mpz(1)
