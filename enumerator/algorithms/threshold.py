@@ -1,0 +1,365 @@
+r"""The size needed for a probability: the least number of balls (or urns) at which an event is likely enough.
+
+Given a model with one parameter left free — the number of balls ``n`` or the
+number of urns ``r`` — an event and a target probability ``p``,
+:func:`find_threshold` returns the least value ``v`` of the free parameter
+with ``P_v(event) >= p``, with the exact probabilities at ``v`` and ``v - 1``.
+Typical questions: how many keys until two share a bucket with probability
+1/2 (``max >= 2``), how many people until three share a birthday
+(``max >= 3``), how many buckets so that 10^5 keys collide with probability
+at most 0.001 (vary the urns, ``max <= 1``, target 0.999).
+
+How the value is searched
+    *Bisection* where ``P_v`` is proved monotone in ``v``, *a scan* upward
+    from the smallest value otherwise.  Bisection is an exponential search
+    (1, 2, 4, ... until the target is reached) followed by a binary search,
+    ``O(log v)`` exact evaluations; a scan evaluates every value in turn and
+    stops after :data:`SCAN_STEPS` values.
+
+When ``P_v`` is proved monotone
+    Balls: the event must be *monotone in the occupancies* — built with
+    ``and``, ``or``, ``not`` from comparisons ``T >= j``, ``T > j``, ``T <= j``,
+    ``T < j`` of statistics ``T`` that only grow when a ball is added (``max``,
+    ``min``, ``occupied``, ``kI``, ``count(>= J)``) or only shrink (``empty``,
+    ``count(<= J)``), all pointing the same way — and the model must be one
+    that can be grown a ball at a time without changing its law: MB with any
+    weights and no bounds (balls are thrown one by one, independently);
+    BE with equal weights and no bounds (the Pólya urn: a new ball joins urn
+    ``i`` with probability ``(k_i + 1)/(n + r)``, and the occupancy vector is
+    uniform at every ``n`` — F. Eggenberger and G. Pólya, 1923; Feller,
+    vol. 1, ch. V.2); FD with equal weights and no lower bound (a new ball
+    takes an empty urn uniformly at random, which keeps the occupied set
+    uniform).  Coupling the models at ``n`` and ``n + 1`` this way makes an
+    increasing event's probability non-decreasing in ``n``.
+    Urns: for the no-collision events (``max <= 1``, ``max < 2`` and their
+    negations) with equal weights and no bounds, ``P(max <= 1)`` is
+    ``prod_{i<n} (1 - i/r)`` (MB) or ``prod_{i<n} (r - i)/(r + i)`` (BE):
+    every factor grows with ``r``.
+
+Every evaluation is an exact probability
+(:func:`enumerator.algorithms.events.event_probability`), so each step checks
+its own cost against the limits (:mod:`enumerator.core.limits`).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Callable, Optional, Union
+
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.model import UrnModel
+from .event_language import And, Comparison, Event, Not, Or, parse_event
+from .events import event_probability
+
+__all__ = ["SCAN_STEPS", "Threshold", "event_direction", "find_threshold", "parse_probability"]
+
+#: Most values a scan evaluates before it gives up.
+SCAN_STEPS = 10_000
+#: Largest value an exponential search tries (about 2^512).
+SEARCH_CEILING = 1 << 512
+
+_PROBABILITY = re.compile(r"\s*([0-9]+)(?:\.([0-9]*))?(?:[eE]([+-]?[0-9]{1,4}))?\s*")
+
+
+@dataclass(frozen=True)
+class Threshold:
+    """The answer of :func:`find_threshold`.
+
+    Attributes
+    ----------
+    vary : str
+        ``"balls"`` or ``"urns"``.
+    value : int
+        The least value with ``P(event) >= target``.
+    probability : Fraction
+        ``P(event)`` at *value*.
+    probability_before : Fraction or None
+        ``P(event)`` at ``value - 1`` (None when ``value`` is the smallest
+        value the parameter takes).
+    method : str
+        ``"bisection"`` (monotonicity proved) or ``"scan"``.
+    evaluations : int
+        How many exact probabilities were computed.
+    """
+
+    vary: str
+    value: int
+    probability: Fraction
+    probability_before: Optional[Fraction]
+    method: str
+    evaluations: int
+
+
+def parse_probability(text: Union[str, Fraction, int]) -> Fraction:
+    """Read a target probability exactly: ``"0.5"``, ``"1e-6"``, ``"999/1000"``, in ``(0, 1]``.
+
+    Exponents are limited to four digits, so no text asks for a number of
+    unbounded size.
+
+    Examples
+    --------
+    >>> parse_probability("1e-6"), parse_probability("0.999"), parse_probability("1/2")
+    (Fraction(1, 1000000), Fraction(999, 1000), Fraction(1, 2))
+    """
+    if isinstance(text, (Fraction, int)) and not isinstance(text, bool):
+        value = Fraction(text)
+    else:
+        body = str(text)
+        top, slash, bottom = body.partition("/")
+        try:
+            if slash:
+                if not (top.strip().isdigit() and bottom.strip().isdigit()) or len(body) > 200:
+                    raise ValueError
+                value = Fraction(int(top), int(bottom))
+            else:
+                match = _PROBABILITY.fullmatch(body) if len(body) <= 200 else None
+                if not match:
+                    raise ValueError
+                whole, frac, exp = match.group(1), match.group(2) or "", int(match.group(3) or 0)
+                value = Fraction(int(whole + frac), 10 ** len(frac)) * Fraction(10) ** exp
+        except (ValueError, ZeroDivisionError):
+            raise InvalidParameters(
+                f"target must be a probability such as 0.5, 1e-6 or 999/1000 (got {str(text)[:40]!r})",
+                parameters=["target"],
+            ) from None
+    if not 0 < value <= 1:
+        raise InvalidParameters(f"target must be above 0 and at most 1 (got {value})", parameters=["target"])
+    return value
+
+
+# ---------------------------------------------------------------------------
+# monotonicity
+# ---------------------------------------------------------------------------
+
+def _statistic_direction(term) -> int:
+    """+1 if the statistic never decreases when a ball is added, -1 if it never increases, else 0."""
+    kind, parameter = term.kind, term.parameter
+    if kind in ("max", "min", "occupied", "urn", "atleast"):
+        return 1
+    if kind == "empty":
+        return -1
+    if kind == "exactly":
+        return -1 if parameter == 0 else 0
+    if kind == "count":
+        op, value = parameter
+        if op in (">=", ">"):
+            return 1
+        if op in ("<=", "<"):
+            return -1
+        if value == 0:
+            return -1 if op == "==" else 1
+    return 0
+
+
+def event_direction(event: Union[str, Event]) -> int:
+    """+1 if the event only becomes true as balls are added, -1 if only false, 0 if neither is proved.
+
+    Examples
+    --------
+    >>> event_direction("max >= 2"), event_direction("max <= 1"), event_direction("count(== 2) >= 1")
+    (1, -1, 0)
+    >>> event_direction("not (empty > 3) and occupied >= 2")
+    1
+    """
+    node = parse_event(event) if isinstance(event, str) else event
+
+    def walk(node) -> int:
+        if isinstance(node, Comparison):
+            base = _statistic_direction(node.term)
+            if node.op in (">=", ">"):
+                return base
+            if node.op in ("<=", "<"):
+                return -base
+            return 0
+        if isinstance(node, Not):
+            return -walk(node.operand)
+        if isinstance(node, (And, Or)):
+            signs = {walk(x) for x in node.operands}
+            return signs.pop() if len(signs) == 1 else 0
+        return 0  # pragma: no cover - the parser builds only these nodes
+
+    return walk(node)
+
+
+def _grows_a_ball_at_a_time(model: UrnModel) -> bool:
+    """True when the model at n + 1 balls is the model at n plus one ball (see the module docstring)."""
+    free = all(g.lower == 0 and g.upper is None for g in model.groups)
+    if model.rule.value == "MB":
+        return free
+    if model.rule.value == "BE":
+        return free and not model.weighted
+    return not model.weighted and all(g.lower == 0 for g in model.groups)
+
+
+def _no_collision(event: Event) -> int:
+    """+1 for ``max >= 2`` / ``max > 1`` (a collision), -1 for ``max <= 1`` / ``max < 2``, else 0."""
+    if isinstance(event, Not):
+        return -_no_collision(event.operand)
+    if isinstance(event, Comparison) and event.term.kind == "max":
+        if (event.op, event.value) in ((">=", 2), (">", 1)):
+            return 1
+        if (event.op, event.value) in (("<=", 1), ("<", 2)):
+            return -1
+    return 0
+
+
+# ---------------------------------------------------------------------------
+# the search
+# ---------------------------------------------------------------------------
+
+def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
+                   limit: Optional[int] = None,
+                   probability: Optional[Callable[[UrnModel, Event], Fraction]] = None) -> Threshold:
+    """Return the least value of the free parameter at which ``P(event) >= target``.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The fixed part of the problem: its rule, bounds and weights, and the
+        value of the parameter that is not varied.  With ``vary="balls"`` its
+        ball count is ignored; with ``vary="urns"`` it must be one group of
+        equal urns (whose count is ignored).
+    vary : {"balls", "urns"}
+        The free parameter.
+    event : str
+        An event of :mod:`enumerator.algorithms.event_language`.
+    target : str or Fraction
+        The probability to reach (:func:`parse_probability`).
+    limit : int, optional
+        Passed to the event planner (most configurations it may list).
+    probability : callable, optional
+        ``f(model, event) -> Fraction``; default
+        :func:`~enumerator.algorithms.events.event_probability`.
+
+    Returns
+    -------
+    Threshold
+
+    Raises
+    ------
+    InvalidParameters
+        For a malformed event, target or *vary*, or urns varied on a model
+        with several groups.
+    TooLarge
+        When the target is not reached within :data:`SCAN_STEPS` values (scan),
+        below :data:`SEARCH_CEILING` or the largest admissible ball count
+        (bisection), or an evaluation exceeds the limits.
+
+    Examples
+    --------
+    How many people until two share a birthday with probability 1/2
+    (the classical answer is 23; Feller, vol. 1, II.3):
+
+    >>> t = find_threshold(UrnModel(balls=0, urns=365), "balls", "max >= 2", "1/2")
+    >>> t.value, float(t.probability) > 0.5 > float(t.probability_before), t.method
+    (23, True, 'bisection')
+
+    Notes
+    -----
+    Cost: ``O(log v)`` exact evaluations by bisection, at most
+    :data:`SCAN_STEPS` by scan; each evaluation's cost is that of the event
+    planner at the size tried, checked against the limits before it runs.
+    """
+    if vary not in ("balls", "urns"):
+        raise InvalidParameters(f"vary must be 'balls' or 'urns' (got {vary!r})", parameters=["vary"])
+    goal = parse_probability(target)
+    node = parse_event(event) if isinstance(event, str) else event
+    evaluate = probability or (lambda m, e: event_probability(m, e) if limit is None
+                               else event_probability(m, e, limit=limit))
+    if vary == "balls":
+        start = 0
+        highest = _largest_balls(model)
+
+        def at(v: int) -> UrnModel:
+            return model.with_balls(v)
+
+        direction = event_direction(node) if _grows_a_ball_at_a_time(model) else 0
+    else:
+        if len(model.groups) != 1:
+            raise InvalidParameters(
+                "to vary the urns, describe them as one group of equal urns (a capacity, minimum or "
+                "weight shared by all)", parameters=["vary"],
+            )
+        group = model.groups[0]
+        start = 1
+        highest = SEARCH_CEILING
+
+        def at(v: int) -> UrnModel:
+            return model.with_groups([(v, group.lower, group.upper, group.weight)])
+
+        free_equal = group.lower == 0 and group.upper is None and model.rule.value in ("MB", "BE")
+        direction = -_no_collision(node) if free_equal else 0
+    evaluations = 0
+
+    def p(v: int) -> Fraction:
+        nonlocal evaluations
+        evaluations += 1
+        return evaluate(at(v), node)
+
+    if direction > 0:
+        return _bisect(vary, start, highest, goal, p, lambda: evaluations)
+    if direction < 0:
+        first = p(start)
+        if first >= goal:
+            return Threshold(vary, start, first, None, "bisection", evaluations)
+        raise TooLarge(
+            f"P({node}) never grows as the {vary} increase, and at {vary} = {start} it is "
+            f"{float(first):.6g}, below the target {float(goal):.6g}; no value reaches it",
+            parameters=["target"],
+        )
+    return _scan(vary, start, highest, goal, p, lambda: evaluations)
+
+
+def _largest_balls(model: UrnModel) -> int:
+    """The most balls the urns can hold (the search ceiling when every group has an upper bound)."""
+    if any(g.upper is None for g in model.groups):
+        return SEARCH_CEILING
+    return sum(g.count * g.upper for g in model.groups)
+
+
+def _bisect(vary, start, highest, goal, p, count) -> Threshold:
+    value = p(start)
+    if value >= goal:
+        return Threshold(vary, start, value, None, "bisection", count())
+    lo, lo_value = start, value  # P(lo) < goal
+    step = 1
+    while True:
+        hi = min(lo + step, highest)
+        hi_value = p(hi)
+        if hi_value >= goal:
+            break
+        if hi >= highest:
+            raise TooLarge(
+                f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,} "
+                f"(P = {float(hi_value):.6g} there); lower the target", parameters=["target"],
+            )
+        lo, lo_value = hi, hi_value
+        step *= 2
+    while hi - lo > 1:  # P(lo) < goal <= P(hi)
+        mid = (lo + hi) // 2
+        mid_value = p(mid)
+        if mid_value >= goal:
+            hi, hi_value = mid, mid_value
+        else:
+            lo, lo_value = mid, mid_value
+    return Threshold(vary, hi, hi_value, lo_value, "bisection", count())
+
+
+def _scan(vary, start, highest, goal, p, count) -> Threshold:
+    before = None
+    v = start
+    while v <= highest and v - start < SCAN_STEPS:
+        value = p(v)
+        if value >= goal:
+            return Threshold(vary, v, value, before, "scan", count())
+        before = value
+        v += 1
+    raise TooLarge(
+        f"the target {float(goal):.6g} is not reached for {vary} from {start} to {v - 1} "
+        f"(monotonicity is not proved for this event and model, so every value is tried, "
+        f"at most {SCAN_STEPS:,}); use an event built from max, min, occupied, kI, empty or "
+        "count(>= J) comparisons on a model without bounds, or lower the target",
+        parameters=["target"],
+    )
