@@ -169,7 +169,8 @@ def test_four_cli_builds_at_once_store_every_cell_once(where):
         stored = conn.execute("SELECT balls, urns, value FROM enumerator_results").fetchall()
     assert len({(b, r) for b, r, _ in stored}) == len(stored) == len(cells)
     rows = {}
-    for balls_text, r, value in stored:
+    for balls_text, urns_text, value in stored:
+        r = int(urns_text)  # r is decimal text (schema 2), like n and the values
         if r not in rows:
             rows[r] = tables.row_values("BE", "configurations", r, 0, 9, 120)[0]
         assert int(value) == rows[r][int(balls_text)]

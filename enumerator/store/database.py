@@ -67,7 +67,7 @@ from .engine import (
     writing,
 )
 from .entries import EXPORT_ENTRY_FORMATS, StoredEntry, check_entry, export_lines
-from .keys import ALGORITHM_VERSIONS, Key, key_digest, row_checksum, row_intact
+from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, row_checksum, row_intact
 from .schema import Base, LookupTable, Meta, Result
 
 __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
@@ -602,13 +602,20 @@ class Store:
         Returns
         -------
         dict
-            ``checked``, ``skipped`` (no recomputer, or a superseded
-            version), ``mismatches`` (one dict per wrong row: its key fields,
-            ``problem``, ``stored`` and ``expected`` texts) and ``fixed``.
+            ``checked``, ``skipped`` (no recomputer, a superseded version,
+            or a recomputation refused as too large), ``mismatches`` (one
+            dict per wrong row: its key fields, ``problem``, ``stored`` and
+            ``expected`` texts, ``expected`` empty when nothing could be
+            recomputed) and ``fixed``.
 
         Notes
         -----
-        Each row is checked by :func:`~enumerator.store.entries.check_entry`.
+        Each row is checked by :func:`~enumerator.store.entries.check_entry`,
+        on the model its key describes (groups and weights included).  A
+        fixed row is filed under the model's canonical key (a row left
+        under an older text by an upgrade moves to it); a row whose key
+        does not read cannot be recomputed and is deleted by *fix* (the
+        store only holds a cache).
         Cost: one fresh computation per checked row; the rows' texts are held
         in memory for the draw.
         """
@@ -632,7 +639,8 @@ class Store:
                 mismatches.append({
                     "quantity": entry.quantity, "rule": entry.rule, "balls": entry.balls,
                     "bounds": entry.bounds, "params": entry.params, "version": entry.version,
-                    "problem": check.problem, "stored": entry.text, "expected": encode_value(check.fresh)[1],
+                    "problem": check.problem, "stored": entry.text,
+                    "expected": "" if check.fresh is None else encode_value(check.fresh)[1],
                 })
                 replacements.append((entry, check.fresh, check.elapsed_ns))
         if progress is not None:
@@ -650,9 +658,22 @@ class Store:
         def attempt():
             with writing(self.engine) as conn:
                 for entry, fresh, spent in replacements:
-                    key = Key(entry.rule, entry.balls, entry.bounds, entry.urns)
+                    if fresh is None:  # nothing to put in its place: a cache row is dropped
+                        conn.execute(delete(Result).where(Result.key_digest == entry.digest))
+                        continue
+                    key = Key.of(model_from_key(entry.rule, entry.balls, entry.bounds))
                     row = self._row(entry.quantity, key, entry.version, fresh, entry.params,
                                     "verify:" + entry.quantity, spent)
+                    if row["key_digest"] != entry.digest:
+                        # filed under a text that is not canonical (an older schema's):
+                        # move the answer to the key that finds it
+                        conn.execute(delete(Result).where(Result.key_digest == entry.digest))
+                        present = conn.execute(
+                            select(Result.id).where(Result.key_digest == row["key_digest"])
+                        ).first()
+                        if present is None:
+                            conn.execute(insert(Result), [row])
+                            continue
                     conn.execute(
                         update(Result).where(Result.key_digest == row["key_digest"]).values(
                             kind=row["kind"], value=row["value"], digits=row["digits"],

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from typing import Any, Iterable, Iterator, Optional
 
+from ..core.errors import EnumeratorError
 from ..core.exact import int_text
 from .codec import decode_value, round_trip
 from .keys import ALGORITHM_VERSIONS, model_from_key, recomputer, row_intact
@@ -50,6 +51,8 @@ class StoredEntry:
     elapsed_ns: int
     created_at: datetime
     intact: bool
+    #: The SHA-256 key digest the row is filed under (as stored).
+    digest: str = ""
 
     @classmethod
     def from_row(cls, row: Result) -> "StoredEntry":
@@ -64,6 +67,7 @@ class StoredEntry:
             params=row.params, version=row.version, kind=row.kind, text=row.value, digits=row.digits,
             method=row.method, elapsed_ns=row.elapsed_ns, created_at=row.created_at,
             intact=row_intact(row.key_digest, row.kind, row.value, row.digits, row.checksum),
+            digest=row.key_digest,
         )
 
     @property
@@ -85,7 +89,11 @@ class StoredEntry:
 
 @dataclass(frozen=True)
 class Check:
-    """What recomputing one entry found: a *problem* (None when the stored value is right)."""
+    """What recomputing one entry found: a *problem* (None when the stored value is right).
+
+    *fresh* is the recomputed value, or None when there is none (the key
+    does not read, or a damaged row's recomputation was refused).
+    """
 
     problem: Optional[str]
     fresh: Any
@@ -104,34 +112,51 @@ def check_entry(entry: StoredEntry) -> Optional[Check]:
     -------
     Check or None
         None when the entry cannot be checked (its quantity has no
-        recomputer, or its version is superseded); else the fresh value,
-        the time it took, and the problem found: ``"damaged (checksum or
-        digit count disagrees)"``, ``"unreadable value"``, ``"value differs
-        from a fresh computation"`` (also when only the type differs, e.g. a
-        whole ``Fraction`` against an ``int``), or None.
+        recomputer, its version is superseded, or the recomputation is
+        refused as too large while the row itself is sound); else the fresh
+        value (``None`` when there is none), the time it took, and the
+        problem found: ``"unreadable key ..."`` (the rule, ``n`` or bounds
+        text do not describe a model: nothing can be recomputed),
+        ``"damaged (checksum or digit count disagrees)"``, ``"unreadable
+        value"``, ``"value differs from a fresh computation"`` (also when
+        only the type differs, e.g. a whole ``Fraction`` against an
+        ``int``), or None.
 
     Notes
     -----
-    Cost: one fresh computation of the quantity.
+    The model is rebuilt from the key's canonical text, groups and weights
+    included (:func:`~enumerator.store.keys.model_from_key`), so grouped
+    and weighted entries are recomputed for the model they were stored
+    for.  Cost: one fresh computation of the quantity.
     """
     recompute = recomputer(entry.quantity)
     if recompute is None or entry.stale:
         return None
-    model = model_from_key(entry.rule, entry.balls, entry.bounds)
+    try:
+        model = model_from_key(entry.rule, entry.balls, entry.bounds)
+    except EnumeratorError as error:
+        return Check(f"unreadable key ({error})", None, 0)
+    sound = entry.intact
+    if sound:
+        try:
+            stored = entry.value
+        except (ValueError, TypeError):
+            sound = False
     t0 = time.perf_counter_ns()
-    fresh = recompute(model, entry.params)
+    try:
+        fresh = recompute(model, entry.params)
+    except EnumeratorError:
+        if sound:
+            return None  # refused (too large, unsupported): the row cannot be checked
+        fresh = None
     spent = time.perf_counter_ns() - t0
     problem = None
     if not entry.intact:
         problem = "damaged (checksum or digit count disagrees)"
-    else:
-        try:
-            stored = entry.value
-        except (ValueError, TypeError):
-            problem = "unreadable value"
-        else:
-            if stored != fresh or type(stored) is not type(round_trip(fresh)):
-                problem = "value differs from a fresh computation"
+    elif not sound:
+        problem = "unreadable value"
+    elif stored != fresh or type(stored) is not type(round_trip(fresh)):
+        problem = "value differs from a fresh computation"
     return Check(problem, fresh, spent)
 
 
@@ -140,7 +165,7 @@ def _export_fields(entry: StoredEntry) -> list:
     if created is not None and created.tzinfo is None:
         created = created.replace(tzinfo=timezone.utc)  # stored in UTC; SQLite drops the zone
     created = created.isoformat() if created is not None else ""
-    return [entry.quantity, entry.rule, int_text(entry.balls), str(entry.urns), entry.bounds,
+    return [entry.quantity, entry.rule, int_text(entry.balls), int_text(entry.urns), entry.bounds,
             entry.params, str(entry.version), entry.kind, entry.text, str(entry.digits),
             entry.method, f"{entry.seconds_approx:.6g}", created]
 

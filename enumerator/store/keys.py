@@ -4,15 +4,22 @@ A result is keyed by
 
 * the *quantity* (``"configurations"``, ``"microstates"``, ``"profiles"``,
   or any name another module registers with :func:`register_quantity`);
-* the problem (:class:`Key`): the rule, ``n``, the bounds in the model's
-  canonical text (:meth:`~enumerator.core.model.UrnModel.canonical_bounds`)
-  and ``r``;
+* the problem (:class:`Key`): the rule, ``n``, the urns in the model's
+  canonical text (:meth:`~enumerator.core.model.UrnModel.canonical_bounds`:
+  ``"r*a:b"`` for one group, ``"cxa:b,..."`` for several, ``@w`` after every
+  group of a weighted model; it grows with the number of groups, never with
+  ``r``) and ``r`` (any size: ``2**64`` urns is one short text);
 * an optional parameter text (canonical, chosen by the quantity);
 * the quantity's algorithm *version* (:data:`ALGORITHM_VERSIONS`).
 
 The row is found by the SHA-256 digest of those fields (:func:`key_digest`),
 and guarded by a CRC-32 of digest, kind and value text (:func:`row_checksum`)
 so a damaged row is refused instead of served (:func:`row_intact`).
+
+Schema 1 wrote the bounds of a non-uniform model per urn (``"0:2,0:2,1:"``);
+the upgrade to schema 2 refiles those rows under the group text
+(:mod:`enumerator.store.migrations`).  Uniform texts, and so their digests,
+are the same in both.
 """
 
 from __future__ import annotations
@@ -118,7 +125,7 @@ for _name in ("configurations", "microstates", "profiles"):
 
 @dataclass(frozen=True)
 class Key:
-    """The problem part of a canonical key: rule, ``n``, canonical bounds, ``r``."""
+    """The problem part of a canonical key: rule, ``n``, canonical bounds text, ``r`` (any size)."""
 
     rule: str
     balls: int
@@ -134,6 +141,8 @@ class Key:
         >>> from enumerator.core.model import UrnModel
         >>> Key.of(UrnModel(balls=5, urns=3, rule="BE", capacity=2))
         Key(rule='BE', balls=5, bounds='3*0:2', urns=3)
+        >>> Key.of(UrnModel(balls=2, weights="2x1,3", rule="MB"))
+        Key(rule='MB', balls=2, bounds='2x0:@1,1x0:@3', urns=3)
         """
         return cls(model.rule.value, model.balls, model.canonical_bounds(), model.urns)
 
@@ -200,26 +209,33 @@ def model_from_key(rule: str, balls: int, bounds: str):
     balls : int
         The key's ``n``.
     bounds : str
-        The key's canonical bounds text, read by the model's own parser
-        (:func:`enumerator.core.model.parse_canonical_bounds`).
+        The key's canonical bounds text, groups and weights included, read
+        by the model's own parser (:meth:`UrnModel.from_canonical
+        <enumerator.core.model.UrnModel.from_canonical>`, which also reads
+        schema 1's per-urn texts).
 
     Returns
     -------
     UrnModel
+        Built from its groups: nothing is expanded per urn.
 
     Raises
     ------
     InvalidParameters
-        For a malformed bounds text.
+        For a malformed bounds text or rule.
 
     Notes
     -----
-    Cost: that of building the model.
+    Cost: that of building the model, linear in the length of the text.
 
     Examples
     --------
     >>> model = model_from_key("BE", 5, "3*0:2")
     >>> model.balls, model.urns, model.canonical_bounds()
     (5, 3, '3*0:2')
+    >>> model_from_key("MB", 2, "2x0:@1,1x0:@3").weighted
+    True
+    >>> model_from_key("BE", 1, "18446744073709551616*0:").urns == 2**64
+    True
     """
     return UrnModel.from_canonical(rule, balls, bounds)

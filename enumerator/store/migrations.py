@@ -43,24 +43,47 @@ Adding a step
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass
-from typing import Callable, Optional, Sequence, Tuple
+from typing import Callable, Dict, Optional, Sequence, Tuple
 
-from sqlalchemy import select, update
+from sqlalchemy import (
+    BigInteger,
+    Column,
+    DateTime,
+    Index,
+    Integer,
+    MetaData,
+    String,
+    Table,
+    Text,
+    inspect,
+    select,
+    text,
+    update,
+)
 from sqlalchemy.engine import Connection
 
+from ..core.errors import EnumeratorError
+from ..core.exact import int_text, text_int
+from ..core.model import UrnModel
 from . import schema
-from .schema import META_SCHEMA_VERSION, Meta
+from .keys import Key, key_digest, row_checksum, row_intact
+from .schema import META_SCHEMA_VERSION, DecimalInt, Meta
 
 __all__ = [
     "MIGRATIONS",
+    "REWRITE_BATCH",
     "Migration",
     "MigrationFailed",
     "plan",
     "read_version",
+    "to_schema_2",
     "upgrade",
     "write_version",
 ]
+
+log = logging.getLogger("enumerator.store")
 
 
 @dataclass(frozen=True)
@@ -89,10 +112,213 @@ class Migration:
         return self.source + 1
 
 
+# ---------------------------------------------------------------------------
+# 1 -> 2: numbers of any size, bounds texts by groups
+# ---------------------------------------------------------------------------
+
+#: The layout of schema 2, frozen here (the models in
+#: :mod:`enumerator.store.schema` follow the newest layout; this step must
+#: keep building schema 2 when they move on).
+_V2 = MetaData()
+_RESULTS_V2 = Table(
+    "enumerator_results", _V2,
+    Column("id", Integer, primary_key=True),
+    Column("key_digest", String(64), nullable=False, unique=True),
+    Column("quantity", String(64), nullable=False),
+    Column("rule", String(8), nullable=False),
+    Column("balls", DecimalInt, nullable=False),
+    Column("urns", DecimalInt, nullable=False),
+    Column("bounds", Text, nullable=False),
+    Column("params", Text, nullable=False),
+    Column("version", Integer, nullable=False),
+    Column("kind", String(16), nullable=False),
+    Column("value", Text, nullable=False),
+    Column("digits", BigInteger, nullable=False),
+    Column("checksum", BigInteger, nullable=False),
+    Column("method", String(200), nullable=False),
+    Column("elapsed_ns", BigInteger, nullable=False),
+    Column("created_at", DateTime(timezone=True), nullable=False),
+    Index("ix_enumerator_results_row", "quantity", "rule", "urns", "version"),
+)
+_TABLES_V2 = Table(
+    "enumerator_tables", _V2,
+    Column("id", Integer, primary_key=True),
+    Column("name", String(200), nullable=False, unique=True),
+    Column("quantity", String(64), nullable=False),
+    Column("rule", String(8), nullable=False),
+    Column("minimum", DecimalInt, nullable=False),
+    Column("capacity", DecimalInt, nullable=True),
+    Column("balls_first", DecimalInt, nullable=False),
+    Column("balls_last", DecimalInt, nullable=False),
+    Column("urns_first", DecimalInt, nullable=False),
+    Column("urns_last", DecimalInt, nullable=False),
+    Column("created_at", DateTime(timezone=True), nullable=False),
+)
+#: table -> the columns that schema 1 kept as BIGINT and schema 2 keeps as decimal text.
+_RETYPED_V2: Dict[Table, Tuple[str, ...]] = {
+    _RESULTS_V2: ("urns",),
+    _TABLES_V2: ("minimum", "capacity", "balls_first", "balls_last", "urns_first", "urns_last"),
+}
+#: Rows read per round trip while rewriting bounds texts (per-urn texts of
+#: schema 1 grow with the urns, so a batch bounds the memory, not the work).
+REWRITE_BATCH = 200
+
+
+def _as_text_columns(connection: Connection, table: Table, columns: Sequence[str]) -> None:
+    """Turn the integer *columns* of *table* into decimal text, keeping every row and its id.
+
+    SQLite cannot change a column's type: the table is renamed aside, made
+    anew in the frozen layout (with its indexes), filled with one ``INSERT
+    ... SELECT`` that casts the columns to text, and the old one dropped —
+    the procedure of the SQLite documentation ("ALTER TABLE", making other
+    kinds of table schema changes).  PostgreSQL and MySQL change the type in
+    place.  Cost: one copy of the table inside the upgrade transaction.
+    """
+    dialect = connection.dialect.name
+    quote = connection.dialect.identifier_preparer.quote
+    name = table.name
+    if dialect == "sqlite":
+        aside = f"{name}_schema1"
+        connection.exec_driver_sql(f"ALTER TABLE {quote(name)} RENAME TO {quote(aside)}")
+        for index in inspect(connection).get_indexes(aside):
+            connection.exec_driver_sql(f"DROP INDEX {quote(index['name'])}")
+        present = {column["name"] for column in inspect(connection).get_columns(aside)}
+        table.create(connection)
+        names = [column.name for column in table.columns if column.name in present]
+        chosen = [f"CAST({quote(n)} AS TEXT)" if n in columns else quote(n) for n in names]
+        connection.exec_driver_sql(
+            f"INSERT INTO {quote(name)} ({', '.join(map(quote, names))}) "
+            f"SELECT {', '.join(chosen)} FROM {quote(aside)}"
+        )
+        connection.exec_driver_sql(f"DROP TABLE {quote(aside)}")
+    elif dialect == "postgresql":
+        for column in columns:
+            connection.exec_driver_sql(
+                f"ALTER TABLE {quote(name)} ALTER COLUMN {quote(column)} TYPE TEXT USING {quote(column)}::text"
+            )
+    elif dialect in ("mysql", "mariadb"):
+        for column in columns:
+            null = "NULL" if table.c[column].nullable else "NOT NULL"
+            connection.exec_driver_sql(f"ALTER TABLE {quote(name)} MODIFY {quote(column)} TEXT {null}")
+    else:
+        raise NotImplementedError(f"changing a column's type on {dialect} (upgrade the store on SQLite or PostgreSQL)")
+
+
+def _per_urn_batches(connection: Connection, batch: int):
+    """Yield lists of the result rows whose bounds text is in schema 1's per-urn form (no ``*``, no ``x``).
+
+    Keyset pagination on ``id`` (rows left unchanged are not read twice);
+    the columns come back as stored text, unconverted, so a damaged row
+    cannot stop the upgrade.
+    """
+    query = text(
+        "SELECT id, key_digest, quantity, rule, balls, bounds, params, version, kind, value, digits, checksum "
+        "FROM enumerator_results WHERE id > :last AND bounds NOT LIKE '%*%' AND bounds NOT LIKE '%x%' "
+        "ORDER BY id LIMIT :batch"
+    )
+    last = -1
+    while True:
+        rows = connection.execute(query, {"last": last, "batch": batch}).all()
+        if not rows:
+            return
+        yield rows
+        last = rows[-1][0]
+
+
+def _regrouped(row) -> Optional[Tuple[Key, str, int]]:
+    """The schema-2 ``(key, digest, checksum)`` of one per-urn row, or None to leave it as it is.
+
+    None when the row cannot be carried over faithfully: its fields do not
+    read (rule, ``n``, bounds), its digest is not the one its fields give,
+    or its checksum or digit count disagrees with its value.  Such a row is
+    never served (no schema-2 key finds it) and ``cache verify`` reports it.
+    """
+    _, digest, quantity, rule, balls, bounds, params, version, kind, value, digits, checksum = row
+    try:
+        n = text_int(str(balls))
+        old = Key(str(rule), n, str(bounds), 0)
+        if key_digest(quantity, old, params, int(version)) != digest:
+            return None
+        if not row_intact(digest, kind, value, int(digits), int(checksum)):
+            return None
+        model = UrnModel.from_canonical(rule, n, bounds)
+    except (EnumeratorError, ValueError, TypeError):
+        return None
+    key = Key.of(model)
+    new_digest = key_digest(quantity, key, params, int(version))
+    return key, new_digest, row_checksum(new_digest, kind, value)
+
+
+def _rewrite_per_urn_keys(connection: Connection, batch: Optional[int] = None) -> Dict[str, int]:
+    """File every schema-1 per-urn result under its schema-2 group text; return what happened.
+
+    A row whose new key is already stored (the same question answered
+    twice) is dropped: the store keeps one row per key.  Returns the counts
+    ``rewritten``, ``merged`` (dropped as duplicates) and ``left`` (rows
+    that cannot be read; see :func:`_regrouped`).
+    """
+    found = text("SELECT id FROM enumerator_results WHERE key_digest = :digest")
+    move = text(
+        "UPDATE enumerator_results SET key_digest = :digest, bounds = :bounds, urns = :urns, "
+        "checksum = :checksum WHERE id = :id"
+    )
+    drop = text("DELETE FROM enumerator_results WHERE id = :id")
+    counts = {"rewritten": 0, "merged": 0, "left": 0}
+    for rows in _per_urn_batches(connection, batch or REWRITE_BATCH):
+        for row in rows:
+            carried = _regrouped(row)
+            if carried is None:
+                counts["left"] += 1
+                continue
+            key, digest, checksum = carried
+            other = connection.execute(found, {"digest": digest}).first()
+            if other is not None and other[0] != row[0]:
+                connection.execute(drop, {"id": row[0]})
+                counts["merged"] += 1
+                continue
+            connection.execute(move, {"digest": digest, "bounds": key.bounds, "urns": int_text(key.urns),
+                                      "checksum": checksum, "id": row[0]})
+            counts["rewritten"] += 1
+    return counts
+
+
+def to_schema_2(connection: Connection) -> None:
+    """Schema 1 -> 2: numbers that describe a problem become decimal text; per-urn keys become group keys.
+
+    * ``enumerator_results.urns`` and the numbers of ``enumerator_tables``
+      (bounds and ranges) change from ``BIGINT`` to decimal text, so a model
+      with ``2**64`` urns or more can be stored (:func:`_as_text_columns`);
+    * every result whose bounds text is schema 1's per-urn form
+      (``"0:2,0:2,1:"``: no ``*``, no ``x``) is filed under the model's
+      canonical group text (``"2x0:2,1x1:"``,
+      :meth:`~enumerator.core.model.UrnModel.canonical_bounds`) with its
+      key digest and checksum recomputed, in batches
+      (:func:`_rewrite_per_urn_keys`).  Rows that do not read, or whose
+      checksum already disagrees, are left as they are (never served,
+      reported by ``cache verify``); a checksum is never recomputed over a
+      damaged value.
+
+    Uniform texts (``"r*a:b"``) are the same in both schemas, so those rows
+    and their digests stay untouched; lookup-table definitions hold no
+    bounds text or digest (their cells are results with uniform texts).
+    Cost: one copy of each table (SQLite) plus one pass over the per-urn rows.
+    """
+    for table, columns in _RETYPED_V2.items():
+        _as_text_columns(connection, table, columns)
+    counts = _rewrite_per_urn_keys(connection)
+    log.info("enumerator: schema 2 files per-urn results by groups: %(rewritten)d rewritten, "
+             "%(merged)d merged into an equal key, %(left)d unreadable left for 'cache verify'", counts)
+
+
 #: The upgrade steps, oldest first: ``MIGRATIONS[i]`` upgrades schema
-#: ``FIRST_SCHEMA_VERSION + i`` to the next one.  Empty while schema 1 is the
-#: only layout there has been.
-MIGRATIONS: Tuple[Migration, ...] = ()
+#: ``FIRST_SCHEMA_VERSION + i`` to the next one.
+MIGRATIONS: Tuple[Migration, ...] = (
+    Migration(
+        1,
+        "numbers of any size as decimal text; per-urn bounds texts filed under group texts",
+        to_schema_2,
+    ),
+)
 
 
 class MigrationFailed(Exception):

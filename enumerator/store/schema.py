@@ -20,7 +20,18 @@ a store of the previous version to :mod:`enumerator.store.migrations`.
 
 Exact numbers never go in an SQLite ``INTEGER`` (a signed 64-bit number;
 Python's ``sqlite3`` raises ``OverflowError`` at ``2**63``): values are text,
-and so is ``n`` (:class:`DecimalInt`).
+and so is every number that describes a problem — ``n``, ``r`` (a model may
+have ``2**64`` urns or more) and a lookup table's bounds and ranges
+(:class:`DecimalInt`).  Only bookkeeping numbers (digit counts, checksums,
+nanoseconds, versions) are SQL integers.
+
+Layouts
+    1. the first layout: ``urns`` and the lookup tables' ranges and bounds
+       were ``BIGINT``; a key's bounds text was per urn (``"0:2,0:2,1:"``)
+       unless all urns were equal (``"3*0:2"``).
+    2. ``urns`` and the lookup tables' numbers are decimal text; bounds texts
+       are written by groups (``"2x0:2,1x1:"``, weights as ``@w``), so they
+       grow with the number of groups, never with the number of urns.
 """
 
 from __future__ import annotations
@@ -47,9 +58,9 @@ __all__ = [
 
 #: The layout the models below describe; a store written by a newer layout is
 #: refused, an older one is upgraded (:mod:`enumerator.store.migrations`).
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 #: The first layout ever written; every store is at this version or later.
-FIRST_SCHEMA_VERSION = 1
+FIRST_SCHEMA_VERSION = 2
 #: The ``enumerator_meta`` key under which a store records its layout.
 META_SCHEMA_VERSION = "schema_version"
 
@@ -102,7 +113,8 @@ class Result(Base):
     quantity: Mapped[str] = mapped_column(String(64))
     rule: Mapped[str] = mapped_column(String(8))
     balls: Mapped[int] = mapped_column(DecimalInt)
-    urns: Mapped[int] = mapped_column(BigInteger)
+    #: ``r``, any size (a model may have ``2**64`` urns), as decimal text.
+    urns: Mapped[int] = mapped_column(DecimalInt)
     bounds: Mapped[str] = mapped_column(Text)
     params: Mapped[str] = mapped_column(Text, default="")
     version: Mapped[int] = mapped_column(Integer)
@@ -134,12 +146,12 @@ class LookupTable(Base):
     name: Mapped[str] = mapped_column(String(200), unique=True)
     quantity: Mapped[str] = mapped_column(String(64))
     rule: Mapped[str] = mapped_column(String(8))
-    minimum: Mapped[int] = mapped_column(BigInteger)
-    capacity: Mapped[Optional[int]] = mapped_column(BigInteger, nullable=True)
-    balls_first: Mapped[int] = mapped_column(BigInteger)
-    balls_last: Mapped[int] = mapped_column(BigInteger)
-    urns_first: Mapped[int] = mapped_column(BigInteger)
-    urns_last: Mapped[int] = mapped_column(BigInteger)
+    minimum: Mapped[int] = mapped_column(DecimalInt)
+    capacity: Mapped[Optional[int]] = mapped_column(DecimalInt, nullable=True)
+    balls_first: Mapped[int] = mapped_column(DecimalInt)
+    balls_last: Mapped[int] = mapped_column(DecimalInt)
+    urns_first: Mapped[int] = mapped_column(DecimalInt)
+    urns_last: Mapped[int] = mapped_column(DecimalInt)
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
 
     def __repr__(self) -> str:

@@ -132,7 +132,8 @@ class TableSpec:
         # the model validates the bounds (and normalises FD's capacity to 1)
         probe = UrnModel(balls=0, urns=urns.start, rule=rule_, capacity=capacity,
                           minimum=0 if minimum is None else minimum)
-        a, b = probe.bounds[0]
+        (group,) = probe.groups  # uniform: one group, whatever the number of urns
+        a, b = group.lower, group.upper
         return cls(rule_.value, quantity, a, b, range(balls.start, balls.stop), range(urns.start, urns.stop))
 
     @property
@@ -227,6 +228,8 @@ def row_values(rule: str, quantity: str, urns: int, minimum: int, capacity: Opti
         if top_urn == a:
             out[low] = int(gmpy2.divexact(gmpy2.fac(low), gmpy2.fac(a) ** r))
             return out, "table row: n!/(a!)^r"
+        if a == 0 and r > 2 * (top + 1):
+            return _occupied_urns_row(r, top_urn, top), "table row: sum over occupied urns C(r,j) n! [x^n] (e_c(x)-1)^j"
         poly = series.power(series.falling_window(a, top_urn), r, span_top)
         coeffs = series.coefficients(poly, span_top)
         scale = gmpy2.fac(top_urn) ** r
@@ -257,6 +260,41 @@ def row_values(rule: str, quantity: str, urns: int, minimum: int, capacity: Opti
             out[low + m] = int(row[m])
         return out, "table row: Gaussian binomial product"
     raise InvalidParameters(f"quantity must be one of {', '.join(QUANTITIES)} (got {quantity!r})")
+
+
+def _occupied_urns_row(r: int, top_urn: int, top: int) -> List[int]:
+    """MB microstates ``n! [x^n] (1 + q)^r`` for ``n <= top``, by the number ``j`` of occupied urns.
+
+    ``q = sum_{k=1}^{top_urn} x^k / k!`` (an occupied urn with at most
+    ``top_urn`` balls), so ``(1 + q)^r = sum_j C(r, j) q^j`` and only
+    ``j <= top`` reach degree ``top``: the row never raises anything to the
+    power ``r`` (any size, ``2**64`` urns included).  ``q^j`` is kept in
+    integers scaled by ``top_urn!^j``; ``C(r, j)`` is updated from
+    ``C(r, j - 1)`` by one multiplication and one exact division.
+    Flajolet & Sedgewick, *Analytic Combinatorics*, 2009, §II.3 (EGFs of
+    allocations with bounded urns).  Cost: ``top`` truncated products of
+    length ``top + 1``.
+    """
+    length = top + 1
+    scaled = fmpz_poly([0] + [int(c) for c in series.coefficients(series.falling_window(1, top_urn), top_urn - 1)])
+    scale = gmpy2.fac(top_urn)
+    out = [mpz(0)] * length
+    out[0] = mpz(1)  # j = 0: the empty allocation
+    power = fmpz_poly([1])
+    choose = mpz(1)
+    fac = [mpz(1)] * length
+    for n in range(1, length):
+        fac[n] = fac[n - 1] * n
+    for j in range(1, length):
+        power = power.mul_low(scaled, length)
+        choose = gmpy2.divexact(choose * (r - j + 1), j)
+        divisor = scale ** j
+        coeffs = series.coefficients(power, top)
+        for n in range(j, length):
+            c = coeffs[n]
+            if c:
+                out[n] += choose * gmpy2.divexact(mpz(c) * fac[n], divisor)
+    return [int(v) for v in out]
 
 
 # ---------------------------------------------------------------------------
