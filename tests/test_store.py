@@ -24,6 +24,7 @@ from hypothesis import strategies as st
 from enumerator import Occupancy, StoreError
 from enumerator import store as results
 from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
+from enumerator.core.errors import InvalidParameters, TooLarge
 from enumerator.store import context as store_context
 from enumerator.store import keys as store_keys
 
@@ -561,3 +562,143 @@ def test_a_stored_number_is_the_text_of_the_one_exact_codec(value):
     kind, text, _ = results.encode_value(value)
     assert text == exact_text(value) == str(value)  # reference: str(int) / str(Fraction) (Python docs)
     assert kind == ("int" if isinstance(value, int) else "fraction")
+
+
+# -- groups, weights and urns of any size (schema 2) ---------------------------------------
+
+def test_a_result_for_2_to_the_64_urns_round_trips(store, tmp_path):
+    model = Occupancy(balls=3, urns=2**64, rule="BE")
+    # BE closed form C(n + r - 1, n) (Feller, vol. 1, II.5), computed here by the standard library
+    expected = math.comb(3 + 2**64 - 1, 3)
+    calls = []
+
+    def compute():
+        calls.append(1)
+        return expected
+
+    assert results.remember("configurations", model, compute, store=store) == expected
+    results.close_all()
+    again = results.Store(str(tmp_path / "s.sqlite"))
+    try:
+        assert results.remember("configurations", Occupancy(balls=3, urns=2**64, rule="BE"), compute,
+                                store=again) == expected
+        assert calls == [1]
+        (entry,) = list(again.entries())
+        assert entry.urns == 2**64 and entry.bounds == "18446744073709551616*0:" and entry.intact
+        line = next(iter(again.export_lines("jsonl")))
+        assert '"urns": "18446744073709551616"' in line
+        version = results.ALGORITHM_VERSIONS["configurations"]
+        assert set(again.stored_balls("configurations", "BE", entry.bounds, 2**64, version)) == {3}
+    finally:
+        again.close()
+    with sqlite3.connect(tmp_path / "s.sqlite") as conn:
+        assert conn.execute("SELECT urns, typeof(urns) FROM enumerator_results").fetchone() == (
+            "18446744073709551616", "text")
+
+
+def test_groups_of_huge_counts_are_one_short_key(store):
+    model = Occupancy(balls=2, groups=[(2**64, 0, 1), (2**70, 0, None)], rule="BE")
+    key = results.Key.of(model)
+    assert key.bounds == f"{2**64}x0:1,{2**70}x0:" and key.urns == 2**64 + 2**70
+    # BE: two balls in r urns, C(r + 1, 2), less the r_1 vectors that put both in one capped urn
+    r, capped = 2**64 + 2**70, 2**64
+    expected = math.comb(r + 1, 2) - capped
+    assert results.remember("configurations", model, lambda: expected, store=store) == expected
+    assert store.get("configurations", key, results.ALGORITHM_VERSIONS["configurations"]) == expected
+    assert results.model_from_key("BE", 2, key.bounds) == model
+
+
+def test_a_weighted_result_round_trips_under_its_own_key(store):
+    weighted = Occupancy(balls=2, weights="2x1,3", rule="MB")
+    plain = Occupancy(balls=2, urns=3, rule="MB")
+    assert results.Key.of(weighted).bounds == "2x0:@1,1x0:@3"
+    # total weight of MB with weights 1, 1, 3: (1 + 1 + 3)^2 = 25 (multinomial theorem, from memory)
+    total = Fraction(25)
+    results.register_quantity("test_total_weight", 1)
+    try:
+        assert results.remember("test_total_weight", weighted, lambda: total, store=store) == total
+        # the unweighted model is another key: its answer is never the weighted one
+        assert results.remember("test_total_weight", plain, lambda: 9, store=store) == 9  # 3^2
+        assert results.remember("test_total_weight", weighted, lambda: 0, store=store) == total
+        entries = {entry.bounds: entry for entry in store.entries()}
+        assert set(entries) == {"2x0:@1,1x0:@3", "3*0:"} and entries["2x0:@1,1x0:@3"].urns == 3
+        assert results.model_from_key("MB", 2, "2x0:@1,1x0:@3") == weighted
+        # a fractional weight keeps its exact text: 3 urns of weight 1/2
+        half = Occupancy(balls=2, urns=3, weights="3x1/2", rule="MB")
+        assert results.Key.of(half).bounds == "3*0:@1/2"
+        assert results.model_from_key("MB", 2, "3*0:@1/2") == half
+    finally:
+        results.ALGORITHM_VERSIONS.pop("test_total_weight")
+
+
+def _brute_total_weight(n, bounds, weights):
+    """MB total weight: sum over admissible k of n!/(k_1!...k_r!) prod w_i^k_i (brute force)."""
+    ranges = [range(a, (n if b is None else min(b, n)) + 1) for a, b in bounds]
+    total = Fraction(0)
+    for k in itertools.product(*ranges):
+        if sum(k) == n:
+            term = Fraction(math.factorial(n), math.prod(map(math.factorial, k)))
+            total += term * math.prod(Fraction(w) ** j for w, j in zip(weights, k))
+    return total
+
+
+def test_verify_fix_recomputes_grouped_and_weighted_entries(store, monkeypatch):
+    def total_weight(model, params):
+        # a recomputer that reads the model rebuilt from the key: its groups and weights
+        bounds, weights = [], []
+        for g in model.groups:
+            bounds += [(g.lower, g.upper)] * g.count
+            weights += [g.weight] * g.count
+        return _brute_total_weight(model.balls, bounds, weights)
+
+    monkeypatch.setitem(results.ALGORITHM_VERSIONS, "test_total_weight", 1)
+    monkeypatch.setitem(store_keys._RECOMPUTE, "test_total_weight", total_weight)
+    grouped = Occupancy(balls=3, bounds=[(0, 2), (0, 2), (1, None)], rule="MB")
+    weighted = Occupancy(balls=2, weights="2x1,3", bounds="2x0:2,1x1:", rule="MB")
+    version = results.ALGORITHM_VERSIONS
+    store.put("microstates", results.Key.of(grouped), version["microstates"], 1)  # wrong on purpose
+    store.put("configurations", results.Key.of(grouped), version["configurations"], 1)
+    store.put("configurations", results.Key.of(weighted), version["configurations"], 1)
+    store.put("test_total_weight", results.Key.of(weighted), 1, Fraction(1))
+    report = store.verify(fix=True)
+    assert report["checked"] == 4 and len(report["mismatches"]) == 4 and report["fixed"] == 4
+    assert store.verify()["mismatches"] == []
+    bounds = [(0, 2), (0, 2), (1, None)]
+    assert store.get("microstates", results.Key.of(grouped), version["microstates"]) == _brute_microstates(3, bounds)
+    assert store.get("configurations", results.Key.of(grouped), version["configurations"]) == (
+        _brute_configurations(3, bounds))
+    # the weights do not change which vectors are admissible
+    assert store.get("configurations", results.Key.of(weighted), version["configurations"]) == (
+        _brute_configurations(2, bounds))
+    # weights 1, 1, 3 with urn 3 holding at least one ball: 25 - (1 + 1)^2 = 21 (multinomial
+    # theorem less the assignments that leave urn 3 empty); brute force agrees
+    assert store.get("test_total_weight", results.Key.of(weighted), 1) == 21 == (
+        _brute_total_weight(2, bounds, [1, 1, 3]))
+
+
+def test_verify_reports_an_unreadable_key_and_fix_drops_it(store):
+    store.put("configurations", results.Key("BE", 2, "2x0:zz", 2), results.ALGORITHM_VERSIONS["configurations"], 3)
+    report = store.verify()
+    (mismatch,) = report["mismatches"]
+    assert mismatch["problem"].startswith("unreadable key") and mismatch["expected"] == ""
+    assert store.verify(fix=True)["fixed"] == 1
+    assert store.stats()["entries"] == 0
+
+
+def test_verify_skips_a_sound_entry_whose_recomputation_is_refused(store, monkeypatch):
+    def refuse(model, params):
+        raise TooLarge("too large to recompute here")
+
+    monkeypatch.setitem(results.ALGORITHM_VERSIONS, "test_refused", 1)
+    monkeypatch.setitem(store_keys._RECOMPUTE, "test_refused", refuse)
+    store.put("test_refused", results.Key("BE", 3, f"{2**64}*0:", 2**64), 1, 7)
+    assert store.verify() == {"checked": 0, "skipped": 1, "mismatches": [], "fixed": 0}
+
+
+def test_model_from_key_reads_groups_weights_and_schema_1_texts():
+    assert results.model_from_key("BE", 1, "0:2,0:2,1:") == Occupancy(balls=1, bounds="2x0:2,1x1:", rule="BE")
+    assert results.model_from_key("BE", 1, "0:2,0:2,1:").canonical_bounds() == "2x0:2,1x1:"
+    model = results.model_from_key("MB", 4, f"{2**64}x0:3@2,1x1:@1/3")
+    assert model.urns == 2**64 + 1 and model.canonical_bounds() == f"{2**64}x0:3@2,1x1:@1/3"
+    with pytest.raises(InvalidParameters):
+        results.model_from_key("BE", 1, "0:2,zz")
