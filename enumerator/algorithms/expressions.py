@@ -23,9 +23,58 @@ from flint import fmpq, fmpq_poly, fmpz_poly
 
 from ..core import series
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.groups import MAX_DIGITS
+from ..core.limits import STEPS_PER_SECOND, Cost, check
 from ..core.model import as_count
 
-__all__ = ["MAX_CONSTANT_BITS", "MAX_POWER_BITS", "extract_coefficients", "parse_expression", "symbol"]
+__all__ = [
+    "MAX_CONSTANT_BITS",
+    "MAX_EXPRESSION_CHARS",
+    "MAX_NESTING",
+    "MAX_POWER_BITS",
+    "extract_coefficients",
+    "expansion_cost",
+    "parse_expression",
+    "symbol",
+]
+
+#: Deepest nesting :func:`parse_expression` accepts: parentheses, signs and
+#: powers nested inside one another (sums and products of any length are flat).
+MAX_NESTING = 100
+#: Longest expression text accepted.
+MAX_EXPRESSION_CHARS = 100_000
+#: Bytes one coefficient takes at the least while a series is expanded (an
+#: ``fmpq`` in FLINT, its Python ``int`` or ``Fraction``, the list slot),
+#: times the copies alive at once (operands, Newton's iterates, the output).
+COEFFICIENT_BYTES = 64 * 6
+#: Seconds per coefficient and tree node of the walk (FLINT's products are
+#: quasi-linear; this is their rate on small coefficients, rounded up).
+COEFFICIENT_SECONDS = 1.0 / STEPS_PER_SECOND
+
+
+def expansion_cost(upto: int, nodes: int = 1) -> Cost:
+    """The least cost of expanding an expression of *nodes* tree nodes to degree *upto*.
+
+    Memory ``(upto + 1) * COEFFICIENT_BYTES``; seconds ``(upto + 1) * nodes``
+    coefficient steps.  Coefficient growth is checked where it happens
+    (powers, reciprocals).
+    """
+    return Cost(seconds=(upto + 1) * max(1, nodes) * COEFFICIENT_SECONDS, memory=(upto + 1) * COEFFICIENT_BYTES)
+
+
+def _tree_size(tree) -> int:
+    """The number of nodes of a SymPy tree, refusing one nested deeper than ``3 * MAX_NESTING`` (iterative)."""
+    count = 0
+    stack = [(tree, 0)]
+    while stack:
+        node, depth = stack.pop()
+        count += 1
+        if depth > 3 * MAX_NESTING:
+            raise InvalidParameters(
+                f"the expression nests more than {3 * MAX_NESTING} levels deep; write it with less nesting"
+            )
+        stack.extend((arg, depth + 1) for arg in node.args)
+    return count
 
 #: Largest number of bits a single exact constant (or constant term of a
 #: power) may reach in :func:`extract_coefficients` before it refuses.
@@ -107,6 +156,10 @@ def parse_expression(text: str, var="x") -> sympy.Expr:
     if not text.strip():
         raise InvalidParameters(f"the expression is empty; write e.g. 1/(1 - {name} - {name}^2)")
     hint = f"only the variable {name}, whole numbers, + - * / ^ and parentheses are allowed"
+    if len(text) > MAX_EXPRESSION_CHARS:
+        raise InvalidParameters(
+            f"the expression has {len(text):,} characters; at most {MAX_EXPRESSION_CHARS:,} are accepted"
+        )
     _check_parentheses(text)
     pieces: List[str] = []
     previous = None  # "number", "value" (the variable or ')'), or None after an operator
@@ -121,6 +174,10 @@ def parse_expression(text: str, var="x") -> sympy.Expr:
         if kind_ in (tokenize.NEWLINE, tokenize.NL, tokenize.ENDMARKER, tokenize.INDENT, tokenize.DEDENT):
             continue
         if kind_ == tokenize.NUMBER:
+            if len(string) > MAX_DIGITS and string.isdigit():
+                raise InvalidParameters(
+                    f"{where}: a number of {len(string):,} digits; numbers are limited to {MAX_DIGITS:,} digits"
+                )
             if not string.isdigit():
                 exact = ""
                 if "." in string or "e" in string.lower():
@@ -162,32 +219,121 @@ def parse_expression(text: str, var="x") -> sympy.Expr:
             raise InvalidParameters(f"{where}: {string!r} is not allowed; {hint}")
     if depth:
         raise InvalidParameters(f"the expression {text!r} has {depth} unclosed '('")
-    from sympy.parsing.sympy_parser import auto_number, auto_symbol, parse_expr
-
-    namespace = {
-        "Integer": sympy.Integer,
-        "Symbol": sympy.Symbol,
-        "Add": sympy.Add,
-        "Mul": sympy.Mul,
-        "Pow": sympy.Pow,
-        "__builtins__": {},
-    }
-    try:
-        tree = parse_expr(
-            " ".join(pieces),
-            local_dict={name: x},
-            global_dict=namespace,
-            transformations=(auto_symbol, auto_number),
-            evaluate=False,
-        )
-    except (SyntaxError, TypeError, ValueError, tokenize.TokenError):
-        tree = None
+    tree = _Parser(pieces, x).parse()
     if not isinstance(tree, sympy.Basic):
         raise InvalidParameters(
             f"the expression {text!r} is not well formed; check for a missing operand, "
             f"operator or parenthesis; {hint}"
         )
     return tree
+
+
+class _Parser:
+    """Precedence climbing over the checked tokens, building an unevaluated SymPy tree.
+
+    Grammar (Python's precedence, ``**`` right-associative and binding
+    tighter than a sign on its left)::
+
+        sum     := product (("+" | "-") product)*
+        product := signed (("*" | "/") signed)*
+        signed  := ("+" | "-") signed | power
+        power   := atom ("**" signed)?
+        atom    := NUMBER | NAME | "(" sum ")"
+
+    Sums and products are collected into flat ``Add``/``Mul`` nodes (so a
+    polynomial of ten thousand terms is one node, not a chain ten thousand
+    deep); signs, powers and parentheses nest, at most :data:`MAX_NESTING`
+    levels, so neither this parser nor the walks over the tree can exhaust
+    the stack.  ``a - b`` is ``Add(a, Mul(-1, b))`` and ``a / b`` is
+    ``Mul(a, Pow(b, -1))``, as SymPy writes them.  Returns ``None`` for a
+    malformed token sequence.
+    """
+
+    def __init__(self, pieces: List[str], x: sympy.Symbol):
+        self.pieces, self.x, self.at, self.depth = pieces, x, 0, 0
+
+    def parse(self):
+        try:
+            tree = self.sum()
+        except _Malformed:
+            return None
+        return tree if self.at == len(self.pieces) else None
+
+    def _peek(self):
+        return self.pieces[self.at] if self.at < len(self.pieces) else None
+
+    def _deeper(self):
+        self.depth += 1
+        if self.depth > MAX_NESTING:
+            raise InvalidParameters(
+                f"the expression nests parentheses, signs or powers more than {MAX_NESTING} levels deep; "
+                "write it with less nesting"
+            )
+
+    def sum(self):
+        terms = [self.product()]
+        while self._peek() in ("+", "-"):
+            op = self.pieces[self.at]
+            self.at += 1
+            term = self.product()
+            terms.append(term if op == "+" else sympy.Mul(sympy.Integer(-1), term, evaluate=False))
+        return terms[0] if len(terms) == 1 else sympy.Add(*terms, evaluate=False)
+
+    def product(self):
+        factors = [self.signed()]
+        while self._peek() in ("*", "/"):
+            op = self.pieces[self.at]
+            self.at += 1
+            factor = self.signed()
+            factors.append(factor if op == "*" else sympy.Pow(factor, sympy.Integer(-1), evaluate=False))
+        return factors[0] if len(factors) == 1 else sympy.Mul(*factors, evaluate=False)
+
+    def signed(self):
+        op = self._peek()
+        if op in ("+", "-"):
+            self.at += 1
+            self._deeper()
+            inner = self.signed()
+            self.depth -= 1
+            if op == "+":
+                return inner
+            if inner.is_Integer:
+                return sympy.Integer(-int(inner))
+            return sympy.Mul(sympy.Integer(-1), inner, evaluate=False)
+        return self.power()
+
+    def power(self):
+        base = self.atom()
+        if self._peek() == "**":
+            self.at += 1
+            self._deeper()
+            exponent = self.signed()
+            self.depth -= 1
+            return sympy.Pow(base, exponent, evaluate=False)
+        return base
+
+    def atom(self):
+        token = self._peek()
+        if token is None:
+            raise _Malformed
+        self.at += 1
+        if token == "(":
+            self._deeper()
+            inner = self.sum()
+            self.depth -= 1
+            if self._peek() != ")":
+                raise _Malformed
+            self.at += 1
+            return inner
+        if token.isdigit():
+            return sympy.Integer(int(token))
+        if token == self.x.name:
+            return self.x
+        raise _Malformed
+
+
+class _Malformed(Exception):
+    """Internal: the token sequence does not follow the grammar."""
 
 
 def _check_parentheses(text: str) -> None:
@@ -347,6 +493,7 @@ class _Expander:
         if rel <= 0:
             return _Series(self.limit, fmpq_poly([]), 0)
         self._check_inverse(a.poly[0], rel)
+        self._check_growth(a.poly, rel)
         return _normalise(val, series.inverse(a.poly, rel), val + rel, self.limit)
 
     def power(self, a: _Series, k: int) -> _Series:
@@ -392,6 +539,26 @@ class _Expander:
                 "denominator with constant term 1 or -1",
                 parameters=["upto"],
             )
+
+    @staticmethod
+    def _check_growth(poly: fmpq_poly, rel: int) -> None:
+        """Refuse a reciprocal whose coefficients may grow geometrically past the memory limit.
+
+        ``1/(c0 (1 - h))`` is ``sum h^k / c0``; with ``||h||_1 = t > 1`` its
+        ``j``-th coefficient has at most ``j log2 t`` bits more than ``1/c0^(j+1)``,
+        so the expansion to degree ``rel`` holds about ``rel^2 log2(t) / 2``
+        bits (Fibonacci's ``1/(1 - x - x^2)``: ``t = 2``, against ``0.69`` per
+        term in fact).  Checked with :func:`enumerator.core.limits.check`.
+        """
+        numer = poly.numer()
+        c0 = abs(int(numer[0]))
+        rest = sum(abs(int(c)) for c in numer.coeffs()[1:])
+        if rest <= c0:
+            return
+        per_term = rest.bit_length() - c0.bit_length() + 1  # >= log2(rest / c0)
+        bits = per_term * rel * rel // 2
+        check(Cost(seconds=bits / 2e9, memory=3 * (bits // 8)),
+              f"the reciprocal of a series up to degree {rel - 1:,}", advice="lower upto=", parameters=["upto"])
 
     @staticmethod
     def _check_power(poly: fmpq_poly, k: int, rel: int) -> None:
@@ -621,6 +788,8 @@ def extract_coefficients(expr, upto, var="x") -> List[Union[int, Fraction]]:
         raise InvalidParameters(
             f"expr must be text or a SymPy expression (got {type(expr).__name__})"
         )
+    check(expansion_cost(top, _tree_size(tree)), f"expanding the expression to degree {top:,}",
+          advice="lower upto=", parameters=["upto"])
     target = top + 1
     limit = target
     ceiling = 2 * target + 10_000
