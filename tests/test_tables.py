@@ -129,6 +129,52 @@ def test_rows_against_outside_references():
     assert p3 == [1, 1, 2, 3, 4, 5, 7, 8, 10, 12]
 
 
+def _mb_urn_by_urn(r, capacity, top):
+    """MB microstates for n <= top, urn by urn: a new urn takes k of the m balls in C(m, k) ways (recursion)."""
+    row = [1] + [0] * top
+    for _ in range(r):
+        row = [sum(math.comb(m, k) * row[m - k] for k in range(min(m, capacity) + 1)) for m in range(top + 1)]
+    return row
+
+
+def test_mb_rows_with_many_urns_sum_over_the_occupied_urns():
+    top = 8
+    for r, capacity in itertools.product((19, 25, 40), (1, 2, 3, 8)):
+        values, method = tables.row_values("MB", "microstates", r, 0, capacity, top)
+        assert "occupied urns" in method
+        assert values == _mb_urn_by_urn(r, capacity, top), (r, capacity)
+    # 2**64 urns: at most one ball per urn is the falling factorial r!/(r-n)! (Stanley, EC1, §1.9);
+    # at most two: d urns with two balls and n - 2d with one, n!/2^d assignments each (from memory)
+    r = 2**64
+    injective, _ = tables.row_values("MB", "microstates", r, 0, 1, top)
+    assert injective == [math.perm(r, n) for n in range(top + 1)]
+    pairs, _ = tables.row_values("MB", "microstates", r, 0, 2, top)
+    assert pairs == [
+        sum(math.comb(r, d) * math.comb(r - d, n - 2 * d) * math.factorial(n) // 2**d for d in range(n // 2 + 1))
+        for n in range(top + 1)
+    ]
+
+
+def test_a_table_over_2_to_the_64_urns_builds_loads_and_keeps_its_definition(path):
+    r = 2**64
+    spec = tables.TableSpec.make("BE", "0..3", f"{r}..{r + 1}", capacity=2)
+    report = tables.build_table(spec, name="huge", store=path)
+    assert report.computed == 8
+    data = tables.load_table("huge", store=path)
+    assert data.spec == spec and data.missing == 0
+    for n, urns in itertools.product(range(4), (r, r + 1)):
+        # BE at most two per urn: choose the d doubled urns and the n - 2d single ones (from memory)
+        expected = sum(math.comb(urns, d) * math.comb(urns - d, n - 2 * d) for d in range(n // 2 + 1))
+        assert data.value(n, urns) == expected
+    assert [(name, cells) for name, _, cells in tables.list_tables(store=path)] == [("huge", 8)]
+    with sqlite3.connect(path) as conn:
+        assert conn.execute("SELECT urns_first, typeof(urns_first), urns_last FROM enumerator_tables").fetchone() == (
+            str(r), "text", str(r + 1))
+    # a single lookup finds the table's cell (the same key)
+    with results.using(path):
+        assert Occupancy(balls=3, urns=r, rule="BE", capacity=2).configurations() == data.value(3, r)
+
+
 # -- specs ----------------------------------------------------------------------
 
 def test_ranges_parse_with_both_ends_included():
