@@ -384,3 +384,148 @@ def test_marks_and_event_spellings_come_from_the_registry():
     assert Statistic("count", ("<=", 2)).name == "count(<= 2)"
     with pytest.raises(InvalidParameters, match="unknown statistic 'count'"):
         parse_statistic("count")
+
+
+# ---------------------------------------------------------------- weights and groups, any number of urns
+
+def brute_weighted_law(model, stat: str):
+    """{value: Fraction}: every vector of the box weighed by the rule and by prod w_i^k_i (slow reference)."""
+    s = parse_statistic(stat)
+    weights = model.weights
+    found, total = {}, Fraction(0)
+    for k in box(model):
+        w = Fraction(weight(model, k))
+        for wi, v in zip(weights, k):
+            w *= wi ** v
+        total += w
+        v = s.value(k)
+        found[v] = found.get(v, 0) + w
+    return {v: c / total for v, c in sorted(found.items()) if c}
+
+
+@st.composite
+def weighted_models(draw):
+    """Small models with rational weights and per-urn bounds, with at least one configuration."""
+    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
+    r = draw(st.integers(1, 4))
+    n = draw(st.integers(0, 6))
+    bounds = []
+    for _ in range(r):
+        if rule == "FD":
+            bounds.append((draw(st.sampled_from([0, 0, 1])), 1))
+        else:
+            a = draw(st.integers(0, 1))
+            bounds.append((a, draw(st.sampled_from([None, a + 1, a + 2]))))
+    weights = [draw(st.sampled_from([1, 2, 3, Fraction(1, 2), Fraction(2, 3)])) for _ in range(r)]
+    model = Occupancy(balls=n, bounds=bounds, weights=weights, rule=rule)
+    if not any(True for _ in box(model)):
+        model = Occupancy(balls=n, urns=r, weights=weights, rule="BE")
+    return model
+
+
+@settings(max_examples=150, deadline=None)
+@given(weighted_models(), st.sampled_from(STATS))
+def test_every_statistic_of_a_weighted_model_matches_brute_force(model, stat):
+    if stat == "urn:2" and model.urns < 2:
+        stat = "urn:1"
+    law = distribution(model, stat)
+    expected = brute_weighted_law(model, stat)
+    assert law.pmf == expected
+    if stat != "profile":
+        assert (law.mean, law.variance) == moments(expected)
+
+
+@settings(max_examples=100, deadline=None)
+@given(small_models(), st.sampled_from([s for s in STATS if s != "profile"]))
+def test_the_group_routes_agree_with_the_per_urn_routes(model, stat):
+    # forcing every model onto the group routes (grouped generating functions)
+    # must give the per-urn routes' exact law
+    if stat == "urn:2" and model.urns < 2:
+        stat = "urn:1"
+    per_urn = distribution(model, stat)
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(laws, "PER_URN_ROUTES", 0)
+        by_groups = distribution(model, stat)
+    assert by_groups == per_urn
+
+
+@pytest.mark.parametrize("stat", ["empty", "occupied", "max", "min", "urn:4", "exactly:1", "atleast:2", "profile"])
+def test_a_model_in_groups_equals_the_same_model_per_urn(stat):
+    # weights "3x2,2x1/2" and bounds "3x0:2,2x1:" written urn by urn
+    grouped = Occupancy(balls=6, bounds="3x0:2,2x1:", weights="3x2,2x1/2", rule="MB")
+    per_urn = Occupancy(balls=6, bounds=[(0, 2)] * 3 + [(1, None)] * 2,
+                        weights=[2, 2, 2, Fraction(1, 2), Fraction(1, 2)], rule="MB")
+    assert distribution(grouped, stat) == distribution(per_urn, stat)
+    assert distribution(grouped, stat).pmf == brute_weighted_law(per_urn, stat)
+
+
+def falling(r: int, u: int) -> int:
+    out = 1
+    for i in range(u):
+        out *= r - i
+    return out
+
+
+@pytest.mark.parametrize("r", [16384, 65536, 2 ** 64, 3 ** 50])
+def test_occupied_urns_at_any_number_of_urns_follow_stirling_numbers(r):
+    # P(occupied = u) = r^(u) S(n, u) / r^n (Feller, vol. 1, ch. II.5); S(n, u) from
+    # SymPy, the Stirling numbers of the second kind (OEIS A008277)
+    n = 10
+    law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "occupied")
+    expected = {u: Fraction(falling(r, u) * int(sympy.functions.combinatorial.numbers.stirling(n, u)), r ** n)
+                for u in range(1, n + 1)}
+    assert law.pmf == expected
+    empty = distribution(Occupancy(balls=n, urns=r, rule="MB"), "empty")
+    assert empty.pmf == {r - u: p for u, p in sorted(expected.items(), reverse=True)}
+
+
+def test_bell_numbers_count_the_occupied_urns_of_n_balls_in_many_urns():
+    # sum_u S(n, u) = B_n, the Bell numbers (OEIS A000110: 1, 1, 2, 5, 15, 52, 203, 877, 4140)
+    bell = [1, 1, 2, 5, 15, 52, 203, 877, 4140]
+    r = 2 ** 70
+    for n, b in enumerate(bell):
+        if n == 0:
+            continue
+        law = distribution(Occupancy(balls=n, urns=r, rule="MB"), "occupied")
+        assert sum(p * r ** n / falling(r, u) for u, p in law.pmf.items()) == b
+
+
+def test_be_occupied_urns_at_a_huge_number_of_urns():
+    # BE: P(occupied = u) = C(r, u) C(n - 1, u - 1) / C(n + r - 1, n) (Feller, vol. 1, ch. II.5)
+    n, r = 8, 2 ** 40
+    law = distribution(Occupancy(balls=n, urns=r, rule="BE"), "occupied")
+    total = math.comb(n + r - 1, n)
+    assert law.pmf == {u: Fraction(math.comb(r, u) * math.comb(n - 1, u - 1), total) for u in range(1, n + 1)}
+
+
+def test_one_urn_of_a_huge_weighted_model_is_binomial():
+    # MB: k_I ~ Binomial(n, w_I / W); SciPy's binomial pmf as a float reference
+    n = 12
+    model = Occupancy(balls=n, weights="1099511627776x1,3,1099511627776x2", rule="MB")
+    index = 1099511627777  # the urn of weight 3
+    law = distribution(model, f"urn:{index}")
+    W = 1099511627776 * 3 + 3
+    p = Fraction(3, W)
+    assert law.pmf == {v: math.comb(n, v) * p ** v * (1 - p) ** (n - v) for v in range(n + 1)}
+    assert float(law.pmf[1]) == pytest.approx(scipy.stats.binom.pmf(1, n, float(p)), rel=1e-9)
+    assert law.mean == n * p and law.variance == n * p * (1 - p)
+
+
+def test_max_and_min_of_a_huge_model():
+    # n = 4 balls in r urns: max == 1 is the no-collision probability r^(4)/r^4 (Feller, vol. 1, II.3)
+    r = 2 ** 64
+    law = distribution(Occupancy(balls=4, urns=r, rule="MB"), "max")
+    assert law.pmf[1] == Fraction(falling(r, 4), r ** 4)
+    assert sum(law.pmf.values()) == 1
+    assert distribution(Occupancy(balls=4, urns=r, rule="MB"), "min").pmf == {0: Fraction(1)}
+
+
+def test_a_law_beyond_the_limits_is_refused_before_it_starts():
+    with pytest.raises(TooLarge, match="the law of max for 100000 balls in 1000 urns") as info:
+        distribution(Occupancy(balls=100000, urns=1000, rule="MB"), "max")
+    assert "max_memory" in info.value.parameters or "max_seconds" in info.value.parameters
+
+
+def test_statistic_numbers_are_refused_before_conversion():
+    with pytest.raises(InvalidParameters, match="limited to 4,000 digits"):
+        parse_statistic("urn:" + "9" * 5000)

@@ -44,10 +44,12 @@ from dataclasses import dataclass, field
 from typing import List, Sequence, Tuple, Union
 
 from ..core.errors import InvalidParameters
+from ..core.groups import MAX_DIGITS
 from .vocabulary import OPS, REGISTRY, Statistic, names_help
 
 __all__ = [
     "COMPLEMENT",
+    "MAX_DEPTH",
     "MIRROR",
     "And",
     "Comparison",
@@ -67,6 +69,10 @@ COMPLEMENT = {"==": "!=", "!=": "==", "<": ">=", ">=": "<", ">": "<=", "<=": ">"
 MIRROR = {"==": "==", "!=": "!=", "<": ">", ">": "<", "<=": ">=", ">=": "<="}
 
 _KEYWORDS = ("and", "or", "not")
+
+#: Deepest nesting of parentheses and ``not`` an event may use (the parser
+#: and the planner recurse once per level).
+MAX_DEPTH = 100
 #: The registry entries the event language spells, in the order its messages list them.
 _EVENT_ENTRIES = sorted((e for e in REGISTRY.values() if e.event is not None), key=lambda e: e.event_rank)
 _TERMS_HELP = names_help(e.event_help for e in _EVENT_ENTRIES)
@@ -248,6 +254,10 @@ def _tokenize(text: str) -> List[_Token]:
                 while k < n and (text[k].isalnum() or text[k] in "_."):
                     k += 1
                 raise _syntax_error(text, column, f"numbers must be whole numbers, found {text[i:k]!r}")
+            digits = j - i - (1 if ch in "+-" else 0)
+            if digits > MAX_DIGITS:
+                raise _syntax_error(text, column, f"a number of {digits:,} digits is too long; "
+                                                  f"numbers are limited to {MAX_DIGITS:,} digits")
             tokens.append(_Token("num", text[i:j], column))
             i = j
             continue
@@ -293,6 +303,14 @@ class _Parser:
         self.text = text
         self.tokens = _tokenize(text)
         self.pos = 0
+        self.depth = 0
+
+    def enter(self, token: _Token) -> None:
+        """One more level of parentheses or ``not``; refused past :data:`MAX_DEPTH`."""
+        self.depth += 1
+        if self.depth > MAX_DEPTH:
+            raise self.error(token, f"the event nests parentheses and 'not' more than {MAX_DEPTH} deep; "
+                                    "write it with fewer levels (and/or chains need no parentheses)")
 
     def peek(self) -> _Token:
         return self.tokens[self.pos]
@@ -335,14 +353,16 @@ class _Parser:
 
     def negation(self) -> Event:
         if self.is_word(self.peek(), "not"):
-            self.take()
-            return Not(self.negation())
+            self.enter(self.take())
+            node = Not(self.negation())
+            self.depth -= 1
+            return node
         return self.primary()
 
     def primary(self) -> Event:
         token = self.peek()
         if token.kind == "(":
-            self.take()
+            self.enter(self.take())
             if self.peek().kind == ")":
                 raise self.error(self.peek(), "empty parentheses; put a comparison inside")
             node = self.disjunction()
@@ -350,6 +370,7 @@ class _Parser:
             if close.kind != ")":
                 raise self.error(close, f"expected ')' to close the '(' at column {token.column}, found {_found(close)}")
             self.take()
+            self.depth -= 1
             return node
         return self.comparison()
 
@@ -410,6 +431,9 @@ class _Parser:
             if entry.event_form == "index" and word.startswith(prefix):
                 digits = word[len(prefix) + 1:] if word.startswith(prefix + "_") else word[len(prefix):]
                 if digits.isdigit():
+                    if len(digits) > MAX_DIGITS:
+                        raise self.error(token, f"the urn number in {token.text[:20]!r}... has {len(digits):,} "
+                                                f"digits; numbers are limited to {MAX_DIGITS:,} digits")
                     index = int(digits)
                     if index < entry.least:
                         raise self.error(token, f"urns are numbered from 1 (got {token.text!r}); "

@@ -12,7 +12,8 @@ exactly:
 
 * a conjunction of per-urn constraints (``k_i`` compared with a number,
   ``max <= m``, ``min >= m``, "every urn holds at least ``J``", ...) tightens
-  the bounds: one bounded count (:func:`~enumerator.algorithms.bounded.outcome_count`);
+  the bounds of the urn groups (one urn is split off its group): one
+  bounded count (:func:`~enumerator.algorithms.laws.outcome_total`, by groups);
   a negated constraint ``C`` is removed by ``N(A and not C) = N(A) - N(A and C)``;
 * whatever remains, if it is about one statistic only, is read off that
   statistic's exact distribution under the tightened bounds (``max`` and
@@ -38,9 +39,11 @@ from typing import Dict, List, Optional, Tuple, Union
 
 import gmpy2
 
+from ..core import limits
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.groups import UrnGroup, merge_groups
+from ..core.limits import Cost
 from ..core.model import UrnModel, as_count
-from .bounded import outcome_count
 from .counting import count_configurations, exact_fraction
 from .event_language import (
     COMPLEMENT,
@@ -56,6 +59,8 @@ from .event_language import (
     evaluate_event,
     parse_event,
 )
+from .grouped import integer_groups
+from .laws import outcome_total
 from .listing import iter_blocks
 from .statistics import DEFAULT_LIMIT, statistic_counts
 from .vocabulary import OPS, Statistic
@@ -227,21 +232,60 @@ def _classify(atom: _Atom, r: int):
     return None
 
 
-def _apply(bounds: Tuple, box: Dict):
-    """*bounds* tightened by *box*, or None when no vector can satisfy both."""
-    out = list(bounds)
+def _tighten(group: UrnGroup, low, high) -> Optional[UrnGroup]:
+    """*group* with its bounds intersected with ``[low, high]``, or None when empty."""
+    a, b = group.lower, group.upper
+    if low is not None and low > a:
+        a = low
+    if high is not None and (b is None or high < b):
+        b = high
+    if b is not None and a > b:
+        return None
+    return UrnGroup(group.count, a, b, group.weight)
+
+
+def _isolate(groups: Tuple[UrnGroup, ...], index: int):
+    """*groups* with urn *index* (0-based) in a group of its own: ``(groups, its position)``.
+
+    Walks the groups (``O(G)``), never the urns.
+    """
+    start = 0
+    for position, g in enumerate(groups):
+        if index < start + g.count:
+            before, after = index - start, start + g.count - index - 1
+            parts = []
+            if before:
+                parts.append(UrnGroup(before, g.lower, g.upper, g.weight))
+            parts.append(UrnGroup(1, g.lower, g.upper, g.weight))
+            if after:
+                parts.append(UrnGroup(after, g.lower, g.upper, g.weight))
+            return groups[:position] + tuple(parts) + groups[position + 1:], position + (1 if before else 0)
+        start += g.count
+    raise IndexError(index)  # pragma: no cover - urn numbers are checked against r first
+
+
+def _apply(bounds: Tuple[UrnGroup, ...], box: Dict):
+    """The groups *bounds* tightened by *box*, or None when no vector can satisfy both.
+
+    A box bounds every urn (``"all"``) or single urns by index; a single urn
+    is split off its group, so the cost is ``O(G)`` whatever ``r`` is.  The
+    result is merged (:func:`~enumerator.core.groups.merge_groups`), so equal
+    urn sets have equal keys.
+    """
+    out = tuple(bounds)
     for where, (low, high) in box.items():
-        targets = range(len(out)) if where == "all" else [where]
-        for i in targets:
-            a, b = out[i]
-            if low is not None and low > a:
-                a = low
-            if high is not None and (b is None or high < b):
-                b = high
-            if b is not None and a > b:
+        if where == "all":
+            tightened = [_tighten(g, low, high) for g in out]
+            if any(g is None for g in tightened):
                 return None
-            out[i] = (a, b)
-    return tuple(out)
+            out = tuple(tightened)
+        else:
+            out, position = _isolate(out, where)
+            g = _tighten(out[position], low, high)
+            if g is None:
+                return None
+            out = out[:position] + (g,) + out[position + 1:]
+    return merge_groups(out)
 
 
 # ---------------------------------------------------------------------------
@@ -259,6 +303,7 @@ PLAN_STEP_LIMIT = 4096
 
 class _Planner:
     def __init__(self, model: UrnModel, limit: int):
+        self.model = model
         self.rule = model.rule
         self.n = model.balls
         self.r = model.urns
@@ -274,7 +319,7 @@ class _Planner:
     def outcomes(self, bounds) -> int:
         key = ("outcomes", bounds)
         if key not in self.memo:
-            self.memo[key] = outcome_count(bounds, self.rule, self.n)
+            self.memo[key] = outcome_total(self.model.with_groups(bounds))
         return self.memo[key]
 
     def count(self, bounds, node) -> int:
@@ -360,21 +405,20 @@ class _Planner:
         stat = key
         memo_key = ("law", bounds, stat)
         if memo_key not in self.memo:
-            model = UrnModel(balls=self.n, bounds=bounds, rule=self.rule)
-            self.memo[memo_key] = statistic_counts(model, stat, self.limit)[0]
+            self.memo[memo_key] = statistic_counts(self.model.with_groups(bounds), stat, self.limit)[0]
         counts = self.memo[memo_key]
         return sum(c for v, c in counts.items() if _truth(node, key, v))
 
     def extreme(self, bounds, node, head: str) -> int:
         """Sum of bounded counts over the intervals of values where *node* holds."""
         n, r = self.n, self.r
-        eff = UrnModel(balls=n, bounds=bounds, rule=self.rule).effective_bounds()
+        eff = self.model.with_groups(bounds).effective_groups()
         if head == "max":
-            low = max(max(a for a, _ in eff), -(-n // r))
-            high = min(n, max(b for _, b in eff))
+            low = max(max(a for _, a, _, _ in eff), -(-n // r))
+            high = min(n, max(b for _, _, b, _ in eff))
         else:
-            low = min(a for a, _ in eff)
-            high = min(min(b for _, b in eff), n // r)
+            low = min(a for _, a, _, _ in eff)
+            high = min(min(b for _, _, b, _ in eff), n // r)
         if low > high:
             return 0
         cuts = sorted(c for c in _constants(node, set()) if low < c <= high)
@@ -453,7 +497,15 @@ def _enumerate(model: UrnModel, node, text: str, limit: int, show: Optional[bool
             f"{total} configurations listed, above the limit {limit}; raise limit=",
             parameters=["limit"],
         )
+    r = model.urns
+    # each configuration is r numbers, tested and weighed once
+    limits.check(Cost(seconds=total * r / limits.STEPS_PER_SECOND, memory=min(total, _BLOCK) * r * 8 * 4),
+                 f"listing the {total} configurations of {r} urns for the event {text!r}",
+                 advice="lower limit=, use fewer urns, or split the event into single statistics",
+                 parameters=["limit"])
     rule = model.rule
+    if model.weighted:
+        return _enumerate_weighted(model, node, total, show)
     weighted = rule.distinguishable  # equal weights need only the number of hits
     fac_n = gmpy2.fac(model.balls)
     found = mpz(0)
@@ -491,6 +543,34 @@ def _enumerate(model: UrnModel, node, text: str, limit: int, show: Optional[bool
     return int(found)
 
 
+def _enumerate_weighted(model: UrnModel, node, total: int, show: Optional[bool]) -> int:
+    """Weight of the configurations satisfying *node*, weights scaled as :func:`~enumerator.algorithms.laws.outcome_total`."""
+    groups, _ = integer_groups(model)
+    powers = [w for c, _, _, w in groups for _ in range(c)]
+    fac_n = gmpy2.fac(model.balls)
+    found = mpz(0)
+    bar = _progress(total, show)
+    task = bar.add_task("listing", total=total) if bar is not None else None
+    if bar is not None:
+        bar.start()
+    try:
+        for block in iter_blocks(model, _BLOCK):
+            for row in block:
+                k = tuple(int(v) for v in row)
+                if evaluate(node, k):
+                    w = model.rule.weight(k, fac_n)
+                    for p, v in zip(powers, k):
+                        if v:
+                            w *= mpz(p) ** v
+                    found += w
+            if bar is not None:
+                bar.advance(task, len(block))
+    finally:
+        if bar is not None:
+            bar.stop()
+    return int(found)
+
+
 # ---------------------------------------------------------------------------
 # public entry points
 # ---------------------------------------------------------------------------
@@ -515,7 +595,7 @@ def event_count(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_
                 f"the event names {term.event_text} (column {comparison.column}) but the model has {r} urns; "
                 f"use {Statistic(term.kind, 1).event_text} to {Statistic(term.kind, r).event_text}"
             )
-    total = outcome_count(model.bounds, model.rule, model.balls)
+    total = outcome_total(model)
     if total == 0:
         raise InvalidParameters(
             f"the model ({model!r}) admits no configuration, so the event has no probability; "
@@ -523,7 +603,7 @@ def event_count(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_
         )
     planner = _Planner(model, limit)
     try:
-        count = planner.count(model.bounds, _normal_form(node, r))
+        count = planner.count(model.groups, _normal_form(node, r))
     except _Enumerate:
         count = _enumerate(model, node, text, limit, progress)
     return int(count), int(total)

@@ -46,15 +46,18 @@ from __future__ import annotations
 
 import math
 from collections import Counter
+from fractions import Fraction
 from typing import Callable, Dict, List, Optional, Tuple
 
 import gmpy2
 from flint import fmpz_poly
 
-from ..core import series
-from ..core.errors import TooLarge
+from ..core import limits, series
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from ..core.rules import Rule
+from . import grouped
 from .bounded import outcome_count, outcome_row
 from .counting import count_configurations, count_profiles
 from .extremes import be_max_cumulative, mb_at_least, mb_capped_moments, mb_max_cumulative
@@ -62,16 +65,91 @@ from .listing import iter_configurations
 
 __all__ = [
     "GROUP_TUPLE_LIMIT",
+    "PER_URN_ROUTES",
     "enumerated_counts",
     "marked_counts",
+    "marked_moments",
     "max_counts",
     "min_counts",
+    "outcome_total",
     "profile_counts",
     "urn_counts",
 ]
 
 mpz = gmpy2.mpz
 divexact = gmpy2.divexact
+
+
+# ---------------------------------------------------------------------------
+# which route: per urn (small unweighted models) or by groups
+# ---------------------------------------------------------------------------
+
+#: Unweighted models with at most this many urns keep the per-urn routes
+#: (tuned closed forms and recursions); weighted models and larger ones are
+#: answered by groups (:mod:`enumerator.algorithms.grouped`), whose cost
+#: never grows with the number of urns.
+PER_URN_ROUTES = 4096
+
+
+def _per_urn(model: UrnModel) -> bool:
+    return not model.weighted and model.urns <= PER_URN_ROUTES
+
+
+def outcome_total(model: UrnModel) -> int:
+    r"""The model's total weight: every count of a statistic is a part of it.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model, any number of urns.
+
+    Returns
+    -------
+    int
+        Unweighted: the equally likely outcomes (MB assignments, BE/FD
+        vectors).  Weighted: the total weight ``sum_k weight(k)`` with the
+        weights scaled to integers (:func:`~enumerator.algorithms.grouped.integer_groups`;
+        the scale cancels in every probability).
+
+    Notes
+    -----
+    Per-urn bounded counts for small unweighted models
+    (:func:`~enumerator.algorithms.bounded.outcome_count`), otherwise
+    :func:`~enumerator.algorithms.grouped.total_count`: ``O(G M(n))`` plus
+    Miller's ``O(n b)`` per bounded MB group, never a pass over the urns.
+    """
+    if _per_urn(model) and (model.is_uniform or not model.rule.distinguishable):
+        return int(outcome_count(model.bounds, model.rule, model.balls))
+    groups, _ = grouped.integer_groups(model)
+    return int(grouped.total_count(groups, model.rule.distinguishable, model.balls, "the model's total weight"))
+
+
+def _total_of(groups, model: UrnModel, what: str):
+    """The total weight of *groups* (integer weights) for the model's balls and rule."""
+    return grouped.total_count(groups, model.rule.distinguishable, model.balls, what)
+
+
+def _mb_free_tail(groups, n: int, start: int) -> Dict[int, "mpz"]:
+    r"""``A_m`` for ``m >= start`` with ``2(m+1) > n``: MB, every group free (``a = 0``, no upper bound).
+
+    At most one urn can exceed ``m``, so inclusion–exclusion has one term:
+    ``A_m = W^n - sum_g c_g sum_{s>m} C(n, s) w_g^s (W - w_g)^{n-s}``
+    (Feller, vol. 1, ch. IV), one pass of suffix sums per group: ``O(G n)``.
+    """
+    W = sum(c * w for c, _, _, w in groups)
+    total = mpz(W) ** n
+    suffix = {m: mpz(0) for m in range(start, n + 1)}
+    for c, _, _, w in groups:
+        acc = mpz(0)
+        rest = W - w
+        # term(s) = C(n, s) w^s rest^(n-s), from s = n down
+        term = mpz(w) ** n
+        for s in range(n, start - 1, -1):
+            suffix[s] += c * acc  # urns above s: loads s+1..n
+            acc += term
+            if s:
+                term = divexact(term * s * rest, (n - s + 1) * w) if w else mpz(0)
+    return {m: total - suffix[m] for m in range(start, n + 1)}
 
 
 # ---------------------------------------------------------------------------
@@ -111,6 +189,8 @@ def max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     Cost: at most ``n - ceil(n/r) + 1`` bounded counts (Feller, vol. 1,
     ch. IV).
     """
+    if not _per_urn(model):
+        return _group_max_counts(model, total)
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     lo = max(max(a for a, _ in eff), -(-n // r))
@@ -119,6 +199,8 @@ def max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     if model.is_uniform and lo <= hi:
         # labelled balls and unlabelled ones have different recursions over m
         if model.rule.distinguishable and model.bounds[0][0] == 0:
+            limits.check(_mb_max_cost(n, r, lo, hi), f"the law of max for {n} balls in {r} urns",
+                         advice="ask for P(max <= m) at one m (an event) instead of the whole law")
             cumulative = mb_max_cumulative(n, r, hi)
         elif not model.rule.distinguishable:
             cumulative = be_max_cumulative(n, r, model.bounds[0][0], lo, hi)
@@ -160,6 +242,8 @@ def min_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     (:func:`~enumerator.algorithms.extremes.mb_at_least` for MB without
     bounds), at most ``n // r + 1`` bounded counts.
     """
+    if not _per_urn(model):
+        return _group_min_counts(model, total)
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     lo = min(a for a, _ in eff)
@@ -209,6 +293,8 @@ def urn_counts(model: UrnModel, index: int) -> Dict[int, "mpz"]:
     without bounds the binomial and stars-and-bars closed forms (Feller,
     vol. 1, ch. II.5), ``O(n)`` big operations.
     """
+    if not _per_urn(model):
+        return _group_urn_counts(model, index)
     n, r = model.balls, model.urns
     eff = model.effective_bounds()
     a, b = eff[index]
@@ -319,6 +405,8 @@ def marked_counts(model: UrnModel, low: int, high: Optional[int], limit: int) ->
     otherwise one bounded count per tuple of marked urns per group of equal
     bounds (at most :data:`GROUP_TUPLE_LIMIT`), listing beyond.
     """
+    if not _per_urn(model):
+        return _group_marked_law(model, low, high)
     n, r = model.balls, model.urns
     rule = model.rule
     a0, b0 = model.bounds[0]
@@ -442,6 +530,226 @@ def _group_marked_counts(model: UrnModel, low: int, high: Optional[int], limit: 
 
 
 # ---------------------------------------------------------------------------
+# the same laws by groups (weighted models, any number of urns)
+# ---------------------------------------------------------------------------
+
+def _mb_max_cost(n: int, r: int, lo: int, hi: int) -> Cost:
+    """Estimate :func:`~enumerator.algorithms.extremes.mb_max_cumulative`: rows of ``n`` numbers of ``n log2 r`` bits."""
+    bits = max(64.0, n * math.log2(max(r, 2)))
+    half = min(hi, n // 2)
+    steps = sum(min(n * m, n * n / (2 * m)) for m in range(max(lo, 1), half + 1))
+    seconds = steps * (1 + bits / 4000) / limits.STEPS_PER_SECOND
+    return Cost(seconds=seconds, memory=2 * (n + 1) * bigint_bytes(bits))
+
+
+def _capped(groups, top: int):
+    return [(c, a, min(b, top), w) for c, a, b, w in groups]
+
+
+def _raised(groups, bottom: int):
+    return [(c, max(a, bottom), b, w) for c, a, b, w in groups]
+
+
+def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
+    r"""``{m: weight with max == m}`` by groups: one grouped count per ``m`` (uppers lowered to ``m``).
+
+    For MB with every group free, the ``m`` with ``2(m+1) > n`` come from
+    one pass of suffix sums (:func:`_mb_free_tail`).  Cost: the sum over
+    ``m`` of :func:`~enumerator.algorithms.grouped.row_cost` (checked first).
+    """
+    n, r = model.balls, model.urns
+    groups, _ = grouped.integer_groups(model)
+    labelled = model.rule.distinguishable
+    lo = max(max(a for _, a, _, _ in groups), -(-n // r))
+    hi = min(n, max(b for _, _, b, _ in groups))
+    cumulative: Dict[int, mpz] = {}
+    free = labelled and all(a == 0 and b >= n for _, a, b, _ in groups)
+    last = hi
+    if free and hi >= n // 2:
+        start = max(lo, n // 2)
+        cumulative.update(_mb_free_tail(groups, n, start))
+        last = start - 1
+    cost = Cost()
+    for m in range(lo, last + 1):
+        cost = cost + grouped.row_cost(_capped(groups, m), n, labelled)
+    limits.check(cost, f"the law of max for {n} balls in {r} urns",
+                 advice="ask for P(max <= m) at one m (an event) instead of the whole law")
+    counts: Dict[int, mpz] = {}
+    previous = mpz(0)
+    for m in range(lo, hi + 1):
+        value = cumulative.get(m)
+        if value is None:
+            value = mpz(_total_of(_capped(groups, m), model, "a bounded count"))
+        if value != previous:
+            counts[m] = value - previous
+        previous = value
+        if value == total:
+            break
+    return counts
+
+
+def _group_min_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
+    """``{m: weight with min == m}`` by groups: lowers raised to ``m``, at most ``n // r + 1`` counts."""
+    n, r = model.balls, model.urns
+    groups, _ = grouped.integer_groups(model)
+    lo = min(a for _, a, _, _ in groups)
+    hi = min(min(b for _, _, b, _ in groups), n // r)
+    counts: Dict[int, mpz] = {}
+    current = mpz(total)
+    for m in range(lo, hi + 1):
+        following = mpz(0) if m + 1 > hi else mpz(_total_of(_raised(groups, m + 1), model, "a bounded count"))
+        if current != following:
+            counts[m] = current - following
+        current = following
+        if current == 0:
+            break
+    return counts
+
+
+def _split_urn(groups, index: int):
+    """``(the urn's group, the other urns' groups)`` for the 0-based urn *index*, walking the groups."""
+    start = 0
+    for position, g in enumerate(groups):
+        c = g[0]
+        if index < start + c:
+            others = list(groups[:position]) + ([(c - 1,) + tuple(g[1:])] if c > 1 else []) + list(groups[position + 1:])
+            return g, others
+        start += c
+    raise InvalidParameters(f"urn {index + 1} is beyond the model's {start} urns; use urn:1 to urn:{start}")
+
+
+def _group_urn_counts(model: UrnModel, index: int) -> Dict[int, "mpz"]:
+    r"""``{v: weight with k_index == v}`` by groups.
+
+    The urn's weight for ``v`` balls (``C(n, v) w^v`` for labelled balls)
+    times the other urns' weight for ``n - v``: a binomial law under MB when
+    the others are free (``C(n, v) w^v (W - w)^{n-v}``), otherwise one row of
+    the other groups (:func:`~enumerator.algorithms.grouped.total_row`).
+    """
+    n = model.balls
+    groups, _ = grouped.integer_groups(model)
+    # tight uppers of the whole model stay valid for the urn and the others
+    (_, a, b, w), others = _split_urn(groups, index)
+    labelled = model.rule.distinguishable
+    counts: Dict[int, mpz] = {}
+    if b < a:
+        return counts
+    top = n - a
+    limits.check(Cost(seconds=(top + 1) / limits.STEPS_PER_SECOND,
+                      memory=(top + 1) * bigint_bytes(n * math.log2(max(2, sum(c * g for c, _, _, g in groups))))),
+                 f"the law of one urn for {n} balls", advice="use fewer balls")
+    if not others:
+        return {n: mpz(w) ** n} if a <= n <= b else {}
+    lowest = sum(c * x for c, x, _, _ in groups)
+    if labelled and all(x == 0 and y >= n - lowest for _, x, y, _ in others):
+        rest = mpz(sum(c * g for c, _, _, g in others))
+        binom = gmpy2.comb(n, a)
+        for v in range(a, min(b, n) + 1):
+            counts[v] = binom * mpz(w) ** v * rest ** (n - v)
+            binom = divexact(binom * (n - v), v + 1)
+        return {v: c for v, c in counts.items() if c}
+    row = grouped.total_row(others, labelled, top, f"the law of one urn for {n} balls")
+    binom = gmpy2.comb(n, a)
+    for v in range(a, min(b, n) + 1):
+        c = row[n - v]
+        if c:
+            counts[v] = (binom if labelled else 1) * mpz(w) ** v * c
+        binom = divexact(binom * (n - v), v + 1)
+    return counts
+
+
+def _group_marked_law(model: UrnModel, low: int, high: Optional[int]) -> Dict[int, "mpz"]:
+    r"""``{j: weight with j urns holding low..high}`` by groups, at any number of urns.
+
+    The side of the window without 0 is marked (at most ``n`` such urns):
+    the window itself when ``low >= 1``, else its complement, and then
+    ``j = r - u``.  One bivariate generating function
+    (:func:`~enumerator.algorithms.grouped.marked_row`).
+    """
+    n, r = model.balls, model.urns
+    groups, _ = grouped.integer_groups(model)
+    labelled = model.rule.distinguishable
+    if low >= 1:
+        row = grouped.marked_row(groups, labelled, n, low, high, f"the law of a counting statistic for {n} balls")
+        return {u: c for u, c in enumerate(row) if c}
+    if high is None:  # every urn holds at least 0
+        return {r: mpz(_total_of(groups, model, "the model's total weight"))}
+    row = grouped.marked_row(groups, labelled, n, high + 1, None, f"the law of a counting statistic for {n} balls")
+    return {r - u: c for u, c in enumerate(row) if c}
+
+
+def _tight(groups, n: int):
+    """Groups ``(count, lower, upper or None, weight)`` with finite, tight upper bounds."""
+    lowest = sum(c * a for c, a, _, _ in groups)
+    return [(c, a, (n - (lowest - a)) if b is None else min(b, n - (lowest - a)), w) for c, a, b, w in groups]
+
+
+def marked_moments(model: UrnModel, low: int, high: Optional[int]):
+    r"""Exact ``(E[X], E[X(X-1)])`` of ``X`` = the urns holding ``low..high`` balls, from bounded counts.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model (weights, bounds, any number of urns).
+    low, high : int, int or None
+        The window (``high`` None: no end).
+
+    Returns
+    -------
+    tuple of Fraction
+        The first two factorial moments.
+
+    Notes
+    -----
+    The binomial moments of a counting statistic are sums over one urn and
+    over ordered pairs of distinct urns (Feller, vol. 1, ch. IV.3), and urns
+    of one group are interchangeable:
+    ``E[X] = sum_g c_g N_g / N`` and
+    ``E[X(X-1)] = sum_{g,h} p_{gh} N_{gh} / N``, where ``N_g`` is the total
+    weight with one urn of group ``g`` confined to the window, ``N_{gh}``
+    with one urn of ``g`` and another of ``h`` confined, and ``p_{gh}`` the
+    number of such ordered pairs (``c_g (c_g - 1)`` or ``c_g c_h``).
+    ``G + G^2`` grouped counts (:func:`~enumerator.algorithms.grouped.total_count`),
+    each ``O(G M(n))`` — never a pass over the urns.
+    """
+    n = model.balls
+    ints, _ = grouped.integer_groups(model)
+    base = [(c, g.lower, g.upper, w) for (c, _, _, w), g in zip(ints, model.groups)]
+    labelled = model.rule.distinguishable
+
+    def count(groups):
+        return grouped.total_count(_tight(groups, n), labelled, n, "a binomial moment")
+
+    def confine(groups, position):
+        c, a, b, w = groups[position]
+        lo = max(a, low)
+        hi = b if high is None else (high if b is None else min(b, high))
+        if hi is not None and hi < lo:
+            return None
+        parts = [(c - 1, a, b, w)] if c > 1 else []
+        return groups[:position] + [(1, lo, hi, w)] + parts + groups[position + 1:]
+
+    total = count(base)
+    first = mpz(0)
+    second = mpz(0)
+    for g in range(len(base)):
+        groups_g = confine(base, g)
+        if groups_g is None:
+            continue
+        first += base[g][0] * count(groups_g)
+        for h in range(len(base)):
+            pairs = base[g][0] * (base[g][0] - 1) if g == h else base[g][0] * base[h][0]
+            if not pairs:
+                continue
+            # urn of g sits at index g in groups_g; the rest of group g (if any) follows it
+            position = h if h < g else (g + 1 if h == g else h + (1 if base[g][0] > 1 else 0))
+            two = confine(groups_g, position)
+            if two is not None:
+                second += pairs * count(two)
+    return Fraction(int(first), int(total)), Fraction(int(second), int(total))
+
+
+# ---------------------------------------------------------------------------
 # profiles
 # ---------------------------------------------------------------------------
 
@@ -490,12 +798,15 @@ def profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]:
     coefficient, Andrews 1976, Thm 3.1) times ``r``.
     """
     n, r = model.balls, model.urns
-    eff = model.effective_bounds()
+    if model.weighted:
+        # a profile's weight depends on which urns hold what: list the configurations
+        return enumerated_counts(model, "the profile law of a weighted model", limit,
+                                 lambda k: tuple(sorted(k, reverse=True)))
     fac = gmpy2.fac
     fac_n = fac(n)
     counts: Dict[Tuple[int, ...], mpz] = {}
     if model.is_uniform:
-        a, b = eff[0]
+        _, a, b, _ = model.effective_groups()[0]
         how_many = count_profiles(model)
         if how_many > limit:
             raise TooLarge(
@@ -513,6 +824,7 @@ def profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]:
             weight = model.rule.weight(profile, fac_n)
             counts[profile] = arrangements * weight
         return counts
+    eff = model.effective_bounds()
     largest = max(b for _, b in eff)
     candidates = _candidate_bound(n, r, largest)
     if candidates > limit:
@@ -621,10 +933,22 @@ def enumerated_counts(model: UrnModel, label: str, limit: int, value: Callable) 
             f"above the limit {limit}; raise limit=",
             parameters=["limit"],
         )
+    r = model.urns
+    limits.check(Cost(seconds=how_many * r / limits.STEPS_PER_SECOND, memory=how_many * 64 + r * 64),
+                 f"listing {how_many} configurations of {r} urns", advice="lower limit= or use fewer urns",
+                 parameters=["limit"])
     fac_n = gmpy2.fac(model.balls)
+    powers = None
+    if model.weighted:
+        groups, _ = grouped.integer_groups(model)
+        powers = [w for c, _, _, w in groups for _ in range(c)]
     counts: Dict = {}
     for k in iter_configurations(model):
         w = model.rule.weight(k, fac_n)
+        if powers is not None:
+            for p, v in zip(powers, k):
+                if v:
+                    w *= mpz(p) ** v
         key = value(k)
         counts[key] = counts.get(key, 0) + w
     return counts

@@ -39,10 +39,12 @@ from typing import Callable, Dict, List, Optional, Tuple, Union
 
 import gmpy2
 
-from ..core.errors import InvalidParameters
+from ..core.errors import InvalidParameters, Unsupported
 from ..core.model import UrnModel, as_count
 from .bounded import outcome_count
 from .counting import exact_fraction, over_prime_power, power_primes
+from .laws import marked_moments, outcome_total
+from .moments import Moments, counting_moments
 from .vocabulary import STATISTICS, Statistic, parse_statistic
 
 __all__ = [
@@ -54,6 +56,7 @@ __all__ = [
     "outcome_count",
     "parse_statistic",
     "statistic_counts",
+    "statistic_moments",
 ]
 
 mpz = gmpy2.mpz
@@ -190,7 +193,7 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
             f"statistic {stat.name!r} names urn {stat.parameter}, but the model has {model.urns} urns; "
             f"use urn:1 to urn:{model.urns}"
         )
-    total = outcome_count(model.bounds, model.rule, model.balls)
+    total = outcome_total(model)
     if total == 0:
         raise InvalidParameters(
             f"the model ({model!r}) admits no configuration, so {stat.name!r} has no distribution; "
@@ -201,6 +204,85 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
     if sum(counts.values()) != total:  # pragma: no cover - an internal invariant
         raise AssertionError(f"counts of {stat.name} do not add up to the total for {model!r}")
     return counts, int(total)
+
+
+def statistic_moments(model: UrnModel, statistic: Union[str, Statistic], limit: int = DEFAULT_LIMIT) -> Moments:
+    r"""Return the exact mean and variance of *statistic* under *model*, without its law where possible.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model: weights, bounds, any number of urns.
+    statistic : str or Statistic
+        A numeric statistic of the registry (``empty``, ``occupied``,
+        ``exactly:J``, ``atleast:J``, ``max``, ``min``, ``urn:I``).
+    limit : int
+        As in :func:`distribution`, for the statistics read off their law.
+
+    Returns
+    -------
+    Moments
+        ``statistic``, exact ``Fraction`` ``mean`` and ``variance``.
+
+    Raises
+    ------
+    InvalidParameters
+        For ``profile`` (no mean), an unknown statistic, an urn beyond ``r``,
+        or a model that admits no configuration.
+    TooLarge
+        When the route's estimated cost is beyond the limits.
+
+    Notes
+    -----
+    Counting statistics (``X`` = the urns whose occupancy lies in a window):
+
+    1. closed binomial and trinomial laws of one urn and of a pair
+       (:func:`~enumerator.algorithms.moments.counting_moments`) for MB
+       groups without bounds, any weights, and BE/FD equal free urns:
+       ``O(G^2 |T|^2)`` big products, independent of ``r``;
+    2. otherwise the binomial moments ``E[X]`` and ``E[X(X-1)]`` as sums of
+       bounded counts over groups and pairs of groups
+       (:func:`~enumerator.algorithms.laws.marked_moments`, Feller, vol. 1,
+       ch. IV.3): ``G + G^2`` grouped counts.
+
+    ``Var X = E[X(X-1)] + E[X] - E[X]^2``.  ``max``, ``min`` and ``urn:I``
+    are read off their exact law (:func:`distribution`).
+
+    Examples
+    --------
+    The number of occupied buckets for 23 keys in 365 (MB):
+    ``E = 365 (1 - (364/365)^23)``:
+
+    >>> m = statistic_moments(UrnModel(balls=23, urns=365, rule="MB"), "occupied")
+    >>> m.mean == 365 * (1 - Fraction(364, 365) ** 23)
+    True
+    """
+    stat = parse_statistic(statistic)
+    if not stat.numeric:
+        raise InvalidParameters(f"statistic {stat.name!r} has no mean or variance; choose a numeric statistic")
+    if stat.entry.indexes_urns and stat.parameter > model.urns:
+        raise InvalidParameters(
+            f"statistic {stat.name!r} names urn {stat.parameter}, but the model has {model.urns} urns; "
+            f"use urn:1 to urn:{model.urns}"
+        )
+    if stat.entry.marking is None:
+        law = distribution(model, stat, limit)
+        return Moments(stat.name, law.mean, law.variance)
+    if stat.kind in ("empty", "occupied", "exactly", "atleast"):
+        try:
+            return counting_moments(model.balls, model.rule, model.groups, stat.name)
+        except Unsupported:
+            pass
+    if outcome_total(model) == 0:
+        raise InvalidParameters(
+            f"the model ({model!r}) admits no configuration, so {stat.name!r} has no moments; "
+            "loosen the bounds or change the number of balls"
+        )
+    how, J = stat.entry.marking(stat.parameter)
+    low, high = (J, J) if how == "exactly" else (J, None)
+    mean, falling = marked_moments(model, low, high)
+    variance = falling + mean - mean * mean
+    return Moments(stat.name, mean, variance)
 
 
 # ---------------------------------------------------------------------------
@@ -216,7 +298,7 @@ def _reducer(model: UrnModel, total) -> Callable[[int], Fraction]:
     """
     n, r = model.balls, model.urns
     total = mpz(total)
-    if model.rule.distinguishable and r > 1 and total == mpz(r) ** n:
+    if not model.weighted and model.rule.distinguishable and 1 < r <= 2 ** 64 and total == mpz(r) ** n:
         primes = power_primes(r, n)
         return lambda count: over_prime_power(count, total, primes)
     return lambda count: exact_fraction(count, total)

@@ -42,6 +42,7 @@ from dataclasses import dataclass
 from typing import Any, Callable, Dict, Optional, Sequence, Tuple, Union
 
 from ..core.errors import InvalidParameters
+from ..core.groups import MAX_DIGITS
 from ..core.model import UrnModel
 from .laws import marked_counts, max_counts, min_counts, profile_counts, urn_counts
 
@@ -401,6 +402,10 @@ def parse_statistic(text: Union[str, Statistic]) -> Statistic:
     if not sep or not arg:
         raise InvalidParameters(
             f"statistic {kind!r} needs a number after a colon, {kind}:{entry.letter} (for example {example!r})"
+        )
+    if len(arg) > MAX_DIGITS:
+        raise InvalidParameters(
+            f"the number in statistic {kind!r} has {len(arg):,} digits; numbers are limited to {MAX_DIGITS:,} digits"
         )
     if not re.fullmatch(r"\d+", arg):
         raise InvalidParameters(

@@ -1,0 +1,575 @@
+r"""Weighted counts by urn groups, in time that grows with ``n`` and the number of groups, never with ``r``.
+
+A model's urns are groups ``(c, a, b, w)``: ``c`` interchangeable urns holding
+``a..b`` balls each, of weight ``w``.  Everything the laws of statistics
+need reduces to the generating function of one group raised to the power
+``c`` and to products over groups:
+
+MB (labelled balls)
+    ``N(k) = k! [x^k] prod_g (sum_{j=a_g}^{b_g} (w_g x)^j / j!)^{c_g}`` — the
+    total weight of the assignments of ``k`` labelled balls, each assignment
+    weighing ``prod_i w_i^{k_i}`` (so with weights ``w_i / W`` it is the
+    probability, up to the factor ``W^n``);
+BE, FD (unlabelled balls)
+    ``N(k) = [x^k] prod_g (sum_{j=a_g}^{b_g} (w_g x)^j)^{c_g}`` — the total
+    weight ``prod_i w_i^{k_i}`` of the admissible occupancy vectors.
+
+Weights are scaled to integers first (:func:`integer_groups`): every
+configuration of ``n`` balls gains the same factor ``L^n``, which cancels in
+every probability.
+
+Powers of a group's series (:func:`unit_row`) use closed forms where they
+exist (``c^k`` for free MB urns; ``(1 - x^s)^c (1 - x)^{-c}`` for BE/FD),
+J. C. P. Miller's recurrence for the power of a series with any exponent
+(Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §4.7, eq. (9)) written for the
+integers ``N(k)``, or FLINT's truncated power of rational series for a
+group of few urns with a lower bound.  Groups are combined by (binomial)
+convolution, one FLINT product each (Flajolet & Sedgewick, *Analytic
+Combinatorics*, 2009, §II.2, labelled products).  Marking the urns whose
+occupancy lies in a set ``Z`` (not containing 0) adds a variable ``y``:
+``prod_g (A_g(x) + y B_g(x))^{c_g}``, packed into one univariate series
+(Kronecker substitution) — the law of the number of marked urns has at most
+``n + 1`` values whatever ``r`` is.
+
+Every route estimates its cost (:func:`row_cost`, :func:`marked_cost`) and
+calls :func:`~enumerator.core.limits.check` before computing.
+"""
+
+from __future__ import annotations
+
+import math
+from fractions import Fraction
+from math import lcm
+from typing import Dict, List, Optional, Sequence, Tuple
+
+import gmpy2
+from flint import fmpq, fmpq_poly, fmpz_poly
+
+from ..core import limits
+from ..core.limits import Cost, bigint_bytes
+
+__all__ = [
+    "Group",
+    "integer_groups",
+    "marked_row",
+    "total_count",
+    "total_row",
+    "unit_row",
+    "weighted_dot",
+]
+
+mpz = gmpy2.mpz
+divexact = gmpy2.divexact
+
+#: ``(count, lower, upper, integer weight)``; ``upper`` finite (tight).
+Group = Tuple[int, int, int, int]
+
+#: FLINT's powers take a machine-word exponent; larger counts go through Miller's recurrence.
+_WORD = 2 ** 62
+
+
+def integer_groups(model) -> Tuple[List[Group], int]:
+    """Return the model's effective groups with integer weights, and the scale ``L``.
+
+    Parameters
+    ----------
+    model : UrnModel
+        Any model.
+
+    Returns
+    -------
+    groups : list of (count, lower, upper, weight)
+        Upper bounds finite and tight (:meth:`UrnModel.effective_groups`),
+        weights ``w_g L`` with ``L`` the lcm of the weights' denominators
+        (then divided by their gcd), all integers.
+    scale : Fraction
+        ``w_g = weight_g / scale``; every weight of ``n`` balls is
+        ``scale^n`` times too large, which cancels in probabilities.
+
+    Notes
+    -----
+    ``O(G)`` operations.
+    """
+    eff = model.effective_groups()
+    den = lcm(*(Fraction(w).denominator for *_, w in eff))
+    ints = [int(Fraction(w) * den) for *_, w in eff]
+    common = math.gcd(*ints)
+    out = [(c, a, b, w // common) for (c, a, b, _), w in zip(eff, ints)]
+    return out, Fraction(den, common)
+
+
+# ---------------------------------------------------------------------------
+# cost estimates
+# ---------------------------------------------------------------------------
+
+def _bits(count: int, weight: int, top: int) -> float:
+    """Bits of the largest entry of a row up to *top* balls (``(c w)^top`` for MB)."""
+    return max(1.0, top * math.log2(max(2, count) * max(2, weight)))
+
+
+def row_cost(groups: Sequence[Group], top: int, labelled: bool) -> Cost:
+    """Estimate :func:`total_row` on *groups* up to *top* balls.
+
+    Miller's recurrence costs ``top * min(b, top)`` small-by-big steps per
+    bounded group; every product or closed form a few FLINT multiplications
+    of length ``top`` (``limits.product_seconds`` of the whole row's bits).
+    """
+    total_bits = sum(_bits(c, w, top) for c, *_, w in groups) + top * math.log2(top + 2)
+    row_bytes = (top + 1) * bigint_bytes(total_bits)
+    seconds = 0.0
+    for c, a, b, _ in groups:
+        span = max(0, min(b, top) - a)
+        if labelled and a == 0 and span < top and (c >= _WORD or span <= 16):
+            steps = top * span
+            seconds += steps * (1 + total_bits / 4000) / limits.STEPS_PER_SECOND
+        else:
+            seconds += 4 * limits.product_seconds((top + 1) * total_bits) * max(1, math.log2(max(2, min(c, top))))
+        seconds += (top + 1) / limits.STEPS_PER_SECOND
+    return Cost(seconds=seconds, memory=4 * row_bytes)
+
+
+# ---------------------------------------------------------------------------
+# one group
+# ---------------------------------------------------------------------------
+
+def _binomial_row(c: int, top: int) -> List:
+    """``C(L + c - 1, L)`` for ``L = 0..top``: the BE count of ``L`` balls in ``c`` free urns."""
+    row = [mpz(1)] * (top + 1)
+    v = mpz(1)
+    for L in range(top):
+        v = divexact(v * (L + c), L + 1)
+        row[L + 1] = v
+    return row
+
+
+def _miller_row(c: int, span: int, top: int, labelled: bool) -> List:
+    r"""Coefficients of ``(sum_{j=0}^{span} x^j [/ j!])^c`` up to ``x^top``, any exponent ``c``.
+
+    Miller's recurrence (Knuth, TAOCP vol. 2, §4.7, eq. (9)) for ``g = f^c``
+    with ``f_0 = 1``: ``k g_k = sum_{j=1}^{k} ((c+1) j - k) f_j g_{k-j}``.
+    Labelled balls keep ``N(k) = k! g_k`` (integers):
+    ``N(k) = (1/k) sum_j ((c+1) j - k) C(k, j) N(k-j)``.  ``O(top * span)``
+    small-by-big multiplications, exact divisions.
+    """
+    N = [mpz(0)] * (top + 1)
+    N[0] = mpz(1)
+    c1 = c + 1
+    for k in range(1, top + 1):
+        total = mpz(0)
+        binom = mpz(1)
+        for j in range(1, min(k, span) + 1):
+            if labelled:
+                binom = divexact(binom * (k - j + 1), j)
+                total += (c1 * j - k) * binom * N[k - j]
+            else:
+                total += (c1 * j - k) * N[k - j]
+        N[k] = divexact(total, k)
+    return N
+
+
+def _egf_power_row(c: int, a: int, b: int, top: int) -> List:
+    """``k! [x^k] (sum_{j=a}^{b} x^j / j!)^c`` by FLINT's truncated power (``c`` below a machine word)."""
+    base = fmpq_poly([0] * a + [fmpq(1, int(gmpy2.fac(j))) for j in range(a, b + 1)])
+    power = base.pow_trunc(c, top + 1)
+    coeffs = power.coeffs()
+    out = [mpz(0)] * (top + 1)
+    fac = mpz(1)
+    for k in range(top + 1):
+        if k:
+            fac *= k
+        if k < len(coeffs) and coeffs[k] != 0:
+            q = coeffs[k]
+            out[k] = divexact(fac * int(q.p), int(q.q))
+    return out
+
+
+def unit_row(c: int, a: int, b: int, labelled: bool, top: int) -> List:
+    r"""The counts of one group of ``c`` unweighted urns holding ``a..b`` each, for ``0..top`` balls.
+
+    Parameters
+    ----------
+    c : int
+        Urns in the group, any size.
+    a, b : int
+        Bounds of each urn (``b`` finite; ``b < a``: nothing fits).
+    labelled : bool
+        MB (assignments of labelled balls) or BE/FD (occupancy vectors).
+    top : int
+        The most balls.
+
+    Returns
+    -------
+    list of mpz
+        Entry ``k``: the count for ``k`` balls.
+
+    Notes
+    -----
+    Closed forms for free urns (``c^k``; ``C(k + c - 1, k)``), BE/FD by
+    ``(1 - x^s)^c (1 - x)^{-c}`` (one FLINT product), MB bounded above by
+    Miller's recurrence (any ``c``; ``O(top * b)``) or FLINT's truncated power
+    of the rational window (``c < 2^62``; ``O(M(top) log c)``).
+    """
+    zeros = [mpz(0)] * (top + 1)
+    if b < a or c * a > top:
+        return zeros
+    shift = c * a
+    room = top - shift
+    b = min(b, a + room)
+    if labelled:
+        if a == 0 and b >= top:
+            row = [mpz(1)] * (top + 1)
+            for k in range(1, top + 1):
+                row[k] = row[k - 1] * c
+            return row
+        if a == 0 and (c >= _WORD or b <= 16):
+            return _miller_row(c, b, top, True)
+        return _egf_power_row(c, a, b, top)
+    s = b - a + 1
+    row = _binomial_row(c, room)
+    if s <= room:
+        numerator = [0] * (room + 1)
+        choose = mpz(1)
+        for j in range(room // s + 1):
+            numerator[j * s] = int(-choose if j & 1 else choose)
+            choose = divexact(choose * (c - j), j + 1)
+        prod = fmpz_poly(numerator).mul_low(fmpz_poly([int(v) for v in row]), room + 1)
+        coeffs = prod.coeffs()
+        row = [mpz(int(coeffs[i])) if i < len(coeffs) else mpz(0) for i in range(room + 1)]
+    return zeros[:shift] + row
+
+
+def _weighted(row: List, w: int) -> List:
+    """Entry ``k`` times ``w^k``."""
+    if w == 1:
+        return row
+    out = list(row)
+    p = mpz(1)
+    for k in range(len(out)):
+        out[k] = out[k] * p
+        p *= w
+    return out
+
+
+# ---------------------------------------------------------------------------
+# products over groups
+# ---------------------------------------------------------------------------
+
+def _degree(row: List) -> int:
+    """The index of the last nonzero entry (-1 for a zero row)."""
+    d = len(row) - 1
+    while d >= 0 and not row[d]:
+        d -= 1
+    return d
+
+
+def _convolve(x: List, y: List, labelled: bool, top: int) -> List:
+    """The (binomial, for labelled balls) convolution of two rows, up to *top*.
+
+    Only up to the sum of the rows' degrees: short rows (a few urns, small
+    bounds) cost what their length says, not *top*.
+    """
+    dx, dy = _degree(x), _degree(y)
+    if dx < 0 or dy < 0:
+        return [mpz(0)] * (top + 1)
+    reach = min(top, dx + dy)
+    if reach < top:
+        return _convolve(x[: reach + 1], y[: reach + 1], labelled, reach) + [mpz(0)] * (top - reach)
+    if dx == 0 or dy == 0:
+        # one row is a constant: a scaling
+        (c, row) = (x[0], y) if dx == 0 else (y[0], x)
+        return [c * v for v in row[: top + 1]] + [mpz(0)] * (top + 1 - len(row[: top + 1]))
+    if not labelled:
+        prod = fmpz_poly([int(v) for v in x]).mul_low(fmpz_poly([int(v) for v in y]), top + 1)
+        coeffs = prod.coeffs()
+        return [mpz(int(coeffs[i])) if i < len(coeffs) else mpz(0) for i in range(top + 1)]
+    # X_i = x_i top!/i!, Y_j = y_j top!/j!: [z^k] X Y = top!^2 / k! * sum_i C(k, i) x_i y_{k-i}
+    falls = [mpz(1)] * (top + 1)  # top!/i!
+    for i in range(top - 1, -1, -1):
+        falls[i] = falls[i + 1] * (i + 1)
+    X = fmpz_poly([int(v * f) for v, f in zip(x, falls)])
+    Y = fmpz_poly([int(v * f) for v, f in zip(y, falls)])
+    coeffs = X.mul_low(Y, top + 1).coeffs()
+    ftop = falls[0]
+    out = []
+    for k in range(top + 1):
+        c = mpz(int(coeffs[k])) if k < len(coeffs) else mpz(0)
+        out.append(divexact(c, ftop * falls[k]) if c else mpz(0))
+    return out
+
+
+def total_row(groups: Sequence[Group], labelled: bool, top: int, what: str = "the count") -> List:
+    """The weighted count of ``k = 0..top`` balls in *groups*, all ``k`` at once.
+
+    Parameters
+    ----------
+    groups : sequence of (count, lower, upper, integer weight)
+        From :func:`integer_groups` (upper bounds finite).
+    labelled : bool
+        MB or BE/FD.
+    top : int
+        The most balls.
+    what : str
+        The work, for the refusal message.
+
+    Returns
+    -------
+    list of mpz
+
+    Raises
+    ------
+    TooLarge
+        When :func:`row_cost` is beyond the limits.
+
+    Notes
+    -----
+    One :func:`unit_row` per distinct ``(count, lower, upper)`` (weights
+    scale entry ``k`` by ``w^k``), then ``G - 1`` FLINT products: cost
+    ``O(G M(top))`` plus Miller's ``O(top * b)`` steps per bounded MB group.
+    """
+    limits.check(row_cost(groups, top, labelled), what, advice="use fewer balls or fewer groups")
+    units: Dict = {}
+    row: Optional[List] = None
+    for c, a, b, w in groups:
+        key = (c, a, b)
+        if key not in units:
+            units[key] = unit_row(c, a, b, labelled, top)
+        part = _weighted(units[key], w)
+        row = part if row is None else _convolve(row, part, labelled, top)
+    return row if row is not None else [mpz(1)] + [mpz(0)] * top
+
+
+def weighted_dot(x: List, y: List, labelled: bool, n: int):
+    """Entry *n* of the convolution of two rows (``O(n)`` big multiplications)."""
+    total = mpz(0)
+    binom = mpz(1)
+    for i in range(n + 1):
+        if x[i] and y[n - i]:
+            total += (binom * x[i] * y[n - i]) if labelled else x[i] * y[n - i]
+        binom = divexact(binom * (n - i), i + 1)
+    return total
+
+
+def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "the count"):
+    """The model's total weight for ``n`` balls (:func:`total_row` entry ``n``).
+
+    Free MB groups (``a = 0``, no upper bound below ``n``) are one
+    exponential ``e^{Qx}``: ``n! [x^n] P(x) e^{Qx} = sum_i C(n, i) P_i Q^{n-i}``
+    with ``P`` the other groups' row (Flajolet & Sedgewick 2009, §II.2), so a
+    model with only free urns costs one power; a group of few urns with a
+    lower bound and no upper bound is written ``(e^{wx} - p(x))^c``
+    (inclusion–exclusion over the urns below their bound) when that is
+    shorter.  Cost: as :func:`total_row` on the bounded groups.
+    """
+    if n < 0:
+        return mpz(0)
+    if any(b < a for _, a, b, _ in groups) or sum(c * a for c, a, _, _ in groups) > n:
+        return mpz(0)
+    fixed = [g for g in groups if g[1] == g[2]]
+    if fixed:
+        # urns that must hold exactly a balls each: a constant factor, and fewer balls for the rest
+        held = sum(c * a for c, a, _, _ in fixed)
+        factor = mpz(1)
+        for c, a, _, w in fixed:
+            factor *= mpz(w) ** (c * a)
+        if labelled:
+            # n! / ((a!)^c ... (n - held)!) chooses which balls the fixed urns hold
+            factor *= gmpy2.fac(n) // gmpy2.fac(n - held)
+            for c, a, _, _ in fixed:
+                factor = divexact(factor, gmpy2.fac(a) ** c)
+        rest = [g for g in groups if g[1] != g[2]]
+        if not rest:
+            return factor if held == n else mpz(0)
+        return factor * total_count(rest, labelled, n - held, what)
+    if not labelled:
+        if len(groups) == 1:
+            return total_row(groups, labelled, n, what)[n]
+        first = total_row(groups[:1], labelled, n, what)
+        rest = total_row(groups[1:], labelled, n, what)
+        return weighted_dot(first, rest, False, n)
+    lowest = sum(c * a for c, a, _, _ in groups)
+
+    def open_top(g) -> bool:
+        # the upper bound does not bite: the other urns' lower bounds already leave no more room
+        return g[2] >= n - (lowest - g[1])
+
+    free = [g for g in groups if g[1] == 0 and open_top(g)]
+    Q = sum(c * w for c, _, _, w in free)
+    lower_only = []
+    terms = 1
+    for g in groups:
+        if g[1] > 0 and open_top(g) and terms * (g[0] + 1) <= 64:
+            lower_only.append(g)
+            terms *= g[0] + 1
+    bounded = [g for g in groups if g not in free and g not in lower_only]
+    if not bounded and not lower_only:
+        return mpz(Q) ** n
+    if not free and not lower_only and len(bounded) >= 2:
+        # only entry n of the last product is needed: a dot product instead of a full product
+        head = total_row(bounded[:-1], True, n, what)
+        return weighted_dot(head, total_row(bounded[-1:], True, n, what), True, n)
+    reach = min(n, sum(c * b for c, _, b, _ in bounded))
+    base = total_row(bounded, True, reach, what) if bounded else [mpz(1)]
+    base = base + [mpz(0)] * (n - reach if bounded else n)
+    # (e^{wx} - p(x))^c = sum_t C(c, t) (-p)^t e^{(c - t) w x}, p = sum_{j<a} (wx)^j/j!
+    total = mpz(0)
+    choices = [[(t, math.comb(c, t)) for t in range(c + 1)] for c, _, _, _ in lower_only]
+    for pick in _product(choices):
+        row = base
+        sign = 1
+        weight = 1
+        Z = Q
+        for (t, choose), (c, a, _, w) in zip(pick, lower_only):
+            weight *= choose
+            if t & 1:
+                sign = -sign
+            Z += (c - t) * w
+            if t:
+                reach = min(n, t * (a - 1))
+                part = _weighted(_miller_row(t, a - 1, reach, True), w) + [mpz(0)] * (n - reach)
+                row = _convolve(row, part, True, n)
+        total += sign * weight * _exp_dot(row, Z, n)
+    return total
+
+
+def _product(lists):
+    """The Cartesian product of *lists* (an iterator of tuples)."""
+    if not lists:
+        yield ()
+        return
+    for head in lists[0]:
+        for tail in _product(lists[1:]):
+            yield (head,) + tail
+
+
+def _exp_dot(row: List, Z: int, n: int):
+    """``n! [x^n] R(x) e^{Zx} = sum_i C(n, i) R_i Z^{n-i}`` for a row of labelled counts."""
+    top = max(0, _degree(row))
+    if Z == 0:
+        return row[n] if n < len(row) else mpz(0)
+    acc = mpz(0)
+    binom = mpz(1)
+    for i in range(top + 1):
+        acc = acc * Z + binom * row[i]
+        binom = divexact(binom * (n - i), i + 1)
+    return acc * mpz(Z) ** (n - top)
+
+
+# ---------------------------------------------------------------------------
+# marking: the law of the number of urns with occupancy in a set
+# ---------------------------------------------------------------------------
+
+def marked_cost(groups: Sequence[Group], n: int) -> Cost:
+    """Estimate :func:`marked_row`: packed series of ``(n + 1)^2`` rational coefficients per group."""
+    bits = sum(_bits(c, w, n) for c, *_, w in groups) + n * math.log2(n + 2)
+    size = (n + 1) * (n + 2)
+    seconds = 0.0
+    for c, _, b, _ in groups:
+        if c >= _WORD:
+            seconds += n * min(b, n) * (n + 1) * (1 + bits / 4000) / limits.STEPS_PER_SECOND
+        else:
+            seconds += 3 * limits.product_seconds(size * bits) * max(1, math.log2(max(2, min(c, n))))
+    return Cost(seconds=seconds, memory=6 * size * bigint_bytes(bits))
+
+
+def marked_row(groups: Sequence[Group], labelled: bool, n: int, low: int, high: Optional[int],
+               what: str = "the law") -> List:
+    r"""The weight of the outcomes with ``u`` urns holding ``low..high`` balls, ``u = 0..n``.
+
+    Parameters
+    ----------
+    groups : sequence of (count, lower, upper, integer weight)
+        From :func:`integer_groups`.
+    labelled : bool
+        MB or BE/FD.
+    n : int
+        Balls.
+    low, high : int, int or None
+        The marked occupancies, ``low >= 1`` (so at most ``n`` urns are
+        marked); ``high`` None for no end.
+    what : str
+        The work, for the refusal message.
+
+    Returns
+    -------
+    list
+        Entry ``u``: the total weight of the outcomes with exactly ``u``
+        marked urns (for labelled balls, of assignments).
+
+    Raises
+    ------
+    TooLarge
+        When :func:`marked_cost` is beyond the limits.
+
+    Notes
+    -----
+    The bivariate generating function ``prod_g (A_g(x) + y B_g(x))^{c_g}``
+    (Flajolet & Sedgewick 2009, §III.2), with ``y^u x^k`` packed at
+    ``k (n + 1) + u`` (Kronecker substitution; ``u <= k`` since a marked urn
+    holds a ball): FLINT's truncated power for ``c_g < 2^62``, Miller's
+    recurrence with polynomial coefficients otherwise, one product per
+    group.  Cost ``O(G M(n^2) log c)``, never growing with ``r``.
+    """
+    if low < 1:
+        raise ValueError("marked occupancies must start at 1 or more")
+    limits.check(marked_cost(groups, n), what, advice="use fewer balls or fewer groups")
+    S = n + 1
+    length = (n + 1) * S
+    total = None
+    for c, a, b, w in groups:
+        if b < a or c * a > n:
+            return [mpz(0)] * (n + 1)
+        b = min(b, n)
+        if c >= _WORD and a == 0:
+            part = _miller_marked(c, a, b, w, labelled, n, low, high)
+        else:
+            coeffs = [fmpq(0)] * ((b + 1) * S)
+            for j in range(a, b + 1):
+                value = fmpq(int(mpz(w) ** j), int(gmpy2.fac(j)) if labelled else 1)
+                marked = low <= j and (high is None or j <= high)
+                coeffs[j * S + (1 if marked else 0)] = value
+            part = fmpq_poly(coeffs).pow_trunc(c, length)
+        total = part if total is None else total.mul_low(part, length)
+    coeffs = total.coeffs() if total is not None else [fmpq(1)]
+    scale = int(gmpy2.fac(n)) if labelled else 1
+    out = []
+    for u in range(n + 1):
+        i = n * S + u
+        q = coeffs[i] if i < len(coeffs) else fmpq(0)
+        value = q * scale
+        out.append(mpz(int(value.p)) if value != 0 else mpz(0))
+    return out
+
+
+def _miller_marked(c, a, b, w, labelled, n, low, high) -> fmpq_poly:
+    """``(sum_{j=0}^{b} y^{[j marked]} (w x)^j [/ j!])^c`` packed, by Miller's recurrence in ``Z[y]``.
+
+    Only reached for ``c >= 2^62`` urns, hence ``a = 0`` (more urns with a
+    lower bound would need more than ``n`` balls).
+    """
+    S = n + 1
+    N: List[fmpz_poly] = [fmpz_poly([1])]
+    ys = fmpz_poly([0, 1])
+    one = fmpz_poly([1])
+    c1 = c + 1
+    for k in range(1, n + 1):
+        acc = fmpz_poly([])
+        binom = mpz(1)
+        for j in range(1, min(k, b) + 1):
+            factor = (c1 * j - k)
+            if labelled:
+                binom = divexact(binom * (k - j + 1), j)
+                factor *= binom
+            marked = low <= j and (high is None or j <= high)
+            acc += int(factor) * (ys if marked else one) * N[k - j]
+        N.append(fmpz_poly([int(divexact(mpz(int(v)), k)) for v in acc.coeffs()]) if acc != 0 else fmpz_poly([]))
+    coeffs = [fmpq(0)] * ((n + 1) * S)
+    p = mpz(1)
+    fac = mpz(1)
+    for k in range(n + 1):
+        if k:
+            p *= w
+            fac *= k
+        for u, v in enumerate(N[k].coeffs()):
+            if v != 0:
+                coeffs[k * S + u] = fmpq(int(v) * int(p), int(fac) if labelled else 1)
+    return fmpq_poly(coeffs)
