@@ -208,6 +208,70 @@ def test_cache_verify_reports_and_fixes_a_wrong_value(where):
     assert run_json("count", "-n", 7, "-r", 4, "--rule", "BE", "--capacity", 3, "--store", where)["configurations"] == str(brute)
 
 
+def test_cache_verify_fix_recomputes_grouped_and_weighted_entries(where):
+    args = ("-n", 2, "--bounds", "2x0:2,1x1:", "--weights", "2x1,3", "--rule", "BE", "--store", where)
+    first = run_json("count", *args)
+    grouped = run_json("count", "-n", 3, "--bounds", "2x0:2,1x1:", "--rule", "MB", "--store", where)
+    with sqlite3.connect(where) as conn:
+        texts = {row[0] for row in conn.execute("SELECT DISTINCT bounds FROM enumerator_results")}
+        conn.execute("UPDATE enumerator_results SET value = '99'")
+    assert texts == {"2x0:2@1,1x1:@3", "2x0:2,1x1:"}
+    payload = run_json("cache", "verify", "--all", "--fix", "--store", where)
+    assert payload["fixed"] == str(len(payload["mismatches"])) and len(payload["mismatches"]) >= 3
+    assert run("cache", "verify", "--all", "--store", where).exit_code == 0
+    # brute force over the vectors with k_1, k_2 <= 2 and k_3 >= 1
+    vectors = {n: [k for k in itertools.product(range(3), range(3), range(n + 1)) if sum(k) == n and k[2] >= 1]
+               for n in (2, 3)}
+    # BE weights 1, 1, 3: the total weight is the sum of 3^k_3 over the vectors
+    assert run_json("count", *args) == first
+    assert first["configurations"] == str(len(vectors[2]))
+    assert first["microstates"] == str(sum(3 ** k[2] for k in vectors[2]))
+    again = run_json("count", "-n", 3, "--bounds", "2x0:2,1x1:", "--rule", "MB", "--store", where)
+    assert again == grouped and grouped["configurations"] == str(len(vectors[3]))
+    assert grouped["microstates"] == str(sum(math.factorial(3) // math.prod(map(math.factorial, k)) for k in vectors[3]))
+
+
+def test_a_schema_1_store_is_upgraded_by_the_cli_and_answers_from_it(tmp_path):
+    # a schema-1 file with one per-urn answer, keyed as schema 1 keyed it (its digest: the
+    # SHA-256 of the key fields joined by \x1f, commit f5be745), read back under the group text
+    import hashlib
+    import zlib
+
+    path = tmp_path / "old.sqlite"
+    old_text, planted = "0:2,0:2,1:", "7"  # a value no computation gives: it must come from the file
+    digest = hashlib.sha256("\x1f".join(("configurations", "BE", old_text, "", "1", "3")).encode()).hexdigest()
+    with sqlite3.connect(path) as conn:
+        conn.executescript(
+            "CREATE TABLE enumerator_meta (key VARCHAR(64) NOT NULL PRIMARY KEY, value TEXT NOT NULL);"
+            "CREATE TABLE enumerator_results (id INTEGER NOT NULL PRIMARY KEY, key_digest VARCHAR(64) NOT NULL UNIQUE,"
+            " quantity VARCHAR(64) NOT NULL, rule VARCHAR(8) NOT NULL, balls TEXT NOT NULL, urns BIGINT NOT NULL,"
+            " bounds TEXT NOT NULL, params TEXT NOT NULL, version INTEGER NOT NULL, kind VARCHAR(16) NOT NULL,"
+            " value TEXT NOT NULL, digits BIGINT NOT NULL, checksum BIGINT NOT NULL, method VARCHAR(200) NOT NULL,"
+            " elapsed_ns BIGINT NOT NULL, created_at DATETIME NOT NULL);"
+            "CREATE INDEX ix_enumerator_results_row ON enumerator_results (quantity, rule, urns, version);"
+            "CREATE TABLE enumerator_tables (id INTEGER NOT NULL PRIMARY KEY, name VARCHAR(200) NOT NULL UNIQUE,"
+            " quantity VARCHAR(64) NOT NULL, rule VARCHAR(8) NOT NULL, minimum BIGINT NOT NULL, capacity BIGINT,"
+            " balls_first BIGINT NOT NULL, balls_last BIGINT NOT NULL, urns_first BIGINT NOT NULL,"
+            " urns_last BIGINT NOT NULL, created_at DATETIME NOT NULL);"
+            "INSERT INTO enumerator_meta VALUES ('schema_version', '1');"
+        )
+        conn.execute(
+            "INSERT INTO enumerator_results VALUES (1, ?, 'configurations', 'BE', '3', 3, ?, '', 1, 'int', ?, 1, ?,"
+            " 'by hand', 0, '2026-01-01 00:00:00.000000')",
+            (digest, old_text, planted, zlib.crc32(planted.encode(), zlib.crc32(f"{digest}:int:".encode()))),
+        )
+    payload = run_json("count", "-n", 3, "--bounds", "0:2,0:2,1:", "--rule", "BE", "--store", path)
+    assert payload["configurations"] == planted  # served from the upgraded file, not recomputed
+    stats = run_json("cache", "stats", "--store", path)
+    assert stats["schema_version"] == "2" and stats["entries"] == "1"
+    # and verify finds the planted value wrong: 6 vectors (brute force)
+    brute = sum(1 for k in itertools.product(range(3), range(3), range(4)) if sum(k) == 3 and k[2] >= 1)
+    report = run_json("cache", "verify", "--all", "--fix", "--store", path)
+    assert report["mismatches"][0]["bounds"] == "2x0:2,1x1:" and report["mismatches"][0]["expected"] == str(brute)
+    assert run_json("count", "-n", 3, "--bounds", "0:2,0:2,1:", "--rule", "BE", "--store", path)["configurations"] == (
+        str(brute))
+
+
 def test_cache_clear_asks_for_yes_and_clears(where):
     run("count", "-n", 5, "-r", 3, "--store", where)
     assert "add --yes to confirm" in one_line_error(run("cache", "clear", "--store", where))
