@@ -14,6 +14,12 @@ Combinatorics*, 2009, ch. I–II):
   function is ``exp(r x)``, ``(exp(x) - 1)^r``, ...; ``n! [x^n]`` is the
   number of microstates (labelled products, Flajolet & Sedgewick §II.2).
 
+Weights and groups: a group of ``c`` urns of weight ``w`` contributes its
+window at ``w x`` raised to the power ``c`` — ``(sum_{k=a}^{b} (w x)^k)^c``
+(BE/FD) or ``(sum_{k=a}^{b} (w x)^k / k!)^c`` (MB) — so ``[x^n]`` (times ``n!``
+for MB) is the total weight of the configurations, the normaliser of the law.
+Nothing is expanded per urn: the function is a product over groups.
+
 A marking variable ``u`` attached to the urns whose occupancy lies in a
 chosen set gives the bivariate function whose ``[x^n u^j]`` counts the
 outcomes with exactly ``j`` marked urns (Flajolet & Sedgewick §III.2).
@@ -34,7 +40,8 @@ from __future__ import annotations
 
 import math
 from collections import Counter
-from typing import List, Optional, Tuple
+from fractions import Fraction
+from typing import List, Optional, Tuple, Union
 
 import gmpy2
 import sympy
@@ -42,9 +49,11 @@ from flint import fmpz_poly
 
 from ..core import series
 from ..core.errors import InvalidParameters
+from ..core.limits import check
 from ..core.model import UrnModel, as_count
 from ..core.rules import Rule
 from .expressions import extract_coefficients, parse_expression, plain_ints, symbol
+from .group_rows import combine, group_row, integer_weights, rows_cost
 from .vocabulary import REGISTRY, parse_statistic
 
 __all__ = [
@@ -101,13 +110,35 @@ def _window(rule: Rule, a: int, b: Optional[int], x) -> sympy.Expr:
     return _WINDOWS[rule.generating](a, b, x)
 
 
+def _weighted_groups(model: UrnModel):
+    """``((a, b, w), count)`` with equal bounds and weights merged, ordered by bounds then weight."""
+    merged: Counter = Counter()
+    for g in model.groups:
+        merged[(g.lower, g.upper, g.weight)] += g.count
+    return sorted(merged.items(), key=lambda item: (item[0][0], math.inf if item[0][1] is None else item[0][1],
+                                                    item[0][2]))
+
+
+def _scaled(x, weight: Fraction):
+    """``w x`` as SymPy (``x`` itself for weight 1)."""
+    return x if weight == 1 else sympy.Rational(weight.numerator, weight.denominator) * x
+
+
 def generating_function(model: UrnModel, var="x") -> sympy.Expr:
     r"""Return the model's generating function as a SymPy expression in *var*.
 
     Ordinary for BE and FD (``[x^n]`` counts configurations), exponential for
     MB (``n! [x^n]`` counts microstates); see :func:`kind`.  Urns with equal
-    bounds are grouped into one power; the number of balls of *model* plays
-    no part (the function covers every ``n``).
+    bounds and weights are grouped into one power, whatever their number; a
+    group of weight ``w`` has its window at ``w x``, so ``[x^n]`` is then the
+    total weight (the normaliser).  The number of balls of *model* plays no
+    part (the function covers every ``n``).
+
+    Notes
+    -----
+    A product over the ``G`` groups (Flajolet & Sedgewick, *Analytic
+    Combinatorics*, 2009, ch. I–II): ``O(G)`` SymPy nodes (``O(G (b - a))``
+    for bounded MB windows), never one per urn.
 
     >>> generating_function(UrnModel(balls=3, urns=4, rule="BE"))
     (1 - x)**(-4)
@@ -115,16 +146,25 @@ def generating_function(model: UrnModel, var="x") -> sympy.Expr:
     (x + 1)**4
     >>> generating_function(UrnModel(balls=3, urns=4, rule="MB", minimum=1))
     (exp(x) - 1)**4
+    >>> generating_function(UrnModel(balls=2, groups=[(2**64, 0, None, 1), (1, 0, None, 3)], rule="BE"))
+    1/((1 - 3*x)*(1 - x)**18446744073709551616)
     """
     x = symbol(var)
-    groups = Counter(model.bounds)
-    factors = [_window(model.rule, a, b, x) ** e for (a, b), e in sorted(groups.items(), key=_bound_key)]
+    _check_windows(model)
+    factors = [_window(model.rule, a, b, _scaled(x, w)) ** e for (a, b, w), e in _weighted_groups(model)]
     return sympy.Mul(*factors)
 
 
-def _bound_key(item):
-    (a, b), _ = item
-    return (a, math.inf if b is None else b)
+def _check_windows(model: UrnModel) -> None:
+    """Refuse bounded MB windows whose SymPy sums would hold too many terms (``b - a`` per group)."""
+    if model.rule.generating != "exponential":
+        return
+    terms = sum((g.upper - g.lower + 1) if g.upper is not None else g.lower for g in model.groups)
+    if terms > 100_000:
+        raise InvalidParameters(
+            f"the exponential windows of this model hold {terms:,} terms in all, too many to write "
+            "symbolically; use coefficient_row for its numbers",
+        )
 
 
 def parse_mark(mark) -> Tuple[str, int]:
@@ -178,7 +218,8 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
     :func:`parse_mark`), so ``[x^n u^j]`` (times ``n!`` for MB) counts the
     outcomes of ``n`` balls with exactly ``j`` marked urns (Flajolet &
     Sedgewick, *Analytic Combinatorics*, 2009, §III.2).  Setting ``u = 1``
-    gives back :func:`generating_function`.
+    gives back :func:`generating_function`.  Groups and weights as there:
+    one factor per group of equal urns, windows at ``w x``.
 
     >>> bivariate_generating_function(UrnModel(balls=3, urns=2, rule="BE"), "empty")
     (u - 1 + 1/(1 - x))**2
@@ -188,16 +229,18 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
     if u == x:
         raise InvalidParameters("the marker and the variable must be different names (say u and x)")
     how, j = parse_mark(mark)
+    _check_windows(model)
     factors = []
-    for (a, b), e in sorted(Counter(model.bounds).items(), key=_bound_key):
-        whole = _window(model.rule, a, b, x)
+    for (a, b, w), e in _weighted_groups(model):
+        wx = _scaled(x, w)
+        whole = _window(model.rule, a, b, wx)
         if how == "exactly":
             if j < a or (b is not None and j > b):
                 factor = whole
             else:
                 exponential = model.rule.generating == "exponential"
                 weight = sympy.Rational(1, math.factorial(j)) if exponential else sympy.Integer(1)
-                factor = whole + (u - 1) * weight * x**j
+                factor = whole + (u - 1) * weight * wx**j
         else:
             low = max(a, j)
             if b is not None and low > b:
@@ -205,7 +248,7 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
             elif low == a:
                 factor = u * whole
             else:
-                factor = _window(model.rule, a, low - 1, x) + u * _window(model.rule, low, b, x)
+                factor = _window(model.rule, a, low - 1, wx) + u * _window(model.rule, low, b, wx)
         factors.append(factor**e)
     return sympy.Mul(*factors)
 
@@ -214,19 +257,19 @@ def bivariate_generating_function(model: UrnModel, mark="empty", var="x", marker
 # coefficient rows of a model
 # ---------------------------------------------------------------------------
 
-def _ordinary_row(bounds, top: int) -> List[int]:
-    """``[x^m] prod_i (x^{a_i} + ... + x^{b_i})`` for ``m = 0..top``."""
-    low = sum(a for a, _ in bounds)
+def _ordinary_row(groups, top: int) -> List[int]:
+    """``[x^m] prod_g (x^{a_g} + ... + x^{b_g})^{c_g}`` for ``m = 0..top``; *groups* are ``(c, a, b)``."""
+    low = sum(c * a for c, a, _ in groups)
     span_top = top - low
     if span_top < 0:
         return [0] * (top + 1)
     unbounded = 0
     spans: Counter = Counter()
-    for a, b in bounds:
+    for c, a, b in groups:
         if b is None or b - a >= span_top:
-            unbounded += 1  # a window reaching past the truncation acts as 1/(1-x)
+            unbounded += c  # a window reaching past the truncation acts as 1/(1-x)
         elif b > a:
-            spans[b - a] += 1
+            spans[b - a] += c
     groups = sorted(spans.items())
     if not groups:
         values = series.binomial_row(unbounded, span_top) if unbounded else [1] + [0] * span_top
@@ -241,8 +284,8 @@ def _ordinary_row(bounds, top: int) -> List[int]:
     return [0] * low + plain_ints(values)
 
 
-def _exponential_row(bounds, top: int) -> List[int]:
-    """``m! [x^m] prod_i sum_{k=a_i}^{b_i} x^k / k!`` for ``m = 0..top``.
+def _exponential_row(groups, top: int) -> List[int]:
+    """``m! [x^m] prod_g (sum_{k=a_g}^{b_g} x^k / k!)^{c_g}`` for ``m = 0..top``; *groups* are ``(c, a, b)``.
 
     Every factor is held as ``top! * Q_i(x)`` (``Q_i`` the window divided by
     ``x^{a_i}``), an integer polynomial because ``a_i + k <= top``; products
@@ -250,29 +293,30 @@ def _exponential_row(bounds, top: int) -> List[int]:
     (:func:`enumerator.series.scaled_power`), so coefficients stay the size of
     the counts.
     """
-    r = len(bounds)
-    if all(a == 0 and (b is None or b >= top) for a, b in bounds):
+    r = sum(c for c, _, _ in groups)
+    if all(a == 0 and (b is None or b >= top) for _, a, b in groups):
         out, value = [], 1
         for _ in range(top + 1):
             out.append(value)
             value *= r
         return out
-    low = sum(a for a, _ in bounds)
+    low = sum(c * a for c, a, _ in groups)
     span_top = top - low
     if span_top < 0:
         return [0] * (top + 1)
     fac = gmpy2.fac
     scale = fac(top)
     constant = mpz(1)
-    groups: Counter = Counter()
-    for a, b in bounds:
+    merged: Counter = Counter()
+    for c, a, b in groups:
         high = a + span_top if b is None else min(b, a + span_top)
         if high == a:
-            constant *= fac(a)  # the factor x^a / a! only rescales
+            if a:
+                constant *= fac(a) ** c  # the factor (x^a / a!)^c only rescales (c <= top / a)
         else:
-            groups[(a, high)] += 1
+            merged[(a, high)] += c
     factors = []
-    for (a, high), e in sorted(groups.items()):
+    for (a, high), e in sorted(merged.items()):
         window = fmpz_poly([int(scale // fac(a + k)) for k in range(high - a + 1)])
         factors.append(series.scaled_power(window, e, span_top, scale))
     product = series.scaled_product(factors, span_top, scale)
@@ -290,32 +334,79 @@ def _exponential_row(bounds, top: int) -> List[int]:
     return out
 
 
-def coefficient_row(model: UrnModel, upto=None, count: Optional[str] = None) -> List[int]:
+def coefficient_row(model: UrnModel, upto=None, count: Optional[str] = None) -> List[Union[int, Fraction]]:
     r"""Return the model's counts for every number of balls ``m = 0..upto``, in one pass.
 
-    *count* is ``"configurations"`` (the ordinary coefficients) or
-    ``"microstates"`` (``m!`` times the exponential ones, MB); the default is
-    microstates for MB and configurations for BE/FD, the two being equal
-    for BE/FD.  *upto* defaults to the model's number of balls.  Entry ``m``
-    equals ``model.with_balls(m).configurations()`` (or ``.microstates()``).
+    *count* is ``"configurations"`` (the ordinary coefficients, weights
+    ignored) or ``"microstates"`` (the total weight: ``m!`` times the
+    exponential coefficients for MB, the ordinary weighted ones for BE/FD);
+    the default is microstates for MB and for weighted models, else
+    configurations, the two being equal for unweighted BE/FD.  *upto*
+    defaults to the model's number of balls.  Entry ``m`` equals
+    ``model.with_balls(m).configurations()`` (or ``.microstates()``).
 
-    Algorithms: the binomial row ``C(m + r - 1, r - 1)`` without upper
-    bounds; one window power by the three-term recurrence of
-    :func:`enumerator.series.window_power_row` for uniform capacities
+    Returns
+    -------
+    list of int, or list of Fraction
+        Python ``int`` when every entry is an integer (always without
+        weights), else ``fractions.Fraction`` for all of them.
+
+    Raises
+    ------
+    TooLarge
+        When the rows would exceed the active limits (checked first, from
+        ``upto``, the number of groups and the digits of the counts).
+
+    Notes
+    -----
+    By groups, never per urn: the binomial row ``C(m + r - 1, r - 1)``
+    without upper bounds; one window power by the three-term recurrence of
+    :func:`enumerator.core.series.window_power_row` for uniform capacities
     (``O(N)`` big operations); a FLINT product of window powers for mixed
     bounds; for MB, exponential windows scaled by ``N!`` multiplied with
-    one exact division after each product.
+    one exact division after each product, or Miller's recurrence
+    (:mod:`enumerator.algorithms.group_rows`) for groups of ``2^32`` urns
+    or more.  Weights ``w_g = W_g / D`` (integers ``W_g``): each group's row
+    is multiplied by ``W_g^m``, the groups combined (products, binomial
+    convolutions for MB), and entry ``m`` divided by ``D^m``.  Cost
+    ``O(G)`` products of ``N + 1`` coefficients
+    (:func:`enumerator.algorithms.group_rows.rows_cost`).
 
     >>> coefficient_row(UrnModel(balls=6, urns=3, rule="BE", capacity=2))
     [1, 3, 6, 7, 6, 3, 1]
     >>> coefficient_row(UrnModel(balls=4, urns=2, rule="MB", minimum=1))
     [0, 0, 2, 6, 14]
+    >>> coefficient_row(UrnModel(balls=2, weights=[1, 2], rule="BE"))
+    [1, 3, 7]
     """
     top = model.balls if upto is None else as_count(upto, "upto")
     if count is None:
-        count = model.rule.description.outcomes
+        count = "microstates" if model.weighted else model.rule.description.outcomes
     if count not in ("configurations", "microstates"):
-        raise InvalidParameters(f"count must be 'configurations' or 'microstates' (got {count!r})")
-    if model.rule.generating == "exponential" and count == "microstates":
-        return _exponential_row(model.bounds, top)
-    return _ordinary_row(model.bounds, top)
+        raise InvalidParameters(f"count must be 'configurations' or 'microstates' (got {count!r})",
+                                parameters=["count"])
+    kind = "exponential" if model.rule.generating == "exponential" and count == "microstates" else "ordinary"
+    weighted = model.weighted and count == "microstates"
+    ints, d = integer_weights([g.weight for g in model.groups]) if weighted else ([1] * len(model.groups), 1)
+    spec = [(g.count, g.lower, g.upper, w) for g, w in zip(model.groups, ints)]
+    check(rows_cost(kind, spec, top, rows=1), f"the coefficient row up to {top:,} balls",
+          advice="lower upto=", parameters=["upto"])
+    groups = [(c, a, b) for c, a, b, _ in spec]
+    if not weighted:
+        if kind == "ordinary":
+            return _ordinary_row(groups, top)
+        if all(c < 2**32 for c, _, _ in groups):
+            return _exponential_row(groups, top)
+    row = None
+    for c, a, b, w in spec:
+        here = group_row(kind, c, a, b, top, w)
+        row = here if row is None else combine(kind, row, here, top)
+    if d == 1:
+        return [int(v) for v in row]
+    out, power = [], 1
+    for v in row:
+        out.append(Fraction(int(v), power))
+        power *= d
+    if all(v.denominator == 1 for v in out):
+        return [int(v) for v in out]
+    return out

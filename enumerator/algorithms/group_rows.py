@@ -118,8 +118,9 @@ def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int
             out.append(value)
             value *= count
         return _scale_by_powers(out, weight)
-    if lower == 0:
-        # Miller's recurrence on M_k = k! [x^k] f^c with f = sum_{i<=s} x^i/i!.
+    if lower == 0 and (count >= 2**32 or upper <= 16):
+        # Miller's recurrence on M_k = k! [x^k] f^c with f = sum_{i<=s} x^i/i!:
+        # O(top * s) steps whatever c (binary powering costs log2 c products).
         s = upper
         c1 = count + 1
         out = [mpz(1)] + [mpz(0)] * top
@@ -131,8 +132,9 @@ def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int
                 total += (c1 * i - k) * binom * out[k - i]
             out[k] = gmpy2.divexact(total, k)
         return _scale_by_powers(out, weight)
-    # A lower bound: count <= top / lower urns, so a truncated power of the
-    # window scaled by top! (exact divisions after each product).
+    # Fewer than 2^32 urns (any with a lower bound: count <= top / lower): a
+    # truncated binary power of the window scaled by top! (exact divisions
+    # after each product), O(M(top) log c).
     fac = gmpy2.fac
     scale = fac(top)
     high = span_top if upper is None else min(upper - lower, span_top)
@@ -209,11 +211,18 @@ def suffix_rows(kind: str, groups: Sequence[Tuple[int, int, Optional[int], int]]
 def row_bits(kind: str, urns: int, top: int, weight_bits: int = 0) -> int:
     """An upper bound on the bits of any entry of a row of *urns* urns up to *top* balls.
 
-    ``C(m + r - 1, m) <= (m + r)^m`` and ``r^m`` bound the ordinary and
-    exponential counts, and each weight adds at most *weight_bits* per ball.
+    Ordinary: ``log2 C(top + r, top)`` (by ``lgamma`` while ``r`` is below
+    ``2^60``, else ``top log2(top + r)``); exponential: ``top log2 r``; each
+    weight adds at most *weight_bits* per ball.
     """
-    per_ball = (urns + top).bit_length() + weight_bits + 1
-    return max(64, top * per_ball)
+    if kind == "exponential":
+        base = top * max(1, urns.bit_length())
+    elif urns < 2**60:
+        nats = math.lgamma(top + urns + 1) - math.lgamma(top + 1) - math.lgamma(urns + 1)
+        base = int(nats / math.log(2)) + 1
+    else:
+        base = top * (urns + top).bit_length()
+    return max(64, base + top * weight_bits)
 
 
 def rows_cost(kind: str, groups: Sequence[Tuple[int, int, Optional[int], int]], top: int, rows: int = 0) -> Cost:
@@ -230,7 +239,8 @@ def rows_cost(kind: str, groups: Sequence[Tuple[int, int, Optional[int], int]], 
     steps = 0
     for _count, lower, upper, _ in groups:
         span = top if upper is None else min(top, upper - lower)
-        steps += (top + 1) * (max(1, span) if kind == "exponential" and lower == 0 and span < top else 1)
+        miller = kind == "exponential" and lower == 0 and span < top and (_count >= 2**32 or span <= 16)
+        steps += (top + 1) * (max(1, span) if miller else max(1, _count.bit_length() if span < top else 1))
     seconds = (steps / STEPS_PER_SECOND) * max(1.0, bits / 640.0)
     seconds += len(groups) * product_seconds(bits * (top + 1))
     return Cost(seconds=seconds, memory=entries * bigint_bytes(bits))
