@@ -328,3 +328,101 @@ def test_evaluate_event_on_vectors():
 def test_model_without_configurations_has_no_event_probability():
     with pytest.raises(InvalidParameters, match="admits no configuration"):
         event_probability(Occupancy(balls=5, urns=2, rule="FD"), "max <= 1")
+
+
+# ---------------------------------------------------------------- weights and groups, any number of urns
+
+def brute_weighted(model, holds) -> Fraction:
+    """P(event) with every vector weighed by the rule and by prod w_i^k_i (slow reference)."""
+    total = hit = Fraction(0)
+    for k in box(model):
+        w = Fraction(weight(model, k))
+        for wi, v in zip(model.weights, k):
+            w *= wi ** v
+        total += w
+        if holds(k):
+            hit += w
+    return hit / total
+
+
+@st.composite
+def weighted_model_and_event(draw):
+    model, tree = draw(model_and_event())
+    weights = [draw(st.sampled_from([1, 2, 3, Fraction(1, 2)])) for _ in range(model.urns)]
+    return model.with_groups([(1, a, b, w) for (a, b), w in zip(model.bounds, weights)]), tree
+
+
+@settings(max_examples=150, deadline=None)
+@given(weighted_model_and_event())
+def test_weighted_event_probability_matches_brute_force(pair):
+    model, tree = pair
+    assert event_probability(model, tree.text()) == brute_weighted(model, tree.truth)
+
+
+@settings(max_examples=40, deadline=None)
+@given(weighted_model_and_event())
+def test_weighted_listing_agrees_with_the_planner(pair):
+    model, tree = pair
+    node = parse_event(tree.text())
+    count, _ = event_count(model, node)
+    assert events._enumerate(model, node, tree.text(), 10 ** 6, False) == count
+
+
+@pytest.mark.parametrize("text", ["max <= 1", "k2 >= 1", "k4 == 0 and max <= 2", "min >= 1", "empty == 2",
+                                  "count(>= 2) <= 1", "not k1 == 1 or k5 >= 2"])
+def test_an_event_on_groups_equals_the_event_per_urn(text):
+    grouped = Occupancy(balls=5, bounds="3x0:2,2x0:", weights="3x2,2x1/3", rule="MB")
+    per_urn = Occupancy(balls=5, bounds=[(0, 2)] * 3 + [(0, None)] * 2,
+                        weights=[2, 2, 2, Fraction(1, 3), Fraction(1, 3)], rule="MB")
+    node = parse_event(text)
+    expected = brute_weighted(per_urn, lambda k: evaluate_event(node, k))
+    assert event_probability(grouped, text) == event_probability(per_urn, text) == expected
+
+
+def test_no_collision_among_a_quarter_billion_buckets():
+    # P(no collision) = r^(n) / r^n, the birthday product (Feller, vol. 1, II.3)
+    n, r = 10, 268435456
+    expected = Fraction(1)
+    for i in range(n):
+        expected *= Fraction(r - i, r)
+    assert event_probability(Occupancy(balls=n, urns=r, rule="MB"), "max <= 1") == expected
+
+
+def test_one_urn_of_many_balls_by_its_law():
+    # k1 ~ Binomial(n, 1/3): P(k1 >= 1) = 1 - (2/3)^n, P(k1 == j) = C(n, j) 2^(n-j) / 3^n
+    n = 100000
+    model = Occupancy(balls=n, urns=3, rule="MB")
+    assert event_probability(model, "k1 >= 1") == 1 - Fraction(2, 3) ** n
+    assert event_probability(model, "k1 == 33333") == Fraction(math.comb(n, 33333) * 2 ** (n - 33333), 3 ** n)
+
+
+def test_huge_urn_numbers_are_addressed_without_lists():
+    # 2^64 urns of weight 1 and one of weight 2^64: the heavy urn gets half the balls on average
+    r = 2 ** 64
+    model = Occupancy(balls=6, weights=f"{r}x1,{r}", rule="MB")
+    p = Fraction(1, 2)
+    assert event_probability(model, f"k{r + 1} == 3") == math.comb(6, 3) * p ** 6
+    assert event_probability(model, "k1 >= 1") == 1 - Fraction(2 * r - 1, 2 * r) ** 6
+
+
+def test_a_listing_beyond_the_limits_is_refused_before_it_starts():
+    from enumerator.core.limits import limited
+
+    model = Occupancy(balls=7, urns=4, rule="MB")
+    with limited(seconds=1e-6), pytest.raises(TooLarge, match="listing the 120 configurations of 4 urns"):
+        event_probability(model, "empty == 1 and count(== 2) == 1")
+
+
+def test_nesting_is_bounded():
+    assert event_probability(Occupancy(balls=2, urns=2), "(" * 100 + "max <= 1" + ")" * 100) == Fraction(1, 2)
+    for text in ("(" * 400 + "max <= 1" + ")" * 400, "not " * 1000 + "max <= 1"):
+        with pytest.raises(InvalidParameters, match="more than 100 deep"):
+            parse_event(text)
+
+
+def test_long_numbers_are_refused_before_conversion():
+    for text in ("max <= " + "9" * 5000, "k" + "1" * 5000 + " >= 1"):
+        with pytest.raises(InvalidParameters, match="limited to 4,000 digits"):
+            parse_event(text)
+    with pytest.raises(InvalidParameters, match="whole numbers, found '1e5'"):
+        parse_event("max <= 1e5")

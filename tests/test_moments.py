@@ -122,3 +122,98 @@ def test_unsupported_models_and_bad_statistics_say_what_to_do():
 def test_work_beyond_the_limits_is_refused_before_it_starts():
     with pytest.raises(TooLarge, match="exact products"):
         counting_moments(10**12, "MB", [UrnGroup(2**64)], "empty")
+
+
+# ---------------------------------------------------------------- statistic_moments: every numeric statistic, any model
+
+def _brute_any(model, statistic):
+    """Mean and variance of any registry statistic by listing the box with weights (slow reference)."""
+    from reference import box, weight
+
+    from enumerator.algorithms.statistics import parse_statistic
+
+    stat = parse_statistic(statistic)
+    total = first = second = Fraction(0)
+    for k in box(model):
+        w = Fraction(weight(model, k))
+        for wi, v in zip(model.weights, k):
+            w *= wi ** v
+        v = stat.value(k)
+        total += w
+        first += w * v
+        second += w * v * v
+    mean = first / total
+    return mean, second / total - mean * mean
+
+
+@st.composite
+def bounded_weighted_models(draw):
+    from reference import box
+
+    from enumerator import Occupancy
+
+    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
+    r = draw(st.integers(1, 4))
+    n = draw(st.integers(0, 6))
+    bounds = []
+    for _ in range(r):
+        if rule == "FD":
+            bounds.append((draw(st.sampled_from([0, 0, 1])), 1))
+        else:
+            a = draw(st.integers(0, 1))
+            bounds.append((a, draw(st.sampled_from([None, a + 1, a + 3]))))
+    ws = [draw(st.sampled_from([1, 2, Fraction(1, 2), 3])) for _ in range(r)]
+    model = Occupancy(balls=n, bounds=bounds, weights=ws, rule=rule)
+    if not any(True for _ in box(model)):
+        model = Occupancy(balls=n, urns=r, weights=ws, rule="BE")
+    return model
+
+
+ANY = ["empty", "occupied", "exactly:0", "exactly:1", "exactly:2", "atleast:1", "atleast:2", "max", "min", "urn:1"]
+
+
+@settings(max_examples=150, deadline=None)
+@given(bounded_weighted_models(), st.sampled_from(ANY))
+def test_statistic_moments_match_brute_force_on_bounded_weighted_models(model, statistic):
+    from enumerator.algorithms.statistics import statistic_moments
+
+    got = statistic_moments(model, statistic)
+    assert isinstance(got.mean, Fraction) and isinstance(got.variance, Fraction)
+    assert (got.mean, got.variance) == _brute_any(model, statistic)
+
+
+def test_statistic_moments_of_bounded_urns_at_any_number_of_urns():
+    # 2^64 urns holding at most 1 ball (FD-like under MB), n = 5: every vector is a set of 5 urns
+    # hit by 5! assignments, so occupied is always 5 and empty always r - 5.
+    from enumerator import Occupancy
+    from enumerator.algorithms.statistics import statistic_moments
+
+    r = 2 ** 64
+    model = Occupancy(balls=5, urns=r, capacity=1, rule="MB")
+    got = statistic_moments(model, "empty")
+    assert (got.mean, got.variance) == (r - 5, 0)
+    # capacity 2, n = 3: P(some urn holds 2) = 1 - r^(3) / (r^3 - r): exactly:2 is 0 or 1
+    model = Occupancy(balls=3, urns=r, capacity=2, rule="MB")
+    p = 1 - Fraction(r * (r - 1) * (r - 2), r ** 3 - r)
+    got = statistic_moments(model, "exactly:2")
+    assert (got.mean, got.variance) == (p, p * (1 - p))
+
+
+def test_statistic_moments_agree_with_the_closed_moments_and_the_law():
+    # the closed binomial-moment route and the law give the same numbers on a model both can answer
+    from enumerator import Occupancy
+    from enumerator.algorithms.statistics import distribution, statistic_moments
+
+    model = Occupancy(balls=7, weights="2x3,3x1", rule="MB")
+    for statistic in ("empty", "occupied", "exactly:2", "atleast:2"):
+        law = distribution(model, statistic)
+        got = statistic_moments(model, statistic)
+        assert (got.mean, got.variance) == (law.mean, law.variance)
+
+
+def test_profile_has_no_moments():
+    from enumerator import Occupancy
+    from enumerator.algorithms.statistics import statistic_moments
+
+    with pytest.raises(InvalidParameters, match="no mean or variance"):
+        statistic_moments(Occupancy(balls=3, urns=2), "profile")

@@ -54,9 +54,11 @@ from typing import Dict, List, Optional, Sequence, Tuple
 
 import gmpy2
 
+from ..core import limits
 from ..core.errors import InvalidParameters, TooLarge, Unsupported
 from ..core.exact import coprime_fraction
 from ..core.groups import UrnGroup, total_urns
+from ..core.limits import Cost
 from ..core.rules import Rule
 
 __all__ = ["COUNTING_STATISTICS", "Moments", "counting_moments", "moments_cost"]
@@ -155,7 +157,9 @@ def counting_moments(balls: int, rule, groups: Sequence[UrnGroup], statistic: st
         For a model outside the laws above (bounds, or weights under BE/FD):
         answer it from the statistic's law instead.
     TooLarge
-        When the estimate of :func:`moments_cost` is beyond the limits.
+        When the estimate of :func:`moments_cost` is beyond :data:`MAX_TERMS`
+        or :data:`MAX_BITS`, or its time and memory beyond the active limits
+        (:func:`~enumerator.core.limits.check`).
 
     Examples
     --------
@@ -191,6 +195,11 @@ def counting_moments(balls: int, rule, groups: Sequence[UrnGroup], statistic: st
             f"the moments of {name} would need {cost['terms']:,} exact products of up to "
             f"{cost['bits']:,} bits; use fewer groups or a smaller statistic argument"
         )
+    # each term is a few products of numbers of up to `bits` bits; a handful of them live at once
+    limits.check(Cost(seconds=4 * cost["terms"] * limits.product_seconds(cost["bits"]),
+                      memory=8 * limits.bigint_bytes(cost["bits"])),
+                 f"the moments of {name} ({cost['terms']:,} exact products of up to {cost['bits']:,} bits)",
+                 advice="use fewer balls, fewer groups or a smaller statistic argument")
     t = tuple(j for j in t if j <= n)
     r = total_urns(groups)
     if rule_ is Rule.MB:
