@@ -314,3 +314,191 @@ def test_cli_sample_errors_come_before_output():
     assert "admits no configuration" in result.stderr
     result = runner.invoke(app, ["sample", "-n", "7", "-r", "2", "--method", "subset"])
     assert result.exit_code == 2 and "does not apply" in result.stderr
+
+
+# ---------------------------------------------------------------------------
+# groups and weights: exact laws with weights, sparse draws at any number of urns
+# ---------------------------------------------------------------------------
+
+from enumerator.algorithms.sampling import dense_sample_cost, iter_sample_sparse  # noqa: E402
+from enumerator.algorithms.sampling_groups import GroupSampler, uniform_below  # noqa: E402
+from enumerator.core.limits import limited  # noqa: E402
+from enumerator.core.model import UrnModel  # noqa: E402
+
+
+def weighted_law(model):
+    """{k: exact probability} by brute force over the box, with weights (slow reference).
+
+    MB: ``n!/prod k_i! prod w_i^{k_i}`` (each ball in urn i with probability
+    w_i/W, conditioned on the bounds); BE/FD: ``prod w_i^{k_i}``.
+    """
+    ws = model.weights
+    law = {}
+    for k in reference.box(model):
+        w = Fraction(reference.multinomial(k) if model.rule.value == "MB" else 1)
+        for v, wi in zip(k, ws):
+            w *= wi**v
+        law[k] = w
+    total = sum(law.values())
+    return {k: v / total for k, v in law.items()}
+
+
+def weighted_p(model, rows):
+    law = weighted_law(model)
+    counts = Counter(rows)
+    assert set(counts) <= set(law), "a sampled vector is not admissible"
+    keys = sorted(law)
+    return chisquare([counts[k] for k in keys], [float(law[k] * len(rows)) for k in keys]).pvalue
+
+
+def dense(draw, r):
+    row = [0] * r
+    for urn, k in draw:
+        row[urn - 1] = k
+    return tuple(row)
+
+
+WEIGHTED = [
+    Occupancy(balls=4, weights=[1, 2, 3], rule="MB"),
+    Occupancy(balls=5, groups=[(2, 0, None, Fraction(1, 2)), (1, 0, 2, 3)], rule="MB"),
+    Occupancy(balls=5, groups=[(2, 1, 3, 1), (2, 0, 2, Fraction(5, 2))], rule="MB"),
+    Occupancy(balls=4, weights=[1, 2, 3], rule="BE"),
+    Occupancy(balls=5, groups=[(2, 0, None, Fraction(1, 2)), (2, 0, 2, 3)], rule="BE"),
+    Occupancy(balls=2, groups=[(2, 0, 1, Fraction(1, 3)), (2, 0, 1, 2)], rule="FD"),
+]
+
+
+@pytest.mark.parametrize("model", WEIGHTED, ids=repr)
+def test_weighted_samples_follow_the_exact_law(model):
+    assert sampling_method(model) == "groups"
+    rows = sample(model, 6000, seed=11)
+    assert weighted_p(model, rows) > P_MIN
+
+
+@pytest.mark.parametrize("model", [
+    Occupancy(balls=6, urns=4, rule="BE", capacity=2),  # halving inside the group (capacity bites)
+    Occupancy(balls=7, urns=3, rule="MB", minimum=1, capacity=4),  # halving with a lower bound
+    Occupancy(balls=5, urns=5, rule="MB", capacity=2),
+    Occupancy(balls=3, urns=6, rule="FD"),  # Floyd subsets
+    Occupancy(balls=4, urns=3, rule="BE"),  # Floyd stars and bars
+], ids=repr)
+def test_the_group_method_follows_the_unweighted_law_too(model):
+    rows = sample(model, 6000, seed=5, method="groups")
+    assert chi_square_p(model, rows) > P_MIN
+
+
+def test_sparse_draws_are_the_dense_rows_of_the_group_method():
+    model = Occupancy(balls=5, groups=[(2, 0, None, Fraction(1, 2)), (2, 0, 2, 3)], rule="BE")
+    sparse = list(iter_sample_sparse(model, 300, seed=3))
+    rows = sample(model, 300, seed=3)
+    assert [dense(d, model.urns) for d in sparse] == rows
+    assert sample(model, 300, seed=3, sparse=True) == sparse
+    for d in sparse:
+        urns = [u for u, _ in d]
+        assert urns == sorted(set(urns)) and all(k > 0 for _, k in d)
+
+
+def test_a_model_given_per_urn_and_in_groups_samples_alike():
+    per_urn = Occupancy(balls=4, weights=[1, 1, 3, 3, 3], bounds=[(0, 2)] * 5, rule="MB")
+    grouped = Occupancy(balls=4, groups=[(2, 0, 2, 1), (3, 0, 2, 3)], rule="MB")
+    assert sample(per_urn, 200, seed=9) == sample(grouped, 200, seed=9)
+    assert weighted_p(grouped, sample(grouped, 4000, seed=2)) > P_MIN
+
+
+def test_mb_weights_are_urn_probabilities_at_any_number_of_urns():
+    # One urn of weight 2^64 beside 2^64 urns of weight 1: each ball lands in it
+    # with probability exactly 1/2, so its count is Binomial(n, 1/2) (SciPy binom).
+    r = 2**64
+    n = 6
+    model = UrnModel(balls=n, groups=[(1, 0, None, r), (r, 0, None, 1)], rule="MB")
+    draws = list(iter_sample_sparse(model, 4000, seed=1))
+    first = Counter(dict(d).get(1, 0) for d in draws)
+    observed = [first[j] for j in range(n + 1)]
+    expected = [binom.pmf(j, n, 0.5) * len(draws) for j in range(n + 1)]
+    assert chisquare(observed, expected).pvalue > P_MIN
+    for d in draws:
+        assert sum(k for _, k in d) == n and all(1 <= u <= r + 1 for u, _ in d)
+
+
+def test_be_at_2_to_the_64_urns_marginal_of_one_urn():
+    # BE, one urn of weight 1 followed by a group of 2^64 - 1 urns of capacity 1
+    # and weight 1: P(urn 1 holds j) = C(r - 1, n - j) / sum_i C(r - 1, n - i)
+    # (counting vectors; exact, math.comb).
+    r1 = 2**64 - 1
+    n = 3
+    model = UrnModel(balls=n, groups=[(1, 0, None, 1), (r1, 0, 1, 1)], rule="BE")
+    weights = [comb(r1, n - j) for j in range(n + 1)]
+    # the law is all but concentrated on j = 0: check support and the exact draws
+    draws = list(iter_sample_sparse(model, 200, seed=4))
+    assert all(max(k for u, k in d if u > 1) <= 1 for d in draws if any(u > 1 for u, _ in d))
+    assert Fraction(weights[0], sum(weights)) > 1 - Fraction(1, 2**60)
+    assert all(dict(d).get(1, 0) == 0 for d in draws)
+    # a weight that makes urn 1 likely: weight 2^64 for it, 1 for the others
+    heavy = UrnModel(balls=n, groups=[(1, 0, None, 2**64), (r1, 0, 1, 1)], rule="BE")
+    law = [Fraction(2**64) ** j * comb(r1, n - j) for j in range(n + 1)]
+    total = sum(law)
+    draws = list(iter_sample_sparse(heavy, 4000, seed=8))
+    seen = Counter(dict(d).get(1, 0) for d in draws)
+    observed = [seen[j] for j in range(n + 1)]
+    expected = [float(w / total) * len(draws) for w in law]
+    keep = [i for i, e in enumerate(expected) if e > 1e-9]
+    assert sum(observed[i] for i in keep) == len(draws)
+    assert chisquare([observed[i] for i in keep], [expected[i] for i in keep]).pvalue > P_MIN
+
+
+def test_sparse_draws_with_a_capacity_at_huge_r_halve_exactly():
+    # 2^64 urns of capacity 2 holding 5 balls, BE: the profile law (how many urns
+    # hold 2) is exact counting: P(t doubles) ∝ C(r, t) C(r - t, 5 - 2t).
+    r = 2**64
+    n = 5
+    model = UrnModel(balls=n, urns=r, rule="BE", capacity=2)
+    draws = list(iter_sample_sparse(model, 300, seed=6))
+    for d in draws:
+        assert sum(k for _, k in d) == n and all(1 <= k <= 2 for _, k in d) and all(1 <= u <= r for u, _ in d)
+    law = {t: comb(r, t) * comb(r - t, n - 2 * t) for t in range(n // 2 + 1)}
+    total = sum(law.values())
+    assert Fraction(law[0], total) > 1 - Fraction(1, 2**55)
+    assert all(sum(1 for _, k in d if k == 2) == 0 for d in draws)
+
+
+def test_uniform_below_is_exact_for_big_bounds():
+    rng = np.random.default_rng(12)
+    bound = 3 * 2**70
+    values = [uniform_below(rng, bound) for _ in range(6000)]
+    assert all(0 <= v < bound for v in values)
+    # residues mod 3 and the top two bits (each third of [0, bound) is 2^70 wide)
+    assert chisquare(list(Counter(v % 3 for v in values).values())).pvalue > P_MIN
+    assert chisquare([sum(1 for v in values if v >> 70 == t) for t in range(3)]).pvalue > P_MIN
+    assert uniform_below(rng, 1) == 0
+    with pytest.raises(ValueError):
+        uniform_below(rng, 0)
+
+
+def test_dense_samples_are_refused_before_allocating():
+    model = UrnModel(balls=3, urns=10**7, rule="BE")
+    assert dense_sample_cost(model).memory >= 64 * 10**7 * 8
+    with pytest.raises(TooLarge, match="sparse") as caught:
+        next(iter_sample_blocks(model, 2, seed=1))
+    assert "sparse" in caught.value.parameters
+    with limited(memory=10**6):
+        with pytest.raises(TooLarge, match=r"iter_sample_sparse"):
+            sample(Occupancy(balls=3, urns=10**4, rule="MB"), 2, seed=1)
+    # the sparse form of the same draws is cheap
+    draws = sample(model, 3, seed=1, sparse=True)
+    assert all(sum(k for _, k in d) == 3 for d in draws)
+
+
+def test_weighted_models_refuse_methods_that_ignore_weights():
+    model = Occupancy(balls=3, weights=[1, 2], rule="MB")
+    with pytest.raises(InvalidParameters, match="groups"):
+        sample(model, 2, seed=1, method="uniform-balls")
+    with pytest.raises(InvalidParameters, match="sparse draws use method 'groups'"):
+        sample(model, 2, seed=1, method="sequential", sparse=True)
+
+
+def test_empty_weighted_models_refuse_to_sample():
+    model = Occupancy(balls=5, groups=[(2, 0, 1, 2)], rule="BE")
+    with pytest.raises(InvalidParameters, match="admits no configuration"):
+        next(iter_sample_sparse(model, 1))
+    with pytest.raises(InvalidParameters, match="admits no configuration"):
+        GroupSampler(model)
