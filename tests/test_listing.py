@@ -524,3 +524,123 @@ def test_a_rank_table_too_large_says_what_to_reduce():
     # listing from the start needs no rank table, so it still streams
     first = next(model.iter_configurations())
     assert sum(first) == 10**5 and max(first) <= 30 and first[0] == 0
+
+
+# ---------------------------------------------------------------------------
+# sparse rank/unrank by groups, and listings refused before they start
+# ---------------------------------------------------------------------------
+
+from enumerator.core.limits import limited  # noqa: E402
+from enumerator.core.model import UrnModel  # noqa: E402
+
+
+def sparse_of(k):
+    return tuple((i, v) for i, v in enumerate(k, start=1) if v)
+
+
+GROUPED = [
+    UrnModel(balls=4, groups=[(2, 0, None, 1), (1, 1, 2, 1), (3, 0, 1, 2)], rule="BE"),
+    UrnModel(balls=5, urns=4, rule="BE", capacity=2),
+    UrnModel(balls=3, urns=5, rule="FD"),
+    UrnModel(balls=6, groups=[(2, 1, 3, 1), (2, 0, 2, 1)], rule="MB"),
+    UrnModel(balls=0, urns=3, rule="BE"),
+    UrnModel(balls=5, groups=[(1, 0, 0, 1), (3, 0, None, 1), (1, 2, 2, 1)], rule="BE"),
+]
+
+
+@pytest.mark.parametrize("model", GROUPED, ids=repr)
+def test_sparse_rank_and_unrank_match_brute_force(model):
+    vectors = brute(model)
+    for index, k in enumerate(vectors):
+        listed = dict(sparse_of(k))
+        for g, group in enumerate(model.groups):  # urns with a positive minimum are always listed
+            first = sum(h.count for h in model.groups[:g]) + 1
+            if group.lower:
+                for u in range(first, first + group.count):
+                    listed.setdefault(u, k[u - 1])
+        expected = tuple(sorted(listed.items()))
+        assert listing.unrank_sparse(model, index) == expected
+        assert listing.rank_sparse(model, expected) == index
+        assert listing.rank_sparse(model, dict(expected)) == index
+    with pytest.raises(InvalidParameters, match="out of range"):
+        listing.unrank_sparse(model, len(vectors))
+
+
+def test_sparse_rank_is_the_dense_rank_of_a_model_given_per_urn():
+    per_urn = Occupancy(balls=5, bounds=[(0, 2), (0, 2), (0, 2), (1, None), (0, 1), (0, 1)], rule="BE")
+    grouped = UrnModel(balls=5, groups=[(3, 0, 2, 1), (1, 1, None, 1), (2, 0, 1, 1)], rule="BE")
+    for index, k in enumerate(per_urn.iter_configurations()):
+        assert per_urn.rank(k) == index
+        assert listing.rank_sparse(grouped, {u: v for u, v in enumerate(k, start=1) if v}) == index
+        assert dict(listing.unrank_sparse(grouped, index)) == {u: v for u, v in enumerate(k, start=1) if v}
+
+
+def test_sparse_rank_and_unrank_at_2_to_the_40_urns():
+    # BE, n = 3, r = 2^40: C(r + 2, 3) vectors (stars and bars, Feller vol. 1 §II.5).
+    r = 2**40
+    model = UrnModel(balls=3, urns=r, rule="BE")
+    count = math.comb(r + 2, 3)
+    assert listing.unrank_sparse(model, 0) == ((r, 3),)  # lexicographically first: all in the last urn
+    assert listing.unrank_sparse(model, count - 1) == ((1, 3),)
+    with pytest.raises(InvalidParameters, match="out of range"):
+        listing.unrank_sparse(model, count)
+    # rank of (0, ..., 0, 1, 2) is 1 in the order (0,..,0,3) < (0,..,1,2) < ...
+    assert listing.rank_sparse(model, {r - 1: 1, r: 2}) == 1
+    rng = random.Random(40)
+    previous = None
+    for index in sorted(rng.randrange(count) for _ in range(20)):
+        config = listing.unrank_sparse(model, index)
+        assert listing.rank_sparse(model, config) == index
+        assert sum(k for _, k in config) == 3
+        # lexicographic order on the dense vectors: compare the first urn where they differ
+        if previous is not None and previous != config:
+            a, b = dict(previous), dict(config)
+            first = min(u for u in set(a) | set(b) if a.get(u, 0) != b.get(u, 0))
+            assert a.get(first, 0) < b.get(first, 0)
+        previous = config
+
+
+def test_sparse_rank_with_capacities_at_huge_r():
+    # FD, n = 2, r = 2^64: C(r, 2) vectors; rank of urns {1, 2} is the last one.
+    r = 2**64
+    model = UrnModel(balls=2, urns=r, rule="FD")
+    assert listing.rank_sparse(model, {1: 1, 2: 1}) == math.comb(r, 2) - 1
+    assert listing.unrank_sparse(model, 0) == ((r - 1, 1), (r, 1))
+    bounded = UrnModel(balls=4, urns=r, rule="BE", capacity=2)
+    index = 10**30
+    assert listing.rank_sparse(bounded, listing.unrank_sparse(bounded, index)) == index
+
+
+def test_sparse_configurations_are_checked():
+    model = UrnModel(balls=3, groups=[(2, 1, 2, 1), (3, 0, 1, 1)], rule="BE")
+    with pytest.raises(InvalidConfiguration, match="sums to 2"):
+        listing.rank_sparse(model, {1: 1, 2: 1})
+    with pytest.raises(InvalidConfiguration, match="out of range"):
+        listing.rank_sparse(model, {1: 1, 2: 1, 9: 1})
+    with pytest.raises(InvalidConfiguration, match="must hold at least 1"):
+        listing.rank_sparse(model, {1: 1, 3: 1, 4: 1})
+    with pytest.raises(InvalidConfiguration, match="urn 3 holds 2 but must hold at most 1"):
+        listing.rank_sparse(model.with_balls(4), {1: 1, 2: 1, 3: 2})
+    with pytest.raises(InvalidConfiguration, match="listed twice"):
+        listing.rank_sparse(model, [(1, 1), (1, 1), (2, 1)])
+
+
+def test_a_listing_too_wide_is_refused_before_it_starts():
+    # n = 5, r = 50000: C(50004, 5) rows of 50000 entries, and a block of 16384
+    # rows would hold 819,200,000 entries.
+    model = Occupancy(balls=5, urns=50000, rule="MB")
+    with pytest.raises(TooLarge, match="size=") as caught:
+        listing.iter_blocks(model, 16384)
+    assert "size" in caught.value.parameters
+    with pytest.raises(TooLarge, match="stop="):
+        listing.check_listing(model)
+    with pytest.raises(TooLarge, match="stop="):
+        listing.iter_configurations(model, 0, 10**15)
+    assert listing.listing_cost(model).seconds > 10**9
+    first = list(listing.iter_configurations(model, 0, 2))
+    assert first[0][-1] == 5 and sum(first[1]) == 5
+    assert as_rows(listing.iter_blocks(model, 2, 0, 2)) == first
+    listing.check_listing(model, 0, 2, size=16384)  # two rows are fine
+    with limited(memory=10**5):
+        with pytest.raises(TooLarge, match="memory"):
+            listing.check_listing(model, 0, 2, size=2)
