@@ -58,6 +58,7 @@ COMMANDS: Dict[str, str] = {
     "coeff": "series",
     "sample": "sampling",
     "ways": "ways",
+    "threshold": "threshold",
     "demo": "demo",
     "compare": "compare",
     "levels": "physics",
@@ -71,9 +72,20 @@ COMMANDS: Dict[str, str] = {
 #: change (``limit=`` in the library's words is ``--limit`` here); see
 #: :meth:`~enumerator.core.errors.EnumeratorError.spelled`.
 FLAGS: Dict[str, str] = {
+    "balls": "--balls",
+    "event": "--event",
     "limit": "--limit",
+    "max_memory": "--max-memory",
+    "max_seconds": "--max-seconds",
+    "seed": "--seed",
+    "size": "--size",
+    "start": "--start",
+    "stop": "--stop",
+    "target": "--target",
     "upto": "--upto",
+    "urns": "--urns",
     "var": "--var",
+    "vary": "--vary",
 }
 
 

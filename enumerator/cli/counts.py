@@ -12,16 +12,20 @@ from .options import (
     EventLimit,
     Json,
     ListFormat,
+    MaxMemory,
+    MaxSeconds,
     Minimum,
     NoCache,
     RuleOpt,
     Store,
     Urns,
+    Weights,
     build_model,
+    limits_scope,
     parse_config,
     store_scope,
 )
-from .render import approx, describe, emit_json, exact, show_table, write_vectors
+from .render import approx, describe, emit_json, exact, show_table, write_sparse, write_vectors
 
 __all__ = ["commands"]
 
@@ -37,8 +41,11 @@ def count_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    weights: Weights = None,
     store: Store = None,
     no_cache: NoCache = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Count the admissible occupancy vectors and the equally likely outcomes.
@@ -46,16 +53,21 @@ def count_command(
     configurations: how many occupancy vectors (k1,...,kr) fit the bounds.
     microstates: how many equally likely outcomes there are under the rule
     (MB: assignments of distinguishable balls to urns; BE and FD: the vectors
-    themselves).  Both are exact, however many digits they have.
+    themselves); with --weights, the total weight of the vectors (the
+    normaliser of the law).  Both are exact, however many digits they have:
+    tables round a long value (with its digit count) and write it whole
+    below; --json keeps every digit.
 
     Example:
 
         $ enumerator count -n 3 -r 2 --rule BE
         $ enumerator count -n 10 -r 4 --capacity 3 --json
         $ enumerator count -n 5 --bounds "0:2,1:,0:3"
+        $ enumerator count -n 10 -r 18446744073709551616 --rule BE
+        $ enumerator count -n 4 --bounds "1000x0:3,2x1:" --rule BE
     """
-    with store_scope(store, no_cache):
-        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
         configurations = model.configurations()
         microstates = model.microstates()
         if as_json:
@@ -73,8 +85,8 @@ def count_command(
             describe(model),
             ["quantity", "exact value"],
             [
-                ["configurations", exact(configurations)],
-                ["microstates", exact(microstates)],
+                ["configurations", configurations],
+                ["microstates", microstates],
             ],
         )
 
@@ -102,7 +114,12 @@ def prob_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    weights: Weights = None,
     limit: EventLimit = None,
+    store: Store = None,
+    no_cache: NoCache = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Give the exact probability of one occupancy vector, or of an event, under the rule.
@@ -114,6 +131,9 @@ def prob_command(
     --event: a statement about the vector built from max, min, empty,
     occupied, k1..kr and count(OP J), compared with == != < <= > >= and joined
     by and, or, not and parentheses.  Give exactly one of --config and --event.
+    With --weights, MB urn i receives each ball with probability w_i/sum(w);
+    BE/FD vectors are weighted by prod(w_i^k_i).  Event probabilities are
+    remembered in the result store under the event's canonical text.
 
     Example:
 
@@ -121,6 +141,8 @@ def prob_command(
         $ enumerator prob -n 3 -r 3 --config 2,0,1 --rule BE --json
         $ enumerator prob -n 23 -r 365 --event "max <= 1"
         $ enumerator prob -n 10 -r 6 --event "empty >= 2 or k1 == 0" --json
+        $ enumerator prob -n 23 --weights "365x4,1" --event "max <= 1"
+        $ enumerator prob -n 100000 -r 18446744073709551616 --event "max <= 1"
     """
     from ..core.errors import InvalidParameters
 
@@ -129,18 +151,19 @@ def prob_command(
             'give exactly one of --config (one occupancy vector, e.g. 2,0,1) '
             'or --event (an event, e.g. "max <= 1")'
         )
-    # The facade does not remember probabilities, so prob offers no --store/--no-cache.
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
-    if event is not None:
-        from ..algorithms.events import event_probability
-
-        probability = event_probability(model, event, limit=_limit(limit))
-        field, text, title = "event", event, f"{describe(model)}; event {event}"
-    else:
-        vector = parse_config(config)
-        probability = model.probability(vector)
-        text = ",".join(map(str, vector))
-        field, title = "config", f"{describe(model)}; configuration ({text})"
+    with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
+        # Through the facade: event probabilities are remembered under the
+        # event's canonical text, and a configuration's normaliser is the
+        # remembered microstates (where the law needs one).
+        model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
+        if event is not None:
+            probability = model.event_probability(event, limit=_limit(limit))
+            field, text, title = "event", event, f"{describe(model)}; event {event}"
+        else:
+            vector = parse_config(config)
+            probability = model.probability(vector)
+            text = ",".join(map(str, vector))
+            field, title = "config", f"{describe(model)}; configuration ({text})"
     if as_json:
         emit_json(
             {
@@ -157,7 +180,7 @@ def prob_command(
         title,
         ["quantity", "value"],
         [
-            ["probability (exact)", exact(probability)],
+            ["probability (exact)", probability],
             ["probability (approx)", f"{approx(probability):.6g}"],
         ],
     )
@@ -220,9 +243,21 @@ def dist_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    weights: Weights = None,
+    moments_only: Annotated[
+        bool,
+        typer.Option(
+            "--moments-only",
+            help="Print only the exact mean and variance, without the law: for empty, occupied, "
+            "exactly:J and atleast:J from binomial moments (sums over urn groups and pairs of "
+            "groups), at any number of urns.",
+        ),
+    ] = False,
     limit: EventLimit = None,
     store: Store = None,
     no_cache: NoCache = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Give the exact distribution of a statistic: every value's probability, mean, variance.
@@ -230,15 +265,23 @@ def dist_command(
     The probabilities are exact fractions over the whole support and sum to
     exactly 1.  A profile is written as its parts in decreasing order joined
     by "+", e.g. 3+1+1+0; profiles have no mean or variance (null in JSON).
+    --moments-only skips the law and prints the exact mean and variance
+    (JSON: statistic, mean, variance, mean_approx, variance_approx); for the
+    counting statistics (empty, occupied, exactly:J, atleast:J) the cost
+    depends on n and the urn groups, never on the number of urns.
 
     Example:
 
         $ enumerator dist -n 10 -r 4 --stat empty
         $ enumerator dist -n 2000 -r 500 --stat max --json
         $ enumerator dist -n 6 -r 3 --rule BE --stat profile
+        $ enumerator dist -n 1000000 -r 4294967296 --stat occupied --moments-only --json
     """
-    with store_scope(store, no_cache):
-        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
+        if moments_only:
+            _print_moments(model, stat, _limit(limit), as_json)
+            return
         law = model.distribution(stat, limit=_limit(limit))
         moment = (lambda x: None if x is None else exact(x))
         if as_json:
@@ -251,7 +294,7 @@ def dist_command(
                 }
             )
             return
-        rows = [[_value_text(v), exact(p), f"{approx(p):.6g}"] for v, p in law.pmf.items()]
+        rows = [[_value_text(v), p, f"{approx(p):.6g}"] for v, p in law.pmf.items()]
         show_table(f"{describe(model)}; distribution of {law.statistic}",
                    [law.statistic, "probability (exact)", "approx"], rows)
         if law.mean is not None:
@@ -259,14 +302,108 @@ def dist_command(
                 f"Moments of {law.statistic}",
                 ["moment", "exact", "approx"],
                 [
-                    ["mean", exact(law.mean), f"{approx(law.mean):.6g}"],
-                    ["variance", exact(law.variance), f"{approx(law.variance):.6g}"],
+                    ["mean", law.mean, f"{approx(law.mean):.6g}"],
+                    ["variance", law.variance, f"{approx(law.variance):.6g}"],
                 ],
             )
 
 
+def _moments(model, stat: str, limit: int):
+    """The exact mean and variance of *stat* without its law where the library can.
+
+    Parameters
+    ----------
+    model : Occupancy
+    stat : str
+        The ``--stat`` value.
+    limit : int
+        As for the law (statistics read off their law).
+
+    Returns
+    -------
+    tuple
+        ``(statistic name, mean, variance)``, exact.
+
+    Notes
+    -----
+    :func:`enumerator.algorithms.statistics.statistic_moments` answers every
+    model (binomial moments by groups for the counting statistics, the law
+    for max, min and urn:I).  Where it is not available,
+    :func:`enumerator.algorithms.moments.counting_moments` answers the
+    models it covers and the law (:meth:`Occupancy.distribution`) the rest.
+    """
+    from ..core.errors import Unsupported
+
+    try:
+        from ..algorithms.statistics import statistic_moments
+    except ImportError:  # pragma: no cover - a library without it
+        statistic_moments = None
+    if statistic_moments is not None:
+        result = statistic_moments(model, stat, limit)
+        return result.statistic, result.mean, result.variance
+    from ..algorithms.moments import counting_moments
+    from ..algorithms.statistics import parse_statistic
+
+    parsed = parse_statistic(stat)
+    try:
+        result = counting_moments(model.balls, model.rule, model.groups, parsed.name)
+        return result.statistic, result.mean, result.variance
+    except (Unsupported, ValueError, KeyError):
+        law = model.distribution(parsed.name, limit=limit)
+        return law.statistic, law.mean, law.variance
+
+
+def _print_moments(model, stat: str, limit: int, as_json: bool) -> None:
+    """Print ``dist --moments-only``: the JSON object or a small table."""
+    from ..core.errors import InvalidParameters
+
+    name, mean, variance = _moments(model, stat, limit)
+    if mean is None:
+        raise InvalidParameters(f"statistic {name!r} has no mean or variance; choose a numeric statistic")
+    if as_json:
+        emit_json(
+            {
+                "statistic": name,
+                "mean": exact(mean),
+                "variance": exact(variance),
+                "mean_approx": approx(mean),
+                "variance_approx": approx(variance),
+            }
+        )
+        return
+    show_table(
+        f"{describe(model)}; moments of {name}",
+        ["moment", "exact", "approx"],
+        [
+            ["mean", mean, f"{approx(mean):.6g}"],
+            ["variance", variance, f"{approx(variance):.6g}"],
+        ],
+    )
+
+
 #: Rows per numpy block when listing; large enough to amortise the call.
 _BLOCK = 1 << 14
+#: About how many cells (rows times urns) one block of a dense listing holds.
+_BLOCK_CELLS = 1 << 22
+#: Beyond this many urns a listing or sample is written sparsely (a dense row
+#: of a million entries is no use to anyone, and 2^64 entries cannot exist).
+SPARSE_URNS = 1 << 20
+#: Most vectors a sparse listing writes without an explicit range.
+_SPARSE_ROWS = 10 ** 6
+
+Sparse = Annotated[
+    bool,
+    typer.Option(
+        "--sparse",
+        help="Write each vector sparsely: the occupied urns with their counts (csv: "
+        "urn:count pairs; jsonl/--json: [urn, count] pairs). Automatic above 1,048,576 urns.",
+    ),
+]
+
+
+def _block_rows(urns: int) -> int:
+    """Rows per listing block: :data:`_BLOCK`, fewer for many urns (about :data:`_BLOCK_CELLS` cells)."""
+    return max(1, min(_BLOCK, _BLOCK_CELLS // max(1, urns)))
 
 
 @commands.command("list")
@@ -277,6 +414,7 @@ def list_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    weights: Weights = None,
     limit: Annotated[
         Optional[int],
         typer.Option("--limit", help="Print at most this many configurations."),
@@ -298,6 +436,9 @@ def list_command(
             "jsonl: one JSON array of integers per line.",
         ),
     ] = ListFormat.csv,
+    sparse: Sparse = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """List the admissible occupancy vectors in lexicographic order, streaming.
@@ -306,22 +447,71 @@ def list_command(
     walking the earlier ones, so a long listing can be split into shards.
     Nothing is held in memory.  With --json the output is one JSON object
     whose "configurations" field is the array of the listed vectors (arrays
-    of integers, as in jsonl) and whose "listed" field counts them.
+    of integers, as in jsonl) and whose "listed" field counts them.  A
+    listing planned to take longer than the time limit is refused before
+    it starts (list a range instead, or raise --max-seconds).  With --sparse,
+    or more than 1,048,576 urns, each vector is written as its occupied urns
+    and their counts (csv: rank,occupied with "urn:count" pairs).
 
     Example:
 
         $ enumerator list -n 3 -r 3 --rule BE
         $ enumerator list -n 20 -r 6 --start 1000 --limit 5 --format jsonl
+        $ enumerator list -n 2 -r 18446744073709551616 --rule FD --limit 3
     """
     # A listing streams and is never remembered: no --store/--no-cache.
-    model = build_model(balls, urns, rule, capacity, minimum, bounds)
-    start = as_count(start, "--start")
-    if stop is not None:
-        stop = as_count(stop, "--stop")
-    if limit is not None:
-        limit = as_count(limit, "--limit")
-        stop = start + limit if stop is None else min(stop, start + limit)
-    blocks = (block for block in model.iter_blocks(_BLOCK, start, stop) if len(block))
-    head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
-        model.rule.value, model.balls, model.urns, start)
-    write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")
+    with limits_scope(max_memory, max_seconds):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
+        start = as_count(start, "--start")
+        if stop is not None:
+            stop = as_count(stop, "--stop")
+        if limit is not None:
+            limit = as_count(limit, "--limit")
+            stop = start + limit if stop is None else min(stop, start + limit)
+        head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
+            model.rule.value, model.balls, model.urns, start)
+        if sparse or model.urns > SPARSE_URNS:
+            rows = _sparse_rows(model, start, stop)
+            write_sparse(rows, fmt, head if as_json else None, "listed", "rank", start)
+            return
+        from ..algorithms.listing import check_listing
+
+        size = _block_rows(model.urns)
+        check_listing(model, start, stop)  # the time of the whole range; the blocks are small
+        blocks = (block for block in model.iter_blocks(size, start, stop) if len(block))
+        write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")
+
+
+def _sparse_rows(model, start: int, stop: Optional[int]):
+    """The vectors of ranks ``[start, stop)`` as occupied urns, after checking the range's size.
+
+    Parameters
+    ----------
+    model : Occupancy
+    start : int
+    stop : int or None
+        ``None``: the end of the listing.
+
+    Returns
+    -------
+    iterator of tuple of (int, int)
+        :func:`enumerator.algorithms.listing.unrank_sparse` of each rank.
+
+    Raises
+    ------
+    TooLarge
+        When the range holds more than :data:`_SPARSE_ROWS` vectors (each
+        one is unranked on its own: ``O(n log r)`` suffix counts).
+    """
+    from ..algorithms.listing import unrank_sparse
+    from ..core.errors import TooLarge
+
+    total = model.configurations()
+    end = total if stop is None else min(stop, total)
+    if end - start > _SPARSE_ROWS:
+        raise TooLarge(
+            f"a sparse listing of {end - start:,} configurations is beyond {_SPARSE_ROWS:,}; "
+            "list a range of ranks (start=, stop=, or limit=)",
+            parameters=["start", "stop", "limit"],
+        )
+    return (unrank_sparse(model, i) for i in range(start, end))

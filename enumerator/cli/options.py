@@ -2,11 +2,18 @@
 
 Every model command spells its options the same way by using these
 ``Annotated`` aliases as parameter types: ``Balls``, ``Urns``, ``RuleOpt``,
-``Capacity``, ``Minimum``, ``Bounds`` (the model), ``Store``, ``NoCache``
-(the result store), ``Json`` (the output).  :func:`build_model` turns the
-model options into an :class:`~enumerator.facade.Occupancy`,
-:func:`store_scope` applies ``--store``/``--no-cache`` to a block, and
-:func:`parse_config` reads an occupancy vector.
+``Capacity``, ``Minimum``, ``Bounds``, ``Weights`` (the model), ``Store``,
+``NoCache`` (the result store), ``MaxMemory``, ``MaxSeconds`` (the work
+limits), ``Json`` (the output).  :func:`build_model` turns the model options
+into an :class:`~enumerator.facade.Occupancy`, :func:`store_scope` applies
+``--store``/``--no-cache`` to a block, :func:`limits_scope` applies
+``--max-memory``/``--max-seconds``, and :func:`parse_config` reads an
+occupancy vector.
+
+``--balls`` and ``--urns`` are read digit by digit
+(:func:`enumerator.core.groups.parse_count`): any size (``2^64`` urns and
+beyond) reaches the model as an ``int``, and text such as ``1e999999999`` or
+a number of millions of digits is refused before it is converted.
 
 Importing this module is cheap (typer only): the store is imported when a
 command enters :func:`store_scope`.
@@ -21,7 +28,8 @@ from typing import Annotated, Iterator, Optional
 
 import typer
 
-from ..core.errors import InvalidConfiguration
+from ..core.errors import InvalidConfiguration, InvalidParameters
+from ..core.groups import parse_count
 from ..core.model import UrnModel
 from ..core.rules import Rule
 from ..facade import Occupancy
@@ -34,14 +42,20 @@ __all__ = [
     "Capacity",
     "EventLimit",
     "Json",
+    "LIMITS_PANEL",
     "ListFormat",
+    "MaxMemory",
+    "MaxSeconds",
     "Minimum",
     "NoCache",
     "RuleOpt",
     "Store",
     "Urns",
+    "Weights",
     "build_model",
     "build_problem",
+    "count_parser",
+    "limits_scope",
     "parse_config",
     "store_scope",
 ]
@@ -49,11 +63,29 @@ __all__ = [
 #: Help panels: the model's options, and where results go.
 MODEL_PANEL = "Model"
 OUTPUT_PANEL = "Store and output"
+LIMITS_PANEL = "Limits"
+
+
+def count_parser(name: str, minimum: int):
+    """A typer ``parser`` reading a whole number of any size digit by digit (see the module docstring)."""
+
+    def parse(text) -> int:
+        if isinstance(text, int) and not isinstance(text, bool):
+            return text  # a default, or a value handed over in-process
+        try:
+            return parse_count(str(text), name, minimum)
+        except InvalidParameters as error:
+            raise typer.BadParameter(str(error)) from None
+
+    parse.__name__ = name
+    return parse
 
 Balls = Annotated[
     int,
     typer.Option(
         "--balls", "-n",
+        metavar="INTEGER",
+        parser=count_parser("balls", 0),
         help="Number of balls n (particles, keys, items), a whole number >= 0.",
         rich_help_panel=MODEL_PANEL,
     ),
@@ -62,8 +94,10 @@ Urns = Annotated[
     Optional[int],
     typer.Option(
         "--urns", "-r",
-        help="Number of labelled urns r (states, sites, bins), >= 1. "
-        "May be left out when --bounds gives one bound per urn.",
+        metavar="INTEGER",
+        parser=count_parser("urns", 1),
+        help="Number of labelled urns r (states, sites, bins), >= 1, any size (2^64 urns cost "
+        "nothing per urn). May be left out when --bounds or --weights lists the urns.",
         rich_help_panel=MODEL_PANEL,
     ),
 ]
@@ -100,8 +134,39 @@ Bounds = Annotated[
     typer.Option(
         "--bounds",
         help='Per-urn bounds "a:b,a:b,..." (lower:upper for each urn in turn; "a:" means '
-        "no upper bound). Use instead of --capacity/--minimum.",
+        'no upper bound); an item COUNTxa:b stands for COUNT urns alike, e.g. "1000x0:3,2x1:". '
+        "Use instead of --capacity/--minimum.",
         rich_help_panel=MODEL_PANEL,
+    ),
+]
+Weights = Annotated[
+    Optional[str],
+    typer.Option(
+        "--weights",
+        help='Per-urn weights "w,w,...", positive rationals (3, 2/7, 0.25); an item COUNTxw '
+        'stands for COUNT urns alike, e.g. "365x400,97". MB: a ball lands in urn i with '
+        "probability w_i / sum(w). BE/FD: a vector k has weight prod(w_i^k_i). Default: all 1.",
+        rich_help_panel=MODEL_PANEL,
+    ),
+]
+MaxMemory = Annotated[
+    Optional[str],
+    typer.Option(
+        "--max-memory",
+        metavar="SIZE",
+        help="Refuse work planned to need more memory than this (e.g. 512M, 8G; "
+        "default $ENUMERATOR_MAX_MEMORY, else 4G).",
+        rich_help_panel=LIMITS_PANEL,
+    ),
+]
+MaxSeconds = Annotated[
+    Optional[float],
+    typer.Option(
+        "--max-seconds",
+        metavar="S",
+        help="Refuse work planned to take longer than this many seconds "
+        "(default $ENUMERATOR_MAX_SECONDS, else 600).",
+        rich_help_panel=LIMITS_PANEL,
     ),
 ]
 Store = Annotated[
@@ -156,14 +221,16 @@ def build_model(
     capacity: Optional[int] = None,
     minimum: Optional[int] = None,
     bounds: Optional[str] = None,
+    weights: Optional[str] = None,
 ) -> Occupancy:
     """Return the problem described by the shared model options.
 
     Parameters
     ----------
-    balls, urns, rule, capacity, minimum, bounds
+    balls, urns, rule, capacity, minimum, bounds, weights
         The values of ``--balls``, ``--urns``, ``--rule``, ``--capacity``,
-        ``--minimum`` and ``--bounds`` (``None`` where not given).
+        ``--minimum``, ``--bounds`` and ``--weights`` (``None`` where not
+        given); bounds and weights may use run-length items ``COUNTxITEM``.
 
     Returns
     -------
@@ -178,9 +245,11 @@ def build_model(
 
     Notes
     -----
-    Cost: the model's validation, linear in the length of ``--bounds``.
+    Cost: the model's validation, linear in the length of ``--bounds`` and
+    ``--weights``; nothing per urn.
     """
-    return Occupancy(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds)
+    return Occupancy(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds,
+                     weights=weights)
 
 
 def build_problem(
@@ -190,12 +259,13 @@ def build_problem(
     capacity: Optional[int] = None,
     minimum: Optional[int] = None,
     bounds: Optional[str] = None,
+    weights: Optional[str] = None,
 ) -> UrnModel:
     """Return the bare problem description of the shared model options, for commands that never use the store.
 
     Parameters
     ----------
-    balls, urns, rule, capacity, minimum, bounds
+    balls, urns, rule, capacity, minimum, bounds, weights
         As for :func:`build_model`.
 
     Returns
@@ -212,9 +282,57 @@ def build_problem(
 
     Notes
     -----
-    Cost: the model's validation, linear in the length of ``--bounds``.
+    Cost: the model's validation, linear in the length of ``--bounds`` and
+    ``--weights``; nothing per urn.
     """
-    return UrnModel(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds)
+    return UrnModel(balls=balls, urns=urns, rule=rule, capacity=capacity, minimum=minimum, bounds=bounds,
+                    weights=weights)
+
+
+@contextmanager
+def limits_scope(max_memory: Optional[str] = None, max_seconds: Optional[float] = None) -> Iterator[None]:
+    """Run the block under the work limits chosen by ``--max-memory`` / ``--max-seconds``.
+
+    Parameters
+    ----------
+    max_memory : str or None
+        A size such as ``512M`` or ``8G`` (bytes without a suffix).
+    max_seconds : float or None
+        Seconds.
+
+    Yields
+    ------
+    None
+        Every route planned inside the block checks its estimated cost
+        against these limits (:func:`enumerator.core.limits.check`) and is
+        refused with :class:`~enumerator.core.errors.TooLarge` beyond them.
+
+    Raises
+    ------
+    InvalidParameters
+        A malformed size or a non-positive number of seconds (the message
+        names ``max_memory=``/``max_seconds=``, printed as the flags).
+
+    Notes
+    -----
+    An option left out keeps the limit in force (``ENUMERATOR_MAX_MEMORY``,
+    ``ENUMERATOR_MAX_SECONDS``, else the defaults of
+    :mod:`enumerator.core.limits`).  Cost: constant.
+    """
+    from ..core.errors import InvalidParameters
+    from ..core.limits import limited, parse_size
+
+    memory = None
+    if max_memory is not None:
+        try:
+            memory = parse_size(max_memory, "max_memory=")
+        except InvalidParameters as error:
+            raise InvalidParameters(str(error), parameters=["max_memory"]) from None
+    if max_seconds is not None and not (0 < max_seconds < float("inf")):
+        raise InvalidParameters(f"max_seconds= must be a positive number of seconds (got {max_seconds})",
+                                parameters=["max_seconds"])
+    with limited(memory=memory, seconds=max_seconds):
+        yield
 
 
 @contextmanager
@@ -286,11 +404,13 @@ def parse_config(text: str) -> tuple:
     -----
     Cost: linear in the length of *text*.
     """
+    from ..core.groups import MAX_DIGITS
+
     items = text.split(",")
     values = []
     for position, item in enumerate(items, start=1):
         item = item.strip()
-        if not _WHOLE.fullmatch(item):
+        if len(item) > MAX_DIGITS + 1 or not _WHOLE.fullmatch(item):
             raise InvalidConfiguration(
                 f"config entry {position} ({item!r}) is not a whole number; "
                 'write one occupancy per urn separated by commas, e.g. --config 2,0,1'

@@ -5,7 +5,10 @@
   ``str(Fraction)`` (``"p/q"`` in lowest terms, ``"p"`` when ``q = 1``);
   floats appear only in fields named ``approx``/``float``.  Exact values go
   through :mod:`enumerator.core.exact`, the project's one codec.
-- :func:`show_table` — a rich table that never cuts a long number.
+- :func:`show_table` — a rich table that never cuts a long number: an exact
+  value of more than :data:`LONG_DIGITS` digits shows in the table as a
+  correctly rounded decimal with its digit count (:func:`scientific`) and is
+  written whole after the table.
 - :func:`write_vectors` and :func:`format_rows` — streaming CSV, JSONL or
   one JSON object from numpy blocks of occupancy vectors.
 
@@ -30,6 +33,7 @@ if TYPE_CHECKING:  # pragma: no cover - annotations only
     from ..facade import Occupancy
 
 __all__ = [
+    "LONG_DIGITS",
     "NARROW",
     "abbreviate",
     "approx",
@@ -38,12 +42,19 @@ __all__ = [
     "emit_json",
     "exact",
     "format_rows",
+    "human",
+    "scientific",
     "show_table",
+    "write_sparse",
     "write_vectors",
 ]
 
 #: A value column narrower than this still gets the value in the table.
 NARROW = 12
+#: Exact values with more digits than this show rounded in tables (:func:`human`).
+LONG_DIGITS = 40
+#: Significant digits of the rounded form of a long value.
+SIGNIFICANT = 5
 
 
 def exact(value) -> str:
@@ -98,10 +109,125 @@ def approx(value: Fraction) -> float:
 
     Notes
     -----
-    ``Fraction.__float__`` divides the exact integers, correctly rounded.
-    Cost: quasi-linear in the digits of the numerator and denominator.
+    Correctly rounded to the nearest float: ``Fraction.__float__`` for small
+    values; GMP's MPFR (round to nearest) once the numerator or denominator
+    passes a few thousand bits, where CPython's quadratic division would take
+    seconds.  Values beyond the float range give ``±inf`` or ``0.0``.  Cost:
+    quasi-linear in the digits of the numerator and denominator.
     """
-    return float(value)
+    if isinstance(value, int) and value.bit_length() <= 1000:
+        return float(value)
+    numerator, denominator = value.numerator, value.denominator
+    if max(numerator.bit_length(), denominator.bit_length()) <= 4000:
+        return float(value)
+    import gmpy2
+
+    with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
+        x = gmpy2.mpfr(gmpy2.mpq(numerator, denominator))
+    return float(x)
+
+
+def scientific(value, significant: int = SIGNIFICANT) -> str:
+    """Write an exact number as a correctly rounded decimal ``d.dddde+EXP``, computed exactly.
+
+    Parameters
+    ----------
+    value : int or Fraction
+        Any size, any sign.
+    significant : int
+        Significant digits of the mantissa (at least 1).
+
+    Returns
+    -------
+    str
+        ``"1.2346e+1000000"`` style text: the mantissa rounded half to even
+        from the exact value (never through a float, so exponents far beyond
+        the float range are right), the exponent in decimal.
+
+    Examples
+    --------
+    >>> scientific(123456789), scientific(-10**100), scientific(Fraction(1, 3))
+    ('1.2346e+8', '-1.0000e+100', '3.3333e-1')
+    >>> scientific(99999999)  # rounding carries into the exponent
+    '1.0000e+8'
+
+    Notes
+    -----
+    Cost: one exact division of the value by a power of ten, quasi-linear in
+    its digits with GMP (a million-digit integer in a few milliseconds).
+    """
+    import gmpy2
+
+    from ..core.exact import decimal_digits
+
+    if value == 0:
+        return "0." + "0" * (significant - 1) + "e+0"
+    sign = "-" if value < 0 else ""
+    p = gmpy2.mpz(abs(value.numerator))
+    q = gmpy2.mpz(value.denominator)
+    # exponent e with 10^e <= p/q < 10^(e+1); estimated from the digit counts, then corrected
+    e = decimal_digits(p) - decimal_digits(q)
+    below = p < q * gmpy2.mpz(10) ** e if e >= 0 else p * gmpy2.mpz(10) ** (-e) < q
+    if below:
+        e -= 1
+    shift = significant - 1 - e  # mantissa digits: p/q * 10^shift in [10^(s-1), 10^s)
+    if shift >= 0:
+        top, bottom = p * gmpy2.mpz(10) ** shift, q
+    else:
+        top, bottom = p, q * gmpy2.mpz(10) ** (-shift)
+    m, rest = gmpy2.f_divmod(top, bottom)
+    twice = 2 * rest
+    if twice > bottom or (twice == bottom and m % 2 == 1):
+        m += 1
+    if m == gmpy2.mpz(10) ** significant:  # 9.99995 rounded up to 10.000
+        m //= 10
+        e += 1
+    digits = str(int(m))
+    mantissa = digits[0] + ("." + digits[1:] if significant > 1 else "")
+    return f"{sign}{mantissa}e{'+' if e >= 0 else '-'}{abs(e)}"
+
+
+def human(value) -> str:
+    """An exact number for a table cell: whole when short, rounded with its digit count when long.
+
+    Parameters
+    ----------
+    value : int or Fraction
+
+    Returns
+    -------
+    str
+        :func:`exact` text up to :data:`LONG_DIGITS` digits; beyond,
+        ``"1.2346e+1000000 (1,000,001 digits)"`` (a fraction:
+        ``"≈ 3.3333e-1 (p/q: 50/51 digits)"``).
+
+    Notes
+    -----
+    Cost: quasi-linear in the digits (:func:`scientific`); the exact text is
+    never built for a long value.
+    """
+    from ..core.exact import decimal_digits, is_exact_int
+
+    if is_exact_int(value):
+        length = decimal_digits(value)
+        if length <= LONG_DIGITS:
+            return exact(value)
+        return f"{scientific(value)} ({length:,} digits)"
+    top, bottom = decimal_digits(value.numerator), decimal_digits(value.denominator)
+    if top + bottom <= LONG_DIGITS:
+        return exact(value)
+    return f"≈ {scientific(value)} (p/q: {top:,}/{bottom:,} digits)"
+
+
+def _is_long(value) -> bool:
+    """True for an exact number (not text) whose table cell would be :func:`human`'s rounded form."""
+    from ..core.exact import decimal_digits, is_exact_int
+
+    if isinstance(value, str):
+        return False
+    if is_exact_int(value):
+        return decimal_digits(value) > LONG_DIGITS
+    return decimal_digits(value.numerator) + decimal_digits(value.denominator) > LONG_DIGITS
 
 
 def console() -> "Console":
@@ -130,15 +256,19 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
         Printed in bold above the table.
     columns : sequence of str
         Column names; the first column is the row label.
-    rows : iterable of sequence of str
-        The cells, already encoded.
+    rows : iterable of sequence
+        The cells: text, already encoded, or exact numbers (``int``,
+        ``Fraction``), shown by :func:`human`.
 
     Notes
     -----
     A rich table folds long cells, which would cut a 100,000-digit count into
-    pieces; such a cell gives its length instead and the value is then written
-    on a line of its own, unbroken, as ``<row> = <value>`` (two columns) or
-    ``<row>, <column> = <value>``.  The width each value column may use is
+    pieces.  An exact number of more than :data:`LONG_DIGITS` digits shows in
+    the table as a correctly rounded decimal with its digit count; a text
+    cell too wide for the table gives its length instead; either way the
+    exact value is then written on a line of its own, unbroken, as
+    ``<row> = <value>`` (two columns) or ``<row>, <column> = <value>``
+    (a million digits in a fraction of a second: GMP's conversion).  The width each value column may use is
     what the terminal leaves after the first column, shared equally.  Cost:
     linear in the total length of the cells.
     """
@@ -156,6 +286,12 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
     for row in rows:
         cells = [row[0]]
         for i, cell in enumerate(row[1:], start=1):
+            if not isinstance(cell, str):
+                label = row[0] if len(columns) == 2 else f"{row[0]}, {columns[i]}"
+                if _is_long(cell):
+                    spill.append((label, cell))
+                cells.append(human(cell))
+                continue
             if len(cell) <= share:
                 cells.append(cell)
                 continue
@@ -168,7 +304,7 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
     out.print(title, style="bold")
     out.print(table)
     for label, cell in spill:
-        sys.stdout.write(f"{label} = {cell}\n")
+        sys.stdout.write(f"{label} = {cell if isinstance(cell, str) else exact(cell)}\n")
     sys.stdout.flush()
 
 
@@ -269,6 +405,53 @@ def write_vectors(blocks, urns: int, fmt, json_head: Optional[str], count_field:
     else:
         for block in blocks:
             out.write(format_rows(block, "[", "]\n"))
+    out.flush()
+
+
+def write_sparse(rows, fmt, json_head: Optional[str], count_field: str, index_name: str,
+                 first_index: int = 0) -> None:
+    """Stream sparse occupancy vectors (the occupied urns and their counts) as csv, jsonl or one JSON object.
+
+    Parameters
+    ----------
+    rows : iterable of tuple of (int, int)
+        Per vector, ``((urn, count), ...)``: the urns (1-based) holding at
+        least one ball, ascending; the other urns are empty.
+    fmt : ListFormat
+        ``csv``: a header ``<index_name>,occupied`` then one line per vector,
+        ``<index>,urn:count urn:count ...``; ``jsonl``: one JSON array of
+        ``[urn, count]`` pairs per line.  Ignored with *json_head*.
+    json_head : str or None
+        The JSON object's leading fields, already encoded; with it the
+        vectors go under ``"configurations"`` (arrays of pairs),
+        ``"sparse": true`` is added and their number goes under *count_field*.
+    count_field : str
+        Name of the field counting the vectors in the JSON object.
+    index_name : str
+        The csv index column (``rank`` for listings, ``draw`` for samples).
+    first_index : int
+        The index of the first vector (the start rank, or 1 for draws).
+
+    Notes
+    -----
+    One line per vector, whatever the number of urns: a vector costs its
+    occupied urns, never ``r``.  Cost: linear in the output.
+    """
+    out = sys.stdout
+    if json_head is not None:
+        out.write("{" + json_head + ', "sparse": true, "configurations": [')
+        written = 0
+        for row in rows:
+            out.write(("," if written else "") + "[" + ",".join(f"[{u},{k}]" for u, k in row) + "]")
+            written += 1
+        out.write('], "%s": "%d"}\n' % (count_field, written))
+    elif fmt is ListFormat.csv:
+        out.write(f"{index_name},occupied\n")
+        for index, row in enumerate(rows, start=first_index):
+            out.write(f"{index}," + " ".join(f"{u}:{k}" for u, k in row) + "\n")
+    else:
+        for row in rows:
+            out.write("[" + ",".join(f"[{u},{k}]" for u, k in row) + "]\n")
     out.flush()
 
 

@@ -12,12 +12,17 @@ from .options import (
     Bounds,
     Capacity,
     Json,
+    MaxMemory,
+    MaxSeconds,
     Minimum,
     NoCache,
     RuleOpt,
     Store,
     Urns,
+    Weights,
     build_model,
+    count_parser,
+    limits_scope,
     store_scope,
 )
 from .render import describe, emit_json, exact, show_table
@@ -29,7 +34,8 @@ commands = typer.Typer()
 
 Upto = Annotated[
     Optional[int],
-    typer.Option("--upto", metavar="N", help="Last degree (number of balls) of the coefficient row."),
+    typer.Option("--upto", metavar="N", parser=count_parser("upto", 0),
+                 help="Last degree (number of balls) of the coefficient row."),
 ]
 Var = Annotated[
     str,
@@ -45,6 +51,7 @@ def gf_command(
     capacity: Capacity = None,
     minimum: Minimum = None,
     bounds: Bounds = None,
+    weights: Weights = None,
     upto: Upto = None,
     mark: Annotated[
         Optional[str],
@@ -58,6 +65,8 @@ def gf_command(
     var: Var = "x",
     store: Store = None,
     no_cache: NoCache = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Print the model's generating function and its counts for 0..N balls.
@@ -74,8 +83,8 @@ def gf_command(
     """
     from ..algorithms.generating import bivariate_generating_function, generating_function, kind
 
-    with store_scope(store, no_cache):
-        model = build_model(balls, urns, rule, capacity, minimum, bounds)
+    with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
+        model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
         top = model.balls if upto is None else as_count(upto, "--upto")
         function = generating_function(model, var)
         bivariate = None if mark is None else bivariate_generating_function(model, mark, var)
@@ -102,7 +111,7 @@ def gf_command(
     if bivariate is not None:
         sys.stdout.write(f"bivariate, u marking the urns '{mark}':\n  {bivariate}\n")
     sys.stdout.flush()
-    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), exact(c)] for m, c in enumerate(row)])
+    show_table(f"{counts} of m balls, m = 0..{top}", ["m", counts], [[str(m), c] for m, c in enumerate(row)])
 
 
 @commands.command("coeff")
@@ -115,8 +124,12 @@ def coeff_command(
             "the variable, + - * / ^ (or **) and parentheses; 2x means 2*x.",
         ),
     ],
-    upto: Annotated[int, typer.Option("--upto", metavar="N", help="Last degree to expand to.")] = 10,
+    upto: Annotated[
+        int, typer.Option("--upto", metavar="N", parser=count_parser("upto", 0), help="Last degree to expand to.")
+    ] = 10,
     var: Var = "x",
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Expand a generating function exactly and print its coefficients up to x^N.
@@ -136,13 +149,14 @@ def coeff_command(
     from ..algorithms.generating import extract_coefficients
 
     top = as_count(upto, "--upto")
-    values = extract_coefficients(expression, top, var)
+    with limits_scope(max_memory, max_seconds):
+        values = extract_coefficients(expression, top, var)
     if as_json:
         emit_json({"expression": expression, "variable": var, "coefficients": [exact(c) for c in values]})
         return
     show_table(
         f"Coefficients of {expression.strip()} in powers of {var}",
         ["degree", "coefficient"],
-        [[str(m), exact(c)] for m, c in enumerate(values)],
+        [[str(m), c] for m, c in enumerate(values)],
     )
 

@@ -5,7 +5,7 @@ from typing import Annotated
 import typer
 
 from ..core.model import as_count
-from .options import MODEL_PANEL, Balls, Json
+from .options import MODEL_PANEL, Balls, Json, MaxMemory, MaxSeconds, count_parser, limits_scope
 from .render import emit_json, exact, show_table
 
 __all__ = ["commands"]
@@ -21,8 +21,11 @@ def ways_command(
     balls: Balls,
     urns: Annotated[
         int,
-        typer.Option("--urns", "-r", help="Number of urns r, >= 1.", rich_help_panel=MODEL_PANEL),
+        typer.Option("--urns", "-r", metavar="INTEGER", parser=count_parser("urns", 1),
+                     help="Number of urns r, >= 1.", rich_help_panel=MODEL_PANEL),
     ],
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Print the twelvefold way: n balls into r urns, twelve exact counts.
@@ -44,7 +47,8 @@ def ways_command(
 
     n = as_count(balls, "balls")
     r = as_count(urns, "urns", 1)
-    ways = twelvefold(n, r)
+    with limits_scope(max_memory, max_seconds):
+        ways = twelvefold(n, r)
     if as_json:
         emit_json(
             {
@@ -65,7 +69,7 @@ def ways_command(
     lookup = {(w["balls"], w["urns"], w["per_urn"]): w["count"] for w in ways}
     rows = [
         [f"{ball_kind} balls, {urn_kind} urns"]
-        + [exact(lookup[(ball_kind, urn_kind, key)]) for key, _ in _PER_URN]
+        + [lookup[(ball_kind, urn_kind, key)] for key, _ in _PER_URN]
         for ball_kind in ("labelled", "unlabelled")
         for urn_kind in ("labelled", "unlabelled")
     ]
