@@ -459,3 +459,172 @@ def test_cli_coeff_json_and_errors():
     )
     result = runner.invoke(app, ["coeff", "1/x"])
     assert result.exit_code == 2 and "Laurent series" in result.stderr
+
+
+# ---------------------------------------------------------------------------
+# groups and weights
+# ---------------------------------------------------------------------------
+
+from enumerator.algorithms.expressions import MAX_NESTING  # noqa: E402
+from enumerator.algorithms.group_rows import exponential_group_row, ordinary_group_row  # noqa: E402
+from enumerator.core.model import UrnModel  # noqa: E402
+
+
+def weighted_totals(model, top):
+    """[total weight of m balls for m = 0..top] by brute force (slow reference).
+
+    MB: sum of n!/prod k_i! prod w_i^{k_i}; BE/FD: sum of prod w_i^{k_i}.
+    """
+    out = []
+    for m in range(top + 1):
+        here = model.with_balls(m)
+        total = Fraction(0)
+        for k in reference.box(here):
+            w = Fraction(reference.multinomial(k) if model.rule.value == "MB" else 1)
+            for v, wi in zip(k, here.weights):
+                w *= wi**v
+            total += w
+        out.append(total)
+    return out
+
+
+WEIGHTED_MODELS = [
+    UrnModel(balls=5, weights=[1, 2, Fraction(1, 3)], rule="BE"),
+    UrnModel(balls=5, groups=[(2, 0, 2, Fraction(3, 2)), (1, 1, None, 2)], rule="BE"),
+    UrnModel(balls=3, groups=[(2, 0, 1, Fraction(1, 2)), (2, 0, 1, 5)], rule="FD"),
+    UrnModel(balls=5, weights=[1, 2, Fraction(1, 3)], rule="MB"),
+    UrnModel(balls=6, groups=[(2, 0, 2, Fraction(3, 2)), (2, 1, 3, 2)], rule="MB"),
+]
+
+
+@pytest.mark.parametrize("model", WEIGHTED_MODELS, ids=repr)
+def test_weighted_generating_functions_and_rows_match_brute_force_and_sympy(model):
+    top = 6
+    expected = weighted_totals(model, top)
+    row = coefficient_row(model, top)
+    assert row == expected
+    exponential = model.rule.value == "MB"
+    assert sympy_row(generating_function(model), top, exponential) == [sympy.Rational(v.numerator, v.denominator)
+                                                                      for v in expected]
+    # configurations do not depend on weights
+    unweighted = model.with_groups([(g.count, g.lower, g.upper) for g in model.groups])
+    assert coefficient_row(model, top, count="configurations") == coefficient_row(unweighted, top, "configurations")
+    # the bivariate function at u = 1 is the generating function
+    assert sympy.simplify(bivariate_generating_function(model, "empty").subs(u, 1) - generating_function(model)) == 0
+
+
+def test_weighted_bivariate_counts_empty_urns_by_brute_force():
+    model = UrnModel(balls=3, weights=[1, 2, 3], rule="BE")
+    bgf = bivariate_generating_function(model, "empty")
+    poly = sympy.Poly(sympy.expand(sympy.series(bgf, x, 0, 4).removeO()).coeff(x, 3), u)
+    by_empty = {}
+    for k in reference.box(model):
+        w = Fraction(1)
+        for v, wi in zip(k, model.weights):
+            w *= wi**v
+        e = sum(1 for v in k if v == 0)
+        by_empty[e] = by_empty.get(e, 0) + w
+    for e, total in by_empty.items():
+        assert poly.coeff_monomial(u**e) == sympy.Rational(total.numerator, total.denominator)
+
+
+def test_a_model_given_per_urn_and_in_groups_has_one_generating_function():
+    per_urn = UrnModel(balls=4, weights=[2, 2, 1, 2], bounds=[(0, 1), (0, 1), (0, None), (0, 1)], rule="BE")
+    grouped = UrnModel(balls=4, groups=[(2, 0, 1, 2), (1, 0, None, 1), (1, 0, 1, 2)], rule="BE")
+    assert generating_function(per_urn) == generating_function(grouped)
+    assert coefficient_row(per_urn, 7) == coefficient_row(grouped, 7)
+    # merged into one power: ((1 + 2x)^3 / (1 - x))
+    assert sympy.simplify(generating_function(grouped) - (1 + 2 * x) ** 3 / (1 - x)) == 0
+
+
+def test_generating_functions_and_rows_at_2_to_the_64_urns():
+    r = 2**64
+    assert generating_function(UrnModel(balls=2, urns=r, rule="BE")) == (1 - x) ** (-r)
+    assert generating_function(UrnModel(balls=2, urns=r, rule="FD")) == (1 + x) ** r
+    # BE: C(m + r - 1, m); FD: C(r, m); MB: r^m; MB at most one per urn: r (r-1) ... (falling powers)
+    assert coefficient_row(UrnModel(balls=3, urns=r, rule="BE")) == [math.comb(m + r - 1, m) for m in range(4)]
+    assert coefficient_row(UrnModel(balls=3, urns=r, rule="FD")) == [math.comb(r, m) for m in range(4)]
+    assert coefficient_row(UrnModel(balls=3, urns=r, rule="MB")) == [r**m for m in range(4)]
+    assert coefficient_row(UrnModel(balls=3, urns=r, rule="MB", capacity=1)) == [math.perm(r, m) for m in range(4)]
+    # weighted: one urn of weight 1/2 beside 2^64 of weight 1, BE: sum_j (1/2)^j C(m - j + r - 1, m - j)
+    model = UrnModel(balls=3, groups=[(1, 0, None, Fraction(1, 2)), (r, 0, None, 1)], rule="BE")
+    expected = [sum(Fraction(1, 2**j) * math.comb(m - j + r - 1, m - j) for j in range(m + 1)) for m in range(4)]
+    assert coefficient_row(model) == expected
+
+
+@pytest.mark.parametrize("count,lower,upper", [(1, 0, 3), (5, 0, 2), (4, 0, 17), (3, 1, 4), (2, 2, None), (6, 0, None)])
+def test_group_rows_match_brute_force(count, lower, upper):
+    top = 9
+    model = UrnModel(balls=0, groups=[(count, lower, upper)], rule="MB")
+    brute_mb = [sum(reference.multinomial(k) for k in reference.box(model.with_balls(m))) for m in range(top + 1)]
+    brute_be = [sum(1 for _ in reference.box(model.with_balls(m))) for m in range(top + 1)]
+    assert [int(v) for v in exponential_group_row(count, lower, upper, top)] == brute_mb
+    assert [int(v) for v in ordinary_group_row(count, lower, upper, top)] == brute_be
+    assert [int(v) for v in exponential_group_row(count, lower, upper, top, 3)] == [3**m * v for m, v in enumerate(brute_mb)]
+
+
+def test_miller_rows_for_huge_groups_agree_with_flint_powers():
+    # The recurrence (used from 2^32 urns, or spans up to 16) against FLINT's
+    # binary power of the scaled window (used below 2^32 urns): same numbers.
+    for count in (3, 7, 2**33):
+        for span in (2, 5, 16):
+            miller = exponential_group_row(count, 0, span, 20)
+            fac = math.factorial
+            window = fmpz_poly([fac(20) // fac(k) for k in range(span + 1)])
+            power = window ** 1
+            for _ in range(count - 1) if count < 100 else ():
+                power = power.mul_low(window, 21) // fac(20)
+            if count < 100:
+                assert [int(v) for v in miller] == [int(power[m]) * fac(m) // fac(20) if m <= power.degree() else 0
+                                                    for m in range(21)]
+            else:  # m balls in 2^33 urns, each at most span: exact for m <= span (no bound bites)
+                assert [int(v) for v in miller[: span + 1]] == [count**m for m in range(span + 1)]
+
+
+def test_rows_and_expansions_too_large_are_refused_before_allocating():
+    with pytest.raises(TooLarge, match="upto=") as caught:
+        coefficient_row(UrnModel(balls=3, urns=2, rule="MB"), 10**9)
+    assert "upto" in caught.value.parameters
+    with pytest.raises(TooLarge, match="upto="):
+        coefficient_row(UrnModel(balls=3, urns=2, rule="BE"), 10**9)
+    with pytest.raises(TooLarge, match="upto="):
+        extract_coefficients("1/(1-x)", 10**8)
+    with pytest.raises(TooLarge):
+        extract_coefficients("1/(1 - x - x^2)", 10**6)
+
+
+def test_expressions_bound_their_nesting_and_numbers():
+    deep = "(" * (MAX_NESTING + 1) + "x" + ")" * (MAX_NESTING + 1)
+    for text in (deep, "-" * 500 + "x", "x^" * 300 + "2"):
+        with pytest.raises(InvalidParameters, match="levels deep"):
+            extract_coefficients(text, 2)
+    assert extract_coefficients("(" * 50 + "1 + x" + ")" * 50, 2) == [1, 1, 0]
+    with pytest.raises(InvalidParameters, match="limited to 4,000 digits"):
+        extract_coefficients("9" * 4001 + " * x", 2)
+    assert extract_coefficients("9" * 4000 + " * x", 1) == [0, int("9" * 4000)]
+    with pytest.raises(InvalidParameters, match="not a whole number"):
+        extract_coefficients("1e999999999", 2)
+    # a flat sum of 3000 terms k x^k is one Add node: its row is 0, 1, ..., 2999 as written
+    text = " + ".join(f"{k}*x^{k}" for k in range(3000))
+    values = extract_coefficients(text, 2999)
+    assert values == list(range(3000))
+    # a deep SymPy tree handed in directly is refused, not a RecursionError
+    tree = x
+    for _ in range(400):
+        tree = sympy.Pow(tree + 1, 1, evaluate=False)
+    with pytest.raises(InvalidParameters, match="levels deep"):
+        extract_coefficients(tree, 2)
+
+
+def test_expression_parser_keeps_precedence():
+    # Python's precedence: ** binds tighter than a sign on its left, and is right-associative
+    assert extract_coefficients("-x^2 + 3", 2) == [3, 0, -1]
+    assert extract_coefficients("2^3^2", 0) == [512]
+    assert extract_coefficients("2^-1 * x", 1) == [0, Fraction(1, 2)]
+    assert extract_coefficients("(1 - x)(1 + x)", 2) == [1, 0, -1]
+    assert extract_coefficients("1 - x - x", 1) == [1, -2]
+    assert extract_coefficients("12/4/3", 0) == [1]
+    # SymPy's own parse (a reference) agrees on a mixed text
+    text = "3*(1 + x)^2/(1 - 2*x) - x^3 + 4/7"
+    assert extract_coefficients(text, 6) == [sympy.Rational(c) if sympy.Rational(c).q != 1 else int(c)
+                                             for c in sympy_row(sympy.sympify(text), 6)]
