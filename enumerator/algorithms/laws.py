@@ -36,6 +36,19 @@ law.
   is counted first (a Gaussian binomial coefficient) and a request above
   *limit* raises :class:`~enumerator.core.errors.TooLarge`.
 
+Weighted models, and models of more than :data:`PER_URN_ROUTES` urns, are
+answered by urn groups (:mod:`enumerator.algorithms.grouped`): the totals
+(:func:`outcome_total`), ``max``/``min`` by grouped bounded counts (with the
+one-term inclusion–exclusion for ``2(m+1) > n``), ``urn:I`` by the urn's
+weight times the other groups' row (binomial under MB when the others are
+free), and counting statistics by the bivariate generating function of the
+groups with the side of the window that excludes 0 marked — at most ``n``
+urns hold a ball, so the law has at most ``n + 1`` values at any ``r``
+(:func:`marked_moments` gives their first two binomial moments from
+``G + G^2`` bounded counts).  Costs grow with ``n``, the number of groups
+and the size of the answer, never with ``r``, and are checked with
+:func:`~enumerator.core.limits.check` before computing.
+
 Full enumeration of the configurations (:func:`enumerated_counts`) is the
 last resort, used only for per-urn bounds so varied that the group method
 would need more bounded counts than listing the configurations, and refused
@@ -405,13 +418,19 @@ def marked_counts(model: UrnModel, low: int, high: Optional[int], limit: int) ->
     otherwise one bounded count per tuple of marked urns per group of equal
     bounds (at most :data:`GROUP_TUPLE_LIMIT`), listing beyond.
     """
-    if not _per_urn(model):
-        return _group_marked_law(model, low, high)
     n, r = model.balls, model.urns
+    if not _per_urn(model) or (r > n + 1 and n <= 200):
+        # at most n urns hold a ball: the law by groups has at most n + 1 values
+        return _group_marked_law(model, low, high)
     rule = model.rule
     a0, b0 = model.bounds[0]
     free_top = model.is_uniform and (b0 is None or b0 >= n - (r - 1) * a0)
     if model.is_uniform and a0 == 0 and free_top:
+        # r + 1 binomial moments of up to n log2 r bits, then one product of that length
+        bits = max(64.0, n * math.log2(max(r, 2)) + r * math.log2(max(r, 2)))
+        limits.check(Cost(seconds=(r + 1) * (math.log2(n + 2) + 4) * limits.product_seconds(bits),
+                          memory=4 * (r + 1) * bigint_bytes(bits)),
+                     f"the law of a counting statistic for {n} balls in {r} urns", advice="use fewer balls")
         B = _free_binomial_moments(n, r, rule, low, high)
         if B is not None:
             kind, moments = B
@@ -814,6 +833,10 @@ def profile_counts(model: UrnModel, limit: int) -> Dict[Tuple[int, ...], "mpz"]:
                 "raise limit= or choose a summary statistic such as max or empty",
                 parameters=["limit"],
             )
+        # every profile is a tuple of r entries: the answer itself is profiles x r numbers
+        limits.check(Cost(seconds=how_many * (r + n) / limits.STEPS_PER_SECOND, memory=how_many * (r * 8 + 64)),
+                     f"the {how_many} occupancy profiles of {r} urns",
+                     advice="choose a summary statistic such as max, empty or exactly:J")
         fac_r = fac(r)
         for part in _partitions(n - r * a, r, b - a):
             profile = tuple(v + a for v in part) + (a,) * (r - len(part))

@@ -22,10 +22,19 @@ as a :class:`Distribution`: the probability mass function over the support
 (exact :class:`~fractions.Fraction` values, summing to exactly 1) and, for the
 numeric statistics, the exact mean and variance.
 
-Everything is counted in the model's equally likely outcomes by the
-statistic's exact route (:mod:`enumerator.algorithms.laws`: bounded counts,
-binomial moments, generating-function rows, profiles; listing only as a last
-resort), and divided by their total once at the end.
+Everything is counted in the model's equally likely outcomes — for a
+weighted model, in the weight of the outcomes (MB: an assignment weighs
+``prod_i w_i^{k_i}``, so ``P(k) = n!/prod k_i! prod (w_i/W)^{k_i}``,
+conditioned on the bounds; BE/FD: ``P(k)`` proportional to
+``prod_i w_i^{k_i}``) — by the statistic's exact route
+(:mod:`enumerator.algorithms.laws`: bounded counts, binomial moments,
+generating-function rows, profiles; listing only as a last resort), and
+divided by their total once at the end.  Small unweighted models keep their
+per-urn routes; weighted models and those of many urns are answered by urn
+groups (:mod:`enumerator.algorithms.grouped`), at a cost that grows with
+``n``, the number of groups and the size of the answer, never with ``r``.
+:func:`statistic_moments` gives the exact mean and variance of a statistic
+without its law where a cheaper route exists.
 
 All arithmetic is exact (gmpy2 and FLINT inside); the public results are
 ``int`` and :class:`~fractions.Fraction`.
@@ -174,7 +183,10 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
         ``{value: int}`` (values of count 0 may be missing).
     total : int
         The number of outcomes of *model* (MB: microstates; BE/FD:
-        configurations), so ``P(value) = counts[value] / total``.
+        configurations), so ``P(value) = counts[value] / total``.  For a
+        weighted model, counts and total are weights, with the weights
+        scaled to integers (:func:`~enumerator.algorithms.grouped.integer_groups`:
+        the common factor cancels in every ratio).
 
     Raises
     ------
@@ -184,7 +196,10 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
     Notes
     -----
     Follows the statistic's registry entry to its route in
-    :mod:`enumerator.algorithms.laws`; the costs are given there.
+    :mod:`enumerator.algorithms.laws`; the costs are given there, and each
+    route checks its estimate with :func:`~enumerator.core.limits.check`
+    before computing (:class:`~enumerator.core.errors.TooLarge` beyond the
+    limits).
     """
     stat = parse_statistic(statistic)
     limit = as_count(limit, "limit", 1)
