@@ -644,3 +644,10 @@ def test_a_listing_too_wide_is_refused_before_it_starts():
     with limited(memory=10**5):
         with pytest.raises(TooLarge, match="memory"):
             listing.check_listing(model, 0, 2, size=2)
+
+
+def test_dense_unrank_beyond_the_per_urn_limit_points_at_the_sparse_form():
+    model = UrnModel(balls=2, urns=2**64, rule="BE")
+    with pytest.raises(TooLarge, match=r"unrank_sparse\(model, index\)"):
+        listing.unrank(model, 0)
+    assert listing.unrank_sparse(model, 0) == ((2**64, 2),)

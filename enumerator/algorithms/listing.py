@@ -97,9 +97,9 @@ from typing import Iterator, List, Optional, Tuple
 
 import numpy as np
 
-from ..core.errors import InvalidConfiguration, InvalidParameters
+from ..core.errors import InvalidConfiguration, InvalidParameters, TooLarge
 from ..core.limits import Cost, check
-from ..core.model import as_count
+from ..core.model import PER_URN_LIMIT, as_count
 from .listing_tables import (
     BLOCK_TABLE_BUDGET,
     MEMO,
@@ -211,6 +211,7 @@ def unrank(model, index) -> Tuple[int, ...]:
         raise InvalidParameters(
             f"rank must be a whole number (got {index!r} of type {type(index).__name__})"
         ) from None
+    _dense_only(model, "unrank_sparse(model, index)")
     plan = plan_for(model)
     ranker = ranker_for(_MEMO.slots(model), plan)
     count = ranker.count
@@ -225,6 +226,15 @@ def unrank(model, index) -> Tuple[int, ...]:
             f"(the model has {count} configurations)"
         )
     return plan.unshift(ranker.unrank(index))
+
+
+def _dense_only(model, instead: str) -> None:
+    """Refuse a dense vector of more than :data:`PER_URN_LIMIT` urns, pointing at the sparse form."""
+    if model.urns > PER_URN_LIMIT:
+        raise TooLarge(
+            f"the model has {model.urns:,} urns; a configuration with one entry per urn is limited to "
+            f"{PER_URN_LIMIT:,} entries; use {instead}, which lists the occupied urns only"
+        )
 
 
 def _sparse_ranker(model) -> SparseRanker:
