@@ -554,9 +554,9 @@ def test_sweeps():
 
 @pytest.mark.parametrize("kwargs,error,message", [
     (dict(vary="balls=10-100", urns=3), InvalidParameters, "must look like balls=10..1000"),
-    (dict(vary="colour=1..3", urns=3), InvalidParameters, "--vary names one of"),
+    (dict(vary="colour=1..3", urns=3), InvalidParameters, "vary= names one of"),
     (dict(vary="balls=100..10", urns=3), InvalidParameters, "START 100 is above STOP 10"),
-    (dict(vary="balls=1..10", urns=3, balls=4), InvalidParameters, "balls is varied by --vary"),
+    (dict(vary="balls=1..10", urns=3, balls=4), InvalidParameters, "balls is varied by vary="),
     (dict(vary="balls=1..10", urns=3, step=1, geometric=3), InvalidParameters, "not both"),
     (dict(vary="balls=0..10", urns=3, geometric=3), InvalidParameters, "START must be at least 1"),
     (dict(vary=None, urns=3), InvalidParameters, "give --balls N"),
@@ -569,6 +569,26 @@ def test_sweep_errors(kwargs, error, message):
     vary = kwargs.pop("vary")
     with pytest.raises(error, match=message):
         sweep(vary, **kwargs)
+
+
+@pytest.mark.parametrize("call, parameters", [
+    (lambda: sweep("balls=3-9", urns=3), ("vary",)),
+    (lambda: sweep("colour=1..3", urns=3), ("vary",)),
+    (lambda: sweep("balls=100..10", urns=3), ("vary",)),
+    (lambda: sweep("balls=1..10", urns=3, balls=4), ("vary",)),
+    (lambda: parse_tie("balls", "balls")(None), ("vary",)),
+    (lambda: compare("birthday", [Point(balls=3)]), ("urns",)),
+])
+def test_errors_name_library_parameters_not_flags(call, parameters):
+    with pytest.raises(InvalidParameters) as caught:
+        call()
+    error = caught.value
+    assert "--" not in str(error)
+    assert error.parameters == parameters
+    assert all(f"{name}=" in str(error) for name in parameters)
+    # a front end spells them its own way (the CLI: --vary, --urns)
+    spelled = error.spelled({name: f"--{name}" for name in parameters})
+    assert all(f"--{name}" in spelled and f"{name}=" not in spelled for name in parameters)
 
 
 def test_parse_range():

@@ -90,7 +90,8 @@ class Approximation:
             if r is None:
                 raise InvalidParameters(
                     f"{self.name} needs urns: give a number or an expression of the varied "
-                    "parameter (e.g. --urns 365 or --urns balls//2)"
+                    "parameter (e.g. urns= 365 or urns= balls//2)",
+                    parameters=["urns"],
                 )
             r = as_count(r, "urns", 1)
         at = point.at

@@ -224,7 +224,8 @@ def _evaluate_tree(tree, value, tie) -> Fraction:
     if kind == "name":
         if value is None:
             raise InvalidParameters(
-                f"{tie.text!r} uses {tree[1]} but nothing is varied; add --vary {tree[1]}=START..STOP"
+                f"{tie.text!r} uses {tree[1]} but nothing is varied; add vary= {tree[1]}=START..STOP",
+                parameters=["vary"],
             )
         return Fraction(value)
     if kind == "neg":
@@ -389,13 +390,16 @@ def parse_range(text: str) -> Tuple[str, int, int]:
     match = _RANGE.fullmatch(str(text))
     if not match:
         raise InvalidParameters(
-            f"--vary must look like balls=10..1000 (a parameter, =, START..STOP with whole numbers); got {text!r}"
+            f"vary= must look like balls=10..1000 (a parameter, =, START..STOP with whole numbers); got {text!r}",
+            parameters=["vary"],
         )
     name, start, stop = match.group(1), int(match.group(2)), int(match.group(3))
     if name not in NUMERIC:
-        raise InvalidParameters(f"--vary names one of {', '.join(NUMERIC)} (got {name!r})")
+        raise InvalidParameters(f"vary= names one of {', '.join(NUMERIC)} (got {name!r})", parameters=["vary"])
     if start > stop:
-        raise InvalidParameters(f"--vary {text}: START {start} is above STOP {stop}; give START <= STOP")
+        raise InvalidParameters(
+            f"vary= {text}: START {start} is above STOP {stop}; give START <= STOP", parameters=["vary"]
+        )
     return name, start, stop
 
 
@@ -517,7 +521,9 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
     else:
         variable, start, stop = parse_range(vary)
         if variable in fixed:
-            raise InvalidParameters(f"{variable} is varied by --vary; do not also give it a value")
+            raise InvalidParameters(
+                f"{variable} is varied by vary=; do not also give it a value", parameters=["vary"]
+            )
         values = _grid(start, stop, step, geometric)
     ties = {k: parse_tie(fixed[k], None if vary is None else variable) for k in NUMERIC if k in fixed}
     pattern = None if fixed.get("pattern") is None else parse_pattern(fixed["pattern"])
