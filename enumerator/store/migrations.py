@@ -171,12 +171,16 @@ def _as_text_columns(connection: Connection, table: Table, columns: Sequence[str
     anew in the frozen layout (with its indexes), filled with one ``INSERT
     ... SELECT`` that casts the columns to text, and the old one dropped —
     the procedure of the SQLite documentation ("ALTER TABLE", making other
-    kinds of table schema changes).  PostgreSQL and MySQL change the type in
-    place.  Cost: one copy of the table inside the upgrade transaction.
+    kinds of table schema changes).  PostgreSQL changes the type in place
+    (``ALTER COLUMN ... TYPE TEXT USING``); other backends are refused (the
+    upgrade then fails as a whole and the store keeps schema 1).  Cost: one
+    copy of the table inside the upgrade transaction.
     """
     dialect = connection.dialect.name
     quote = connection.dialect.identifier_preparer.quote
     name = table.name
+    if not inspect(connection).has_table(name):
+        return  # created afterwards in the current layout, like any missing table
     if dialect == "sqlite":
         aside = f"{name}_schema1"
         connection.exec_driver_sql(f"ALTER TABLE {quote(name)} RENAME TO {quote(aside)}")
@@ -196,10 +200,6 @@ def _as_text_columns(connection: Connection, table: Table, columns: Sequence[str
             connection.exec_driver_sql(
                 f"ALTER TABLE {quote(name)} ALTER COLUMN {quote(column)} TYPE TEXT USING {quote(column)}::text"
             )
-    elif dialect in ("mysql", "mariadb"):
-        for column in columns:
-            null = "NULL" if table.c[column].nullable else "NOT NULL"
-            connection.exec_driver_sql(f"ALTER TABLE {quote(name)} MODIFY {quote(column)} TEXT {null}")
     else:
         raise NotImplementedError(f"changing a column's type on {dialect} (upgrade the store on SQLite or PostgreSQL)")
 
