@@ -321,7 +321,7 @@ def test_cli_sample_errors_come_before_output():
 # ---------------------------------------------------------------------------
 
 from enumerator.algorithms.sampling import dense_sample_cost, iter_sample_sparse  # noqa: E402
-from enumerator.algorithms.sampling_groups import GroupSampler, uniform_below  # noqa: E402
+from enumerator.algorithms.sampling_groups import GroupSampler, RandomWords  # noqa: E402
 from enumerator.core.limits import limited  # noqa: E402
 from enumerator.core.model import UrnModel  # noqa: E402
 
@@ -461,17 +461,21 @@ def test_sparse_draws_with_a_capacity_at_huge_r_halve_exactly():
     assert all(sum(1 for _, k in d if k == 2) == 0 for d in draws)
 
 
-def test_uniform_below_is_exact_for_big_bounds():
-    rng = np.random.default_rng(12)
+def test_random_words_give_exact_uniform_integers():
+    words = RandomWords(np.random.default_rng(12))
     bound = 3 * 2**70
-    values = [uniform_below(rng, bound) for _ in range(6000)]
+    values = [words.below(bound) for _ in range(6000)]
     assert all(0 <= v < bound for v in values)
     # residues mod 3 and the top two bits (each third of [0, bound) is 2^70 wide)
     assert chisquare(list(Counter(v % 3 for v in values).values())).pvalue > P_MIN
     assert chisquare([sum(1 for v in values if v >> 70 == t) for t in range(3)]).pvalue > P_MIN
-    assert uniform_below(rng, 1) == 0
+    # below 2^64: a bound just above 2^63 (where modulo reduction alone would be biased 2:1)
+    small = 2**63 + 2**62
+    values = [words.below(small) for _ in range(6000)]
+    assert chisquare([sum(1 for v in values if v * 3 // small == t) for t in range(3)]).pvalue > P_MIN
+    assert words.below(1) == 0
     with pytest.raises(ValueError):
-        uniform_below(rng, 0)
+        words.below(0)
 
 
 def test_dense_samples_are_refused_before_allocating():

@@ -74,7 +74,7 @@ from ..core.limits import Cost, check
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel, as_count
 from .counting import count_configurations, count_microstates
-from .sampling_groups import GroupSampler
+from .sampling_groups import GroupSampler, RandomWords
 
 __all__ = [
     "METHODS",
@@ -266,8 +266,9 @@ def iter_sample_sparse(model: UrnModel, size, seed=None) -> Iterator[Tuple[Tuple
             np.random.PCG64(np.random.SeedSequence(root.entropy, spawn_key=(index,)))
         )
         take = min(rows, size - produced)
+        words = RandomWords(rng)
         for _ in range(take):
-            yield sampler.draw(rng)
+            yield sampler.draw(words)
         produced += take
         index += 1
         rows = min(2 * rows, cap)

@@ -18,7 +18,7 @@ ch. 13; Feller vol. 1 §II.5 for stars and bars):
    ``C(m, j) S_g(j) R_{g+1}(m-j)`` (MB), out of ``R_g(m)``.  Rational weights
    are scaled to integers first, so every choice is an exact integer
    threshold: a uniform integer below the total (whole 64-bit words from
-   NumPy's PCG64, with rejection — no floating point) against the running
+   NumPy's PCG64 with rejection, :class:`RandomWords` — no floating point) against the running
    sums.
 2. **Inside a group** the urns are interchangeable (equal weight and
    bounds), so the weight cancels:
@@ -40,6 +40,7 @@ number of urns ``r``.
 
 from __future__ import annotations
 
+import bisect
 import math
 from typing import Dict, List, Optional, Tuple
 
@@ -50,52 +51,72 @@ from ..core.errors import InvalidParameters
 from ..core.limits import STEPS_PER_SECOND, Cost, bigint_bytes, check
 from .group_rows import group_row, integer_weights, row_bits, rows_cost, suffix_rows
 
-__all__ = ["GroupSampler", "uniform_below"]
+__all__ = ["GroupSampler", "RandomWords"]
 
 mpz = gmpy2.mpz
 
 Sparse = Tuple[Tuple[int, int], ...]
 
 
-def uniform_below(rng: np.random.Generator, bound: int) -> int:
-    """A uniform integer in ``[0, bound)``, exact for any size of *bound*.
+class RandomWords:
+    """Uniform 64-bit words from a NumPy generator, drawn 512 at a time, and exact bounded integers from them.
 
-    Below ``2**64`` one call to NumPy's unbiased bounded integers (Lemire's
-    method); above, whole 64-bit words masked to the bit length of
-    ``bound - 1`` and rejected when too large (fewer than two tries on average).
+    :meth:`below` is exact by rejection (Knuth, *TAOCP* vol. 2, 3rd ed.,
+    1997, §3.4.1): below ``2**64`` a word is kept when it is under the
+    largest multiple of the bound and reduced modulo it; above, whole words
+    are joined, masked to the bound's bit length and kept when under it.
+    Buffering makes each draw a list pop instead of a NumPy call.
     """
-    if bound <= 0:
-        raise ValueError("bound must be positive")
-    if bound <= 2**64:
-        return int(rng.integers(0, bound - 1, endpoint=True, dtype=np.uint64))
-    bits = (bound - 1).bit_length()
-    words = -(-bits // 64)
-    mask = (1 << bits) - 1
-    while True:
-        value = 0
-        for word in rng.integers(0, 2**64 - 1, size=words, endpoint=True, dtype=np.uint64).tolist():
-            value = (value << 64) | word
-        value &= mask
-        if value < bound:
-            return value
+
+    __slots__ = ("rng", "buffer")
+
+    def __init__(self, rng: np.random.Generator):
+        self.rng = rng
+        self.buffer: List[int] = []
+
+    def word(self) -> int:
+        if not self.buffer:
+            self.buffer = self.rng.integers(0, 2**64 - 1, size=512, endpoint=True, dtype=np.uint64).tolist()
+        return self.buffer.pop()
+
+    def below(self, bound: int) -> int:
+        """A uniform integer in ``[0, bound)``, exactly."""
+        if bound <= 0:
+            raise ValueError("bound must be positive")
+        if bound <= 2**64:
+            limit = 2**64 - (2**64 % bound)
+            while True:
+                w = self.word()
+                if w < limit:
+                    return w % bound
+        bits = (bound - 1).bit_length()
+        words = -(-bits // 64)
+        mask = (1 << bits) - 1
+        while True:
+            value = 0
+            for _ in range(words):
+                value = (value << 64) | self.word()
+            value &= mask
+            if value < bound:
+                return value
 
 
-def _pick(rng, weights: List, total) -> int:
-    """The index ``i`` with ``sum_{<i} w < U <= sum_{<=i} w`` for ``U`` uniform below *total*."""
-    u = uniform_below(rng, int(total))
-    running = 0
-    for i, w in enumerate(weights):
-        running += w
-        if u < running:
-            return i
-    raise AssertionError("weights do not add up to the total")  # pragma: no cover
+def _pick_cumulative(rng, cumulative: List) -> int:
+    """The index ``i`` with ``C_{i-1} <= U < C_i`` for ``U`` uniform below the last running sum ``C``."""
+    u = rng.below(int(cumulative[-1]))
+    return bisect.bisect_right(cumulative, u)
+
+
+#: Most running sums the sampler keeps between draws (each a big integer of
+#: about the size of the counts); past it, rows are summed afresh per draw.
+MEMO_ENTRIES = 1 << 21
 
 
 def _floyd(rng, population: int, k: int) -> List[int]:
     """A uniform ``k``-subset of ``range(population)``, sorted (Floyd's algorithm; any size of *population*)."""
     chosen = set()
     for j in range(population - k, population):
-        t = uniform_below(rng, j + 1)
+        t = rng.below(j + 1)
         chosen.add(j if t in chosen else t)
     return sorted(chosen)
 
@@ -144,6 +165,8 @@ class GroupSampler:
             )
         self.own = [group_row(self.kind, c, a, b, n, w) for c, a, b, w in spec] if len(spec) > 1 else None
         self._halves: Dict[Tuple[int, int, int, int], List] = {}
+        self._cumulative: Dict[Tuple[int, int], Tuple[int, List]] = {}
+        self._kept = 0
 
     # -- cost --------------------------------------------------------------
     def draw_cost(self, size: int) -> Cost:
@@ -164,8 +187,14 @@ class GroupSampler:
         return b >= j or b == 1
 
     # -- one draw ------------------------------------------------------------
-    def draw(self, rng: np.random.Generator) -> Sparse:
-        """One configuration as ``((urn, count), ...)``: occupied urns, 1-based, ascending."""
+    def draw(self, rng) -> Sparse:
+        """One configuration as ``((urn, count), ...)``: occupied urns, 1-based, ascending.
+
+        *rng* is a :class:`RandomWords` (pass the same one for successive
+        draws) or a NumPy generator (wrapped for this draw alone).
+        """
+        if isinstance(rng, np.random.Generator):
+            rng = RandomWords(rng)
         m = self.n
         out: List[Tuple[int, int]] = []
         last = len(self.groups) - 1
@@ -173,30 +202,72 @@ class GroupSampler:
             if g == last:
                 j = m
             else:
-                own, rest = self.own[g], self.rows[g + 1]
-                lo = c * a if c * a <= m else m + 1
-                weights = []
-                for t in range(lo, min(m, c * b) + 1):
-                    w = own[t] * rest[m - t]
-                    if self.kind == "exponential" and w:
-                        w *= math.comb(m, t)
-                    weights.append(w)
-                total = self.rows[g][m]  # the sum of the weights (a labelled convolution for MB)
-                j = lo + _pick(rng, weights, total)
+                lo, cumulative = self._split(g, m)
+                j = lo + _pick_cumulative(rng, cumulative)
             m -= j
             if j or a:
                 out.extend((first + i, k) for i, k in self._inside(rng, c, a, b, j))
         return tuple(out)
 
+    def _split(self, g: int, m: int) -> Tuple[int, List]:
+        """``(lo, running sums)`` of the law of group *g*'s balls given *m* left (kept while they fit)."""
+        key = (g, m)
+        got = self._cumulative.get(key)
+        if got is not None:
+            return got
+        c, a, b, _, _ = self.groups[g]
+        own, rest = self.own[g], self.rows[g + 1]
+        lo = c * a
+        cumulative, running = [], 0
+        for t in range(lo, min(m, c * b) + 1):
+            w = own[t] * rest[m - t]
+            if self.kind == "exponential" and w:
+                w *= math.comb(m, t)
+            running += w
+            cumulative.append(running)
+        # the last running sum is R_g(m) (a labelled convolution for MB)
+        got = (lo, cumulative)
+        if self._kept + len(cumulative) <= MEMO_ENTRIES:
+            self._cumulative[key] = got
+            self._kept += len(cumulative)
+        return got
+
+    def _halves_split(self, c: int, a: int, b: int, j: int) -> Tuple[int, List]:
+        """``(lo, running sums)`` of the left half's balls when ``c`` urns share ``j`` (kept while they fit)."""
+        key = (-c, j, a, b)  # negative: never a group's (g, m) key
+        got = self._cumulative.get(key)
+        if got is not None:
+            return got
+        top = self.n
+        c1 = c // 2
+        c2 = c - c1
+        left, right = self._half_row(c1, a, b, top), self._half_row(c2, a, b, top)
+        lo = max(c1 * a, j - c2 * b)
+        hi = min(c1 * b, j - c2 * a)
+        cumulative, running = [], 0
+        for t in range(lo, hi + 1):
+            w = left[t] * right[j - t]
+            if self.kind == "exponential" and w:
+                w *= math.comb(j, t)
+            running += w
+            cumulative.append(running)
+        got = (lo, cumulative)
+        if self._kept + len(cumulative) <= MEMO_ENTRIES:
+            self._cumulative[key] = got
+            self._kept += len(cumulative)
+        return got
+
     def _inside(self, rng, c: int, a: int, b: int, j: int) -> List[Tuple[int, int]]:
         """``j`` balls among ``c`` interchangeable urns with bounds ``a..b``: 0-based ``(urn, count)`` pairs."""
         if j == 0 and a == 0:
             return []
+        if c == 1:
+            return [(0, j)]
         if not a:
             if self.kind == "exponential" and b >= j:
                 counts: Dict[int, int] = {}
                 for _ in range(j):
-                    urn = uniform_below(rng, c)
+                    urn = rng.below(c)
                     counts[urn] = counts.get(urn, 0) + 1
                 return sorted(counts.items())
             if self.kind == "ordinary" and b >= j:
@@ -224,7 +295,6 @@ class GroupSampler:
         Iterative (an explicit stack, left halves first), so a group of
         ``10**4000`` urns descends its 13,000 levels without recursion.
         """
-        top = self.n
         stack = [(offset, c, j)]
         while stack:
             offset, c, j = stack.pop()
@@ -235,16 +305,8 @@ class GroupSampler:
                 continue
             c1 = c // 2
             c2 = c - c1
-            left, right = self._half_row(c1, a, b, top), self._half_row(c2, a, b, top)
-            lo = max(c1 * a, j - c2 * b)
-            hi = min(c1 * b, j - c2 * a)
-            weights = []
-            for t in range(lo, hi + 1):
-                w = left[t] * right[j - t]
-                if self.kind == "exponential" and w:
-                    w *= math.comb(j, t)
-                weights.append(w)
-            t = lo + _pick(rng, weights, sum(weights))
+            lo, cumulative = self._halves_split(c, a, b, j)
+            t = lo + _pick_cumulative(rng, cumulative)
             stack.append((offset + c1, c2, j - t))
             stack.append((offset, c1, t))
 
@@ -253,7 +315,8 @@ class GroupSampler:
         """*rows* draws as an int64 array of shape ``(rows, r)`` (small ``r`` only: the caller checks)."""
         r = self.model.urns if r is None else r
         out = np.zeros((rows, r), dtype=np.int64)
+        words = RandomWords(rng)
         for i in range(rows):
-            for urn, k in self.draw(rng):
+            for urn, k in self.draw(words):
                 out[i, urn - 1] = k
         return out
