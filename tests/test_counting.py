@@ -21,12 +21,21 @@ from sympy.functions.combinatorial.numbers import nT, partition, stirling
 
 from enumerator import Occupancy
 from enumerator.algorithms.counting import (
+    configuration_probability,
+    configuration_weight,
+    count_configurations,
+    count_microstates,
+    count_profiles,
+    counting_cost,
     multinomial,
     over_prime_power,
     partitions_at_most,
     power_primes,
     twelvefold,
 )
+from enumerator.core.errors import TooLarge
+from enumerator.core.limits import Cost, limited
+from enumerator.core.model import UrnModel
 
 # ---------------------------------------------------------------------------
 # brute force on small random models (hypothesis picks them)
@@ -300,3 +309,251 @@ def test_multinomial_helper_matches_sympy():
 def test_over_prime_power_is_the_reduced_fraction(count, r, n):
     # Reference: Python's Fraction (gcd reduction) on the same quotient.
     assert over_prime_power(count, r ** n, power_primes(r, n)) == Fraction(count, r ** n)
+
+
+# ---------------------------------------------------------------------------
+# urn groups and weights
+# ---------------------------------------------------------------------------
+
+WEIGHTS = [1, 1, 2, 3, Fraction(1, 2), Fraction(2, 3)]
+
+
+def _per_urn_series(model):
+    """Slow reference: the generating function built urn by urn with Fractions (a per-urn DP).
+
+    MB: ``n! [x^n] prod_i sum_{k=a_i}^{b_i} (w_i x)^k / k!``; BE/FD: the same
+    without the factorials.  One polynomial multiplication per urn, so keep
+    the urns few.
+    """
+    n = model.balls
+    labelled = model.rule.value == "MB"
+    row = [Fraction(1)] + [Fraction(0)] * n
+    configurations = [1] + [0] * n
+    for (a, b), w in zip(model.bounds, model.weights):
+        top = n if b is None else min(b, n)
+        factor = {k: w ** k / (math.factorial(k) if labelled else 1) for k in range(a, top + 1)}
+        row = [sum(row[m - k] * f for k, f in factor.items() if k <= m) for m in range(n + 1)]
+        configurations = [sum(configurations[m - k] for k in factor if k <= m) for m in range(n + 1)]
+    total = row[n] * (math.factorial(n) if labelled else 1)
+    return configurations[n], total
+
+
+def _brute_weights(model):
+    """Slow reference: every admissible vector with its weight, by exhaustive enumeration."""
+    out = {}
+    for k in reference.box(model):
+        w = Fraction(reference.weight(model, k))
+        for ki, wi in zip(k, model.weights):
+            w *= wi ** ki
+        out[k] = w
+    return out
+
+
+@st.composite
+def grouped_models(draw, max_urns=5, max_balls=8):
+    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
+    groups = []
+    urns = 0
+    for _ in range(draw(st.integers(1, 3))):
+        count = draw(st.integers(1, max(1, max_urns - urns)))
+        urns += count
+        if rule == "FD":
+            a, b = draw(st.integers(0, 1)), 1
+        else:
+            a = draw(st.integers(0, 2))
+            b = draw(st.one_of(st.none(), st.integers(a, a + 3)))
+        groups.append((count, a, b, draw(st.sampled_from(WEIGHTS))))
+        if urns >= max_urns:
+            break
+    return UrnModel(balls=draw(st.integers(0, max_balls)), groups=groups, rule=rule)
+
+
+@settings(max_examples=250, deadline=None)
+@given(grouped_models())
+def test_weighted_groups_match_brute_force(model):
+    # reference: exhaustive enumeration of the box, weights multiplied in Fractions
+    weights = _brute_weights(model)
+    total = sum(weights.values(), Fraction(0))
+    assert count_configurations(model) == len(weights)
+    assert count_microstates(model) == total
+    for k, w in weights.items():
+        assert configuration_weight(model, k) == w
+        assert configuration_probability(model, k) == w / total
+    if weights:
+        assert sum(configuration_probability(model, k) for k in weights) == 1
+
+
+@settings(max_examples=80, deadline=None)
+@given(grouped_models())
+def test_grouped_model_equals_the_same_model_per_urn(model):
+    # the same urns given one by one (bounds and weights lists) must give the same answers
+    per_urn = UrnModel(balls=model.balls, bounds=list(model.bounds), weights=list(model.weights), rule=model.rule)
+    assert count_configurations(per_urn) == count_configurations(model)
+    assert count_microstates(per_urn) == count_microstates(model)
+    assert count_profiles(per_urn) == count_profiles(model)
+
+
+@pytest.mark.parametrize("rule, groups, n", [
+    # Miller's recurrence: many bounded urns from 0 (exponent above 4 (n + 1))
+    ("MB", [(40, 0, 2, 1), (3, 1, None, 1)], 5),
+    ("MB", [(60, 0, 1, Fraction(2, 3)), (2, 0, None, 3)], 6),
+    # a lower bound without an upper one, several urns (the level recursion)
+    ("MB", [(3, 2, None, 1), (2, 0, 3, 2)], 9),
+    ("MB", [(2, 1, None, Fraction(1, 2)), (2, 1, None, 3), (1, 0, None, 5)], 8),
+    # weighted BE/FD rows: bounded, unbounded and capped groups
+    ("BE", [(30, 0, 2, 2), (4, 1, None, Fraction(1, 3))], 7),
+    ("FD", [(25, 0, 1, Fraction(3, 2)), (10, 1, 1, 2), (5, 0, 1, 1)], 14),
+])
+def test_group_routes_against_a_per_urn_product(rule, groups, n):
+    # reference: the generating function multiplied out urn by urn (_per_urn_series)
+    model = UrnModel(balls=n, groups=groups, rule=rule)
+    configurations, total = _per_urn_series(model)
+    assert count_configurations(model) == configurations
+    assert count_microstates(model) == total
+
+
+def test_results_are_int_when_integral_and_fraction_otherwise():
+    m = UrnModel(balls=3, weights=[1, 2], rule="MB")
+    assert type(count_microstates(m)) is int and count_microstates(m) == 27   # (1 + 2)^3
+    half = UrnModel(balls=3, weights=["1/2", "1/2"], rule="BE")
+    # equal weights: the count times w^n (4 configurations, each of weight 1/8)
+    assert count_microstates(half) == Fraction(1, 2)
+    assert type(configuration_weight(half, (2, 1))) is Fraction
+
+
+def test_weighted_mb_without_bounds_is_the_multinomial_law():
+    # reference: scipy.stats.multinomial.pmf with p_i = w_i / sum w, to float precision
+    from scipy.stats import multinomial as scipy_multinomial
+
+    weights = [1, 2, 3, Fraction(1, 2)]
+    m = UrnModel(balls=9, weights=weights, rule="MB")
+    p = [float(w / sum(weights)) for w in weights]
+    for k in [(3, 3, 3, 0), (0, 0, 9, 0), (2, 2, 4, 1)]:
+        assert float(configuration_probability(m, k)) == pytest.approx(scipy_multinomial.pmf(k, n=9, p=p), rel=1e-12)
+    assert count_microstates(m) == sum(weights) ** 9      # (sum w)^n, common practice
+
+
+# -- any number of urns ---------------------------------------------------------
+
+HUGE = [2**32, 2**64, 3**50]
+
+
+@pytest.mark.parametrize("r", HUGE)
+def test_closed_forms_at_huge_urn_counts(r):
+    # reference: Python math.comb and integer powers
+    n = 10
+    assert count_configurations(UrnModel(balls=n, urns=r, rule="BE")) == math.comb(n + r - 1, n)
+    assert count_configurations(UrnModel(balls=n, urns=r, rule="FD")) == math.comb(r, n)
+    assert count_microstates(UrnModel(balls=n, urns=r, rule="MB")) == r ** n
+    assert count_configurations(UrnModel(balls=n, urns=r, rule="BE", minimum=0, capacity=1)) == math.comb(r, n)
+    w = Fraction(3, 2)
+    assert count_microstates(UrnModel(balls=n, groups=[(r, 0, None, w), (5, 0, None, 1)], rule="MB")) == (r * w + 5) ** n
+
+
+def _capacity_by_partitions(n, r, c, labelled):
+    """Reference: sum over the partitions lambda of n with parts <= c of the vectors with that profile.
+
+    r (r-1) ... (r - l + 1) / prod m_i! vectors have profile lambda (l parts,
+    m_i parts equal to i), each with weight n!/prod lambda_j! under MB.
+    """
+    from sympy.utilities.iterables import partitions
+
+    total = 0
+    for part in partitions(n, k=c):
+        length = sum(part.values())
+        vectors = math.perm(r, length)
+        for times in part.values():
+            vectors //= math.factorial(times)
+        weight = math.factorial(n)
+        for size, times in part.items():
+            weight //= math.factorial(size) ** times
+        total += vectors * (weight if labelled else 1)
+    return total
+
+
+@pytest.mark.parametrize("r", HUGE)
+def test_capacity_at_huge_urn_counts_against_profiles(r):
+    # reference: the profile sum above (sympy partitions, math.perm)
+    n, c = 10, 3
+    assert count_configurations(UrnModel(balls=n, urns=r, rule="BE", capacity=c)) == _capacity_by_partitions(n, r, c, False)
+    assert count_microstates(UrnModel(balls=n, urns=r, rule="MB", capacity=c)) == _capacity_by_partitions(n, r, c, True)
+
+
+def test_groups_at_huge_urn_counts_against_profiles():
+    # two groups of 2^64 urns with capacities 3 and 2: by the profile sum the
+    # whole is a model with capacity 3 minus the vectors putting 3 balls in the
+    # second group; instead check it against splitting the balls between the
+    # groups (reference: sum_k C(n, k) A(k) B(n - k) under MB, A(k) B(n-k) under BE)
+    r, n = 2**64, 9
+    m = UrnModel(balls=n, groups=[(r, 0, 3), (r, 0, 2)], rule="MB")
+    split = sum(math.comb(n, k) * _capacity_by_partitions(k, r, 3, True) * _capacity_by_partitions(n - k, r, 2, True)
+                for k in range(n + 1))
+    assert count_microstates(m) == split
+    be = m.with_rule("BE")
+    split = sum(_capacity_by_partitions(k, r, 3, False) * _capacity_by_partitions(n - k, r, 2, False)
+                for k in range(n + 1))
+    assert count_configurations(be) == split
+
+
+def test_profiles_at_huge_urn_counts_are_partition_numbers():
+    # OEIS A000041: p(10) = 42, p(30) = 5604
+    assert count_profiles(UrnModel(balls=10, urns=2**64, rule="BE")) == 42
+    assert count_profiles(UrnModel(balls=30, urns=2**64, rule="MB")) == 5604
+
+
+def test_twelvefold_at_huge_urn_counts():
+    # references: Python integers and math.comb; OEIS A000110 Bell(10) = 115975,
+    # OEIS A000041 p(10) = 42
+    n, r = 10, 2**64
+    w = _ways(n, r)
+    assert w[("labelled", "labelled", "any")] == r ** n
+    assert w[("labelled", "labelled", "at_most_one")] == math.perm(r, n)
+    assert w[("labelled", "labelled", "at_least_one")] == 0
+    assert w[("unlabelled", "labelled", "any")] == math.comb(n + r - 1, n)
+    assert w[("labelled", "unlabelled", "any")] == 115975
+    assert w[("labelled", "unlabelled", "at_least_one")] == 0
+    assert w[("unlabelled", "unlabelled", "any")] == 42
+
+
+def test_surjections_by_groups_against_stirling_numbers():
+    # OEIS A008277 (Stirling numbers of the second kind), row n = 8:
+    # 1, 127, 966, 1701, 1050, 266, 28, 1; the urns are split into two groups
+    # with different (ineffective) capacities so the grouped route is used
+    a008277 = [1, 127, 966, 1701, 1050, 266, 28, 1]
+    n = 8
+    for k, s in enumerate(a008277, start=1):
+        groups = [(1, 1, None)] + ([(k - 1, 1, n + 5)] if k > 1 else [])
+        assert count_microstates(UrnModel(balls=n, groups=groups, rule="MB")) == math.factorial(k) * s
+
+
+def test_mb_with_one_occupied_urn_and_large_n():
+    # n = 20000, bounds 1:,0:,0: under MB: 3^n - 2^n (inclusion–exclusion, common practice)
+    n = 20000
+    m = UrnModel(balls=n, bounds="1:,0:,0:", rule="MB")
+    assert counting_cost(m, "microstates").memory < 2**30
+    assert count_microstates(m) == 3**n - 2**n
+
+
+# -- refusing before computing ------------------------------------------------
+
+def test_cost_is_stated_without_computing():
+    cost = counting_cost(UrnModel(balls=10**7, urns=50, rule="MB", capacity=3), "microstates")
+    assert isinstance(cost, Cost) and cost.seconds > 0 and cost.memory > 0
+    small = counting_cost(UrnModel(balls=10, urns=2**64, rule="MB", capacity=3), "microstates")
+    assert small.memory < 10**6
+    with pytest.raises(Exception, match="configurations, microstates or profiles"):
+        counting_cost(UrnModel(balls=1, urns=1), "energy")
+
+
+def test_work_beyond_the_limits_is_refused():
+    with limited(memory="1M"):
+        with pytest.raises(TooLarge, match="max_memory="):
+            count_microstates(UrnModel(balls=200000, urns=500, rule="MB", capacity=700))
+        with pytest.raises(TooLarge, match="max_memory="):
+            count_profiles(UrnModel(balls=200000, urns=5, rule="BE"))
+
+
+def test_twelvefold_refuses_a_billion_balls_before_computing():
+    # 3^(10^9) has 477 million digits, and the partition rows would need 10^9 entries
+    with pytest.raises(TooLarge, match="use fewer balls"):
+        twelvefold(10**9, 3)

@@ -194,3 +194,52 @@ def test_scaled_product_counts_assignments():
     ]
     assert series.scaled_product([], 5, scale) == fmpz_poly([int(scale)])
     assert series.scaled_power(e, 0, 5, scale) == fmpz_poly([int(scale)])
+
+
+# ---------------------------------------------------------------------------
+# miller_power: J. C. P. Miller's recurrence for a power of a series
+# ---------------------------------------------------------------------------
+
+@settings(max_examples=80, deadline=None)
+@given(
+    values=st.lists(st.integers(-5, 5), min_size=1, max_size=6).filter(lambda v: v[0] != 0),
+    exponent=st.integers(0, 12),
+    degree=st.integers(0, 30),
+)
+def test_miller_power_matches_flint_power(values, exponent, degree):
+    # Reference: FLINT's exact full power of the integer polynomial.
+    expected = series.coefficients(fmpz_poly(values) ** exponent, degree)
+    assert [int(c) for c in series.miller_power(values, exponent, degree)] == expected
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    values=st.lists(st.integers(-4, 4), min_size=1, max_size=5).filter(lambda v: v[0] != 0),
+    exponent=st.integers(0, 10),
+    degree=st.integers(0, 16),
+)
+def test_miller_power_labelled_matches_rational_power(values, exponent, degree):
+    # Reference: FLINT's fmpq_poly power of sum g_j x^j / j!, scaled by k!.
+    egf = fmpq_poly([fmpq(v, math.factorial(j)) for j, v in enumerate(values)])
+    power = egf ** exponent
+    expected = [power[k] * math.factorial(k) if k <= power.degree() else 0 for k in range(degree + 1)]
+    got = series.miller_power(values, exponent, degree, labelled=True)
+    assert [fmpq(int(c)) for c in got] == [fmpq(e) for e in expected]
+
+
+def test_miller_power_huge_exponent_against_binomials():
+    # (1 + x)^e has [x^k] = C(e, k) (reference: Python math.comb), e = 2^64 + 3
+    e = 2**64 + 3
+    assert [int(c) for c in series.miller_power([1, 1], e, 6)] == [math.comb(e, k) for k in range(7)]
+    # labelled e^x truncated at x^2, i.e. assignments of k balls to e urns holding at most 2:
+    # k = 3: e^3 - e (the ones putting all three in one urn); common practice
+    got = series.miller_power([1, 1, 1], e, 3, labelled=True)
+    assert int(got[3]) == e**3 - e
+
+
+def test_miller_power_rejects_a_zero_constant_term():
+    with pytest.raises(ValueError):
+        series.miller_power([0, 1], 3, 4)
+    with pytest.raises(ValueError):
+        series.miller_power([1, 1], -1, 4)
+    assert series.miller_power([1, 1], 3, -1) == []

@@ -26,6 +26,7 @@ __all__ = [
     "falling_window",
     "from_coefficients",
     "inverse",
+    "miller_power",
     "one_minus_power",
     "power",
     "product",
@@ -185,6 +186,91 @@ def window_power_row(span: int, exponent: int, degree: int, unbounded: int = 0) 
         for m in range(last + 1, min(degree, top) + 1):
             c[m] = c[top - m]
     return c
+
+
+def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool = False) -> List:
+    r"""The coefficients of ``F(x)^exponent`` up to *degree*, for an exponent of any size.
+
+    Parameters
+    ----------
+    values : sequence of int
+        The coefficients ``f_0, ..., f_s`` of a polynomial ``F`` with
+        ``f_0 != 0``: the ordinary series ``F = sum f_j x^j``, or with
+        *labelled* the exponential one ``F = sum f_j x^j / j!``.
+    exponent : int
+        ``e >= 0``, any size (``2**64`` is ordinary): it enters the
+        recurrence only as a multiplier.
+    degree : int
+        The last coefficient wanted.
+    labelled : bool
+        Return ``k! [x^k] F^e`` (the binomial-convolution power of the
+        sequence ``f``) instead of ``[x^k] F^e``.
+
+    Returns
+    -------
+    list of mpz
+        ``degree + 1`` exact integers (integral because ``f`` is: a power of
+        an integer polynomial, or a binomial-convolution power of an integer
+        sequence).
+
+    Raises
+    ------
+    ValueError
+        For ``f_0 = 0``, a negative exponent, or an empty *values*.
+
+    Notes
+    -----
+    J. C. P. Miller's recurrence for the power of a series (Knuth, *The Art
+    of Computer Programming*, vol. 2, 3rd ed., 1997, §4.7, eq. (9);
+    Henrici, *Applied and Computational Complex Analysis*, vol. 1, §1.6):
+    ``P = F^e`` satisfies ``F P' = e F' P``, so
+
+    ``k f_0 p_k = sum_{j=1}^{min(k, s)} ((e + 1) j - k) f_j p_{k-j}``,
+
+    and for ``N_k = k! p_k`` with ``f_j = g_j / j!`` the same identity reads
+    ``k g_0 N_k = sum_j ((e + 1) j - k) C(k, j) g_j N_{k-j}``.  Every
+    division is exact.  Cost: ``degree * min(s, degree)`` multiplications of
+    an entry by a small number, ``p_0 = f_0^e`` apart (callers normalise
+    ``f_0 = 1`` for huge exponents); memory ``degree + 1`` entries.
+
+    Examples
+    --------
+    >>> [int(c) for c in miller_power([1, 1, 1], 3, 6)]   # (1 + x + x^2)^3
+    [1, 3, 6, 7, 6, 3, 1]
+    >>> e = 2**64   # k! [x^k] (1 + x)^e is the falling factorial e (e-1) ... (e-k+1)
+    >>> [int(c) for c in miller_power([1, 1], e, 2, labelled=True)] == [1, e, e * (e - 1)]
+    True
+    """
+    if degree < 0:
+        return []
+    if exponent < 0:
+        raise ValueError("miller_power needs an exponent >= 0")
+    f = [mpz(v) for v in values]
+    if not f or f[0] == 0:
+        raise ValueError("miller_power needs a series with a nonzero constant term")
+    s = len(f) - 1
+    f0 = f[0]
+    p = [mpz(0)] * (degree + 1)
+    p[0] = f0 ** exponent if f0 != 1 else mpz(1)
+    e1 = exponent + 1
+    divexact = gmpy2.divexact
+    for k in range(1, degree + 1):
+        total = mpz(0)
+        top = min(k, s)
+        if labelled:
+            choose = mpz(1)
+            for j in range(1, top + 1):
+                choose = divexact(choose * (k - j + 1), j)
+                fj = f[j]
+                if fj:
+                    total += (e1 * j - k) * fj * choose * p[k - j]
+        else:
+            for j in range(1, top + 1):
+                fj = f[j]
+                if fj:
+                    total += (e1 * j - k) * fj * p[k - j]
+        p[k] = divexact(total, k * f0)
+    return p
 
 
 def inverse(series, length: int):
