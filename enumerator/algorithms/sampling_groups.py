@@ -107,9 +107,9 @@ def _pick_cumulative(rng, cumulative: List) -> int:
     return bisect.bisect_right(cumulative, u)
 
 
-#: Most running sums the sampler keeps between draws (each a big integer of
-#: about the size of the counts); past it, rows are summed afresh per draw.
-MEMO_ENTRIES = 1 << 21
+#: Most bytes of running sums the sampler keeps between draws; past it,
+#: rows are summed afresh per draw.
+MEMO_BYTES = 256 * 2**20
 
 
 def _floyd(rng, population: int, k: int) -> List[int]:
@@ -170,14 +170,25 @@ class GroupSampler:
 
     # -- cost --------------------------------------------------------------
     def draw_cost(self, size: int) -> Cost:
-        """Seconds for *size* draws: ``O(G n)`` big steps between groups, ``O(n^2 log c)`` in halving groups."""
+        """Seconds for *size* draws, and the memory of the running sums kept between them.
+
+        Per draw: a Python overhead of about 100 steps, about 20 per ball and
+        per group, and in groups whose capacity bites ``log2 c`` halvings per
+        ball.  Once: the running sums, ``O(n)`` big products per ``(group,
+        balls)`` pair met (``O(G n^2)`` at most, and ``O(n^2 log c)`` for
+        the halvings).
+        """
         n = self.n
         bits = row_bits(self.kind, self.model.urns, n)
-        steps = len(self.groups) * (n + 1) * max(1, bits // 640)
+        scale = max(1, bits // 640)
+        once = len(self.groups) * (n + 1) * (n + 1) * scale
+        per_draw = 100 + 20 * (n + len(self.groups))
         for c, a, b, _, _ in self.groups:
             if not self._direct(c, a, b, n):
-                steps += n * n * max(1, c.bit_length()) * max(1, bits // 640)
-        return Cost(seconds=size * steps / STEPS_PER_SECOND, memory=bigint_bytes(bits) * (n + 1) * 4)
+                once += (n + 1) * (n + 1) * max(1, c.bit_length()) * scale
+                per_draw += 20 * n * max(1, c.bit_length())
+        return Cost(seconds=(once + size * per_draw) / STEPS_PER_SECOND,
+                    memory=min(MEMO_BYTES, (once // scale) * bigint_bytes(bits)) + bigint_bytes(bits) * 4 * (n + 1))
 
     def _direct(self, c, a, b, j) -> bool:
         if a:
@@ -227,10 +238,15 @@ class GroupSampler:
             cumulative.append(running)
         # the last running sum is R_g(m) (a labelled convolution for MB)
         got = (lo, cumulative)
-        if self._kept + len(cumulative) <= MEMO_ENTRIES:
-            self._cumulative[key] = got
-            self._kept += len(cumulative)
+        self._keep(key, got)
         return got
+
+    def _keep(self, key, got) -> None:
+        cumulative = got[1]
+        size = len(cumulative) * bigint_bytes(int(cumulative[-1]).bit_length() if cumulative else 0)
+        if self._kept + size <= MEMO_BYTES:
+            self._cumulative[key] = got
+            self._kept += size
 
     def _halves_split(self, c: int, a: int, b: int, j: int) -> Tuple[int, List]:
         """``(lo, running sums)`` of the left half's balls when ``c`` urns share ``j`` (kept while they fit)."""
@@ -252,9 +268,7 @@ class GroupSampler:
             running += w
             cumulative.append(running)
         got = (lo, cumulative)
-        if self._kept + len(cumulative) <= MEMO_ENTRIES:
-            self._cumulative[key] = got
-            self._kept += len(cumulative)
+        self._keep(key, got)
         return got
 
     def _inside(self, rng, c: int, a: int, b: int, j: int) -> List[Tuple[int, int]]:
