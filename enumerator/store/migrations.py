@@ -22,6 +22,13 @@ How a store is upgraded (:meth:`~enumerator.store.database.Store` on opening):
   the wrong layout;
 * a store of a newer version than this code knows is refused.
 
+The steps so far
+    1 -> 2 (:func:`to_schema_2`): ``urns`` and the lookup tables' numbers
+    become decimal text (``2**64`` urns and more), and results keyed by
+    schema 1's per-urn bounds text (``"0:2,0:2,1:"``) are refiled under the
+    group text (``"2x0:2,1x1:"``) with their digests and checksums
+    recomputed; uniform texts (``"r*a:b"``) and their digests are unchanged.
+
 Adding a step
     Raise :data:`~enumerator.store.schema.SCHEMA_VERSION` by one, change the
     models in :mod:`enumerator.store.schema` to the new layout, and append
