@@ -393,6 +393,25 @@ def test_grouped_model_equals_the_same_model_per_urn(model):
     assert count_profiles(per_urn) == count_profiles(model)
 
 
+@st.composite
+def many_bounded_urns(draw):
+    """A large group of bounded urns (count above 4 (n + 1): Miller's recurrence) and a small model beside it."""
+    n = draw(st.integers(3, 6))
+    big = (draw(st.integers(30, 60)), 0, draw(st.integers(1, 2)), draw(st.sampled_from(WEIGHTS)))
+    rest = draw(grouped_models(max_urns=3, max_balls=4))
+    return UrnModel(balls=n, groups=[big] + [(g.count, g.lower, g.upper, g.weight) for g in rest.groups],
+                    rule=draw(st.sampled_from(["MB", "BE"])))
+
+
+@settings(max_examples=60, deadline=None)
+@given(many_bounded_urns())
+def test_many_urns_few_balls_against_a_per_urn_product(model):
+    # reference: the per-urn product (_per_urn_series)
+    configurations, total = _per_urn_series(model)
+    assert count_configurations(model) == configurations
+    assert count_microstates(model) == total
+
+
 @pytest.mark.parametrize("rule, groups, n", [
     # Miller's recurrence: many bounded urns from 0 (exponent above 4 (n + 1))
     ("MB", [(40, 0, 2, 1), (3, 1, None, 1)], 5),
