@@ -630,8 +630,15 @@ def test_a_listing_too_wide_is_refused_before_it_starts():
     # rows would hold 819,200,000 entries.
     model = Occupancy(balls=5, urns=50000, rule="MB")
     with pytest.raises(TooLarge, match="size=") as caught:
-        listing.iter_blocks(model, 16384)
+        listing.check_listing(model, size=16384)  # as int64 rows: 26 GB of blocks
     assert "size" in caught.value.parameters
+    with limited(memory=10**9):  # blocks of uint8: 4 x 819 MB
+        with pytest.raises(TooLarge, match="size="):
+            listing.iter_blocks(model, 16384)
+    # a short listing needs only short blocks: its 3 rows are counted first (stars and bars: C(3, 1))
+    short = Occupancy(balls=1, urns=3, rule="BE")
+    with limited(memory=10**4):
+        assert as_rows(listing.iter_blocks(short, 10**6)) == [(0, 0, 1), (0, 1, 0), (1, 0, 0)]
     with pytest.raises(TooLarge, match="stop="):
         listing.check_listing(model)
     with pytest.raises(TooLarge, match="stop="):

@@ -98,7 +98,7 @@ from typing import Iterator, List, Optional, Tuple
 import numpy as np
 
 from ..core.errors import InvalidConfiguration, InvalidParameters, TooLarge
-from ..core.limits import Cost, check
+from ..core.limits import Cost, active_limits, check
 from ..core.model import PER_URN_LIMIT, as_count
 from .listing_tables import (
     BLOCK_TABLE_BUDGET,
@@ -108,6 +108,7 @@ from .listing_tables import (
     Plan,
     SuffixTable,
     block_dtype,
+    block_dtype_for,
     count_for,
     plan_for,
     ranker_for,
@@ -344,13 +345,13 @@ def listing_cost(model, start=0, stop=None, size=None) -> Cost:
     return _cost(model, rows, size)
 
 
-def _cost(model, rows: Optional[int], size: Optional[int]) -> Cost:
+def _cost(model, rows: Optional[int], size: Optional[int], itemsize: int = 8, timed: bool = True) -> Cost:
     r = model.urns
-    seconds = 0.0 if rows is None else max(rows * r / CELLS_PER_SECOND, rows / ROWS_PER_SECOND)
+    seconds = 0.0 if rows is None or not timed else max(rows * r / CELLS_PER_SECOND, rows / ROWS_PER_SECOND)
     memory = 0
     if size is not None:
         height = size if rows is None else min(size, rows)
-        memory = BLOCK_ARRAYS * height * r * 8
+        memory = BLOCK_ARRAYS * height * r * itemsize
     return Cost(seconds=seconds, memory=memory)
 
 
@@ -381,9 +382,22 @@ def _check(model, cost: Cost, size) -> None:
 
 
 def _check_listing(model, start, stop, size=None) -> None:
-    """The lazy iterators' check: the time of a given range, the memory of the blocks."""
-    rows = None if stop is None else max(0, as_count(stop, "stop") - as_count(start, "start"))
-    _check(model, _cost(model, rows, size), size)
+    """The lazy iterators' check: the time of a given range, the memory of the blocks (of their dtype).
+
+    Without *stop*, the rows are counted (the groups' suffix rows) only when
+    full blocks would not fit: a short listing then needs short blocks.
+    """
+    start = as_count(start, "start")
+    rows = None if stop is None else max(0, as_count(stop, "stop") - start)
+    itemsize = np.dtype(block_dtype_for(model.balls)).itemsize
+    cost = _cost(model, rows, size, itemsize)
+    if rows is None and size is not None and cost.memory > active_limits().memory:
+        try:
+            rows = max(0, _sparse_ranker(model).count - start)
+        except TooLarge:
+            rows = None
+        cost = _cost(model, rows, size, itemsize, timed=False)
+    _check(model, cost, size)
 
 
 def _range(memo: dict, plan: Plan, start, stop):
