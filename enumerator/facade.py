@@ -140,19 +140,15 @@ class Occupancy(UrnModel):
         Remembered in the result store under the statistic's canonical name;
         pure: :func:`enumerator.algorithms.statistics.distribution`.
         """
-        from .algorithms.statistics import DEFAULT_LIMIT, Distribution, distribution, parse_statistic
+        from .algorithms.statistics import DEFAULT_LIMIT, Distribution, parse_statistic
 
         stat = parse_statistic(statistic)
         bound = DEFAULT_LIMIT if limit is None else limit
 
         def compute():
-            law = distribution(self, stat, limit=bound)
-            return {
-                "pmf": [[list(v) if isinstance(v, tuple) else v, p] for v, p in law.pmf.items()],
-                "mean": law.mean,
-                "variance": law.variance,
-            }
+            return _stored_law(self, stat.name, bound)
 
+        register_recomputers()
         stored = self._remembered("distribution", compute, params=stat.name, store=store)
         pmf = {}
         for value, p in stored["pmf"]:
@@ -185,6 +181,7 @@ class Occupancy(UrnModel):
         from .algorithms.generating import coefficient_row
 
         top = self.balls if upto is None else as_count(upto, "upto")
+        register_recomputers()
         return list(self._remembered("coefficient_row", lambda: coefficient_row(self, top),
                                      params=f"upto={top}", model=self.with_balls(0), store=store))
 
@@ -225,6 +222,38 @@ def _count(name: str, model: UrnModel):
     from .algorithms import counting
 
     return getattr(counting, name)(model)
+
+
+def _stored_law(model: UrnModel, statistic: str, limit: int) -> dict:
+    """The law of *statistic* in the form the store keeps (pmf pairs, mean, variance)."""
+    from .algorithms.statistics import distribution
+
+    law = distribution(model, statistic, limit=limit)
+    return {
+        "pmf": [[list(v) if isinstance(v, tuple) else v, p] for v, p in law.pmf.items()],
+        "mean": law.mean,
+        "variance": law.variance,
+    }
+
+
+def register_recomputers() -> None:
+    """Tell the store how ``cache verify`` recomputes the laws and rows the facade remembers."""
+    from .store.keys import ALGORITHM_VERSIONS, recomputer, register_quantity
+
+    if recomputer("distribution") is None:
+        def law(model, params):
+            from .algorithms.statistics import DEFAULT_LIMIT
+
+            return _stored_law(model, params, DEFAULT_LIMIT)
+
+        register_quantity("distribution", ALGORITHM_VERSIONS["distribution"], law)
+    if recomputer("coefficient_row") is None:
+        def row(model, params):
+            from .algorithms.generating import coefficient_row
+
+            return coefficient_row(model, int(params.partition("=")[2]))
+
+        register_quantity("coefficient_row", ALGORITHM_VERSIONS["coefficient_row"], row)
 
 
 _EVENT_VERSION = 1
