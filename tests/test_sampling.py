@@ -506,3 +506,11 @@ def test_empty_weighted_models_refuse_to_sample():
         next(iter_sample_sparse(model, 1))
     with pytest.raises(InvalidParameters, match="admits no configuration"):
         GroupSampler(model)
+
+
+def test_the_method_of_huge_and_weighted_models_is_groups():
+    assert sampling_method(UrnModel(balls=1, urns=2**70, rule="MB")) == "groups"
+    assert sampling_method(Occupancy(balls=1, weights=[1, 2], rule="BE")) == "groups"
+    assert sampling_method(Occupancy(balls=1, urns=7, rule="MB")) == "uniform-balls"
+    # n = 0: the one empty configuration, drawn sparsely as no occupied urn
+    assert sample(UrnModel(balls=0, urns=2**70, rule="MB"), 2, seed=1, sparse=True) == [(), ()]

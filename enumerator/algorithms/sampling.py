@@ -72,7 +72,7 @@ from ..core import series
 from ..core.errors import InvalidParameters, TooLarge
 from ..core.limits import Cost, check
 from ..core.memo import ModelMemo
-from ..core.model import UrnModel, as_count
+from ..core.model import PER_URN_LIMIT, UrnModel, as_count
 from .counting import count_configurations, count_microstates
 from .sampling_groups import GroupSampler, RandomWords
 
@@ -160,7 +160,14 @@ def _block_rows(r: int) -> int:
 
 
 def sampling_method(model: UrnModel) -> str:
-    """The name of the exact method :func:`sample` uses for *model* (see the module docstring)."""
+    """The name of the exact method :func:`sample` uses for *model* (see the module docstring).
+
+    ``"groups"`` for weighted models and for models of more than
+    :data:`~enumerator.core.model.PER_URN_LIMIT` urns (whose draws are
+    sparse), without building anything.
+    """
+    if model.weighted or model.urns > PER_URN_LIMIT:
+        return "groups"
     return _plan(model).method
 
 
@@ -418,7 +425,7 @@ class _Groups(_Plan):
 
 
 def _choose(model: UrnModel) -> _Plan:
-    if model.weighted:
+    if model.weighted or model.urns > PER_URN_LIMIT:
         return _Groups(model)
     bounds = model.effective_bounds()
     lows = [a for a, _ in bounds]
