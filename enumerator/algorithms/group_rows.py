@@ -80,6 +80,29 @@ def _scale_by_powers(row: List, weight: int) -> List:
 def ordinary_group_row(count: int, lower: int, upper: Optional[int], top: int, weight: int = 1) -> List:
     """``w^m [x^m] (x^a + ... + x^b)^c`` for ``m = 0..top`` (as ``mpz``).
 
+    Parameters
+    ----------
+    count : int
+        ``c >= 1`` urns (any size).
+    lower, upper : int, int or None
+        The bounds ``a`` and ``b`` of each urn (``None``: no upper bound).
+    top : int
+        The last ball number.
+    weight : int
+        The integer weight ``w`` of each urn.
+
+    Returns
+    -------
+    list of mpz
+        ``top + 1`` entries: the weighted number of vectors of the group.
+
+    Notes
+    -----
+    ``C(m + c - 1, m)`` carried by exact small steps when no bound bites,
+    else the three-term recurrence of
+    :func:`enumerator.core.series.window_power_row` (Miller's method,
+    Knuth *TAOCP* vol. 2 §4.7): ``O(top)`` big-integer steps whatever ``c``.
+
     Examples
     --------
     >>> [int(v) for v in ordinary_group_row(3, 0, 2, 6)]
@@ -100,6 +123,25 @@ def ordinary_group_row(count: int, lower: int, upper: Optional[int], top: int, w
 
 def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int, weight: int = 1) -> List:
     """``w^m m! [x^m] (sum_{k=a}^{b} x^k/k!)^c`` for ``m = 0..top`` (as ``mpz``).
+
+    Parameters
+    ----------
+    count, lower, upper, top, weight
+        As in :func:`ordinary_group_row`.
+
+    Returns
+    -------
+    list of mpz
+        ``top + 1`` entries: the weighted number of assignments of ``m``
+        labelled balls to the group's urns.
+
+    Notes
+    -----
+    ``(c w)^m`` without a biting bound; Miller's recurrence on ``M_k = k!
+    [x^k]`` (``O(top * min(top, b))`` steps) for ``2^32`` urns or more or
+    spans up to 16; else FLINT's binary power of the window scaled by
+    ``top!`` (``O(M(top) log c)``; the only route with a lower bound, where
+    ``c <= top / a``).
 
     Examples
     --------
@@ -153,7 +195,19 @@ def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int
 
 
 def group_row(kind: str, count: int, lower: int, upper: Optional[int], top: int, weight: int = 1) -> List:
-    """The row of one group: :func:`ordinary_group_row` or :func:`exponential_group_row` by *kind*."""
+    """The row of one group: :func:`ordinary_group_row` or :func:`exponential_group_row` by *kind*.
+
+    Parameters
+    ----------
+    kind : str
+        ``"ordinary"`` (BE, FD) or ``"exponential"`` (MB).
+    count, lower, upper, top, weight
+        As in :func:`ordinary_group_row`.
+
+    Returns
+    -------
+    list of mpz
+    """
     if kind == "exponential":
         return exponential_group_row(count, lower, upper, top, weight)
     return ordinary_group_row(count, lower, upper, top, weight)
@@ -162,6 +216,21 @@ def group_row(kind: str, count: int, lower: int, upper: Optional[int], top: int,
 def combine(kind: str, left: Sequence, right: Sequence, top: int) -> List:
     """The row of two disjoint sets of urns from theirs, for ``m = 0..top``.
 
+    Parameters
+    ----------
+    kind : str
+        ``"ordinary"`` or ``"exponential"``.
+    left, right : sequence of int
+        The two rows (at least ``top + 1`` entries, or shorter: zeros).
+    top : int
+        The last ball number.
+
+    Returns
+    -------
+    list of mpz
+
+    Notes
+    -----
     Ordinary: the truncated product ``sum_j L_j R_{m-j}``; exponential: the
     binomial convolution ``sum_j C(m, j) L_j R_{m-j}``, computed as one FLINT
     product of ``top!/j!``-scaled rows followed by exact divisions.
