@@ -177,8 +177,19 @@ def iter_sample_blocks(model: UrnModel, size, seed=None, method: Optional[str] =
     The laws and methods are described in the module docstring; *seed*
     (a whole number, or ``None`` for fresh operating-system entropy) makes
     the output reproducible.  *method* forces one of :data:`METHODS` where it
-    applies (all give the same law; the default picks the fastest).  Raises
-    InvalidParameters for a model that admits no configuration.
+    applies (all give the same law; the default picks the fastest; weighted
+    models use ``"groups"``, the only one that reads weights).
+
+    Raises
+    ------
+    InvalidParameters
+        For a model that admits no configuration, or a method that does not
+        apply.
+    TooLarge
+        Before anything is allocated, when a block of rows of ``r`` entries
+        would exceed the memory limit (:func:`dense_sample_cost`; draw
+        sparse rows with :func:`iter_sample_sparse` instead), or when the
+        group method's draws would exceed the limits.
     """
     size = as_count(size, "size")
     if seed is not None:
