@@ -1320,8 +1320,41 @@ def twelvefold(balls, urns) -> List[Dict[str, object]]:
     unlab.   unlab.   ``p_{<=r}(n)`` ``[n<=r]``    ``p_{<=r}(n-r)``
     ======== ======== ============= ============== ==============
 
-    Returns a list of dicts ``{"balls", "urns", "per_urn", "count"}`` in
-    :data:`WAYS_ORDER`, counts exact ``int``.
+    Parameters
+    ----------
+    balls : int
+        ``n >= 0``.
+    urns : int
+        ``r >= 1``, any size.
+
+    Returns
+    -------
+    list of dict
+        ``{"balls", "urns", "per_urn", "count"}`` in :data:`WAYS_ORDER`,
+        counts exact ``int``.
+
+    Raises
+    ------
+    InvalidParameters
+        For a negative or non-integer *balls* or *urns*.
+    TooLarge
+        When the whole table is beyond the limits (checked before any entry
+        is computed: ``n = 10^9`` balls in 3 urns gives numbers of 477
+        million digits and partition rows of ``10^9`` entries).
+
+    Notes
+    -----
+    Every sum is bounded by ``min(n, r)``: ``S(n, r) = 0`` and
+    ``r! S(n, r) = 0`` for ``r > n``, the Bell number ``B_n`` (FLINT) for
+    ``r >= n``, the partition number ``p(n)`` (FLINT's
+    Hardy–Ramanujan–Rademacher) for ``r >= n``; otherwise ``r`` powers for
+    ``sum_{k<=r} S(n, k)`` and ``O(n min(r, n))`` additions for
+    ``p_{<=r}(n)``.  The estimate is :func:`_twelvefold_cost`.
+
+    Examples
+    --------
+    >>> [w["count"] for w in twelvefold(3, 2)][:3]
+    [8, 0, 6]
     """
     n = as_count(balls, "balls")
     r = as_count(urns, "urns", 1)
