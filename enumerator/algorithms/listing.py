@@ -83,6 +83,19 @@ comparison per urn (capacities at most 1).
 
 The plan and the tables are :mod:`enumerator.algorithms.listing_tables`.
 
+Any number of urns
+------------------
+:func:`rank_sparse` and :func:`unrank_sparse` take and give a configuration
+as its occupied urns only, ``((urn, count), ...)``, with suffix counts by
+urn groups (:mod:`enumerator.algorithms.sparse_ranking`), so ``r = 2**64``
+costs nothing per urn.  The dense functions need one entry per urn and
+stop at :data:`~enumerator.core.model.PER_URN_LIMIT` urns.  Listings check
+their cost before starting (:func:`listing_cost`, :func:`check_listing`):
+the memory of their blocks always, the time of a range when ``stop`` is
+given; a caller that will print a whole listing calls
+:func:`check_listing` first.  Weights do not change which configurations
+exist, so nothing here reads them.
+
 Caching: the plan, the suffix tables and the rank table live in that
 module's :class:`~enumerator.core.memo.ModelMemo` under keys starting with
 ``"listing."``; the 32 most recently used models keep theirs.
