@@ -576,3 +576,16 @@ def test_twelvefold_refuses_a_billion_balls_before_computing():
     # 3^(10^9) has 477 million digits, and the partition rows would need 10^9 entries
     with pytest.raises(TooLarge, match="use fewer balls"):
         twelvefold(10**9, 3)
+
+
+@pytest.mark.parametrize("n, r, c", [(40, 6, 30), (25, 4, 13), (60, 3, 45), (12, 9, 7)])
+def test_mb_capacity_near_n_against_a_per_urn_product(n, r, c):
+    # few urns can overflow (inclusion–exclusion over them); reference: _per_urn_series
+    model = UrnModel(balls=n, urns=r, rule="MB", capacity=c)
+    assert count_microstates(model) == _per_urn_series(model)[1]
+
+
+def test_mb_capacity_one_below_n_at_large_n():
+    # at most one urn can exceed n - 2: r^n - r (1 + n (r - 1)) (inclusion–exclusion, common practice)
+    n, r = 20000, 10000
+    assert count_microstates(UrnModel(balls=n, urns=r, rule="MB", capacity=n - 2)) == r**n - r * (1 + n * (r - 1))

@@ -292,6 +292,18 @@ def _microstates_cost(model: UrnModel) -> Cost:
         model.groups[0].upper is None or model.groups[0].upper >= n
     ):
         return Cost(seconds=2 * product_seconds(bits) * max(1.0, math.log2(n + 1)), memory=4 * bigint_bytes(bits))
+    grouped = _mb_grouped_cost(model, target, bits)
+    g = model.groups[0]
+    if len(model.groups) == 1 and g.lower == 0 and g.upper is not None:
+        overflow = _overflow_cost(n, g.count, g.upper)
+        if overflow.seconds < grouped.seconds:
+            return overflow
+    return grouped
+
+
+def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
+    """The cost of :func:`_mb_grouped`, following its plan (:func:`_mb_plan`)."""
+    n = model.balls
     plan = _mb_plan(model, target)
     wide = bits + _log2_factorial(n)
     cost = Cost()
@@ -757,8 +769,60 @@ def _mb_unweighted(model: UrnModel):
             return _mb_surjections(n, r)
         if b is not None and b == a:
             return gmpy2.divexact(gmpy2.fac(n), gmpy2.fac(a) ** r) if n == r * a else mpz(0)
+        if a == 0:
+            overflow = _overflow_cost(n, r, b)
+            if overflow.seconds < _mb_grouped_cost(model, n, n * _log2(r) + 64).seconds:
+                check(overflow, "counting the microstates", advice="use fewer balls", parameters=["balls"])
+                return _mb_capacity_overflow(n, r, b)
     _check(model, "microstates", "counting the microstates")
     return _mb_grouped(model)
+
+
+def _overflow_cost(n: int, r: int, b: int) -> Cost:
+    """The cost of :func:`_mb_capacity_overflow`: ``r^n``, then ``sum_j (j + 2)(n - j(b+1) + 1)`` steps, ``1 <= j <= n/(b+1)``."""
+    d = b + 1
+    top = min(r, n // d)
+    steps = sum((j + 2) * (n - j * d + 1) for j in range(1, top + 1))
+    bits = n * _log2(r) + 64
+    power = Cost(seconds=2 * product_seconds(bits) * max(1.0, math.log2(n + 1)), memory=4 * bigint_bytes(bits))
+    if not top:
+        return power
+    return power + _linear_cost(2 * steps, 2 * (n - d + 1), bits + _log2_factorial(n))
+
+
+def _mb_capacity_overflow(n: int, r: int, b: int):
+    r"""MB assignments with every urn holding at most *b*, by inclusion–exclusion over overfull urns.
+
+    With ``U = sum_{k > b} x^k / k!``, ``(e^x - U)^r = sum_j C(r, j) (-U)^j e^{(r-j) x}``, so
+
+    ``N = sum_{j <= n/(b+1)} (-1)^j C(r, j) sum_m C(n, m) U_j(m) (r - j)^{n-m}``,
+
+    ``U_j(m)`` the assignments of ``m`` balls to ``j`` urns each holding more
+    than ``b`` (:func:`_mb_lower_levels`).  When the capacity is near ``n``
+    only a few ``j`` remain: cost ``O(J^2 n)`` steps with ``J = n/(b+1)``
+    (Riordan 1958, ch. 5; Flajolet & Sedgewick 2009, §II.2), against a power
+    of a window of ``b`` terms whose coefficients have ``b log b`` bits.
+    """
+    d = b + 1
+    total = mpz(r) ** n
+    choose_r = mpz(1)
+    for j in range(1, min(r, n // d) + 1):
+        choose_r = gmpy2.divexact(choose_r * (r - j + 1), j)
+        target = n - j * d
+        levels = _mb_lower_levels(d, j, target)
+        inner = mpz(0)
+        base = mpz(r - j)
+        # m = j d + t runs up; (r - j)^(n - m) runs down, so walk t from the top
+        power = mpz(1)
+        choose_n = gmpy2.comb(n, n)          # C(n, m) at m = n
+        for t in range(target, -1, -1):
+            m = j * d + t
+            if levels[t]:
+                inner += choose_n * levels[t] * power
+            power *= base
+            choose_n = gmpy2.divexact(choose_n * m, n - m + 1)
+        total += -choose_r * inner if j & 1 else choose_r * inner
+    return total
 
 
 def _microstates(model: UrnModel):
