@@ -530,6 +530,7 @@ def test_a_rank_table_too_large_says_what_to_reduce():
 # sparse rank/unrank by groups, and listings refused before they start
 # ---------------------------------------------------------------------------
 
+from enumerator.algorithms.sparse_ranking import SparseRanker  # noqa: E402
 from enumerator.core.limits import limited  # noqa: E402
 from enumerator.core.model import UrnModel  # noqa: E402
 
@@ -658,3 +659,20 @@ def test_dense_unrank_beyond_the_per_urn_limit_points_at_the_sparse_form():
     with pytest.raises(TooLarge, match=r"unrank_sparse\(model, index\)"):
         listing.unrank(model, 0)
     assert listing.unrank_sparse(model, 0) == ((2**64, 2),)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(st.tuples(st.integers(1, 3), st.integers(0, 2), st.one_of(st.none(), st.integers(0, 3))),
+             min_size=1, max_size=3),
+    st.integers(0, 6),
+)
+def test_sparse_ranks_are_brute_force_positions(raw, n):
+    groups = [(c, a, None if b is None else a + b) for c, a, b in raw]
+    model = UrnModel(balls=n, groups=groups, rule="BE")
+    vectors = brute(model)
+    assert SparseRanker(model).count == len(vectors)
+    for index, k in enumerate(vectors):
+        config = {u: v for u, v in enumerate(k, start=1) if v}
+        assert listing.rank_sparse(model, config) == index
+        assert dict(listing.unrank_sparse(model, index)) == config
