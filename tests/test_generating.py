@@ -628,3 +628,16 @@ def test_expression_parser_keeps_precedence():
     text = "3*(1 + x)^2/(1 - 2*x) - x^3 + 4/7"
     assert extract_coefficients(text, 6) == [sympy.Rational(c) if sympy.Rational(c).q != 1 else int(c)
                                              for c in sympy_row(sympy.sympify(text), 6)]
+
+
+@settings(max_examples=30, deadline=None)
+@given(
+    st.lists(st.tuples(st.integers(1, 2), st.integers(0, 1), st.one_of(st.none(), st.integers(0, 2)),
+                       st.sampled_from([Fraction(1), Fraction(2), Fraction(1, 3), Fraction(5, 2)])),
+             min_size=1, max_size=3),
+    st.sampled_from(["MB", "BE"]),
+)
+def test_weighted_rows_are_brute_force_totals(raw, rule):
+    groups = [(c, a, None if b is None else a + b, w) for c, a, b, w in raw]
+    model = UrnModel(balls=0, groups=groups, rule=rule)
+    assert coefficient_row(model, 5) == weighted_totals(model, 5)
