@@ -155,6 +155,20 @@ class GroupSampler:
                 f"{model!r} admits no configuration (its bounds cannot hold {n} balls), "
                 "so there is nothing to sample; change the balls or the bounds"
             )
+        self._halves: Dict[Tuple[int, int, int, int], List] = {}
+        self._cumulative: Dict[Tuple[int, int], Tuple[int, List]] = {}
+        self._kept = 0
+        # MB without a biting bound: each ball independently in urn i with
+        # probability w_i / W -- a group by exact integer thresholds on
+        # c_g W_g, then a uniform urn of the group; no rows needed.
+        self.free_balls = self.kind == "exponential" and all(a == 0 and b >= n for _, a, b, _ in spec)
+        if self.free_balls:
+            running, self.thresholds = 0, []
+            for c, _, _, w in spec:
+                running += c * w
+                self.thresholds.append(running)
+            self.rows = self.own = None
+            return
         check(rows_cost(self.kind, spec, n), "the count rows of the group sampler",
               advice="use fewer balls or groups")
         self.rows = suffix_rows(self.kind, spec, n)
@@ -164,9 +178,6 @@ class GroupSampler:
                 "so there is nothing to sample; change the balls or the bounds"
             )
         self.own = [group_row(self.kind, c, a, b, n, w) for c, a, b, w in spec] if len(spec) > 1 else None
-        self._halves: Dict[Tuple[int, int, int, int], List] = {}
-        self._cumulative: Dict[Tuple[int, int], Tuple[int, List]] = {}
-        self._kept = 0
 
     # -- cost --------------------------------------------------------------
     def draw_cost(self, size: int) -> Cost:
@@ -179,6 +190,8 @@ class GroupSampler:
         the halvings).
         """
         n = self.n
+        if self.free_balls:
+            return Cost(seconds=size * (100 + 20 * n) / STEPS_PER_SECOND, memory=64 * (n + len(self.groups)))
         bits = row_bits(self.kind, self.model.urns, n)
         scale = max(1, bits // 640)
         once = len(self.groups) * (n + 1) * (n + 1) * scale
@@ -206,6 +219,8 @@ class GroupSampler:
         """
         if isinstance(rng, np.random.Generator):
             rng = RandomWords(rng)
+        if self.free_balls:
+            return self._draw_balls(rng)
         m = self.n
         out: List[Tuple[int, int]] = []
         last = len(self.groups) - 1
@@ -219,6 +234,34 @@ class GroupSampler:
             if j or a:
                 out.extend((first + i, k) for i, k in self._inside(rng, c, a, b, j))
         return tuple(out)
+
+    def _draw_balls(self, words: RandomWords) -> Sparse:
+        """MB without biting bounds: ``n`` independent balls, each in urn ``i`` with probability ``w_i / W``.
+
+        Vectorised (NumPy's exact bounded integers, Lemire's method) while the
+        thresholds and urn numbers fit in 62 bits; else one exact draw per
+        ball from :class:`RandomWords`.
+        """
+        n, thresholds = self.n, self.thresholds
+        if n == 0:
+            return ()
+        total = thresholds[-1]
+        if total < 2**62 and self.model.urns < 2**62:
+            rng = words.rng
+            u = rng.integers(0, total, size=n, dtype=np.int64)
+            g = np.searchsorted(np.array(thresholds, dtype=np.int64), u, side="right")
+            counts = np.array([c for c, *_ in self.groups], dtype=np.int64)
+            firsts = np.array([f for *_, f in self.groups], dtype=np.int64)
+            urns = firsts[g] + rng.integers(0, counts[g], dtype=np.int64)
+            values, repeats = np.unique(urns, return_counts=True)
+            return tuple(zip(values.tolist(), repeats.tolist()))
+        tally: Dict[int, int] = {}
+        for _ in range(n):
+            g = bisect.bisect_right(thresholds, words.below(total))
+            c, *_, first = self.groups[g]
+            urn = first + words.below(c)
+            tally[urn] = tally.get(urn, 0) + 1
+        return tuple(sorted(tally.items()))
 
     def _split(self, g: int, m: int) -> Tuple[int, List]:
         """``(lo, running sums)`` of the law of group *g*'s balls given *m* left (kept while they fit)."""
