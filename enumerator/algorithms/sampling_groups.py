@@ -11,6 +11,9 @@ The method (sequential sampling from exact counts, the counting-to-sampling
 reduction of Nijenhuis & Wilf, *Combinatorial Algorithms*, 2nd ed., 1978,
 ch. 13; Feller vol. 1 §II.5 for stars and bars):
 
+0. **MB without a biting bound** needs no counts: each of the ``n`` balls
+   picks its group by exact integer thresholds on ``c_g W_g`` (a uniform
+   integer below ``W = sum c_g W_g``), then a uniform urn of the group.
 1. **Between groups.**  Suffix rows ``R_g(m)`` (the weighted ways for the
    groups ``g, g+1, ...`` to hold ``m`` balls, see
    :mod:`enumerator.algorithms.group_rows`) give the law of the balls ``j``
