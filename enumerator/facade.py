@@ -89,10 +89,13 @@ class Occupancy(UrnModel):
         return self._remembered("configurations", partial(_count, "count_configurations", self), store=store)
 
     def microstates(self, *, store=None) -> int:
-        """The number of equally likely outcomes (MB: assignments; BE/FD: vectors).
+        """The normaliser of the law: with equal weights, the number of equally likely outcomes.
 
-        Remembered in the result store; BE and FD share the entry of
-        :meth:`configurations`.  Pure:
+        MB: the admissible assignments of the balls (``int``); BE/FD: the
+        admissible vectors, and BE/FD without weights share the entry of
+        :meth:`configurations`.  With weights it is the total weight
+        ``sum_k W(k)`` (an ``int``, or a ``Fraction`` when weights are
+        fractions).  Remembered in the result store.  Pure:
         :func:`enumerator.algorithms.counting.count_microstates`.
         """
         if self.rule is not Rule.MB and not self.weighted:
@@ -100,7 +103,11 @@ class Occupancy(UrnModel):
         return self._remembered("microstates", partial(_count, "count_microstates", self), store=store)
 
     def weight(self, config) -> int:
-        """The number of equally likely outcomes with occupancy *config*."""
+        """The weight of *config*: with equal weights, the number of equally likely outcomes giving it.
+
+        MB: ``n!/prod k_i! * prod w_i^{k_i}``; BE/FD: ``prod w_i^{k_i}`` (``int``,
+        or ``Fraction`` with fractional weights).
+        """
         from .algorithms.counting import configuration_weight
 
         return configuration_weight(self, config)
