@@ -1314,6 +1314,153 @@ def _levels_canonical(ctx):
 # main
 # ---------------------------------------------------------------------------
 
+# ---------------------------------------------------------------------------
+# urn groups at hash-table sizes (issue 10)
+# ---------------------------------------------------------------------------
+
+def _refusable(ctx: Context, ours: Method, peers: List[Method], notes: Optional[List[str]] = None) -> Result:
+    """:meth:`Context.compare`, unless the library refuses the work (TooLarge/Unsupported) up front.
+
+    A refusal is a finding, not a crash: the enumerator row says so (with the
+    library's one-line reason), the peers are still timed for reference, and
+    their answers are not checked.
+    """
+    from enumerator.core.errors import TooLarge, Unsupported
+
+    try:
+        ours.run()
+    except (TooLarge, Unsupported) as error:
+        measured = []
+        for peer in peers:
+            m = ctx.measure(peer, guard=True)
+            m.note = (m.note + "; " if m.note else "") + "answer not checked"
+            measured.append(m)
+        refused = Measurement("enumerator", skipped=True,
+                              note=f"refused by the library: {type(error).__name__}: {str(error)[:160]}")
+        return Result("", "", refused, measured, notes=list(notes or []))
+    return ctx.compare(ours, peers, notes=notes)
+
+
+def _no_collision_gmpy2(n: int, r: int):
+    """P(no two of n keys share one of r buckets) as an mpq: prod (r - i) / r^n (plain gmpy2 products).
+
+    The falling factorial is multiplied as a balanced tree of mpz products
+    (one left-to-right pass would be quadratic in the digits).
+    """
+    factors = [mpz(r - i) for i in range(n)] or [mpz(1)]
+    while len(factors) > 1:
+        factors = [factors[i] * factors[i + 1] if i + 1 < len(factors) else factors[i]
+                   for i in range(0, len(factors), 2)]
+    return gmpy2.mpq(factors[0], mpz(r) ** n)
+
+
+@workload("no-collision-2^64", "P(no collision), 10^5 keys in 2^64 buckets, against a plain gmpy2 product",
+          target=at_most(1.2))
+def _no_collision(ctx):
+    n, r = 10 ** 5, 2 ** 64
+    return _refusable(
+        ctx,
+        Method("enumerator", lambda: Occupancy(balls=n, urns=r).event_probability("max <= 1")),
+        [Method("gmpy2 product of (r - i) / r", lambda: _no_collision_gmpy2(n, r),
+                scaled=lambda s: (lambda: _no_collision_gmpy2(_scale(n, s), r)))],
+    )
+
+
+@workload("max-le-3-2^64", "P(max <= 3), 10^4 keys in 2^64 buckets (in seconds)")
+def _max_at_most_3(ctx):
+    return _refusable(ctx, Method("enumerator",
+                                  lambda: Occupancy(balls=10 ** 4, urns=2 ** 64).event_probability("max <= 3")), [])
+
+
+@workload("max-law-1024", "exact law of the maximum load, 10^4 keys in 1024 buckets (in seconds)")
+def _max_law_1024(ctx):
+    return _refusable(ctx, Method("enumerator",
+                                  lambda: len(Occupancy(balls=10 ** 4, urns=1024).distribution("max").pmf)),
+                      [], notes=["answer: the support size"])
+
+
+def _occupied_moments_gmpy2(n: int, r: int):
+    """Mean and variance of the occupied buckets (MB), closed forms in exact mpq (Feller, vol. 1, IV.2)."""
+    q1 = gmpy2.mpq(r - 1, r) ** n
+    q2 = gmpy2.mpq(r - 2, r) ** n
+    mean = r * (1 - q1)
+    empty_mean = r * q1
+    variance = r * (r - 1) * q2 + empty_mean - empty_mean * empty_mean
+    return mean, variance
+
+
+@workload("moments-occupied-2^32", "--moments-only occupied: mean and variance, 10^6 keys in 2^32 buckets",
+          target=Target("<= 1 s", 1.0, on="value"))
+def _moments_occupied(ctx):
+    from enumerator.algorithms.statistics import statistic_moments
+
+    n, r = 10 ** 6, 2 ** 32
+
+    def ours():
+        m = statistic_moments(Occupancy(balls=n, urns=r), "occupied")
+        return m.mean, m.variance
+
+    return _refusable(ctx, Method("enumerator", ours),
+                      [Method("gmpy2 mpq closed forms", lambda: _occupied_moments_gmpy2(n, r),
+                              scaled=lambda s: (lambda: _occupied_moments_gmpy2(_scale(n, s), r)))])
+
+
+@workload("threshold-three-birthdays", "least people for P(three share a birthday) >= 1/2 (88, OEIS A014088)",
+          target=Target("<= 0.5 s", 0.5, on="value"))
+def _threshold_three(ctx):
+    from enumerator.algorithms.threshold import find_threshold
+    from enumerator.core.model import UrnModel
+
+    return _refusable(ctx, Method("enumerator", lambda: find_threshold(
+        UrnModel(balls=0, urns=365), "balls", "max >= 3", "1/2").value), [])
+
+
+@workload("weighted-max-law", "exact law of the maximum, MB 2000 balls in 1000 urns of 5 weights (in seconds)")
+def _weighted_max_law(ctx):
+    weights = "200x1,200x2,200x3,200x4,200x5"
+    return _refusable(ctx, Method("enumerator",
+                                  lambda: len(Occupancy(balls=2000, weights=weights).distribution("max").pmf)),
+                      [], notes=["answer: the support size"])
+
+
+def _cli_digits(args: List[str]) -> int:
+    """Run the command line in-process and return the number of digits of its microstates."""
+    import io
+
+    from enumerator.cli import app as cli_app
+
+    out = io.StringIO()
+    saved = sys.stdout
+    sys.stdout = out
+    try:
+        from typer.main import get_command
+
+        get_command(cli_app).main(args=args, standalone_mode=False)
+    except SystemExit as stop:
+        if stop.code not in (0, None):
+            raise RuntimeError(f"enumerator {' '.join(args)} exited {stop.code}") from None
+    finally:
+        sys.stdout = saved
+    text = out.getvalue()
+    if "--json" in args:
+        return len(json.loads(text)["microstates"])
+    line = next(x for x in text.splitlines() if x.startswith("microstates = "))
+    return len(line) - len("microstates = ")
+
+
+@workload("million-digit-count-printed", "count -n 1000000 -r 10 printed whole (--json and the table)",
+          target=Target("<= 0.5 s", 0.5, on="value"))
+def _million_digits(ctx):
+    args = ["count", "-n", "1000000", "-r", "10", "--no-cache"]
+    return ctx.compare(
+        Method("enumerator count --json", lambda: _cli_digits(args + ["--json"])),
+        [Method("enumerator count (table)", lambda: _cli_digits(args)),
+         Method("gmpy2 10^n digits", lambda: len((mpz(10) ** 10 ** 6).digits()))],
+        notes=["answer: the number of digits printed; the table row shows the value rounded and writes it whole "
+               "below"],
+    )
+
+
 def run_one(ctx: Context, w: Workload) -> Result:
     try:
         result = w.run(ctx)
