@@ -353,6 +353,8 @@ def describe(model: "Occupancy") -> str:
     text = f"{model.rule.title} ({model.rule.value}): {model.balls} balls in {model.urns} urns"
     if not model.is_uniform:
         return text + ", bounds " + model.canonical_bounds()
+    if model.weighted:
+        text += f", each of weight {exact(model.groups[0].weight)}"
     # The uniform bounds, read from the model's one group: never per urn, so a
     # title costs nothing however many urns there are.
     low, high = model.minimum, model.capacity

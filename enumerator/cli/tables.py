@@ -11,9 +11,12 @@ from .options import (
     MODEL_PANEL,
     Capacity,
     Json,
+    MaxMemory,
+    MaxSeconds,
     Minimum,
     RuleOpt,
     Store,
+    limits_scope,
 )
 from .render import abbreviate, console, emit_json, exact, show_table
 
@@ -185,6 +188,8 @@ def table_build_command(
         typer.Option("--name", help="Name of the table (default: made from its definition)."),
     ] = None,
     store: Store = None,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Build a lookup table of exact counts over balls x urns into the result store.
@@ -225,7 +230,8 @@ def table_build_command(
             progress.update(task, advance=1, urns=r, **totals)
 
         try:
-            report = build_table(spec, name=name, store=target, progress=advance)
+            with limits_scope(max_memory, max_seconds):
+                report = build_table(spec, name=name, store=target, progress=advance)
         except KeyboardInterrupt:
             progress.stop()
             sys.stderr.write(
@@ -456,6 +462,8 @@ def cache_verify_command(
     seed: Annotated[Optional[int], typer.Option("--seed", help="Seed of the random sample.")] = None,
     fix: Annotated[bool, typer.Option("--fix", help="Replace every wrong or damaged entry by the recomputed value.")] = False,
     store: Store = None,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Recompute stored values (a sample, or --all) and report every mismatch.
@@ -469,7 +477,8 @@ def cache_verify_command(
         $ enumerator cache verify --all --fix
     """
     target = _open_store(store)
-    report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
+    with limits_scope(max_memory, max_seconds):
+        report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
     mismatches = report["mismatches"]
     if as_json:
         emit_json({
