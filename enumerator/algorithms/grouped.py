@@ -364,6 +364,10 @@ def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "th
         return mpz(0)
     if any(b < a for _, a, b, _ in groups) or sum(c * a for c, a, _, _ in groups) > n:
         return mpz(0)
+    # the answer has at most n log2(n + sum c w) bits (MB: W^n; BE: C(n + r - 1, n) W^n)
+    bits = max(64.0, n * math.log2(n + 2 + sum(c * w for c, _, _, w in groups)))
+    limits.check(Cost(seconds=limits.product_seconds(bits) * math.log2(n + 2), memory=4 * bigint_bytes(bits)),
+                 what, advice="use fewer balls")
     fixed = [g for g in groups if g[1] == g[2]]
     if fixed:
         # urns that must hold exactly a balls each: a constant factor, and fewer balls for the rest
@@ -382,7 +386,22 @@ def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "th
         return factor * total_count(rest, labelled, n - held, what)
     if not labelled:
         if len(groups) == 1:
-            return total_row(groups, labelled, n, what)[n]
+            # one group: sum_j (-1)^j C(c, j) C(L - j s + c - 1, c - 1) w^n, L = n - c a, s = b - a + 1
+            c, a, b, w = groups[0]
+            room, span = n - c * a, b - a + 1
+            if span == 2:  # each urn holds a or a + 1 (FD): choose the urns holding a + 1
+                return gmpy2.comb(c, room) * mpz(w) ** n
+            terms = room // span + 1
+            limits.check(Cost(seconds=terms * 4 * limits.product_seconds(bits), memory=4 * bigint_bytes(bits)),
+                         what, advice="use fewer balls")
+            value = mpz(0)
+            choose = mpz(1)
+            for j in range(terms):
+                rest = room - j * span
+                term = choose * gmpy2.comb(rest + c - 1, rest)
+                value = value - term if j & 1 else value + term
+                choose = divexact(choose * (c - j), j + 1)
+            return value * mpz(w) ** n
         first = total_row(groups[:1], labelled, n, what)
         rest = total_row(groups[1:], labelled, n, what)
         return weighted_dot(first, rest, False, n)

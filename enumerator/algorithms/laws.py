@@ -63,7 +63,7 @@ from fractions import Fraction
 from typing import Callable, Dict, List, Optional, Tuple
 
 import gmpy2
-from flint import fmpz_poly
+from flint import fmpz, fmpz_poly
 
 from ..core import limits, series
 from ..core.errors import InvalidParameters, TooLarge
@@ -584,15 +584,23 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     cumulative: Dict[int, mpz] = {}
     free = labelled and all(a == 0 and b >= n for _, a, b, _ in groups)
     last = hi
+    cost = Cost()
+    bits = max(64.0, n * math.log2(max(2, sum(c * w for c, _, _, w in groups))))
     if free and hi >= n // 2:
         start = max(lo, n // 2)
-        cumulative.update(_mb_free_tail(groups, n, start))
         last = start - 1
-    cost = Cost()
+        # suffix sums: G n products, and one count per m kept
+        cost = Cost(seconds=len(groups) * (n - start + 1) * 2 * limits.product_seconds(bits),
+                    memory=(n - start + 2) * bigint_bytes(bits))
+    ceiling = limits.active_limits()
     for m in range(lo, last + 1):
         cost = cost + grouped.row_cost(_capped(groups, m), n, labelled)
+        if cost.seconds > ceiling.seconds or cost.memory > ceiling.memory:
+            break  # already beyond the limits: refuse without adding up the rest
     limits.check(cost, f"the law of max for {n} balls in {r} urns",
                  advice="ask for P(max <= m) at one m (an event) instead of the whole law")
+    if free and hi >= n // 2:
+        cumulative.update(_mb_free_tail(groups, n, max(lo, n // 2)))
     counts: Dict[int, mpz] = {}
     previous = mpz(0)
     for m in range(lo, hi + 1):
@@ -677,6 +685,37 @@ def _group_urn_counts(model: UrnModel, index: int) -> Dict[int, "mpz"]:
     return counts
 
 
+def _single_group_occupied(groups, labelled: bool, n: int) -> Optional[Dict[int, "mpz"]]:
+    r"""The law of the occupied urns of one group of free urns (or of capacity 1), or None.
+
+    MB: ``C(c, u) u! S(n, u) w^n`` (Stirling numbers of the second kind, FLINT);
+    BE: ``C(c, u) C(n - 1, u - 1) w^n``; capacity 1: every ball alone, ``u = n``
+    (Feller, vol. 1, ch. II.5).  ``O(n)`` terms, whatever ``c`` is.
+    """
+    if len(groups) != 1:
+        return None
+    c, a, b, w = groups[0]
+    if a != 0:
+        return None
+    scale = mpz(w) ** n
+    if b == 1 and b < n:
+        return {n: gmpy2.comb(c, n) * scale * (gmpy2.fac(n) if labelled else 1)} if c >= n else {}
+    if b < n:
+        return None
+    if n == 0:
+        return {0: mpz(1)}
+    counts: Dict[int, mpz] = {}
+    choose = mpz(1)
+    for u in range(1, min(n, c) + 1):
+        choose = divexact(choose * (c - u + 1), u)  # C(c, u)
+        if labelled:
+            ways = mpz(int(fmpz.stirling_s2(n, u))) * gmpy2.fac(u)
+        else:
+            ways = gmpy2.comb(n - 1, u - 1)
+        counts[u] = choose * ways * scale
+    return counts
+
+
 def _group_marked_law(model: UrnModel, low: int, high: Optional[int]) -> Dict[int, "mpz"]:
     r"""``{j: weight with j urns holding low..high}`` by groups, at any number of urns.
 
@@ -688,6 +727,9 @@ def _group_marked_law(model: UrnModel, low: int, high: Optional[int]) -> Dict[in
     n, r = model.balls, model.urns
     groups, _ = grouped.integer_groups(model)
     labelled = model.rule.distinguishable
+    single = _single_group_occupied(groups, labelled, n) if (low, high) in ((1, None), (0, 0)) else None
+    if single is not None:
+        return single if low == 1 else {r - u: c for u, c in single.items()}
     if low >= 1:
         row = grouped.marked_row(groups, labelled, n, low, high, f"the law of a counting statistic for {n} balls")
         return {u: c for u, c in enumerate(row) if c}

@@ -42,13 +42,16 @@ All arithmetic is exact (gmpy2 and FLINT inside); the public results are
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Callable, Dict, List, Optional, Tuple, Union
 
 import gmpy2
 
+from ..core import limits
 from ..core.errors import InvalidParameters, Unsupported
+from ..core.limits import Cost
 from ..core.model import UrnModel, as_count
 from .bounded import outcome_count
 from .counting import exact_fraction, over_prime_power, power_primes
@@ -208,12 +211,16 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
             f"statistic {stat.name!r} names urn {stat.parameter}, but the model has {model.urns} urns; "
             f"use urn:1 to urn:{model.urns}"
         )
+    # before the total: its size is at most n log2(n + sum of the weights) bits
+    weight = sum(g.count * g.weight for g in model.groups)
+    _check_answer_size(model, stat, model.balls * math.log2(model.balls + 2 + weight))
     total = outcome_total(model)
     if total == 0:
         raise InvalidParameters(
             f"the model ({model!r}) admits no configuration, so {stat.name!r} has no distribution; "
             "loosen the bounds or change the number of balls"
         )
+    _check_answer_size(model, stat, int(total).bit_length())
     counts = stat.counts(model, total, limit)
     counts = {v: int(c) for v, c in counts.items() if c}
     if sum(counts.values()) != total:  # pragma: no cover - an internal invariant
@@ -298,6 +305,27 @@ def statistic_moments(model: UrnModel, statistic: Union[str, Statistic], limit: 
     mean, falling = marked_moments(model, low, high)
     variance = falling + mean - mean * mean
     return Moments(stat.name, mean, variance)
+
+
+def _support_bound(model: UrnModel, stat: Statistic) -> int:
+    """At most how many values *stat* takes under *model* (``n + 1`` for most; profiles are checked by their route)."""
+    n, r = model.balls, model.urns
+    if stat.kind == "min":
+        return n // r + 1
+    if stat.kind in ("empty", "occupied", "exactly", "atleast", "count"):
+        return min(n, r) + 1
+    return n + 1
+
+
+def _check_answer_size(model: UrnModel, stat: Statistic, bits: float) -> None:
+    """Refuse a law whose exact counts alone (values x *bits* bits of the total) are beyond the limits."""
+    if not stat.numeric:
+        return
+    values = _support_bound(model, stat)
+    bits = max(64, int(bits))
+    limits.check(Cost(seconds=values * limits.product_seconds(bits), memory=2 * values * limits.bigint_bytes(bits)),
+                 f"the law of {stat.name} ({values:,} exact values of up to {bits:,} bits)",
+                 advice="use fewer balls, or ask for one probability (an event) or the moments instead")
 
 
 # ---------------------------------------------------------------------------
