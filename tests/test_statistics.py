@@ -529,3 +529,20 @@ def test_a_law_beyond_the_limits_is_refused_before_it_starts():
 def test_statistic_numbers_are_refused_before_conversion():
     with pytest.raises(InvalidParameters, match="limited to 4,000 digits"):
         parse_statistic("urn:" + "9" * 5000)
+
+
+@pytest.mark.parametrize("n, r, rule, stat", [
+    (10 ** 12, 2 ** 64, "MB", "occupied"),  # the total alone would be 64 * 10^12 bits
+    (10 ** 9, 2 ** 64, "MB", "max"),
+    (10 ** 7, 3, "MB", "urn:2"),  # 10^7 values of 1.6 * 10^7 bits each
+    (10 ** 9, 5, "BE", "min"),
+])
+def test_answers_too_large_to_hold_are_refused_not_attempted(n, r, rule, stat):
+    with pytest.raises(TooLarge, match="raise max_memory=|raise max_seconds="):
+        distribution(Occupancy(balls=n, urns=r, rule=rule), stat)
+
+
+def test_fermi_dirac_occupied_urns_at_2_64():
+    # FD: every ball alone in its urn, so occupied == n surely
+    law = distribution(Occupancy(balls=5000, urns=2 ** 64, rule="FD"), "occupied")
+    assert law.pmf == {5000: 1}
