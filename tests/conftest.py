@@ -12,6 +12,8 @@ import os
 import shutil
 import tempfile
 
+import pytest
+
 _STORE_DIR = None
 
 
@@ -26,3 +28,54 @@ def pytest_unconfigure(config):
     if _STORE_DIR is not None:
         os.environ.pop("ENUMERATOR_STORE", None)
         shutil.rmtree(_STORE_DIR, ignore_errors=True)
+
+
+# -- PostgreSQL ----------------------------------------------------------------
+# The store's PostgreSQL tests (tests/test_store_postgres.py) run against a
+# real server: the one ENUMERATOR_TEST_POSTGRES_URL names, else a throw-away
+# server started from Debian's binaries for the session (tests/pg_server.py).
+# Without either they are skipped, unless ENUMERATOR_TEST_POSTGRES_REQUIRED=1
+# (set by .ci/run, which installs the server), which turns the skip into a failure.
+
+@pytest.fixture(scope="session")
+def postgres_server():
+    """The URL of a PostgreSQL server's admin database whose user may create databases."""
+    import pg_server
+
+    required = os.environ.get(pg_server.ENV_REQUIRED, "") not in ("", "0")
+    given = os.environ.get(pg_server.ENV_URL, "").strip()
+    try:
+        import psycopg  # noqa: F401  (the driver the URLs name)
+    except ImportError as error:
+        if required:
+            pytest.fail(f"PostgreSQL tests required but the driver is missing: {error}", pytrace=False)
+        pytest.skip(f"no PostgreSQL driver ({error}); pip install -e '.[test]'")
+    if given:
+        yield given
+        return
+    try:
+        server = pg_server.start()
+    except (pg_server.Unavailable, RuntimeError, OSError) as error:
+        if required:
+            pytest.fail(f"PostgreSQL tests required ({pg_server.ENV_REQUIRED}=1) but no server "
+                        f"could be started: {error}", pytrace=False)
+        pytest.skip(f"no PostgreSQL server: {error}")
+    try:
+        yield server.url
+    finally:
+        server.stop()
+
+
+@pytest.fixture
+def postgres_url(postgres_server):
+    """A SQLAlchemy URL of a fresh, empty PostgreSQL database, dropped after the test."""
+    import pg_server
+
+    from enumerator import store as results
+
+    url = pg_server.create_database(postgres_server)
+    try:
+        yield url
+    finally:
+        results.close_all()  # the store's pooled connections, before the database goes
+        pg_server.drop_database(postgres_server, url)
