@@ -38,6 +38,7 @@ from sqlalchemy import exc as sa_exc
 from sqlalchemy.engine import URL, Connection, Engine, make_url
 
 from ..core.errors import StoreError
+from .layout import DEFAULT_FILENAME, file_path
 
 __all__ = [
     "BUSY_TIMEOUT",
@@ -56,8 +57,6 @@ __all__ = [
     "writing",
 ]
 
-#: The file name used inside a store directory.
-DEFAULT_FILENAME = "enumerator.sqlite"
 #: Seconds one SQLite call waits for another process's lock (busy timeout).
 BUSY_TIMEOUT = 30.0
 #: Seconds a write keeps retrying, in all, before it reports the store as stuck.
@@ -109,10 +108,7 @@ def resolve_location(location: str) -> Tuple[URL, Optional[Path]]:
                 database = database[5:].split("?", 1)[0]
             path = Path(database).expanduser().resolve()
         return url, path
-    path = Path(text).expanduser()
-    if path.is_dir():
-        path = path / DEFAULT_FILENAME
-    path = path.resolve()
+    path = file_path(text)
     return URL.create("sqlite", database=str(path)), path
 
 

@@ -15,8 +15,10 @@ Three tables:
     whose cells are ordinary result rows.
 
 The models below describe the layout of :data:`SCHEMA_VERSION`.  A change of
-layout raises :data:`SCHEMA_VERSION` by one and adds the step that upgrades
-a store of the previous version to :mod:`enumerator.store.migrations`.
+layout raises :data:`SCHEMA_VERSION` by one (in :mod:`enumerator.store.layout`,
+which holds the layout's numbers and table names without importing
+SQLAlchemy) and adds the step that upgrades a store of the previous version
+to :mod:`enumerator.store.migrations`.
 
 Exact numbers never go in an SQLite ``INTEGER`` (a signed 64-bit number;
 Python's ``sqlite3`` raises ``OverflowError`` at ``2**63``): values are text,
@@ -44,6 +46,8 @@ from sqlalchemy import BigInteger, DateTime, Index, Integer, String, Text, TypeD
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
 from ..core.exact import int_text, text_int
+from . import layout
+from .layout import FIRST_SCHEMA_VERSION, META_SCHEMA_VERSION
 
 __all__ = [
     "Base",
@@ -56,13 +60,11 @@ __all__ = [
     "SCHEMA_VERSION",
 ]
 
+# The layout's numbers live in .layout (no SQLAlchemy there, so the quick
+# read of one value needs none); they stay importable from here.
 #: The layout the models below describe; a store written by a newer layout is
 #: refused, an older one is upgraded (:mod:`enumerator.store.migrations`).
-SCHEMA_VERSION = 2
-#: The first layout ever written; every store is at this version or later.
-FIRST_SCHEMA_VERSION = 2
-#: The ``enumerator_meta`` key under which a store records its layout.
-META_SCHEMA_VERSION = "schema_version"
+SCHEMA_VERSION = layout.SCHEMA_VERSION
 
 
 class DecimalInt(TypeDecorator):
@@ -93,7 +95,7 @@ class Base(DeclarativeBase):
 class Meta(Base):
     """Key/value facts about the store itself (``schema_version``, creator)."""
 
-    __tablename__ = "enumerator_meta"
+    __tablename__ = layout.META_TABLE
 
     key: Mapped[str] = mapped_column(String(64), primary_key=True)
     value: Mapped[str] = mapped_column(Text)
@@ -105,7 +107,7 @@ class Meta(Base):
 class Result(Base):
     """One remembered exact value under its canonical key."""
 
-    __tablename__ = "enumerator_results"
+    __tablename__ = layout.RESULTS_TABLE
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     #: SHA-256 of the canonical key text; unique, so upserts deduplicate.
@@ -140,7 +142,7 @@ class Result(Base):
 class LookupTable(Base):
     """A named grid of balls x urns whose cells live in ``enumerator_results``."""
 
-    __tablename__ = "enumerator_tables"
+    __tablename__ = layout.LOOKUP_TABLE
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     name: Mapped[str] = mapped_column(String(200), unique=True)
