@@ -54,7 +54,7 @@ from sqlalchemy.orm import Session
 
 from ..core.errors import StoreError
 from . import migrations, schema
-from .codec import decode_value, encode_value
+from .codec import encode_value
 from .engine import (
     enable_wal,
     explain_failure,
@@ -67,7 +67,7 @@ from .engine import (
     writing,
 )
 from .entries import EXPORT_ENTRY_FORMATS, StoredEntry, check_entry, export_lines
-from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, row_checksum, row_intact
+from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, row_checksum, stored_value
 from .schema import Base, LookupTable, Meta, Result
 
 __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
@@ -373,20 +373,7 @@ class Store:
         row = self._guard(self._fetch, digest)
         if row is None:
             return default
-        kind, text, digits, checksum = row
-        if not row_intact(digest, kind, text, digits, checksum):
-            raise StoreError(
-                f"the store {self.name} holds a damaged entry for {quantity} of {key.rule} "
-                f"n={key.balls} bounds {key.bounds}; run 'enumerator cache verify --fix' or "
-                "delete the store file (it only holds a cache)"
-            )
-        try:
-            return decode_value(kind, text)
-        except (ValueError, TypeError):
-            raise StoreError(
-                f"the store {self.name} holds an unreadable entry for {quantity} of {key.rule} "
-                f"n={key.balls}; run 'enumerator cache verify --fix' or delete the store file"
-            ) from None
+        return stored_value(self.name, quantity, key, digest, *row)
 
     def _fetch(self, digest: str):
         with reading(self.engine) as conn:

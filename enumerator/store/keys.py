@@ -30,9 +30,10 @@ import zlib
 from dataclasses import dataclass
 from typing import Any, Callable, Dict, Optional
 
+from ..core.errors import StoreError
 from ..core.exact import int_text
 from ..core.model import UrnModel
-from .codec import digit_count
+from .codec import decode_value, digit_count
 
 __all__ = [
     "ALGORITHM_VERSIONS",
@@ -43,6 +44,7 @@ __all__ = [
     "register_quantity",
     "row_checksum",
     "row_intact",
+    "stored_value",
 ]
 
 #: Algorithm version of each quantity.  Raise a number whenever the method
@@ -197,6 +199,51 @@ def row_intact(digest: str, kind: str, text: str, digits: int, checksum: int) ->
     refused by every reader (never served as a value).
     """
     return row_checksum(digest, kind, text) == checksum and (kind != "int" or digit_count(text) == digits)
+
+
+def stored_value(name: str, quantity: str, key: Key, digest: str, kind: str, text: str,
+                 digits: int, checksum: int):
+    """Return the value of a stored row after checking it, or refuse the row.
+
+    Parameters
+    ----------
+    name : str
+        The store's name (file path or URL), for the message.
+    quantity, key
+        What the row was looked up as, for the message.
+    digest, kind, text, digits, checksum
+        The row: its key digest and stored columns.
+
+    Returns
+    -------
+    int, Fraction, list or dict
+        The decoded value (:func:`~enumerator.store.codec.decode_value`).
+
+    Raises
+    ------
+    StoreError
+        When the row is not intact (:func:`row_intact`) or its text does not
+        decode: a wrong value is never returned.
+
+    Notes
+    -----
+    The one check every reader of a single value uses (the full store and the
+    quick read), so both refuse a damaged row with the same words.  Cost:
+    that of :func:`row_intact` plus the decoding.
+    """
+    if not row_intact(digest, kind, text, digits, checksum):
+        raise StoreError(
+            f"the store {name} holds a damaged entry for {quantity} of {key.rule} "
+            f"n={key.balls} bounds {key.bounds}; run 'enumerator cache verify --fix' or "
+            "delete the store file (it only holds a cache)"
+        )
+    try:
+        return decode_value(kind, text)
+    except (ValueError, TypeError):
+        raise StoreError(
+            f"the store {name} holds an unreadable entry for {quantity} of {key.rule} "
+            f"n={key.balls}; run 'enumerator cache verify --fix' or delete the store file"
+        ) from None
 
 
 def model_from_key(rule: str, balls: int, bounds: str):
