@@ -26,6 +26,7 @@ from enumerator import store as results
 from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
 from enumerator.core.errors import InvalidParameters, TooLarge
 from enumerator.store import context as store_context
+from enumerator.store import database as store_database
 from enumerator.store import keys as store_keys
 
 
@@ -279,9 +280,10 @@ def test_the_active_store_is_per_thread_and_never_leaks(tmp_path):
         thread = threading.Thread(target=other_thread)
         thread.start()
         thread.join()
-        assert results.current_store() is mine
+        # using() yields a handle that opens the store on first use (issue 9, "Fast start")
+        assert results.current_store() is mine.store
     # a fresh thread sees the default (here: ENUMERATOR_STORE is unset, so not 'mine')
-    assert seen["other"] is not mine
+    assert seen["other"] is not mine.store
 
 
 def test_an_explicit_store_argument_wins_over_the_active_one(tmp_path):
@@ -502,7 +504,8 @@ def test_threads_opening_one_location_at_once_share_one_store(tmp_path, monkeypa
             opened.append(location)
             super().__init__(location)
 
-    monkeypatch.setattr(store_context, "Store", CountingStore)
+    # open_store imports the class when it opens a store (so a stored answer loads no SQLAlchemy)
+    monkeypatch.setattr(store_database, "Store", CountingStore)
     where = str(tmp_path / "shared.sqlite")
     barrier = threading.Barrier(8)
     got = []

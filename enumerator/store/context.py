@@ -16,6 +16,14 @@ folder, else the user's cache directory), unless ``ENUMERATOR_NO_CACHE=1``.
 
 Open stores are reused per location within a process (:func:`open_store`);
 :func:`close_all` closes them.
+
+Reading a stored value loads no SQLAlchemy: for an existing SQLite file,
+:func:`remember` first reads the row with the standard library's
+:mod:`sqlite3` (:mod:`enumerator.store.quick`), and opens the full
+:class:`~enumerator.store.database.Store` only on a miss, for a write, for a
+URL, or when anything is unusual.  Likewise :func:`using` only records the
+choice (the store opens on first use), and this module imports
+:mod:`~enumerator.store.database` only inside the functions that open a store.
 """
 
 from __future__ import annotations
@@ -28,15 +36,19 @@ from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Dict, Iterator, Optional, Union
+from typing import TYPE_CHECKING, Any, Callable, Dict, Iterator, Optional, Union
 
-from .database import Store
-from .engine import DEFAULT_FILENAME
+from . import quick
 from .keys import ALGORITHM_VERSIONS, Key
+from .layout import DEFAULT_FILENAME, file_path
+
+if TYPE_CHECKING:  # the class is imported where a store is opened, not here
+    from .database import Store
 
 __all__ = [
     "ENV_NO_CACHE",
     "ENV_STORE",
+    "StoreHandle",
     "bypass",
     "cache_enabled",
     "close_all",
@@ -46,6 +58,9 @@ __all__ = [
     "remember",
     "using",
 ]
+
+#: What may name a store without being one: a path or URL text, or None (the default).
+_LOCATION_TYPES = (str, os.PathLike, type(None))
 
 #: Environment variable naming the store (a path or an SQLAlchemy URL).
 ENV_STORE = "ENUMERATOR_STORE"
@@ -108,18 +123,19 @@ def default_location() -> str:
 # which store a computation uses is never read from here but passed, or set
 # for a block through the context variable below.
 _open_lock = threading.Lock()  # guards the two dicts, held only for a moment
-_open: Dict[str, Store] = {}
+_open: Dict[str, "Store"] = {}
 _opening: Dict[str, threading.Lock] = {}  # one lock per location, held while it opens
 
 
-def open_store(location: Union[str, os.PathLike, Store, None] = None) -> Store:
+def open_store(location: Union[str, os.PathLike, "Store", "StoreHandle", None] = None) -> "Store":
     """Return the open :class:`Store` at *location*, opening it on first use.
 
     Parameters
     ----------
-    location : str, os.PathLike, Store or None
+    location : str, os.PathLike, Store, StoreHandle or None
         A path, directory or SQLAlchemy URL; ``None`` means
-        :func:`default_location`; a :class:`Store` is returned as it is.
+        :func:`default_location`; a :class:`Store` is returned as it is, a
+        :class:`StoreHandle` (what :func:`using` yields) gives its store.
 
     Returns
     -------
@@ -138,8 +154,10 @@ def open_store(location: Union[str, os.PathLike, Store, None] = None) -> Store:
     another (an upgrade or a locked file elsewhere does not hold them up).
     Cost: one dict lookup once open; opening costs what :class:`Store` does.
     """
-    if isinstance(location, Store):
-        return location
+    if isinstance(location, StoreHandle):
+        location = location.location
+    if not isinstance(location, _LOCATION_TYPES):
+        return location  # a Store already
     where = str(location) if location is not None else default_location()
     store = _open.get(where)
     if store is not None:
@@ -149,6 +167,8 @@ def open_store(location: Union[str, os.PathLike, Store, None] = None) -> Store:
     with gate:
         store = _open.get(where)
         if store is None:
+            from .database import Store
+
             store = Store(where)
             with _open_lock:
                 _open[where] = store
@@ -161,13 +181,52 @@ def close_all() -> None:
     Notes
     -----
     A thread still holding one of them keeps working: its engine opens new
-    connections when next used.
+    connections when next used.  The quick-read connections
+    (:mod:`enumerator.store.quick`) are closed too.
     """
     with _open_lock:
         stores = list(_open.values())
         _open.clear()
+    quick.close_all()
     for store in stores:
         store.close()
+
+
+class StoreHandle:
+    """The store a :func:`using` block chose, opened on first use.
+
+    Parameters
+    ----------
+    location : str or None
+        The location as given to :func:`using` (``None``: :func:`default_location`).
+
+    Notes
+    -----
+    Attributes other than :attr:`location` are those of the open
+    :class:`~enumerator.store.database.Store` (``path``, ``name``,
+    ``read_only``, ``stats()``, ...): reading one opens the store through
+    :func:`open_store`, so a block that only answers from the store never
+    opens it (nor imports SQLAlchemy).  Pass the handle wherever a store is
+    accepted (``store=``, :func:`open_store`, :func:`using`).
+    """
+
+    __slots__ = ("location",)
+
+    def __init__(self, location: Optional[str]):
+        self.location = location
+
+    @property
+    def store(self) -> "Store":
+        """The open store (opened now if it is not yet)."""
+        return open_store(self.location)
+
+    def __getattr__(self, name: str):
+        if name.startswith("__"):  # copy, pickle and friends probe for these: not the store's
+            raise AttributeError(name)
+        return getattr(open_store(self.location), name)
+
+    def __repr__(self) -> str:
+        return f"StoreHandle({self.location!r})"
 
 
 # ---------------------------------------------------------------------------
@@ -178,7 +237,7 @@ def close_all() -> None:
 class _Choice:
     """What :func:`using` or :func:`bypass` chose: a location (or store), or no store."""
 
-    location: Union[str, Store, None]
+    location: Union[str, "Store", None]
     enabled: bool
 
 
@@ -208,7 +267,7 @@ def cache_enabled() -> bool:
     return not _env_no_cache()
 
 
-def current_store() -> Optional[Store]:
+def current_store() -> Optional["Store"]:
     """Return the store the current context remembers results in, or None when remembering is off.
 
     Returns
@@ -236,25 +295,28 @@ def current_store() -> Optional[Store]:
 
 
 @contextmanager
-def using(location: Union[str, os.PathLike, Store, None]) -> Iterator[Optional[Store]]:
+def using(location: Union[str, os.PathLike, "Store", StoreHandle, None]) -> Iterator[Union["Store", StoreHandle]]:
     """Within the block, remember results in the store at *location* (``None``: the default).
 
     Parameters
     ----------
-    location : str, os.PathLike, Store or None
-        A path, directory or SQLAlchemy URL, an open :class:`Store`, or None
-        for :func:`default_location`.
+    location : str, os.PathLike, Store, StoreHandle or None
+        A path, directory or SQLAlchemy URL, an open :class:`Store` (or a
+        :class:`StoreHandle`), or None for :func:`default_location`.
 
     Yields
     ------
-    Store
-        The store now active (opened by :func:`open_store`).
+    StoreHandle or Store
+        The store now active: the :class:`Store` given, else a
+        :class:`StoreHandle` that opens it on first use (its attributes are
+        the store's).
 
     Notes
     -----
     The choice lives in a :class:`contextvars.ContextVar`: it holds for
     this thread or task only and is undone when the block ends, also on an
-    exception.  Cost: that of :func:`open_store`.
+    exception.  The store is not opened here: a failure to open it is
+    raised where it is first used.  Cost: constant.
 
     Examples
     --------
@@ -264,10 +326,16 @@ def using(location: Union[str, os.PathLike, Store, None]) -> Iterator[Optional[S
     ...     store.name.endswith("s.sqlite")
     True
     """
-    where = location if isinstance(location, Store) or location is None else str(location)
+    if isinstance(location, StoreHandle):
+        location = location.location
+    if isinstance(location, _LOCATION_TYPES):
+        where = None if location is None else str(location)
+        chosen = StoreHandle(where)
+    else:
+        where = chosen = location  # a Store
     token = _active.set(_Choice(where, True))
     try:
-        yield current_store()
+        yield chosen
     finally:
         _active.reset(token)
 
@@ -292,12 +360,29 @@ def bypass() -> Iterator[None]:
 # remembering one result
 # ---------------------------------------------------------------------------
 
-_MISSING = object()
+_MISSING = quick.MISSING
+
+
+def _quick_get(location, quantity: str, key: Key, version: int, params: str):
+    """The stored value read without SQLAlchemy (:func:`quick.read <enumerator.store.quick.read>`), or ``_MISSING``.
+
+    Only for a location that names an SQLite file (not a URL) whose store is
+    not open yet in this process: an open store answers itself.
+    """
+    if isinstance(location, StoreHandle):
+        location = location.location
+    if not isinstance(location, _LOCATION_TYPES):
+        return _MISSING  # an open Store
+    where = str(location) if location is not None else default_location()
+    text = where.strip()
+    if not text or "://" in text or where in _open:
+        return _MISSING
+    return quick.read(file_path(text), quantity, key, version, params)
 
 
 def remember(quantity: str, model_or_key, compute: Callable[[], Any], version: Optional[int] = None,
              *, params: str = "", method: Optional[str] = None,
-             store: Union[str, os.PathLike, Store, None] = None):
+             store: Union[str, os.PathLike, "Store", StoreHandle, None] = None):
     """Return the remembered value of *quantity* for a model, computing and storing it once.
 
     Parameters
@@ -327,19 +412,35 @@ def remember(quantity: str, model_or_key, compute: Callable[[], Any], version: O
     Notes
     -----
     Cost: one indexed lookup by the key's SHA-256 digest; on a miss, the
-    computation plus one short write transaction.
+    computation plus one short write transaction.  A hit in an SQLite file
+    whose store is not open yet is read with :mod:`sqlite3` alone
+    (:mod:`enumerator.store.quick`); the store is opened (SQLAlchemy
+    imported) only on a miss or when that read cannot answer.
     """
-    target = open_store(store) if store is not None else current_store()
-    if target is None:
-        return compute()
+    if store is not None:
+        location = store
+    else:
+        choice = _active.get()
+        if choice is None:
+            if _env_no_cache():
+                return compute()
+            location = None
+        elif not choice.enabled:
+            return compute()
+        else:
+            location = choice.location
     if version is None:
-        try:
-            version = ALGORITHM_VERSIONS[quantity]
-        except KeyError:
+        version = ALGORITHM_VERSIONS.get(quantity)
+        if version is None:
+            open_store(location)  # a store that cannot be opened says so first, as it always did
             raise ValueError(
                 f"quantity {quantity!r} has no algorithm version; pass version= or call register_quantity"
-            ) from None
+            )
     key = model_or_key if isinstance(model_or_key, Key) else Key.of(model_or_key)
+    value = _quick_get(location, quantity, key, version, params)
+    if value is not _MISSING:
+        return value
+    target = open_store(location)
     value = target.get(quantity, key, version, params, _MISSING)
     if value is _MISSING:
         t0 = time.perf_counter_ns()

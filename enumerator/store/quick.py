@@ -1,0 +1,180 @@
+"""A stored value read with the standard library's :mod:`sqlite3`, without SQLAlchemy.
+
+Answering from the store should cost little more than the answer itself, and
+importing SQLAlchemy (engine, SQL compiler, ORM) costs several times more
+than reading one row.  So :func:`~enumerator.store.context.remember` first
+asks :func:`read` here, for a store that is an existing SQLite file:
+
+* the file is opened read-only (``file:...?mode=ro``): no write, no switch
+  to WAL, no file created;
+* one statement reads the store's ``schema_version`` and the row filed under
+  the key's digest (:func:`~enumerator.store.keys.key_digest`) in the same
+  snapshot;
+* the row is checked and decoded exactly as the full store does
+  (:func:`~enumerator.store.keys.stored_value`): a damaged row raises the
+  same :class:`~enumerator.core.errors.StoreError`, never a wrong answer.
+
+Anything else — the key is not stored, the schema is not the current one
+(the full store upgrades or refuses it), a table is missing, the file is
+locked, not a database or replaced, an odd column type — gives
+:data:`MISSING`, and the caller goes through the full store
+(:class:`~enumerator.store.database.Store`), which behaves exactly as it
+would have without this module.
+
+One read-only connection is kept per file and process, shared by threads
+under a lock (a lookup holds it for one indexed read); :func:`close_all`
+closes them, and a forked child never uses its parent's.
+"""
+
+from __future__ import annotations
+
+import os
+import sqlite3
+import threading
+from pathlib import Path
+from typing import Dict, Optional
+
+from .keys import Key, key_digest, stored_value
+from .layout import LOOKUP_TABLE, META_SCHEMA_VERSION, META_TABLE, RESULTS_TABLE, current_schema_version
+
+__all__ = ["MISSING", "close_all", "read"]
+
+#: Returned by :func:`read` when this module cannot answer (use the full store).
+MISSING = object()
+
+#: Seconds a quick read waits for a lock before leaving the read to the full store.
+_BUSY_TIMEOUT = 1.0
+
+_TABLES = (META_TABLE, RESULTS_TABLE, LOOKUP_TABLE)
+
+_SELECT = (
+    f"SELECT m.value, r.kind, r.value, r.digits, r.checksum "
+    f"FROM {META_TABLE} AS m LEFT JOIN {RESULTS_TABLE} AS r ON r.key_digest = ? "
+    f"WHERE m.key = '{META_SCHEMA_VERSION}'"
+)
+
+
+class _Reader:
+    """One read-only connection to one SQLite file, opened on first use and shared under a lock."""
+
+    def __init__(self, path: Path):
+        self.path = path
+        self.lock = threading.Lock()
+        self.conn: Optional[sqlite3.Connection] = None
+        self.identity = None  # (device, inode) of the file the connection reads
+
+    def _connect(self, identity) -> sqlite3.Connection:
+        conn = sqlite3.connect(
+            self.path.as_uri() + "?mode=ro", uri=True, timeout=_BUSY_TIMEOUT,
+            isolation_level=None, check_same_thread=False,
+        )
+        try:
+            found = conn.execute(
+                f"SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN ({', '.join('?' * len(_TABLES))})",
+                _TABLES,
+            ).fetchone()[0]
+        except BaseException:
+            conn.close()
+            raise
+        if found != len(_TABLES):
+            conn.close()
+            raise sqlite3.OperationalError("the store lacks a table")
+        self.conn, self.identity = conn, identity
+        return conn
+
+    def fetch(self, digest: str):
+        """The ``(schema text, kind, value, digits, checksum)`` row for *digest*, or None to fall back."""
+        try:
+            stat = os.stat(self.path)
+        except OSError:
+            return None
+        identity = (stat.st_dev, stat.st_ino)
+        with self.lock:
+            try:
+                conn = self.conn
+                if conn is None or self.identity != identity:  # first use, or the file was replaced
+                    self._close()
+                    conn = self._connect(identity)
+                return conn.execute(_SELECT, (digest,)).fetchone()
+            except sqlite3.Error:
+                self._close()
+                return None
+
+    def _close(self) -> None:
+        conn, self.conn, self.identity = self.conn, None, None
+        if conn is not None:
+            try:
+                conn.close()
+            except sqlite3.Error:
+                pass
+
+    def close(self) -> None:
+        with self.lock:
+            self._close()
+
+
+_lock = threading.Lock()  # guards _readers, held only for a moment
+_readers: Dict[Path, _Reader] = {}
+
+
+def _forget_in_child() -> None:
+    # a forked child never touches its parent's SQLite handles: drop them unclosed
+    global _lock
+    _lock = threading.Lock()
+    _readers.clear()
+
+
+os.register_at_fork(after_in_child=_forget_in_child)
+
+
+def read(path: Path, quantity: str, key: Key, version: int, params: str = ""):
+    """Return the value stored under a key in the SQLite file *path*, or :data:`MISSING`.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The store's resolved SQLite file (:func:`~enumerator.store.layout.file_path`).
+    quantity, key, version, params
+        The key, as for :meth:`Store.get <enumerator.store.database.Store.get>`.
+
+    Returns
+    -------
+    int, Fraction, list, dict or MISSING
+        The exact value; :data:`MISSING` when the key is not stored or the
+        store needs the full treatment (see the module docstring).
+
+    Raises
+    ------
+    StoreError
+        When the stored row is damaged or unreadable (the full store's message).
+
+    Notes
+    -----
+    Cost: one ``stat`` and one indexed read; the first call per file also
+    opens it and checks its tables.  Never imports SQLAlchemy.
+    """
+    if not path.is_file():
+        return MISSING
+    reader = _readers.get(path)
+    if reader is None:
+        with _lock:
+            reader = _readers.setdefault(path, _Reader(path))
+    digest = key_digest(quantity, key, params, version)
+    row = reader.fetch(digest)
+    if row is None:
+        return MISSING
+    found, kind, text, digits, checksum = row
+    if found != str(current_schema_version()) or kind is None:
+        return MISSING
+    if not (isinstance(kind, str) and isinstance(text, str) and type(digits) is int and type(checksum) is int):
+        return MISSING  # an odd row: the full store says what it is
+    return stored_value(str(path), quantity, key, digest, kind, text, digits, checksum)
+
+
+def close_all() -> None:
+    """Close every quick-read connection of this process (they reopen on next use)."""
+    with _lock:
+        readers = list(_readers.values())
+        _readers.clear()
+    for reader in readers:
+        reader.close()
