@@ -422,6 +422,10 @@ def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "th
     bounded = [g for g in groups if g not in free and g not in lower_only]
     if not bounded and not lower_only:
         return mpz(Q) ** n
+    if not free and not lower_only and len(bounded) == 1 and bounded[0][1] == 0:
+        # one group of urns holding 0..b each: only N(n) is needed
+        c, _, b, w = bounded[0]
+        return _capped_count(c, min(b, n), n, what) * mpz(w) ** n
     if not free and not lower_only and len(bounded) >= 2:
         # only entry n of the last product is needed: a dot product instead of a full product
         head = total_row(bounded[:-1], True, n, what)
@@ -448,6 +452,51 @@ def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "th
                 row = _convolve(row, part, True, n)
         total += sign * weight * _exp_dot(row, Z, n)
     return total
+
+
+def _falling(c: int, n: int):
+    """``c (c - 1) ... (c - n + 1)`` by a balanced product tree (``O(M(answer) log n)``)."""
+    if n <= 0:
+        return mpz(1)
+    if c < n:
+        return mpz(0)
+    level = [mpz(c - i) for i in range(n)]
+    while len(level) > 1:
+        level = [level[i] * level[i + 1] if i + 1 < len(level) else level[i] for i in range(0, len(level), 2)]
+    return level[0]
+
+
+def _capped_count(c: int, b: int, n: int, what: str):
+    r"""Assignments of ``n`` labelled balls to ``c`` urns holding at most ``b`` each, any ``c``.
+
+    ``b = 1``: the falling factorial ``c^{(n)}`` (no two balls together: the
+    birthday product, Feller, vol. 1, II.3).  Otherwise Miller's recurrence
+    (:func:`_miller_row`) keeping only the last ``b`` entries: ``O(n b)``
+    small-by-big steps and memory for ``b + 1`` numbers.
+    """
+    bits = max(64.0, n * math.log2(max(2, c)))
+    steps = n * (1 if b <= 1 else b)
+    limits.check(Cost(seconds=steps * (1 + bits / 4000) / limits.STEPS_PER_SECOND
+                      + 2 * limits.product_seconds(bits) * math.log2(n + 2),
+                      memory=(b + 4) * bigint_bytes(bits)), what, advice="use fewer balls")
+    if b >= n:
+        return mpz(c) ** n
+    if b <= 0:
+        return mpz(1) if n == 0 else mpz(0)
+    if b == 1:
+        return _falling(c, n)
+    window = [mpz(1)]  # N(k - len(window) + 1 .. k), newest last
+    c1 = c + 1
+    for k in range(1, n + 1):
+        total = mpz(0)
+        binom = mpz(1)
+        for j in range(1, min(k, b) + 1):
+            binom = divexact(binom * (k - j + 1), j)
+            total += (c1 * j - k) * binom * window[-j]
+        window.append(divexact(total, k))
+        if len(window) > b:
+            window.pop(0)
+    return window[-1]
 
 
 def _product(lists):
