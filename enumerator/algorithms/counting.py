@@ -87,10 +87,24 @@ PROFILE_ENUMERATION_LIMIT = 2_000_000
 # ---------------------------------------------------------------------------
 
 def binomial(n: int, k: int):
-    """``C(n, k)`` as an ``mpz``; 0 outside ``0 <= k <= n`` (GMP ``mpz_bin_uiui``)."""
+    """``C(n, k)`` as an ``mpz``; 0 outside ``0 <= k <= n`` (GMP ``mpz_bin_ui``).
+
+    Taken from its small side ``min(k, n - k)``, so ``n`` may have any size
+    (``C(2^64 + 1, 2^64) = 2^64 + 1``).
+
+    Raises
+    ------
+    TooLarge
+        When both sides exceed a machine word: the answer would have more
+        than about 10^19 bits.
+    """
     if k < 0 or n < 0 or k > n:
         return mpz(0)
-    return gmpy2.comb(n, k)
+    small = min(k, n - k)
+    if small >= 1 << 64:
+        raise TooLarge("C(n, k) with both k and n - k above 2^64 has more digits than any machine holds; "
+                       "make the problem smaller")
+    return gmpy2.comb(n, small)
 
 
 def exact_fraction(num, den) -> Fraction:
@@ -435,7 +449,7 @@ def _grouped_product_count(target: int, model: UrnModel) -> "mpz":
     if bounded and target > top:
         return mpz(0)
     if not steps:
-        return gmpy2.comb(target + R - 1, target)
+        return binomial(target + R - 1, target)
     numerators = [series.one_minus_power(d, e, target) for d, e in sorted(steps.items())]
     numerator = series.product(numerators, target)
     row = series.binomial_row(R, target)
@@ -455,7 +469,7 @@ def _configurations(model: UrnModel):
         if model.is_uniform:
             b = model.groups[0].upper
             if b is None:
-                value = gmpy2.comb(target + r - 1, target)
+                value = binomial(target + r - 1, target)
             else:
                 value = _uniform_capacity_count(r, target, b - model.groups[0].lower)
         else:
