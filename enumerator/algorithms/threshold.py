@@ -299,6 +299,9 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
         return evaluate(at(v), node)
 
     if direction > 0:
+        guess = _no_collision_guess(model, vary, node, goal)
+        if guess is not None:
+            return _gallop(vary, start, highest, goal, p, lambda: evaluations, guess)
         return _bisect(vary, start, highest, goal, p, lambda: evaluations)
     if direction < 0:
         first = p(start)
@@ -337,6 +340,104 @@ def _bisect(vary, start, highest, goal, p, count) -> Threshold:
             )
         lo, lo_value = hi, hi_value
         step *= 2
+    while hi - lo > 1:  # P(lo) < goal <= P(hi)
+        mid = (lo + hi) // 2
+        mid_value = p(mid)
+        if mid_value >= goal:
+            hi, hi_value = mid, mid_value
+        else:
+            lo, lo_value = mid, mid_value
+    return Threshold(vary, hi, hi_value, lo_value, "bisection", count())
+
+
+def _no_collision_guess(model: UrnModel, vary: str, node: Event, goal: Fraction) -> Optional[int]:
+    """A close guess of the answer for the no-collision events on equal free urns (MB or BE), else None.
+
+    ``log P(max <= 1)`` is ``lgamma(r+1) - lgamma(r-n+1) - n ln r`` (MB) or
+    ``lgamma(r+1) - lgamma(r-n+1) - lgamma(n+r) + lgamma(r)`` (BE); a binary
+    search on it in 40-digit floating point (mpmath) lands within a few
+    units of the answer, which the exact search then settles.  Only a
+    starting point: every reported value is decided by exact probabilities.
+    """
+    kind = _no_collision(node)
+    if len(model.groups) != 1 or model.rule.value not in ("MB", "BE"):
+        return None
+    group = model.groups[0]
+    if group.lower != 0 or group.upper is not None:
+        return None
+    if not ((vary == "balls" and kind == 1) or (vary == "urns" and kind == -1)):
+        return None
+    import mpmath
+
+    with mpmath.workdps(40):
+        def log_none(n: int, r: int):
+            if n > r:
+                return mpmath.ninf
+            value = mpmath.loggamma(r + 1) - mpmath.loggamma(r - n + 1)
+            if model.rule.value == "MB":
+                return value - n * mpmath.log(r)
+            return value - mpmath.loggamma(n + r) + mpmath.loggamma(r)
+
+        if vary == "balls":
+            r = model.urns
+            if goal == 1:
+                return r + 1
+            wanted = mpmath.log(1 - mpmath.mpf(goal.numerator) / goal.denominator)
+            lo, hi = 0, r + 1  # log_none(lo) > wanted >= log_none(hi)
+            while hi - lo > 1:
+                mid = (lo + hi) // 2
+                if log_none(mid, r) <= wanted:
+                    hi = mid
+                else:
+                    lo = mid
+            return hi
+        n = model.balls
+        wanted = mpmath.log(mpmath.mpf(goal.numerator) / goal.denominator)
+        lo, hi = max(n, 1) - 1, max(n, 1)
+        while log_none(n, hi) < wanted:
+            lo, hi = hi, hi * 2
+            if hi > SEARCH_CEILING:
+                return None
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if log_none(n, mid) >= wanted:
+                hi = mid
+            else:
+                lo = mid
+        return max(hi, 1)
+
+
+def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
+    """Exact search outward from *guess*: steps 1, 2, 4, ... until the target is bracketed, then bisection."""
+    guess = min(max(guess, start), highest)
+    value = p(guess)
+    if value >= goal:
+        hi, hi_value = guess, value
+        step = 1
+        while True:
+            lo = max(hi - step, start)
+            lo_value = p(lo)
+            if lo_value < goal:
+                break
+            hi, hi_value = lo, lo_value
+            if lo == start:
+                return Threshold(vary, start, lo_value, None, "bisection", count())
+            step *= 2
+    else:
+        lo, lo_value = guess, value
+        step = 1
+        while True:
+            hi = min(lo + step, highest)
+            hi_value = p(hi)
+            if hi_value >= goal:
+                break
+            if hi >= highest:
+                raise TooLarge(
+                    f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,}; lower the target",
+                    parameters=["target"],
+                )
+            lo, lo_value = hi, hi_value
+            step *= 2
     while hi - lo > 1:  # P(lo) < goal <= P(hi)
         mid = (lo + hi) // 2
         mid_value = p(mid)
