@@ -426,3 +426,14 @@ def test_long_numbers_are_refused_before_conversion():
             parse_event(text)
     with pytest.raises(InvalidParameters, match="whole numbers, found '1e5'"):
         parse_event("max <= 1e5")
+
+
+def test_at_most_two_per_bucket_among_2_64_buckets():
+    # j pairs and n - 2j singles: n! / (2^j j! (n-2j)!) ways to form them, r^(n-j) ways to place them
+    # (a direct count, the j-pair generalisation of the birthday product)
+    n, r = 9, 2 ** 64
+    expected = sum(Fraction(math.factorial(n) // (2 ** j * math.factorial(j) * math.factorial(n - 2 * j))
+                            * math.perm(r, n - j), r ** n) for j in range(n // 2 + 1))
+    assert event_probability(Occupancy(balls=n, urns=r, rule="MB"), "max <= 2") == expected
+    weighted = Occupancy(balls=n, weights=f"{r}x5", rule="MB")  # equal weights: the same law
+    assert event_probability(weighted, "max <= 2") == expected
