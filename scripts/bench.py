@@ -1360,9 +1360,12 @@ def _no_collision(ctx):
     n, r = 10 ** 5, 2 ** 64
     return _refusable(
         ctx,
-        Method("enumerator", lambda: Occupancy(balls=n, urns=r).event_probability("max <= 1")),
+        Method("enumerator", lambda: Occupancy(balls=n, urns=r).event_probability("max <= 1"),
+               normalise=lambda v: _residues((v,))),
         [Method("gmpy2 product of (r - i) / r", lambda: _no_collision_gmpy2(n, r),
-                scaled=lambda s: (lambda: _no_collision_gmpy2(_scale(n, s), r)))],
+                scaled=lambda s: (lambda: _no_collision_gmpy2(_scale(n, s), r)),
+                normalise=lambda v: _residues((v,)))],
+        notes=["answers compared by numerator and denominator modulo 2^61 - 1 (millions of bits each)"],
     )
 
 
@@ -1400,9 +1403,18 @@ def _moments_occupied(ctx):
         m = statistic_moments(Occupancy(balls=n, urns=r), "occupied")
         return m.mean, m.variance
 
-    return _refusable(ctx, Method("enumerator", ours),
+    return _refusable(ctx, Method("enumerator", ours, normalise=_residues),
                       [Method("gmpy2 mpq closed forms", lambda: _occupied_moments_gmpy2(n, r),
-                              scaled=lambda s: (lambda: _occupied_moments_gmpy2(_scale(n, s), r)))])
+                              scaled=lambda s: (lambda: _occupied_moments_gmpy2(_scale(n, s), r)),
+                              normalise=_residues)],
+                      notes=["answers compared by their numerators and denominators modulo 2^61 - 1 "
+                             "(each has tens of millions of bits; writing them out would dominate)"])
+
+
+def _residues(values):
+    """Exact fractions as (numerator, denominator) residues modulo the prime 2^61 - 1 (a cheap exact digest)."""
+    prime = (1 << 61) - 1
+    return tuple((int(mpz(v.numerator) % prime), int(mpz(v.denominator) % prime)) for v in values)
 
 
 @workload("threshold-three-birthdays", "least people for P(three share a birthday) >= 1/2 (88, OEIS A014088)",
