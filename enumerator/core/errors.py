@@ -35,6 +35,9 @@ class EnumeratorError(Exception):
     >>> error = TooLarge("the listing exceeds the limit; raise limit=", parameters=["limit"])
     >>> error.spelled({"limit": "--limit"})
     'the listing exceeds the limit; raise --limit'
+    >>> TooLarge("give balls=, or vary= balls=0..9", parameters=["balls", "vary"]).spelled(
+    ...     {"balls": "--balls", "vary": "--vary"})
+    'give --balls, or --vary balls=0..9'
     """
 
     def __init__(self, *args, parameters=()):
@@ -43,11 +46,14 @@ class EnumeratorError(Exception):
 
     def spelled(self, names) -> str:
         """The message with each named parameter (``limit=``) written as *names* spells it."""
+        import re
+
         text = str(self)
         for parameter in self.parameters:
             flag = names.get(parameter)
             if flag:
-                text = text.replace(f"{parameter}=", flag)
+                # 'limit=' as a word of its own, not 'balls=START..STOP' (an example of a value)
+                text = re.sub(rf"(?<![\w-]){re.escape(parameter)}=(?![\w.])", lambda _, flag=flag: flag, text)
         return text
 
 
