@@ -1365,7 +1365,7 @@ def _no_collision(ctx):
         [Method("gmpy2 product of (r - i) / r", lambda: _no_collision_gmpy2(n, r),
                 scaled=lambda s: (lambda: _no_collision_gmpy2(_scale(n, s), r)),
                 normalise=lambda v: _residues((v,)))],
-        notes=["answers compared by numerator and denominator modulo 2^61 - 1 (millions of bits each)"],
+        notes=["answers compared by numerator and denominator modulo 2^127 - 1 (millions of bits each)"],
     )
 
 
@@ -1407,13 +1407,13 @@ def _moments_occupied(ctx):
                       [Method("gmpy2 mpq closed forms", lambda: _occupied_moments_gmpy2(n, r),
                               scaled=lambda s: (lambda: _occupied_moments_gmpy2(_scale(n, s), r)),
                               normalise=_residues)],
-                      notes=["answers compared by their numerators and denominators modulo 2^61 - 1 "
+                      notes=["answers compared by their numerators and denominators modulo 2^127 - 1 "
                              "(each has tens of millions of bits; writing them out would dominate)"])
 
 
 def _residues(values):
-    """Exact fractions as (numerator, denominator) residues modulo the prime 2^61 - 1 (a cheap exact digest)."""
-    prime = (1 << 61) - 1
+    """Exact fractions as (numerator, denominator) residues modulo the prime 2^127 - 1 (a cheap exact digest)."""
+    prime = (1 << 127) - 1
     return tuple((int(mpz(v.numerator) % prime), int(mpz(v.denominator) % prime)) for v in values)
 
 
