@@ -125,7 +125,9 @@ def start() -> Server:
         if shutil.which("runuser") is None:
             raise Unavailable("running as root and runuser is missing")
         user = "postgres"
-    directory = Path(tempfile.mkdtemp(prefix="enumerator-pg-"))
+    # under root, /tmp rather than $TMPDIR: the postgres user must be able to reach the directory
+    parent = "/tmp" if user is not None and os.path.isdir("/tmp") else None
+    directory = Path(tempfile.mkdtemp(prefix="enumerator-pg-", dir=parent))
     try:
         if user is not None:
             os.chown(directory, owner.pw_uid, owner.pw_gid)

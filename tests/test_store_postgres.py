@@ -322,11 +322,22 @@ def _build_concurrently(url: str, method: str) -> list:
                for i, (balls, urns) in enumerate(_GRIDS)]
     for worker in workers:
         worker.start()
-    outcome = [answers.get(timeout=240) for _ in workers]
-    for worker in workers:
-        worker.join(60)
+    try:
+        outcome = [answers.get(timeout=240) for _ in workers]
+        for worker in workers:
+            worker.join(60)
+    finally:
+        _end(workers)
     assert [worker.exitcode for worker in workers] == [0] * len(workers)
     return outcome
+
+
+def _end(workers) -> None:
+    """Terminate any worker still running (a hung one must not outlive the test)."""
+    for worker in workers:
+        if worker.is_alive():
+            worker.terminate()
+            worker.join(10)
 
 
 def _check_every_cell_once(url: str, outcome: list) -> None:
@@ -410,9 +421,12 @@ def test_processes_opening_an_empty_database_at_once_all_succeed(postgres_server
         workers = [context.Process(target=_opener, args=(urls, barrier, answers)) for _ in range(4)]
         for worker in workers:
             worker.start()
-        failures = [failure for _ in workers for failure in answers.get(timeout=240)]
-        for worker in workers:
-            worker.join(60)
+        try:
+            failures = [failure for _ in workers for failure in answers.get(timeout=240)]
+            for worker in workers:
+                worker.join(60)
+        finally:
+            _end(workers)
         assert failures == []
         for url in urls:  # each created once, at the current schema
             assert _sql(url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'") == [
