@@ -143,7 +143,6 @@ def threshold_command(
                 "probability_approx": approx(found.probability),
                 "probability_before_approx": None if before is None else approx(before),
                 "method": found.method,
-                "evaluations": found.evaluations,
             }
         )
         return
