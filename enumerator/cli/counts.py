@@ -327,30 +327,14 @@ def _moments(model, stat: str, limit: int):
     Notes
     -----
     :func:`enumerator.algorithms.statistics.statistic_moments` answers every
-    model (binomial moments by groups for the counting statistics, the law
-    for max, min and urn:I).  Where it is not available,
-    :func:`enumerator.algorithms.moments.counting_moments` answers the
-    models it covers and the law (:meth:`Occupancy.distribution`) the rest.
+    model: closed binomial/trinomial moments or binomial moments summed over
+    groups and pairs of groups for the counting statistics (cost independent
+    of the number of urns), the law for max, min and urn:I.
     """
-    from ..core.errors import Unsupported
+    from ..algorithms.statistics import statistic_moments
 
-    try:
-        from ..algorithms.statistics import statistic_moments
-    except ImportError:  # pragma: no cover - a library without it
-        statistic_moments = None
-    if statistic_moments is not None:
-        result = statistic_moments(model, stat, limit)
-        return result.statistic, result.mean, result.variance
-    from ..algorithms.moments import counting_moments
-    from ..algorithms.statistics import parse_statistic
-
-    parsed = parse_statistic(stat)
-    try:
-        result = counting_moments(model.balls, model.rule, model.groups, parsed.name)
-        return result.statistic, result.mean, result.variance
-    except (Unsupported, ValueError, KeyError):
-        law = model.distribution(parsed.name, limit=limit)
-        return law.statistic, law.mean, law.variance
+    result = statistic_moments(model, stat, limit)
+    return result.statistic, result.mean, result.variance
 
 
 def _print_moments(model, stat: str, limit: int, as_json: bool) -> None:
