@@ -1,0 +1,182 @@
+"""Tables and enumeration sums on a Dask cluster (enumerator.store.cluster).
+
+References: the single-process build (``build_table``) cell by cell, the
+event planner (``event_count``, exact shortcuts, no listing), the
+single-process listing sum, and closed forms (binomial ``C(n + r - 1, r - 1)``
+configurations, ``r^n`` MB outcomes; Feller, *An Introduction to Probability
+Theory*, vol. 1, 3rd ed., 1968, §II.5).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import signal
+import sys
+import time
+
+import pytest
+
+distributed = pytest.importorskip("distributed")
+cloudpickle = pytest.importorskip("cloudpickle")
+
+from enumerator.algorithms.events import event_count  # noqa: E402
+from enumerator.algorithms.listing import iter_blocks  # noqa: E402
+from enumerator.core.errors import InvalidParameters  # noqa: E402
+from enumerator.core.model import UrnModel  # noqa: E402
+from enumerator.store.cluster import (  # noqa: E402
+    EventWeight,
+    build_table_distributed,
+    enumeration_sum_distributed,
+    event_count_distributed,
+    plan_row_batches,
+)
+from enumerator.store.database import Store  # noqa: E402
+from enumerator.store.tables import TableSpec, build_table, load_table  # noqa: E402
+
+# the workers cannot import this test module: send its helpers by value
+cloudpickle.register_pickle_by_value(sys.modules[__name__])
+
+
+@pytest.fixture(scope="module")
+def client():
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  dashboard_address=":0") as cluster:
+        with distributed.Client(cluster, set_as_default=False) as c:
+            yield c
+
+
+def _cells(store, spec):
+    return load_table(spec.default_name(), store).cells
+
+
+def rows_count(block):
+    return len(block)
+
+
+class SlowWeight:
+    """EventWeight that sleeps per block, so shards are in flight when a worker dies."""
+
+    def __init__(self, model, event, pause):
+        self.inner = EventWeight(model, event)
+        self.pause = pause
+
+    def __call__(self, block):
+        time.sleep(self.pause)
+        return self.inner(block)
+
+
+@pytest.mark.parametrize("rule, capacity, minimum", [("MB", 4, 0), ("BE", None, 1), ("FD", None, 0)])
+def test_table_equals_single_process_build(tmp_path, client, rule, capacity, minimum):
+    # reference: the single-process build, cell by cell
+    spec = TableSpec.make(rule, "0..40", "1..25", capacity=capacity, minimum=minimum)
+    one, many = Store(str(tmp_path / "one.sqlite")), Store(str(tmp_path / "many.sqlite"))
+    build_table(spec, store=one)
+    seen = []
+    report = build_table_distributed(spec, store=many, client=client, task_seconds=0.01,
+                                     progress=lambda r, c, u: seen.append((r, c, u)))
+    assert _cells(many, spec) == _cells(one, spec)
+    assert report.computed == report.stored == spec.cells and report.reused == 0
+    assert sorted(r for r, _, _ in seen) == list(spec.urns)
+    assert sum(c + u for _, c, u in seen) == spec.cells
+
+
+def test_table_skips_stored_rows_and_matches_closed_form(tmp_path, client):
+    spec = TableSpec.make("BE", "0..30", "1..20")
+    store = Store(str(tmp_path / "s.sqlite"))
+    # rows 1..6 stored beforehand by a smaller single-process build
+    build_table(TableSpec.make("BE", "0..30", "1..6"), store=store)
+    report = build_table_distributed(spec, store=store, client=client)
+    assert report.reused == 31 * 6 and report.computed == 31 * 14
+    cells = _cells(store, spec)
+    # closed form: C(n + r - 1, r - 1) configurations
+    assert all(int(cells[(n, r)][0]) == math.comb(n + r - 1, r - 1) for n in spec.balls for r in spec.urns)
+    again = build_table_distributed(spec, store=store, client=client)
+    assert again.computed == 0 and again.reused == spec.cells
+
+
+def test_batches_cover_every_row_once():
+    spec = TableSpec.make("MB", "0..100", "1..50", capacity=6)
+    from enumerator.store.cluster import RowTask
+
+    tasks = [RowTask(r, tuple(spec.balls)) for r in spec.urns]
+    batches = plan_row_batches(spec, tasks, seconds_per_weight=1e-5, workers=2)
+    assert [t for b in batches for t in b] == tasks
+    assert len(batches) >= 2
+
+
+def test_needs_exactly_one_cluster(tmp_path):
+    spec = TableSpec.make("BE", "0..3", "1..3")
+    with pytest.raises(InvalidParameters):
+        enumeration_sum_distributed(UrnModel(balls=3, urns=3), rows_count)
+    with pytest.raises(InvalidParameters):
+        build_table_distributed(spec, store=Store(str(tmp_path / "x.sqlite")), workers=2, cluster="tcp://nowhere:1")
+
+
+def test_sum_equals_planner_and_single_process(client):
+    # an event the planner answers by exact shortcuts, summed here by listing
+    model = UrnModel(balls=9, urns=6, rule="MB", capacity=4)
+    event = "max <= 3 and min >= 1"
+    assert event_count_distributed(model, event, client=client, shards=7, block=50) == event_count(model, event)
+    weight = EventWeight(model, event)
+    single = sum(weight(b) for b in iter_blocks(model, 64))
+    assert enumeration_sum_distributed(model, weight, client=client, shards=5) == single
+    # closed forms: C(n + r - 1, r - 1) configurations, r^n MB outcomes
+    free = UrnModel(balls=10, urns=5, rule="MB")
+    assert enumeration_sum_distributed(free, rows_count, client=client, block=37) == math.comb(14, 4)
+    assert event_count_distributed(free, "max <= 10", client=client)[0] == 5 ** 10
+    # a sub-range [start, stop)
+    assert enumeration_sum_distributed(free, rows_count, client=client, start=17, stop=905, shards=6) == 888
+
+
+def _kill_busy_worker(client):
+    """SIGKILL the process of a worker that is running tasks; return how many it was running."""
+    busy = {w: keys for w, keys in client.processing().items() if keys}
+    if not busy:
+        return 0
+    address, keys = next(iter(busy.items()))
+    pid = client.run(os.getpid, workers=[address])[address]
+    os.kill(pid, signal.SIGKILL)
+    return len(keys)
+
+
+def _wait_for_workers(client, count=2, seconds=60):
+    client.wait_for_workers(count, timeout=seconds)
+
+
+# the two tests below kill a worker of the shared cluster; its nanny starts a new one
+
+
+def test_killed_worker_loses_nothing_sum(client):
+    # reference: the planner's exact count; the killed worker's shards are rerun once
+    model = UrnModel(balls=8, urns=6, rule="MB")
+    event = "max <= 2"
+    _wait_for_workers(client)
+    killed = []
+
+    def progress(done, total):
+        if not killed:
+            killed.append(_kill_busy_worker(client))
+
+    weight = SlowWeight(model, event, 0.1)
+    got = enumeration_sum_distributed(model, weight, client=client, shards=8, block=80, progress=progress)
+    assert killed and killed[0] >= 1
+    assert (got, event_count(model, event)[1]) == event_count(model, event)
+
+
+def test_killed_worker_loses_nothing_table(tmp_path, client):
+    # reference: the single-process build, cell by cell
+    spec = TableSpec.make("MB", "0..120", "1..40", capacity=6)
+    one, many = Store(str(tmp_path / "one.sqlite")), Store(str(tmp_path / "many.sqlite"))
+    build_table(spec, store=one)
+    _wait_for_workers(client)
+    calls = []
+
+    def progress(r, computed, reused):
+        calls.append(r)
+        if len(calls) == 2:  # the first row back from the cluster (the pilot is local)
+            _kill_busy_worker(client)
+
+    report = build_table_distributed(spec, store=many, client=client, task_seconds=0.02, progress=progress)
+    assert _cells(many, spec) == _cells(one, spec)
+    assert report.stored == spec.cells and sorted(calls) == list(spec.urns)
