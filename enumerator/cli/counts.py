@@ -487,10 +487,12 @@ def _sparse_rows(model, start: int, stop: Optional[int]):
         When the range holds more than :data:`_SPARSE_ROWS` vectors (each
         one is unranked on its own: ``O(n log r)`` suffix counts).
     """
+    from ..algorithms.counting import count_configurations
     from ..algorithms.listing import unrank_sparse
     from ..core.errors import TooLarge
 
-    total = model.configurations()
+    # The pure count, not the facade's remembered one: a listing never touches the store.
+    total = count_configurations(model)
     end = total if stop is None else min(stop, total)
     if end - start > _SPARSE_ROWS:
         raise TooLarge(
