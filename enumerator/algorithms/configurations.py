@@ -214,7 +214,7 @@ def count_configurations(model: UrnModel) -> int:
     Raises
     ------
     TooLarge
-        When :func:`counting_cost` is beyond the active limits.
+        When :func:`~enumerator.algorithms.counting_costs.counting_cost` is beyond the active limits.
 
     Notes
     -----

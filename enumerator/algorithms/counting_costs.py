@@ -222,7 +222,7 @@ def _microstates_cost(model: UrnModel) -> Cost:
 
 
 def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
-    """The cost of :func:`_mb_grouped`, following its plan (:func:`_mb_plan`)."""
+    """The cost of :func:`~enumerator.algorithms.normalisers._mb_grouped`, following its plan (:func:`_mb_plan`)."""
     n = model.balls
     plan = _mb_plan(model, target)
     wide = bits + _log2_factorial(n)
@@ -251,7 +251,7 @@ def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
 
 
 def _partitions_cost(total: int, parts: int, largest) -> Cost:
-    """The cost of :func:`_gaussian_partitions` (a row of ``total + 1`` integers, ``min(parts, total)`` passes)."""
+    """The cost of :func:`~enumerator.algorithms.profiles._gaussian_partitions` (a row of ``total + 1`` integers, ``min(parts, total)`` passes)."""
     if total <= 0:
         return Cost()
     if largest is not None:
@@ -309,7 +309,7 @@ def _mb_plan(model: UrnModel, target: int):
 
 
 def _overflow_cost(n: int, r: int, b: int) -> Cost:
-    """The cost of :func:`_mb_capacity_overflow`: ``r^n``, then ``sum_j (j + 2)(n - j(b+1) + 1)`` steps, ``1 <= j <= n/(b+1)``."""
+    """The cost of :func:`~enumerator.algorithms.normalisers._mb_capacity_overflow`: ``r^n``, then ``sum_j (j + 2)(n - j(b+1) + 1)`` steps, ``1 <= j <= n/(b+1)``."""
     d = b + 1
     top = min(r, n // d)
     steps = sum((j + 2) * (n - j * d + 1) for j in range(1, top + 1))

@@ -396,7 +396,7 @@ def count_microstates(model: UrnModel):
     Raises
     ------
     TooLarge
-        When the route's cost (:func:`counting_cost`) is beyond the limits.
+        When the route's cost (:func:`~enumerator.algorithms.counting_costs.counting_cost`) is beyond the limits.
 
     Notes
     -----
