@@ -41,10 +41,6 @@ from enumerator.store import schema, tables
 from enumerator.store.keys import ALGORITHM_VERSIONS, Key
 
 
-def _store_fix(reason: str):
-    return pytest.mark.xfail(reason=f"needs a fix in enumerator/store: {reason}", strict=False)
-
-
 @pytest.fixture(autouse=True)
 def _isolated(monkeypatch):
     monkeypatch.delenv(results.ENV_STORE, raising=False)
@@ -364,15 +360,10 @@ def test_concurrent_builders_on_a_prepared_database_store_every_cell_once(postgr
     _check_every_cell_once(postgres_url, _build_concurrently(postgres_url, "spawn"))
 
 
-@_store_fix("two processes creating the schema of an empty database at once: one fails with "
-            "'relation enumerator_meta already exists' (database.py, Store._prepare_schema: take "
-            "pg_advisory_xact_lock first)")
 def test_concurrent_builders_on_an_empty_database_store_every_cell_once(postgres_url):
     _check_every_cell_once(postgres_url, _build_concurrently(postgres_url, "spawn"))
 
 
-@_store_fix("a forked child reuses the parent's pooled PostgreSQL connection (engine.py, make_engine: "
-            "the after-fork dispose only covers SQLite engines)")
 def test_builders_forked_from_a_process_using_the_store_store_every_cell_once(postgres_url):
     store = results.open_store(postgres_url)  # the parent holds a pooled connection when it forks
     tables.build_table(tables.TableSpec.make(rule="BE", balls="0..3", urns="1..2"), name="seed", store=store)
@@ -383,8 +374,6 @@ def test_builders_forked_from_a_process_using_the_store_store_every_cell_once(po
     _check_every_cell_once(postgres_url, outcome)
 
 
-@_store_fix("put_many counts every row as new on PostgreSQL (psycopg's executemany rowcount is -1); "
-            "database.py, Store._upsert/_write_rows: RETURNING on PostgreSQL and count the returned rows")
 def test_put_counts_only_the_rows_that_were_new(postgres_url):
     store = results.Store(postgres_url)
     version = ALGORITHM_VERSIONS["configurations"]
@@ -408,9 +397,6 @@ def _opener(urls, barrier, answers):
     answers.put(failures)
 
 
-@_store_fix("two processes creating the schema of an empty database at once: one fails with "
-            "'relation enumerator_meta already exists' or a duplicate pg_type key (database.py, "
-            "Store._prepare_schema: take pg_advisory_xact_lock first)")
 def test_processes_opening_an_empty_database_at_once_all_succeed(postgres_server):
     import pg_server
 
@@ -490,8 +476,6 @@ def test_cache_verify_export_clear_through_the_cli(postgres_url):
     assert run_json("table", "list", *store)["tables"] == []
 
 
-@_store_fix("SUM over BIGINT columns comes back as Decimal on PostgreSQL (database.py, Store.stats: int() "
-            "around the sums)")
 def test_cache_stats_through_the_cli(postgres_url):
     store = ("--store", postgres_url)
     run_json("count", "-n", 10, "-r", 4, "--rule", "BE", *store)

@@ -72,6 +72,10 @@ from .schema import Base, LookupTable, Meta, Result
 
 __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
 
+#: The PostgreSQL advisory lock key held while a store's schema is created or
+#: upgraded (a 64-bit number no other application on the database is expected to use).
+_SCHEMA_LOCK = 0x656E756D
+
 log = logging.getLogger("enumerator.store")
 
 
@@ -209,6 +213,10 @@ class Store:
     def _prepare_schema(self) -> None:
         """In one write transaction: create a new store, or upgrade an older one, to the current schema."""
         with writing(self.engine) as conn:
+            if conn.dialect.name == "postgresql":
+                # one creator or upgrader at a time (SQLite's BEGIN IMMEDIATE does this
+                # there); the advisory lock is released at commit or rollback
+                conn.exec_driver_sql(f"SELECT pg_advisory_xact_lock({_SCHEMA_LOCK})")
             # read again under the write lock: another process may have
             # created or upgraded the store since the first look
             has_meta = inspect(conn).has_table(Meta.__tablename__)
@@ -281,7 +289,11 @@ class Store:
             from sqlalchemy.dialects.postgresql import insert as dialect_insert
         else:
             return None
-        return dialect_insert(model).on_conflict_do_nothing(index_elements=[unique_column])
+        stmt = dialect_insert(model).on_conflict_do_nothing(index_elements=[unique_column])
+        if backend == "postgresql":
+            # psycopg reports no row count for executemany: count the new rows by RETURNING
+            stmt = stmt.returning(unique_column)
+        return stmt
 
     def _write_rows(self, rows: List[dict]) -> int:
         """Upsert *rows* in one transaction; return how many were new."""
@@ -291,6 +303,8 @@ class Store:
             with writing(self.engine) as conn:
                 if stmt is not None:
                     result = conn.execute(stmt, rows)
+                    if result.returns_rows:
+                        return len(result.all())
                     return result.rowcount if result.rowcount is not None and result.rowcount >= 0 else len(rows)
                 added = 0
                 for row in rows:
@@ -565,9 +579,10 @@ class Store:
                 out["stale"] += count
             slot = out["by_quantity"].setdefault(quantity, {})
             slot[rule] = slot.get(rule, 0) + count
-            out["largest_digits"] = max(out["largest_digits"], largest or 0)
-            out["total_digits"] += total or 0
-            out["compute_ns"] += spent or 0
+            # SUM over BIGINT is NUMERIC on PostgreSQL (a Decimal): back to int
+            out["largest_digits"] = max(out["largest_digits"], int(largest or 0))
+            out["total_digits"] += int(total or 0)
+            out["compute_ns"] += int(spent or 0)
         out["tables"] = tables
         return out
 

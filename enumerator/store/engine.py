@@ -167,12 +167,14 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
     """
     if url.get_backend_name() != "sqlite":
         try:
-            return create_engine(url, pool_pre_ping=True)
+            engine = create_engine(url, pool_pre_ping=True)
         except (sa_exc.ArgumentError, sa_exc.NoSuchModuleError, ImportError) as error:
             raise StoreError(
                 f"cannot use store URL {name} ({error}); give a SQLite path or an "
                 "SQLAlchemy URL whose driver is installed"
             ) from None
+        _drop_connections_after_fork(engine)
+        return engine
     if read_only and path is not None and path.exists():
         url = URL.create("sqlite", database=f"file:{path}?mode=ro", query={"uri": "true"})
     engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT, "check_same_thread": False})
@@ -190,8 +192,16 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
         if connection.get_execution_options().get(_WRITE_OPTION):
             connection.exec_driver_sql("BEGIN IMMEDIATE")
 
-    # a weak reference, so the fork hook (which cannot be unregistered) does
-    # not keep every engine ever made alive
+    _drop_connections_after_fork(engine)
+    return engine
+
+
+def _drop_connections_after_fork(engine: Engine) -> None:
+    """After ``fork``, the child forgets the connections it inherited and opens its own when first used.
+
+    A weak reference, so the fork hook (which cannot be unregistered) does not
+    keep every engine ever made alive.
+    """
     ref = weakref.ref(engine)
 
     def _after_fork_in_child():
@@ -200,7 +210,6 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
             alive.dispose(close=False)
 
     os.register_at_fork(after_in_child=_after_fork_in_child)
-    return engine
 
 
 @contextmanager
