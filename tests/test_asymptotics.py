@@ -411,7 +411,7 @@ def test_saddle_exact_side_is_brute_force(r, c, rule, data):
 def test_saddle_needs_an_interior_ratio_and_a_capacity():
     with pytest.raises(InvalidParameters, match="minimum\\*urns < balls < capacity\\*urns"):
         compare("saddle", [Point(balls=6, urns=3, capacity=2)])
-    with pytest.raises(InvalidParameters, match="give --capacity"):
+    with pytest.raises(InvalidParameters, match="give capacity="):
         compare("saddle", [Point(balls=6, urns=3)])
     with pytest.raises(InvalidParameters, match="FD allows at most one"):
         compare("saddle", [Point(balls=2, urns=3, rule="FD", capacity=2)])
@@ -561,7 +561,7 @@ def test_sweeps():
     (dict(vary="balls=0..10", urns=3, geometric=3), InvalidParameters, "START must be at least 1"),
     (dict(vary=None, urns=3), InvalidParameters, "give --balls N"),
     (dict(vary=None, balls=3, urns="balls"), InvalidParameters, "mentions 'balls'"),
-    (dict(vary=None, balls=3, step=2), InvalidParameters, "need --vary"),
+    (dict(vary=None, balls=3, step=2), InvalidParameters, "need vary="),
     (dict(vary="balls=1..10", urns="balls-5"), InvalidParameters, "urns is -4 at balls=1"),
     (dict(vary="balls=1..10000000", urns=3, step=1), TooLarge, "10000000 points, above 10000"),
 ])
@@ -665,7 +665,7 @@ def test_ensembles_converge_for_bosons_not_for_fermions_at_fixed_temperature():
 
 @pytest.mark.parametrize("point,error,message", [
     (Point(balls=5, urns=5, rule="MB"), InvalidParameters, "equals the canonical one exactly"),
-    (Point(balls=5, urns=5, at=5), InvalidParameters, "give --at below urns"),
+    (Point(balls=5, urns=5, at=5), InvalidParameters, "give at= below urns"),
     (Point(balls=5, urns=5, rule="FD"), InvalidParameters, "fill 5 levels completely"),
     (Point(balls=5, urns=5, factor="3/2"), InvalidParameters, "strictly between 0 and 1"),
     (Point(balls=5, urns=5, factor="half"), InvalidParameters, "factor must be a fraction like 1/2"),

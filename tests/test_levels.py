@@ -538,7 +538,7 @@ def test_presets_and_their_parameters():
         (dict(particles=2, preset="einstein", oscillators=3), InvalidParameters, "disagree"),
         (dict(oscillators=3, rule="BE"), InvalidParameters, "distinguishable"),
         (dict(particles=2, energies="0,1", levels=3), InvalidParameters, "belongs to a preset"),
-        (dict(particles=2, preset="two-level", levels=3), InvalidParameters, "takes no --levels"),
+        (dict(particles=2, preset="two-level", levels=3), InvalidParameters, "takes no levels="),
     ],
 )
 def test_malformed_input_is_an_error_that_says_what_to_change(kwargs, error, message):
@@ -547,8 +547,13 @@ def test_malformed_input_is_an_error_that_says_what_to_change(kwargs, error, mes
 
 
 def test_infinite_ladder_needs_a_maximum_energy():
-    with pytest.raises(InvalidParameters, match="--max-energy"):
+    with pytest.raises(InvalidParameters, match=r"\(max_energy=\), or make it finite with levels=") as caught:
         multiplicities(System.create(harmonic_trap(), 3, "BE"))
+    # the error names the parameters it asks to change, so a front end can spell them its way
+    assert caught.value.parameters == ("max_energy", "levels")
+    assert "(--max-energy), or make it finite with --levels" in caught.value.spelled(
+        {"max_energy": "--max-energy", "levels": "--levels"}
+    )
 
 
 @pytest.mark.parametrize("name", ["", ".spectra", ".multiplicities", ".ensembles"])

@@ -203,7 +203,8 @@ class Entropy(Approximation):
         if pattern is None:
             if point.urns is None:
                 raise InvalidParameters(
-                    "entropy needs urns (equal shares) or a pattern, e.g. --urns 4 or --pattern 3,2,1"
+                    "entropy needs urns (equal shares) or a pattern, e.g. urns= 4 or pattern= 3,2,1",
+                    parameters=["urns", "pattern"],
                 )
             pattern = (1,) * as_count(point.urns, "urns", 1)
         pattern = tuple(as_count(w, f"pattern entry {i}") for i, w in enumerate(pattern, start=1))
@@ -429,7 +430,8 @@ class Saddle(Approximation):
             capacity = 1
         if capacity is None:
             raise InvalidParameters(
-                "saddle approximates a bounded count: give --capacity (at most that many balls per urn)"
+                "saddle approximates a bounded count: give capacity= (at most that many balls per urn)",
+                parameters=["capacity"],
             )
         capacity = as_count(capacity, "capacity")
         minimum = as_count(point.minimum or 0, "minimum")
@@ -616,13 +618,16 @@ class GrandCanonical(Approximation):
         rule = Rule.parse(point.rule or "BE")
         if rule is Rule.MB:
             raise InvalidParameters(
-                "for MB the grand-canonical occupation equals the canonical one exactly; choose --rule BE or FD"
+                "for MB the grand-canonical occupation equals the canonical one exactly; choose rule= BE or FD",
+                parameters=["rule"],
             )
         factor = Fraction(1, 2) if point.factor is None else parse_factor(point.factor)
         at = point.at
         n, r = point.balls, point.urns
         if at >= r:
-            raise InvalidParameters(f"at is {at} but the levels are 0..{r - 1}; give --at below urns")
+            raise InvalidParameters(
+                f"at is {at} but the levels are 0..{r - 1}; give at= below urns", parameters=["at"]
+            )
         if n < 1:
             raise InvalidParameters("grand-canonical needs at least 1 particle (balls >= 1)")
         if rule is Rule.FD and n >= r:

@@ -248,10 +248,11 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
     for entry in entries:
         unused = sorted(given - {"balls"} - set(entry.uses))
         if unused:
-            options = ", ".join(f"--{name}" for name in unused)
+            options = ", ".join(f"{name}=" for name in unused)
             raise InvalidParameters(
                 f"{entry.name} does not use {options}; leave it out (it uses balls"
-                + "".join(f", {u}" for u in entry.uses) + ")"
+                + "".join(f", {u}" for u in entry.uses) + ")",
+                parameters=unused,
             )
     variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
     return [compare(entry, points, variable) for entry in entries]

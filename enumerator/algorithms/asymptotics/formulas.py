@@ -160,7 +160,9 @@ def apportion(balls: int, pattern: Sequence[int]) -> Tuple[int, ...]:
     weights = [as_count(w, f"pattern entry {i}") for i, w in enumerate(pattern, start=1)]
     total = sum(weights)
     if not weights or total == 0:
-        raise InvalidParameters("pattern must have at least one positive entry, e.g. --pattern 3,2,1")
+        raise InvalidParameters(
+            "pattern must have at least one positive entry, e.g. pattern= 3,2,1", parameters=["pattern"]
+        )
     base = [n * w // total for w in weights]
     left = n - sum(base)
     order = sorted(range(len(weights)), key=lambda i: (-(n * weights[i] % total), i))

@@ -198,7 +198,8 @@ class Tie:
         if result.denominator != 1:
             raise InvalidParameters(
                 f"{self.text!r} is {result} at {self.variable}={value}, not a whole number; "
-                "use // to round down (e.g. balls//2) or a --step that keeps it whole"
+                "use // to round down (e.g. balls//2) or a step= that keeps it whole",
+                parameters=["step"],
             )
         return int(result)
 
@@ -405,20 +406,24 @@ def parse_range(text: str) -> Tuple[str, int, int]:
 
 def _grid(start: int, stop: int, step: Optional[int], geometric: Optional[int]) -> List[int]:
     if step is not None and geometric is not None:
-        raise InvalidParameters("give --step or --geometric, not both")
+        raise InvalidParameters("give step= or geometric=, not both", parameters=["step", "geometric"])
     if step is not None:
         step = as_count(step, "step", 1)
         count = (stop - start) // step + 1
         if count > MAX_POINTS:
-            raise TooLarge(f"the sweep has {count} points, above {MAX_POINTS}; use a larger --step")
+            raise TooLarge(
+                f"the sweep has {count} points, above {MAX_POINTS}; use a larger step=", parameters=["step"]
+            )
         return list(range(start, stop + 1, step))
     points = 10 if geometric is None else as_count(geometric, "geometric", 1)
     if points > MAX_POINTS:
-        raise TooLarge(f"--geometric {points} is above {MAX_POINTS} points; ask for fewer")
+        raise TooLarge(f"geometric= {points} is above {MAX_POINTS} points; ask for fewer", parameters=["geometric"])
     if start == stop or points == 1:
         return [start] if points == 1 or start == stop else [start, stop]
     if start < 1:
-        raise InvalidParameters("--geometric spaces points on a log scale, so START must be at least 1")
+        raise InvalidParameters(
+            "geometric= spaces points on a log scale, so START must be at least 1", parameters=["geometric"]
+        )
     with mpmath.workdps(40):
         ratio = mpf(stop) / start
         values = [int(mpmath.nint(start * ratio ** (mpf(i) / (points - 1)))) for i in range(points)]
@@ -456,7 +461,8 @@ def parse_pattern(value) -> Tuple[int, ...]:
         if isinstance(item, str):
             if not re.fullmatch(r"\s*\d+\s*", item):
                 raise InvalidParameters(
-                    f"pattern entry {i} ({item.strip()!r}) is not a whole number; write e.g. --pattern 3,2,1"
+                    f"pattern entry {i} ({item.strip()!r}) is not a whole number; write e.g. pattern= 3,2,1",
+                    parameters=["pattern"],
                 )
             item = int(item)
         out.append(as_count(item, f"pattern entry {i}"))
@@ -516,7 +522,9 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
         raise InvalidParameters(f"unknown parameter(s) {', '.join(sorted(unknown))}")
     if vary is None:
         if step is not None or geometric is not None:
-            raise InvalidParameters("--step and --geometric need --vary NAME=START..STOP")
+            raise InvalidParameters(
+                "step= and geometric= need vary= NAME=START..STOP", parameters=["step", "geometric", "vary"]
+            )
         variable, values = "balls", [None]
     else:
         variable, start, stop = parse_range(vary)

@@ -523,7 +523,8 @@ def canonical(
     if ground_energy(system) is None:
         raise InvalidParameters(
             f"{system.particles} particles do not fit in the {system.spectrum.states()} "
-            "single-particle states under this rule; lower --particles or add levels"
+            "single-particle states under this rule; lower particles= or add levels",
+            parameters=["particles"],
         )
     count = _report_count(system.spectrum, levels)
     points = []

@@ -222,8 +222,9 @@ def multiplicities(
     if max_energy is None:
         if not spectrum.finite:
             raise InvalidParameters(
-                "an infinite ladder of levels needs a maximum energy (--max-energy), "
-                "or make it finite with --levels"
+                "an infinite ladder of levels needs a maximum energy (max_energy=), "
+                "or make it finite with levels=",
+                parameters=["max_energy", "levels"],
             )
         top_units = _highest_energy(system)
         trim = True

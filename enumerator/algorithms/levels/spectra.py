@@ -274,7 +274,7 @@ def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum
     """
     values = [parse_rational(v, f"energy {i + 1}") for i, v in enumerate(_split_list(energies, "energies"))]
     if not values:
-        raise InvalidParameters("energies must list at least one level, e.g. --energies 0,1,2")
+        raise InvalidParameters("energies must list at least one level, e.g. energies= 0,1,2", parameters=["energies"])
     if degeneracies is None:
         degs = [1] * len(values)
     else:
@@ -439,7 +439,8 @@ class System:
             if capacity not in (None, 1):
                 raise InvalidParameters(
                     f"FD allows at most one particle per state (got capacity {capacity}); "
-                    "use --rule BE with --capacity for intermediate statistics"
+                    "use rule= BE with capacity= for intermediate statistics",
+                    parameters=["rule", "capacity"],
                 )
             capacity = 1
         elif rule is Rule.BE and capacity == 1:
@@ -447,7 +448,8 @@ class System:
         elif rule is Rule.MB and capacity is not None:
             raise Unsupported(
                 "a capacity per state is available for BE (identical particles) only; "
-                "drop --capacity or use --rule BE"
+                "drop capacity= or use rule= BE",
+                parameters=["capacity", "rule"],
             )
         return cls(spectrum, n, rule, capacity)
 
@@ -526,58 +528,72 @@ def make_system(
     if preset is None:
         for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap")):
             if value is not None:
-                raise InvalidParameters(f"{option} belongs to a preset; add --preset or drop --{option}")
+                raise InvalidParameters(
+                    f"{option} belongs to a preset; add preset= or drop {option}=", parameters=["preset", option]
+                )
         if oscillators is not None:
             preset = "einstein"
     if preset is None:
         if energies is None:
             raise InvalidParameters(
-                "describe the levels: give --energies (and --degeneracies) or --preset "
-                f"({', '.join(PRESETS)})"
+                "describe the levels: give energies= (and degeneracies=) or preset= "
+                f"({', '.join(PRESETS)})",
+                parameters=["energies", "degeneracies", "preset"],
             )
         if particles is None:
-            raise InvalidParameters("give the number of particles (--particles N)")
+            raise InvalidParameters("give the number of particles (particles= N)", parameters=["particles"])
         spectrum = make_spectrum(energies, degeneracies)
         return System.create(spectrum, particles, rule or "MB", capacity)
     key = _preset_key(preset)
     if energies is not None:
-        raise InvalidParameters("give either --energies or --preset, not both")
+        raise InvalidParameters("give either energies= or preset=, not both", parameters=["energies", "preset"])
     if key == "einstein":
         for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap"), (degeneracies, "degeneracies")):
             if value is not None:
-                raise InvalidParameters(f"the einstein preset takes no --{option}")
+                raise InvalidParameters(f"the einstein preset takes no {option}=", parameters=[option])
         if oscillators is not None and particles is not None and oscillators != particles:
             raise InvalidParameters(
-                f"--oscillators ({oscillators}) and --particles ({particles}) disagree; give one"
+                f"oscillators= ({oscillators}) and particles= ({particles}) disagree; give one",
+                parameters=["oscillators", "particles"],
             )
         count = oscillators if oscillators is not None else particles
         if count is None:
-            raise InvalidParameters("an Einstein solid needs its number of oscillators (--oscillators N)")
+            raise InvalidParameters(
+                "an Einstein solid needs its number of oscillators (oscillators= N)", parameters=["oscillators"]
+            )
         if rule is not None and Rule.parse(rule) is not Rule.MB:
             raise InvalidParameters(
                 "the oscillators of an Einstein solid are distinguishable (localised): "
-                "use --rule MB or leave --rule out"
+                "use rule= MB or leave rule= out",
+                parameters=["rule"],
             )
         if capacity is not None:
-            raise InvalidParameters("the einstein preset takes no --capacity")
+            raise InvalidParameters("the einstein preset takes no capacity=", parameters=["capacity"])
         return einstein_solid(count)
     if oscillators is not None:
-        raise InvalidParameters("--oscillators belongs to the einstein preset; use --particles")
+        raise InvalidParameters(
+            "oscillators= belongs to the einstein preset; use particles=", parameters=["oscillators", "particles"]
+        )
     if particles is None:
-        raise InvalidParameters("give the number of particles (--particles N)")
+        raise InvalidParameters("give the number of particles (particles= N)", parameters=["particles"])
     if key == "two-level":
         for value, option in ((levels, "levels"), (dimension, "dimension")):
             if value is not None:
-                raise InvalidParameters(f"the two-level preset takes no --{option}")
+                raise InvalidParameters(f"the two-level preset takes no {option}=", parameters=[option])
         spectrum = two_level(1 if gap is None else gap, (1, 1) if degeneracies is None else degeneracies)
     else:
         if gap is not None:
-            raise InvalidParameters(f"the {key} preset takes no --gap")
+            raise InvalidParameters(f"the {key} preset takes no gap=", parameters=["gap"])
         if degeneracies is not None:
-            raise InvalidParameters(f"the {key} preset fixes the degeneracies; drop --degeneracies")
+            raise InvalidParameters(
+                f"the {key} preset fixes the degeneracies; drop degeneracies=", parameters=["degeneracies"]
+            )
         if key == "harmonic":
             if dimension not in (None, 1):
-                raise InvalidParameters("the harmonic preset is one-dimensional; use --preset trap --dimension D")
+                raise InvalidParameters(
+                    "the harmonic preset is one-dimensional; use preset= trap dimension= D",
+                    parameters=["preset", "dimension"],
+                )
             spectrum = harmonic_oscillator(levels)
         else:
             spectrum = harmonic_trap(levels, 3 if dimension is None else dimension)
