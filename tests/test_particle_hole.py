@@ -1,0 +1,149 @@
+"""Canonical fermions by the particle–hole expansion (enumerator.algorithms.levels.particle_hole).
+
+References beside each check: brute-force enumeration of every FD microstate
+(written here), the Borrmann–Franke recursion of ``ensembles.canonical`` at
+high precision (an independent route: alternating sums in fixed point), and
+the closed-shell ground state of the 3D trap (shell ``e`` holds
+``(e + 1)(e + 2)/2`` states, so 969 = Σ_{e<=16} fills shells 0..16; from
+memory, stars and bars).
+"""
+
+from __future__ import annotations
+
+import itertools
+from fractions import Fraction
+
+import mpmath
+import pytest
+
+from enumerator.algorithms.levels.ensembles import canonical
+from enumerator.algorithms.levels.particle_hole import fermion_canonical
+from enumerator.algorithms.levels.spectra import System, harmonic_trap, make_spectrum
+from enumerator.core.errors import InvalidParameters
+
+
+def brute_force(energies, degeneracies, n, temperature):
+    """Every FD microstate: each N-subset of the single-particle states."""
+    with mpmath.workdps(60):
+        states = [(i, mpmath.mpf(Fraction(e).numerator) / Fraction(e).denominator)
+                  for i, (e, g) in enumerate(zip(energies, degeneracies)) for _ in range(g)]
+        T = mpmath.mpf(Fraction(temperature).numerator) / Fraction(temperature).denominator
+        Z = M1 = M2 = mpmath.mpf(0)
+        occ = [mpmath.mpf(0)] * len(energies)
+        for subset in itertools.combinations(range(len(states)), n):
+            E = sum((states[s][1] for s in subset), mpmath.mpf(0))
+            w = mpmath.exp(-E / T)
+            Z += w
+            M1 += w * E
+            M2 += w * E * E
+            for s in subset:
+                occ[states[s][0]] += w
+        U = M1 / Z
+        C = (M2 / Z - U * U) / T**2
+        return {"lnZ": mpmath.log(Z), "U": U, "C": C, "S": mpmath.log(Z) + U / T, "occ": [o / Z for o in occ]}
+
+
+def total(values, extra=0):
+    """Sum at 40 digits (the default 15 would round the 20-digit values)."""
+    with mpmath.workdps(40):
+        return mpmath.fsum(values) + extra
+
+
+def close(a, b, tol):
+    return abs(a - b) <= tol * max(1, abs(b))
+
+
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, temperature",
+    [
+        (["0", "1", "2", "3"], [2, 2, 2, 2], 4, "1/2"),        # 4 fermions in 8 states, closed shell
+        (["0", "1", "2", "3"], [2, 2, 2, 2], 3, "1"),          # partly filled Fermi shell
+        (["0", "1/3", "1", "5/2"], [1, 3, 2, 2], 4, "3/10"),   # uneven gaps, partial shell of 3
+        (["2", "0", "1", "1"], [1, 2, 2, 1], 3, "2"),          # unsorted, a repeated energy
+        (["0", "1", "2"], [2, 2, 2], 6, "1"),                  # every state full
+    ],
+)
+def test_against_brute_force(energies, degeneracies, n, temperature):
+    spectrum = make_spectrum(energies, degeneracies)
+    (p,) = fermion_canonical(spectrum, n, [temperature], digits=20)
+    ref = brute_force(energies, degeneracies, n, temperature)  # reference: enumeration above
+    assert close(p.ln_partition_function_approx, ref["lnZ"], 1e-19)
+    assert close(p.mean_energy_approx, ref["U"], 1e-19)
+    assert abs(p.heat_capacity_approx - ref["C"]) <= 1e-19 * max(1, ref["C"])
+    assert close(p.entropy_approx, ref["S"], 1e-19)
+    for got, want in zip(p.occupations_approx, ref["occ"]):
+        assert abs(got - want) <= 1e-19
+    assert abs(total(p.occupations_approx) - n) <= 1e-18
+
+
+@pytest.mark.parametrize(
+    "spectrum, n, temperature",
+    [
+        (harmonic_trap(), 4, "1/2"),
+        (harmonic_trap(), 20, "1"),        # closed shell 0..3
+        (harmonic_trap(), 35, "7/10"),     # closed shell 0..4
+        (harmonic_trap(), 13, "3"),        # partly filled shell, high temperature
+        (harmonic_trap(), 10, "20"),       # far above the Fermi temperature
+        (harmonic_trap(dimension=1), 10, "2"),
+        (make_spectrum("0,1/3,1,5/2,4", "2,1,3,2,2"), 5, "4/5"),
+    ],
+)
+def test_against_borrmann_franke(spectrum, n, temperature):
+    """Reference: the plain recursion (ensembles.canonical, rule FD) at 30 digits."""
+    (p,) = fermion_canonical(spectrum, n, [temperature], digits=20, levels=5)
+    (q,) = canonical(System.create(spectrum, n, "FD"), [temperature], digits=30, levels=5, grand=False)
+    assert close(p.ln_partition_function_approx, q.ln_partition_function_approx, 1e-19)
+    assert close(p.mean_energy_approx, q.mean_energy_approx, 1e-19)
+    assert close(p.heat_capacity_approx, q.heat_capacity_approx, 1e-19)
+    assert close(p.entropy_approx, q.entropy_approx, 1e-19)
+    assert close(p.free_energy_approx, q.free_energy_approx, 1e-19)
+    for got, want in zip(p.occupations_approx, q.occupations_approx):
+        assert abs(got - want) <= 1e-19
+    # The stated bounds are honest: the difference lies within them (plus the reference's own 1e-30).
+    assert abs(p.ln_partition_function_approx - q.ln_partition_function_approx) <= (
+        p.errors["ln_partition_function"] + 1e-28 * abs(q.ln_partition_function_approx)
+    )
+
+
+def test_closed_shell_969_low_temperature():
+    """969 fermions fill the 3D-trap shells 0..16 (from memory: Σ (e+1)(e+2)/2 = C(19, 3))."""
+    (p,) = fermion_canonical(harmonic_trap(), 969, ["1/100"], digits=15)
+    # Ground energy Σ_{e<=16} e (e+1)(e+2)/2 = 3 C(19, 4) = 11628 (hockey stick; computed here).
+    assert p.ground_energy == sum(e * (e + 1) * (e + 2) // 2 for e in range(17)) == 11628
+    # T -> 0: the first excitation costs one quantum, U - E0 ~ 153 * 171 * e^{-100}.
+    assert 0 < p.excitation_energy_approx < 1e-38
+    for e, occ in enumerate(p.occupations_approx):
+        full = (e + 1) * (e + 2) // 2 if e <= 16 else 0
+        assert abs(occ - full) < 1e-38
+    assert abs(total(p.occupations_approx, p.occupation_above_approx) - 969) < 1e-12
+
+
+def test_969_at_the_issue_temperatures():
+    """The issue's workload: T = 0.1, 0.3, 1 (timings belong in scripts/bench.py; here the sum rules)."""
+    points = fermion_canonical(harmonic_trap(), 969, ["0.1", "0.3", "1"], digits=15)
+    previous = mpmath.mpf(0)
+    for p in points:
+        assert abs(total(p.occupations_approx, p.occupation_above_approx) - 969) < 1e-12          # particle number (exact sum rule)
+        assert p.excitation_energy_approx > previous   # U rises with T
+        previous = p.excitation_energy_approx
+        assert p.heat_capacity_approx > 0 and p.entropy_approx > 0
+        for key, bound in p.errors.items():
+            assert bound >= 0, key
+        # F = U - T S (thermodynamic identity, from memory)
+        T = mpmath.mpf(p.temperature.numerator) / p.temperature.denominator
+        assert close(p.free_energy_approx, p.mean_energy_approx - T * p.entropy_approx, 1e-13)
+
+
+def test_system_input_and_refusals():
+    system = System.create(harmonic_trap(), 4, "FD")
+    (a,) = fermion_canonical(system, temperatures=["1/2"], digits=10)
+    (b,) = fermion_canonical(harmonic_trap(), 4, ["1/2"], digits=10)
+    assert a.ln_partition_function_approx == b.ln_partition_function_approx
+    with pytest.raises(InvalidParameters):
+        fermion_canonical(make_spectrum("0,1", "1,1"), 3, ["1"])
+    with pytest.raises(InvalidParameters):
+        fermion_canonical(harmonic_trap(), 4, ["0"])
+    with pytest.raises(InvalidParameters):
+        fermion_canonical(System.create(harmonic_trap(), 4, "BE"), temperatures=["1"])
+    (empty,) = fermion_canonical(harmonic_trap(), 0, ["1"])
+    assert empty.ln_partition_function_approx == 0
