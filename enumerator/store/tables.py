@@ -127,7 +127,8 @@ class TableSpec:
         cells = len(balls) * len(urns)
         if cells > MAX_CELLS:
             raise TooLarge(
-                f"the table would have {cells} cells, above the limit {MAX_CELLS}; narrow --balls or --urns"
+                f"the table would have {cells} cells, above the limit {MAX_CELLS}; narrow balls= or urns=",
+                parameters=["balls", "urns"],
             )
         # the model validates the bounds (and normalises FD's capacity to 1)
         probe = UrnModel(balls=0, urns=urns.start, rule=rule_, capacity=capacity,

@@ -536,7 +536,7 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
     ties = {k: parse_tie(fixed[k], None if vary is None else variable) for k in NUMERIC if k in fixed}
     pattern = None if fixed.get("pattern") is None else parse_pattern(fixed["pattern"])
     if vary is None and "balls" not in ties:
-        raise InvalidParameters("give --balls N, or --vary balls=START..STOP")
+        raise InvalidParameters("give balls= N, or vary= balls=START..STOP", parameters=["balls", "vary"])
     points = []
     for value in values:
         numbers = {k: tie(value) for k, tie in ties.items()}
