@@ -559,7 +559,7 @@ def test_sweeps():
     (dict(vary="balls=1..10", urns=3, balls=4), InvalidParameters, "balls is varied by vary="),
     (dict(vary="balls=1..10", urns=3, step=1, geometric=3), InvalidParameters, "not both"),
     (dict(vary="balls=0..10", urns=3, geometric=3), InvalidParameters, "START must be at least 1"),
-    (dict(vary=None, urns=3), InvalidParameters, "give --balls N"),
+    (dict(vary=None, urns=3), InvalidParameters, "give balls= N"),
     (dict(vary=None, balls=3, urns="balls"), InvalidParameters, "mentions 'balls'"),
     (dict(vary=None, balls=3, step=2), InvalidParameters, "need vary="),
     (dict(vary="balls=1..10", urns="balls-5"), InvalidParameters, "urns is -4 at balls=1"),
