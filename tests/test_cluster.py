@@ -180,3 +180,22 @@ def test_killed_worker_loses_nothing_table(tmp_path, client):
     report = build_table_distributed(spec, store=many, client=client, task_seconds=0.02, progress=progress)
     assert _cells(many, spec) == _cells(one, spec)
     assert report.stored == spec.cells and sorted(calls) == list(spec.urns)
+
+
+def test_table_build_command_on_two_workers_equals_the_single_process_build(tmp_path):
+    # Reference: the single-process build of the same table (and C(n+r-1, r-1) for BE, Feller II.5).
+    from math import comb
+
+    from tests.cli_helpers import run_json
+
+    one = str(tmp_path / "one.sqlite")
+    two = str(tmp_path / "two.sqlite")
+    args = ("table", "build", "--rule", "BE", "--balls", "0..30", "--urns", "1..12")
+    assert run_json(*args, "--store", one)["stored"] == "372"
+    assert run_json(*args, "--store", two, "--workers", "2")["stored"] == "372"
+    a = run_json("table", "show", "BE-configurations-n0..30-r1..12", "--store", one)
+    b = run_json("table", "show", "BE-configurations-n0..30-r1..12", "--store", two)
+    assert a == b
+    cells = [cell for cell in b.values() if isinstance(cell, list)][0]
+    assert cells and all(int(c["value"]) == comb(int(c["balls"]) + int(c["urns"]) - 1, int(c["urns"]) - 1)
+                         for c in cells)

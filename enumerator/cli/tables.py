@@ -188,6 +188,17 @@ def table_build_command(
         typer.Option("--name", help="Name of the table (default: made from its definition)."),
     ] = None,
     store: Store = None,
+    workers: Annotated[
+        Optional[int],
+        typer.Option("--workers", min=1, metavar="K",
+                     help="Compute the rows on a local Dask cluster of K processes "
+                          "(needs the 'cluster' extra: pip install 'enumerator[cluster]')."),
+    ] = None,
+    cluster: Annotated[
+        Optional[str],
+        typer.Option("--cluster", metavar="ADDRESS",
+                     help="Compute the rows on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786."),
+    ] = None,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,
     as_json: Json = False,
@@ -198,11 +209,15 @@ def table_build_command(
     cells already stored are reused, and every row is saved as soon as it is
     done, so an interrupted build (Ctrl-C) resumes where it stopped when the
     same command is run again.  Several builds may run at once on one store.
+    With --workers or --cluster the rows are computed on a Dask cluster in
+    batches of about a second each and written here as they arrive; the
+    cells are the same as a single-process build's.
 
     Example:
 
         $ enumerator table build --rule BE --balls 0..200 --urns 1..50
         $ enumerator table build --rule MB --balls 0..100 --urns 1..20 --capacity 4 --name shelves
+        $ enumerator table build --rule MB --balls 0..400 --urns 1..100 --capacity 50 --workers 2
     """
     from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
@@ -231,7 +246,15 @@ def table_build_command(
 
         try:
             with limits_scope(max_memory, max_seconds):
-                report = build_table(spec, name=name, store=target, progress=advance)
+                if workers is not None or cluster is not None:
+                    if workers is not None and cluster is not None:
+                        raise typer.BadParameter("give --workers or --cluster, not both")
+                    from ..store.cluster import build_table_distributed
+
+                    report = build_table_distributed(spec, name=name, store=target, workers=workers,
+                                                     cluster=cluster, progress=advance)
+                else:
+                    report = build_table(spec, name=name, store=target, progress=advance)
         except KeyboardInterrupt:
             progress.stop()
             sys.stderr.write(
