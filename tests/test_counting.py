@@ -36,36 +36,15 @@ from enumerator.algorithms.counting import (
 from enumerator.core.errors import TooLarge
 from enumerator.core.limits import Cost, limited
 from enumerator.core.model import UrnModel
+from tests.strategies import small_models as shared_small_models
 
 # ---------------------------------------------------------------------------
 # brute force on small random models (hypothesis picks them)
 # ---------------------------------------------------------------------------
 
-@st.composite
-def small_models(draw):
-    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
-    r = draw(st.integers(1, 5))
-    n = draw(st.integers(0, 9))
-    if draw(st.booleans()):
-        if rule == "FD":
-            a = draw(st.integers(0, 1))
-            b = draw(st.sampled_from([None, 1]))
-        else:
-            a = draw(st.integers(0, 2))
-            b = draw(st.one_of(st.none(), st.integers(a, a + 4)))
-        return Occupancy(balls=n, urns=r, rule=rule, minimum=a, capacity=b)
-    bounds = []
-    for _ in range(r):
-        if rule == "FD":
-            a = draw(st.integers(0, 1))
-            b = draw(st.sampled_from([None, 1]))
-        else:
-            a = draw(st.integers(0, 3))
-            b = draw(st.one_of(st.none(), st.integers(a, a + 4)))
-        bounds.append((a, b))
-    return Occupancy(balls=n, bounds=bounds, rule=rule)
-
-
+def small_models():
+    """Small uniform or per-urn models of every rule (the shared strategy, at this module's sizes)."""
+    return shared_small_models(max_urns=5, max_balls=9, shapes=("uniform", "per-urn"), lows=2, span=4)
 @settings(max_examples=300, deadline=None)
 @given(small_models())
 def test_counts_match_brute_force(model):

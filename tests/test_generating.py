@@ -30,6 +30,7 @@ from enumerator.algorithms.generating import (
     parse_expression,
     parse_mark,
 )
+from tests.strategies import small_models as shared_small_models
 
 x, u = sympy.symbols("x u")
 
@@ -78,32 +79,9 @@ def truncated(expr, n):
     return expr
 
 
-@st.composite
-def small_models(draw):
-    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
-    r = draw(st.integers(1, 4))
-    n = draw(st.integers(0, 7))
-    if draw(st.booleans()):
-        if rule == "FD":
-            a, b = draw(st.integers(0, 1)), draw(st.sampled_from([None, 1]))
-        else:
-            a = draw(st.integers(0, 2))
-            b = draw(st.one_of(st.none(), st.integers(a, a + 3)))
-        return Occupancy(balls=n, urns=r, rule=rule, minimum=a, capacity=b)
-    bounds = []
-    for _ in range(r):
-        if rule == "FD":
-            bounds.append((draw(st.integers(0, 1)), draw(st.sampled_from([None, 1]))))
-        else:
-            a = draw(st.integers(0, 2))
-            bounds.append((a, draw(st.one_of(st.none(), st.integers(a, a + 3)))))
-    return Occupancy(balls=n, bounds=bounds, rule=rule)
-
-
-# ---------------------------------------------------------------------------
-# the model's generating function
-# ---------------------------------------------------------------------------
-
+def small_models():
+    """Small uniform or per-urn models of every rule (the shared strategy, at this module's sizes)."""
+    return shared_small_models(max_urns=4, max_balls=7, shapes=("uniform", "per-urn"), lows=2, span=3)
 @pytest.mark.parametrize(
     "model, expected",
     [

@@ -24,6 +24,7 @@ from hypothesis import strategies as st
 import enumerator.algorithms.listing as listing
 import enumerator.algorithms.listing_tables as listing_tables
 from enumerator import InvalidConfiguration, InvalidParameters, Occupancy, TooLarge
+from tests.strategies import small_models as shared_small_models
 
 
 # -- slow references --------------------------------------------------------
@@ -39,26 +40,9 @@ def as_rows(blocks):
 
 
 # -- model strategies ---------------------------------------------------------
-@st.composite
-def models(draw, max_urns=5, max_balls=10):
-    r = draw(st.integers(1, max_urns))
-    n = draw(st.integers(0, max_balls))
-    kind = draw(st.sampled_from(["uniform", "per-urn", "FD"]))
-    if kind == "FD":
-        return Occupancy(balls=n, urns=r, rule="FD", minimum=draw(st.sampled_from([0, 0, 1])))
-    rule = draw(st.sampled_from(["MB", "BE"]))
-    if kind == "uniform":
-        minimum = draw(st.integers(0, 2))
-        capacity = draw(st.one_of(st.none(), st.integers(minimum, minimum + 4)))
-        return Occupancy(balls=n, urns=r, rule=rule, capacity=capacity, minimum=minimum)
-    bounds = []
-    for _ in range(r):
-        a = draw(st.integers(0, 3))
-        b = draw(st.one_of(st.none(), st.integers(a, a + 4)))
-        bounds.append((a, b))
-    return Occupancy(balls=n, bounds=bounds, rule=rule)
-
-
+def models(max_urns=5, max_balls=10):
+    """Small uniform or per-urn models of every rule (the shared strategy, at this module's sizes)."""
+    return shared_small_models(max_urns=max_urns, max_balls=max_balls, shapes=("uniform", "per-urn"), lows=3, span=4)
 BUDGETS = {"ranges": 0, "tiny": 40, "default": None}
 
 

@@ -26,6 +26,7 @@ from enumerator.algorithms.counting import count_configurations, count_microstat
 from enumerator.algorithms.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
 from enumerator.algorithms.vocabulary import REGISTRY, STATISTICS
 from enumerator.core.errors import InvalidParameters, TooLarge
+from tests.strategies import small_models as shared_small_models
 
 STATS = ["empty", "occupied", "max", "min", "urn:1", "urn:2", "exactly:0", "exactly:1", "exactly:2",
          "atleast:1", "atleast:2", "atleast:3", "profile"]
@@ -48,36 +49,10 @@ def moments(pmf):
     return mean, sum(v * v * p for v, p in pmf.items()) - mean * mean
 
 
-@st.composite
-def small_models(draw):
-    """Small models of every rule, uniform or per-urn bounds, with at least one configuration."""
-    rule = draw(st.sampled_from(["MB", "BE", "FD"]))
-    r = draw(st.integers(1, 4))
-    n = draw(st.integers(0, 7))
-    shape = draw(st.sampled_from(["free", "uniform", "per-urn"]))
-    if shape == "free":
-        model = Occupancy(balls=n, urns=r, rule=rule)
-    elif shape == "uniform":
-        a = draw(st.integers(0, 1 if rule == "FD" else 2))
-        top = 1 if rule == "FD" else a + draw(st.integers(0, 4))
-        cap = draw(st.sampled_from([None, top])) if rule != "FD" else top
-        model = Occupancy(balls=n, urns=r, rule=rule, capacity=cap, minimum=a)
-    else:
-        bounds = []
-        for _ in range(r):
-            a = draw(st.integers(0, 1 if rule == "FD" else 2))
-            b = draw(st.sampled_from([None, a, a + 1, a + 3]))
-            if rule == "FD":
-                b = max(a, 1 if b is None else min(b, 1))
-            bounds.append((a, b))
-        model = Occupancy(balls=n, bounds=bounds, rule=rule)
-    if not any(True for _ in box(model)):
-        model = Occupancy(balls=n, urns=r, rule="BE")
-    return model
-
-
-# ---------------------------------------------------------------- brute force
-
+def small_models():
+    """Small models of every rule, free, uniform or per-urn, with at least one configuration (shared strategy)."""
+    return shared_small_models(max_urns=4, max_balls=7, shapes=("free", "uniform", "per-urn"), lows=2, span=3,
+                               admissible=True)
 @settings(max_examples=150, deadline=None)
 @given(small_models(), st.sampled_from(STATS))
 def test_every_statistic_matches_brute_force(model, stat):
