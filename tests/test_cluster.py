@@ -186,7 +186,7 @@ def test_table_build_command_on_two_workers_equals_the_single_process_build(tmp_
     # Reference: the single-process build of the same table (and C(n+r-1, r-1) for BE, Feller II.5).
     from math import comb
 
-    from tests.cli_helpers import run_json
+    from cli_helpers import run_json
 
     one = str(tmp_path / "one.sqlite")
     two = str(tmp_path / "two.sqlite")

@@ -17,6 +17,7 @@ from flint import fmpz_poly
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.special import comb as scipy_comb
+from strategies import small_models as shared_small_models
 from sympy.functions.combinatorial.numbers import nT, partition, stirling
 
 from enumerator import Occupancy
@@ -36,7 +37,6 @@ from enumerator.algorithms.counting import (
 from enumerator.core.errors import TooLarge
 from enumerator.core.limits import Cost, limited
 from enumerator.core.model import UrnModel
-from tests.strategies import small_models as shared_small_models
 
 # ---------------------------------------------------------------------------
 # brute force on small random models (hypothesis picks them)

@@ -18,6 +18,7 @@ import sympy
 from flint import fmpz_poly
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from strategies import small_models as shared_small_models
 from sympy.functions.combinatorial.numbers import partition, stirling
 
 from enumerator import InvalidParameters, Occupancy, TooLarge
@@ -30,7 +31,6 @@ from enumerator.algorithms.generating import (
     parse_expression,
     parse_mark,
 )
-from tests.strategies import small_models as shared_small_models
 
 x, u = sympy.symbols("x u")
 

@@ -20,11 +20,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from strategies import small_models as shared_small_models
 
 import enumerator.algorithms.listing as listing
 import enumerator.algorithms.listing_tables as listing_tables
 from enumerator import InvalidConfiguration, InvalidParameters, Occupancy, TooLarge
-from tests.strategies import small_models as shared_small_models
 
 
 # -- slow references --------------------------------------------------------

@@ -17,6 +17,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from reference import box, weight
+from strategies import small_models as shared_small_models
 
 import enumerator.algorithms.extremes as extremes
 import enumerator.algorithms.laws as laws
@@ -26,7 +27,6 @@ from enumerator.algorithms.counting import count_configurations, count_microstat
 from enumerator.algorithms.statistics import Distribution, Statistic, distribution, outcome_count, parse_statistic
 from enumerator.algorithms.vocabulary import REGISTRY, STATISTICS
 from enumerator.core.errors import InvalidParameters, TooLarge
-from tests.strategies import small_models as shared_small_models
 
 STATS = ["empty", "occupied", "max", "min", "urn:1", "urn:2", "exactly:0", "exactly:1", "exactly:2",
          "atleast:1", "atleast:2", "atleast:3", "profile"]
