@@ -323,31 +323,8 @@ def _largest_balls(model: UrnModel) -> int:
 
 
 def _bisect(vary, start, highest, goal, p, count) -> Threshold:
-    value = p(start)
-    if value >= goal:
-        return Threshold(vary, start, value, None, "bisection", count())
-    lo, lo_value = start, value  # P(lo) < goal
-    step = 1
-    while True:
-        hi = min(lo + step, highest)
-        hi_value = p(hi)
-        if hi_value >= goal:
-            break
-        if hi >= highest:
-            raise TooLarge(
-                f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,} "
-                f"(P = {float(hi_value):.6g} there); lower the target", parameters=["target"],
-            )
-        lo, lo_value = hi, hi_value
-        step *= 2
-    while hi - lo > 1:  # P(lo) < goal <= P(hi)
-        mid = (lo + hi) // 2
-        mid_value = p(mid)
-        if mid_value >= goal:
-            hi, hi_value = mid, mid_value
-        else:
-            lo, lo_value = mid, mid_value
-    return Threshold(vary, hi, hi_value, lo_value, "bisection", count())
+    """Exponential search up from *start* (1, 2, 4, ... past it), then bisection."""
+    return _gallop(vary, start, highest, goal, p, count, start)
 
 
 def _no_collision_guess(model: UrnModel, vary: str, node: Event, goal: Fraction) -> Optional[int]:
@@ -411,6 +388,8 @@ def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
     """Exact search outward from *guess*: steps 1, 2, 4, ... until the target is bracketed, then bisection."""
     guess = min(max(guess, start), highest)
     value = p(guess)
+    if value >= goal and guess == start:
+        return Threshold(vary, start, value, None, "bisection", count())
     if value >= goal:
         hi, hi_value = guess, value
         step = 1
@@ -433,8 +412,8 @@ def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
                 break
             if hi >= highest:
                 raise TooLarge(
-                    f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,}; lower the target",
-                    parameters=["target"],
+                    f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,} "
+                    f"(P = {float(hi_value):.6g} there); lower the target", parameters=["target"],
                 )
             lo, lo_value = hi, hi_value
             step *= 2
