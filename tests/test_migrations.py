@@ -183,7 +183,7 @@ def test_a_failing_step_leaves_the_store_untouched_at_its_old_schema(old_store, 
     assert str(old_store) in message and f"schema version {NOW}" in message
     assert f"failed at step {NOW}->{NOW + 1} (add a note): disk on fire" in message
     assert f"nothing was changed (it is still at schema version {NOW})" in message
-    assert "--store" in message
+    assert "store=" in message
     assert _dump(old_store) == before
     assert _version(old_store) == str(NOW) and "note" not in _columns(old_store)
 
@@ -250,7 +250,7 @@ def test_a_read_only_old_store_is_refused_with_what_to_do(old_store, monkeypatch
     message = str(info.value)
     assert "\n" not in message and str(old_store) in message
     assert f"schema version {NOW}" in message and "read-only" in message
-    assert "write access" in message and "--store" in message
+    assert "write access" in message and "store=" in message
     monkeypatch.undo()
     assert _dump(old_store) == before
 

@@ -286,7 +286,7 @@ def test_a_name_with_another_definition_is_refused(path):
 
 def test_tables_need_the_store(monkeypatch):
     monkeypatch.setenv(results.ENV_NO_CACHE, "1")
-    with pytest.raises(StoreError, match="--no-cache"):
+    with pytest.raises(StoreError, match="no_cache="):
         tables.build_table(tables.TableSpec.make("BE", "0..5", "1..2"))
 
 

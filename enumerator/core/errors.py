@@ -40,9 +40,12 @@ class EnumeratorError(Exception):
     'give --balls, or --vary balls=0..9'
     """
 
+    #: Parameters a message of this class may name even when the raiser lists none.
+    default_parameters: tuple = ()
+
     def __init__(self, *args, parameters=()):
         super().__init__(*args)
-        self.parameters = tuple(parameters)
+        self.parameters = tuple(parameters) or self.default_parameters
 
     def spelled(self, names) -> str:
         """The message with each named parameter (``limit=``) written as *names* spells it."""
@@ -75,3 +78,6 @@ class Unsupported(EnumeratorError):
 
 class StoreError(EnumeratorError):
     """The result store cannot be opened, read or written."""
+
+    # its messages point at another store (store=) or at none (no_cache=)
+    default_parameters = ("store", "no_cache")

@@ -271,7 +271,8 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     if saved is not None and not _same_definition(saved, wanted):
         raise InvalidParameters(
             f"a table named {name!r} already exists with another definition "
-            f"({TableSpec.from_row(saved).describe()}); choose another --name or drop it first"
+            f"({TableSpec.from_row(saved).describe()}); choose another name= or drop it first",
+            parameters=["name"],
         )
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]

@@ -255,7 +255,7 @@ class Store:
             raise StoreError(
                 f"the store {self.name} uses schema version {version}, newer than this "
                 f"enumerator understands ({schema.SCHEMA_VERSION}); upgrade enumerator, or choose "
-                "another store with --store or ENUMERATOR_STORE"
+                "another store with store= or ENUMERATOR_STORE"
             )
 
     def _cannot_upgrade(self, found: int, reason: str) -> StoreError:
@@ -263,7 +263,7 @@ class Store:
             f"the store {self.name} uses schema version {found}, older than this enumerator's "
             f"({schema.SCHEMA_VERSION}), and cannot be upgraded: {reason}. Open it once with "
             "write access (any command that uses it upgrades it in place), or choose another "
-            "store with --store or ENUMERATOR_STORE, or run with --no-cache"
+            "store with store= or ENUMERATOR_STORE, or run with no_cache="
         )
 
     def _upgrade_failed(self, failure: "migrations.MigrationFailed") -> StoreError:
@@ -271,8 +271,8 @@ class Store:
         return StoreError(
             f"upgrading the store {self.name} from schema version {found} to "
             f"{schema.SCHEMA_VERSION} failed at {failure}; nothing was changed (it is still at "
-            f"schema version {found}). Choose another store with --store or ENUMERATOR_STORE, "
-            "or run with --no-cache, and report the failure"
+            f"schema version {found}). Choose another store with store= or ENUMERATOR_STORE, "
+            "or run with no_cache=, and report the failure"
         )
 
     def _enable_wal(self) -> None:

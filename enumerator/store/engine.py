@@ -294,17 +294,17 @@ def explain_failure(error: BaseException, name: str) -> StoreError:
         return StoreError(
             f"the store {name} is damaged or is not an SQLite database ({detail}); "
             "it only holds a cache, so move it aside or delete it, or choose another "
-            "store with --store or ENUMERATOR_STORE"
+            "store with store= or ENUMERATOR_STORE"
         )
     if is_busy(error):
         return StoreError(
             f"the store {name} stayed locked by another process for "
-            f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with --no-cache"
+            f"{LOCK_PATIENCE:.0f} s; wait for that process to finish, or run with no_cache="
         )
     return StoreError(
         f"cannot use the store {name} ({detail}); check the path or URL and its "
-        "permissions, choose another store with --store or ENUMERATOR_STORE, "
-        "or run with --no-cache"
+        "permissions, choose another store with store= or ENUMERATOR_STORE, "
+        "or run with no_cache="
     )
 
 

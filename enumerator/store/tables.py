@@ -320,8 +320,8 @@ def _need_store(store) -> Store:
     target = open_store(store) if store is not None else current_store()
     if target is None:
         raise StoreError(
-            "tables live in the result store, which is switched off (--no-cache or "
-            "ENUMERATOR_NO_CACHE); drop --no-cache or unset ENUMERATOR_NO_CACHE"
+            "tables live in the result store, which is switched off (no_cache= or "
+            "ENUMERATOR_NO_CACHE); drop no_cache= or unset ENUMERATOR_NO_CACHE"
         )
     return target
 
@@ -374,7 +374,8 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     if saved is not None and not _same_definition(saved, wanted):
         raise InvalidParameters(
             f"a table named {name!r} already exists with another definition "
-            f"({TableSpec.from_row(saved).describe()}); choose another --name or drop it first"
+            f"({TableSpec.from_row(saved).describe()}); choose another name= or drop it first",
+            parameters=["name"],
         )
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]
