@@ -45,7 +45,7 @@ from ..algorithms.listing import iter_blocks
 from ..core.errors import InvalidParameters
 from ..core.model import UrnModel, as_count
 from .keys import ALGORITHM_VERSIONS, Key
-from .tables import BuildReport, TableSpec, _need_store, _same_definition, row_values
+from .tables import BuildReport, TableSpec, _need_store, claim_table, row_values
 
 __all__ = [
     "EventWeight",
@@ -266,14 +266,7 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     target = _need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
-    wanted = spec.as_row(name)
-    saved = target.save_table(wanted)
-    if saved is not None and not _same_definition(saved, wanted):
-        raise InvalidParameters(
-            f"a table named {name!r} already exists with another definition "
-            f"({TableSpec.from_row(saved).describe()}); choose another name= or drop it first",
-            parameters=["name"],
-        )
+    claim_table(spec, name, target)
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]
     tasks: List[RowTask] = []

@@ -326,6 +326,29 @@ def _need_store(store) -> Store:
     return target
 
 
+def claim_table(spec: "TableSpec", name: str, target: Store) -> None:
+    """Record the definition of table *name* in *target*, or check that the one stored there is the same.
+
+    Raises
+    ------
+    InvalidParameters
+        When a table of that name exists with another definition.
+
+    Notes
+    -----
+    One upsert of the definition row; shared by the single-process and the
+    distributed builds so they can never disagree on what a name means.
+    """
+    wanted = spec.as_row(name)
+    saved = target.save_table(wanted)
+    if saved is not None and not _same_definition(saved, wanted):
+        raise InvalidParameters(
+            f"a table named {name!r} already exists with another definition "
+            f"({TableSpec.from_row(saved).describe()}); choose another name= or drop it first",
+            parameters=["name"],
+        )
+
+
 def _same_definition(a: dict, b: dict) -> bool:
     keys = ("quantity", "rule", "minimum", "capacity", "balls_first", "balls_last", "urns_first", "urns_last")
     return all(a[k] == b[k] for k in keys)
@@ -369,14 +392,7 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     target = _need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
-    wanted = spec.as_row(name)
-    saved = target.save_table(wanted)
-    if saved is not None and not _same_definition(saved, wanted):
-        raise InvalidParameters(
-            f"a table named {name!r} already exists with another definition "
-            f"({TableSpec.from_row(saved).describe()}); choose another name= or drop it first",
-            parameters=["name"],
-        )
+    claim_table(spec, name, target)
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]
     for r in spec.urns:
