@@ -1530,9 +1530,30 @@ def _import_everything() -> None:
     Occupancy(balls=3, urns=2, rule="MB", capacity=2).microstates()
 
 
+def _load_extensions() -> None:
+    """Register the workloads of every ``scripts/bench_*.py`` beside this file.
+
+    Each such module defines ``register(bench)``, which receives this module
+    and declares its workloads with ``bench.workload``; one file per area of
+    the library keeps the workloads of unrelated work apart.  Runs once.
+    """
+    import importlib.util
+
+    me = sys.modules[__name__]
+    if getattr(me, "_extensions_loaded", False):
+        return
+    me._extensions_loaded = True
+    for path in sorted(Path(__file__).resolve().parent.glob("bench_*.py")):
+        spec = importlib.util.spec_from_file_location(f"_bench_{path.stem}", path)
+        module = importlib.util.module_from_spec(spec)
+        spec.loader.exec_module(module)
+        module.register(me)
+
+
 def main(argv: Optional[List[str]] = None) -> int:
     sys.set_int_max_str_digits(0)  # answers of thousands of digits are printed and compared
     _import_everything()
+    _load_extensions()
     parser = argparse.ArgumentParser(description="Benchmark enumerator against general-purpose peers.")
     parser.add_argument("--quick", action="store_true", help="every workload in under a minute")
     parser.add_argument("--only", action="append", metavar="NAME", help="run only this workload (repeatable)")
