@@ -1531,7 +1531,7 @@ def _import_everything() -> None:
 
 
 def _load_extensions() -> None:
-    """Register the workloads of every ``scripts/bench_*.py`` beside this file.
+    """Register the workloads of every ``scripts/workloads_*.py`` beside this file.
 
     Each such module defines ``register(bench)``, which receives this module
     and declares its workloads with ``bench.workload``; one file per area of
@@ -1543,7 +1543,7 @@ def _load_extensions() -> None:
     if getattr(me, "_extensions_loaded", False):
         return
     me._extensions_loaded = True
-    for path in sorted(Path(__file__).resolve().parent.glob("bench_*.py")):
+    for path in sorted(Path(__file__).resolve().parent.glob("workloads_*.py")):
         spec = importlib.util.spec_from_file_location(f"_bench_{path.stem}", path)
         module = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(module)
