@@ -191,7 +191,7 @@ def test_bad_input_exits_2_with_one_line(args, message):
 # --------------------------------------------------------------------------
 def test_contact_payload_encodes_exact_values():
     from enumerator.algorithms.levels import einstein_solid, thermal_contact
-    from enumerator.cli.render_levels import contact_payload
+    from enumerator.cli.render_contact import contact_payload
 
     # C(3 + q - 1, q) oscillator multiplicities, stars and bars (common practice)
     payload = contact_payload(thermal_contact(einstein_solid(3), einstein_solid(3), 6))

@@ -62,7 +62,7 @@ COMMANDS: Dict[str, str] = {
     "demo": "demo",
     "compare": "compare",
     "levels": "physics",
-    "contact": "physics",
+    "contact": "contact",
     # typer always listed the sub-groups after the plain commands; kept so.
     "table": "tables",
     "cache": "tables",
