@@ -10,10 +10,11 @@ into an :class:`~enumerator.facade.Occupancy`, :func:`store_scope` applies
 ``--max-memory``/``--max-seconds``, and :func:`parse_config` reads an
 occupancy vector.
 
-``--balls`` and ``--urns`` are read digit by digit
-(:func:`enumerator.core.groups.parse_count`): any size (``2^64`` urns and
-beyond) reaches the model as an ``int``, and text such as ``1e999999999`` or
-a number of millions of digits is refused before it is converted.
+``--balls`` and ``--urns`` are read digit by digit, or as a power ``B^E``
+with an optional ``+K``/``-K`` (:func:`enumerator.core.groups.parse_count`):
+any size (``2^64`` urns and beyond) reaches the model as an ``int``, and text
+such as ``1e999999999``, ``2^99999999`` or a number of millions of digits is
+refused before it is expanded.
 
 Importing this module is cheap (typer only): the store is imported when a
 command enters :func:`store_scope`.
@@ -96,8 +97,8 @@ Urns = Annotated[
         "--urns", "-r",
         metavar="INTEGER",
         parser=count_parser("urns", 1),
-        help="Number of labelled urns r (states, sites, bins), >= 1, any size (2^64 urns cost "
-        "nothing per urn). May be left out when --bounds or --weights lists the urns.",
+        help="Number of labelled urns r (states, sites, bins), >= 1, any size, in digits or as a power "
+        "(-r 2^64, -r 2^32-1; 2^64 urns cost nothing per urn). May be left out when --bounds or --weights lists the urns.",
         rich_help_panel=MODEL_PANEL,
     ),
 ]

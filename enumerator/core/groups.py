@@ -37,6 +37,7 @@ Examples
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from fractions import Fraction
@@ -66,6 +67,7 @@ MAX_ITEMS = 1_000_000
 Bound = Tuple[int, Optional[int]]
 
 _DIGITS = re.compile(r"[0-9]+")
+_POWER = re.compile(r"([0-9]+)\s*\^\s*([0-9]+)\s*(?:([+-])\s*([0-9]+))?")
 _DECIMAL = re.compile(r"([0-9]*)(?:\.([0-9]*))?")
 
 
@@ -165,9 +167,11 @@ def parse_count(text: str, name: str, minimum: int = 0) -> int:
     Parameters
     ----------
     text : str
-        Decimal digits, optionally surrounded by blanks (``"1_000"`` and
-        ``"1e6"`` are refused: exponents would let a few characters ask for
-        a number of any size).
+        Decimal digits, optionally surrounded by blanks, or a power
+        ``B^E`` of two such numbers with an optional ``+K``/``-K`` after it
+        (``2^64``, ``2^32-1``).  A power is sized from ``E log10 B`` before it
+        is expanded, so it obeys the same :data:`MAX_DIGITS` limit as written
+        digits; ``"1_000"`` and ``"1e6"`` are refused.
     name : str
         What the number is, for the error message.
     minimum : int
@@ -183,17 +187,43 @@ def parse_count(text: str, name: str, minimum: int = 0) -> int:
     --------
     >>> parse_count(" 365 ", "urns", 1)
     365
+    >>> parse_count("2^64", "urns", 1), parse_count("2^32-1", "urns", 1)
+    (18446744073709551616, 4294967295)
     """
     body = text.strip()
+    power = _POWER.fullmatch(body)
+    if power:
+        return _parse_power(power, body, name, minimum)
     if len(body) > MAX_DIGITS:
         raise InvalidParameters(
             f"{name} has {len(body):,} characters; numbers are limited to {MAX_DIGITS:,} digits"
         )
     if not _DIGITS.fullmatch(body):
-        raise InvalidParameters(f"{name} must be a whole number written in digits (got {_short(body)!r})")
+        raise InvalidParameters(
+            f"{name} must be a whole number written in digits or as a power such as 2^64 (got {_short(body)!r})"
+        )
     value = int(body)
     if value < minimum:
         raise InvalidParameters(f"{name} must be at least {minimum} (got {value})")
+    return value
+
+
+def _parse_power(match: "re.Match", body: str, name: str, minimum: int) -> int:
+    """Expand ``B^E[+-K]`` after checking its size from ``E log10 B`` (see :func:`parse_count`)."""
+    base_text, exponent_text, sign, offset_text = match.groups()
+    if max(len(base_text), len(exponent_text), len(offset_text or "")) > MAX_DIGITS:
+        raise InvalidParameters(f"{name} is too long; numbers are limited to {MAX_DIGITS:,} digits")
+    base, exponent = int(base_text), int(exponent_text)
+    if base > 1 and exponent * math.log10(base) > MAX_DIGITS:
+        raise InvalidParameters(
+            f"{name} {_short(body)!r} would have about {exponent * math.log10(base):,.0f} digits; "
+            f"numbers are limited to {MAX_DIGITS:,} digits"
+        )
+    value = base ** exponent
+    if sign:
+        value = value + int(offset_text) if sign == "+" else value - int(offset_text)
+    if value < minimum:
+        raise InvalidParameters(f"{name} must be at least {minimum} (got {_short(body)!r} = {value})")
     return value
 
 
