@@ -33,6 +33,7 @@ import math
 import time
 from contextlib import contextmanager
 from dataclasses import dataclass
+from functools import partial
 from typing import Callable, Iterator, List, Optional, Sequence, Tuple
 
 import gmpy2
@@ -330,12 +331,63 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
 # enumeration sums
 # ---------------------------------------------------------------------------
 
+def _equal_shards(start: int, stop: int, count: int) -> List[Tuple[int, int]]:
+    """``[start, stop)`` cut into *count* consecutive ranges of equal length (the last ones one shorter)."""
+    q, extra = divmod(stop - start, count)
+    bounds = []
+    lo = start
+    for i in range(count):
+        hi = lo + q + (1 if i < extra else 0)
+        bounds.append((lo, hi))
+        lo = hi
+    return bounds
+
+
+def _add(a, b):
+    return a + b
+
+
+def _shard_reduce(model: UrnModel, value_of_block, start: int, stop: int, block: int,
+                  merge: Callable = _add, zero=0) -> Tuple[int, int, object]:
+    """Worker side: ``(start, stop, value_of_block over the blocks of ranks [start, stop) merged)``."""
+    total = zero() if callable(zero) else zero
+    for array in iter_blocks(model, block, start, stop):
+        total = merge(total, value_of_block(array))
+    return start, stop, total
+
+
 def _shard_sum(model: UrnModel, value_of_block, start: int, stop: int, block: int) -> Tuple[int, int, int]:
     """Worker side: ``(start, stop, sum of value_of_block over the blocks of ranks [start, stop))``."""
-    total = 0
-    for array in iter_blocks(model, block, start, stop):
-        total += int(value_of_block(array))
-    return start, stop, total
+    return _shard_reduce(model, lambda array: int(value_of_block(array)), start, stop, block)
+
+
+def _reduce_on_cluster(task: Callable, *, start: int, stop: int, shards: Optional[int],
+                       workers, cluster, client, progress, merge: Callable = _add, zero=0):
+    """Run *task* (``task(lo, hi) -> (lo, hi, part)``, picklable) on equal shards of ``[start, stop)``; merge the parts.
+
+    Each shard's one result is merged once, in the order the shards finish.
+    """
+    span = max(stop - start, 0)
+    total = zero() if callable(zero) else zero
+    if span == 0:
+        return total
+    with cluster_client(workers, cluster, client) as dask:
+        from distributed import as_completed
+
+        count = as_count(shards, "shards", 1) if shards is not None else TASKS_PER_WORKER * _worker_count(dask)
+        futures = [dask.submit(task, lo, hi, pure=False) for lo, hi in _equal_shards(start, stop, min(count, span))]
+        done = 0
+        try:
+            for future in as_completed(futures, loop=dask.loop):
+                lo, hi, part = future.result()
+                total = merge(total, part)
+                done += hi - lo
+                future.release()
+                if progress is not None:
+                    progress(done, span)
+        finally:
+            dask.cancel(futures)
+    return total
 
 
 def enumeration_sum_distributed(model: UrnModel, value_of_block: Callable[[object], int], *,
@@ -382,36 +434,9 @@ def enumeration_sum_distributed(model: UrnModel, value_of_block: Callable[[objec
     """
     stop = count_configurations(model) if stop is None else as_count(stop, "stop", 0)
     start = as_count(start, "start", 0)
-    span = max(stop - start, 0)
-    if span == 0:
-        return 0
-    with cluster_client(workers, cluster, client) as dask:
-        from distributed import as_completed
-
-        count = as_count(shards, "shards", 1) if shards is not None else TASKS_PER_WORKER * _worker_count(dask)
-        count = min(count, span)
-        q, extra = divmod(span, count)
-        bounds = []
-        lo = start
-        for i in range(count):
-            hi = lo + q + (1 if i < extra else 0)
-            bounds.append((lo, hi))
-            lo = hi
-        futures = [dask.submit(_shard_sum, model, value_of_block, lo, hi, block, pure=False)
-                   for lo, hi in bounds]
-        total = 0
-        done = 0
-        try:
-            for future in as_completed(futures, loop=dask.loop):
-                lo, hi, value = future.result()
-                total += value
-                done += hi - lo
-                future.release()
-                if progress is not None:
-                    progress(done, span)
-        finally:
-            dask.cancel(futures)
-    return total
+    return _reduce_on_cluster(partial(_shard_sum, model, value_of_block, block=block), start=start, stop=stop,
+                              shards=shards, workers=workers, cluster=cluster, client=client,
+                              progress=progress)
 
 
 class EventWeight:
