@@ -63,7 +63,7 @@ def count_command(
         $ enumerator count -n 3 -r 2 --rule BE
         $ enumerator count -n 10 -r 4 --capacity 3 --json
         $ enumerator count -n 5 --bounds "0:2,1:,0:3"
-        $ enumerator count -n 10 -r 18446744073709551616 --rule BE
+        $ enumerator count -n 10 -r 2^64 --rule BE
         $ enumerator count -n 4 --bounds "1000x0:3,2x1:" --rule BE
     """
     with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
@@ -142,7 +142,7 @@ def prob_command(
         $ enumerator prob -n 23 -r 365 --event "max <= 1"
         $ enumerator prob -n 10 -r 6 --event "empty >= 2 or k1 == 0" --json
         $ enumerator prob -n 23 --weights "365x4,1" --event "max <= 1"
-        $ enumerator prob -n 100000 -r 18446744073709551616 --event "max <= 1"
+        $ enumerator prob -n 100000 -r 2^64 --event "max <= 1"
     """
     from ..core.errors import InvalidParameters
 

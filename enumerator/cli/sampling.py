@@ -82,7 +82,7 @@ def sample_command(
         $ enumerator sample -n 10 -r 4 --rule BE --size 5 --seed 1
         $ enumerator sample -n 1000 -r 100 --size 100000 --seed 7 > draws.csv
         $ enumerator sample -n 6 -r 3 --capacity 3 --size 3 --seed 2 --format jsonl
-        $ enumerator sample -n 3 -r 18446744073709551616 --size 2 --seed 1
+        $ enumerator sample -n 3 -r 2^64 --size 2 --seed 1
     """
     with limits_scope(max_memory, max_seconds):
         _sample(balls, urns, rule, capacity, minimum, bounds, weights, size, seed, fmt, method, sparse, as_json)
