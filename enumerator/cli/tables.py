@@ -58,6 +58,14 @@ class TableFormat(str, Enum):
     json = "json"
     markdown = "markdown"
     latex = "latex"
+    parquet = "parquet"
+
+
+class TableLayout(str, Enum):
+    """Layouts of ``enumerator table export``: one line per cell, or the n x r matrix."""
+
+    long = "long"
+    wide = "wide"
 
 
 class EntryFormat(str, Enum):
@@ -151,8 +159,12 @@ def _range_text(values: range) -> str:
     return f"{values.start}..{values.stop - 1}"
 
 
-def _bounds_words(spec) -> str:
-    """A table's uniform bounds in words, e.g. ``at least 1 and at most 4 per urn``.
+def _label(spec) -> str:
+    """What a table holds, in words true for every rule and quantity.
+
+    E.g. ``MB microstates, at least 1 per urn``, ``FD configurations, at
+    most 1 per urn``, ``profiles (urns unlabelled, the same under every
+    rule), any number per urn``.
 
     Parameters
     ----------
@@ -162,12 +174,37 @@ def _bounds_words(spec) -> str:
     -------
     str
     """
-    limits = []
-    if spec.minimum:
-        limits.append(f"at least {spec.minimum}")
-    if spec.capacity is not None and not (spec.rule == "FD" and spec.capacity == 1):
-        limits.append(f"at most {spec.capacity}")
-    return " and ".join(limits) + " per urn" if limits else "any number per urn"
+    return f"{spec.what()}, {spec.bounds_words()}"
+
+
+def _stored_after_interrupt(spec, label: str, target, totals: dict) -> str:
+    """How many cells of an interrupted build are stored, counted in the store.
+
+    The rows reported done can under-count: the row being written when
+    Ctrl-C came may have been committed, and other builders may have stored
+    cells meanwhile.  So the store is asked (one count query); when that
+    fails too, the rows reported done give a lower bound ("at least").
+
+    Parameters
+    ----------
+    spec : TableSpec
+    label : str
+        The table's name.
+    target : Store
+    totals : dict
+        ``computed`` and ``reused`` of the rows reported done.
+
+    Returns
+    -------
+    str
+    """
+    from ..core.errors import EnumeratorError
+    from ..store.tables import StoredTable
+
+    try:
+        return str(StoredTable(label, spec, target).stored())
+    except (EnumeratorError, KeyboardInterrupt):
+        return f"at least {totals['computed'] + totals['reused']}"
 
 
 @table_app.command("build")
@@ -258,8 +295,8 @@ def table_build_command(
         except KeyboardInterrupt:
             progress.stop()
             sys.stderr.write(
-                f"Interrupted: {totals['computed'] + totals['reused']} of {spec.cells} cells of "
-                f"table {label} are stored; run the same command again to finish "
+                f"Interrupted: {_stored_after_interrupt(spec, label, target, totals)} of {spec.cells} "
+                f"cells of table {label} are stored; run the same command again to finish "
                 "(stored cells are not recomputed).\n"
             )
             raise typer.Exit(130) from None
@@ -276,7 +313,7 @@ def table_build_command(
         })
         return
     show_table(
-        f"Table {report.name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}",
+        f"Table {report.name}: {_label(spec)}",
         ["", "value"],
         [
             ["balls", _range_text(spec.balls)],
@@ -323,7 +360,7 @@ def table_list_command(store: Store = None, as_json: Json = False) -> None:
     lines = [f"Lookup tables in {target.name}:"]
     for name, spec, stored in found:
         lines.append(
-            f"  {name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}, balls "
+            f"  {name}: {_label(spec)}, balls "
             f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, {stored}/{spec.cells} cells built"
         )
     sys.stdout.write("\n".join(lines) + "\n")
@@ -345,20 +382,23 @@ def table_show_command(
 ) -> None:
     """Show a lookup table: its definition and a window of its cells (n down, r across).
 
-    Long values are shortened to head…tail with their digit count; 'table
-    export' and --json give every value in full.
+    Only the window's cells are read from the store, so a window of a huge
+    table shows at once.  Long values are shortened to head…tail with their
+    digit count; 'table export' and --json give every value in full.
 
     Example:
 
         $ enumerator table show BE-configurations-n0..200-r1..50 --balls 0..10 --urns 1..5
     """
-    from ..store.tables import load_table, parse_range
+    from ..store.tables import load_table, open_table, parse_range
 
-    data = load_table(name, store=_open_store(store))
-    spec = data.spec
+    target = _open_store(store)
+    spec = open_table(name, store=target).spec
     rows = parse_range(balls, "--balls") if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
     fit = max(1, min(8, (console().width - 10) // 13))  # value columns that fit the terminal
     cols = parse_range(urns, "--urns") if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    # only the window is read (WHERE on n and r), plus one count of the whole table
+    data = load_table(name, store=target, balls=rows, urns=cols)
     if as_json:
         emit_json({
             "name": name, "rule": spec.rule, "quantity": spec.quantity,
@@ -374,7 +414,7 @@ def table_show_command(
         })
         return
     show_table(
-        f"{name}: {spec.rule} {spec.quantity}, {_bounds_words(spec)}; balls "
+        f"{name}: {_label(spec)}; balls "
         f"{_range_text(spec.balls)} x urns {_range_text(spec.urns)}, "
         f"{spec.cells - data.missing}/{spec.cells} cells built",
         ["n \\ r"] + [str(r) for r in cols],
@@ -395,9 +435,15 @@ def table_export_command(
     fmt: Annotated[
         TableFormat,
         typer.Option("--format", case_sensitive=False,
-                     help="csv, json, markdown or latex: one line per cell with n, r, the exact "
-                     "value and its number of digits."),
+                     help="csv, json, markdown, latex, or parquet (needs pyarrow and --output; "
+                     "exact values as text, approximate doubles beside them)."),
     ] = TableFormat.csv,
+    layout: Annotated[
+        TableLayout,
+        typer.Option("--layout", case_sensitive=False,
+                     help="long: one line per cell with n, r, the exact value and its number of "
+                     "digits; wide: the n x r matrix, one line per n and one column per r."),
+    ] = TableLayout.long,
     output: Annotated[
         Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
     ] = None,
@@ -405,19 +451,37 @@ def table_export_command(
 ) -> None:
     """Export a lookup table with every value exact and in full.
 
+    The cells are read from the store in bounded batches and written as
+    they come, so memory stays small whatever the table's size.  Cells not
+    built yet are left out (long) or left empty (wide), with a note.
+
     Example:
 
         $ enumerator table export BE-configurations-n0..200-r1..50 --format csv > be.csv
+        $ enumerator table export shelves --layout wide --format csv --output shelves.csv
+        $ enumerator table export shelves --format parquet --output shelves.parquet
         $ enumerator table export shelves --format latex --output shelves.tex
     """
-    from ..store.tables import export_table, load_table
+    from ..store.tables import export_lines, export_parquet, open_table
 
-    data = load_table(name, store=_open_store(store))
-    _write_output([export_table(data, fmt.value)], output)
-    if data.missing:
+    table = open_table(name, store=_open_store(store))
+    if fmt is TableFormat.parquet:
+        if output is None:
+            raise typer.BadParameter("Parquet is a binary format; give --output FILE.parquet", param_hint="--output")
+        try:
+            export_parquet(table, output, layout.value)
+        except OSError as error:
+            from ..core.errors import StoreError
+
+            raise StoreError(f"cannot write {output} ({error.strerror or error}); choose another --output") from None
+    else:
+        _write_output(export_lines(table, fmt.value, layout.value), output)
+    missing = table.spec.cells - table.stored()
+    if missing:
         sys.stderr.write(
-            f"Note: {data.missing} of {data.spec.cells} cells of {name} are not built yet and are "
-            "left out; run 'enumerator table build' with the same grid to finish.\n"
+            f"Note: {missing} of {table.spec.cells} cells of {name} are not built yet and are "
+            f"{'left empty' if layout is TableLayout.wide else 'left out'}; run 'enumerator table build' "
+            "with the same grid to finish.\n"
         )
 
 

@@ -46,13 +46,14 @@ import random
 import threading
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Callable, Dict, Iterable, Iterator, List, Optional, Tuple
+from typing import Any, Callable, Dict, Iterable, Iterator, List, Optional, Sequence, Tuple
 
-from sqlalchemy import bindparam, delete, func, insert, inspect, select, update
+from sqlalchemy import Text, and_, bindparam, delete, func, insert, inspect, literal, or_, select, type_coerce, update
 from sqlalchemy import exc as sa_exc
 from sqlalchemy.orm import Session
 
 from ..core.errors import StoreError
+from ..core.exact import int_text
 from . import migrations, schema
 from .codec import encode_value
 from .engine import (
@@ -490,6 +491,124 @@ class Store:
             return {row[0] for row in rows}
         return {row[0]: tuple(row[1:]) for row in rows}
 
+    # -- lookup-table cells in bounded batches (used by enumerator.store.tables) --
+    @staticmethod
+    def _cell_conditions(quantity: str, rule: str, version: int, bounds_after_urns: str, params: str) -> list:
+        """The WHERE terms of a uniform table's cells: the key fields, and bounds == urns || *bounds_after_urns*."""
+        return [
+            Result.quantity == quantity, Result.rule == rule, Result.version == version,
+            Result.params == params,
+            type_coerce(Result.bounds, Text) == type_coerce(Result.urns, Text).concat(literal(bounds_after_urns, Text)),
+        ]
+
+    def cell_keys(self, quantity: str, rule: str, version: int, bounds_after_urns: str,
+                  urns: Sequence[int], balls: range, *, after: Optional[Tuple[int, int]] = None,
+                  limit: int = 20_000, params: str = "") -> List[Tuple[int, int, int, int]]:
+        """Return up to *limit* stored cells of a uniform table, without their values, in order of ``(r, n)``.
+
+        Parameters
+        ----------
+        quantity, rule, version, params
+            The key fields shared by the table's cells.
+        bounds_after_urns : str
+            The bounds text after ``r`` (``"*0:"``, ``"*1:4"``): a cell of
+            ``r`` urns is filed under the bounds ``str(r) + bounds_after_urns``.
+        urns : sequence of int
+            The ``r`` to read (one query: ``urns IN (...)``, so keep it to a
+            few hundred).
+        balls : range
+            The ``n`` to read (a WHERE on the decimal text, see Notes).
+        after : (int, int), optional
+            Keyset pagination: only cells after ``(r, n)`` in the order.
+        limit : int
+            At most this many cells.
+
+        Returns
+        -------
+        list of (int, int, int, int)
+            ``(r, n, row id, digits)`` in increasing ``(r, n)``; read the
+            values with :meth:`cell_values`.
+
+        Notes
+        -----
+        ``n`` and ``r`` are decimal text (any size), so numeric order and
+        ranges are written on the text: shorter is smaller, equal lengths
+        compare as strings.  One query on the index ``(quantity, rule,
+        urns, version)``; the database sorts the matching keys (a top-*limit*
+        sort), so memory stays bounded by *limit* whatever the table's size.
+        """
+        if not self._schema_ready or not urns:
+            return []
+        conditions = self._cell_conditions(quantity, rule, version, bounds_after_urns, params) + [
+            Result.urns.in_(list(urns)),
+            _decimal_compare(Result.balls, ">=", balls.start),
+            _decimal_compare(Result.balls, "<=", balls.stop - 1),
+        ]
+        if after is not None:
+            conditions.append(or_(
+                _decimal_compare(Result.urns, ">", after[0]),
+                and_(Result.urns == after[0], _decimal_compare(Result.balls, ">", after[1])),
+            ))
+        stmt = (
+            select(Result.urns, Result.balls, Result.id, Result.digits)
+            .where(*conditions)
+            .order_by(*_decimal_order(Result.urns), *_decimal_order(Result.balls))
+            .limit(limit)
+        )
+
+        def fetch():
+            with reading(self.engine) as conn:
+                return [tuple(row) for row in conn.execute(stmt)]
+
+        return self._guard(fetch)
+
+    def cell_values(self, ids: Sequence[int]) -> Dict[int, Tuple[str, str, int, int, str]]:
+        """Return ``id -> (kind, text, digits, checksum, digest)`` for the rows *ids* (unchecked).
+
+        Notes
+        -----
+        One query by primary key (``id IN (...)``); the caller bounds the
+        batch (:func:`~enumerator.store.tables.table_cells` reads at most a
+        few thousand values, or a few million digits, at a time) and checks
+        each row with :func:`~enumerator.store.keys.row_intact`.
+        """
+        if not self._schema_ready or not ids:
+            return {}
+        stmt = select(Result.id, Result.kind, Result.value, Result.digits, Result.checksum,
+                      Result.key_digest).where(Result.id.in_(list(ids)))
+
+        def fetch():
+            with reading(self.engine) as conn:
+                return {row[0]: tuple(row[1:]) for row in conn.execute(stmt)}
+
+        return self._guard(fetch)
+
+    def count_cells(self, quantity: str, rule: str, version: int, bounds_after_urns: str,
+                    urns: range, balls: range, params: str = "") -> int:
+        """Return how many cells of a uniform table are stored (see :meth:`cell_keys` for the fields).
+
+        Notes
+        -----
+        One ``count(*)`` query over the rows of the quantity and rule (the
+        ranges are WHERE terms on the decimal text); nothing is held in
+        memory.  Integrity is not checked here (``cache verify`` does).
+        """
+        if not self._schema_ready:
+            return 0
+        stmt = select(func.count()).select_from(Result).where(
+            *self._cell_conditions(quantity, rule, version, bounds_after_urns, params),
+            _decimal_compare(Result.urns, ">=", urns.start),
+            _decimal_compare(Result.urns, "<=", urns.stop - 1),
+            _decimal_compare(Result.balls, ">=", balls.start),
+            _decimal_compare(Result.balls, "<=", balls.stop - 1),
+        )
+
+        def fetch():
+            with reading(self.engine) as conn:
+                return int(conn.execute(stmt).scalar() or 0)
+
+        return self._guard(fetch)
+
     def entries(self, quantity: Optional[str] = None, stale: Optional[bool] = None) -> Iterator[StoredEntry]:
         """Yield every stored row, oldest first.
 
@@ -826,6 +945,30 @@ class Store:
     def close(self) -> None:
         """Release the engine's connections (the store reopens them if used again)."""
         self.engine.dispose()
+
+
+def _decimal_order(column) -> tuple:
+    """ORDER BY terms sorting a decimal-text column numerically (length first, then the digits)."""
+    raw = type_coerce(column, Text)
+    return func.length(raw), raw
+
+
+def _decimal_compare(column, op: str, value: int):
+    """``column op value`` for a column of canonical decimal text (no sign, no leading zeros) and an int.
+
+    Shorter text is the smaller number; texts of equal length compare as
+    strings, which for digits is numeric order.
+    """
+    text = int_text(value)
+    raw = type_coerce(column, Text)
+    width = func.length(raw)
+    if op == ">=":
+        return or_(width > len(text), and_(width == len(text), raw >= text))
+    if op == ">":
+        return or_(width > len(text), and_(width == len(text), raw > text))
+    if op == "<=":
+        return or_(width < len(text), and_(width == len(text), raw <= text))
+    raise ValueError(f"unknown comparison {op!r}")
 
 
 def _table_dict(row: LookupTable) -> dict:

@@ -28,18 +28,20 @@ once.
 
 from __future__ import annotations
 
+import json
+import math
 import re
 import tempfile
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable, Dict, Iterable, List, Optional, Tuple
+from typing import Callable, Dict, Iterable, Iterator, List, Optional, Tuple, Union
 
 import gmpy2
 from flint import fmpz_poly
 
 from ..core import series
-from ..core.errors import InvalidParameters, StoreError, TooLarge
+from ..core.errors import InvalidParameters, StoreError, TooLarge, Unsupported
 from ..core.exact import text_int
 from ..core.model import UrnModel
 from ..core.rules import Rule
@@ -50,15 +52,23 @@ from .keys import ALGORITHM_VERSIONS, Key, key_digest, row_intact
 __all__ = [
     "BuildReport",
     "EXPORT_FORMATS",
+    "EXPORT_LAYOUTS",
+    "StoredTable",
     "TableData",
     "TableSpec",
     "bench_workloads",
     "build_table",
+    "export_lines",
+    "export_parquet",
     "export_table",
     "list_tables",
     "load_table",
+    "log10_approx",
+    "open_table",
     "parse_range",
     "row_values",
+    "value_approx",
+    "wide_rows",
 ]
 
 mpz = gmpy2.mpz
@@ -67,8 +77,10 @@ mpz = gmpy2.mpz
 QUANTITIES = ("configurations", "microstates", "profiles")
 #: Largest number of cells in one table.
 MAX_CELLS = 5_000_000
-#: Export formats of :func:`export_table`.
-EXPORT_FORMATS = ("csv", "json", "markdown", "latex")
+#: Export formats: the text ones of :func:`export_lines`, and Parquet (:func:`export_parquet`).
+EXPORT_FORMATS = ("csv", "json", "markdown", "latex", "parquet")
+#: Export layouts: one line per cell, or the ``n x r`` matrix.
+EXPORT_LAYOUTS = ("long", "wide")
 
 _RANGE = re.compile(r"\s*(\d+)\s*(?:\.\.\s*(\d+)\s*)?")
 
@@ -156,15 +168,39 @@ class TableSpec:
             name += f"-cap{self.capacity}"
         return name
 
-    def describe(self) -> str:
-        """One line for people."""
-        bounds = f"at least {self.minimum}" if self.minimum else ""
+    @property
+    def bounds_after_urns(self) -> str:
+        """The bounds text after ``r`` (``"*0:"``, ``"*1:4"``): :meth:`bounds_text` is ``str(r)`` plus it."""
+        return self.bounds_text(0)[1:]
+
+    def what(self) -> str:
+        """What the cells count, true for every table: ``"MB microstates"``, ``"FD configurations"``, ``"profiles ..."``.
+
+        Profiles (occupancy patterns with the urns unlabelled) do not depend
+        on the rule, only on the bounds, so no rule is named for them.
+        """
+        if self.quantity == "profiles":
+            return "profiles (urns unlabelled, the same under every rule)"
+        return f"{self.rule} {self.quantity}"
+
+    def bounds_words(self) -> str:
+        """The uniform bounds in words: ``"at least 1 and at most 4 per urn"``, ``"any number per urn"``.
+
+        FD's one ball per urn is stated (``"at most 1 per urn"``), as is any
+        capacity.
+        """
+        limits = []
+        if self.minimum:
+            limits.append(f"at least {self.minimum}")
         if self.capacity is not None:
-            bounds += (", " if bounds else "") + f"at most {self.capacity}"
-        bounds = f" ({bounds} per urn)" if bounds else ""
+            limits.append(f"at most {self.capacity}")
+        return " and ".join(limits) + " per urn" if limits else "any number per urn"
+
+    def describe(self) -> str:
+        """One line for people, e.g. ``"FD configurations, at most 1 per urn, balls 0..10 x urns 1..4"``."""
         return (
-            f"{self.rule} {self.quantity}, balls {_range_text(self.balls)} x urns "
-            f"{_range_text(self.urns)}{bounds}"
+            f"{self.what()}, {self.bounds_words()}, balls {_range_text(self.balls)} x urns "
+            f"{_range_text(self.urns)}"
         )
 
     def as_row(self, name: str) -> dict:
@@ -419,48 +455,148 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     return report
 
 
+#: Keys ``(r, n, row id, digits)`` read per query at most: the memory of one
+#: page of keys, whatever the table's size.
+KEY_BATCH = 20_000
+#: Values read per query at most ...
+VALUE_BATCH = 1_000
+#: ... and their digits at most, so a batch of huge values stays small.
+VALUE_DIGITS = 4_000_000
+#: Urns named in one ``urns IN (...)`` query at most.
+URN_BATCH = 500
+#: Rows (long layout) or digits per Parquet row group, at most.
+PARQUET_ROWS = 65_536
+PARQUET_DIGITS = 16_000_000
+
+#: One stored cell as read back: ``(n, r, decimal text, digits)``.
+Cell = Tuple[int, int, str, int]
+
+
+def _clip(wanted: Optional[range], whole: range) -> range:
+    if wanted is None:
+        return whole
+    return range(max(wanted.start, whole.start), min(wanted.stop, whole.stop))
+
+
+@dataclass(frozen=True)
+class StoredTable:
+    """A table found in a store (:func:`open_table`): its name, definition and store.
+
+    Nothing is read until asked: :meth:`stored` counts cells in one query,
+    :meth:`cells` streams them in bounded batches.
+    """
+
+    name: str
+    spec: TableSpec
+    store: Store
+
+    def _fields(self) -> tuple:
+        spec = self.spec
+        return spec.quantity, spec.rule, ALGORITHM_VERSIONS[spec.quantity], spec.bounds_after_urns
+
+    def stored(self, balls: Optional[range] = None, urns: Optional[range] = None) -> int:
+        """Return how many cells of the table (or of the window *balls* x *urns*) are stored.
+
+        Notes
+        -----
+        One ``count(*)`` query (:meth:`~enumerator.store.database.Store.count_cells`).
+        """
+        balls, urns = _clip(balls, self.spec.balls), _clip(urns, self.spec.urns)
+        if not balls or not urns:
+            return 0
+        return self.store.count_cells(*self._fields(), urns, balls)
+
+    def cells(self, balls: Optional[range] = None, urns: Optional[range] = None) -> Iterator[Cell]:
+        """Yield the stored cells (of the window *balls* x *urns*) as ``(n, r, text, digits)``, by ``r`` then ``n``.
+
+        Raises
+        ------
+        StoreError
+            On a damaged cell (checksum, digit count or key disagree).
+
+        Notes
+        -----
+        Keyset pagination: each query reads at most :data:`KEY_BATCH` keys
+        of at most :data:`URN_BATCH` urns (``urns IN (...)`` on the index,
+        the ``n`` range as a WHERE term), then the values of at most
+        :data:`VALUE_BATCH` cells or :data:`VALUE_DIGITS` digits by row id.
+        Memory is one page of keys plus one batch of values, whatever the
+        table's size; cost is one indexed pass over the window's rows.
+        """
+        balls, urns = _clip(balls, self.spec.balls), _clip(urns, self.spec.urns)
+        if not balls or not urns:
+            return
+        fields = self._fields()
+        per_query = max(1, min(URN_BATCH, KEY_BATCH // len(balls)))
+        for start in range(urns.start, urns.stop, per_query):
+            chunk = range(start, min(urns.stop, start + per_query))
+            after = None
+            while True:
+                keys = self.store.cell_keys(*fields, chunk, balls, after=after, limit=KEY_BATCH)
+                yield from self._values(keys)
+                if len(keys) < KEY_BATCH:
+                    break
+                after = keys[-1][:2]
+
+    def _values(self, keys: List[Tuple[int, int, int, int]]) -> Iterator[Cell]:
+        batch: List[Tuple[int, int, int, int]] = []
+        digits = 0
+        for key in keys:
+            if batch and (len(batch) >= VALUE_BATCH or digits + key[3] > VALUE_DIGITS):
+                yield from self._checked(batch)
+                batch, digits = [], 0
+            batch.append(key)
+            digits += key[3]
+        if batch:
+            yield from self._checked(batch)
+
+    def _checked(self, batch: List[Tuple[int, int, int, int]]) -> Iterator[Cell]:
+        quantity, rule, version, _ = self._fields()
+        values = self.store.cell_values([key[2] for key in batch])
+        for r, n, row_id, _ in batch:
+            row = values.get(row_id)
+            if row is None:
+                continue  # removed since the keys were read (cache clear by another process)
+            kind, text, digits, checksum, digest = row
+            if (kind != "int" or not row_intact(digest, kind, text, digits, checksum)
+                    or digest != key_digest(quantity, Key(rule, n, self.spec.bounds_text(r), r), "", version)):
+                raise StoreError(
+                    f"the store {self.store.name} holds a damaged cell (n={n}, r={r}) of this table; "
+                    "run 'enumerator cache verify --fix' or rebuild after 'enumerator cache clear'"
+                )
+            yield n, r, text, digits
+
+
 @dataclass
 class TableData:
-    """A table read back: its definition and every stored cell as exact text."""
+    """A table read back: its definition and the stored cells read (all, or a window) as exact text."""
 
     name: str
     spec: TableSpec
     #: ``(n, r) -> (decimal text, digits)``
     cells: Dict[Tuple[int, int], Tuple[str, int]] = field(default_factory=dict)
+    #: Cells of the whole table stored (None: all of them were read into *cells*).
+    stored: Optional[int] = None
 
     @property
     def missing(self) -> int:
-        """Cells of the grid not stored yet."""
-        return self.spec.cells - len(self.cells)
+        """Cells of the whole grid not stored yet."""
+        return self.spec.cells - (len(self.cells) if self.stored is None else self.stored)
 
     def value(self, balls: int, urns: int) -> int:
         """The exact value of one cell."""
         return text_int(self.cells[(balls, urns)][0])
 
 
-def _stored_cells(target: Store, spec: TableSpec, urns: Iterable[int]) -> Dict[Tuple[int, int], Tuple[str, int]]:
-    version = ALGORITHM_VERSIONS[spec.quantity]
-    cells = {}
-    wanted = set(spec.balls)
-    for r in urns:
-        bounds = spec.bounds_text(r)
-        for n, (kind, text, digits, checksum, digest) in target.stored_balls(
-            spec.quantity, spec.rule, bounds, r, version
-        ).items():
-            if n not in wanted:
-                continue
-            if (kind != "int" or not row_intact(digest, kind, text, digits, checksum)
-                    or digest != key_digest(spec.quantity, Key(spec.rule, n, bounds, r), "", version)):
-                raise StoreError(
-                    f"the store {target.name} holds a damaged cell (n={n}, r={r}) of this table; "
-                    "run 'enumerator cache verify --fix' or rebuild after 'enumerator cache clear'"
-                )
-            cells[(n, r)] = (text, digits)
-    return cells
+def open_table(name: str, store=None) -> StoredTable:
+    """Find the table *name* in the store (nothing else is read).
 
-
-def load_table(name: str, store=None) -> TableData:
-    """Read the table *name* and its stored cells (checksums checked)."""
+    Raises
+    ------
+    InvalidParameters
+        When the store has no table of that name (the message lists the
+        known ones, or says there are none).
+    """
     target = _need_store(store)
     row = target.table(name)
     if row is None:
@@ -470,80 +606,361 @@ def load_table(name: str, store=None) -> TableData:
             f"no table named {name!r} in {target.name}{hint}; see 'enumerator table list' "
             "or build one with 'enumerator table build'"
         )
-    spec = TableSpec.from_row(row)
-    return TableData(name=name, spec=spec, cells=_stored_cells(target, spec, spec.urns))
+    return StoredTable(name, TableSpec.from_row(row), target)
+
+
+def load_table(name: str, store=None, *, balls: Optional[range] = None,
+               urns: Optional[range] = None) -> TableData:
+    """Read the table *name*: every stored cell, or only the window *balls* x *urns* (checksums checked).
+
+    With a window, only its cells are read (WHERE terms on ``n`` and ``r``)
+    and :attr:`TableData.stored` counts the whole table's stored cells in
+    one more query.  Memory: the cells read.
+    """
+    table = open_table(name, store)
+    window = balls is not None or urns is not None
+    cells = {(n, r): (text, digits) for n, r, text, digits in table.cells(balls, urns)}
+    return TableData(name=name, spec=table.spec, cells=cells, stored=table.stored() if window else None)
 
 
 def list_tables(store=None) -> List[Tuple[str, TableSpec, int]]:
-    """Every table as ``(name, spec, cells stored)``."""
+    """Every table as ``(name, spec, cells stored)``: one query for the definitions, one count per table."""
     target = _need_store(store)
     out = []
     for row in target.tables():
-        spec = TableSpec.from_row(row)
-        out.append((row["name"], spec, len(_stored_cells(target, spec, spec.urns))))
+        table = StoredTable(row["name"], TableSpec.from_row(row), target)
+        out.append((table.name, table.spec, table.stored()))
     return out
 
+
+# ---------------------------------------------------------------------------
+# export: long (one line per cell) or wide (n x r matrix), streamed
+# ---------------------------------------------------------------------------
 
 def _latex_number(text: str) -> str:
     # \seqsplit lets a long digit string break across lines inside a p{} column
     return text if len(text) <= 30 else f"\\seqsplit{{{text}}}"
 
 
-def export_table(data: TableData, fmt: str = "csv") -> str:
-    """Render a table's stored cells in *fmt* (``csv``, ``json``, ``markdown``, ``latex``).
+def _source(table: Union[StoredTable, TableData]) -> Tuple[str, TableSpec, int, Callable[[], Iterator[Cell]]]:
+    """``(name, spec, missing, cells)`` of a stored table (streamed) or of cells already read."""
+    if isinstance(table, StoredTable):
+        return table.name, table.spec, table.spec.cells - table.stored(), table.cells
+    order = sorted(table.cells, key=lambda cell: (cell[1], cell[0]))
 
-    One line per cell in the order of ``r`` then ``n``, with the exact value
-    in full and its number of digits (the column that makes huge values
-    readable at a glance).  JSON follows the project's encoding: every exact
-    integer is a string of decimal digits.
-    """
-    fmt = str(fmt).lower()
+    def cells() -> Iterator[Cell]:
+        for n, r in order:
+            text, digits = table.cells[(n, r)]
+            yield n, r, text, digits
+
+    return table.name, table.spec, table.missing, cells
+
+
+def _check_format(fmt: str, layout: str) -> Tuple[str, str]:
+    fmt, layout = str(fmt).lower(), str(layout).lower()
     if fmt not in EXPORT_FORMATS:
         raise InvalidParameters(f"format must be one of {', '.join(EXPORT_FORMATS)} (got {fmt!r})")
-    spec = data.spec
-    order = sorted(data.cells, key=lambda cell: (cell[1], cell[0]))
-    if fmt == "json":
-        import json
+    if layout not in EXPORT_LAYOUTS:
+        raise InvalidParameters(f"layout must be one of {', '.join(EXPORT_LAYOUTS)} (got {layout!r})")
+    return fmt, layout
 
-        payload = {
-            "name": data.name,
-            "rule": spec.rule,
-            "quantity": spec.quantity,
-            "minimum": str(spec.minimum),
-            "capacity": None if spec.capacity is None else str(spec.capacity),
-            "balls": {"first": str(spec.balls.start), "last": str(spec.balls.stop - 1)},
-            "urns": {"first": str(spec.urns.start), "last": str(spec.urns.stop - 1)},
-            "missing": str(data.missing),
-            "cells": [
-                {"balls": str(n), "urns": str(r), "value": data.cells[(n, r)][0],
-                 "digits": str(data.cells[(n, r)][1])}
-                for n, r in order
-            ],
-        }
-        return json.dumps(payload, ensure_ascii=False) + "\n"
+
+def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
+                 layout: str = "long") -> Iterator[str]:
+    """Yield a table's stored cells as text in *fmt* (``csv``, ``json``, ``markdown``, ``latex``).
+
+    Parameters
+    ----------
+    table : StoredTable or TableData
+        A table in a store (:func:`open_table`: the cells are streamed) or
+        cells already read (:func:`load_table`).
+    fmt : str
+        ``csv``, ``json``, ``markdown`` or ``latex`` (``parquet`` is
+        binary: :func:`export_parquet`).
+    layout : str
+        ``long``: one line per cell in the order of ``r`` then ``n``, with
+        the exact value in full and its number of digits (the column that
+        makes huge values readable at a glance); ``wide``: the ``n x r``
+        matrix, one line per ``n`` and one column per ``r`` (a cell not
+        stored is empty, or ``null`` in JSON).
+
+    Yields
+    ------
+    str
+        Pieces of the text, each ending a line except inside the JSON
+        document (one line, like ``json.dumps``).  JSON follows the
+        project's encoding: every exact integer is a string of decimal
+        digits.
+
+    Raises
+    ------
+    InvalidParameters
+        For another *fmt* or *layout* (before anything is read).
+    StoreError
+        On a damaged cell.
+
+    Notes
+    -----
+    Long: memory of one batch of cells (:meth:`StoredTable.cells`).  Wide:
+    the cells are streamed once into a temporary file and each row is read
+    back by offset (two 8-byte numbers per cell in memory, one row of values
+    at a time).  Cost: one count query plus one pass over the cells.
+    """
+    fmt, layout = _check_format(fmt, layout)
+    if fmt == "parquet":
+        raise InvalidParameters("parquet is a binary format: write it with export_parquet (--output FILE)")
+    name, spec, missing, cells = _source(table)
+    if layout == "wide":
+        yield from _wide_lines(name, spec, missing, cells, fmt)
+        return
+    if fmt == "json":
+        head = json.dumps(_json_head(name, spec, missing))
+        yield head[:-1] + ', "cells": ['
+        first = True
+        for n, r, text, digits in cells():
+            cell = json.dumps({"balls": str(n), "urns": str(r), "value": text, "digits": str(digits)})
+            yield cell if first else ", " + cell
+            first = False
+        yield "]}\n"
+        return
     if fmt == "csv":
-        lines = ["balls,urns,value,digits"]
-        lines.extend(f"{n},{r},{data.cells[(n, r)][0]},{data.cells[(n, r)][1]}" for n, r in order)
-        return "\n".join(lines) + "\n"
-    title = f"{data.name}: {spec.describe()}"
+        yield "balls,urns,value,digits\n"
+        for n, r, text, digits in cells():
+            yield f"{n},{r},{text},{digits}\n"
+        return
+    title = f"{name}: {spec.describe()}"
     if fmt == "markdown":
-        lines = [f"**{title}**", "", "| n | r | value | digits |", "| ---: | ---: | ---: | ---: |"]
-        lines.extend(f"| {n} | {r} | {data.cells[(n, r)][0]} | {data.cells[(n, r)][1]} |" for n, r in order)
-        return "\n".join(lines) + "\n"
-    # latex
-    lines = [
-        "% needs \\usepackage{longtable} and \\usepackage{seqsplit}",
-        "\\begin{longtable}{rrp{0.6\\linewidth}r}",
-        f"\\caption{{{_latex_escape(title)}}}\\\\",
-        "$n$ & $r$ & value & digits \\\\ \\hline",
-        "\\endhead",
-    ]
-    lines.extend(
-        f"{n} & {r} & {_latex_number(data.cells[(n, r)][0])} & {data.cells[(n, r)][1]} \\\\"
-        for n, r in order
+        yield f"**{title}**\n\n| n | r | value | digits |\n| ---: | ---: | ---: | ---: |\n"
+        for n, r, text, digits in cells():
+            yield f"| {n} | {r} | {text} | {digits} |\n"
+        return
+    yield (
+        "% needs \\usepackage{longtable} and \\usepackage{seqsplit}\n"
+        "\\begin{longtable}{rrp{0.6\\linewidth}r}\n"
+        f"\\caption{{{_latex_escape(title)}}}\\\\\n"
+        "$n$ & $r$ & value & digits \\\\ \\hline\n"
+        "\\endhead\n"
     )
-    lines.append("\\end{longtable}")
-    return "\n".join(lines) + "\n"
+    for n, r, text, digits in cells():
+        yield f"{n} & {r} & {_latex_number(text)} & {digits} \\\\\n"
+    yield "\\end{longtable}\n"
+
+
+def _json_head(name: str, spec: TableSpec, missing: int) -> dict:
+    return {
+        "name": name,
+        "rule": spec.rule,
+        "quantity": spec.quantity,
+        "minimum": str(spec.minimum),
+        "capacity": None if spec.capacity is None else str(spec.capacity),
+        "balls": {"first": str(spec.balls.start), "last": str(spec.balls.stop - 1)},
+        "urns": {"first": str(spec.urns.start), "last": str(spec.urns.stop - 1)},
+        "missing": str(missing),
+    }
+
+
+def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, List[Optional[str]]]]:
+    """Turn cells in any order into the rows ``(n, [value text or None for each r])`` of the matrix.
+
+    Notes
+    -----
+    One pass over *cells* writes each value to an unnamed temporary file
+    and records its offset and length (NumPy arrays of ``2 x 8`` bytes per
+    cell of the grid); each row is then read back by offset.  Memory: the
+    two arrays plus one row of values; disk: the values' digits.
+    """
+    import numpy as np
+
+    first_n, first_r, width = spec.balls.start, spec.urns.start, len(spec.urns)
+    offsets = np.full(spec.cells, -1, dtype=np.int64)
+    lengths = np.zeros(spec.cells, dtype=np.int64)
+    with tempfile.TemporaryFile() as spill:
+        position = 0
+        for n, r, text, _ in cells:
+            data = text.encode("ascii")
+            spill.write(data)
+            at = (n - first_n) * width + (r - first_r)
+            offsets[at], lengths[at] = position, len(data)
+            position += len(data)
+        spill.flush()
+        for row, n in enumerate(spec.balls):
+            base = row * width
+            values: List[Optional[str]] = []
+            for at in range(base, base + width):
+                where = int(offsets[at])
+                if where < 0:
+                    values.append(None)
+                    continue
+                spill.seek(where)
+                values.append(spill.read(int(lengths[at])).decode("ascii"))
+            yield n, values
+
+
+def _wide_lines(name: str, spec: TableSpec, missing: int, cells: Callable[[], Iterator[Cell]],
+                fmt: str) -> Iterator[str]:
+    columns = [str(r) for r in spec.urns]
+    rows = wide_rows(spec, cells())
+    if fmt == "json":
+        head = dict(_json_head(name, spec, missing), layout="wide", columns=columns)
+        text = json.dumps(head)
+        yield text[:-1] + ', "rows": ['
+        for i, (n, values) in enumerate(rows):
+            row = json.dumps({"balls": str(n), "values": values})
+            yield row if i == 0 else ", " + row
+        yield "]}\n"
+        return
+    if fmt == "csv":
+        yield "balls," + ",".join(f"urns={r}" for r in columns) + "\n"
+        for n, values in rows:
+            yield f"{n}," + ",".join("" if v is None else v for v in values) + "\n"
+        return
+    title = f"{name}: {spec.describe()}"
+    if fmt == "markdown":
+        yield (f"**{title}** (rows n, columns r)\n\n| n \\ r | " + " | ".join(columns) + " |\n"
+               + "| ---: " * (len(columns) + 1) + "|\n")
+        for n, values in rows:
+            yield f"| {n} | " + " | ".join("" if v is None else v for v in values) + " |\n"
+        return
+    yield (
+        "% needs \\usepackage{longtable} and \\usepackage{seqsplit}\n"
+        f"\\begin{{longtable}}{{r{'r' * len(columns)}}}\n"
+        f"\\caption{{{_latex_escape(title)}}}\\\\\n"
+        "$n \\backslash r$ & " + " & ".join(columns) + " \\\\ \\hline\n"
+        "\\endhead\n"
+    )
+    for n, values in rows:
+        yield f"{n} & " + " & ".join("" if v is None else _latex_number(v) for v in values) + " \\\\\n"
+    yield "\\end{longtable}\n"
+
+
+def export_table(data: Union[StoredTable, TableData], fmt: str = "csv", layout: str = "long") -> str:
+    """Return :func:`export_lines` joined into one text (small tables; stream large ones)."""
+    return "".join(export_lines(data, fmt, layout))
+
+
+def value_approx(text: str) -> float:
+    """The nearest double of a decimal text (``inf`` beyond the double range, about ``1.8e308``)."""
+    return math.inf if len(text) > 309 else float(text)
+
+
+def log10_approx(text: str) -> float:
+    """``log10`` of a non-negative decimal text to double precision (``-inf`` for 0), from its first 17 digits."""
+    head = text[:17]
+    if int(head) == 0:
+        return -math.inf
+    return (len(text) - len(head)) + math.log10(int(head))
+
+
+def _pyarrow():
+    try:
+        import pyarrow
+        import pyarrow.parquet
+    except ImportError:
+        raise Unsupported(
+            "Parquet export needs the pyarrow package, which is not installed here; install it "
+            "(pip install pyarrow, or pip install 'enumerator[parquet]') or export as csv or json"
+        ) from None
+    return pyarrow, pyarrow.parquet
+
+
+def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "long") -> int:
+    """Write a table's stored cells to the Parquet file *path*; return the rows written.
+
+    Parameters
+    ----------
+    table : StoredTable or TableData
+        As :func:`export_lines`.
+    path : str or os.PathLike
+        The file to write (replaced).
+    layout : str
+        ``long``: columns ``balls``, ``urns``, ``value`` (exact decimal
+        text), ``digits``, ``value_approx`` (the nearest double, ``inf``
+        past ``1.8e308``) and ``log10_approx``; ``wide``: ``balls``, then
+        for each ``r`` the exact text ``urns=r`` and the double
+        ``urns=r_approx`` (null where a cell is not stored).  ``balls`` and
+        ``urns`` are 64-bit integers, or decimal text when the table's
+        ranges pass ``2**63``.
+
+    Raises
+    ------
+    Unsupported
+        When pyarrow is not installed (the message names it).
+    InvalidParameters
+        For another *layout*.
+    StoreError
+        On a damaged cell.
+
+    Notes
+    -----
+    Written in row groups of at most :data:`PARQUET_ROWS` rows or
+    :data:`PARQUET_DIGITS` digits, so memory stays that of one group.
+    Cost: one pass over the cells (the wide layout spills them once to a
+    temporary file, see :func:`wide_rows`).
+    """
+    _, layout = _check_format("parquet", layout)
+    pa, pq = _pyarrow()
+    name, spec, _, cells = _source(table)
+    big = max(spec.balls.stop, spec.urns.stop) > 2**63
+    number = pa.string() if big else pa.int64()
+
+    def numbers(values):
+        return [str(v) for v in values] if big else values
+
+    written = 0
+    if layout == "long":
+        schema = pa.schema([("balls", number), ("urns", number), ("value", pa.string()), ("digits", pa.int64()),
+                            ("value_approx", pa.float64()), ("log10_approx", pa.float64())])
+        with pq.ParquetWriter(str(path), schema) as writer:
+            group: List[Cell] = []
+            digits = 0
+
+            def flush():
+                columns = list(zip(*group))
+                writer.write_batch(pa.record_batch([
+                    pa.array(numbers(columns[0]), number), pa.array(numbers(columns[1]), number),
+                    pa.array(columns[2], pa.string()), pa.array(columns[3], pa.int64()),
+                    pa.array([value_approx(t) for t in columns[2]], pa.float64()),
+                    pa.array([log10_approx(t) for t in columns[2]], pa.float64()),
+                ], schema=schema))
+
+            for cell in cells():
+                group.append(cell)
+                digits += cell[3]
+                if len(group) >= PARQUET_ROWS or digits >= PARQUET_DIGITS:
+                    flush()
+                    written += len(group)
+                    group, digits = [], 0
+            if group:
+                flush()
+                written += len(group)
+        return written
+    fields = [("balls", number)]
+    for r in spec.urns:
+        fields += [(f"urns={r}", pa.string()), (f"urns={r}_approx", pa.float64())]
+    schema = pa.schema(fields)
+    with pq.ParquetWriter(str(path), schema) as writer:
+        group_rows: List[Tuple[int, List[Optional[str]]]] = []
+        digits = 0
+
+        def flush_wide():
+            arrays = [pa.array(numbers([n for n, _ in group_rows]), number)]
+            for j in range(len(spec.urns)):
+                column = [values[j] for _, values in group_rows]
+                arrays.append(pa.array(column, pa.string()))
+                arrays.append(pa.array([None if v is None else value_approx(v) for v in column], pa.float64()))
+            writer.write_batch(pa.record_batch(arrays, schema=schema))
+
+        for n, values in wide_rows(spec, cells()):
+            group_rows.append((n, values))
+            digits += sum(len(v) for v in values if v is not None) + len(values)
+            if len(group_rows) >= PARQUET_ROWS or digits >= PARQUET_DIGITS:
+                flush_wide()
+                written += len(group_rows)
+                group_rows, digits = [], 0
+        if group_rows:
+            flush_wide()
+            written += len(group_rows)
+    return written
 
 
 def _latex_escape(text: str) -> str:
