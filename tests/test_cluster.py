@@ -199,3 +199,157 @@ def test_table_build_command_on_two_workers_equals_the_single_process_build(tmp_
     cells = [cell for cell in b.values() if isinstance(cell, list)][0]
     assert cells and all(int(c["value"]) == comb(int(c["balls"]) + int(c["urns"]) - 1, int(c["urns"]) - 1)
                          for c in cells)
+
+
+# ---------------------------------------------------------------------------
+# what the planner answers by listing, on the cluster (prob --event, dist)
+# ---------------------------------------------------------------------------
+
+from collections import Counter  # noqa: E402
+from fractions import Fraction  # noqa: E402
+from itertools import combinations_with_replacement, product  # noqa: E402
+
+from enumerator.algorithms import events as event_module  # noqa: E402
+from enumerator.algorithms import laws  # noqa: E402
+from enumerator.algorithms.statistics import distribution  # noqa: E402
+from enumerator.core.errors import TooLarge  # noqa: E402
+from enumerator.store.cluster import (  # noqa: E402
+    distribution_distributed,
+    distribution_needs_listing,
+    event_needs_listing,
+)
+
+#: An event mixing two counting statistics: the planner has no shortcut and lists.
+MIXED = "empty == 2 and count(== 1) == 1"
+
+
+def _occupancy(urns_of_balls, r):
+    counts = Counter(urns_of_balls)
+    return tuple(counts.get(i, 0) for i in range(r))
+
+
+def _brute_mb(n, r, weights=None):
+    """{occupancy: probability} by brute force over the r^n assignments of labelled balls."""
+    w = weights or [1] * r
+    total = sum(w)
+    law = {}
+    for urns in product(range(r), repeat=n):
+        p = Fraction(math.prod(w[u] for u in urns), total ** n)
+        k = _occupancy(urns, r)
+        law[k] = law.get(k, 0) + p
+    return law
+
+
+def _brute_be(n, r):
+    """{occupancy: probability} by brute force over the multisets of urns (BE: every vector equally likely)."""
+    vectors = [_occupancy(c, r) for c in combinations_with_replacement(range(r), n)]
+    return {k: Fraction(1, len(vectors)) for k in vectors}
+
+
+def _mixed_holds(k):
+    return sum(1 for v in k if v == 0) == 2 and sum(1 for v in k if v == 1) == 1
+
+
+@pytest.mark.parametrize("rule, weights", [("MB", None), ("BE", None), ("MB", "1,2,3,1,2")])
+def test_listed_event_on_cluster_equals_single_process_and_brute_force(client, rule, weights):
+    # references: the single-process listing (event_count) and brute force over
+    # every assignment (MB: r^n labelled balls, weighted by prod w_u / W^n) or vector (BE)
+    model = UrnModel(balls=7, urns=5, rule=rule, weights=weights)
+    assert event_needs_listing(model, MIXED)
+    count, total = event_count_distributed(model, MIXED, client=client, shards=6, block=97)
+    single = event_count(model, MIXED)
+    assert (count, total) == single
+    law = _brute_mb(7, 5, [int(x) for x in weights.split(",")] if weights else None) if rule == "MB" \
+        else _brute_be(7, 5)
+    assert Fraction(count, total) == sum(p for k, p in law.items() if _mixed_holds(k))
+
+
+def test_closed_events_need_no_listing():
+    # the planner's documented shortcuts: per-urn bounds, one statistic's law (events module docstring)
+    model = UrnModel(balls=7, urns=5, rule="MB")
+    for event in ("max <= 2", "empty >= 1 and max == 3", "k1 >= 2 or min >= 1", "empty == 2"):
+        assert not event_needs_listing(model, event), event
+    assert event_needs_listing(model, MIXED)
+
+
+def test_listing_refused_above_limit_before_any_work(client):
+    model = UrnModel(balls=7, urns=5, rule="MB")  # C(11, 4) = 330 configurations
+    with pytest.raises(TooLarge):
+        event_count_distributed(model, MIXED, client=client, limit=329)
+    assert event_count_distributed(model, MIXED, client=client, limit=330) == event_count(model, MIXED)
+
+
+def test_weighted_profile_law_on_cluster_equals_single_process_and_brute_force(client):
+    # references: the single-process law (laws.profile_counts lists a weighted model)
+    # and brute force over the 4^6 weighted assignments
+    model = UrnModel(balls=6, urns=4, rule="MB", weights="1,2,2,5")
+    assert distribution_needs_listing(model, "profile")
+    law = distribution_distributed(model, "profile", client=client, shards=5, block=11)
+    assert law == distribution(model, "profile")
+    brute = {}
+    for k, p in _brute_mb(6, 4, [1, 2, 2, 5]).items():
+        key = tuple(sorted(k, reverse=True))
+        brute[key] = brute.get(key, 0) + p
+    assert law.pmf == dict(sorted(brute.items()))
+
+
+def test_route_probe_agrees_with_the_routes_taken(monkeypatch, client):
+    # the probe must name exactly the laws that laws.enumerated_counts computes; a small
+    # GROUP_TUPLE_LIMIT makes per-urn bounds list at a size a test can run
+    monkeypatch.setattr(laws, "GROUP_TUPLE_LIMIT", 8)
+    listed = []
+    real = laws.enumerated_counts
+    monkeypatch.setattr(laws, "enumerated_counts", lambda *a, **k: listed.append(1) or real(*a, **k))
+    models = [
+        UrnModel(balls=6, bounds="0:1,0:2,0:3,0:4", rule="BE"),
+        UrnModel(balls=6, bounds="0:1,0:2,0:3,0:4", rule="MB"),
+        UrnModel(balls=5, bounds="1:2,0:2,0:3", rule="MB"),
+        UrnModel(balls=6, urns=4, rule="MB", capacity=3),
+        UrnModel(balls=3, urns=4, rule="FD"),
+        UrnModel(balls=6, urns=4, rule="BE"),
+        UrnModel(balls=6, urns=3, rule="MB", weights="1,2,3"),
+    ]
+    seen = set()
+    for model in models:
+        for stat in ("empty", "occupied", "exactly:1", "atleast:2", "max", "urn:2", "profile"):
+            listed.clear()
+            single = distribution(model, stat)
+            assert distribution_needs_listing(model, stat) == bool(listed), (model, stat)
+            seen.add(bool(listed))
+            if listed:
+                assert distribution_distributed(model, stat, client=client, shards=3) == single
+    assert seen == {True, False}
+
+
+def test_listed_events_probe_agrees_with_the_planner(monkeypatch):
+    # the event probe must name exactly the events event_count decides by listing
+    listed = []
+    real = event_module._enumerate
+    monkeypatch.setattr(event_module, "_enumerate", lambda *a, **k: listed.append(1) or real(*a, **k))
+    model = UrnModel(balls=6, urns=4, rule="BE", capacity=4)
+    for event in (MIXED, "max <= 2", "empty == 1 or k2 == 3", "count(== 2) == 1 and occupied == 3",
+                  "not (min >= 1) and k1 != 2", "count(>= 2) == 2 and count(== 0) == 1"):
+        listed.clear()
+        event_count(model, event)
+        assert event_needs_listing(model, event) == bool(listed), event
+
+
+def test_prob_and_dist_commands_on_the_cluster(client):
+    # reference: the same commands without the cluster (single process)
+    from cli_helpers import run, run_json
+
+    address = client.scheduler.address
+    base = ("prob", "-n", "7", "-r", "5", "--event", MIXED, "--no-cache")
+    one, many = run_json(*base), run_json(*base, "--cluster", address)
+    assert many.pop("note").startswith("listed all 330 configurations")
+    assert one == many
+    closed = run(*base[:5], "--event", "max <= 2", "--no-cache", "--cluster", address)
+    assert closed.exit_code == 0 and closed.stderr.count("\n") == 1 and "no cluster" in closed.stderr
+    law = ("dist", "-n", "6", "--weights", "1,2,2,5", "--stat", "profile", "--no-cache")
+    one, many = run_json(*law), run_json(*law, "--cluster", address)
+    assert many.pop("note").startswith("listed all 84 configurations")
+    assert one == many
+    plain = run_json("dist", "-n", "6", "-r", "4", "--stat", "max", "--no-cache", "--cluster", address)
+    assert "no cluster" in plain["note"]
+    both = run(*base, "--cluster", address, "--workers", "2")
+    assert both.exit_code == 2 and "--workers" in both.stderr and "Traceback" not in both.output

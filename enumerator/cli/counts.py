@@ -1,5 +1,6 @@
 """``count``, ``prob``, ``dist`` and ``list``: counts, probabilities, laws and listings of one model."""
 
+from contextlib import contextmanager
 from typing import Annotated, Optional
 
 import typer
@@ -9,6 +10,7 @@ from .options import (
     Balls,
     Bounds,
     Capacity,
+    ClusterAddress,
     EventLimit,
     Json,
     ListFormat,
@@ -20,6 +22,7 @@ from .options import (
     Store,
     Urns,
     Weights,
+    Workers,
     build_model,
     limits_scope,
     parse_config,
@@ -116,6 +119,8 @@ def prob_command(
     bounds: Bounds = None,
     weights: Weights = None,
     limit: EventLimit = None,
+    workers: Workers = None,
+    cluster: ClusterAddress = None,
     store: Store = None,
     no_cache: NoCache = False,
     max_memory: MaxMemory = None,
@@ -135,6 +140,13 @@ def prob_command(
     BE/FD vectors are weighted by prod(w_i^k_i).  Event probabilities are
     remembered in the result store under the event's canonical text.
 
+    --workers K / --cluster ADDRESS: an event with no exact shortcut (one
+    mixing counting statistics, say) is decided by listing every
+    configuration; that listing then runs on a Dask cluster in equal rank
+    shards, and the exact per-shard sums are added (the same answer as one
+    process; --limit still applies).  An event the planner counts without
+    listing is answered here, and a note on stderr (JSON: "note") says so.
+
     Example:
 
         $ enumerator prob -n 3 -r 3 --config 2,0,1
@@ -143,6 +155,7 @@ def prob_command(
         $ enumerator prob -n 10 -r 6 --event "empty >= 2 or k1 == 0" --json
         $ enumerator prob -n 23 --weights "365x4,1" --event "max <= 1"
         $ enumerator prob -n 100000 -r 2^64 --event "max <= 1"
+        $ enumerator prob -n 12 -r 9 --event "empty == 3 and count(== 1) == 2" --workers 2
     """
     from ..core.errors import InvalidParameters
 
@@ -156,7 +169,12 @@ def prob_command(
         # event's canonical text, and a configuration's normaliser is the
         # remembered microstates (where the law needs one).
         model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
-        if event is not None:
+        on_cluster = _cluster_requested(workers, cluster)
+        note = None
+        if event is not None and on_cluster:
+            probability, note = _event_on_cluster(model, event, _limit(limit), workers, cluster)
+            field, text, title = "event", event, f"{describe(model)}; event {event}"
+        elif event is not None:
             probability = model.event_probability(event, limit=_limit(limit))
             field, text, title = "event", event, f"{describe(model)}; event {event}"
         else:
@@ -164,17 +182,22 @@ def prob_command(
             probability = model.probability(vector)
             text = ",".join(map(str, vector))
             field, title = "config", f"{describe(model)}; configuration ({text})"
+            if on_cluster:
+                note = _NO_CLUSTER.format(what="the probability of one vector")
+    if note is not None:
+        _say(note)
     if as_json:
-        emit_json(
-            {
-                "rule": model.rule.value,
-                "balls": exact(model.balls),
-                "urns": exact(model.urns),
-                field: text,
-                "probability": exact(probability),
-                "approx": approx(probability),
-            }
-        )
+        payload = {
+            "rule": model.rule.value,
+            "balls": exact(model.balls),
+            "urns": exact(model.urns),
+            field: text,
+            "probability": exact(probability),
+            "approx": approx(probability),
+        }
+        if note is not None:
+            payload["note"] = note
+        emit_json(payload)
         return
     show_table(
         title,
@@ -207,6 +230,93 @@ def _limit(limit: Optional[int]) -> int:
     from ..algorithms.statistics import DEFAULT_LIMIT
 
     return DEFAULT_LIMIT if limit is None else as_count(limit, "--limit", 1)
+
+
+#: The note of --workers/--cluster when the answer needed no listing.
+_NO_CLUSTER = "{what} needed no listing, so no cluster: it was computed in this process"
+
+
+def _cluster_requested(workers: Optional[int], cluster: Optional[str]) -> bool:
+    """Whether ``--workers`` or ``--cluster`` was given (not both).
+
+    Raises
+    ------
+    InvalidParameters
+        Both were given.
+    """
+    from ..core.errors import InvalidParameters
+
+    if workers is not None and cluster is not None:
+        raise InvalidParameters("give workers= or cluster=, not both", parameters=["workers", "cluster"])
+    return workers is not None or cluster is not None
+
+
+def _say(note: str) -> None:
+    """One line on stderr: ``Note: ...``."""
+    import sys
+
+    sys.stderr.write(f"Note: {note}.\n")
+
+
+@contextmanager
+def _shard_progress(label: str):
+    """A progress bar on stderr (only on a terminal) fed as ``progress(ranks done, ranks in all)``."""
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    err = Console(stderr=True)
+    bar = Progress(TextColumn(label), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                   console=err, disable=not err.is_terminal, transient=True)
+    task = bar.add_task(label, total=None)
+
+    def advance(done: int, total: int) -> None:
+        bar.update(task, completed=done, total=total)
+
+    with bar:
+        yield advance
+
+
+def _where(workers, cluster) -> str:
+    return f"{workers} local workers" if workers is not None else f"the cluster at {cluster}"
+
+
+def _event_on_cluster(model, event: str, limit: int, workers, cluster):
+    """``(probability, note)`` of ``prob --event`` with ``--workers``/``--cluster``.
+
+    Parameters
+    ----------
+    model : Occupancy
+    event : str
+    limit : int
+        ``--limit``: the most configurations listed.
+    workers, cluster
+        The options (one of them given).
+
+    Returns
+    -------
+    tuple
+        The exact probability, and the note printed beside it.
+
+    Notes
+    -----
+    The event planner is run first without its listing fallback
+    (:func:`enumerator.store.cluster.event_needs_listing`); an event it
+    counts by itself goes through the facade (and the store) as without the
+    options.  Otherwise every configuration is listed on the cluster
+    (:func:`enumerator.store.cluster.event_count_distributed`); that answer
+    is not remembered in the store.
+    """
+    from ..algorithms.counting import count_configurations, exact_fraction
+    from ..store.cluster import event_count_distributed, event_needs_listing
+
+    if not event_needs_listing(model, event, limit):
+        return model.event_probability(event, limit=limit), _NO_CLUSTER.format(what="the event")
+    with _shard_progress("listing configurations on the cluster") as advance:
+        count, total = event_count_distributed(model, event, limit=limit, workers=workers, cluster=cluster,
+                                               progress=advance)
+    listed = count_configurations(model)
+    return exact_fraction(count, total), \
+        f"listed all {listed} configurations in rank shards on {_where(workers, cluster)}"
 
 
 def _value_text(value) -> str:
@@ -254,6 +364,8 @@ def dist_command(
         ),
     ] = False,
     limit: EventLimit = None,
+    workers: Workers = None,
+    cluster: ClusterAddress = None,
     store: Store = None,
     no_cache: NoCache = False,
     max_memory: MaxMemory = None,
@@ -270,29 +382,46 @@ def dist_command(
     counting statistics (empty, occupied, exactly:J, atleast:J) the cost
     depends on n and the urn groups, never on the number of urns.
 
+    --workers K / --cluster ADDRESS: a law found by listing every
+    configuration (the profile of a weighted model; a counting statistic
+    under many differing per-urn bounds) is listed on a Dask cluster in
+    equal rank shards, the exact counts per value added over the shards
+    (the same law as one process; --limit still applies).  Any other law is
+    computed here, and a note on stderr (JSON: "note") says so.
+
     Example:
 
         $ enumerator dist -n 10 -r 4 --stat empty
         $ enumerator dist -n 2000 -r 500 --stat max --json
         $ enumerator dist -n 6 -r 3 --rule BE --stat profile
         $ enumerator dist -n 1000000 -r 4294967296 --stat occupied --moments-only --json
+        $ enumerator dist -n 9 --weights "1,2,3,4,5,6" --stat profile --workers 2
     """
     with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
         model = build_model(balls, urns, rule, capacity, minimum, bounds, weights)
+        on_cluster = _cluster_requested(workers, cluster)
         if moments_only:
+            if on_cluster:
+                _say(_NO_CLUSTER.format(what="the mean and variance"))
             _print_moments(model, stat, _limit(limit), as_json)
             return
-        law = model.distribution(stat, limit=_limit(limit))
+        note = None
+        if on_cluster:
+            law, note = _law_on_cluster(model, stat, _limit(limit), workers, cluster)
+            _say(note)
+        else:
+            law = model.distribution(stat, limit=_limit(limit))
         moment = (lambda x: None if x is None else exact(x))
         if as_json:
-            emit_json(
-                {
-                    "statistic": law.statistic,
-                    "pmf": {_value_text(v): exact(p) for v, p in law.pmf.items()},
-                    "mean": moment(law.mean),
-                    "variance": moment(law.variance),
-                }
-            )
+            payload = {
+                "statistic": law.statistic,
+                "pmf": {_value_text(v): exact(p) for v, p in law.pmf.items()},
+                "mean": moment(law.mean),
+                "variance": moment(law.variance),
+            }
+            if note is not None:
+                payload["note"] = note
+            emit_json(payload)
             return
         rows = [[_value_text(v), p, f"{approx(p):.6g}"] for v, p in law.pmf.items()]
         show_table(f"{describe(model)}; distribution of {law.statistic}",
@@ -306,6 +435,46 @@ def dist_command(
                     ["variance", law.variance, f"{approx(law.variance):.6g}"],
                 ],
             )
+
+
+def _law_on_cluster(model, stat: str, limit: int, workers, cluster):
+    """``(law, note)`` of ``dist`` with ``--workers``/``--cluster``.
+
+    Parameters
+    ----------
+    model : Occupancy
+    stat : str
+        The ``--stat`` value.
+    limit : int
+        ``--limit``: the most configurations listed.
+    workers, cluster
+        The options (one of them given).
+
+    Returns
+    -------
+    tuple
+        The :class:`~enumerator.algorithms.statistics.Distribution`, and the
+        note printed beside it.
+
+    Notes
+    -----
+    :func:`enumerator.store.cluster.distribution_needs_listing` tells from
+    the model and the statistic alone whether the exact route lists every
+    configuration; only then does the cluster list them
+    (:func:`enumerator.store.cluster.distribution_distributed`, not
+    remembered in the store).  Otherwise the law comes through the facade
+    and the store as without the options.
+    """
+    from ..algorithms.counting import count_configurations
+    from ..store.cluster import distribution_distributed, distribution_needs_listing
+
+    if not distribution_needs_listing(model, stat):
+        return model.distribution(stat, limit=limit), _NO_CLUSTER.format(what=f"the law of {stat}")
+    with _shard_progress("listing configurations on the cluster") as advance:
+        law = distribution_distributed(model, stat, limit=limit, workers=workers, cluster=cluster,
+                                       progress=advance)
+    listed = count_configurations(model)
+    return law, f"listed all {listed} configurations in rank shards on {_where(workers, cluster)}"
 
 
 def _moments(model, stat: str, limit: int):

@@ -40,7 +40,9 @@ __all__ = [
     "OUTPUT_PANEL",
     "Balls",
     "Bounds",
+    "CLUSTER_PANEL",
     "Capacity",
+    "ClusterAddress",
     "EventLimit",
     "Json",
     "LIMITS_PANEL",
@@ -53,6 +55,7 @@ __all__ = [
     "Store",
     "Urns",
     "Weights",
+    "Workers",
     "build_model",
     "build_problem",
     "count_parser",
@@ -204,6 +207,31 @@ EventLimit = Annotated[
         help="dist/prob: the most configurations (or profiles) handled one by one when no exact "
         "shortcut applies; above it the command stops with an error (default 1000000).",
         rich_help_panel=OUTPUT_PANEL,
+    ),
+]
+
+#: Help panel of the cluster options.
+CLUSTER_PANEL = "Cluster"
+Workers = Annotated[
+    Optional[int],
+    typer.Option(
+        "--workers",
+        min=1,
+        metavar="K",
+        help="Where the answer needs every configuration listed, list it on a local Dask cluster "
+        "of K processes, in equal shards of the rank range (needs the 'cluster' extra: "
+        "pip install 'enumerator[cluster]'). Where it does not, the answer is computed here and "
+        "a note says so.",
+        rich_help_panel=CLUSTER_PANEL,
+    ),
+]
+ClusterAddress = Annotated[
+    Optional[str],
+    typer.Option(
+        "--cluster",
+        metavar="ADDRESS",
+        help="As --workers, on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786.",
+        rich_help_panel=CLUSTER_PANEL,
     ),
 ]
 

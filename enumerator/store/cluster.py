@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import math
 import time
+from collections import Counter
 from contextlib import contextmanager
 from dataclasses import dataclass
 from functools import partial
@@ -38,12 +39,17 @@ from typing import Callable, Iterator, List, Optional, Sequence, Tuple
 
 import gmpy2
 
-from ..algorithms.counting import count_configurations
-from ..algorithms.event_language import evaluate, parse_event
+from ..algorithms import laws
+from ..algorithms.counting import count_configurations, exact_fraction
+from ..algorithms.event_language import comparisons, evaluate, parse_event
+from ..algorithms.events import _Enumerate, _evaluate_block, _normal_form, _Planner
 from ..algorithms.grouped import integer_groups
 from ..algorithms.laws import outcome_total
 from ..algorithms.listing import iter_blocks
-from ..core.errors import InvalidParameters
+from ..algorithms.statistics import DEFAULT_LIMIT, Distribution, Statistic, parse_statistic
+from ..core import limits
+from ..core.errors import InvalidParameters, TooLarge
+from ..core.limits import Cost
 from ..core.model import UrnModel, as_count
 from .keys import ALGORITHM_VERSIONS, Key
 from .tables import BuildReport, TableSpec, _need_store, claim_table, row_values
@@ -51,10 +57,15 @@ from .tables import BuildReport, TableSpec, _need_store, claim_table, row_values
 __all__ = [
     "EventWeight",
     "RowTask",
+    "StatisticWeights",
     "build_table_distributed",
     "cluster_client",
+    "distribution_distributed",
+    "distribution_needs_listing",
+    "enumeration_counts_distributed",
     "enumeration_sum_distributed",
     "event_count_distributed",
+    "event_needs_listing",
     "plan_row_batches",
 ]
 
@@ -362,18 +373,26 @@ def _shard_sum(model: UrnModel, value_of_block, start: int, stop: int, block: in
 
 
 def _reduce_on_cluster(task: Callable, *, start: int, stop: int, shards: Optional[int],
-                       workers, cluster, client, progress, merge: Callable = _add, zero=0):
+                       workers, cluster, client, progress, merge: Callable = _add, zero=0,
+                       before: Optional[Callable[[int], None]] = None):
     """Run *task* (``task(lo, hi) -> (lo, hi, part)``, picklable) on equal shards of ``[start, stop)``; merge the parts.
 
     Each shard's one result is merged once, in the order the shards finish.
+    *before*, if given, is called with the number of workers before any
+    shard is sent (before a local cluster is started when *workers* is
+    given), so a cost check can refuse the work first.
     """
     span = max(stop - start, 0)
     total = zero() if callable(zero) else zero
     if span == 0:
         return total
+    if before is not None and workers is not None:
+        before(as_count(workers, "workers", 1))
     with cluster_client(workers, cluster, client) as dask:
         from distributed import as_completed
 
+        if before is not None and workers is None:
+            before(_worker_count(dask))
         count = as_count(shards, "shards", 1) if shards is not None else TASKS_PER_WORKER * _worker_count(dask)
         futures = [dask.submit(task, lo, hi, pure=False) for lo, hi in _equal_shards(start, stop, min(count, span))]
         done = 0
@@ -393,7 +412,8 @@ def _reduce_on_cluster(task: Callable, *, start: int, stop: int, shards: Optiona
 def enumeration_sum_distributed(model: UrnModel, value_of_block: Callable[[object], int], *,
                                 start: int = 0, stop: Optional[int] = None, shards: Optional[int] = None,
                                 block: int = 4096, workers: Optional[int] = None, cluster=None,
-                                client=None, progress: Optional[Callable[[int, int], None]] = None) -> int:
+                                client=None, progress: Optional[Callable[[int, int], None]] = None,
+                                before: Optional[Callable[[int], None]] = None) -> int:
     """Return ``sum(value_of_block(b))`` over the listing of *model*, ranks ``[start, stop)``, on a cluster.
 
     Parameters
@@ -415,6 +435,9 @@ def enumeration_sum_distributed(model: UrnModel, value_of_block: Callable[[objec
         The cluster, as :func:`cluster_client`.
     progress : callable, optional
         Called as each shard arrives as ``progress(ranks done, ranks in all)``.
+    before : callable, optional
+        Called with the number of workers before any shard is sent (a cost
+        check that may refuse the work).
 
     Returns
     -------
@@ -436,10 +459,81 @@ def enumeration_sum_distributed(model: UrnModel, value_of_block: Callable[[objec
     start = as_count(start, "start", 0)
     return _reduce_on_cluster(partial(_shard_sum, model, value_of_block, block=block), start=start, stop=stop,
                               shards=shards, workers=workers, cluster=cluster, client=client,
-                              progress=progress)
+                              progress=progress, before=before)
 
 
-class EventWeight:
+
+
+def _merge_counts(into: dict, part: dict) -> dict:
+    for value, weight in part.items():
+        into[value] = into.get(value, 0) + weight
+    return into
+
+
+def _shard_counts(model: UrnModel, value_of_block, start: int, stop: int, block: int) -> Tuple[int, int, dict]:
+    """Worker side: ``(start, stop, {value: weight})`` merged over the blocks of ranks ``[start, stop)``."""
+    return _shard_reduce(model, value_of_block, start, stop, block, merge=_merge_counts, zero=dict)
+
+
+def enumeration_counts_distributed(model: UrnModel, value_of_block: Callable[[object], dict], *,
+                                   start: int = 0, stop: Optional[int] = None, shards: Optional[int] = None,
+                                   block: int = 4096, workers: Optional[int] = None, cluster=None,
+                                   client=None, progress: Optional[Callable[[int, int], None]] = None,
+                                   before: Optional[Callable[[int], None]] = None) -> dict:
+    """Return ``{value: total weight}`` over the listing of *model*, ranks ``[start, stop)``, on a cluster.
+
+    As :func:`enumeration_sum_distributed`, but *value_of_block* returns a
+    dict ``{value: exact int}`` for a block (such as :class:`StatisticWeights`)
+    and the dicts are added key by key: each shard merges its blocks, the
+    client merges one dict per shard.  *before* is called with the number of
+    workers before anything is sent (a cost check).
+
+    Notes
+    -----
+    Cost: the listing of the range spread over the workers, plus one
+    unranking, one round trip and one dict of at most (support size)
+    entries per shard.
+    """
+    stop = count_configurations(model) if stop is None else as_count(stop, "stop", 0)
+    start = as_count(start, "start", 0)
+    return _reduce_on_cluster(partial(_shard_counts, model, value_of_block, block=block), start=start, stop=stop,
+                              shards=shards, workers=workers, cluster=cluster, client=client,
+                              progress=progress, merge=_merge_counts, zero=dict, before=before)
+
+
+class _BlockWeights:
+    """Shared part of the picklable block functions: the rule's weight of a configuration."""
+
+    def __init__(self, model: UrnModel):
+        self.model = model
+        groups, _ = integer_groups(model)
+        self.powers = [w for c, _, _, w in groups for _ in range(c)] if model.weighted else None
+        self.fac_n = gmpy2.fac(model.balls)
+
+    def weight(self, row) -> "gmpy2.mpz":
+        """Equally likely outcomes (weight) of one configuration, scaled as :func:`outcome_total`."""
+        w = self.model.rule.weight(row, self.fac_n)
+        if self.powers is not None:
+            for p, v in zip(self.powers, row):
+                if v:
+                    w *= gmpy2.mpz(p) ** v
+        return w
+
+    def vectorised(self, block) -> bool:
+        """Whether *block* can be weighed by profile with numpy (unweighted, machine integers)."""
+        return self.powers is None and block.dtype != object
+
+    def by_profile(self, rows):
+        """``[(profile, how many rows)]`` of an int64 array: the MB weight depends on the profile only."""
+        import numpy as np
+
+        if not len(rows):
+            return []
+        profiles, times = np.unique(Statistic("profile").block_value(rows), axis=0, return_counts=True)
+        return zip(profiles.tolist(), times.tolist())
+
+
+class EventWeight(_BlockWeights):
     """The equally likely outcomes of the configurations in a block where an event holds.
 
     A picklable ``value_of_block`` for :func:`enumeration_sum_distributed`:
@@ -450,37 +544,275 @@ class EventWeight:
 
     Notes
     -----
-    Cost: one evaluation of the event and one weight per configuration
-    (Python integers).
+    Cost: unweighted models with machine-size entries are decided with
+    numpy (the event evaluated on the whole block, as the single-process
+    listing of :mod:`enumerator.algorithms.events` does) and, under MB,
+    weighed once per distinct profile among the hits; otherwise one
+    evaluation of the event and one weight per configuration (Python integers).
     """
 
     def __init__(self, model: UrnModel, event):
-        self.model = model
+        super().__init__(model)
         self.event = parse_event(event)
-        groups, _ = integer_groups(model)
-        self.powers = [w for c, _, _, w in groups for _ in range(c)] if model.weighted else None
-        self.fac_n = gmpy2.fac(model.balls)
 
     def __call__(self, block) -> int:
-        rule = self.model.rule
+        if self.vectorised(block):
+            import numpy as np
+
+            arr = block.astype(np.int64)
+            mask = _evaluate_block(self.event, arr)
+            if not self.model.rule.distinguishable:
+                return int(mask.sum())
+            return int(sum((self.weight(p) * t for p, t in self.by_profile(arr[mask])), gmpy2.mpz(0)))
         found = gmpy2.mpz(0)
         for row in block.tolist():
             if evaluate(self.event, row):
-                w = rule.weight(row, self.fac_n)
-                if self.powers is not None:
-                    for p, v in zip(self.powers, row):
-                        if v:
-                            w *= gmpy2.mpz(p) ** v
-                found += w
+                found += self.weight(row)
         return int(found)
 
 
-def event_count_distributed(model: UrnModel, event, **options) -> Tuple[int, int]:
+class StatisticWeights(_BlockWeights):
+    """The equally likely outcomes of a block's configurations by the value of a statistic.
+
+    A picklable ``value_of_block`` for :func:`enumeration_counts_distributed`:
+    ``{value: outcomes}`` over the rows of the block, values as
+    :func:`enumerator.algorithms.statistics.statistic_counts` gives them
+    (``int``, or a tuple in decreasing order for ``profile``), weights as
+    :class:`EventWeight`.
+
+    Notes
+    -----
+    Cost: unweighted models with machine-size entries: the statistic of the
+    whole block with numpy and one weight per distinct (value, profile)
+    pair; otherwise one value and one weight per configuration.
+    """
+
+    def __init__(self, model: UrnModel, statistic):
+        super().__init__(model)
+        self.statistic = parse_statistic(statistic)
+
+    def __call__(self, block) -> dict:
+        stat = self.statistic
+        out: dict = {}
+        if self.vectorised(block):
+            import numpy as np
+
+            arr = block.astype(np.int64)
+            if not len(arr):
+                return out
+            values = stat.block_value(arr)
+            keys = values if not stat.numeric else np.asarray(values).reshape(-1, 1)
+            if self.model.rule.distinguishable and stat.numeric:
+                keys = np.column_stack([keys, Statistic("profile").block_value(arr)])
+            rows, times = np.unique(keys, axis=0, return_counts=True)
+            for row, t in zip(rows.tolist(), times.tolist()):
+                value = tuple(row) if not stat.numeric else row[0]
+                profile = tuple(row) if not stat.numeric else tuple(row[1:])
+                w = self.weight(profile) * t if self.model.rule.distinguishable else t
+                out[value] = out.get(value, 0) + int(w)
+            return out
+        for row in block.tolist():
+            value = stat.value(row)
+            out[value] = out.get(value, 0) + int(self.weight(row))
+        return out
+
+
+def _listing_check(model: UrnModel, what: str, limit: Optional[int]) -> Tuple[int, Callable[[int], None]]:
+    """``(configurations, check)``: *limit* applied now, the time check once the worker count is known."""
+    total = count_configurations(model)
+    if limit is not None and total > as_count(limit, "limit", 1):
+        raise TooLarge(
+            f"{what} needs all {total} configurations listed, above the limit {limit}; raise limit=",
+            parameters=["limit"],
+        )
+    r = model.urns
+
+    def check(workers: int) -> None:
+        # each configuration is r numbers, tested and weighed once, spread over the workers
+        limits.check(Cost(seconds=total * r / limits.STEPS_PER_SECOND / max(1, workers),
+                          memory=min(total, 1 << 16) * r * 8 * 4),
+                     f"listing the {total} configurations of {r} urns for {what} on {workers} workers",
+                     advice="lower limit=, use fewer urns, or add workers", parameters=["limit"])
+
+    return total, check
+
+
+def event_count_distributed(model: UrnModel, event, *, limit: Optional[int] = None, **options) -> Tuple[int, int]:
     """Return ``(count, total)`` of *event* by listing on a cluster, as :func:`~enumerator.algorithms.events.event_count`.
 
     *options* go to :func:`enumeration_sum_distributed` (``workers=``,
-    ``cluster=``, ``shards=`` ...).  ``P(event) = count / total``.  Method:
-    a sum of :class:`EventWeight` over every configuration; cost as listing
-    all ``count_configurations(model)`` configurations, spread over the workers.
+    ``cluster=``, ``shards=`` ...).  ``P(event) = count / total``.  With
+    *limit*, more than *limit* configurations are refused before any work
+    (:class:`~enumerator.core.errors.TooLarge`), and the listing's time,
+    divided by the number of workers, is checked against the active limits
+    (:mod:`enumerator.core.limits`) before a shard is sent.  Method: a sum
+    of :class:`EventWeight` over every configuration; cost as listing all
+    ``count_configurations(model)`` configurations, spread over the workers.
     """
-    return enumeration_sum_distributed(model, EventWeight(model, event), **options), int(outcome_total(model))
+    node = parse_event(event)
+    _, check = _listing_check(model, f"the event {str(node)!r}", limit)
+    return enumeration_sum_distributed(model, EventWeight(model, node), before=check, **options), \
+        int(outcome_total(model))
+
+
+def event_needs_listing(model: UrnModel, event, limit: int = DEFAULT_LIMIT) -> bool:
+    """Whether the event planner would list the configurations to count *event* (no cluster helps otherwise).
+
+    Parameters
+    ----------
+    model : UrnModel
+    event : str or Event
+    limit : int
+        As for :func:`~enumerator.algorithms.events.event_count`.
+
+    Returns
+    -------
+    bool
+        True when no exact shortcut applies and
+        :func:`~enumerator.algorithms.events.event_count` would list every
+        configuration; False when the planner counts the event itself, and
+        also for a malformed request (an urn beyond ``r``, a model without
+        configurations), which the ordinary route then reports.
+
+    Notes
+    -----
+    Runs the planner of :mod:`enumerator.algorithms.events` (its bounded
+    counts, inclusion–exclusion and single-statistic laws) without its
+    listing fallback, so it costs what the planner costs, not a listing.
+    """
+    node = parse_event(event)
+    r = model.urns
+    if any(c.term.entry.indexes_urns and c.term.parameter > r for c in comparisons(node)):
+        return False
+    if outcome_total(model) == 0:
+        return False
+    try:
+        _Planner(model, as_count(limit, "limit", 1)).count(model.groups, _normal_form(node, r))
+    except _Enumerate:
+        return True
+    return False
+
+
+def _marked_window(stat: Statistic, r: int):
+    """The occupancies ``(low, high)`` the exact route of a counting statistic marks, or None."""
+    entry = stat.entry
+    if entry.marking is None:
+        canonical = entry.canonical(stat.parameter, r) if entry.canonical is not None else None
+        if canonical is None or canonical[1] == 0 or not isinstance(canonical[0], Statistic):
+            return None
+        stat = canonical[0]
+        entry = stat.entry
+        if entry.marking is None:
+            return None
+    how, J = entry.marking(stat.parameter)
+    return (J, J) if how == "exactly" else (J, None)
+
+
+def distribution_needs_listing(model: UrnModel, statistic) -> bool:
+    """Whether the exact law of *statistic* is found by listing every configuration.
+
+    Parameters
+    ----------
+    model : UrnModel
+    statistic : str or Statistic
+
+    Returns
+    -------
+    bool
+        True for the two listing routes of :mod:`enumerator.algorithms.laws`:
+        the profile law of a weighted model, and a counting statistic
+        (``empty``, ``occupied``, ``exactly:J``, ``atleast:J``, ``count(...)``)
+        whose binomial moments would need more than
+        :data:`~enumerator.algorithms.laws.GROUP_TUPLE_LIMIT` bounded counts
+        (many urns with differing per-urn bounds).  False otherwise.
+
+    Notes
+    -----
+    Follows the route choice of :func:`~enumerator.algorithms.laws.marked_counts`
+    and :func:`~enumerator.algorithms.laws.profile_counts` without running
+    them: ``O(r)`` for the per-urn bounds of a model with at most
+    :data:`~enumerator.algorithms.laws.PER_URN_ROUTES` urns, constant otherwise.
+    """
+    stat = parse_statistic(statistic)
+    if stat.kind == "profile":
+        return model.weighted
+    n, r = model.balls, model.urns
+    window = _marked_window(stat, r)
+    if window is None or model.weighted or r > laws.PER_URN_ROUTES or (r > n + 1 and n <= 200):
+        return False
+    low, high = window
+    if model.is_uniform:
+        a0, b0 = model.groups[0].lower, model.groups[0].upper
+        free_top = b0 is None or b0 >= n - (r - 1) * a0
+        closed = model.rule.value != "FD" and (high == low or (high is None and low >= 1))
+        if a0 == 0 and free_top and closed:
+            return False
+    tuples = 1
+    for (a, b), e in Counter(model.effective_bounds()).items():
+        s, t = max(a, low), (b if high is None else min(b, high))
+        if s <= t and not (s == a and t == b):
+            tuples *= e + 1
+    return tuples > laws.GROUP_TUPLE_LIMIT  # read at call time, as laws reads it
+
+
+def distribution_distributed(model: UrnModel, statistic, *, limit: Optional[int] = None,
+                             **options) -> Distribution:
+    """Return the exact law of *statistic* by listing on a cluster, as :func:`~enumerator.algorithms.statistics.distribution`.
+
+    Parameters
+    ----------
+    model : UrnModel
+    statistic : str or Statistic
+    limit : int, optional
+        Refuse more than this many configurations (before any work).
+    **options
+        ``workers=``, ``cluster=``, ``client=``, ``shards=``, ``block=``,
+        ``progress=`` as :func:`enumeration_counts_distributed`.
+
+    Returns
+    -------
+    Distribution
+        The same pmf (exact fractions over the support), mean and variance
+        as the single-process law.
+
+    Raises
+    ------
+    InvalidParameters
+        For an urn beyond ``r`` or a model without configurations.
+    TooLarge
+        Above *limit* configurations, or when the listing's time divided by
+        the workers is beyond the active limits.
+
+    Notes
+    -----
+    Method: :class:`StatisticWeights` summed over equal rank shards
+    (:func:`enumeration_counts_distributed`), then ``count / total`` per
+    value with ``total`` = :func:`~enumerator.algorithms.laws.outcome_total`
+    and the moments ``sum v c / total``, ``sum v^2 c / total - mean^2``
+    (exact).  Cost: the listing spread over the workers.
+    """
+    stat = parse_statistic(statistic)
+    if stat.entry.indexes_urns and stat.parameter > model.urns:
+        raise InvalidParameters(
+            f"statistic {stat.name!r} names urn {stat.parameter}, but the model has {model.urns} urns; "
+            f"use urn:1 to urn:{model.urns}"
+        )
+    total = int(outcome_total(model))
+    if total == 0:
+        raise InvalidParameters(
+            f"the model ({model!r}) admits no configuration, so {stat.name!r} has no distribution; "
+            "loosen the bounds or change the number of balls"
+        )
+    _, check = _listing_check(model, f"the law of {stat.name}", limit)
+    counts = enumeration_counts_distributed(model, StatisticWeights(model, stat), before=check, **options)
+    counts = {v: int(c) for v, c in counts.items() if c}
+    if sum(counts.values()) != total:  # pragma: no cover - a lost or doubled shard
+        raise AssertionError(f"the shards of {stat.name} do not add up to the total for {model!r}")
+    pmf = {value: exact_fraction(c, total) for value, c in sorted(counts.items())}
+    mean = variance = None
+    if stat.numeric:
+        first = sum((gmpy2.mpz(v) * c for v, c in counts.items()), gmpy2.mpz(0))
+        second = sum((gmpy2.mpz(v) * v * c for v, c in counts.items()), gmpy2.mpz(0))
+        mean = exact_fraction(first, total)
+        variance = exact_fraction(second * total - first * first, total * total)
+    return Distribution(stat.name, pmf, mean, variance)
