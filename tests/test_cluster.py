@@ -353,3 +353,26 @@ def test_prob_and_dist_commands_on_the_cluster(client):
     assert "no cluster" in plain["note"]
     both = run(*base, "--cluster", address, "--workers", "2")
     assert both.exit_code == 2 and "--workers" in both.stderr and "Traceback" not in both.output
+
+
+def test_table_on_postgres_workers_skip_cells_stored_meanwhile(tmp_path, client, postgres_url):
+    # reference: the single-process build into SQLite, cell by cell; a second builder
+    # stores rows 13..24 into the PostgreSQL store after the client planned the build
+    spec = TableSpec.make("MB", "0..40", "1..24", capacity=5)
+    one = Store(str(tmp_path / "one.sqlite"))
+    build_table(spec, store=one)
+    server = Store(postgres_url)
+    calls = []
+
+    def progress(r, computed, reused):
+        calls.append((r, computed, reused))
+        if len(calls) == 1:  # the pilot row, computed by the client before any task is sent
+            build_table(TableSpec.make("MB", "0..40", "13..24", capacity=5), store=server)
+
+    report = build_table_distributed(spec, store=server, client=client, task_seconds=0.01, progress=progress)
+    assert _cells(server, spec) == _cells(one, spec)
+    assert report.computed == 41 * 12 and report.reused == 41 * 12 and report.stored == 41 * 12
+    assert sorted(r for r, _, _ in calls) == list(spec.urns)
+    assert sum(c + u for _, c, u in calls) == spec.cells
+    again = build_table_distributed(spec, store=server, client=client)
+    assert again.computed == 0 and again.reused == spec.cells

@@ -201,16 +201,53 @@ def plan_row_batches(spec: TableSpec, tasks: Sequence[RowTask], seconds_per_weig
     return batches
 
 
+#: Stores opened by this worker process, by URL (one engine and pool per server).
+_WORKER_STORES: dict = {}
+
+
+def _worker_store(url: str):
+    """The store at *url*, opened once per worker process."""
+    from .database import Store
+
+    store = _WORKER_STORES.get(url)
+    if store is None:
+        store = _WORKER_STORES[url] = Store(url)
+    return store
+
+
 def _compute_rows(rule: str, quantity: str, minimum: int, capacity: Optional[int],
-                  batch: Sequence[RowTask]) -> List[Tuple[int, List[Tuple[int, int]], str, int]]:
-    """Worker side: ``[(r, [(n, value) for missing n], method, ns per cell)]`` for each row of *batch*."""
+                  batch: Sequence[RowTask], shared: Optional[Tuple[str, Tuple[str, ...], int]] = None,
+                  ) -> List[Tuple[int, List[Tuple[int, int]], str, int]]:
+    """Worker side: ``[(r, [(n, value) for missing n], method, ns per cell)]`` for each row of *batch*.
+
+    With *shared* ``= (store URL, bounds text per row of the batch, version)``
+    (a database server every worker can reach), each row first reads which
+    of its cells are stored by then (by another builder, say) and computes
+    only the others; a row found complete comes back with no cells.
+    """
     out = []
-    for task in batch:
+    for index, task in enumerate(batch):
+        missing = task.missing
+        if shared is not None:
+            url, bounds, version = shared
+            have = _worker_store(url).stored_balls(quantity, rule, bounds[index], task.urns, version,
+                                                   values=False)
+            missing = tuple(n for n in missing if n not in have)
+            if not missing:
+                out.append((task.urns, [], "", 0))
+                continue
         t0 = time.perf_counter_ns()
-        values, method = row_values(rule, quantity, task.urns, minimum, capacity, task.missing[-1])
-        share = (time.perf_counter_ns() - t0) // len(task.missing)
-        out.append((task.urns, [(n, values[n]) for n in task.missing], method, share))
+        values, method = row_values(rule, quantity, task.urns, minimum, capacity, missing[-1])
+        share = (time.perf_counter_ns() - t0) // len(missing)
+        out.append((task.urns, [(n, values[n]) for n in missing], method, share))
     return out
+
+
+def _shared_url(store) -> Optional[str]:
+    """The URL (password included) by which workers may read *store*: a database server, else None (SQLite)."""
+    if store.path is not None or store.url.get_backend_name() == "sqlite":
+        return None
+    return store.url.render_as_string(hide_password=False)
 
 
 def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, store=None,
@@ -228,7 +265,9 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
         Its name (default :meth:`TableSpec.default_name`).
     store : Store or location, optional
         Where to build it (default: the current store).  Only the client
-        touches it, so any store works, a plain SQLite file included.
+        writes it, so any store works, a plain SQLite file included; a
+        database server (PostgreSQL) is also read by the workers, which
+        skip the cells stored since the client planned the build.
     workers : int, optional
         Run on a new local cluster of this many processes.
     cluster : str, optional
@@ -271,9 +310,14 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     task running :func:`~enumerator.store.tables.row_values` per row; the
     results are written as they arrive, every *write_batch* cells in one
     transaction, and whatever has arrived is written when the build is
-    interrupted, so a rerun computes only what is missing.  Cost: the
-    single-process work spread over the workers, plus per cell the
-    transfer of one big integer to the client and its share of a write.
+    interrupted, so a rerun computes only what is missing.  With a
+    database-server store each worker first reads which cells of its row
+    are stored by then (one indexed query per row: another builder may have
+    stored them since) and computes only the rest; the client counts the
+    skipped cells as reused.  SQLite stores are read by the client alone.
+    Cost: the single-process work spread over the workers, plus per cell
+    the transfer of one big integer to the client and its share of a write
+    (and per row one query from a worker on a server store).
     """
     target = _need_store(store)
     name = name or spec.default_name()
@@ -292,6 +336,8 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
         elif progress is not None:
             progress(r, 0, reused)
     full = len(spec.balls)
+    missing_of = {task.urns: len(task.missing) for task in tasks}
+    shared = _shared_url(target)
     buffer: List[Tuple] = []
 
     def flush():
@@ -305,7 +351,8 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
             buffer.extend((spec.quantity, Key(spec.rule, n, bounds, r), version, value, "",
                            method + " (row time shared)", share) for n, value in cells)
             report.computed += len(cells)
-            report.rows_computed += 1
+            report.reused += missing_of[r] - len(cells)  # found stored by the worker
+            report.rows_computed += 1 if cells else 0
             if progress is not None:
                 progress(r, len(cells), full - len(cells))
             if len(buffer) >= write_batch:
@@ -324,7 +371,10 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
 
                     batches = plan_row_batches(spec, rest, per_weight, _worker_count(dask), task_seconds)
                     futures = [dask.submit(_compute_rows, spec.rule, spec.quantity, spec.minimum,
-                                           spec.capacity, batch, pure=False) for batch in batches]
+                                           spec.capacity, batch,
+                                           None if shared is None else
+                                           (shared, tuple(spec.bounds_text(t.urns) for t in batch), version),
+                                           pure=False) for batch in batches]
                     try:
                         for future in as_completed(futures, loop=dask.loop):
                             take(future.result())
