@@ -18,7 +18,12 @@ gathers its topic modules):
 :mod:`~enumerator.algorithms.levels.ensembles`
     the canonical ensemble from the Borrmann–Franke recursion (P. Borrmann
     and G. Franke, J. Chem. Phys. 98, 2484 (1993)) and the grand-canonical
-    occupation formulas.
+    occupation formulas;
+:mod:`~enumerator.algorithms.levels.occupation`
+    the canonical law ``P(n_l = k)`` of one level's occupation, to a
+    requested precision or exact at a rational Boltzmann factor;
+:mod:`~enumerator.algorithms.levels.particle_hole`
+    canonical fermions by the particle-hole expansion about the ground state.
 
 Units: energies and temperatures share the user's energy unit, with
 Boltzmann's constant ``k_B = 1``.
@@ -39,6 +44,7 @@ from .multiplicities import (
     multiplicity_table,
     thermal_contact,
 )
+from .occupation import OccupationLaw, occupation_law, occupation_law_exact, parse_factor
 from .spectra import (
     PRESETS,
     Ladder,
@@ -76,6 +82,10 @@ __all__ = [
     "microcanonical",
     "multiplicities",
     "multiplicity_table",
+    "occupation_law",
+    "occupation_law_exact",
+    "OccupationLaw",
+    "parse_factor",
     "parse_rational",
     "thermal_contact",
     "two_level",

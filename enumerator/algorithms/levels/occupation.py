@@ -1,0 +1,548 @@
+r"""The canonical law of one level's occupation, ``P(n_l = k)``, exact or to a requested precision.
+
+Particles on levels (:class:`~.spectra.System`) in the canonical ensemble.
+Take one listed level ``l`` (energy ``ε_l``, ``g`` states) out of the
+spectrum and call ``Z'_M`` the canonical partition function of ``M``
+particles on the remaining levels.  A microstate with ``k`` particles in
+level ``l`` is a way of putting ``k`` particles into its ``g`` states times a
+microstate of the other ``N - k`` particles elsewhere, so
+
+.. math::
+
+    P(n_l = k) = \frac{c_k\, e^{-β k ε_l}\, Z'_{N-k}}{\sum_j c_j\, e^{-β j ε_l}\, Z'_{N-j}},
+    \qquad
+    c_k = \binom{k + g - 1}{k}\ (\mathrm{BE}),\quad \binom{g}{k}\ (\mathrm{FD}),\quad
+    [t^k] (1 + t + \dots + t^c)^g\ (\text{capacity } c),
+
+and for distinguishable particles (MB) the law is binomial,
+``C(N, k) p^k (1 - p)^{N-k}`` with ``p = g e^{-βε_l} / Z_1``.  The
+denominator *is* ``Z_N`` (every microstate has some ``n_l``), so the law sums
+to one by construction and every term is positive: nothing cancels, for any
+rule.  (The identity is the level-resolved form of the canonical
+occupation formulas of P. Borrmann and G. Franke, J. Chem. Phys. 98, 2484
+(1993); for a single state of a BE gas it is the textbook
+``P(n_0 >= k) = e^{-βkε_0} Z_{N-k} / Z_N``, e.g. C. Weiss and M. Wilkens,
+Opt. Express 1, 272 (1997), from memory.)
+
+``Z'_M`` for ``M = 0..N`` comes from the particle-number recursion
+``M Z'_M = Σ_k w_k z'_k Z'_{M-k}`` with the reduced single-particle sums
+``z'_k = Z_1(kβ) - g e^{-kβε_l}`` (written without a subtraction where it
+would cancel: for the ground rung of a ladder ``(1+r)^d - 1 = Σ_j C(d,j)
+r^j``).
+
+Two arithmetics:
+
+* **a temperature** (:func:`occupation_law`): the recursion in fixed point
+  (:func:`~.ensembles._online_recursion`: exact integers, FLINT products,
+  divide and conquer) with energies measured from the lowest remaining level,
+  so ``Z'_M >= 1`` for bosons; for the alternating FD/capacity weights the
+  precision is raised until the majorant bound ``M 2^-bits Ẑ'_M`` is below
+  ``10^-digits`` of ``Z'_M`` for every ``M`` used.  Each ``P(n_l = k)`` is
+  then correct to about ``10^-digits`` *relative*, the mean and the variance
+  (``Σ (k - mean)^2 P_k``, positive terms) likewise.
+* **a rational Boltzmann factor** ``x = e^{-β u}`` (:func:`occupation_law_exact`,
+  ``u`` the spectrum's energy unit): the same recursion in exact rationals
+  (gmpy2 ``mpq``); the law, mean and variance are exact fractions.
+
+Beside each law: the grand-canonical variance of the same level at the
+chemical potential giving mean ``N`` (independent states: ``g f(1 + f)`` for
+bosons, ``g f(1 - f)`` for fermions, ``g f`` for MB, per-state law for a
+capacity), which for a Bose condensate is ``~ ⟨n_0⟩^2`` instead of the
+canonical ``O(N^{4/3})`` in a 3D trap (the "grand-canonical catastrophe";
+M. Holthaus, E. Kalinowski and K. Kirsten, Ann. Phys. 270, 198 (1998), from
+memory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Iterable, List, Optional, Tuple
+
+import gmpy2
+import mpmath
+from flint import fmpz_poly
+
+from ...core.errors import InvalidParameters, TooLarge
+from ...core.exact import coprime_fraction
+from ...core.limits import Cost, bigint_bytes, check, product_seconds
+from ...core.model import as_count
+from ...core.rules import Rule
+from .ensembles import (
+    DEFAULT_DIGITS,
+    GUARD_DIGITS,
+    _online_recursion,
+    _parse_temperature,
+    _to_fixed,
+    grand_canonical,
+)
+from .spectra import System, ground_energy, parse_rational
+
+__all__ = ["OccupationLaw", "occupation_law", "occupation_law_exact", "parse_factor"]
+
+
+@dataclass(frozen=True)
+class OccupationLaw:
+    """The canonical law of the occupation of one level at one temperature.
+
+    ``law[k]`` is ``P(n_level = k)`` for ``k = 0..len(law) - 1`` (the largest
+    possible occupation of the level); ``mean`` and ``variance`` are its
+    moments.  Exact (``Fraction``) when ``factor`` is set, mpmath numbers
+    otherwise.  ``grand_canonical_mean_approx`` and
+    ``grand_canonical_variance_approx`` are the independent-state formulas at
+    the chemical potential giving mean ``N`` (``None`` where no grand
+    canonical ensemble applies: distinguishable localised oscillators, a full
+    or empty system).
+    """
+
+    level: int
+    temperature: Fraction
+    factor: Optional[Fraction]
+    law: Tuple
+    mean: object
+    variance: object
+    grand_canonical_mean_approx: Optional[mpmath.mpf] = None
+    grand_canonical_variance_approx: Optional[mpmath.mpf] = None
+
+    @property
+    def exact(self) -> bool:
+        """True when the law is exact (a rational Boltzmann factor)."""
+        return self.factor is not None
+
+
+# --------------------------------------------------------------------------
+# The level and the rest of the spectrum
+# --------------------------------------------------------------------------
+def _level(system: System, level) -> Tuple[int, int]:
+    """``(energy in units, degeneracy)`` of listed level (ladder rung) *level*."""
+    index = as_count(level, "level", 0)
+    spectrum = system.spectrum
+    if spectrum.ladder is not None:
+        lad = spectrum.ladder
+        return lad.energy(index), lad.degeneracy(index)
+    if index >= len(spectrum.energies):
+        raise InvalidParameters(
+            f"level {index} does not exist: the spectrum lists levels 0..{len(spectrum.energies) - 1}",
+            parameters=["level"],
+        )
+    return spectrum.energies[index], spectrum.degeneracies[index]
+
+
+def _others(system: System, index: int):
+    """The remaining levels: ``(lowest energy in units or None, capacity of the rest or None)``."""
+    spectrum = system.spectrum
+    if spectrum.ladder is not None:
+        lad = spectrum.ladder
+        return (lad.energy(1) if index == 0 else lad.energy(0)), None
+    rest = [(e, g) for i, (e, g) in enumerate(zip(spectrum.energies, spectrum.degeneracies)) if i != index]
+    if not rest:
+        return None, 0
+    low = min(e for e, _ in rest)
+    cap = None if system.capacity is None else system.capacity * sum(g for _, g in rest)
+    return low, cap
+
+
+def _ways(system: System, g: int, kmax: int) -> List[int]:
+    """``c_k``: ways of putting ``k`` identical particles into ``g`` states (``k = 0..kmax``)."""
+    if system.capacity is None:
+        return [math.comb(k + g - 1, k) for k in range(kmax + 1)]
+    if system.capacity == 1:
+        return [math.comb(g, k) for k in range(kmax + 1)]
+    one = fmpz_poly([1] * (system.capacity + 1))
+    poly = one.pow_trunc(g, kmax + 1)
+    return [int(poly[k]) for k in range(kmax + 1)]
+
+
+def _kmax(system: System, g: int) -> int:
+    n = system.particles
+    if system.rule is Rule.MB or system.capacity is None:
+        return n
+    return min(n, system.capacity * g)
+
+
+def _reduced_sums(system: System, index: int, low: int, kmax: int, power):
+    """``z'_k`` (``k = 1..kmax``) of the remaining levels, energies from *low*; index 0 unused.
+
+    *power(e)* returns ``e^{-β e}`` for an energy ``e`` in units (an mpmath
+    number or an exact ``mpq``), so the same code serves both arithmetics.
+    """
+    spectrum = system.spectrum
+    out = [None]
+    if spectrum.ladder is None:
+        rest = [(e - low, g) for i, (e, g) in enumerate(zip(spectrum.energies, spectrum.degeneracies)) if i != index]
+        base = [power(e) for e, _ in rest]
+        cur = list(base)
+        for _ in range(kmax):
+            out.append(sum(g * y for (_, g), y in zip(rest, cur)))
+            cur = [c * y for c, y in zip(cur, base)]
+        return out
+    lad = spectrum.ladder
+    d = lad.dimension
+    q1 = power(lad.spacing)
+    y_l = power(lad.energy(index) - lad.offset) if index else None
+    g_l = lad.degeneracy(index)
+    qk = q1 * 0 + 1
+    yk = qk
+    binom = [math.comb(d, j) for j in range(d + 1)]
+    for _ in range(kmax):
+        qk = qk * q1
+        inv = 1 / (1 - qk)
+        r = qk * inv
+        if index == 0:
+            # ((1 + r)^d - 1) q^-k = Σ_{j>=1} C(d, j) r^(j-1) / (1 - q^k): positive terms.
+            total = 0
+            rp = 1
+            for j in range(1, d + 1):
+                total = total + binom[j] * rp
+                rp = rp * r
+            out.append(total * inv)
+        else:
+            yk = yk * y_l
+            out.append((1 + r) ** d - g_l * yk)
+    return out
+
+
+# --------------------------------------------------------------------------
+# A temperature: fixed point with a precision loop
+# --------------------------------------------------------------------------
+def _law_at(system: System, index: int, temperature: Fraction, digits: int):
+    spectrum = system.spectrum
+    n = system.particles
+    e_l, g = _level(system, index)
+    kmax = _kmax(system, g)
+    u_frac = spectrum.unit
+    target = math.ceil(digits * math.log2(10))
+    margin = 8 + 2 * (n + 1).bit_length()
+    bits = target + margin + 16
+    for _attempt in range(12):
+        with mpmath.workprec(bits + 32):
+            T = mpmath.mpf(temperature.numerator) / temperature.denominator
+            b = mpmath.mpf(u_frac.numerator) / u_frac.denominator / T
+            if system.rule is Rule.MB:
+                law = _binomial_law(system, index, e_l, g, lambda e, b=b: mpmath.exp(-b * e))
+                return law, bits
+            low, cap_rest = _others(system, index)
+            w = system.weights(n)
+            alternating = any(x < 0 for x in w[1:])
+            if low is None:
+                seq = [1 << bits] + [0] * n
+                need = bits
+            else:
+                # z'_k lose at most log2(Z_1) bits to the subtraction for an upper rung.
+                with mpmath.workprec(bits + 64 + 4 * n.bit_length()):
+                    zp = _reduced_sums(system, index, low, n, lambda e, b=b: mpmath.exp(-b * e))
+                kern = [0] + [_to_fixed(w[k] * zp[k], bits) for k in range(1, n + 1)]
+                kernels, couplings, starts = [kern], [[(0, 0)]], [1 << bits]
+                if alternating:
+                    kernels.append([abs(x) for x in kern])
+                    couplings.append([(1, 1)])
+                    starts.append(1 << bits)
+                seqs = _online_recursion(kernels, couplings, starts, n, bits)
+                seq = seqs[0]
+                major = seqs[1] if alternating else seq
+                need = bits
+                for k in range(kmax + 1):
+                    m = n - k
+                    if cap_rest is not None and m > cap_rest:
+                        seq[m] = 0
+                        continue
+                    if seq[m] <= 0:
+                        need = max(need, 2 * bits)
+                        break
+                    need = max(need, target + margin + max(0, major[m].bit_length() - seq[m].bit_length()))
+            if need > bits:
+                bits = need + 16
+                continue
+            ways = _ways(system, g, kmax)
+            ratio = mpmath.exp(-b * (e_l - (low if low is not None else e_l)))
+            terms = []
+            yk = mpmath.mpf(1)
+            for k in range(kmax + 1):
+                m = n - k
+                terms.append(ways[k] * yk * seq[m] if seq[m] > 0 else mpmath.mpf(0))
+                yk = yk * ratio
+            total = mpmath.fsum(terms)
+            if total <= 0:
+                raise InvalidParameters(
+                    f"{n} particles do not fit in the single-particle states under this rule",
+                    parameters=["particles"],
+                )
+            return [t / total for t in terms], bits
+    raise TooLarge(
+        f"the occupation law at T = {temperature} loses more digits than a reasonable working precision "
+        "holds; raise the temperature or lower the number of particles",
+        parameters=["temperatures", "particles"],
+    )
+
+
+def _binomial_law(system: System, index: int, e_l: int, g: int, power):
+    """MB: ``C(N, k) p^k (1 - p)^(N-k)``, ``p = g y_l / (g y_l + z'_1)`` (energies from the lowest other level)."""
+    n = system.particles
+    low, _cap = _others(system, index)
+    if low is None:
+        return [0] * n + [1]
+    zp1 = _reduced_sums(system, index, low, 1, power)[1]
+    a = g * power(e_l - low)
+    p = a / (a + zp1)
+    q = zp1 / (a + zp1)
+    return [math.comb(n, k) * p**k * q ** (n - k) for k in range(n + 1)]
+
+
+def _moments(law):
+    """``(mean, variance)`` of a law on ``0..K`` (mpmath: the variance as a sum of positive terms)."""
+    if isinstance(law[0], (int, Fraction, type(gmpy2.mpq()))):
+        mean = sum(k * p for k, p in enumerate(law))
+        var = sum(k * k * p for k, p in enumerate(law)) - mean * mean
+        return mean, var
+    mean = mpmath.fsum(k * p for k, p in enumerate(law))
+    var = mpmath.fsum((k - mean) ** 2 * p for k, p in enumerate(law))
+    return mean, var
+
+
+def _grand(system: System, index: int, temperature: Fraction, digits: int):
+    """Grand-canonical ``(mean, variance)`` of the level's occupation (independent states), or ``(None, None)``."""
+    if system.spectrum.name == "Einstein solid":
+        return None, None  # localised oscillators: their number is fixed, no particle reservoir
+    e_l, g = _level(system, index)
+    mu, occ = grand_canonical(system, temperature, digits, levels=index + 1)
+    if mu is None:
+        return None, None
+    with mpmath.workdps(digits + GUARD_DIGITS):
+        mean = occ[index]
+        f = mean / g
+        if system.rule is Rule.MB:
+            var = g * f
+        elif system.capacity is None:
+            var = g * f * (1 + f)
+        elif system.capacity == 1:
+            var = g * f * (1 - f)
+        else:
+            T = mpmath.mpf(temperature.numerator) / temperature.denominator
+            u = system.spectrum.unit
+            x = (mpmath.mpf(e_l * u.numerator) / u.denominator - mu) / T
+            y = mpmath.exp(-x)
+            ws = [y**j for j in range(system.capacity + 1)]
+            z = mpmath.fsum(ws)
+            m1 = mpmath.fsum(j * w for j, w in enumerate(ws)) / z
+            m2 = mpmath.fsum(j * j * w for j, w in enumerate(ws)) / z
+            var = g * (m2 - m1 * m1)
+        with mpmath.workdps(digits):
+            return +mean, +var
+
+
+def _check_system(system: System) -> None:
+    if ground_energy(system) is None:
+        raise InvalidParameters(
+            f"{system.particles} particles do not fit in the single-particle states under this rule; "
+            "lower particles= or add levels",
+            parameters=["particles"],
+        )
+
+
+def occupation_law(system: System, level: int, temperatures: Iterable, digits: int = DEFAULT_DIGITS,
+                   grand: bool = True) -> List[OccupationLaw]:
+    """Return the canonical law of the occupation of *level* at each temperature.
+
+    Parameters
+    ----------
+    system : System
+    level : int
+        The listed level (ladder rung), counted from 0 as in the occupations
+        of :func:`~.ensembles.canonical`.
+    temperatures : iterable
+        Positive ``k_B T`` values in the energy unit.
+    digits : int
+        Significant digits wanted, at least 5: relative, for every
+        probability, the mean and the variance.
+    grand : bool
+        Also give the grand-canonical mean and variance of the level.
+
+    Returns
+    -------
+    list of OccupationLaw
+        ``law[k] = P(n_level = k)`` for ``k`` from 0 to the largest possible
+        occupation (``N`` for BE and MB, ``min(N, g)`` for FD, ``min(N, c g)``
+        with a capacity ``c``), as mpmath numbers.
+
+    Raises
+    ------
+    InvalidParameters
+        A level the spectrum does not list, more particles than states, a
+        non-positive temperature.
+    TooLarge
+        The alternating (FD, capacity) recursion loses more digits than a
+        reasonable precision holds.
+
+    Notes
+    -----
+    ``P(n_l = k) ∝ c_k e^{-βkε_l} Z'_{N-k}``, ``Z'`` the partition function
+    without level ``l`` by the Borrmann–Franke recursion in fixed point
+    (module docstring); MB binomial.  Cost per temperature: one recursion,
+    ``O(M(N) log N)`` integer work (``M``: a FLINT product of length ``N``),
+    plus ``O(N)`` mpmath operations.
+
+    Examples
+    --------
+    Two bosons on two non-degenerate levels ``0, 1`` at ``k_B T = 1/ln 2``
+    (Boltzmann factor 1/2): states (2,0), (1,1), (0,2) weigh 1, 1/2, 1/4.
+
+    >>> from enumerator.algorithms.levels import make_system
+    >>> law, = occupation_law(make_system(2, "0,1", rule="BE"), 0, [1 / mpmath.log(2)], digits=15, grand=False)
+    >>> [mpmath.nstr(p, 12) for p in law.law]
+    ['0.142857142857', '0.285714285714', '0.571428571429']
+    """
+    digits = as_count(digits, "digits", 5)
+    _check_system(system)
+    _level(system, level)
+    out = []
+    for value in temperatures:
+        temperature = _parse_temperature(value)
+        law, _bits = _law_at(system, level, temperature, digits)
+        with mpmath.workdps(digits + GUARD_DIGITS):
+            law = [mpmath.mpf(p) for p in law]
+            mean, var = _moments(law)
+        gm, gv = _grand(system, level, temperature, digits) if grand else (None, None)
+        with mpmath.workdps(digits):
+            out.append(OccupationLaw(level, temperature, None, tuple(+p for p in law), +mean, +var, gm, gv))
+    return out
+
+
+# --------------------------------------------------------------------------
+# A rational Boltzmann factor: exact
+# --------------------------------------------------------------------------
+def parse_factor(value) -> Fraction:
+    """A Boltzmann factor ``x = e^{-β u}``: an exact rational with ``0 < x < 1``.
+
+    Examples
+    --------
+    >>> parse_factor("1/2")
+    Fraction(1, 2)
+    """
+    x = parse_rational(value, "factor")
+    if not 0 < x < 1:
+        raise InvalidParameters(
+            f"the Boltzmann factor e^(-unit/T) must lie strictly between 0 and 1 (got {x}); "
+            "e.g. factor= 1/2 is k_B T = unit / ln 2",
+            parameters=["factor"],
+        )
+    return x
+
+
+def factor_temperature(factor: Fraction, unit: Fraction, digits: int = DEFAULT_DIGITS) -> Fraction:
+    """The temperature ``k_B T = u / ln(1/x)`` of a Boltzmann factor, to *digits* digits (a binary fraction)."""
+    with mpmath.workdps(digits + GUARD_DIGITS):
+        t = mpmath.mpf(unit.numerator) / unit.denominator / mpmath.log(mpmath.mpf(factor.denominator) / factor.numerator)
+        return _parse_temperature(t)
+
+
+def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:
+    """Rough cost of the exact recursion: ``N^2/2`` rational products on numbers of ``bits`` bits."""
+    n = max(system.particles, 1)
+    height = max(factor.numerator.bit_length(), factor.denominator.bit_length(), 1)
+    if system.spectrum.ladder is not None:
+        d = system.spectrum.ladder.dimension
+        bits = d * system.spectrum.ladder.spacing * n * (n + 1) / 2 * height + n * 64
+    else:
+        bits = n * max(span, 1) * height + n * 64
+    seconds = n * n / 2 * product_seconds(bits) * 8  # a gcd per rational operation
+    return Cost(seconds=seconds, memory=bigint_bytes(bits) * 2 * (n + 1))
+
+
+def occupation_law_exact(system: System, level: int, factor) -> OccupationLaw:
+    """Return the exact canonical law of the occupation of *level* at the Boltzmann factor *factor*.
+
+    Parameters
+    ----------
+    system : System
+    level : int
+        The listed level (ladder rung), counted from 0.
+    factor : Fraction or str
+        ``x = e^{-β u}``, ``0 < x < 1``, ``u`` the spectrum's energy unit: a
+        state of energy ``e u`` has Boltzmann weight ``x^e``.
+
+    Returns
+    -------
+    OccupationLaw
+        Exact fractions: the law, its mean and variance; ``temperature`` is
+        ``u / ln(1/x)`` rounded (the grand-canonical fields are computed there).
+
+    Raises
+    ------
+    InvalidParameters
+        A factor outside ``(0, 1)``, a level the spectrum does not list, more
+        particles than states.
+    TooLarge
+        The exact rationals would exceed the time or memory limits.
+
+    Notes
+    -----
+    The formula of :func:`occupation_law` with the recursion
+    ``M Z'_M = Σ_k w_k z'_k Z'_{M-k}`` in exact rationals (gmpy2 ``mpq``);
+    MB the exact binomial.  Cost: ``N^2/2`` rational products whose size
+    grows with ``N`` (linearly for a finite spectrum, quadratically for a
+    ladder, whose ``z_k = (1 - x^k)^{-d}`` bring new denominators), checked
+    against the limits first (:mod:`enumerator.core.limits`).
+
+    Examples
+    --------
+    >>> from enumerator.algorithms.levels import make_system
+    >>> law = occupation_law_exact(make_system(2, "0,1", rule="BE"), 0, "1/2")
+    >>> law.law, law.mean
+    ((Fraction(1, 7), Fraction(2, 7), Fraction(4, 7)), Fraction(10, 7))
+    """
+    _check_system(system)
+    x = parse_factor(factor)
+    e_l, g = _level(system, level)
+    n = system.particles
+    spectrum = system.spectrum
+    span = 0 if spectrum.ladder is not None else max(spectrum.energies) - min(spectrum.energies)
+    check(_exact_cost(system, x, span), "the exact occupation law", advice="lower particles= or use temperatures=",
+          parameters=["particles", "temperatures"])
+    xq = gmpy2.mpq(x.numerator, x.denominator)
+
+    def power(e: int):
+        return xq**e if e >= 0 else 1 / xq ** (-e)
+
+    kmax = _kmax(system, g)
+    if system.rule is Rule.MB:
+        law = _binomial_law(system, level, e_l, g, power)
+    else:
+        low, cap_rest = _others(system, level)
+        if low is None:
+            seq = [gmpy2.mpq(1)] + [gmpy2.mpq(0)] * n
+        else:
+            w = system.weights(n)
+            zp = _reduced_sums(system, level, low, n, power)
+            seq = [gmpy2.mpq(1)]
+            for m in range(1, n + 1):
+                acc = gmpy2.mpq(0)
+                for k in range(1, m + 1):
+                    acc += w[k] * zp[k] * seq[m - k]
+                seq.append(acc / m)
+            if cap_rest is not None:
+                for m in range(cap_rest + 1, n + 1):
+                    seq[m] = gmpy2.mpq(0)
+        ways = _ways(system, g, kmax)
+        ratio = power(e_l - (low if low is not None else e_l))
+        terms = []
+        yk = gmpy2.mpq(1)
+        for k in range(kmax + 1):
+            terms.append(ways[k] * yk * seq[n - k])
+            yk = yk * ratio
+        total = sum(terms)
+        law = [t / total for t in terms]
+    law = tuple(_fraction(p) for p in law)
+    mean, var = _moments(law)
+    temperature = factor_temperature(x, spectrum.unit)
+    gm, gv = _grand(system, level, temperature, DEFAULT_DIGITS)
+    return OccupationLaw(level, temperature, x, law, mean, var, gm, gv)
+
+
+def _fraction(value) -> Fraction:
+    if isinstance(value, Fraction):
+        return value
+    if isinstance(value, int):
+        return Fraction(value)
+    q = gmpy2.mpq(value)
+    return coprime_fraction(q.numerator, q.denominator)
