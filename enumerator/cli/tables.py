@@ -553,16 +553,29 @@ def cache_verify_command(
     max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
-    """Recompute stored values (a sample, or --all) and report every mismatch.
+    """Recompute stored values (a sample, or --all) and report every damaged or wrong entry.
 
-    Exit code 0 when everything matches (or was fixed), 1 when a wrong or
-    damaged entry remains.
+    Every kind of damage is reported: a value that does not read or fails its
+    checksum, a wrong value, a key, parameter text or time that does not read,
+    a row filed under a wrong digest, a row of a quantity nothing stores.
+    --fix recomputes each one in place, or removes it when nothing can be
+    recomputed (the store only holds a cache; the next command that needs it
+    computes it again).  The sample is drawn in the database and --all reads
+    in batches, so a large store needs little memory.  Exit code 0 when every
+    stored value is right (or was fixed), 1 when a wrong or damaged value
+    remains; a row whose only damage is its time, or that nothing reads, is
+    listed but gives no wrong answer.
 
     Example:
 
-        $ enumerator cache verify --sample 500
+        $ enumerator cache verify --sample 500 --seed 7
         $ enumerator cache verify --all --fix
     """
+    from ..facade import _register_event_probability, register_recomputers
+
+    # every quantity a command stores can then be recomputed, and so repaired by --fix
+    register_recomputers()
+    _register_event_probability()
     target = _open_store(store)
     with limits_scope(max_memory, max_seconds):
         report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
@@ -580,18 +593,32 @@ def cache_verify_command(
         })
     else:
         for m in mismatches:
+            recomputed = (f"recomputed {abbreviate(m['expected'], 40)}" if m["expected"]
+                          else "nothing to recompute (--fix removes it)")
             sys.stdout.write(
                 f"MISMATCH {m['quantity']} {m['rule']} n={m['balls']} bounds {m['bounds']}"
-                f"{' ' + m['params'] if m['params'] else ''} v{m['version']}: {m['problem']}; "
-                f"stored {abbreviate(m['stored'], 40)}, recomputed {abbreviate(m['expected'], 40)}\n"
+                f"{' ' + m['params'] if m['params'] else ''} v{m['version']}: damaged entry, {m['problem']}; "
+                f"stored {abbreviate(m['stored'], 40)}, {recomputed}\n"
             )
+        left = len(mismatches) - report["fixed"]
         sys.stdout.write(
-            f"Checked {report['checked']} entries of {target.name}: {len(mismatches)} mismatches"
+            f"Checked {report['checked']} entries of {target.name}: {len(mismatches)} damaged or wrong"
             + (f", {report['fixed']} fixed" if fix else "")
-            + (f"; {report['skipped']} skipped (superseded version or no recomputer)" if report["skipped"] else "")
+            + (f"; {report['skipped']} skipped (superseded version, no recomputer, or too large to "
+               "recompute)" if report["skipped"] else "")
             + ".\n"
         )
-    if mismatches and report["fixed"] < len(mismatches):
+        if left > 0:
+            sys.stdout.write(
+                "Repair them with 'enumerator cache verify --fix --all'"
+                + (f" --store {target.name}" if store else "")
+                + ": each is recomputed, or removed when nothing can be (the store only holds a cache).\n"
+                if not target.read_only else
+                f"The store {target.name} is read-only, so they stay; ask its owner to run "
+                "'enumerator cache verify --fix --all' on it.\n"
+            )
+    harmful = [m for m in mismatches if not m.get("harmless")]
+    if harmful and report["fixed"] < len(mismatches):
         raise typer.Exit(1)
 
 

@@ -53,21 +53,24 @@ from sqlalchemy import exc as sa_exc
 from sqlalchemy.orm import Session
 
 from ..core.errors import StoreError
-from ..core.exact import int_text
+from ..core.exact import int_text, text_int
 from . import migrations, schema
 from .codec import encode_value
 from .engine import (
+    damaged_store,
     enable_wal,
     explain_failure,
+    is_cannot_open,
     is_readonly,
     make_engine,
+    not_a_store,
     reading,
     resolve_location,
     retry,
     writable,
     writing,
 )
-from .entries import EXPORT_ENTRY_FORMATS, StoredEntry, check_entry, export_lines
+from .entries import EXPORT_ENTRY_FORMATS, HARMLESS, RAW_COLUMNS, StoredEntry, check_entry, export_lines
 from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, row_checksum, stored_value
 from .schema import Base, LookupTable, Meta, Result
 
@@ -78,6 +81,13 @@ __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
 _SCHEMA_LOCK = 0x656E756D
 
 log = logging.getLogger("enumerator.store")
+
+#: Rows :meth:`Store.verify` reads at a time (by id).
+VERIFY_BATCH = 200
+#: Bytes of value text :meth:`Store.verify` reads at once (a larger single value is read alone).
+VERIFY_BYTES = 32 * 2**20
+#: A sample is drawn by rejection over the id range while at least one id in this many is present.
+_SPARSE = 8
 
 
 def _now() -> datetime:
@@ -180,14 +190,23 @@ class Store:
         if self.read_only and self.path is not None and not self.path.exists():
             self._warn_read_only("its folder cannot be written, so it cannot be created")
             return
-        with reading(self.engine) as conn:
-            present = set(inspect(conn).get_table_names())
-            found = self._schema_version(conn) if Meta.__tablename__ in present else None
+        try:
+            present, found = self._look()
+        except sa_exc.OperationalError as error:
+            # a file this user may write in a folder they may not (a WAL file needs its
+            # -shm and -wal beside it): read it as a store that cannot be written
+            if (self.read_only or self.path is None or not self.path.exists()
+                    or not (is_readonly(error) or is_cannot_open(error))):
+                raise
+            self._reopen_read_only()
+            present, found = self._look()
         latest = schema.SCHEMA_VERSION
         if found is not None:
             self._check_not_newer(found)
             if found == latest and _TABLES <= present:
                 self._schema_ready = True
+                if self.read_only:  # said once, on opening: reads are answered, writes skipped
+                    self._warn_read_only("it or its folder cannot be written")
                 self._enable_wal()
                 return
             if found < latest and self.read_only:
@@ -210,6 +229,48 @@ class Store:
             raise self._upgrade_failed(failure) from failure
         self._schema_ready = True
         self._enable_wal()
+
+    def _look(self) -> Tuple[set, Optional[int]]:
+        """Read the store's table names and recorded schema version (None when it records none).
+
+        Raises
+        ------
+        StoreError
+            When an SQLite file is not an enumerator store (another
+            application's database: it is left untouched) or has lost its
+            schema record (damage).
+        """
+        with reading(self.engine) as conn:
+            found_names = inspect(conn)
+            present = set(found_names.get_table_names())
+            if self.path is not None:
+                self._refuse_foreign(present | set(found_names.get_view_names()))
+            found = self._schema_version(conn) if Meta.__tablename__ in present else None
+        if found is None and Meta.__tablename__ in present:
+            raise damaged_store(self.name, f"its {Meta.__tablename__} table records no schema version")
+        return present, found
+
+    def _refuse_foreign(self, present: set) -> None:
+        """Refuse an SQLite file that holds tables but is not an enumerator store, before anything is written.
+
+        An empty file, or a database with no tables, becomes a new store; one
+        with the store's meta table is a store (checked further by its
+        version); one with some of the store's tables but not the meta table
+        has lost it (damage); anything else belongs to another application.
+        """
+        if not present or Meta.__tablename__ in present:
+            return
+        if present & _TABLES:
+            raise damaged_store(self.name, f"it has lost its {Meta.__tablename__} table")
+        names = sorted(present)
+        shown = ", ".join(names[:5]) + (f" and {len(names) - 5} more" if len(names) > 5 else "")
+        raise not_a_store(self.name, f"an SQLite database of another application, with tables {shown}")
+
+    def _reopen_read_only(self) -> None:
+        """Reopen the SQLite file for reading only (writes are then skipped)."""
+        self.engine.dispose()
+        self.read_only = True
+        self.engine = make_engine(self.url, self.path, True, self.name)
 
     def _prepare_schema(self) -> None:
         """In one write transaction: create a new store, or upgrade an older one, to the current schema."""
@@ -246,10 +307,7 @@ class Store:
         try:
             return migrations.read_version(conn, lock)
         except ValueError as error:
-            raise StoreError(
-                f"the store {self.name} has an {error}; "
-                "move it aside or delete it (it only holds a cache)"
-            ) from None
+            raise damaged_store(self.name, f"it has an {error}") from None
 
     def _check_not_newer(self, version: int) -> None:
         if version > schema.SCHEMA_VERSION:
@@ -277,7 +335,16 @@ class Store:
         )
 
     def _enable_wal(self) -> None:
-        if self.path is not None and not self.read_only and not enable_wal(self.engine):
+        if self.path is None or self.read_only:
+            return
+        try:
+            switched = enable_wal(self.engine)
+        except sa_exc.OperationalError as error:
+            if not is_cannot_open(error):
+                raise
+            switched = False  # the folder takes no -wal file
+        if not switched:
+            self._reopen_read_only()
             self._warn_read_only("its journal cannot be written")
 
     # -- upserts ---------------------------------------------------------
@@ -550,7 +617,8 @@ class Store:
                 and_(Result.urns == after[0], _decimal_compare(Result.balls, ">", after[1])),
             ))
         stmt = (
-            select(Result.urns, Result.balls, Result.id, Result.digits)
+            # n and r read as text and converted here (int() for the short texts they are)
+            select(type_coerce(Result.urns, Text), type_coerce(Result.balls, Text), Result.id, Result.digits)
             .where(*conditions)
             .order_by(*_decimal_order(Result.urns), *_decimal_order(Result.balls))
             .limit(limit)
@@ -558,7 +626,7 @@ class Store:
 
         def fetch():
             with reading(self.engine) as conn:
-                return [tuple(row) for row in conn.execute(stmt)]
+                return [(_whole(r), _whole(n), row_id, digits) for r, n, row_id, digits in conn.execute(stmt)]
 
         return self._guard(fetch)
 
@@ -707,16 +775,17 @@ class Store:
 
     def verify(self, sample: Optional[int] = None, seed: Optional[int] = None,
                fix: bool = False, progress: Optional[Callable[[int, int], None]] = None) -> Dict[str, Any]:
-        """Recompute stored values (all, or a random *sample*) and report the wrong ones.
+        """Recompute stored values (all, or a random *sample*) and report the wrong or damaged ones.
 
         Parameters
         ----------
         sample : int, optional
             Check this many rows drawn at random (all when absent or larger).
         seed : int, optional
-            Seed of the draw (the same seed draws the same rows).
+            Seed of the draw (the same seed draws the same rows of the same store).
         fix : bool
-            Replace damaged or wrong rows by the recomputed value.
+            Replace damaged or wrong rows by the recomputed value, or remove
+            them when nothing can be recomputed (the store only holds a cache).
         progress : callable, optional
             Called as ``progress(done, total)`` before each row and at the end.
 
@@ -724,71 +793,204 @@ class Store:
         -------
         dict
             ``checked``, ``skipped`` (no recomputer, a superseded version,
-            or a recomputation refused as too large), ``mismatches`` (one
-            dict per wrong row: its key fields, ``problem``, ``stored`` and
+            or a recomputation refused as too large, the row itself sound),
+            ``mismatches`` (one dict per damaged or wrong row: its key
+            fields, ``problem`` (see
+            :func:`~enumerator.store.entries.check_entry`), ``stored`` and
             ``expected`` texts, ``expected`` empty when nothing could be
-            recomputed) and ``fixed``.
+            recomputed, and ``harmless``, true when the row never gives a
+            wrong answer: only its time is unreadable, or nothing reads it)
+            and ``fixed``.
+
+        Raises
+        ------
+        StoreError
+            When the file itself is damaged (the message says so and how to
+            repair it).
 
         Notes
         -----
-        Each row is checked by :func:`~enumerator.store.entries.check_entry`,
-        on the model its key describes (groups and weights included).  A
-        fixed row is filed under the model's canonical key (a row left
-        under an older text by an upgrade moves to it); a row whose key
-        does not read cannot be recomputed and is deleted by *fix* (the
-        store only holds a cache).
-        Cost: one fresh computation per checked row; the rows' texts are held
-        in memory for the draw.
+        Rows are read by id in batches of at most :data:`VERIFY_BATCH` rows
+        and about :data:`VERIFY_BYTES` of value text, every column read
+        leniently (:meth:`StoredEntry.from_columns
+        <enumerator.store.entries.StoredEntry.from_columns>`), so a garbage
+        number or time is reported as damage and a large store needs little
+        memory; with *fix* each batch is repaired before the next is read.
+        A *sample* is drawn in SQL (:meth:`_draw_ids`): only the ids drawn
+        are read.  Each row is checked by
+        :func:`~enumerator.store.entries.check_entry`, on the model its key
+        describes (groups and weights included).  A fixed row is filed under
+        the model's canonical key (a row left under an older text by an
+        upgrade, or under a wrong digest, moves to it).  Only rows whose
+        quantity is registered (:func:`~enumerator.store.keys.register_quantity`)
+        are recomputed; a row of a quantity nobody registered is reported as
+        ``unknown quantity`` (``enumerator cache verify`` registers every
+        quantity the commands store).  Cost: one fresh computation per
+        checked row, plus the mismatches' texts, which the report holds.
         """
+        report: Dict[str, Any] = {"checked": 0, "skipped": 0, "mismatches": [], "fixed": 0}
         if not self._schema_ready:
-            return {"checked": 0, "skipped": 0, "mismatches": [], "fixed": 0}
-        rows = list(self.entries())
-        if sample is not None and sample < len(rows):
-            rows = random.Random(seed).sample(rows, sample)
-        mismatches: List[Dict[str, Any]] = []
-        replacements = []
-        checked = skipped = 0
-        for i, entry in enumerate(rows):
-            if progress is not None:
-                progress(i, len(rows))
-            check = check_entry(entry)
-            if check is None:
-                skipped += 1
-                continue
-            checked += 1
-            if check.problem is not None:
-                mismatches.append({
+            return report
+        first, last, total = self._guard(self._id_span)
+        if total == 0:
+            return report
+        if sample is not None and sample < total:
+            drawn = self._guard(self._draw_ids, sample, seed, first, last, total)
+            batches: Iterable[List[int]] = (drawn[i:i + VERIFY_BATCH] for i in range(0, len(drawn), VERIFY_BATCH))
+            total = len(drawn)
+        else:
+            # rows a fix adds (a move to the canonical key) get ids past *last*: not checked twice
+            batches = self._id_batches(first, last)
+        done = 0
+        for ids in batches:
+            replacements = []
+            for entry in self._guard(self._load_entries, ids):
+                if progress is not None:
+                    progress(done, total)
+                done += 1
+                check = check_entry(entry)
+                if check is None:
+                    report["skipped"] += 1
+                    continue
+                report["checked"] += 1
+                if check.problem is None:
+                    continue
+                report["mismatches"].append({
                     "quantity": entry.quantity, "rule": entry.rule, "balls": entry.balls,
                     "bounds": entry.bounds, "params": entry.params, "version": entry.version,
                     "problem": check.problem, "stored": entry.text,
                     "expected": "" if check.fresh is None else encode_value(check.fresh)[1],
+                    "harmless": check.problem.startswith(HARMLESS),
                 })
                 replacements.append((entry, check.fresh, check.elapsed_ns))
+            if fix and replacements:
+                report["fixed"] += self._guard(self._replace, replacements)
         if progress is not None:
-            progress(len(rows), len(rows))
-        fixed = 0
-        if fix and replacements:
-            fixed = self._guard(self._replace, replacements)
-        return {"checked": checked, "skipped": skipped, "mismatches": mismatches, "fixed": fixed}
+            progress(done, total)
+        return report
+
+    def _id_span(self) -> Tuple[int, int, int]:
+        """``(smallest id, largest id, number of rows)`` of the results (zeros when there are none)."""
+        with reading(self.engine) as conn:
+            first, last, count = conn.execute(select(func.min(Result.id), func.max(Result.id), func.count())).one()
+        return int(first or 0), int(last or 0), int(count or 0)
+
+    def _id_batches(self, first: int, last: int) -> Iterator[List[int]]:
+        """The ids from *first* to *last*, in order, :data:`VERIFY_BATCH` at a time (keyset reads)."""
+        after = first - 1
+        while True:
+            def fetch(after=after):
+                with reading(self.engine) as conn:
+                    return [row[0] for row in conn.execute(
+                        select(Result.id).where(Result.id > after, Result.id <= last)
+                        .order_by(Result.id).limit(VERIFY_BATCH)
+                    )]
+
+            ids = self._guard(fetch)
+            if not ids:
+                return
+            yield ids
+            after = ids[-1]
+
+    def _draw_ids(self, k: int, seed: Optional[int], first: int, last: int, total: int) -> List[int]:
+        """Draw *k* distinct row ids uniformly at random, in SQL; return them in order.
+
+        Notes
+        -----
+        Rejection sampling over the id range: ids drawn uniformly from
+        ``first..last`` in batches, each batch looked up with one indexed
+        ``IN`` query, and the present ones kept in the order drawn until *k*
+        are found, which gives every *k*-subset of the present ids the same
+        chance (Devroye, *Non-Uniform Random Variate Generation*, 1986,
+        ch. II.3).  Expected draws ``k * span / rows``, so when deletions
+        have left the ids sparse (under one in :data:`_SPARSE` present) the
+        draw is ``ORDER BY random() LIMIT k`` in SQL without a seed, or with
+        one a reservoir over the ids read in batches (Vitter's Algorithm R,
+        ACM TOMS 11, 1985), which reads ids only, never values.  Seeded
+        draws repeat on the same store.
+        """
+        rng = random.Random(seed)
+        span = last - first + 1
+        if total * _SPARSE >= span:
+            chosen: List[int] = []
+            seen = set()
+            while len(chosen) < k:
+                need = k - len(chosen)
+                candidates = [rng.randint(first, last) for _ in range(min(4096, need * span // total + 8))]
+                with reading(self.engine) as conn:
+                    present = {row[0] for row in conn.execute(
+                        select(Result.id).where(Result.id.in_(sorted(set(candidates) - seen))))}
+                for candidate in candidates:
+                    if candidate in present and candidate not in seen:
+                        seen.add(candidate)
+                        chosen.append(candidate)
+                        if len(chosen) == k:
+                            break
+            return sorted(chosen)
+        if seed is None:
+            with reading(self.engine) as conn:
+                return sorted(row[0] for row in conn.execute(
+                    select(Result.id).order_by(func.random()).limit(k)))
+        reservoir: List[int] = []
+        for i, row_id in enumerate(row_id for ids in self._id_batches(first, last) for row_id in ids):
+            if i < k:
+                reservoir.append(row_id)
+            else:
+                j = rng.randint(0, i)
+                if j < k:
+                    reservoir[j] = row_id
+        return sorted(reservoir)
+
+    def _load_entries(self, ids: Sequence[int]) -> List[StoredEntry]:
+        """The rows *ids* as entries, read leniently, in a few reads of about :data:`VERIFY_BYTES` each."""
+        raw = [type_coerce(getattr(Result, name), Text).label(name) if name in ("balls", "urns")
+               else getattr(Result, name) for name in RAW_COLUMNS]
+        entries: List[StoredEntry] = []
+        with reading(self.engine) as conn:
+            sizes = conn.execute(
+                select(Result.id, func.coalesce(func.length(Result.value), 0))
+                .where(Result.id.in_(list(ids))).order_by(Result.id)
+            ).all()
+            group: List[int] = []
+            held = 0
+            for position, (row_id, size) in enumerate(sizes):
+                group.append(row_id)
+                held += int(size)
+                if held >= VERIFY_BYTES or position == len(sizes) - 1:
+                    for row in conn.execute(select(*raw).where(Result.id.in_(group)).order_by(Result.id)):
+                        entries.append(StoredEntry.from_columns(row._mapping))
+                    group, held = [], 0
+        return entries
 
     def _replace(self, replacements) -> int:
+        """In one write transaction, put each fresh value in place of its damaged or wrong row; return how many.
+
+        A row with nothing to put in its place (``fresh`` is None) is removed
+        (the store only holds a cache); a row filed under a key that is not
+        its model's canonical one moves there.
+        """
         if self.read_only:
             self._warn_read_only("it cannot be repaired")
             return 0
+
+        def this_row(entry):
+            if entry.row_id:
+                return Result.id == entry.row_id
+            return Result.key_digest == entry.digest
 
         def attempt():
             with writing(self.engine) as conn:
                 for entry, fresh, spent in replacements:
                     if fresh is None:  # nothing to put in its place: a cache row is dropped
-                        conn.execute(delete(Result).where(Result.key_digest == entry.digest))
+                        conn.execute(delete(Result).where(this_row(entry)))
                         continue
                     key = Key.of(model_from_key(entry.rule, entry.balls, entry.bounds))
                     row = self._row(entry.quantity, key, entry.version, fresh, entry.params,
                                     "verify:" + entry.quantity, spent)
                     if row["key_digest"] != entry.digest:
-                        # filed under a text that is not canonical (an older schema's):
-                        # move the answer to the key that finds it
-                        conn.execute(delete(Result).where(Result.key_digest == entry.digest))
+                        # filed under a text that is not canonical (an older schema's) or under
+                        # a wrong digest: move the answer to the key that finds it
+                        conn.execute(delete(Result).where(this_row(entry)))
                         present = conn.execute(
                             select(Result.id).where(Result.key_digest == row["key_digest"])
                         ).first()
@@ -797,7 +999,7 @@ class Store:
                             continue
                     conn.execute(
                         update(Result).where(Result.key_digest == row["key_digest"]).values(
-                            kind=row["kind"], value=row["value"], digits=row["digits"],
+                            urns=row["urns"], kind=row["kind"], value=row["value"], digits=row["digits"],
                             checksum=row["checksum"], method=row["method"],
                             elapsed_ns=row["elapsed_ns"], created_at=row["created_at"],
                         )
@@ -945,6 +1147,11 @@ class Store:
     def close(self) -> None:
         """Release the engine's connections (the store reopens them if used again)."""
         self.engine.dispose()
+
+
+def _whole(text: str) -> int:
+    """A stored ``n`` or ``r`` (decimal text) as an int: ``int()`` for short texts, the exact codec beyond."""
+    return int(text) if len(text) < 4000 else text_int(text)
 
 
 def _decimal_order(column) -> tuple:

@@ -15,8 +15,10 @@ Many processes at once
 
 Read-only stores
     A file that cannot be written (or whose folder cannot be, when it does
-    not exist yet) is opened with SQLite's ``mode=ro`` (:func:`writable`,
-    :func:`make_engine`); the caller then answers reads and skips writes.
+    not exist yet) is opened with SQLite's ``mode=ro``, or ``immutable=1``
+    when it is someone else's WAL file (:func:`writable`,
+    :func:`make_engine`, :func:`~enumerator.store.quick.connect_read_only`);
+    the caller then answers reads and skips writes.
 
 Failures
     :func:`is_busy`, :func:`is_readonly` and :func:`is_damaged` classify a
@@ -39,17 +41,21 @@ from sqlalchemy.engine import URL, Connection, Engine, make_url
 
 from ..core.errors import StoreError
 from .layout import DEFAULT_FILENAME, file_path
+from .quick import connect_read_only, file_kind
 
 __all__ = [
     "BUSY_TIMEOUT",
     "DEFAULT_FILENAME",
     "LOCK_PATIENCE",
     "enable_wal",
+    "damaged_store",
     "explain_failure",
     "is_busy",
+    "is_cannot_open",
     "is_damaged",
     "is_readonly",
     "make_engine",
+    "not_a_store",
     "reading",
     "resolve_location",
     "retry",
@@ -142,7 +148,10 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
     path : pathlib.Path or None
         Its SQLite file, if any.
     read_only : bool
-        Open an existing SQLite file with ``mode=ro``.
+        Open an existing SQLite file for reading only
+        (:func:`~enumerator.store.quick.connect_read_only`: ``mode=ro``, or
+        ``immutable=1`` where this user may not create the file's
+        shared-memory index).
     name : str
         The store's name for error messages.
 
@@ -176,8 +185,14 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
         _drop_connections_after_fork(engine)
         return engine
     if read_only and path is not None and path.exists():
-        url = URL.create("sqlite", database=f"file:{path}?mode=ro", query={"uri": "true"})
-    engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT, "check_same_thread": False})
+        # mode=ro, or immutable=1 for someone else's WAL file (quick.connect_read_only):
+        # nothing is written, no -shm or -wal file is left in the owner's folder
+        engine = create_engine(
+            URL.create("sqlite", database=str(path)),
+            creator=lambda: connect_read_only(path, BUSY_TIMEOUT),
+        )
+    else:
+        engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT, "check_same_thread": False})
 
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_connection, record):
@@ -267,10 +282,62 @@ def is_readonly(error: BaseException) -> bool:
     return "readonly" in text or "read-only" in text or "read only" in text
 
 
+#: Driver words that mean the file or its tables are damaged (SQLITE_CORRUPT, SQLITE_NOTADB,
+#: a truncated file, a table or column gone).  Not "disk I/O error": SQLite also says
+#: that when it may not open a file beside the database, a permissions problem.
+_DAMAGE_WORDS = (
+    "not a database", "malformed", "encrypted", "corrupt", "no such table", "no such column",
+)
+
+
 def is_damaged(error: BaseException) -> bool:
-    """True when *error* says the file is not an SQLite database or is corrupt."""
+    """True when *error* says the file is not an SQLite database, is damaged or truncated, or lost a table."""
     text = _driver_text(error)
-    return "not a database" in text or "malformed" in text or "encrypted" in text
+    return any(word in text for word in _DAMAGE_WORDS)
+
+
+def is_cannot_open(error: BaseException) -> bool:
+    """True when *error* says SQLite could not open the file (or a file beside it: ``-wal``, ``-shm``)."""
+    return "unable to open" in _driver_text(error)
+
+
+def damaged_store(name: str, what: str) -> StoreError:
+    """Return the StoreError for a store file that is damaged: it says so and how to repair it.
+
+    Parameters
+    ----------
+    name : str
+        The store's path or URL.
+    what : str
+        What is wrong, in a few words (the driver's words, say).
+    """
+    return StoreError(
+        f"the store {name} is damaged ({what}); it only holds a cache, so move it aside or "
+        "delete it (the next command starts a new one), or choose another store with store= "
+        "or ENUMERATOR_STORE"
+    )
+
+
+def not_a_store(name: str, what: str, maybe_damaged: bool = False) -> StoreError:
+    """Return the StoreError for a file that is not an enumerator store (nothing in it was changed).
+
+    Parameters
+    ----------
+    name : str
+        The file's path.
+    what : str
+        What the file holds instead, in a few words.
+    maybe_damaged : bool
+        The file might be a store whose header was destroyed (it is not an
+        SQLite file at all): the message then also says how to repair that.
+    """
+    return StoreError(
+        f"{name} is not an enumerator store ({what}); it was left untouched. Choose another "
+        "store with store= or ENUMERATOR_STORE (a new file name or an empty folder), or run "
+        "with no_cache="
+        + ("; if it is a store of yours that was damaged, delete it (it only holds a cache)"
+           if maybe_damaged else "")
+    )
 
 
 def explain_failure(error: BaseException, name: str) -> StoreError:
@@ -286,16 +353,16 @@ def explain_failure(error: BaseException, name: str) -> StoreError:
     Returns
     -------
     StoreError
-        For a damaged file, a lock held too long, or anything else (the
-        driver's own words in parentheses).
+        For a damaged file (it says it is damage and how to repair it), a
+        file that is not an SQLite database (left untouched), a lock held
+        too long, or anything else (the driver's own words in parentheses).
     """
     detail = " ".join(str(getattr(error, "orig", error)).split())
     if is_damaged(error):
-        return StoreError(
-            f"the store {name} is damaged or is not an SQLite database ({detail}); "
-            "it only holds a cache, so move it aside or delete it, or choose another "
-            "store with store= or ENUMERATOR_STORE"
-        )
+        path = Path(name)
+        if path.is_absolute() and file_kind(path) == "other":
+            return not_a_store(name, f"not an SQLite database: {detail}", maybe_damaged=True)
+        return damaged_store(name, detail)
     if is_busy(error):
         return StoreError(
             f"the store {name} stayed locked by another process for "

@@ -16,15 +16,16 @@ import json
 import time
 from dataclasses import dataclass
 from datetime import datetime, timezone
-from typing import Any, Iterable, Iterator, Optional
+from typing import Any, Iterable, Iterator, List, Mapping, Optional
 
-from ..core.errors import EnumeratorError
-from ..core.exact import int_text
+from ..core.errors import EnumeratorError, InvalidParameters
+from ..core.exact import int_text, text_int
 from .codec import decode_value, round_trip
-from .keys import ALGORITHM_VERSIONS, model_from_key, recomputer, row_intact
+from .keys import ALGORITHM_VERSIONS, Key, key_digest, model_from_key, recomputer, row_intact
 from .schema import Result
 
-__all__ = ["EXPORT_COLUMNS", "EXPORT_ENTRY_FORMATS", "Check", "StoredEntry", "check_entry", "export_lines"]
+__all__ = ["EXPORT_COLUMNS", "EXPORT_ENTRY_FORMATS", "HARMLESS", "RAW_COLUMNS", "Check", "StoredEntry",
+           "check_entry", "export_lines"]
 
 #: Formats of :func:`export_lines` (and ``enumerator cache export``).
 EXPORT_ENTRY_FORMATS = ("csv", "jsonl")
@@ -53,6 +54,14 @@ class StoredEntry:
     intact: bool
     #: The SHA-256 key digest the row is filed under (as stored).
     digest: str = ""
+    #: What could not be read in the row's other columns (``""`` when every one reads):
+    #: set by :meth:`from_columns`, reported as damage by :func:`check_entry`.
+    damage: str = ""
+    #: True when the damage is in the key itself (``n`` or the version does not read),
+    #: so nothing can be recomputed for the row.
+    key_damaged: bool = False
+    #: The row's id (0 when not read).
+    row_id: int = 0
 
     @classmethod
     def from_row(cls, row: Result) -> "StoredEntry":
@@ -68,6 +77,81 @@ class StoredEntry:
             method=row.method, elapsed_ns=row.elapsed_ns, created_at=row.created_at,
             intact=row_intact(row.key_digest, row.kind, row.value, row.digits, row.checksum),
             digest=row.key_digest,
+        )
+
+    @classmethod
+    def from_columns(cls, columns: Mapping[str, Any]) -> "StoredEntry":
+        """Return the entry of a row read as raw columns, whatever a damaged row holds.
+
+        Parameters
+        ----------
+        columns : mapping
+            The ``enumerator_results`` columns by name (:data:`RAW_COLUMNS`),
+            with ``balls`` and ``urns`` as their stored text and
+            ``created_at`` as read by :class:`~enumerator.store.schema.StoredTime`
+            (``None`` when it does not read).
+
+        Returns
+        -------
+        StoredEntry
+            With :attr:`damage` naming every column that does not read (a
+            number that is not whole, a missing text, a garbage time); such
+            a column's field holds a harmless stand-in (``0``, ``""``).
+
+        Notes
+        -----
+        :meth:`from_row` reads through the ORM, which stops at the first
+        unreadable number; ``cache verify`` reads every row this way instead,
+        so a damaged row is reported and repaired rather than stopping the
+        scan.  Cost: that of :meth:`from_row`.
+        """
+        damage: List[str] = []
+        key_damaged = False
+
+        def whole(name: str, key: bool) -> int:
+            nonlocal key_damaged
+            raw = columns.get(name)
+            if isinstance(raw, int) and not isinstance(raw, bool):
+                return raw
+            if isinstance(raw, str):
+                try:
+                    return text_int(raw)
+                except (ValueError, TypeError):
+                    pass
+            damage.append(f"{name} {str(raw)[:40]!r} is not a whole number")
+            key_damaged = key_damaged or key
+            return 0
+
+        def text(name: str, key: bool) -> str:
+            nonlocal key_damaged
+            raw = columns.get(name)
+            if isinstance(raw, str):
+                return raw
+            damage.append(f"{name} is missing")
+            key_damaged = key_damaged or key
+            return ""
+
+        quantity, rule, bounds = text("quantity", True), text("rule", True), text("bounds", True)
+        params = text("params", True)
+        balls, urns, version = whole("balls", True), whole("urns", False), whole("version", True)
+        kind, value = text("kind", False), text("value", False)
+        digits, checksum = columns.get("digits"), columns.get("checksum")
+        elapsed = columns.get("elapsed_ns")
+        created = columns.get("created_at")
+        if not isinstance(created, datetime):
+            damage.append("created_at does not read as a time")
+            created = None
+        digest = columns.get("key_digest")
+        digest = digest if isinstance(digest, str) else ""
+        intact = (isinstance(digits, int) and isinstance(checksum, int)
+                  and row_intact(digest, kind, value, digits, checksum))
+        return cls(
+            quantity=quantity, rule=rule, balls=balls, urns=urns, bounds=bounds, params=params,
+            version=version, kind=kind, text=value, digits=digits if isinstance(digits, int) else 0,
+            method=columns.get("method") if isinstance(columns.get("method"), str) else "",
+            elapsed_ns=elapsed if isinstance(elapsed, int) else 0, created_at=created,
+            intact=intact, digest=digest, damage="; ".join(damage), key_damaged=key_damaged,
+            row_id=columns.get("id") or 0,
         )
 
     @property
@@ -100,6 +184,30 @@ class Check:
     elapsed_ns: int
 
 
+#: The columns :meth:`StoredEntry.from_columns` reads, in order.
+RAW_COLUMNS = ("id", "quantity", "rule", "balls", "urns", "bounds", "params", "version", "kind", "value",
+               "digits", "checksum", "method", "elapsed_ns", "created_at", "key_digest")
+
+#: How :func:`check_entry` names each kind of damage (the start of a ``problem``).
+UNKNOWN_QUANTITY = "unknown quantity"
+UNREADABLE_KEY = "unreadable key"
+DAMAGED_VALUE = "damaged (checksum or digit count disagrees)"
+UNREADABLE_VALUE = "unreadable value"
+UNREADABLE_PARAMS = "unreadable parameters"
+WRONG_DIGEST = "wrong digest"
+WRONG_URNS = "wrong urn count"
+UNREADABLE_TIME = "unreadable created_at"
+WRONG_VALUE = "value differs from a fresh computation"
+
+#: Problems that never give a wrong answer: the row's value is right (or is never served).
+HARMLESS = (UNREADABLE_TIME, UNKNOWN_QUANTITY)
+
+
+def _current_key_digest(entry: StoredEntry) -> str:
+    return key_digest(entry.quantity, Key(entry.rule, entry.balls, entry.bounds, entry.urns),
+                      entry.params, entry.version)
+
+
 def check_entry(entry: StoredEntry) -> Optional[Check]:
     """Recompute *entry* with its quantity's pure function and compare it with the stored value.
 
@@ -111,16 +219,27 @@ def check_entry(entry: StoredEntry) -> Optional[Check]:
     Returns
     -------
     Check or None
-        None when the entry cannot be checked (its quantity has no
-        recomputer, its version is superseded, or the recomputation is
-        refused as too large while the row itself is sound); else the fresh
-        value (``None`` when there is none), the time it took, and the
-        problem found: ``"unreadable key ..."`` (the rule, ``n`` or bounds
-        text do not describe a model: nothing can be recomputed),
-        ``"damaged (checksum or digit count disagrees)"``, ``"unreadable
-        value"``, ``"value differs from a fresh computation"`` (also when
-        only the type differs, e.g. a whole ``Fraction`` against an
-        ``int``), or None.
+        None when the entry cannot be checked and shows no damage (its
+        quantity has no recomputer, its version is superseded, or the
+        recomputation is refused as too large while the row itself is
+        sound); else the fresh value (``None`` when there is none: the row
+        can only be removed), the time it took, and the problem found, or
+        None.  Every problem is damage, named by how it starts:
+
+        * ``"unknown quantity"``: no quantity of that name is registered
+          (nothing reads the row);
+        * ``"unreadable key ..."``: ``n``, the version, the rule or the
+          bounds text does not read (nothing can be recomputed);
+        * ``"damaged (checksum or digit count disagrees)"``;
+        * ``"unreadable value ..."``: the text is not of its kind;
+        * ``"unreadable parameters ..."``: the recomputer cannot read the
+          parameter text (nothing can be recomputed);
+        * ``"wrong digest"``: the row is filed under a digest that is not
+          its key's;
+        * ``"wrong urn count"``: ``urns`` disagrees with the bounds text;
+        * ``"unreadable created_at"``: the value is right, its time is not;
+        * ``"value differs from a fresh computation"`` (also when only the
+          type differs, e.g. a whole ``Fraction`` against an ``int``).
 
     Notes
     -----
@@ -129,34 +248,57 @@ def check_entry(entry: StoredEntry) -> Optional[Check]:
     and weighted entries are recomputed for the model they were stored
     for.  Cost: one fresh computation of the quantity.
     """
-    recompute = recomputer(entry.quantity)
-    if recompute is None or entry.stale:
+    if entry.quantity not in ALGORITHM_VERSIONS and not entry.key_damaged:
+        return Check(f"{UNKNOWN_QUANTITY} {entry.quantity[:64]!r} (nothing registers it, so nothing reads "
+                     "the row)", None, 0)
+    if entry.key_damaged:
+        return Check(f"{UNREADABLE_KEY} ({entry.damage})", None, 0)
+    if entry.stale:
         return None
+    recompute = recomputer(entry.quantity)
+    filed_right = entry.digest == _current_key_digest(entry)
+    if recompute is None:
+        if entry.intact and filed_right and not entry.damage:
+            return None  # sound, but nothing here can recompute it
+        # damaged, and nothing to put in its place: a cache row is dropped
+        problem = DAMAGED_VALUE if not entry.intact else (WRONG_DIGEST if not filed_right else
+                                                          f"{UNREADABLE_TIME} ({entry.damage})")
+        return Check(problem + "; no recomputer is registered for the quantity", None, 0)
     try:
         model = model_from_key(entry.rule, entry.balls, entry.bounds)
     except EnumeratorError as error:
-        return Check(f"unreadable key ({error})", None, 0)
+        return Check(f"{UNREADABLE_KEY} ({error})", None, 0)
     sound = entry.intact
+    unreadable = ""
     if sound:
         try:
             stored = entry.value
-        except (ValueError, TypeError):
-            sound = False
+        except (ValueError, TypeError) as error:
+            sound, unreadable = False, str(error)[:80]
     t0 = time.perf_counter_ns()
     try:
         fresh = recompute(model, entry.params)
+    except (InvalidParameters, ValueError, TypeError, KeyError, IndexError) as error:
+        # the parameter text does not read (a damaged row): nothing can be recomputed
+        return Check(f"{UNREADABLE_PARAMS} ({' '.join(str(error).split())[:120]})", None, 0)
     except EnumeratorError:
-        if sound:
+        if sound and filed_right and not entry.damage:
             return None  # refused (too large, unsupported): the row cannot be checked
         fresh = None
     spent = time.perf_counter_ns() - t0
     problem = None
     if not entry.intact:
-        problem = "damaged (checksum or digit count disagrees)"
+        problem = DAMAGED_VALUE
     elif not sound:
-        problem = "unreadable value"
+        problem = f"{UNREADABLE_VALUE} ({unreadable})" if unreadable else UNREADABLE_VALUE
+    elif not filed_right:
+        problem = f"{WRONG_DIGEST} (the row is filed under a digest its key does not have)"
+    elif model.urns != entry.urns:
+        problem = f"{WRONG_URNS} ({entry.urns} stored, {model.urns} in the bounds text)"
+    elif entry.damage:
+        problem = f"{UNREADABLE_TIME} ({entry.damage})"
     elif stored != fresh or type(stored) is not type(round_trip(fresh)):
-        problem = "value differs from a fresh computation"
+        problem = WRONG_VALUE
     return Check(problem, fresh, spent)
 
 

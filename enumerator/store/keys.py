@@ -234,15 +234,16 @@ def stored_value(name: str, quantity: str, key: Key, digest: str, kind: str, tex
     if not row_intact(digest, kind, text, digits, checksum):
         raise StoreError(
             f"the store {name} holds a damaged entry for {quantity} of {key.rule} "
-            f"n={key.balls} bounds {key.bounds}; run 'enumerator cache verify --fix' or "
-            "delete the store file (it only holds a cache)"
+            f"n={key.balls} bounds {key.bounds} (its checksum disagrees); repair it with "
+            "'enumerator cache verify --fix --all', or delete the store file (it only holds a cache)"
         )
     try:
         return decode_value(kind, text)
     except (ValueError, TypeError):
         raise StoreError(
-            f"the store {name} holds an unreadable entry for {quantity} of {key.rule} "
-            f"n={key.balls}; run 'enumerator cache verify --fix' or delete the store file"
+            f"the store {name} holds a damaged, unreadable entry for {quantity} of {key.rule} "
+            f"n={key.balls} bounds {key.bounds} (its value does not read as {str(kind)[:16]!r}); repair "
+            "it with 'enumerator cache verify --fix --all', or delete the store file (it only holds a cache)"
         ) from None
 
 

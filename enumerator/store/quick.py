@@ -5,8 +5,10 @@ importing SQLAlchemy (engine, SQL compiler, ORM) costs several times more
 than reading one row.  So :func:`~enumerator.store.context.remember` first
 asks :func:`read` here, for a store that is an existing SQLite file:
 
-* the file is opened read-only (``file:...?mode=ro``): no write, no switch
-  to WAL, no file created;
+* the file is opened read-only (:func:`connect_read_only`: ``mode=ro``, or
+  ``immutable=1`` when the user may not create the shared-memory file of a
+  WAL database): no write, no switch to WAL, no file created, so a store
+  the user may only read answers as fast as their own;
 * one statement reads the store's ``schema_version`` and the row filed under
   the key's digest (:func:`~enumerator.store.keys.key_digest`) in the same
   snapshot;
@@ -37,7 +39,7 @@ from typing import Dict, Optional
 from .keys import Key, key_digest, stored_value
 from .layout import LOOKUP_TABLE, META_SCHEMA_VERSION, META_TABLE, RESULTS_TABLE, current_schema_version
 
-__all__ = ["MISSING", "close_all", "read"]
+__all__ = ["MISSING", "SQLITE_HEADER", "close_all", "connect_read_only", "file_kind", "read"]
 
 #: Returned by :func:`read` when this module cannot answer (use the full store).
 MISSING = object()
@@ -54,6 +56,102 @@ _SELECT = (
 )
 
 
+#: The first 16 bytes of every SQLite 3 database file.
+SQLITE_HEADER = b"SQLite format 3\x00"
+
+
+def file_kind(path: Path) -> str:
+    """Say what the file *path* holds, from its first 100 bytes: ``"missing"``, ``"empty"``,
+    ``"unreadable"``, ``"wal"`` (an SQLite database in WAL mode), ``"sqlite"`` (another
+    journal mode) or ``"other"`` (not an SQLite database).
+
+    Notes
+    -----
+    The journal mode is the file-format write version, byte 18 of the
+    database header (2 for WAL), as the SQLite file-format document
+    describes ("The Database File Format", section 1.3).  Cost: one read
+    of 100 bytes.
+    """
+    try:
+        with open(path, "rb") as handle:
+            head = handle.read(100)
+    except FileNotFoundError:
+        return "missing"
+    except OSError:
+        return "unreadable"
+    if not head:
+        return "empty"
+    if not head.startswith(SQLITE_HEADER):
+        return "other"
+    return "wal" if len(head) > 18 and head[18] == 2 else "sqlite"
+
+
+def _read_only_uris(path: Path):
+    """The URIs to try, in order, to read *path* without writing anything."""
+    plain = path.as_uri() + "?mode=ro"
+    # immutable: no -shm or -wal file is created or read, no lock is taken
+    immutable = plain + "&immutable=1"
+    if not os.access(path, os.W_OK) and file_kind(path) == "wal" and not Path(f"{path}-wal").exists():
+        # someone else's WAL file that nobody has open (no log beside it): opening it
+        # mode=ro would need a -shm file this user may not create, or would leave one
+        # owned by this user in the owner's folder (which then stops the owner
+        # writing), and there is nothing in a log to miss
+        return (immutable,)
+    return (plain, immutable)
+
+
+def connect_read_only(path: Path, timeout: float) -> sqlite3.Connection:
+    """Open the SQLite file *path* for reading only, whoever owns it.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        An existing SQLite file.
+    timeout : float
+        Seconds to wait for another process's lock.
+
+    Returns
+    -------
+    sqlite3.Connection
+        In autocommit; it never writes the file, nor creates one beside it.
+
+    Raises
+    ------
+    sqlite3.Error
+        When neither way of opening can read the file's schema.
+
+    Notes
+    -----
+    First ``mode=ro``, which sees a writer's log (``-wal``) through its
+    shared-memory index; when that cannot be opened (a WAL file whose
+    ``-shm`` this user may not create or read: SQLite's "attempt to write
+    a readonly database"), then ``immutable=1``, which reads the main file
+    alone.  Someone else's WAL file with no log beside it is opened
+    ``immutable`` at once: nobody has it open, so its main file holds
+    every committed row, and ``mode=ro`` would leave a ``-shm`` file owned
+    by this user in the owner's folder.  An immutable reader does not see
+    what a writer commits later; a row it reads half-written fails its
+    checksum and is refused, never served (SQLite's URI parameters are documented in "Uniform
+    Resource Identifiers", sqlite.org/uri.html).  Cost: one or two opens
+    and one read of ``sqlite_master``.
+    """
+    failure: Optional[sqlite3.Error] = None
+    for uri in _read_only_uris(path):
+        conn = sqlite3.connect(uri, uri=True, timeout=timeout, isolation_level=None, check_same_thread=False)
+        try:
+            conn.execute("SELECT count(*) FROM sqlite_master").fetchone()
+        except sqlite3.Error as error:
+            conn.close()
+            failure = error
+            text = str(error).lower()
+            if "readonly" in text or "read-only" in text or "unable to open" in text:
+                continue  # the next way may read it
+            raise
+        return conn
+    assert failure is not None
+    raise failure
+
+
 class _Reader:
     """One read-only connection to one SQLite file, opened on first use and shared under a lock."""
 
@@ -64,10 +162,7 @@ class _Reader:
         self.identity = None  # (device, inode) of the file the connection reads
 
     def _connect(self, identity) -> sqlite3.Connection:
-        conn = sqlite3.connect(
-            self.path.as_uri() + "?mode=ro", uri=True, timeout=_BUSY_TIMEOUT,
-            isolation_level=None, check_same_thread=False,
-        )
+        conn = connect_read_only(self.path, _BUSY_TIMEOUT)
         try:
             found = conn.execute(
                 f"SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN ({', '.join('?' * len(_TABLES))})",

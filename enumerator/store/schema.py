@@ -58,6 +58,7 @@ __all__ = [
     "Meta",
     "Result",
     "SCHEMA_VERSION",
+    "StoredTime",
 ]
 
 # The layout's numbers live in .layout (no SQLAlchemy there, so the quick
@@ -86,6 +87,36 @@ class DecimalInt(TypeDecorator):
     def process_result_value(self, value, dialect):
         """Read decimal digits back as an exact ``int`` (NULL gives ``None``)."""
         return None if value is None else text_int(value)
+
+
+class StoredTime(TypeDecorator):
+    """A timestamp with its time zone that reads back as ``None`` when the stored text is not one.
+
+    SQLite keeps a timestamp as text, so a damaged or hand-edited row may
+    hold anything there; SQLAlchemy's own reader raises ``ValueError`` on it,
+    which would stop every scan of the table at that row.  Read through this
+    type, a garbage time is ``None``, which
+    :func:`~enumerator.store.entries.check_entry` reports as damage.  The
+    column's SQL type is unchanged (``TIMESTAMP WITH TIME ZONE`` on
+    PostgreSQL, which refuses garbage itself).
+    """
+
+    impl = DateTime(timezone=True)
+    cache_ok = True
+
+    def result_processor(self, dialect, coltype):
+        """The driver's reader of timestamps, giving ``None`` for a value it cannot read."""
+        inner = super().result_processor(dialect, coltype)
+        if inner is None:
+            return None
+
+        def process(value):
+            try:
+                return inner(value)
+            except (ValueError, TypeError, OverflowError):
+                return None
+
+        return process
 
 
 class Base(DeclarativeBase):
@@ -126,7 +157,7 @@ class Result(Base):
     checksum: Mapped[int] = mapped_column(BigInteger)
     method: Mapped[str] = mapped_column(String(200))
     elapsed_ns: Mapped[int] = mapped_column(BigInteger)
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_at: Mapped[datetime] = mapped_column(StoredTime)
 
     __table_args__ = (
         Index("ix_enumerator_results_row", "quantity", "rule", "urns", "version"),
@@ -154,7 +185,7 @@ class LookupTable(Base):
     balls_last: Mapped[int] = mapped_column(DecimalInt)
     urns_first: Mapped[int] = mapped_column(DecimalInt)
     urns_last: Mapped[int] = mapped_column(DecimalInt)
-    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_at: Mapped[datetime] = mapped_column(StoredTime)
 
     def __repr__(self) -> str:
         return f"LookupTable({self.name!r})"
