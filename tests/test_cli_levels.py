@@ -94,9 +94,10 @@ def test_trap_preset_reports_the_levels_up_to_the_maximum_energy():
     assert entry["occupation_approx"][0] > entry["occupation_approx"][1]
 
 
-def test_rational_energies_report_their_unit():
+def test_rational_energies_are_keyed_in_the_users_unit():
+    # Two bosons on levels 0 and 1/2: totals 0, 1/2, 1, one microstate each (by hand).
     payload = run_json("levels", "--particles", 2, "--energies", "0,1/2", "--rule", "BE", "--max-energy", "1")
-    assert payload == {"unit": "1/2", "multiplicity": {"0": "1", "1": "1", "2": "1"}}
+    assert payload == {"unit": "1/2", "multiplicity": {"0": "1", "1/2": "1", "1": "1"}}
 
 
 def test_microcanonical_flag_adds_ln_omega_and_temperature():

@@ -12,7 +12,8 @@ from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json
+from ..core.errors import InvalidParameters
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -115,14 +116,34 @@ def levels_command(
     ] = None,
     max_energy: Annotated[
         Optional[str],
-        _levels_opt("--max-energy", "Largest total energy counted (default: the highest reachable, "
-                    "finite spectra only). Ladders list their levels up to it.", metavar="E"),
+        _levels_opt("--max-energy", "Largest total energy of the multiplicities Ω(N, E) (default: the "
+                    "highest reachable, finite spectra only). Ladders list their levels up to it. Not needed "
+                    "for canonical results alone: they use the whole ladder.", metavar="E"),
     ] = None,
     temperatures: Annotated[
         Optional[str],
-        _levels_opt("--temperatures", "Canonical results at these k_B T (energy unit), e.g. 0.5,1,2.",
-                    _THERMO, "T1,T2,..."),
+        _levels_opt("--temperatures", "Canonical results at these k_B T, in the energy unit (the level "
+                    "spacing for harmonic/trap/einstein): a list 0.5,1,2; a range 1..20 (step 1); "
+                    "0.1..20:40 (40 points, linear); 0.1..20:40:log (geometric).", _THERMO, "T1,T2,..|A..B:K"),
     ] = None,
+    factor: Annotated[
+        Optional[str],
+        _levels_opt("--factor", "Instead of temperatures: exact Boltzmann factors x = e^(-unit/k_B T), "
+                    "0 < x < 1, e.g. 1/2 (a state of energy e weighs x^(e/unit)); the occupation law is "
+                    "then exact.", _THERMO, "X1,X2,..."),
+    ] = None,
+    occupation_law: Annotated[
+        Optional[int],
+        _levels_opt("--occupation-law", "The canonical law P(n = k) of the occupation of this level "
+                    "(0 = the lowest listed level / ladder rung), with its mean and variance beside the "
+                    "grand-canonical variance.", _THERMO, "LEVEL"),
+    ] = None,
+    route: Annotated[
+        str,
+        _levels_opt("--route", "Canonical method: auto (fermions far below the Fermi temperature by the "
+                    "particle-hole expansion, the rest by the Borrmann-Franke recursion), recursion, "
+                    "particle-hole (FD only).", _THERMO, "auto|recursion|particle-hole"),
+    ] = "auto",
     digits: Annotated[
         int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath).", _THERMO)
     ] = 50,
@@ -137,27 +158,56 @@ def levels_command(
     plot: Annotated[
         Optional[str],
         typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
-                     help="Draw multiplicity against energy and, with --temperatures, canonical "
-                     "occupations against the grand-canonical formula."),
+                     help="Draw what was computed: multiplicity against energy; canonical occupations "
+                     "against the grand-canonical formula; with several temperatures C(T), U(T), <N0>(T) "
+                     "and δN0(T) against the grand-canonical curves; with --occupation-law the law P(n = k)."),
     ] = None,
     as_json: Json = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
 ) -> None:
     """Exact multiplicities Ω(N, E) of particles on energy levels, and the ensembles.
 
     Ω(N, E) counts the microstates of N particles with total energy E, exactly,
     from the generating functions prod (1 - x t^e)^-g (BE), prod (1 + x t^e)^g
     (FD), (sum g t^e)^N (MB, distinguishable particles); they are the
-    coefficients of the canonical partition function Z_N(t).  Energies are
-    reported as whole multiples of "unit".  With --temperatures: Z, mean
-    energy, heat capacity, free energy, entropy and level occupations from the
-    exact canonical recursion (Borrmann-Franke), beside the grand-canonical
-    occupation formulas at the chemical potential giving mean N.
+    coefficients of the canonical partition function Z_N(t).  Energies and
+    k_B T are in the user's energy unit (the level spacing for the presets),
+    everywhere, JSON keys included; "unit" is the grid the energies lie on.
+    With --temperatures (or exact Boltzmann factors --factor): Z, mean
+    energy, heat capacity, free energy, entropy, energy and ground-level
+    fluctuations and level occupations from the exact canonical recursion
+    (Borrmann-Franke; fermions far below the Fermi temperature by the
+    particle-hole expansion), beside the grand-canonical formulas at the
+    chemical potential giving mean N.  --occupation-law LEVEL adds the whole
+    canonical law P(n = k) of one level.
 
     Example:
 
         $ enumerator levels --particles 3 --energies 0,1,2,3 --degeneracies 1,3,5,7 --rule BE --max-energy 6
-        $ enumerator levels --preset trap --particles 100 --rule BE --max-energy 40 --temperatures 2,4 --json
+        $ enumerator levels --preset trap --particles 100 --rule BE --temperatures 2,4 --json
+        $ enumerator levels --preset trap --particles 969 --rule FD --temperatures 0.1,0.3,1
+        $ enumerator levels --preset trap --particles 1000 --rule BE --temperatures 1..12:12 --occupation-law 0 --plot c.png
+        $ enumerator levels --preset harmonic --particles 20 --rule BE --factor 1/2 --occupation-law 0 --json
         $ enumerator levels --preset einstein --oscillators 3 --max-energy 6 --microcanonical
+    """
+    with limits_scope(max_memory, max_seconds):
+        _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
+                max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
+                as_json)
+
+
+def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
+            max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
+            as_json) -> None:
+    """The body of :func:`levels_command` (inside the limits the user set).
+
+    Parameters
+    ----------
+    particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators
+        The system's options.
+    max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot, as_json
+        What to compute and how to show it.
     """
     from ..algorithms import levels as lv
     from . import render_levels
@@ -168,15 +218,93 @@ def levels_command(
         top = lv.parse_rational(max_energy, "--max-energy")
         listed = system.spectrum.through(math.floor(top / system.spectrum.unit))
         system = lv.System(listed, system.particles, system.rule, system.capacity)
-    counts = lv.multiplicities(system, max_energy)
-    points = None
-    if temperatures is not None:
-        values = [t.strip() for t in temperatures.split(",")]
-        points = lv.canonical(system, values, digits=digits, levels=report_levels)
+    temps, factors = _thermal_points(lv, system, temperatures, factor, digits)
+    if occupation_law is not None and not temps:
+        raise InvalidParameters("--occupation-law needs --temperatures or --factor",
+                                   parameters=["occupation_law", "temperatures"])
+    # Multiplicities only where they can be listed: a finite spectrum, or a
+    # ladder cut by --max-energy; canonical results alone use the whole ladder.
+    counts = None
+    if max_energy is not None or system.spectrum.finite or not temps:
+        counts = lv.multiplicities(system, max_energy)
+    points = laws = None
+    if temps:
+        report = report_levels
+        if report is None and max_energy is None and not system.spectrum.finite:
+            report = _default_report(lv, system, temps)
+        points = lv.canonical(system, temps, digits=digits, levels=report, route=route)
+        if occupation_law is not None:
+            laws = [None] * len(temps)
+            floats = [i for i, x in enumerate(factors) if x is None]
+            for i, law in zip(floats, lv.occupation_law(system, occupation_law, [temps[i] for i in floats],
+                                                        digits=max(digits, 16))):
+                laws[i] = law
+            for i, x in enumerate(factors):
+                if x is not None:
+                    laws[i] = lv.occupation_law_exact(system, occupation_law, x)
+    if micro and counts is None:
+        raise InvalidParameters("--microcanonical needs --max-energy on an infinite ladder",
+                                   parameters=["max_energy"])
     micro_points = lv.microcanonical(system, max_energy) if micro else None
     if plot is not None:
-        render_levels.plot_levels(plot, system, counts, points or ())
+        render_levels.plot_levels(plot, system, counts, points or (), laws or ())
     if as_json:
-        emit_json(render_levels.levels_payload(system, counts, points, micro_points))
+        emit_json(render_levels.levels_payload(system, counts, points, micro_points, laws, factors))
         return
-    render_levels.show_levels(system, counts, points, micro_points, max_energy, plot)
+    render_levels.show_levels(system, counts, points, micro_points, max_energy, plot, laws, factors)
+
+
+def _thermal_points(lv, system, temperatures, factor, digits):
+    """The temperatures asked for, and beside each its exact Boltzmann factor (``None`` for a temperature).
+
+    Parameters
+    ----------
+    lv : module
+        :mod:`enumerator.algorithms.levels`.
+    system : System
+    temperatures, factor : str or None
+        The option texts.
+    digits : int
+
+    Returns
+    -------
+    (list of Fraction, list of Fraction or None)
+        ``k_B T`` values (a factor ``x`` gives ``unit / ln(1/x)``) and the factors.
+    """
+    if temperatures is not None and factor is not None:
+        raise InvalidParameters("give --temperatures or --factor, not both",
+                                   parameters=["temperatures", "factor"])
+    if temperatures is not None:
+        temps = lv.parse_temperatures(temperatures)
+        return temps, [None] * len(temps)
+    if factor is not None:
+        factors = [lv.parse_factor(x.strip()) for x in factor.split(",")]
+        return [lv.factor_temperature(x, system.spectrum.unit, digits) for x in factors], factors
+    return [], []
+
+
+def _default_report(lv, system, temps) -> int:
+    """How many ladder rungs to list without --max-energy: through the Fermi shell and 4 k_B T above it (3 to 64).
+
+    Parameters
+    ----------
+    lv : module
+    system : System
+        On an infinite ladder.
+    temps : list of Fraction
+
+    Returns
+    -------
+    int
+    """
+    lad = system.spectrum.ladder
+    top = 0
+    if system.capacity is not None:
+        filled, m = 0, 0
+        while filled + lad.degeneracy(m) * system.capacity < system.particles:
+            filled += lad.degeneracy(m) * system.capacity
+            m += 1
+        top = m
+    spacing = lad.spacing * system.spectrum.unit
+    top += math.ceil(4 * max(temps) / spacing)
+    return max(3, min(64, top + 1))

@@ -34,7 +34,16 @@ Boltzmann's constant ``k_B = 1``.
 
 from __future__ import annotations
 
-from .ensembles import DEFAULT_DIGITS, CanonicalPoint, canonical, canonical_occupations, grand_canonical
+from .ensembles import (
+    DEFAULT_DIGITS,
+    ROUTES,
+    CanonicalPoint,
+    canonical,
+    canonical_occupations,
+    grand_canonical,
+    grand_canonical_level_variance,
+    parse_temperatures,
+)
 from .multiplicities import (
     MAX_CELLS,
     Contact,
@@ -44,7 +53,7 @@ from .multiplicities import (
     multiplicity_table,
     thermal_contact,
 )
-from .occupation import OccupationLaw, occupation_law, occupation_law_exact, parse_factor
+from .occupation import OccupationLaw, factor_temperature, occupation_law, occupation_law_exact, parse_factor
 from .spectra import (
     PRESETS,
     Ladder,
@@ -74,6 +83,10 @@ __all__ = [
     "canonical_occupations",
     "einstein_solid",
     "grand_canonical",
+    "grand_canonical_level_variance",
+    "factor_temperature",
+    "ROUTES",
+    "parse_temperatures",
     "ground_energy",
     "harmonic_oscillator",
     "harmonic_trap",

@@ -76,10 +76,11 @@ from .ensembles import (
     _parse_temperature,
     _to_fixed,
     grand_canonical,
+    grand_canonical_level_variance,
 )
 from .spectra import System, ground_energy, parse_rational
 
-__all__ = ["OccupationLaw", "occupation_law", "occupation_law_exact", "parse_factor"]
+__all__ = ["OccupationLaw", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
 
 
 @dataclass(frozen=True)
@@ -302,33 +303,12 @@ def _moments(law):
 
 def _grand(system: System, index: int, temperature: Fraction, digits: int):
     """Grand-canonical ``(mean, variance)`` of the level's occupation (independent states), or ``(None, None)``."""
-    if system.spectrum.name == "Einstein solid":
+    if not system.has_reservoir:
         return None, None  # localised oscillators: their number is fixed, no particle reservoir
-    e_l, g = _level(system, index)
     mu, occ = grand_canonical(system, temperature, digits, levels=index + 1)
     if mu is None:
         return None, None
-    with mpmath.workdps(digits + GUARD_DIGITS):
-        mean = occ[index]
-        f = mean / g
-        if system.rule is Rule.MB:
-            var = g * f
-        elif system.capacity is None:
-            var = g * f * (1 + f)
-        elif system.capacity == 1:
-            var = g * f * (1 - f)
-        else:
-            T = mpmath.mpf(temperature.numerator) / temperature.denominator
-            u = system.spectrum.unit
-            x = (mpmath.mpf(e_l * u.numerator) / u.denominator - mu) / T
-            y = mpmath.exp(-x)
-            ws = [y**j for j in range(system.capacity + 1)]
-            z = mpmath.fsum(ws)
-            m1 = mpmath.fsum(j * w for j, w in enumerate(ws)) / z
-            m2 = mpmath.fsum(j * j * w for j, w in enumerate(ws)) / z
-            var = g * (m2 - m1 * m1)
-        with mpmath.workdps(digits):
-            return +mean, +var
+    return occ[index], grand_canonical_level_variance(system, temperature, mu, index, occ[index], digits)
 
 
 def _check_system(system: System) -> None:

@@ -454,6 +454,15 @@ class System:
         return cls(spectrum, n, rule, capacity)
 
     @property
+    def has_reservoir(self) -> bool:
+        """False for localised, distinguishable oscillators (an Einstein solid): no grand-canonical ensemble.
+
+        Their number is fixed by the crystal, so a chemical potential and
+        grand-canonical occupations mean nothing for them.
+        """
+        return self.spectrum.name != "Einstein solid"
+
+    @property
     def label(self) -> str:
         """A short description for titles."""
         if self.spectrum.name == "Einstein solid":
