@@ -177,6 +177,35 @@ def _mb_max_extend(n: int, r: int, m: int, d: int, vtails) -> "mpz":
 _COST_MILLER, _COST_LEVEL, _COST_EXTEND = 2.45, 4.5, 8.0
 
 
+def _mb_max_plan(n: int, r: int, first: int, last: int):
+    """The steps of :func:`mb_max_cumulative` below ``n // 2``: ``[(m, D, miller, units)]``.
+
+    Each step computes ``A_m`` by Miller's recurrence (``miller``), or by the
+    levels at base ``m`` followed by ``D`` extensions (``A_{m+1..m+D}``);
+    ``units`` is its work in the relative units ``_COST_*``.  The choice is
+    made from the cost model alone, so the plan is known before any
+    arithmetic (:func:`mb_max_seconds` prices it).
+    """
+    plan = []
+    m = first
+    while m <= last:
+        spent = _COST_LEVEL * (_level_cost(n, r, m) + n)
+        D = 0
+        while m + D + 1 <= last:
+            extra = _COST_EXTEND * _extension_cost(n, r, m, D + 1)
+            if extra >= spent / (D + 1):
+                break
+            spent += extra
+            D += 1
+        if _COST_MILLER * n * m <= spent / (D + 1):
+            plan.append((m, 0, True, _COST_MILLER * n * m))
+            m += 1
+            continue
+        plan.append((m, D, False, spent))
+        m += D + 1
+    return plan
+
+
 def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
     r"""Count the MB assignments with every urn at most ``m``, for every ``m`` up to *top*.
 
@@ -227,20 +256,9 @@ def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
                 A[s] = total - r * suffix
             suffix += term
             term = divexact(term * s * (r - 1), n - s + 1)
-    m = lo
-    last = min(top, half - 1)
-    while m <= last:
-        spent = _COST_LEVEL * (_level_cost(n, r, m) + n)
-        D = 0
-        while m + D + 1 <= last:
-            extra = _COST_EXTEND * _extension_cost(n, r, m, D + 1)
-            if extra >= spent / (D + 1):
-                break
-            spent += extra
-            D += 1
-        if _COST_MILLER * n * m <= spent / (D + 1):
+    for m, D, miller, _ in _mb_max_plan(n, r, lo, min(top, half - 1)):
+        if miller:
             A[m] = _mb_miller(n, r, m)
-            m += 1
             continue
         value, tails = _mb_max_levels(n, r, m, lambda t, D=D: t * max(D - 1, 0) + 1)
         A[m] = value
@@ -256,7 +274,6 @@ def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
                 vtails.append(row)
             for d in range(1, D + 1):
                 A[m + d] = _mb_max_extend(n, r, m, d, vtails)
-        m += D + 1
     return A
 
 
