@@ -25,6 +25,7 @@ import sqlite3
 from fractions import Fraction
 
 import pytest
+import sqlalchemy as sa
 from cli_helpers import one_line_error, run, run_json
 
 from enumerator import Occupancy, StoreError
@@ -374,6 +375,16 @@ def test_an_unreadable_n_is_damage_and_fix_removes_the_row(damaged):
     _assert_clean(damaged)
 
 
+def test_reading_a_row_whose_number_does_not_read_is_damage_not_a_crash(damaged):
+    row = _be_row(damaged, 3)
+    _execute(damaged, "UPDATE enumerator_results SET urns = '3 urns' WHERE id = ?", row["id"])
+    line = one_line_error(run("cache", "export", "--store", damaged), quiet_stdout=False)
+    assert "damaged row" in line and "cache verify --fix --all" in line
+    code, report = _verify(damaged, "--fix")
+    assert code == 0 and report["fixed"] == "1"
+    assert run("cache", "export", "--store", damaged).exit_code == 0
+
+
 def test_a_damaged_distribution_that_dist_points_to_is_repaired_by_verify_fix_all(damaged):
     [row] = _rows(damaged, "WHERE quantity = 'distribution'")
     _execute(damaged, "UPDATE enumerator_results SET value = replace(value, '1/27', '2/27') WHERE id = ?", row["id"])
@@ -488,3 +499,24 @@ def test_a_digest_mismatch_row_moved_by_fix_is_not_checked_twice(many):
     report = many.verify(fix=True)
     assert report["checked"] == 210 and report["fixed"] == 1
     assert many.get("configurations", Key.of(Occupancy(balls=40, urns=1, rule="BE")), 1) == 1
+
+
+def test_sampling_and_repair_on_postgresql(postgres_url, monkeypatch):
+    store = results.Store(postgres_url)
+    store.put_many(
+        ("configurations", Key.of(Occupancy(balls=n, urns=r, rule="BE")), 1, _stars_and_bars(n, r), "", "", 0)
+        for n in range(20) for r in range(1, 6)
+    )
+    loaded = _spy(monkeypatch)
+    assert store.verify(sample=7, seed=1)["checked"] == 7 and len(set(loaded)) == 7
+    with store.engine.begin() as conn:
+        conn.execute(sa.text("DELETE FROM enumerator_results WHERE mod(id, 25) != 0"))
+        conn.execute(sa.text("UPDATE enumerator_results SET value = '1' WHERE id = 50"))  # fails its checksum
+    for seed in (None, 2):
+        loaded.clear()
+        assert store.verify(sample=3, seed=seed)["checked"] == 3 and len(set(loaded)) == 3
+    report = store.verify(fix=True)
+    assert report["checked"] == 4 and report["fixed"] == 1
+    assert report["mismatches"][0]["problem"].startswith("damaged (checksum")
+    assert store.verify()["mismatches"] == []
+    store.close()

@@ -610,9 +610,9 @@ def cache_verify_command(
         )
         if left > 0:
             sys.stdout.write(
-                "Repair them with 'enumerator cache verify --fix --all'"
+                "Repair them with 'enumerator cache verify --fix --all"
                 + (f" --store {target.name}" if store else "")
-                + ": each is recomputed, or removed when nothing can be (the store only holds a cache).\n"
+                + "': each is recomputed, or removed when nothing can be (the store only holds a cache).\n"
                 if not target.read_only else
                 f"The store {target.name} is read-only, so they stay; ask its owner to run "
                 "'enumerator cache verify --fix --all' on it.\n"

@@ -45,6 +45,7 @@ from typing import Optional
 from sqlalchemy import BigInteger, DateTime, Index, Integer, String, Text, TypeDecorator
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
+from ..core.errors import StoreError
 from ..core.exact import int_text, text_int
 from . import layout
 from .layout import FIRST_SCHEMA_VERSION, META_SCHEMA_VERSION
@@ -85,8 +86,23 @@ class DecimalInt(TypeDecorator):
         return None if value is None else int_text(operator.index(value))
 
     def process_result_value(self, value, dialect):
-        """Read decimal digits back as an exact ``int`` (NULL gives ``None``)."""
-        return None if value is None else text_int(value)
+        """Read decimal digits back as an exact ``int`` (NULL gives ``None``).
+
+        Raises
+        ------
+        StoreError
+            When the stored text is not a whole number (a damaged row): the
+            message says so and how to repair it.
+        """
+        if value is None:
+            return None
+        try:
+            return text_int(value)
+        except (ValueError, TypeError):
+            raise StoreError(
+                f"the store holds a damaged row (a number column holds {str(value)[:40]!r}); repair it "
+                "with 'enumerator cache verify --fix --all', or delete the store file (it only holds a cache)"
+            ) from None
 
 
 class StoredTime(TypeDecorator):
