@@ -187,6 +187,99 @@ def test_bad_input_exits_2_with_one_line(args, message):
     assert lines[0].startswith(message)
 
 
+def test_occupation_law_contract_at_temperatures():
+    # Bosons in the 3D trap, no --max-energy (canonical results use the whole ladder).  The law must sum
+    # to 1 and its mean must equal the canonical occupation of the same level (Borrmann & Franke 1993
+    # occupation sums, an independent route); the grand-canonical variance of a single state is
+    # <n>(<n> + 1) (Pathria & Beale, ch. 6).
+    payload = run_json("levels", "--preset", "trap", "--particles", 40, "--rule", "BE",
+                       "--temperatures", "1,2", "--occupation-law", 0)
+    assert "multiplicity" not in payload
+    assert [e["temperature"] for e in payload["canonical"]] == [1.0, 2.0]
+    for entry in payload["canonical"]:
+        law = entry["occupation_law_approx"]
+        assert list(law) == [str(k) for k in range(41)]
+        assert all(isinstance(p, float) and p >= 0 for p in law.values())
+        assert math.fsum(law.values()) == pytest.approx(1, abs=1e-14)
+        mean = entry["occupation_mean_approx"]
+        assert mean == pytest.approx(entry["occupation_approx"][0], rel=1e-12)
+        assert mean == pytest.approx(math.fsum(int(k) * p for k, p in law.items()), rel=1e-12)
+        var = math.fsum((int(k) - mean) ** 2 * p for k, p in law.items())
+        assert entry["occupation_variance_approx"] == pytest.approx(var, rel=1e-9)
+        assert entry["occupation_variance_approx"] == pytest.approx(entry["ground_occupation_variance_approx"], rel=1e-9)
+        gm = entry["grand_canonical_occupation_mean_approx"]
+        assert entry["grand_canonical_occupation_variance_approx"] == pytest.approx(gm * (gm + 1), rel=1e-12)
+        assert math.fsum(entry["occupation_approx"]) + entry["occupation_above_approx"] == pytest.approx(40, rel=1e-12)
+        assert "occupation_law" not in entry
+
+
+def test_exact_occupation_law_at_a_rational_factor():
+    # Bosons on the 1D oscillator ladder: Z_M = prod_{k<=M} (1 - x^k)^-1 (partitions into at most M
+    # parts; Andrews 1976, from memory), P(n_0 = k) = x^{N-k} Z_{N-k} / Z_N for k < N and 1/Z_N at k = N.
+    n, x = 6, Fraction(1, 2)
+    z = [Fraction(1)]
+    for m in range(1, n + 1):
+        z.append(z[-1] / (1 - x**m))
+    expected = [x ** (n - k) * z[n - k] / z[n] for k in range(n)] + [1 / z[n]]
+    payload = run_json("levels", "--preset", "harmonic", "--particles", n, "--rule", "BE", "--factor", "1/2",
+                       "--occupation-law", 0)
+    (entry,) = payload["canonical"]
+    assert entry["factor"] == "1/2"
+    assert entry["temperature"] == pytest.approx(1 / math.log(2), rel=1e-15)
+    assert entry["occupation_law"] == {str(k): str(p) for k, p in enumerate(expected)}
+    mean = sum(k * p for k, p in enumerate(expected))
+    assert entry["occupation_mean"] == str(mean)
+    assert entry["occupation_variance"] == str(sum((k - mean) ** 2 * p for k, p in enumerate(expected)))
+    assert entry["occupation_law_approx"]["6"] == pytest.approx(float(expected[6]), rel=1e-15)
+
+
+def test_einstein_solid_entries_have_no_grand_canonical_fields():
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 4, "--temperatures", "0.5..2:4")
+    assert len(payload["canonical"]) == 4
+    for entry in payload["canonical"]:
+        assert not any("chemical" in key or "grand" in key for key in entry)
+        # MB: U = N / (e^{1/T} - 1) for oscillators from their ground state (Einstein 1907, common practice).
+        assert entry["mean_energy_approx"] == pytest.approx(4 / math.expm1(1 / entry["temperature"]), rel=1e-12)
+
+
+def test_fermions_far_below_the_fermi_temperature_in_json():
+    payload = run_json("levels", "--preset", "trap", "--particles", 969, "--rule", "FD", "--temperatures",
+                       "0.1,0.3,1", "--digits", 15)
+    assert [e["route"] for e in payload["canonical"]] == ["particle-hole"] * 3
+    # Closed shells 0..16 (common practice): E_0 = Σ_e e (e+1)(e+2)/2.
+    e0 = sum(e * (e + 1) * (e + 2) // 2 for e in range(17))
+    low = payload["canonical"][0]
+    assert 0 < low["mean_energy_approx"] - e0 < 1
+    assert low["heat_capacity_approx"] > 0
+
+
+def test_law_plot_and_thermo_plot_are_png_files(tmp_path):
+    png = tmp_path / "law.png"
+    result = run("levels", "--preset", "trap", "--particles", 30, "--rule", "BE", "--temperatures", "1..3:3",
+                 "--occupation-law", 0, "--plot", png)
+    assert result.exit_code == 0, result.output
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert "Occupation law of level 0" in result.stdout and "k_B T in the energy unit" in result.stdout
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--occupation-law", 0], "Error: --occupation-law needs --temperatures or --factor"),
+        (["--temperatures", "3..1"], "Error: the range '3..1' runs downwards"),
+        (["--temperatures", "1", "--factor", "1/2"], "Error: give --temperatures or --factor, not both"),
+        (["--factor", "2"], "Error: the Boltzmann factor"),
+        (["--temperatures", "1", "--occupation-law", 5], "Error: level 5 does not exist"),
+        (["--temperatures", "1", "--route", "particle-hole"], "Error: the particle-hole route is for fermions"),
+    ],
+)
+def test_thermal_options_fail_with_one_line(args, message):
+    result = run("levels", "--particles", 2, "--energies", "0,1", "--rule", "BE", *args)
+    assert result.exit_code == 2, result.output
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(message), lines
+
+
 # --------------------------------------------------------------------------
 # The render module on its own (enumerator.cli.render_levels)
 # --------------------------------------------------------------------------

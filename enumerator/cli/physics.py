@@ -225,7 +225,13 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
     # Multiplicities only where they can be listed: a finite spectrum, or a
     # ladder cut by --max-energy; canonical results alone use the whole ladder.
     counts = None
-    if max_energy is not None or system.spectrum.finite or not temps:
+    if max_energy is None and not system.spectrum.finite and not temps:
+        raise InvalidParameters(
+            "an infinite ladder of levels needs a maximum energy for its multiplicities (max_energy=); "
+            "canonical results alone (--temperatures or --factor) need none",
+            parameters=["max_energy"],
+        )
+    if max_energy is not None or system.spectrum.finite:
         counts = lv.multiplicities(system, max_energy)
     points = laws = None
     if temps:
