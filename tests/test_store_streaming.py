@@ -128,6 +128,19 @@ def test_a_damaged_cell_stops_the_stream(where):
         list(tables.open_table("shelves", store=where).cells())
 
 
+def test_cache_export_streams_every_entry_in_small_batches(where, monkeypatch):
+    from enumerator.store import database
+
+    monkeypatch.setattr(database, "ENTRY_BATCH", 2)
+    tables.build_table(tables.TableSpec.make("BE", "0..9", "1..3"), store=where, name="shelves")
+    target = results.open_store(where)
+    rows = list(csv.DictReader(io.StringIO("".join(target.export_lines("csv")))))
+    assert len(rows) == 30
+    for row in rows:
+        n, r = int(row["balls"]), int(row["urns"])
+        assert row["value"] == str(_stars_and_bars(n, r)) and row["bounds"] == f"{r}*0:"
+
+
 # -- show: only the window ------------------------------------------------------------
 
 def test_show_reads_only_its_window(where, small_batches):

@@ -24,7 +24,10 @@ Opening it
     is upgraded in one transaction (:mod:`enumerator.store.migrations`), or
     refused, with what to do, when it cannot be written; a newer store is
     refused.  A store that cannot be written still answers reads; writes
-    are then skipped and one warning says so.
+    are then skipped and one warning says so.  An SQLite file that holds
+    tables but is not a store (another application's database) is refused
+    before anything in it is written; a store that lost its schema record
+    is reported as damage.
 
 Lifetime
     Rows stay until removed (:meth:`Store.clear`, ``enumerator cache clear``).
@@ -98,6 +101,9 @@ def _now() -> datetime:
 # the store
 # ---------------------------------------------------------------------------
 
+#: Rows fetched at a time by :meth:`Store.entries` (and so ``cache export``).
+ENTRY_BATCH = 500
+
 #: Every table of the current layout.
 _TABLES = frozenset(table.name for table in Base.metadata.sorted_tables)
 
@@ -114,10 +120,12 @@ class Store:
     Raises
     ------
     StoreError
-        When the file is not a database, when the store was written by a
-        newer schema, when an older store cannot be upgraded (it is
-        read-only, or an upgrade step failed: it is then left as it was), or
-        when the URL cannot be used.  The message names the store and what
+        When the file is not a database or is another application's
+        database (left untouched), when it is damaged (the message says how
+        to repair it), when the store was written by a newer schema, when
+        an older store cannot be upgraded (it is read-only, or an upgrade
+        step failed: it is then left as it was), or when the URL cannot be
+        used.  The message names the store and what
         to do.
 
     Notes
@@ -699,16 +707,20 @@ class Store:
 
         Notes
         -----
-        Streamed in batches of 500 rows, so a large store needs little memory.
+        Streamed in batches of :data:`ENTRY_BATCH` rows (``yield_per``: a
+        server-side cursor where the driver has one), so a large store
+        needs the memory of one batch.  Cost: one pass over the results,
+        plus a CRC-32 of each value.
         """
         if not self._schema_ready:
             return
-        stmt = select(Result).order_by(Result.id)
+        # plain rows (no ORM objects), fetched ENTRY_BATCH at a time from a server-side cursor
+        stmt = select(*Result.__table__.columns).order_by(Result.id)
         if quantity is not None:
             stmt = stmt.where(Result.quantity == quantity)
         try:
-            with Session(self.engine) as session:
-                for row in session.scalars(stmt.execution_options(yield_per=500)):
+            with reading(self.engine) as conn:
+                for row in conn.execution_options(yield_per=ENTRY_BATCH).execute(stmt):
                     entry = StoredEntry.from_row(row)
                     if stale is None or entry.stale == stale:
                         yield entry

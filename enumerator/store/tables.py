@@ -465,8 +465,8 @@ VALUE_DIGITS = 4_000_000
 #: Urns named in one ``urns IN (...)`` query at most.
 URN_BATCH = 500
 #: Rows (long layout) or digits per Parquet row group, at most.
-PARQUET_ROWS = 65_536
-PARQUET_DIGITS = 16_000_000
+PARQUET_ROWS = 16_384
+PARQUET_DIGITS = 4_000_000
 
 #: One stored cell as read back: ``(n, r, decimal text, digits)``.
 Cell = Tuple[int, int, str, int]
@@ -642,10 +642,15 @@ def _latex_number(text: str) -> str:
     return text if len(text) <= 30 else f"\\seqsplit{{{text}}}"
 
 
-def _source(table: Union[StoredTable, TableData]) -> Tuple[str, TableSpec, int, Callable[[], Iterator[Cell]]]:
-    """``(name, spec, missing, cells)`` of a stored table (streamed) or of cells already read."""
+def _source(table: Union[StoredTable, TableData]) -> Tuple[str, TableSpec, Callable[[], int],
+                                                           Callable[[], Iterator[Cell]]]:
+    """``(name, spec, missing, cells)`` of a stored table (streamed) or of cells already read.
+
+    *missing* is a function: only the JSON documents state it, and for a
+    stored table it costs a count query.
+    """
     if isinstance(table, StoredTable):
-        return table.name, table.spec, table.spec.cells - table.stored(), table.cells
+        return table.name, table.spec, lambda: table.spec.cells - table.stored(), table.cells
     order = sorted(table.cells, key=lambda cell: (cell[1], cell[0]))
 
     def cells() -> Iterator[Cell]:
@@ -653,7 +658,7 @@ def _source(table: Union[StoredTable, TableData]) -> Tuple[str, TableSpec, int, 
             text, digits = table.cells[(n, r)]
             yield n, r, text, digits
 
-    return table.name, table.spec, table.missing, cells
+    return table.name, table.spec, lambda: table.missing, cells
 
 
 def _check_format(fmt: str, layout: str) -> Tuple[str, str]:
@@ -704,7 +709,8 @@ def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
     Long: memory of one batch of cells (:meth:`StoredTable.cells`).  Wide:
     the cells are streamed once into a temporary file and each row is read
     back by offset (two 8-byte numbers per cell in memory, one row of values
-    at a time).  Cost: one count query plus one pass over the cells.
+    at a time).  Cost: one pass over the cells, plus one count query for
+    JSON (its ``missing``).
     """
     fmt, layout = _check_format(fmt, layout)
     if fmt == "parquet":
@@ -714,7 +720,7 @@ def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
         yield from _wide_lines(name, spec, missing, cells, fmt)
         return
     if fmt == "json":
-        head = json.dumps(_json_head(name, spec, missing))
+        head = json.dumps(_json_head(name, spec, missing()))
         yield head[:-1] + ', "cells": ['
         first = True
         for n, r, text, digits in cells():
@@ -796,12 +802,12 @@ def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, Lis
             yield n, values
 
 
-def _wide_lines(name: str, spec: TableSpec, missing: int, cells: Callable[[], Iterator[Cell]],
+def _wide_lines(name: str, spec: TableSpec, missing: Callable[[], int], cells: Callable[[], Iterator[Cell]],
                 fmt: str) -> Iterator[str]:
     columns = [str(r) for r in spec.urns]
     rows = wide_rows(spec, cells())
     if fmt == "json":
-        head = dict(_json_head(name, spec, missing), layout="wide", columns=columns)
+        head = dict(_json_head(name, spec, missing()), layout="wide", columns=columns)
         text = json.dumps(head)
         yield text[:-1] + ', "rows": ['
         for i, (n, values) in enumerate(rows):
@@ -893,7 +899,9 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     Notes
     -----
     Written in row groups of at most :data:`PARQUET_ROWS` rows or
-    :data:`PARQUET_DIGITS` digits, so memory stays that of one group.
+    :data:`PARQUET_DIGITS` digits (four times that for the wide layout,
+    whose groups have two columns per ``r``), so memory stays that of one
+    group; the values get no dictionary (their texts are distinct).
     Cost: one pass over the cells (the wide layout spills them once to a
     temporary file, see :func:`wide_rows`).
     """
@@ -910,7 +918,8 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     if layout == "long":
         schema = pa.schema([("balls", number), ("urns", number), ("value", pa.string()), ("digits", pa.int64()),
                             ("value_approx", pa.float64()), ("log10_approx", pa.float64())])
-        with pq.ParquetWriter(str(path), schema) as writer:
+        # no dictionary for the values (distinct texts: a dictionary would only cost memory)
+        with pq.ParquetWriter(str(path), schema, use_dictionary=["balls", "urns"]) as writer:
             group: List[Cell] = []
             digits = 0
 
@@ -938,7 +947,7 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     for r in spec.urns:
         fields += [(f"urns={r}", pa.string()), (f"urns={r}_approx", pa.float64())]
     schema = pa.schema(fields)
-    with pq.ParquetWriter(str(path), schema) as writer:
+    with pq.ParquetWriter(str(path), schema, use_dictionary=False) as writer:
         group_rows: List[Tuple[int, List[Optional[str]]]] = []
         digits = 0
 
@@ -953,7 +962,8 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
         for n, values in wide_rows(spec, cells()):
             group_rows.append((n, values))
             digits += sum(len(v) for v in values if v is not None) + len(values)
-            if len(group_rows) >= PARQUET_ROWS or digits >= PARQUET_DIGITS:
+            # wide groups hold four times the digits: fewer groups of many columns, a smaller footer
+            if len(group_rows) >= PARQUET_ROWS or digits >= 4 * PARQUET_DIGITS:
                 flush_wide()
                 written += len(group_rows)
                 group_rows, digits = [], 0
