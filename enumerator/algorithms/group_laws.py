@@ -38,6 +38,7 @@ from ..core.errors import InvalidParameters
 from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from . import grouped
+from .extremes import mb_max_seconds
 
 __all__ = ["marked_moments"]
 
@@ -78,12 +79,14 @@ def _mb_free_tail(groups, n: int, start: int) -> Dict[int, "mpz"]:
 # ---------------------------------------------------------------------------
 
 def _mb_max_cost(n: int, r: int, lo: int, hi: int) -> Cost:
-    """Estimate :func:`~enumerator.algorithms.extremes.mb_max_cumulative`: rows of ``n`` numbers of ``n log2 r`` bits."""
+    """Estimate :func:`~enumerator.algorithms.extremes.mb_max_cumulative`: its own plan, priced.
+
+    The seconds come from :func:`~enumerator.algorithms.extremes.mb_max_seconds`
+    (the plan's units at a rate fitted to measured runs); memory is the
+    level rows and the answers, ``~ 3 (n + 1)`` numbers of ``n log2 r`` bits.
+    """
     bits = max(64.0, n * math.log2(max(r, 2)))
-    half = min(hi, n // 2)
-    steps = sum(min(n * m, n * n / (2 * m)) for m in range(max(lo, 1), half + 1))
-    seconds = steps * (1 + bits / 4000) / limits.STEPS_PER_SECOND
-    return Cost(seconds=seconds, memory=2 * (n + 1) * bigint_bytes(bits))
+    return Cost(seconds=mb_max_seconds(n, r, hi), memory=3 * (n + 1) * bigint_bytes(bits))
 
 
 def _capped(groups, top: int):
@@ -117,11 +120,11 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
         # suffix sums: G n products, and one count per m kept
         cost = Cost(seconds=len(groups) * (n - start + 1) * 2 * limits.product_seconds(bits),
                     memory=(n - start + 2) * bigint_bytes(bits))
-    ceiling = limits.active_limits()
-    for m in range(lo, last + 1):
-        cost = cost + grouped.row_cost(_capped(groups, m), n, labelled)
-        if cost.seconds > ceiling.seconds or cost.memory > ceiling.memory:
-            break  # already beyond the limits: refuse without adding up the rest
+    # one grouped count per m: priced at every m, or at 4096 evenly spaced m (scaled up) for longer ranges
+    span = last - lo + 1
+    stride = max(1, -(-span // 4096))
+    for m in range(lo, last + 1, stride):
+        cost = cost + grouped.row_cost(_capped(groups, m), n, labelled).times(min(stride, last + 1 - m))
     limits.check(cost, f"the law of max for {n} balls in {r} urns",
                  advice="ask for P(max <= m) at one m (an event) instead of the whole law")
     if free and hi >= n // 2:
