@@ -376,3 +376,58 @@ def test_table_on_postgres_workers_skip_cells_stored_meanwhile(tmp_path, client,
     assert sum(c + u for _, c, u in calls) == spec.cells
     again = build_table_distributed(spec, store=server, client=client)
     assert again.computed == 0 and again.reused == spec.cells
+
+
+def test_list_to_files_one_per_shard_equals_the_stdout_listing(tmp_path, client):
+    # references: the same listing printed to stdout by one process, and C(n + r - 1, r - 1)
+    # configurations (Feller II.5)
+    from cli_helpers import run, run_json
+
+    whole = run("list", "-n", "9", "-r", "5", "--format", "jsonl")
+    assert whole.exit_code == 0
+    for extra, fmt in ((("--shards", "3"), "jsonl"), (("--cluster", client.scheduler.address, "--shards", "7"), "csv")):
+        out = tmp_path / fmt
+        summary = run_json("list", "-n", "9", "-r", "5", "--format", fmt, "--output-dir", str(out), *extra)
+        files = summary["files"]
+        assert [f["file"] for f in files] == sorted(p.name for p in out.iterdir())
+        assert int(summary["listed"]) == math.comb(13, 4) == sum(int(f["listed"]) for f in files)
+        assert [f["start"] for f in files[1:]] == [f["stop"] for f in files[:-1]]
+        lines = []
+        for f in files:
+            text = (out / f["file"]).read_text().splitlines()
+            if fmt == "csv":
+                assert text[0] == "k1,k2,k3,k4,k5"
+                text = ["[" + line + "]" for line in text[1:]]
+            lines += text
+        assert lines == whole.stdout.splitlines()
+    refused = run("list", "-n", "3", "-r", "2", "--cluster", client.scheduler.address)
+    assert refused.exit_code == 2 and "--output-dir" in refused.stderr
+
+
+class SlowRows:
+    """A formatter that sleeps per block, so shards are in flight when a worker dies."""
+
+    def __call__(self, block):
+        time.sleep(0.05)
+        return "".join(",".join(map(str, row)) + "\n" for row in block.tolist())
+
+
+def test_killed_worker_rewrites_only_its_files(tmp_path, client):
+    # reference: the single-process listing (iter_blocks) of the same ranks
+    from enumerator.store.cluster import listing_to_files
+
+    model = UrnModel(balls=8, urns=5, rule="BE")
+    _wait_for_workers(client)
+    killed = []
+
+    def progress(done, total):
+        if not killed:
+            killed.append(_kill_busy_worker(client))
+
+    files = listing_to_files(model, tmp_path, SlowRows(), extension="csv", shards=8, block=20,
+                             client=client, progress=progress)
+    assert killed and killed[0] >= 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == [f["file"] for f in files]  # no partial file left
+    written = [line for f in files for line in (tmp_path / f["file"]).read_text().splitlines()]
+    expected = [",".join(map(str, row)) for b in iter_blocks(model, 64) for row in b.tolist()]
+    assert written == expected and len(written) == math.comb(12, 4)

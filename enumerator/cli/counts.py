@@ -590,6 +590,24 @@ def list_command(
         ),
     ] = ListFormat.csv,
     sparse: Sparse = False,
+    output_dir: Annotated[
+        Optional[str],
+        typer.Option(
+            "--output-dir",
+            metavar="DIR",
+            help="Write the listing to files in DIR instead of stdout, one per shard of the rank "
+            "range: ranks-START-STOP.csv (or .jsonl), each with its own header. With --workers/--cluster "
+            "the workers write their shards themselves (DIR must be reachable from every worker).",
+        ),
+    ] = None,
+    shards: Annotated[
+        Optional[int],
+        typer.Option("--shards", min=1, metavar="N",
+                     help="With --output-dir: the number of files, equal rank ranges "
+                     "(default: 4 per worker on a cluster, else 1)."),
+    ] = None,
+    workers: Workers = None,
+    cluster: ClusterAddress = None,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,
     as_json: Json = False,
@@ -606,10 +624,18 @@ def list_command(
     or more than 1,048,576 urns, each vector is written as its occupied urns
     and their counts (csv: rank,occupied with "urn:count" pairs).
 
+    --output-dir DIR writes the listing to files instead, one per equal shard
+    of the rank range (--shards N), and prints what it wrote (a table, or
+    with --json the fields directory, listed and files: file, start, stop,
+    listed).  With --workers K / --cluster ADDRESS the shards are listed and
+    written on a Dask cluster, each by one worker; a shard whose worker dies
+    is written again by another, and a file is complete whenever it exists.
+
     Example:
 
         $ enumerator list -n 3 -r 3 --rule BE
         $ enumerator list -n 20 -r 6 --start 1000 --limit 5 --format jsonl
+        $ enumerator list -n 20 -r 8 --output-dir shards --workers 2 --shards 8
         $ enumerator list -n 2 -r 18446744073709551616 --rule FD --limit 3
     """
     # A listing streams and is never remembered: no --store/--no-cache.
@@ -621,6 +647,15 @@ def list_command(
         if limit is not None:
             limit = as_count(limit, "--limit")
             stop = start + limit if stop is None else min(stop, start + limit)
+        on_cluster = _cluster_requested(workers, cluster)
+        if output_dir is not None:
+            _list_to_files(model, output_dir, start, stop, shards, fmt, sparse, workers, cluster, as_json)
+            return
+        if on_cluster or shards is not None:
+            from ..core.errors import InvalidParameters
+
+            raise InvalidParameters("--workers, --cluster and --shards write a listing to files: "
+                                    "add --output-dir DIR")
         head = '"rule": "%s", "balls": "%d", "urns": "%d", "start": "%d"' % (
             model.rule.value, model.balls, model.urns, start)
         if sparse or model.urns > SPARSE_URNS:
@@ -633,6 +668,76 @@ def list_command(
         check_listing(model, start, stop)  # the time of the whole range; the blocks are small
         blocks = (block for block in model.iter_blocks(size, start, stop) if len(block))
         write_vectors(blocks, model.urns, fmt, head if as_json else None, "listed")
+
+
+def _list_to_files(model, directory: str, start: int, stop: Optional[int], shards: Optional[int], fmt,
+                   sparse: bool, workers, cluster, as_json: bool) -> None:
+    """``list --output-dir``: one file per shard (on the cluster when asked), then what was written.
+
+    Parameters
+    ----------
+    model : Occupancy
+    directory : str
+        ``--output-dir``.
+    start, stop : int
+        The rank range (*stop* None: the end).
+    shards : int or None
+        ``--shards``.
+    fmt : ListFormat
+        ``csv`` (a header per file) or ``jsonl``.
+    sparse : bool
+        ``--sparse``: refused here (files are dense).
+    workers, cluster
+        The cluster options (at most one given).
+    as_json : bool
+        Print the summary as one JSON object.
+
+    Raises
+    ------
+    InvalidParameters
+        With --sparse or above 1,048,576 urns.
+
+    Notes
+    -----
+    :func:`enumerator.store.cluster.listing_to_files`; the whole range's
+    time is checked first (:func:`~enumerator.algorithms.listing.check_listing`),
+    as for a listing to stdout.
+    """
+    from ..algorithms.listing import check_listing
+    from ..core.errors import InvalidParameters
+    from ..store.cluster import listing_to_files
+    from .render import format_rows
+
+    if sparse or model.urns > SPARSE_URNS:
+        raise InvalidParameters("--output-dir writes dense rows; drop --sparse, or list to stdout with --sparse "
+                                f"(automatic above {SPARSE_URNS:,} urns)")
+    check_listing(model, start, stop)
+    csv = fmt is ListFormat.csv
+    header = ",".join(f"k{i}" for i in range(1, model.urns + 1)) + "\n" if csv else None
+    formatter = format_rows if csv else _jsonl_rows
+    with _shard_progress("writing the listing") as advance:
+        files = listing_to_files(model, directory, formatter, extension=fmt.value, header=header, start=start,
+                                 stop=stop, shards=shards, block=_block_rows(model.urns), workers=workers,
+                                 cluster=cluster, progress=advance)
+    listed = sum(f["listed"] for f in files)
+    if as_json:
+        emit_json({
+            "rule": model.rule.value, "balls": exact(model.balls), "urns": exact(model.urns),
+            "directory": directory, "listed": exact(listed),
+            "files": [{"file": f["file"], "start": exact(f["start"]), "stop": exact(f["stop"]),
+                       "listed": exact(f["listed"])} for f in files],
+        })
+        return
+    show_table(f"{describe(model)}; {listed} configurations written to {directory}",
+               ["file", "ranks", "listed"],
+               [[f["file"], f"{f['start']}..{f['stop'] - 1}", f["listed"]] for f in files])
+
+
+def _jsonl_rows(block) -> str:
+    """A block's rows as JSON arrays, one per line (``list --format jsonl``)."""
+    from .render import format_rows
+
+    return format_rows(block, "[", "]\n")
 
 
 def _sparse_rows(model, start: int, stop: Optional[int]):

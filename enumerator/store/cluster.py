@@ -30,6 +30,7 @@ Dask is an optional dependency: ``pip install 'enumerator[cluster]'``.
 from __future__ import annotations
 
 import math
+import os
 import time
 from collections import Counter
 from contextlib import contextmanager
@@ -66,6 +67,7 @@ __all__ = [
     "enumeration_sum_distributed",
     "event_count_distributed",
     "event_needs_listing",
+    "listing_to_files",
     "plan_row_batches",
 ]
 
@@ -866,3 +868,107 @@ def distribution_distributed(model: UrnModel, statistic, *, limit: Optional[int]
         mean = exact_fraction(first, total)
         variance = exact_fraction(second * total - first * first, total * total)
     return Distribution(stat.name, pmf, mean, variance)
+
+
+# ---------------------------------------------------------------------------
+# a listing written to files, one per shard
+# ---------------------------------------------------------------------------
+
+def shard_file_name(lo: int, hi: int, stop: int, extension: str) -> str:
+    """The file of ranks ``[lo, hi)``: ``ranks-LO-HI.EXT``, zero-padded to the digits of *stop* (sorts in rank order)."""
+    width = len(str(stop))
+    return f"ranks-{lo:0{width}d}-{hi:0{width}d}.{extension}"
+
+
+def _write_shard(model: UrnModel, directory: str, stop_all: int, extension: str, header: Optional[str],
+                 formatter: Callable, block: int, lo: int, hi: int) -> Tuple[int, int, Tuple[int, int, str, int]]:
+    """Worker side: write ranks ``[lo, hi)`` to one file; ``(lo, hi, (lo, hi, file name, rows))``.
+
+    Written to ``NAME.partial`` and renamed at the end, so a file of that
+    name is always whole; a shard rerun after a worker died writes it again.
+    """
+    name = shard_file_name(lo, hi, stop_all, extension)
+    final = os.path.join(directory, name)
+    partial_path = final + ".partial"
+    rows = 0
+    with open(partial_path, "w", encoding="ascii", newline="") as out:
+        if header is not None:
+            out.write(header)
+        for array in iter_blocks(model, block, lo, hi):
+            if len(array):
+                out.write(formatter(array))
+                rows += len(array)
+    os.replace(partial_path, final)
+    return lo, hi, (lo, hi, name, rows)
+
+
+def _append(into: list, part) -> list:
+    into.append(part)
+    return into
+
+
+def listing_to_files(model: UrnModel, directory, formatter: Callable[[object], str], *, extension: str,
+                     header: Optional[str] = None, start: int = 0, stop: Optional[int] = None,
+                     shards: Optional[int] = None, block: int = 4096, workers: Optional[int] = None,
+                     cluster=None, client=None,
+                     progress: Optional[Callable[[int, int], None]] = None) -> List[dict]:
+    """Write the listing of ranks ``[start, stop)`` to one file per shard, on a cluster or here.
+
+    Parameters
+    ----------
+    model : UrnModel
+    directory : str or path
+        Where the files go (created if missing).  On a cluster the workers
+        write there themselves, so it must be a path every worker can reach
+        (always so for ``workers=``: a local cluster).
+    formatter : callable
+        ``formatter(block) -> str``: the text of a block's rows (picklable:
+        a module-level function).
+    extension : str
+        The files' extension (``"csv"``, ``"jsonl"``).
+    header : str, optional
+        Text written at the top of every file (a csv header line).
+    start, stop : int
+        The rank range (default: the whole listing).
+    shards : int, optional
+        Number of equal shards (default: four per worker, or one without a cluster).
+    block : int
+        Rows per block.
+    workers, cluster, client
+        The cluster, as :func:`cluster_client`; none of them: the shards are
+        written one after another in this process.
+    progress : callable, optional
+        ``progress(ranks done, ranks in all)`` as each file is finished.
+
+    Returns
+    -------
+    list of dict
+        ``{"file", "start", "stop", "listed"}`` per file, in rank order.
+
+    Notes
+    -----
+    Method: equal rank shards (as :func:`enumeration_sum_distributed`);
+    each is listed by :func:`~enumerator.algorithms.listing.iter_blocks`
+    from its first rank and written to ``ranks-LO-HI.EXT`` through a
+    temporary name, so a file is whole or absent and a shard rerun after a
+    worker died replaces its own file only.  Cost: the listing and the
+    formatting spread over the workers, one unranking per shard.
+    """
+    total = count_configurations(model)
+    stop = total if stop is None else min(as_count(stop, "stop", 0), total)
+    start = min(as_count(start, "start", 0), stop)
+    directory = os.fspath(directory)
+    os.makedirs(directory, exist_ok=True)
+    task = partial(_write_shard, model, directory, stop, extension, header, formatter, block)
+    if workers is None and cluster is None and client is None:
+        count = 1 if shards is None else as_count(shards, "shards", 1)
+        parts = []
+        for lo, hi in (_equal_shards(start, stop, min(count, stop - start)) if stop > start else []):
+            parts.append(task(lo, hi)[2])
+            if progress is not None:
+                progress(hi - start, stop - start)
+    else:
+        parts = _reduce_on_cluster(task, start=start, stop=stop, shards=shards, workers=workers, cluster=cluster,
+                                   client=client, progress=progress, merge=_append, zero=list)
+    return [{"file": name, "start": lo, "stop": hi, "listed": rows}
+            for lo, hi, name, rows in sorted(parts)]
