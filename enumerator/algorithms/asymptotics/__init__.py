@@ -21,7 +21,9 @@ gathers its topic modules):
     grand-canonical occupations) with their exact sides;
 :mod:`~enumerator.algorithms.asymptotics.comparison`
     exact against approximate, point by point, at a working precision that
-    makes the printed errors the approximation's, not rounding.
+    makes the printed errors the approximation's, not rounding; rows one by
+    one as they are computed (:func:`iter_rows`), points beyond the limits
+    skipped with the reason, and approximations that fail on their own.
 
 >>> result = compare_sweep("stirling1,stirling2", "balls=10..1000", geometric=3, urns="balls")
 >>> [(c.approximation.name, round(c.order_approx)) for c in result]
@@ -31,15 +33,29 @@ gathers its topic modules):
 from __future__ import annotations
 
 from .catalogue import CATALOGUE, Approximation, approximation
-from .comparison import Comparison, Row, compare, compare_sweep
+from .comparison import (
+    ALL,
+    Comparison,
+    Plan,
+    Row,
+    compare,
+    compare_sweep,
+    evaluate,
+    finish,
+    float_or_text,
+    iter_rows,
+    plan_sweep,
+)
 from .formulas import apportion, empty_urns_at_most, stirling_log_factorial
 from .sweeps import NUMERIC, Point, Tie, observed_order, parse_factor, parse_pattern, parse_range, parse_tie, sweep
 
 __all__ = [
+    "ALL",
     "Approximation",
     "CATALOGUE",
     "Comparison",
     "NUMERIC",
+    "Plan",
     "Point",
     "Row",
     "Tie",
@@ -48,11 +64,16 @@ __all__ = [
     "compare",
     "compare_sweep",
     "empty_urns_at_most",
+    "evaluate",
+    "finish",
+    "float_or_text",
+    "iter_rows",
     "observed_order",
     "parse_factor",
     "parse_pattern",
     "parse_range",
     "parse_tie",
+    "plan_sweep",
     "stirling_log_factorial",
     "sweep",
 ]

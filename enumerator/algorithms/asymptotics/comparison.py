@@ -19,6 +19,21 @@ impossible because there are more balls than urns), the relative error is
 ``None`` and the point is left out of the order fit, as are points with an
 error of exactly 0.
 
+*Never abort a sweep.*  Before its exact side is computed, each point's
+cost (:meth:`~enumerator.algorithms.asymptotics.catalogue.Approximation.cost`)
+is checked against the limits in force (:func:`enumerator.core.limits.check`).
+A point beyond them, or one whose error no precision up to :data:`MAX_DPS`
+resolves, becomes a *skipped* :class:`Row` that says why, and the sweep goes
+on.  :func:`iter_rows` yields the rows one by one as they are computed, so a
+caller can print each at once; :func:`plan_sweep` checks every entry's
+points first, so an entry that cannot run at all fails on its own
+(:class:`Plan` with an ``error``) without stopping the others.
+
+*Numbers beyond float range.*  Errors are mpmath numbers, whose exponents
+are unbounded; :func:`float_or_text` gives a float where one represents the
+value and mpmath's decimal text otherwise (``"4.2e+272"``,
+``"3.1e-1598"``), never ``inf``, ``0.0`` for a nonzero value, or ``None``.
+
 Cost: per point, the entry's exact side once and its approximation at
 ``P, 2P, 4P, ...`` digits until the error is resolved (``P`` the starting
 precision; at most :data:`MAX_DPS` digits).
@@ -27,17 +42,31 @@ precision; at most :data:`MAX_DPS` digits).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-from typing import Iterable, List, Optional, Tuple, Union
+from dataclasses import dataclass, replace
+from typing import Iterable, Iterator, List, Optional, Sequence, Tuple, Union
 
 import mpmath
 
-from ...core.errors import InvalidParameters, TooLarge, Unsupported
+from ...core import limits
+from ...core.errors import EnumeratorError, InvalidParameters, TooLarge, Unsupported
 from .catalogue import CATALOGUE, Approximation, approximation
 from .formulas import Exact, decimal_digits, ln_size, to_mpf
 from .sweeps import NUMERIC, Point, observed_order, parse_range, sweep
 
-__all__ = ["Comparison", "MAX_DPS", "Row", "compare", "compare_sweep"]
+__all__ = [
+    "ALL",
+    "Comparison",
+    "MAX_DPS",
+    "Plan",
+    "Row",
+    "compare",
+    "compare_sweep",
+    "evaluate",
+    "finish",
+    "float_or_text",
+    "iter_rows",
+    "plan_sweep",
+]
 
 mpf = mpmath.mpf
 
@@ -45,6 +74,47 @@ mpf = mpmath.mpf
 MAX_DPS = 200_000
 #: Required ratio of a printed relative error to its rounding bound.
 _HONEST = 10
+#: The name that stands for every catalogue entry.
+ALL = "all"
+#: The largest and the smallest positive normal double.
+_FLOAT_MAX = mpf(1.7976931348623157e308)
+_FLOAT_MIN = mpf(2.2250738585072014e-308)
+#: Why a row has no relative error although it was computed.
+UNDEFINED_RELATIVE = "the exact value is 0, so the relative error is undefined"
+
+
+def float_or_text(value) -> Union[float, str, None]:
+    """*value* as a float when a double holds it, else as mpmath's decimal text.
+
+    Parameters
+    ----------
+    value : mpf, float or None
+
+    Returns
+    -------
+    float, str or None
+        ``None`` only for ``None``; a float for 0 and for magnitudes within the
+        normal double range; otherwise 17 significant digits of mpmath text
+        (``"1.1481306952742545e+602"``), so nothing overflows to ``inf`` or
+        underflows to ``0.0``.
+
+    Examples
+    --------
+    >>> float_or_text(mpf(2) ** -2000), float_or_text(mpf(2) ** 2000), float_or_text(mpf("0.25"))
+    ('8.7098098162172167e-603', '1.1481306952742545e+602', 0.25)
+    """
+    if value is None:
+        return None
+    if isinstance(value, float):
+        if math.isfinite(value):
+            return value
+        value = mpf(value)
+    if value == 0:
+        return 0.0
+    magnitude = abs(value)
+    if _FLOAT_MIN <= magnitude <= _FLOAT_MAX:
+        return float(value)
+    return mpmath.nstr(value, 17)
 
 
 # ---------------------------------------------------------------------------
@@ -57,15 +127,33 @@ class Row:
     ``exact`` is exact (``int`` or ``Fraction``); ``approx``,
     ``absolute_error_approx`` and ``relative_error_approx`` are mpf values at
     ``dps`` digits (errors on the approximation's scale; ``None`` when the
-    relative error is undefined because the exact value is 0).
+    relative error is undefined because the exact value is 0).  A *skipped*
+    point has only ``point`` and ``error``, the reason it was not computed
+    (beyond the limits, or an error no precision up to :data:`MAX_DPS`
+    resolves).
     """
 
     point: Point
-    exact: Exact
-    approx: object
-    absolute_error_approx: object
-    relative_error_approx: object
-    dps: int
+    exact: Optional[Exact] = None
+    approx: object = None
+    absolute_error_approx: object = None
+    relative_error_approx: object = None
+    dps: int = 0
+    error: Optional[EnumeratorError] = None
+
+    @property
+    def skipped(self) -> Optional[str]:
+        """Why the point was not computed (``None`` for a computed row)."""
+        return None if self.error is None else str(self.error)
+
+    @property
+    def note(self) -> Optional[str]:
+        """Why a value of the row is missing: the skip reason, or an undefined relative error."""
+        if self.error is not None:
+            return str(self.error)
+        if self.relative_error_approx is None:
+            return UNDEFINED_RELATIVE
+        return None
 
     def approx_text(self) -> str:
         """The approximation as a decimal string with enough digits to show its error."""
@@ -76,32 +164,51 @@ class Row:
         return mpmath.nstr(self.approx, min(wanted, self.dps - 5), min_fixed=-5, max_fixed=20)
 
     def relative_float(self) -> Optional[float]:
-        """The relative error as a float; ``None`` when undefined or beyond float range."""
-        rel = self.relative_error_approx
-        if rel is None:
-            return None
-        value = float(rel)
-        return None if math.isinf(value) else value
+        """The relative error as a float; ``None`` when undefined, skipped or beyond float range."""
+        value = float_or_text(self.relative_error_approx)
+        return value if isinstance(value, float) else None
 
 
 @dataclass(frozen=True)
 class Comparison:
-    """The result of :func:`compare`: rows, the varied parameter and the observed order."""
+    """The result of :func:`compare`: rows, the varied parameter and the observed order.
+
+    ``error`` is set (and ``rows`` empty) for an approximation that could not
+    run at all in a sweep of several (:func:`compare_sweep`).
+    """
 
     approximation: Approximation
     rows: Tuple[Row, ...]
     variable: str = "balls"
     order_approx: Optional[float] = None
+    error: Optional[EnumeratorError] = None
 
     def local_orders(self) -> List[Optional[float]]:
-        """Per row, the order between it and the row before (``None`` where undefined)."""
-        out: List[Optional[float]] = [None]
-        for before, after in zip(self.rows, self.rows[1:]):
-            out.append(observed_order(
-                [before.point.value(self.variable), after.point.value(self.variable)],
-                [before.relative_error_approx, after.relative_error_approx],
-            ))
+        """Per row, the order between it and the computed row before (``None`` where undefined)."""
+        out: List[Optional[float]] = []
+        before = None
+        for row in self.rows:
+            out.append(_local_order(before, row, self.variable))
+            if row.error is None:
+                before = row
         return out
+
+
+def _local_order(before: Optional[Row], row: Row, variable: str) -> Optional[float]:
+    if before is None or row.error is not None:
+        return None
+    return observed_order(
+        [before.point.value(variable), row.point.value(variable)],
+        [before.relative_error_approx, row.relative_error_approx],
+    )
+
+
+def _where(entry: Approximation, point: Point) -> str:
+    parts = [f"balls={point.balls}"]
+    for name in ("urns", "capacity", "minimum", "at"):
+        if name in entry.uses and point.value(name) is not None:
+            parts.append(f"{name}={point.value(name)}")
+    return ", ".join(parts)
 
 
 def _evaluate(entry: Approximation, point: Point) -> Row:
@@ -129,12 +236,85 @@ def _evaluate(entry: Approximation, point: Point) -> Row:
             if honest or dps >= MAX_DPS:
                 if not honest:
                     raise TooLarge(
-                        f"{entry.name} at {point.balls} balls: the error is below what {MAX_DPS} "
+                        f"{entry.name} at {_where(entry, point)}: the error is below what {MAX_DPS} "
                         "digits resolve; use smaller parameters"
                     )
                 return Row(point, exact, +value, +absolute, None if relative is None else +relative, dps)
         dps = min(2 * dps, MAX_DPS)
 
+
+def evaluate(entry: Approximation, point: Point) -> Row:
+    """Compare *entry* with its exact value at one checked *point*, or say why not.
+
+    Parameters
+    ----------
+    entry : Approximation
+    point : Point
+        Already checked and completed by ``entry.check``.
+
+    Returns
+    -------
+    Row
+        Computed, or skipped with its ``error``: the exact side's estimated
+        cost is beyond the limits in force, the error is below what
+        :data:`MAX_DPS` digits resolve, the computation ran out of memory,
+        or a library error at this point.
+
+    Notes
+    -----
+    :func:`enumerator.core.limits.check` of ``entry.cost(point)`` first, so a
+    point out of reach is refused before any work; then the exact side and
+    the approximation at increasing precision (module docstring).
+    """
+    try:
+        limits.check(entry.cost(point), f"the exact side of {entry.name} at {_where(entry, point)}",
+                     advice="use smaller parameters")
+        return _evaluate(entry, point)
+    except EnumeratorError as error:
+        return Row(point, error=error)
+    except MemoryError:
+        return Row(point, error=TooLarge(
+            f"the exact side of {entry.name} at {_where(entry, point)} ran out of memory; "
+            "lower max_memory= so that it is refused before it starts, or use smaller parameters",
+            parameters=["max_memory"],
+        ))
+
+
+def iter_rows(entry: Approximation, points: Iterable[Point]) -> Iterator[Row]:
+    """Yield :func:`evaluate` of each checked point, in order, as each is computed.
+
+    Parameters
+    ----------
+    entry : Approximation
+    points : iterable of Point
+        Checked by ``entry.check`` (:func:`plan_sweep` does it).
+
+    Yields
+    ------
+    Row
+        Computed or skipped; a skipped point never stops the sweep.
+
+    Examples
+    --------
+    >>> entry = approximation("empty-mean")
+    >>> [row.exact for row in iter_rows(entry, [entry.check(Point(balls=n, urns=2)) for n in (1, 2)])]
+    [Fraction(1, 1), Fraction(1, 2)]
+    """
+    for point in points:
+        yield evaluate(entry, point)
+
+
+def finish(entry: Approximation, rows: Sequence[Row], variable: str = "balls") -> Comparison:
+    """The :class:`Comparison` of computed and skipped *rows*: the observed order over the computed ones.
+
+    Notes
+    -----
+    :func:`~enumerator.algorithms.asymptotics.sweeps.observed_order`, linear in the number of rows.
+    """
+    done = [row for row in rows if row.error is None]
+    order = observed_order([row.point.value(variable) for row in done],
+                           [row.relative_error_approx for row in done])
+    return Comparison(entry, tuple(rows), variable, order)
 
 
 def compare(name: Union[str, Approximation], points: Iterable[Point], variable: str = "balls") -> Comparison:
@@ -153,23 +333,22 @@ def compare(name: Union[str, Approximation], points: Iterable[Point], variable: 
     -------
     Comparison
         Its ``order_approx`` is :func:`observed_order` of the relative errors
-        against *variable* (``None`` for a single point).
+        against *variable* (``None`` for a single point).  A point beyond the
+        limits, or whose error is below what :data:`MAX_DPS` digits
+        resolve, is a skipped row that says why (:func:`evaluate`).
 
     Raises
     ------
     InvalidParameters
         An unknown name or variable, no points, a point the entry rejects.
-    TooLarge
-        An error below what :data:`MAX_DPS` digits resolve.
-    Unsupported
-        A log-scale entry whose exact value is not positive.
 
     Notes
     -----
-    Per point: the exact side once, then the approximation at a working
-    precision doubled from ``30 + guard`` digits until the relative error is
-    at least ``10^10`` times the rounding bound (module docstring).  Cost: the
-    entry's exact side plus ``O(log(P/P0))`` evaluations of its formula.
+    Per point: the cost check, the exact side once, then the approximation
+    at a working precision doubled from ``30 + guard`` digits until the
+    relative error is at least ``10^10`` times the rounding bound (module
+    docstring).  Cost: the entry's exact side plus ``O(log(P/P0))``
+    evaluations of its formula.
 
     Examples
     --------
@@ -182,19 +361,34 @@ def compare(name: Union[str, Approximation], points: Iterable[Point], variable: 
     entry = name if isinstance(name, Approximation) else approximation(name)
     if variable not in NUMERIC:
         raise InvalidParameters(f"the varied parameter must be one of {', '.join(NUMERIC)} (got {variable!r})")
-    rows = tuple(_evaluate(entry, entry.check(point)) for point in points)
-    if not rows:
+    checked = [entry.check(point) for point in points]
+    if not checked:
         raise InvalidParameters("compare needs at least one point")
-    order = observed_order([row.point.value(variable) for row in rows],
-                           [row.relative_error_approx for row in rows])
-    return Comparison(entry, rows, variable, order)
+    return finish(entry, tuple(iter_rows(entry, checked)), variable)
 
 
+# ---------------------------------------------------------------------------
+# Several approximations over one sweep
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Plan:
+    """One approximation of a sweep, with its checked points, or the reason it cannot run."""
+
+    approximation: Approximation
+    points: Tuple[Point, ...]
+    variable: str
+    error: Optional[EnumeratorError] = None
 
 
-def _split_names(names) -> List[Approximation]:
+def _split_names(names) -> Tuple[List[Approximation], bool]:
+    """The named entries, and whether *names* was ``"all"`` (every catalogue entry)."""
     if isinstance(names, str):
         names = [part for part in names.split(",")]
+    names = list(names)
+    if any(isinstance(part, str) and part.strip().lower() == ALL for part in names):
+        if len([part for part in names if str(part).strip()]) > 1:
+            raise InvalidParameters(f"{ALL} already names every approximation; give it alone")
+        return list(CATALOGUE.values()), True
     entries = []
     for part in names:
         if isinstance(part, Approximation):
@@ -202,8 +396,86 @@ def _split_names(names) -> List[Approximation]:
         elif str(part).strip():
             entries.append(approximation(part))
     if not entries:
-        raise InvalidParameters(f"name at least one approximation: {', '.join(CATALOGUE)}")
-    return entries
+        raise InvalidParameters(f"name at least one approximation: {', '.join(CATALOGUE)} (or {ALL})")
+    return entries, False
+
+
+def _unused(entry: Approximation, given) -> List[str]:
+    return sorted(set(given) - {"balls"} - set(entry.uses))
+
+
+def _unused_error(entry: Approximation, unused: Sequence[str]) -> InvalidParameters:
+    options = ", ".join(f"{name}=" for name in unused)
+    return InvalidParameters(
+        f"{entry.name} does not use {options}; leave it out (it uses balls"
+        + "".join(f", {u}" for u in entry.uses) + ")",
+        parameters=list(unused),
+    )
+
+
+def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **parameters) -> List[Plan]:
+    """Build one sweep and check its points for each named approximation.
+
+    Parameters
+    ----------
+    names : str or sequence
+        ``"stirling1,stirling2"``, a list of names or entries, or ``"all"``
+        (every catalogue entry).
+    vary, step, geometric, **parameters
+        As :func:`~enumerator.algorithms.asymptotics.sweeps.sweep` takes them.
+
+    Returns
+    -------
+    list of Plan
+        One per approximation, in order; a plan whose points an entry
+        rejects (a parameter it needs is missing, a value outside its
+        domain) carries that ``error`` and no points.
+
+    Raises
+    ------
+    InvalidParameters
+        No name, an unknown name, a parameter a *named* approximation does
+        not use (a forgotten or misspelt option is an error rather than
+        silently ignored; with ``"all"`` each entry ignores what it does
+        not use, and one that does not use the varied parameter fails on
+        its own), and whatever the sweep raises.
+    TooLarge
+        More points than :data:`~enumerator.algorithms.asymptotics.sweeps.MAX_POINTS`.
+
+    Notes
+    -----
+    The sweep once, then ``check`` of every point per entry: cost linear in
+    the number of points and entries.
+    """
+    entries, every = _split_names(names)
+    given = {k for k, v in parameters.items() if v is not None}
+    varied = parse_range(vary)[0] if vary is not None else None
+    if varied is not None:
+        given.add(varied)
+    if not every:
+        for entry in entries:
+            unused = _unused(entry, given)
+            if unused:
+                raise _unused_error(entry, unused)
+    variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
+    plans = []
+    for entry in entries:
+        try:
+            if every and varied is not None and varied != "balls" and varied not in entry.uses:
+                raise _unused_error(entry, [varied])
+            checked = tuple(entry.check(_drop_unused(entry, point)) for point in points)
+        except EnumeratorError as error:
+            plans.append(Plan(entry, (), variable, error))
+            continue
+        plans.append(Plan(entry, checked, variable))
+    return plans
+
+
+def _drop_unused(entry: Approximation, point: Point) -> Point:
+    """*point* without the parameters *entry* does not read (for ``"all"``)."""
+    cleared = {name: None for name in ("urns", "rule", "capacity", "minimum", "at", "pattern", "factor")
+               if name not in entry.uses}
+    return replace(point, **cleared) if cleared else point
 
 
 def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **parameters) -> List[Comparison]:
@@ -212,25 +484,27 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
     Parameters
     ----------
     names : str or sequence
-        ``"stirling1,stirling2"``, or a list of names or entries.
+        ``"stirling1,stirling2"``, a list of names or entries, or ``"all"``.
     vary, step, geometric, **parameters
         As :func:`~enumerator.algorithms.asymptotics.sweeps.sweep` takes them.
         Every parameter given (and the varied one) must be one that each named
         approximation uses (``balls`` always; the rest as listed in its
         ``uses``), so that a forgotten or misspelt option is an error rather
-        than silently ignored.
+        than silently ignored (:func:`plan_sweep`).
 
     Returns
     -------
     list of Comparison
-        One per name, in order.
+        One per approximation, in order.  An approximation that cannot run
+        does not stop the others: its comparison has the ``error`` and no
+        rows.  Points beyond the limits are skipped rows (:func:`evaluate`).
 
     Raises
     ------
     InvalidParameters
         No name, an unknown name, a parameter an approximation does not use,
-        and whatever :func:`~enumerator.algorithms.asymptotics.sweeps.sweep`
-        and :func:`compare` raise.
+        whatever :func:`~enumerator.algorithms.asymptotics.sweeps.sweep`
+        raises, and, when no approximation can run, the first one's error.
 
     Notes
     -----
@@ -241,20 +515,14 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
     >>> [c.approximation.name for c in compare_sweep("stirling1,stirling2", "balls=10..20", step=10, urns="balls")]
     ['stirling1', 'stirling2']
     """
-    entries = _split_names(names)
-    given = {k for k, v in parameters.items() if v is not None}
-    if vary is not None:
-        given.add(parse_range(vary)[0])
-    for entry in entries:
-        unused = sorted(given - {"balls"} - set(entry.uses))
-        if unused:
-            options = ", ".join(f"{name}=" for name in unused)
-            raise InvalidParameters(
-                f"{entry.name} does not use {options}; leave it out (it uses balls"
-                + "".join(f", {u}" for u in entry.uses) + ")",
-                parameters=unused,
-            )
-    variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
-    return [compare(entry, points, variable) for entry in entries]
-
-
+    plans = plan_sweep(names, vary, step=step, geometric=geometric, **parameters)
+    if all(plan.error is not None for plan in plans):
+        raise plans[0].error
+    out = []
+    for plan in plans:
+        if plan.error is not None:
+            out.append(Comparison(plan.approximation, (), plan.variable, None, plan.error))
+        else:
+            out.append(finish(plan.approximation, tuple(iter_rows(plan.approximation, plan.points)),
+                              plan.variable))
+    return out

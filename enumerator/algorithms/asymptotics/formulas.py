@@ -5,13 +5,16 @@ r"""The formulas the catalogue is built from: exact sides, Stirling's series, si
 * :func:`apportion` -- a configuration proportional to a pattern, by
   largest remainders;
 * :func:`empty_urns_at_most` -- the exact law of the number of empty urns
-  under MB (Feller, vol. 1, §IV.2);
+  under MB (Feller, vol. 1, §IV.2), and :func:`empty_urns_cost`, its
+  estimated time and memory;
+* :func:`empty_mean` -- the mean number of empty urns under MB, exact;
 * :func:`to_mpf`, :func:`decimal_digits`, :func:`ln_size` -- moving exact
   values into mpmath and sizing the working precision for them.
 """
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 from typing import Sequence, Tuple, Union
 
@@ -19,14 +22,21 @@ import gmpy2
 import mpmath
 from flint import fmpq, fmpz
 
+from ...core import limits
 from ...core.errors import InvalidParameters
+from ...core.exact import coprime_fraction
+from ...core.limits import Cost
 from ...core.model import as_count
+from ..counting import over_prime_power, power_primes
 
 __all__ = [
     "Exact",
     "apportion",
     "decimal_digits",
+    "empty_mean",
+    "empty_mean_cost",
     "empty_urns_at_most",
+    "empty_urns_cost",
     "ln_size",
     "stirling_log_factorial",
     "to_mpf",
@@ -171,6 +181,81 @@ def apportion(balls: int, pattern: Sequence[int]) -> Tuple[int, ...]:
     return tuple(base)
 
 
+def empty_mean(balls, urns) -> Fraction:
+    """The mean number of empty urns for ``n`` balls in ``r`` urns under MB, ``r (1 - 1/r)^n``, exact.
+
+    Parameters
+    ----------
+    balls : int
+        ``n >= 0``.
+    urns : int
+        ``r >= 1``.
+
+    Returns
+    -------
+    Fraction
+        ``(r-1)^n / r^(n-1)``, already in lowest terms.
+
+    Notes
+    -----
+    Each urn is missed by all ``n`` balls with probability ``(1 - 1/r)^n``
+    (W. Feller, *An Introduction to Probability Theory and Its
+    Applications*, vol. 1, 3rd ed., 1968, ch. IX; the same binomial law
+    of one urn as :func:`enumerator.algorithms.moments.counting_moments`,
+    which also computes the variance and costs several times more).
+    ``r - 1`` and ``r`` are coprime, so ``(r-1)^n / r^(n-1)`` needs no gcd.
+    Cost: two powers of ``n log2 r`` bits (GMP), :func:`empty_mean_cost`.
+
+    Examples
+    --------
+    >>> empty_mean(3, 2)
+    Fraction(1, 4)
+    """
+    n = as_count(balls, "balls")
+    r = as_count(urns, "urns", 1)
+    if n == 0:
+        return Fraction(r)
+    mpz = gmpy2.mpz
+    return coprime_fraction(mpz(r - 1) ** n, mpz(r) ** (n - 1))
+
+
+def empty_mean_cost(balls: int, urns: int) -> Cost:
+    """Estimated time and memory of :func:`empty_mean`: two powers of ``n log2 r`` bits."""
+    bits = max(64.0, balls * math.log2(max(urns, 2)))
+    return Cost(seconds=3 * limits.product_seconds(bits), memory=4 * limits.bigint_bytes(bits))
+
+
+def _empty_routes(n: int, r: int, j: int) -> Tuple[float, float, float]:
+    """``(bits, stirling_seconds, inclusion_exclusion_seconds)`` of :func:`empty_urns_at_most`."""
+    bits = max(64.0, n * math.log2(max(r, 2)))
+    product = limits.product_seconds(bits)
+    # j + 1 Stirling numbers S(n, r - i) (FLINT sums about k powers for S(n, k)); 0 when r - i > n
+    low, high = r - min(j, r), min(r, n)  # the k = r - i with S(n, k) != 0
+    stirling = 4 * (low + high) * (high - low + 1) / 2 * product if low <= high else 0.0
+    stirling += max(0, high - low + 1) * product
+    # r - j exact powers (r - m)^n: the squarings of one power add up to about two products at
+    # full size, and squaring at a million bits runs below the rate of core.limits (measured: a
+    # power of 1.5 Mbit takes about four of its products); plus the binomial updates
+    exclusion = max(0, r - j) * (4 * product + limits.product_seconds(r * 1.0))
+    return bits, stirling, exclusion
+
+
+def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
+    """Estimated time and memory of :func:`empty_urns_at_most` (the cheaper of its two routes).
+
+    Notes
+    -----
+    The Stirling route costs ``j + 1`` Stirling numbers of about ``min(k, n)``
+    powers each, inclusion–exclusion ``r - j`` powers of ``n log2 r`` bits;
+    each power is rated at :func:`~enumerator.core.limits.product_seconds`
+    of that size.  A handful of such numbers live at once.
+    """
+    if at >= urns:
+        return Cost(seconds=1e-6, memory=64)
+    bits, stirling, exclusion = _empty_routes(balls, urns, at)
+    return Cost(seconds=min(stirling, exclusion), memory=8 * limits.bigint_bytes(bits))
+
+
 def empty_urns_at_most(balls, urns, at) -> Fraction:
     """``P(at most j urns empty)`` for ``n`` balls in ``r`` urns under MB, exact.
 
@@ -191,6 +276,9 @@ def empty_urns_at_most(balls, urns, at) -> Fraction:
     ------
     InvalidParameters
         A negative count or no urns.
+    TooLarge
+        The cheaper route is estimated beyond the limits
+        (:func:`empty_urns_cost`, :func:`enumerator.core.limits.check`).
 
     Notes
     -----
@@ -199,13 +287,18 @@ def empty_urns_at_most(balls, urns, at) -> Fraction:
 
     * ``P(exactly i empty) = C(r, i) (r-i)! S(n, r-i) / r^n`` — choose the
       empty urns, then map the balls onto the other ``r - i`` (Stirling
-      numbers of the second kind from FLINT); used for ``j < 4``, cost
-      ``j + 1`` Stirling numbers;
+      numbers of the second kind from FLINT), summed over ``i <= j``;
     * inclusion–exclusion, ``P(exactly i empty) = sum_m (-1)^{m-i} C(m, i)
       C(r, m) (1 - m/r)^n``, summed over ``i <= j`` with
       ``sum_{i<=j} (-1)^i C(m, i) = (-1)^j C(m-1, j)``:
-      ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n``;
-      used for larger ``j``, cost ``r - j`` exact powers (gmpy2).
+      ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n``,
+      ``r - j`` exact powers (gmpy2), the binomials updated from one ``m``
+      to the next.
+
+    The cheaper route by :func:`empty_urns_cost` is taken.  The sum is
+    divided by ``r^n`` removing only the primes of ``r``
+    (:func:`~enumerator.algorithms.counting.over_prime_power`), never by a
+    general gcd of ``n log2 r``-bit numbers.
 
     Examples
     --------
@@ -215,15 +308,27 @@ def empty_urns_at_most(balls, urns, at) -> Fraction:
     n = as_count(balls, "balls")
     r = as_count(urns, "urns", 1)
     j = as_count(at, "at")
+    if j >= r:
+        return Fraction(1)
+    limits.check(empty_urns_cost(n, r, j), f"the exact law of empty urns for {n} balls in {r} urns",
+                 advice="use fewer balls or urns")
     mpz = gmpy2.mpz
-    if j < 4:
+    _, stirling, exclusion = _empty_routes(n, r, j)
+    if stirling <= exclusion:
         total = mpz(0)
-        for i in range(0, min(j, r) + 1):
+        for i in range(max(0, r - n), j + 1):
             occupied = r - i
             total += gmpy2.comb(r, i) * gmpy2.fac(occupied) * mpz(int(fmpz.stirling_s2(n, occupied)))
     else:
         total = mpz(r) ** n
-        for m in range(j + 1, r + 1):
-            term = gmpy2.comb(r, m) * gmpy2.comb(m - 1, j) * mpz(r - m) ** n
+        choose_r = gmpy2.comb(r, j)  # C(r, m) at m = j
+        choose_j = mpz(1) if j == 0 else mpz(0)  # C(m - 1, j) at m = j
+        for m in range(j + 1, r):
+            choose_r = gmpy2.divexact(choose_r * (r - m + 1), m)
+            choose_j = mpz(1) if m - 1 == j else gmpy2.divexact(choose_j * (m - 1), m - 1 - j)
+            term = choose_r * choose_j * mpz(r - m) ** n
             total += -term if (m + j) & 1 else term
-    return Fraction(int(total), r**n)
+        if n == 0:  # the term m = r is (r - r)^0 = 1
+            term = gmpy2.comb(r - 1, j)
+            total += -term if (r + j) & 1 else term
+    return over_prime_power(total, mpz(r) ** n, power_primes(r, n))
