@@ -133,6 +133,20 @@ def test_someone_elses_wal_file_is_read_immutable_and_left_as_it_was(tmp_path, m
     assert path.read_bytes() == before and _files_beside(path) == set()
 
 
+def test_the_quick_read_of_someone_elses_file_sees_what_the_owner_writes_later(tmp_path, monkeypatch):
+    path = _filled(tmp_path / "s.sqlite")
+    key = Key.of(Occupancy(balls=12, urns=5, rule="BE"))
+    real_access = os.access
+    monkeypatch.setattr(os, "access", lambda p, mode: False if mode == os.W_OK else real_access(p, mode))
+    assert quick.read(path, "configurations", key, 1) is quick.MISSING  # read immutable: no log beside it
+    monkeypatch.undo()
+    owner = results.Store(str(path))  # the owner stores the answer (and closes, as a process ends)
+    owner.put("configurations", key, 1, _stars_and_bars(12, 5))
+    owner.close()
+    monkeypatch.setattr(os, "access", lambda p, mode: False if mode == os.W_OK else real_access(p, mode))
+    assert quick.read(path, "configurations", key, 1) == _stars_and_bars(12, 5)
+
+
 def test_a_writable_file_in_a_folder_that_takes_no_journal_is_read(tmp_path, monkeypatch):
     # SQLite cannot create the -wal/-shm files it needs (an unwritable folder): simulated
     path = _filled(tmp_path / "s.sqlite")

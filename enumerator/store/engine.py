@@ -38,6 +38,7 @@ from typing import Iterator, Optional, Tuple
 from sqlalchemy import create_engine, event
 from sqlalchemy import exc as sa_exc
 from sqlalchemy.engine import URL, Connection, Engine, make_url
+from sqlalchemy.pool import NullPool
 
 from ..core.errors import StoreError
 from .layout import DEFAULT_FILENAME, file_path
@@ -187,9 +188,11 @@ def make_engine(url: URL, path: Optional[Path], read_only: bool, name: str) -> E
     if read_only and path is not None and path.exists():
         # mode=ro, or immutable=1 for someone else's WAL file (quick.connect_read_only):
         # nothing is written, no -shm or -wal file is left in the owner's folder
+        # NullPool: a connection per use, so an immutable reader (which trusts its page
+        # cache) never reads pages the owner has changed since it opened the file
         engine = create_engine(
             URL.create("sqlite", database=str(path)),
-            creator=lambda: connect_read_only(path, BUSY_TIMEOUT),
+            creator=lambda: connect_read_only(path, BUSY_TIMEOUT), poolclass=NullPool,
         )
     else:
         engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT, "check_same_thread": False})
@@ -287,6 +290,7 @@ def is_readonly(error: BaseException) -> bool:
 #: that when it may not open a file beside the database, a permissions problem.
 _DAMAGE_WORDS = (
     "not a database", "malformed", "encrypted", "corrupt", "no such table", "no such column",
+    "datatype mismatch",
 )
 
 

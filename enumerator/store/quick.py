@@ -159,7 +159,7 @@ class _Reader:
         self.path = path
         self.lock = threading.Lock()
         self.conn: Optional[sqlite3.Connection] = None
-        self.identity = None  # (device, inode) of the file the connection reads
+        self.identity = None  # (device, inode[, size, mtime]) of the file the connection reads
 
     def _connect(self, identity) -> sqlite3.Connection:
         conn = connect_read_only(self.path, _BUSY_TIMEOUT)
@@ -184,6 +184,10 @@ class _Reader:
         except OSError:
             return None
         identity = (stat.st_dev, stat.st_ino)
+        if not os.access(self.path, os.W_OK):
+            # someone else's file, perhaps read immutable (which trusts its page cache):
+            # a new connection whenever the owner has changed it
+            identity += (stat.st_size, stat.st_mtime_ns)
         with self.lock:
             try:
                 conn = self.conn
