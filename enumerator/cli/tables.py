@@ -576,9 +576,17 @@ def cache_verify_command(
     # every quantity a command stores can then be recomputed, and so repaired by --fix
     register_recomputers()
     _register_event_probability()
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
     target = _open_store(store)
-    with limits_scope(max_memory, max_seconds):
-        report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix)
+    err = Console(stderr=True)
+    progress = Progress(TextColumn("[bold]verify"), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                        console=err, disable=not err.is_terminal, transient=True)
+    with progress, limits_scope(max_memory, max_seconds):
+        task = progress.add_task("verify", total=None)
+        report = target.verify(sample=None if verify_all else as_count(sample, "--sample"), seed=seed, fix=fix,
+                               progress=lambda done, total: progress.update(task, completed=done, total=total))
     mismatches = report["mismatches"]
     if as_json:
         emit_json({
