@@ -114,7 +114,7 @@ def test_contact_contract_for_two_einstein_solids():
     # Schroeder (2000), Figure 2.6 (from memory): N_A = 300, N_B = 200, q = 100,
     # most probable q_A = 60; total C(599, 100) by stars and bars.
     payload = run_json("contact", "--oscillators-a", 300, "--oscillators-b", 200, "--quanta", 100)
-    assert set(payload) == {"total", "split", "most_probable", "probability"}
+    assert set(payload) == {"total", "split", "most_probable", "probability", "probability_approx"}
     assert payload["total"] == str(math.comb(599, 100))
     assert payload["most_probable"] == 60
     assert list(payload["split"]) == [str(q) for q in range(101)]
@@ -294,6 +294,8 @@ def test_contact_payload_encodes_exact_values():
         "split": {"0": "28", "1": "63", "2": "90", "3": "100", "4": "90", "5": "63", "6": "28"},
         "most_probable": 3,
         "probability": {"0": "2/33", "1": "3/22", "2": "15/77", "3": "50/231", "4": "15/77", "5": "3/22", "6": "2/33"},
+        "probability_approx": {"0": 2 / 33, "1": 3 / 22, "2": 15 / 77, "3": 50 / 231, "4": 15 / 77, "5": 3 / 22,
+                               "6": 2 / 33},
     }
 
 

@@ -7,11 +7,12 @@ plot).  The command neither reads nor writes the result store, so it does not
 offer ``--store``/``--no-cache``.
 """
 
+import math
 from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -20,6 +21,94 @@ __all__ = ["commands"]
 commands = typer.Typer()
 
 _OUTPUT = OUTPUT_PANEL
+
+#: Without --splits, every split is listed only while there are at most this
+#: many of them and their listing stays below :data:`AUTO_MAX_CHARS`.
+AUTO_MAX_SPLITS = 1001
+#: ... and while the listing (counts, p/q and floats) is at most this many characters.
+AUTO_MAX_CHARS = 1_000_000
+
+
+def _listing(contact, splits: Optional[str], summary: bool):
+    """The :class:`~enumerator.cli.render_contact.Listing` that ``--splits``/``--summary`` ask for.
+
+    Parameters
+    ----------
+    contact : Contact
+    splits : str or None
+        ``all``, ``none``, ``LOW..HIGH`` (energies of A, in the keys' unit) or
+        ``K`` (the ``K`` splits around the most probable one); ``None``: all
+        of them when the listing is small (:data:`AUTO_MAX_SPLITS`,
+        :data:`AUTO_MAX_CHARS`), else none, with a summary.
+    summary : bool
+        ``--summary``: a summary, and no splits unless ``--splits`` asks.
+
+    Returns
+    -------
+    Listing
+
+    Raises
+    ------
+    InvalidParameters
+        A malformed ``--splits``.
+
+    Notes
+    -----
+    The size of a full listing is estimated as three numbers of the digits
+    of ``total`` per split (the count, and the probability's ``p/q``).  Cost:
+    constant, plus the summary's pass over the splits when a window is
+    suggested.
+    """
+    from ..core.errors import InvalidParameters
+    from .render_contact import Listing
+
+    keys = list(contact.split)
+    if not keys:
+        return Listing(None, True, summary)
+    low, high = keys[0], keys[-1]
+    text = (splits or "").strip().lower()
+    if splits is None and not summary:
+        size = len(keys) * (3 * math.ceil(contact.total.bit_length() * math.log10(2)) + 40)
+        if len(keys) <= AUTO_MAX_SPLITS and size <= AUTO_MAX_CHARS:
+            return Listing((low, high), True, False)
+        s = contact.summary()
+        suggestion = None
+        if s is not None:
+            width = math.ceil(2 * s.std_dev_approx)
+            suggestion = (max(low, s.most_probable - width), min(high, s.most_probable + width))
+        what = f"about {size / 1e6:,.0f} MB" if size >= 1e6 else f"{len(keys):,} rows"
+        return Listing(None, False, True,
+                       reason=f"the {len(keys):,} splits are not listed (their listing would be {what})",
+                       suggestion=suggestion)
+    if not text:
+        return Listing(None, False, True)
+    if text == "all":
+        return Listing((low, high), True, summary)
+    if text == "none":
+        return Listing(None, False, True)
+    try:
+        if ".." in text:
+            a, b = (int(v) for v in text.split("..", 1))
+        else:
+            count = int(text)
+            if count < 1:
+                raise ValueError
+            peak = contact.most_probable if contact.most_probable is not None else low
+            a = max(low, peak - (count - 1) // 2)
+            b = min(high, a + count - 1)
+            a = max(low, b - count + 1)
+    except ValueError:
+        raise InvalidParameters(
+            f"--splits takes all, none, LOW..HIGH (energies of A) or a number K of splits around the "
+            f"most probable one (got {splits!r}); e.g. --splits {low}..{min(high, low + 10)}"
+        ) from None
+    if a > b:
+        raise InvalidParameters(f"--splits {splits}: the low end must not exceed the high end, e.g. --splits {b}..{a}")
+    window = (max(a, low), min(b, high))
+    complete = window == (low, high)
+    if window[0] > window[1]:
+        return Listing(None, False, True)
+    return Listing(window, complete, summary or not complete)
 
 
 def _side_options(side: str):
@@ -89,25 +178,48 @@ def contact_command(
         Optional[str],
         typer.Option("--rule", metavar="MB|BE|FD", help="Rule of both systems unless --rule-a/--rule-b say otherwise."),
     ] = None,
+    summary: Annotated[
+        bool,
+        typer.Option("--summary", rich_help_panel=_OUTPUT,
+                     help="Describe the split without listing it: the most probable E_A and its "
+                     "probability, the mean and variance of E_A (exact and float), the standard deviation."),
+    ] = False,
+    splits: Annotated[
+        Optional[str],
+        typer.Option("--splits", metavar="all|none|LOW..HIGH|K", rich_help_panel=_OUTPUT,
+                     help="Which splits to list: all, none, the energies of A from LOW to HIGH, or the K "
+                     f"around the most probable one. Default: all while there are at most {AUTO_MAX_SPLITS:,} "
+                     f"and their listing stays under {AUTO_MAX_CHARS // 10**6} MB, else none (a summary instead)."),
+    ] = None,
     plot: Annotated[
         Optional[str],
         typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
                      help="Draw the probability of each split E_A."),
     ] = None,
     as_json: Json = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
 ) -> None:
     """Two systems in thermal contact: the exact energy split Ω_A(E_A) Ω_B(E - E_A).
 
     Every split of the total energy is listed with its exact multiplicity and
-    probability (all microstates of A+B equally likely), and the most
-    probable split is named (the lowest E_A on a tie).  Each side is an
-    Einstein solid (--oscillators-a N) or any spectrum, given as for
-    'enumerator levels' with -a/-b suffixes.
+    probability, exact (p/q) and as a float (all microstates of A+B equally
+    likely), and the most probable split is named (the lowest E_A on a tie).
+    Each side is an Einstein solid (--oscillators-a N) or any spectrum, given
+    as for 'enumerator levels' with -a/-b suffixes.
+
+    Big systems: past 1,001 splits or about 1 MB of listing the splits are
+    not listed unless --splits asks, and a summary is given instead: the most
+    probable split and its probability, the exact mean and variance of E_A
+    (p/q) with their floats, and the standard deviation.  --summary asks for
+    it on any system; --splits LOW..HIGH or --splits K lists a window.
 
     Example:
 
         $ enumerator contact --oscillators-a 300 --oscillators-b 200 --quanta 100 --json
         $ enumerator contact --oscillators-a 3 --oscillators-b 3 --quanta 6
+        $ enumerator contact --oscillators-a 10000 --oscillators-b 10000 --quanta 10000 --summary
+        $ enumerator contact --oscillators-a 10000 --oscillators-b 10000 --quanta 10000 --splits 21 --json
         $ enumerator contact --preset-a two-level --particles-a 10 --preset-b trap --particles-b 4 --rule-b BE --energy 12
     """
     from ..algorithms import levels as lv
@@ -123,10 +235,12 @@ def contact_command(
         capacity=capacity_b, preset=preset_b, levels=levels_b, dimension=dimension_b, gap=gap_b,
         oscillators=oscillators_b,
     )
-    result = lv.thermal_contact(side_a, side_b, energy)
+    with limits_scope(max_memory, max_seconds):
+        result = lv.thermal_contact(side_a, side_b, energy)
+    listing = _listing(result, splits, summary)
     if plot is not None:
         render_contact.plot_contact(plot, result, side_a.label, side_b.label)
     if as_json:
-        emit_json(render_contact.contact_payload(result))
+        emit_json(render_contact.contact_payload(result, listing))
         return
-    render_contact.show_contact(result, side_a.label, side_b.label, energy, plot)
+    render_contact.show_contact(result, side_a.label, side_b.label, energy, plot, listing)

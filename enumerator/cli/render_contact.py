@@ -3,23 +3,54 @@
 The physics is :func:`enumerator.algorithms.levels.thermal_contact`; this
 module turns its :class:`~enumerator.algorithms.levels.Contact` into one JSON
 object (:func:`contact_payload`: exact counts as decimal strings, exact
-probabilities as ``"p/q"``), a rich table for people (:func:`show_contact`) or
-a PNG (:func:`plot_contact`; matplotlib, imported on use).
+probabilities as ``"p/q"``, floats only in ``*_approx`` fields), a rich table
+for people (:func:`show_contact`) or a PNG (:func:`plot_contact`; matplotlib,
+imported on use).
+
+Which splits are written is the caller's choice (:class:`Listing`): all of
+them, a window ``E_A = low..high``, or none; a summary of the split (peak,
+mean, variance, standard deviation) goes with any listing that is not
+complete, so a big system is described without writing every split.
 """
 
 from __future__ import annotations
 
-from typing import Optional
+from dataclasses import dataclass
+from typing import Optional, Tuple
 
 from ..algorithms.levels import Contact
 from ..core.errors import Unsupported
-from .render import console, exact, show_table
+from .render import console, exact, human, show_table
 
 __all__ = [
+    "Listing",
     "contact_payload",
     "plot_contact",
     "show_contact",
 ]
+
+
+@dataclass(frozen=True)
+class Listing:
+    """Which splits to write: ``window`` ``(low, high)`` of ``E_A`` (units), ``None`` for none.
+
+    ``complete`` says the window holds every split; ``summary`` that the
+    peak-and-width summary is written; ``reason`` (when splits were left out
+    without being asked) says why, and ``suggestion`` a window worth listing.
+    """
+
+    window: Optional[Tuple[int, int]]
+    complete: bool
+    summary: bool
+    reason: Optional[str] = None
+    suggestion: Optional[Tuple[int, int]] = None
+
+    def keys(self, contact: Contact):
+        """The listed ``E_A``, in increasing order."""
+        if self.window is None:
+            return []
+        low, high = self.window
+        return [ea for ea in contact.split if low <= ea <= high]
 
 
 def _pyplot():
@@ -43,7 +74,7 @@ def _float_cell(x) -> str:
 # Plot (matplotlib, Agg backend)
 # --------------------------------------------------------------------------
 def plot_contact(path, contact: Contact, label_a: str = "A", label_b: str = "B") -> None:
-    """Save a PNG of the exact probability of each energy split ``E_A``.
+    """Save a PNG of the probability of each energy split ``E_A``.
 
     Parameters
     ----------
@@ -61,14 +92,16 @@ def plot_contact(path, contact: Contact, label_a: str = "A", label_b: str = "B")
 
     Notes
     -----
-    The most probable split is marked by a dashed line.  Cost: linear in the
-    number of splits, plus matplotlib's drawing.
+    Every split is drawn from its float probability
+    (:meth:`~enumerator.algorithms.levels.Contact.probability_approx_of`, no
+    gcd), the most probable split marked by a dashed line.  Cost: one
+    division per split, plus matplotlib's drawing.
     """
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(6, 4.2))
     unit = float(contact.unit)
-    keys = sorted(contact.probability)
-    ax.plot([k * unit for k in keys], [float(contact.probability[k]) for k in keys], ".-", ms=3)
+    keys = sorted(contact.split)
+    ax.plot([k * unit for k in keys], [contact.probability_approx_of(k) for k in keys], ".-", ms=3)
     if contact.most_probable is not None:
         ax.axvline(contact.most_probable * unit, color="grey", lw=0.8, ls="--")
     ax.set_xlabel(f"energy of {label_a}, E_A")
@@ -82,36 +115,74 @@ def plot_contact(path, contact: Contact, label_a: str = "A", label_b: str = "B")
 # --------------------------------------------------------------------------
 # Report (what the CLI prints)
 # --------------------------------------------------------------------------
-def contact_payload(contact: Contact) -> dict:
+def _summary_payload(contact: Contact, listing: Listing) -> dict:
+    """The ``"summary"`` object of :func:`contact_payload`."""
+    s = contact.summary()
+    return {
+        "splits": s.splits,
+        "listed": None if listing.window is None else list(listing.window),
+        "most_probable": s.most_probable,
+        "most_probable_probability": exact(s.most_probable_probability),
+        "most_probable_probability_approx": s.most_probable_probability_approx,
+        "mean": exact(s.mean),
+        "mean_approx": s.mean_approx,
+        "variance": exact(s.variance),
+        "variance_approx": s.variance_approx,
+        "std_dev_approx": s.std_dev_approx,
+    }
+
+
+def contact_payload(contact: Contact, listing: Optional[Listing] = None) -> dict:
     """The JSON object of ``enumerator contact``.
 
     Parameters
     ----------
     contact : Contact
+    listing : Listing, optional
+        Which splits to write; default all of them, without a summary.
 
     Returns
     -------
     dict
         ``{"total": "count", "split": {"E_A": "count"}, "most_probable": E_A,
-        "probability": {"E_A": "p/q"}}``; energies in units, with a ``"unit"``
-        field added when the unit is not 1.
+        "probability": {"E_A": "p/q"}, "probability_approx": {"E_A": float}}``
+        for the listed splits (the three maps are left out when none is
+        listed); energies in units, with a ``"unit"`` field added when the
+        unit is not 1.  With a summary: ``"summary": {"splits": count,
+        "listed": [low, high] or null, "most_probable": E_A,
+        "most_probable_probability": "p/q", "mean": "p/q", "variance":
+        "p/q"}`` plus the floats ``most_probable_probability_approx``,
+        ``mean_approx``, ``variance_approx`` and ``std_dev_approx``.
 
     Notes
     -----
-    Cost: linear in the number of splits.
+    Cost: one gcd of numbers of the size of ``total`` per listed split (the
+    exact probability), one division for its float; the summary one pass
+    over all splits.
 
     Examples
     --------
     >>> from enumerator.algorithms.levels import einstein_solid, thermal_contact
-    >>> contact_payload(thermal_contact(einstein_solid(1), einstein_solid(1), 1))
-    {'total': '2', 'split': {'0': '1', '1': '1'}, 'most_probable': 0, 'probability': {'0': '1/2', '1': '1/2'}}
+    >>> contact_payload(thermal_contact(einstein_solid(1), einstein_solid(1), 1))  # doctest: +NORMALIZE_WHITESPACE
+    {'total': '2', 'split': {'0': '1', '1': '1'}, 'most_probable': 0, 'probability': {'0': '1/2', '1': '1/2'},
+     'probability_approx': {'0': 0.5, '1': 0.5}}
     """
-    payload = {
-        "total": str(contact.total),
-        "split": {str(e): str(v) for e, v in contact.split.items()},
-        "most_probable": contact.most_probable,
-        "probability": {str(e): str(p) for e, p in contact.probability.items()},
-    }
+    if listing is None:
+        listing = Listing(None if not contact.split else (min(contact.split), max(contact.split)), True, False)
+    payload: dict = {"total": exact(contact.total)}
+    keys = listing.keys(contact)
+    if listing.window is not None:
+        payload["split"] = {str(e): exact(contact.split[e]) for e in keys}
+    payload["most_probable"] = contact.most_probable
+    if listing.window is not None:
+        if contact.total:
+            payload["probability"] = {str(e): exact(contact.probability_of(e)) for e in keys}
+            payload["probability_approx"] = {str(e): contact.probability_approx_of(e) for e in keys}
+        else:
+            payload["probability"] = {}
+            payload["probability_approx"] = {}
+    if listing.summary and contact.total:
+        payload["summary"] = _summary_payload(contact, listing)
     if contact.unit != 1:
         payload["unit"] = str(contact.unit)
     return payload
@@ -120,8 +191,9 @@ def contact_payload(contact: Contact) -> dict:
 # --------------------------------------------------------------------------
 # Table for people
 # --------------------------------------------------------------------------
-def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Optional[str] = None) -> None:
-    """Print the table of energy splits, the total and the most probable split.
+def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Optional[str] = None,
+                 listing: Optional[Listing] = None) -> None:
+    """Print the table of the listed energy splits, the total, the most probable split and the summary.
 
     Parameters
     ----------
@@ -132,32 +204,53 @@ def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Opt
         The requested total energy, named when no split exists.
     plot : str, optional
         The file a plot was written to, named last.
+    listing : Listing, optional
+        Which splits to show; default all, without a summary.
 
     Notes
     -----
-    Exact counts and the most probable split's probability are printed
-    whole; the other probabilities to 6 significant digits.  Cost: linear in
-    the number of splits.
+    Exact counts are printed whole when short and rounded with their digit
+    count when long (:func:`~enumerator.cli.render.human`); probabilities to
+    6 significant digits, the most probable split's exactly when short.
+    Cost: linear in the number of listed splits, plus the summary's pass.
     """
     out = console()
     unit_note = "" if contact.unit == 1 else f" (energies in units of {contact.unit})"
     if not contact.split:
         out.print(f"No microstate of A and B has total energy {energy}.")
         return
-    rows = []
-    for ea, count in contact.split.items():
-        p = contact.probability.get(ea)
-        rows.append([str(ea), str(contact.energy - ea), exact(count), _float_cell(p)])
-    show_table(
-        f"Thermal contact{unit_note}: A = {label_a}; B = {label_b}; total energy {contact.energy}",
-        ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"],
-        rows,
-    )
-    if contact.most_probable is not None:
-        p = contact.probability[contact.most_probable]
+    if listing is None:
+        listing = Listing((min(contact.split), max(contact.split)), True, False)
+    keys = listing.keys(contact)
+    title = f"Thermal contact{unit_note}: A = {label_a}; B = {label_b}; total energy {contact.energy}"
+    if keys:
+        rows = [[str(ea), str(contact.energy - ea), contact.split[ea],
+                 _float_cell(contact.probability_approx_of(ea) if contact.total else None)] for ea in keys]
+        show_table(title, ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"], rows)
+    else:
+        out.print(title)
+    if contact.most_probable is None:
+        out.print("total microstates: 0")
+    else:
+        p = human(contact.most_probable_probability)
+        if not p.startswith("≈"):
+            p += f" (≈ {contact.probability_approx_of(contact.most_probable):.6g})"
         out.print(
-            f"total microstates: {exact(contact.total)}\nmost probable split: E_A = {contact.most_probable}, "
-            f"probability {exact(p)} (≈ {float(p):.6g})"
+            f"total microstates: {human(contact.total)}\nmost probable split: E_A = {contact.most_probable}, "
+            f"probability {p}"
         )
+    if listing.summary and contact.total:
+        s = contact.summary()
+        low, high = min(contact.split), max(contact.split)
+        out.print(
+            f"mean E_A = {human(s.mean)} (≈ {s.mean_approx:.6g}), variance {human(s.variance)} "
+            f"(≈ {s.variance_approx:.6g}), standard deviation ≈ {s.std_dev_approx:.6g}\n"
+            f"splits: {s.splits:,} (E_A = {low}..{high}); "
+            + ("listed: all" if listing.complete else
+               "listed: none" if listing.window is None else f"listed: E_A = {listing.window[0]}..{listing.window[1]}")
+        )
+    if listing.reason:
+        hint = "" if listing.suggestion is None else f"--splits {listing.suggestion[0]}..{listing.suggestion[1]} (±2σ) or "
+        out.print(f"{listing.reason}; list them with {hint}--splits all")
     if plot is not None:
         out.print(f"plot: {plot}")
