@@ -203,6 +203,13 @@ WRONG_VALUE = "value differs from a fresh computation"
 HARMLESS = (UNREADABLE_TIME, UNKNOWN_QUANTITY)
 
 
+def _column_problem(entry: StoredEntry) -> str:
+    """The problem of a row whose other columns do not all read (its key does)."""
+    if entry.damage.startswith("created_at") and ";" not in entry.damage:
+        return f"{UNREADABLE_TIME} ({entry.damage})"  # the value and key are sound: only the time is lost
+    return f"damaged ({entry.damage})"
+
+
 def _current_key_digest(entry: StoredEntry) -> str:
     return key_digest(entry.quantity, Key(entry.rule, entry.balls, entry.bounds, entry.urns),
                       entry.params, entry.version)
@@ -262,7 +269,7 @@ def check_entry(entry: StoredEntry) -> Optional[Check]:
             return None  # sound, but nothing here can recompute it
         # damaged, and nothing to put in its place: a cache row is dropped
         problem = DAMAGED_VALUE if not entry.intact else (WRONG_DIGEST if not filed_right else
-                                                          f"{UNREADABLE_TIME} ({entry.damage})")
+                                                          _column_problem(entry))
         return Check(problem + "; no recomputer is registered for the quantity", None, 0)
     try:
         model = model_from_key(entry.rule, entry.balls, entry.bounds)
@@ -296,7 +303,7 @@ def check_entry(entry: StoredEntry) -> Optional[Check]:
     elif model.urns != entry.urns:
         problem = f"{WRONG_URNS} ({entry.urns} stored, {model.urns} in the bounds text)"
     elif entry.damage:
-        problem = f"{UNREADABLE_TIME} ({entry.damage})"
+        problem = _column_problem(entry)
     elif stored != fresh or type(stored) is not type(round_trip(fresh)):
         problem = WRONG_VALUE
     return Check(problem, fresh, spent)
