@@ -64,24 +64,34 @@ def register(bench) -> None:
                 client.wait_for_workers(workers)
                 yield client, time.perf_counter() - t0
 
-    def timed_builds(rounds, build):
-        """Best and median seconds of *build(store)* over fresh SQLite stores, and the last store's cells."""
+    def cpu_clock(client=None):
+        """CPU seconds used so far by this process plus, on a cluster of processes, by every worker."""
+        if client is None:
+            return time.process_time
+        return lambda: time.process_time() + sum(client.run(time.process_time).values())
+
+    def timed_builds(rounds, build, cpu=time.process_time):
+        """Best and median seconds of *build(store)* over fresh SQLite stores, the last store's cells,
+        and the least CPU seconds of a round (this process and the workers: unlike wall time, not
+        stretched by other programs on a busy machine)."""
         from enumerator.store.database import Store
 
         root = tempfile.mkdtemp(prefix="enumerator-cluster-bench-")
-        seconds, store = [], None
+        seconds, cpus, store = [], [], None
         try:
             for i in range(rounds):
                 store = Store(os.path.join(root, f"t{i}.sqlite"))
+                c0 = cpu()
                 t0 = time.perf_counter()
                 name = build(store)
                 seconds.append(time.perf_counter() - t0)
+                cpus.append(cpu() - c0)
             from enumerator.store.tables import load_table
 
             cells = load_table(name, store).cells
         finally:
             shutil.rmtree(root, ignore_errors=True)
-        return min(seconds), sorted(seconds)[len(seconds) // 2], len(seconds), cells
+        return min(seconds), sorted(seconds)[len(seconds) // 2], len(seconds), cells, min(cpus)
 
     def measurement(label, best, median, samples, answer):
         if isinstance(answer, dict):  # a table's cells: compared whole by the workload, shown by size
@@ -111,7 +121,8 @@ def register(bench) -> None:
         for workers in ((2,) if ctx.quick else (1, 2)):
             with cluster(ctx, workers) as (client, start):
                 runs[workers] = timed_builds(
-                    rounds, lambda store, c=client: build_table_distributed(spec, store=store, client=c).name)
+                    rounds, lambda store, c=client: build_table_distributed(spec, store=store, client=c).name,
+                    cpu=cpu_clock(None if ctx.quick else client))
             notes.append(f"start-up of a {workers}-worker cluster: {fmt_time(start)} (not included)")
         two = runs[2]
         ours = measurement("2-worker cluster", two[0], two[1], two[2], two[3])
@@ -126,6 +137,10 @@ def register(bench) -> None:
             notes.append(f"per-cell overhead, T(1 worker) - T(one process) over the cells: "
                          f"{(runs[1][0] - one[0]) / spec.cells * 1e6:.1f} us/cell "
                          f"(1 worker: {fmt_time(runs[1][0])})")
+        if not ctx.quick:
+            notes.append(f"CPU seconds (client + workers): one process {one[4]:.2f}, "
+                         + ", ".join(f"{k} worker{'s' if k > 1 else ''} {runs[k][4]:.2f}" for k in sorted(runs))
+                         + f"; CPU overhead of 2 workers {(runs[2][4] - one[4]) / spec.cells * 1e6:.1f} us/cell")
         return result
 
     @bench.workload("cluster-enumeration-sum",
@@ -143,19 +158,24 @@ def register(bench) -> None:
         if ctx.quick:
             notes.append("quick: n=10 r=7 on an in-process cluster (threads): checks the path and the answer only")
 
-        def best_of(call):
-            seconds, answer = [], None
+        def best_of(call, cpu=time.process_time):
+            seconds, cpus, answer = [], [], None
             for _ in range(rounds):
+                c0 = cpu()
                 t0 = time.perf_counter()
                 answer = call()
                 seconds.append(time.perf_counter() - t0)
-            return min(seconds), sorted(seconds)[len(seconds) // 2], answer
+                cpus.append(cpu() - c0)
+            return min(seconds), sorted(seconds)[len(seconds) // 2], answer, min(cpus)
 
         single = best_of(lambda: event_count(model, EVENT, limit=10 ** 9))
         with cluster(ctx, 2) as (client, start):
-            many = best_of(lambda: event_count_distributed(model, EVENT, client=client, limit=10 ** 9))
+            many = best_of(lambda: event_count_distributed(model, EVENT, client=client, limit=10 ** 9),
+                           cpu=cpu_clock(None if ctx.quick else client))
         notes.append(f"start-up of the cluster: {fmt_time(start)} (not included)")
         notes.append(f"speed-up, 2 workers over one process: {single[0] / many[0]:.2f}x")
+        if not ctx.quick:
+            notes.append(f"CPU seconds (client + workers): one process {single[3]:.2f}, 2 workers {many[3]:.2f}")
         ours = measurement("2-worker cluster", many[0], many[1], rounds, many[2])
         peer = measurement("one process (event_count)", single[0], single[1], rounds, single[2])
         result = Result("", "", ours, [peer], notes=notes)
