@@ -99,3 +99,79 @@ def test_unreachable_targets_are_refused_clearly():
 def test_varying_urns_needs_one_group():
     with pytest.raises(InvalidParameters, match="one group"):
         find_threshold(UrnModel(balls=3, bounds=[(0, 1), (0, 2)]), "urns", "max <= 1", "1/2")
+
+
+# ---------------------------------------------------------------------------
+# the no-collision searches located by proved bounds on ln P
+# ---------------------------------------------------------------------------
+
+def _be_no_collision(n, r):
+    """BE: P(max <= 1) = C(r, n) / C(n + r - 1, n) = prod_{i<n} (r - i)/(r + i), written out."""
+    p = Fraction(1)
+    for i in range(n):
+        p *= Fraction(r - i, r + i)
+    return p
+
+
+@pytest.mark.parametrize("rule, reference", [("MB", _no_collision), ("BE", _be_no_collision)])
+@pytest.mark.parametrize("n, r", [(2, 2), (5, 365), (23, 365), (40, 80), (200, 10**6), (1000, 2**64)])
+def test_log_bounds_enclose_the_birthday_product(rule, reference, n, r):
+    import mpmath
+
+    from enumerator.algorithms.threshold import _log_none_bounds
+
+    exact = reference(n, r)  # the product written out (Feller, vol. 1, II.3)
+    with mpmath.workdps(80):
+        # mpmath's log of the exact rational, at 80 digits: an outside reference for ln P
+        value = mpmath.log(mpmath.mpf(exact.numerator) / exact.denominator)
+        for K in (1, 4, 9):
+            lo, hi = _log_none_bounds(rule, n, r, K)
+            assert lo <= hi
+            assert mpmath.mpf(lo.numerator) / lo.denominator <= value + mpmath.mpf(10) ** -70
+            assert value <= mpmath.mpf(hi.numerator) / hi.denominator + mpmath.mpf(10) ** -70
+
+
+def test_64_bit_ids_until_a_collision_is_located_and_the_exact_pair_refused_with_its_size():
+    import mpmath
+
+    from enumerator.core.limits import limited
+
+    r = 2 ** 64
+    with limited(seconds=30):
+        with pytest.raises(TooLarge) as caught:
+            find_threshold(UrnModel(balls=0, urns=r), "balls", "max >= 2", "1e-6")
+    message = str(caught.value)
+    value = int(message.split("the least number of balls is ")[1].split(" ")[0].replace(",", ""))
+    assert "digits each" in message and "max_seconds" in message
+    # mpmath at 60 digits (an outside reference): P(collision) = 1 - exp(lgamma(r+1) - lgamma(r-n+1) - n ln r)
+    with mpmath.workdps(60):
+        def collision(n):
+            return 1 - mpmath.exp(mpmath.loggamma(r + 1) - mpmath.loggamma(r - n + 1) - n * mpmath.log(r))
+        assert collision(value) >= mpmath.mpf("1e-6") > collision(value - 1)
+    # the square-root rule of thumb (common practice): n ~ sqrt(2 r p)
+    assert abs(value - (2 * r * 10 ** -6) ** 0.5) < 10
+
+
+@pytest.mark.parametrize("r", [1, 2, 3, 10, 59, 365, 1000])
+def test_proved_location_agrees_with_a_scan_of_the_birthday_product(r):
+    # brute force: the least n with 1 - prod_{i<n}(1 - i/r) >= 1/2, written out
+    n = 0
+    while 1 - _no_collision(n, r) < Fraction(1, 2):
+        n += 1
+    t = find_threshold(UrnModel(balls=0, urns=r), "balls", "max >= 2", "1/2")
+    assert t.value == n
+    assert t.probability == 1 - _no_collision(n, r)
+    assert t.probability_before == 1 - _no_collision(n - 1, r)
+
+
+def test_buckets_for_ten_thousand_keys_against_mpmath():
+    import mpmath
+
+    n = 10 ** 4
+    t = find_threshold(UrnModel(balls=n, urns=1), "urns", "max <= 1", "0.999")
+    with mpmath.workdps(50):
+        # mpmath at 50 digits (outside reference): P(no collision) = exp(lgamma(r+1) - lgamma(r-n+1) - n ln r)
+        def none(r):
+            return mpmath.exp(mpmath.loggamma(r + 1) - mpmath.loggamma(r - n + 1) - n * mpmath.log(r))
+        assert none(t.value) >= mpmath.mpf("0.999") > none(t.value - 1)
+    assert t.evaluations == 2  # the proved location leaves only the two exact probabilities to compute

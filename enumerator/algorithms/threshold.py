@@ -43,12 +43,15 @@ its own cost against the limits (:mod:`enumerator.core.limits`).
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Callable, Optional, Union
+from typing import Callable, Optional, Tuple, Union
 
+from ..core import limits
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from .event_language import And, Comparison, Event, Not, Or, parse_event
 from .events import event_probability
@@ -301,7 +304,10 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
     if direction > 0:
         guess = _no_collision_guess(model, vary, node, goal)
         if guess is not None:
-            return _gallop(vary, start, highest, goal, p, lambda: evaluations, guess)
+            proved = _proved_no_collision(model, vary, node, goal, guess)
+            if proved is not None and probability is None:
+                _check_exact_pair(model, vary, node, goal, proved)
+            return _gallop(vary, start, highest, goal, p, lambda: evaluations, proved or guess)
         return _bisect(vary, start, highest, goal, p, lambda: evaluations)
     if direction < 0:
         first = p(start)
@@ -382,6 +388,191 @@ def _no_collision_guess(model: UrnModel, vary: str, node: Event, goal: Fraction)
             else:
                 lo = mid
         return max(hi, 1)
+
+
+def _bernoulli(K: int):
+    """Bernoulli numbers ``B_0..B_K`` (``B_1 = -1/2``), exactly, by ``sum_{j<=m} C(m+1, j) B_j = 0``."""
+    B = [Fraction(1)]
+    for m in range(1, K + 1):
+        B.append(-sum(math.comb(m + 1, j) * B[j] for j in range(m)) / (m + 1))
+    return B
+
+
+def _power_sums(n: int, K: int):
+    """``p_k = sum_{i=0}^{n-1} i^k`` for ``k = 0..K``, exactly (Faulhaber's formula; Knuth, *Johann Faulhaber and sums of powers*, 1993)."""
+    B = _bernoulli(K)
+    return [sum(math.comb(k + 1, j) * B[j] * n ** (k + 1 - j) for j in range(k + 1)) / (k + 1) for k in range(K + 1)]
+
+
+def _log1m_bounds(y: Fraction, K: int) -> Tuple[Fraction, Fraction]:
+    """Rational bounds ``lo <= ln(1 - y) <= hi`` for ``0 <= y <= 1/2``: ``K`` terms of ``-sum y^k/k``.
+
+    The tail ``sum_{k>K} y^k/k`` lies in ``[0, y^{K+1} / ((K+1)(1-y))]``.
+    """
+    head = -sum(y ** k / k for k in range(1, K + 1))
+    return head - y ** (K + 1) / ((K + 1) * (1 - y)), head
+
+
+def _log_bounds(q: Fraction, K: int) -> Tuple[Fraction, Fraction]:
+    """Rational bounds on ``ln q`` for ``0 < q <= 1``: ``q = 2^-e q'`` with ``1/2 < q' <= 1``, two series."""
+    e = max(0, q.denominator.bit_length() - q.numerator.bit_length() - 1)
+    while q * 2 ** e <= Fraction(1, 2):
+        e += 1
+    lo, hi = _log1m_bounds(1 - q * 2 ** e, K)
+    ln2_lo, ln2_hi = (-x for x in _log1m_bounds(Fraction(1, 2), K)[::-1])  # ln 2 = -ln(1 - 1/2)
+    return lo - e * ln2_hi, hi - e * ln2_lo
+
+
+def _log_none_bounds(rule: str, n: int, r: int, K: int) -> Optional[Tuple[Fraction, Fraction]]:
+    r"""Rational bounds on ``ln P(max <= 1)`` for ``n`` balls in ``r`` equal free urns, or None when ``2(n-1) > r``.
+
+    MB: ``ln P = sum_{i<n} ln(1 - i/r) = -sum_k p_k / (k r^k)`` with the power
+    sums ``p_k = sum_{i<n} i^k`` exact (:func:`_power_sums`); ``K`` terms,
+    and the rest lies in ``[0, p_{K+1} / ((K+1) r^{K+1} (1 - x))]``,
+    ``x = (n-1)/r``.  BE: ``P = prod_{i<n} (r-i)/(r+i)``, so
+    ``ln P = -2 sum_{odd k} p_k / (k r^k)`` (the series of ``artanh``), the
+    rest in ``[0, 2 p_{K+2} / ((K+2) r^{K+2} (1 - x^2))]`` for odd ``K``.
+    Cost: ``O(K^2)`` rational operations on numbers of ``O(K log r)`` bits.
+    """
+    if n <= 1:
+        return Fraction(0), Fraction(0)
+    if 2 * (n - 1) > r:
+        return None
+    x = Fraction(n - 1, r)
+    if rule == "MB":
+        p = _power_sums(n, K + 1)
+        head = -sum(Fraction(p[k]) / (k * r ** k) for k in range(1, K + 1))
+        return head - Fraction(p[K + 1]) / ((K + 1) * r ** (K + 1) * (1 - x)), head
+    K |= 1
+    p = _power_sums(n, K + 2)
+    head = -2 * sum(Fraction(p[k]) / (k * r ** k) for k in range(1, K + 1, 2))
+    return head - 2 * Fraction(p[K + 2]) / ((K + 2) * r ** (K + 2) * (1 - x * x)), head
+
+
+def _proved_no_collision(model: UrnModel, vary: str, node: Event, goal: Fraction, guess: int) -> Optional[int]:
+    r"""The least value, proved by rational bounds on the logarithms, for the no-collision searches; else None.
+
+    Varying the balls for a collision (``max >= 2``): the least ``n`` with
+    ``ln P(max <= 1) <= ln(1 - target)``; varying the urns for no collision:
+    the least ``r`` with ``ln P(max <= 1) >= ln(target)``.  Both sides are
+    enclosed by rational intervals (:func:`_log_none_bounds`,
+    :func:`_log_bounds`), widened to more series terms (4, 8, ... 64) until
+    they separate; a comparison that stays undecided (an exact tie, or
+    ``2(n-1) > r`` where the series are not used) gives None and the exact
+    search decides.  Starting from *guess* (:func:`_no_collision_guess`),
+    a gallop and a bisection over these proved comparisons; ``P`` is
+    monotone (module notes), so the value at which the comparison flips is
+    the answer.  Cost: ``O(log |v - guess|)`` comparisons, each polynomial
+    in ``K`` and ``log r`` — independent of the size of the exact
+    probabilities (``~ n log2 r`` bits).
+    """
+    rule = model.rule.value
+    if vary == "balls":
+        if goal >= 1:
+            return None
+        q = 1 - goal
+
+        def sizes(v):
+            return v, model.urns
+    else:
+        q = goal
+
+        def sizes(v):
+            return model.balls, v
+
+    def reached(v: int) -> Optional[bool]:
+        n, r = sizes(v)
+        for K in (4, 8, 16, 32, 64):
+            none = _log_none_bounds(rule, n, r, K)
+            if none is None:
+                return None
+            wanted = _log_bounds(q, K)
+            if vary == "balls":  # P(collision) >= goal  <=>  ln P(none) <= ln q
+                if none[1] < wanted[0]:
+                    return True
+                if none[0] > wanted[1]:
+                    return False
+            else:  # P(none) >= goal  <=>  ln P(none) >= ln q
+                if none[0] > wanted[1]:
+                    return True
+                if none[1] < wanted[0]:
+                    return False
+        return None
+
+    start = 0 if vary == "balls" else 1
+    v = max(guess, start)
+    at = reached(v)
+    if at is None:
+        return None
+    # bracket: reached(lo) is False (or lo below start), reached(hi) is True
+    step = 1
+    if at:
+        hi = v
+        while True:
+            lo = hi - step
+            if lo < start:
+                lo = start - 1
+                break
+            got = reached(lo)
+            if got is None:
+                return None
+            if not got:
+                break
+            hi = lo
+            step *= 2
+    else:
+        lo = v
+        while True:
+            hi = lo + step
+            got = reached(hi)
+            if got is None:
+                return None
+            if got:
+                break
+            lo = hi
+            step *= 2
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        got = reached(mid)
+        if got is None:
+            return None
+        if got:
+            hi = mid
+        else:
+            lo = mid
+    return hi
+
+
+def exact_pair_cost(model: UrnModel, vary: str, value: int) -> Tuple[Cost, int]:
+    """The cost of the no-collision probabilities at *value* and *value - 1*, exactly, and their digits.
+
+    ``P(max <= 1)`` is a falling factorial over ``r^n`` (MB) or over the
+    rising factorial (BE): numbers of ``b ~ n log2(r + n)`` bits.  Seconds:
+    two product trees (``3 M(b) log2 n`` each, measured 5 s for ``n = 10^6``,
+    ``r = 2^64`` on the reference machine under load) and writing the four
+    numbers in decimal (``4 M(b) log2 b`` each, measured 8 s for 19 million
+    digits), since the exact answer exists to be written.  Memory: the
+    product tree and the answers, ``~ 8`` numbers of ``b`` bits.
+    """
+    n, r = (value, model.urns) if vary == "balls" else (model.balls, value)
+    bits = max(64.0, n * math.log2(max(2, r + (n if model.rule.value == "BE" else 0))))
+    tree = 3 * limits.product_seconds(bits) * math.log2(n + 2)
+    text = 4 * limits.product_seconds(bits) * math.log2(bits)
+    digits = int(bits * math.log10(2)) + 1
+    return Cost(seconds=2 * tree + 4 * text, memory=8 * bigint_bytes(bits)), digits
+
+
+def _check_exact_pair(model: UrnModel, vary: str, node: Event, goal: Fraction, value: int) -> None:
+    """Refuse before the two exact evaluations when they are beyond the limits, saying what the answer is."""
+    cost, digits = exact_pair_cost(model, vary, value)
+    limits.check(
+        cost,
+        f"the least number of {vary} is {value:,} (proved by rational bounds on ln P: P({node}) reaches "
+        f"{float(goal):.6g} at {value:,} and not at {value - 1:,}); its exact probabilities there are "
+        f"fractions of about {digits:,} digits each, and computing and writing them",
+        advice="ask prob --event for one probability at a smaller size",
+        parameters=["target"],
+    )
 
 
 def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
