@@ -7,6 +7,7 @@ import typer
 
 from ..core.model import as_count
 from .options import (
+    CLUSTER_PANEL,
     Balls,
     Bounds,
     Capacity,
@@ -606,8 +607,17 @@ def list_command(
                      help="With --output-dir: the number of files, equal rank ranges "
                      "(default: 4 per worker on a cluster, else 1)."),
     ] = None,
-    workers: Workers = None,
-    cluster: ClusterAddress = None,
+    workers: Annotated[
+        Optional[int],
+        typer.Option("--workers", min=1, metavar="K", rich_help_panel=CLUSTER_PANEL,
+                     help="With --output-dir: list and write the shards on a local Dask cluster of K "
+                     "processes (needs Dask: the cluster extra of enumerator)."),
+    ] = None,
+    cluster: Annotated[
+        Optional[str],
+        typer.Option("--cluster", metavar="ADDRESS", rich_help_panel=CLUSTER_PANEL,
+                     help="As --workers, on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786."),
+    ] = None,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,
     as_json: Json = False,

@@ -219,9 +219,8 @@ Workers = Annotated[
         min=1,
         metavar="K",
         help="Where the answer needs every configuration listed, list it on a local Dask cluster "
-        "of K processes, in equal shards of the rank range (needs the 'cluster' extra: "
-        "pip install 'enumerator[cluster]'). Where it does not, the answer is computed here and "
-        "a note says so.",
+        "of K processes, in equal shards of the rank range (needs Dask: the cluster extra of "
+        "enumerator). Where it does not, the answer is computed here and a note says so.",
         rich_help_panel=CLUSTER_PANEL,
     ),
 ]
