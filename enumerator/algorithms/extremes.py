@@ -20,14 +20,14 @@ All arithmetic is exact (gmpy2 integers, FLINT polynomials).
 from __future__ import annotations
 
 import math
-from typing import Callable, Dict, List
+from typing import Callable, Dict, List, Tuple
 
 import gmpy2
 from flint import fmpz, fmpz_poly
 
 from ..core import series
 
-__all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_seconds"]
+__all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_estimate"]
 
 mpz = gmpy2.mpz
 divexact = gmpy2.divexact
@@ -184,7 +184,7 @@ def _mb_max_plan(n: int, r: int, first: int, last: int):
     levels at base ``m`` followed by ``D`` extensions (``A_{m+1..m+D}``);
     ``units`` is its work in the relative units ``_COST_*``.  The choice is
     made from the cost model alone, so the plan is known before any
-    arithmetic (:func:`mb_max_seconds` prices it).
+    arithmetic (:func:`mb_max_estimate` prices it).
     """
     plan = []
     m = first
@@ -206,23 +206,31 @@ def _mb_max_plan(n: int, r: int, first: int, last: int):
     return plan
 
 
-def mb_max_seconds(n: int, r: int, top: int) -> float:
-    """Estimated seconds of :func:`mb_max_cumulative` (the plan of :func:`_mb_max_plan`, priced).
+def mb_max_estimate(n: int, r: int, top: int) -> Tuple[float, int]:
+    """Estimated ``(seconds, bytes)`` of :func:`mb_max_cumulative` (the plan of :func:`_mb_max_plan`, priced).
 
     One unit of the plan costs about ``max(0.6, 5.9e-5 b - 0.78)``
     microseconds on numbers of ``b = n log2 r`` bits: fitted to measured
     runs at ``b`` = 10,000 to 50,000 (MB ``n`` = 1000 to 5000, ``r`` = 500
     and 1024: 0.44 to 2.2 us per unit).  The suffix sums above ``n/2`` cost
-    ``n`` steps.  Planning is ``O(n)`` small-number work (0.1 s at
-    ``n = 10^4``).
+    ``n`` steps.  Memory: the answers (``n`` numbers of ``b`` bits), two
+    level rows and the largest set of level tails kept for extensions.
+    Planning is ``O(n)`` small-number work (0.1 s at ``n = 10^4``).
     """
     lo = -(-n // r)
     if r <= 1 or top < lo:
-        return 0.0
+        return 0.0, 0
     bits = n * math.log2(r)
-    units = sum(step[3] for step in _mb_max_plan(n, r, lo, min(top, n // 2 - 1)))
+    plan = _mb_max_plan(n, r, lo, min(top, n // 2 - 1))
+    units = sum(step[3] for step in plan)
     per_unit = max(0.6, 5.9e-5 * bits - 0.78) * 1e-6
-    return units * per_unit + n * (1 + bits / 4000) * 2e-7
+    kept = 0
+    for m, D, miller, _ in plan:
+        if not miller and D > 1:
+            T = min(r, n // (m + 1))
+            kept = max(kept, sum(min(n - t * (m + 1) + 1, t * (D - 1) + 1) for t in range(T + 1)))
+    numbers = (min(top, n) - lo + 1) + 2 * (n + 1) + kept
+    return units * per_unit + n * (1 + bits / 4000) * 2e-7, numbers * (int(bits // 8) + 32)
 
 
 def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:

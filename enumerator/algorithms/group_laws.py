@@ -38,7 +38,7 @@ from ..core.errors import InvalidParameters
 from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from . import grouped
-from .extremes import mb_max_seconds
+from .extremes import mb_max_estimate
 
 __all__ = ["marked_moments"]
 
@@ -81,12 +81,11 @@ def _mb_free_tail(groups, n: int, start: int) -> Dict[int, "mpz"]:
 def _mb_max_cost(n: int, r: int, lo: int, hi: int) -> Cost:
     """Estimate :func:`~enumerator.algorithms.extremes.mb_max_cumulative`: its own plan, priced.
 
-    The seconds come from :func:`~enumerator.algorithms.extremes.mb_max_seconds`
-    (the plan's units at a rate fitted to measured runs); memory is the
-    level rows and the answers, ``~ 3 (n + 1)`` numbers of ``n log2 r`` bits.
+    :func:`~enumerator.algorithms.extremes.mb_max_estimate`: the plan's
+    units at a rate fitted to measured runs, and the numbers it keeps.
     """
-    bits = max(64.0, n * math.log2(max(r, 2)))
-    return Cost(seconds=mb_max_seconds(n, r, hi), memory=3 * (n + 1) * bigint_bytes(bits))
+    seconds, memory = mb_max_estimate(n, r, hi)
+    return Cost(seconds=seconds, memory=memory)
 
 
 def _capped(groups, top: int):
