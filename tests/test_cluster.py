@@ -431,3 +431,18 @@ def test_killed_worker_rewrites_only_its_files(tmp_path, client):
     written = [line for f in files for line in (tmp_path / f["file"]).read_text().splitlines()]
     expected = [",".join(map(str, row)) for b in iter_blocks(model, 64) for row in b.tolist()]
     assert written == expected and len(written) == math.comb(12, 4)
+
+
+def test_unreachable_scheduler_is_one_line_error():
+    # a free loopback port (bound, then closed): nothing accepts there; common practice
+    import socket
+
+    from cli_helpers import one_line_error, run
+
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    for address in (f"tcp://127.0.0.1:{port}", "no-port-here"):
+        result = run("prob", "-n", "7", "-r", "5", "--event", MIXED, "--no-cache", "--cluster", address)
+        line = one_line_error(result)
+        assert "Dask scheduler" in line and "--cluster" in line and "--workers" in line

@@ -75,6 +75,8 @@ __all__ = [
 TASK_SECONDS = 1.0
 #: Cells the client buffers before one write transaction.
 WRITE_BATCH = 20_000
+#: Seconds to wait for the scheduler at a cluster= address before giving up.
+CONNECT_SECONDS = 10.0
 #: Tasks per worker aimed for at least (load balance, and a dead worker's share is small).
 TASKS_PER_WORKER = 4
 
@@ -108,7 +110,8 @@ def cluster_client(workers: Optional[int] = None, cluster=None, client=None) -> 
     Raises
     ------
     InvalidParameters
-        Unless exactly one of the three is given, or when Dask is missing.
+        Unless exactly one of the three is given, when Dask is missing, or
+        when no scheduler answers at *cluster* within :data:`CONNECT_SECONDS`.
 
     Notes
     -----
@@ -124,7 +127,12 @@ def cluster_client(workers: Optional[int] = None, cluster=None, client=None) -> 
         return
     distributed = _need_dask()
     if cluster is not None:
-        with distributed.Client(str(cluster), set_as_default=False) as own:
+        _check_reachable(str(cluster))
+        try:
+            own = distributed.Client(str(cluster), set_as_default=False, timeout=CONNECT_SECONDS)
+        except (OSError, TimeoutError, ValueError) as error:
+            raise _unreachable(str(cluster), error) from None
+        with own:
             yield own
         return
     workers = as_count(workers, "workers", 1)
@@ -132,6 +140,35 @@ def cluster_client(workers: Optional[int] = None, cluster=None, client=None) -> 
                                   dashboard_address=":0") as local:
         with distributed.Client(local, set_as_default=False) as own:
             yield own
+
+
+def _unreachable(address: str, error) -> InvalidParameters:
+    return InvalidParameters(
+        f"cannot reach a Dask scheduler at {address!r} ({error}); check cluster= (tcp://HOST:8786, "
+        "started by 'dask scheduler'), or use workers= for a local cluster", parameters=["cluster", "workers"])
+
+
+def _check_reachable(address: str) -> None:
+    """Refuse a malformed scheduler address, or a TCP one where nothing accepts a connection, at once.
+
+    Dask's own client waits :data:`CONNECT_SECONDS` and more to close again
+    after a failed connection; a plain socket knows in one round trip.
+    """
+    import socket
+
+    from distributed.comm.addressing import parse_address, parse_host_port
+
+    try:
+        scheme, location = parse_address(address)
+        if scheme not in ("tcp", "tls"):
+            return
+        host, port = parse_host_port(location)
+    except (ValueError, TypeError) as error:
+        raise _unreachable(address, error) from None
+    try:
+        socket.create_connection((host, port), timeout=CONNECT_SECONDS).close()
+    except OSError as error:
+        raise _unreachable(address, error) from None
 
 
 def _worker_count(client) -> int:
