@@ -429,9 +429,11 @@ def multiplicity_cost(system: System, max_energy=None) -> Cost:
 
 def _check_plan(system: System, plan: _Plan) -> None:
     """Refuse *plan* beyond the active limits, in one sentence naming the options."""
+    spectrum = system.spectrum
+    top = (plan.degree + system.particles * spectrum.lowest) * spectrum.unit
     check(
         plan.cost,
-        f"the exact multiplicities of {system.label} up to {plan.degree:,} energy units above the ground level",
+        f"the exact multiplicities of {system.label} up to total energy {top}",
         advice="lower the maximum energy (max_energy=) or the number of particles",
         parameters=["max_energy"],
     )
