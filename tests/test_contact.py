@@ -1,0 +1,247 @@
+"""Multiplicities at scale and thermal contact in the library: routes, limits, summaries.
+
+Expected values come from outside the project: ``math.comb`` (stars and bars:
+an Einstein solid of N oscillators holds q quanta in C(q + N - 1, q) ways,
+common practice), SymPy's partition numbers (OEIS A000041), SciPy's
+beta-binomial law (two Einstein solids sharing q quanta split as a
+beta-binomial of q trials with a = N_A, b = N_B, the Pólya-urn reading of
+stars and bars; from memory), and brute force written here: a plain
+knapsack count over the single-particle states and the enumeration of
+microstates with ``itertools``.
+"""
+
+from __future__ import annotations
+
+import importlib
+import itertools
+import math
+from collections import Counter
+from fractions import Fraction
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from enumerator.algorithms.levels import (
+    System,
+    einstein_solid,
+    harmonic_oscillator,
+    harmonic_trap,
+    make_spectrum,
+    multiplicities,
+    thermal_contact,
+)
+from enumerator.core.errors import TooLarge
+from enumerator.core.limits import limited
+
+# the module (the package exports a function of the same name)
+mult = importlib.import_module("enumerator.algorithms.levels.multiplicities")
+
+
+def knapsack(states, n, top, capacity=None):
+    """Brute force: ``{E: ways}`` for n particles in the given single-particle states (energies), E <= top.
+
+    ``capacity`` None: BE (any number per state); 1: FD; c: at most c per state.
+    A plain two-dimensional knapsack over the states, one at a time.
+    """
+    table = [[0] * (top + 1) for _ in range(n + 1)]
+    table[0][0] = 1
+    for e in states:
+        new = [row[:] for row in table]
+        for k in range(1, n + 1 if capacity is None else min(n, capacity) + 1):
+            for m in range(k, n + 1):
+                for energy in range(k * e, top + 1):
+                    new[m][energy] += table[m - k][energy - k * e]
+        table = new
+    return table[n]
+
+
+def coin_count(states, top):
+    """Brute force: multisets of states (any number per state) by total energy up to top."""
+    ways = [1] + [0] * top
+    for e in states:
+        for energy in range(e, top + 1):
+            ways[energy] += ways[energy - e]
+    return ways
+
+
+# --------------------------------------------------------------------------
+# Multiplicities: the routes against outside references
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize("oscillators, quanta", [(1, 7), (3, 10), (50, 40), (10_000, 300)])
+def test_einstein_solid_multiplicity_is_stars_and_bars(oscillators, quanta):
+    # Omega(N, q) = C(q + N - 1, q): stars and bars (common practice; any statistical mechanics textbook)
+    counts = multiplicities(einstein_solid(oscillators), quanta)
+    assert counts == {q: math.comb(q + oscillators - 1, q) for q in range(quanta + 1)}
+
+
+def test_many_bosons_on_the_oscillator_count_partitions():
+    # N >= E bosons on the 1D oscillator ladder: Omega(N, E) = p(E), the partition numbers
+    # (OEIS A000041), here from SymPy; this runs the one-variable (Euler transform) route.
+    from sympy.functions.combinatorial.numbers import partition
+
+    system = System.create(harmonic_oscillator(), 500, "BE")
+    assert mult._plan(system, 400).route == "series"
+    counts = multiplicities(system, 400)
+    assert all(counts[e] == int(partition(e)) for e in (0, 1, 2, 10, 99, 100, 250, 400))
+
+
+def test_ten_thousand_trap_bosons_answer_instead_of_aborting():
+    # The 3D trap with N = 10^4 >= E: with one ground state taking the rest, Omega(N, E) counts
+    # the multisets of excited states of energy E: brute force by a coin count over the
+    # (m + 1)(m + 2)/2 states of rung m, up to E = 60.
+    system = System.create(harmonic_trap(), 10_000, "BE")
+    counts = multiplicities(system, 900)
+    assert len(counts) == 901
+    states = [m for m in range(1, 61) for _ in range(math.comb(m + 2, 2))]
+    assert [counts[e] for e in range(61)] == coin_count(states, 60)
+
+
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, rule, capacity",
+    [
+        ("0,1,2,5", "3,2,4,1", 40, "BE", None),  # degenerate ground level: G_j = C(j + 2, 2)
+        ("0,1,2,5", "3,2,4,1", 6, "FD", None),
+        ("0,1,3", "2,2,3", 8, "BE", 2),  # Gentile: at most 2 per state
+        ("1/2,3/2,7/2", "1,1,3", 30, "BE", None),
+        ("0,2,3", "1,2,2", 3, "BE", None),  # N < D // gap: N + 1 rows
+    ],
+)
+def test_excited_rows_route_matches_the_knapsack(energies, degeneracies, n, rule, capacity):
+    # Brute force: the knapsack over single-particle states (defined above).
+    spectrum = make_spectrum(energies, degeneracies)
+    system = System.create(spectrum, n, rule, capacity)
+    top = n * spectrum.lowest + 14
+    counts = multiplicities(system, top * spectrum.unit)
+    states = [e for e, g in zip(spectrum.energies, spectrum.degeneracies) for _ in range(g)]
+    reference = knapsack(states, n, top, system.capacity)
+    low = min(counts)
+    assert counts == {e: reference[e] for e in range(low, top + 1)}
+
+
+@pytest.mark.parametrize(
+    "system, degree",
+    [
+        (System.create(harmonic_trap(), 40, "BE"), 120),
+        (System.create(harmonic_trap(), 1000, "BE"), 200),
+        (System.create(harmonic_trap(), 30, "FD"), 150),
+        (einstein_solid(20), 300),
+        (System.create(make_spectrum("0,1,2", "2,3,1"), 15, "MB"), 25),
+    ],
+)
+def test_size_bound_is_an_upper_bound(system, degree):
+    # Chernoff's bound [t^D] F <= F(tau) / tau^D (Flajolet & Sedgewick, Prop. IV.1) holds for every
+    # tau, so the estimate can only err upwards: compare with the computed counts' bit lengths.
+    spectrum = system.spectrum.through(degree) if not system.spectrum.finite else system.spectrum
+    system = System(spectrum, system.particles, system.rule, system.capacity)
+    shift = system.particles * spectrum.lowest
+    counts = multiplicities(system, shift + degree)
+    largest = max(v.bit_length() for v in counts.values())
+    bits = mult._coefficient_bits(system, system.particles, degree)
+    assert largest <= bits <= 2 * largest + 64
+
+
+# --------------------------------------------------------------------------
+# Refusals before any work
+# --------------------------------------------------------------------------
+def test_refused_before_computing(monkeypatch):
+    # Nothing may be computed: the routes are replaced by tripwires.
+    def tripwire(*args, **kwargs):
+        raise AssertionError("computed past the limit")
+
+    monkeypatch.setattr(mult, "_partition_polynomials_of", tripwire)
+    monkeypatch.setattr(mult, "_scalar_euler", tripwire)
+    monkeypatch.setattr(mult, "_mb_polynomial", tripwire)
+    with limited(memory="64M"):
+        with pytest.raises(TooLarge, match=r"raise max_memory= .* lower the maximum energy \(max_energy=\)"):
+            multiplicities(System.create(harmonic_trap(), 1000, "BE"), 2000)
+        with pytest.raises(TooLarge, match="max_memory="):
+            multiplicities(System.create(harmonic_trap(), 10**7, "BE"), 10**6)
+        with pytest.raises(TooLarge, match="max_memory="):
+            multiplicities(einstein_solid(10**6), 10**7)
+    with limited(seconds=0.01):
+        with pytest.raises(TooLarge, match="raise max_seconds="):
+            multiplicities(System.create(harmonic_trap(), 300, "FD"), 3000)
+
+
+def test_costs_grow_with_the_table():
+    small = mult.multiplicity_cost(System.create(harmonic_trap(), 50, "BE"), 100)
+    large = mult.multiplicity_cost(System.create(harmonic_trap(), 500, "BE"), 2000)
+    assert 0 < small.memory < large.memory and 0 < small.seconds < large.seconds
+    assert mult.multiplicity_cost(System.create(harmonic_trap(), 4, "FD"), 1).memory == 0  # below the ground state
+
+
+def test_contact_refused_past_the_limit_before_computing(monkeypatch):
+    monkeypatch.setattr(mult, "multiplicities", lambda *a, **k: pytest.fail("computed past the limit"))
+    with limited(memory="256M"):
+        with pytest.raises(TooLarge, match="energy split .* max_memory="):
+            thermal_contact(einstein_solid(10**6), einstein_solid(10**6), 10**6)
+
+
+# --------------------------------------------------------------------------
+# Thermal contact
+# --------------------------------------------------------------------------
+def brute_split(a_states, n_a, b_states, n_b, total, rule="BE"):
+    """Brute force: enumerate the microstates of A and B (multisets of states) and count each E_A."""
+    pick = itertools.combinations_with_replacement if rule == "BE" else itertools.combinations
+    ca = Counter(sum(c) for c in pick(a_states, n_a))
+    cb = Counter(sum(c) for c in pick(b_states, n_b))
+    return {ea: ca[ea] * cb[total - ea] for ea in range(total + 1) if ca[ea] * cb[total - ea]}
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.integers(1, 4), st.integers(1, 4), st.integers(0, 9), st.sampled_from(["BE", "FD"]))
+def test_contact_split_and_peak_against_brute_force(n_a, n_b, energy, rule):
+    # Brute force: every microstate of A (levels 0,1,2 with degeneracies 1,2,2) and of B
+    # (levels 0,1,3 with degeneracies 2,1,1), multisets for BE, sets for FD.
+    a = System.create(make_spectrum("0,1,2", "1,2,2"), n_a, rule)
+    b = System.create(make_spectrum("0,1,3", "2,1,1"), n_b, rule)
+    contact = thermal_contact(a, b, energy)
+    expected = brute_split([0, 1, 1, 2, 2], n_a, [0, 0, 1, 3], n_b, energy, rule)
+    assert {e: v for e, v in contact.split.items() if v} == expected
+    assert contact.total == sum(expected.values())
+    if expected:
+        best = max(expected.values())
+        assert contact.most_probable == min(e for e, v in expected.items() if v == best)
+        assert sum(contact.probability.values()) == 1
+        assert math.fsum(contact.probability_approx_of(e) for e in contact.split) == pytest.approx(1, abs=1e-12)
+    else:
+        assert contact.most_probable is None and contact.summary() is None
+
+
+@pytest.mark.parametrize("n_a, n_b, quanta", [(3, 3, 6), (30, 20, 10), (300, 200, 100), (2000, 1500, 2500)])
+def test_einstein_contact_is_beta_binomial(n_a, n_b, quanta):
+    # Two Einstein solids sharing q quanta: E_A ~ BetaBinomial(q, N_A, N_B) (from memory; the
+    # Polya-urn reading of stars and bars), law and moments from SciPy; exact moments of the
+    # beta-binomial: mean q a/(a+b), variance q a b (a+b+q) / ((a+b)^2 (a+b+1)) (same source).
+    from scipy.stats import betabinom
+
+    contact = thermal_contact(einstein_solid(n_a), einstein_solid(n_b), quanta)
+    law = betabinom(quanta, n_a, n_b)
+    s = contact.summary()
+    ab = n_a + n_b
+    assert s.mean == Fraction(quanta * n_a, ab)
+    assert s.variance == Fraction(quanta * n_a * n_b * (ab + quanta), ab * ab * (ab + 1))
+    assert s.mean_approx == pytest.approx(law.mean(), rel=1e-12)
+    assert s.variance_approx == pytest.approx(law.var(), rel=1e-12)
+    assert s.std_dev_approx == pytest.approx(law.std(), rel=1e-12)
+    assert s.splits == quanta + 1
+    pmf = law.pmf(range(quanta + 1))
+    assert contact.most_probable == int(pmf.argmax())
+    assert s.most_probable_probability_approx == pytest.approx(pmf.max(), rel=1e-10)
+    for e in (0, quanta // 3, contact.most_probable, quanta):
+        assert contact.probability_approx_of(e) == pytest.approx(pmf[e], rel=1e-9, abs=1e-300)
+    # the exact value of the peak, C(q_A + N_A - 1, q_A) C(q_B + N_B - 1, q_B) / C(q + N - 1, q)
+    qa = contact.most_probable
+    peak = Fraction(math.comb(qa + n_a - 1, qa) * math.comb(quanta - qa + n_b - 1, quanta - qa),
+                    math.comb(quanta + ab - 1, quanta))
+    assert s.most_probable_probability == peak == contact.probability_of(qa)
+
+
+def test_floats_of_huge_ratios_are_near_the_exact_ones():
+    # Python's correctly rounded int / int on numbers small enough for it (common practice)
+    contact = thermal_contact(einstein_solid(400), einstein_solid(300), 900)
+    assert contact.total.bit_length() > 1000  # the GMP path of the float conversion
+    for e in (0, 1, 300, contact.most_probable, 899, 900):
+        exact = contact.probability_of(e)
+        assert contact.probability_approx_of(e) == pytest.approx(float(exact), rel=2.3e-16, abs=1e-320)
