@@ -305,3 +305,24 @@ def test_the_interrupt_message_counts_the_cells_stored(where, monkeypatch):
         stored = conn.execute("SELECT count(*) FROM enumerator_results").fetchone()[0]
     assert stored == 4 * 51
     assert f"Interrupted: {stored} of 510 cells of table cut are stored" in result.stderr
+
+
+# -- the same reads on PostgreSQL ------------------------------------------------------------
+
+def test_streamed_reads_on_postgresql(postgres_url, small_batches):
+    # a throw-away server (tests/conftest.py); skipped when none can be started.  n and r
+    # cross 1-, 2- and 3-digit numbers: the text comparisons must order them numerically
+    # whatever the database's collation
+    spec = tables.TableSpec.make("BE", "7..103", "8..12")
+    tables.build_table(spec, store=postgres_url, name="crossing")
+    table = tables.open_table("crossing", store=postgres_url)
+    cells = [(n, r, int(text)) for n, r, text, _ in table.cells()]
+    assert [(n, r) for n, r, _ in cells] == [(n, r) for r in range(8, 13) for n in range(7, 104)]
+    assert all(value == _stars_and_bars(n, r) for n, r, value in cells)
+    assert all(len(batch) <= 2 for batch in small_batches["values"])
+    window = tables.load_table("crossing", store=postgres_url, balls=range(98, 102), urns=range(9, 11))
+    assert set(window.cells) == {(n, r) for n in range(98, 102) for r in (9, 10)} and window.missing == 0
+    assert [(name, stored) for name, _, stored in tables.list_tables(store=postgres_url)] == [("crossing", 485)]
+    assert table.stored(balls=range(95, 200), urns=range(10, 11)) == 9
+    rows = dict(tables.wide_rows(spec, table.cells()))
+    assert rows[100] == [str(_stars_and_bars(100, r)) for r in range(8, 13)]
