@@ -151,3 +151,12 @@ def test_raising_the_limit_turns_a_refusal_into_an_answer():
     args = ["levels", "--preset", "trap", "--particles", 10_000, "--rule", "BE", "--max-energy", 900]
     one_line_error(run(*args, "--max-memory", "1M"))
     assert run(*args, "--max-memory", "1G").exit_code == 0
+
+
+def test_no_microstate_keeps_the_empty_maps():
+    # Two fermions fit in the two states of a two-level system, four do not (by hand)
+    args = ("contact", "--oscillators-a", 3, "--preset-b", "two-level", "--particles-b", 4, "--rule-b", "FD",
+            "--energy", 1)
+    expected = {"total": "0", "split": {}, "most_probable": None, "probability": {}, "probability_approx": {}}
+    assert run_json(*args) == expected
+    assert run_json(*args, "--summary") == expected

@@ -171,10 +171,11 @@ def contact_payload(contact: Contact, listing: Optional[Listing] = None) -> dict
         listing = Listing(None if not contact.split else (min(contact.split), max(contact.split)), True, False)
     payload: dict = {"total": exact(contact.total)}
     keys = listing.keys(contact)
-    if listing.window is not None:
+    listed = listing.window is not None or listing.complete
+    if listed:
         payload["split"] = {str(e): exact(contact.split[e]) for e in keys}
     payload["most_probable"] = contact.most_probable
-    if listing.window is not None:
+    if listed:
         if contact.total:
             payload["probability"] = {str(e): exact(contact.probability_of(e)) for e in keys}
             payload["probability_approx"] = {str(e): contact.probability_approx_of(e) for e in keys}
