@@ -47,9 +47,11 @@ from .ensembles import (
 from .multiplicities import (
     MAX_CELLS,
     Contact,
+    ContactSummary,
     MicroPoint,
     microcanonical,
     multiplicities,
+    multiplicity_cost,
     multiplicity_table,
     thermal_contact,
 )
@@ -72,6 +74,7 @@ from .spectra import (
 __all__ = [
     "CanonicalPoint",
     "Contact",
+    "ContactSummary",
     "DEFAULT_DIGITS",
     "Ladder",
     "MAX_CELLS",
@@ -94,6 +97,7 @@ __all__ = [
     "make_system",
     "microcanonical",
     "multiplicities",
+    "multiplicity_cost",
     "multiplicity_table",
     "occupation_law",
     "occupation_law_exact",
