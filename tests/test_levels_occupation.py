@@ -253,3 +253,30 @@ def test_temperature_lists_and_ranges():
         with pytest.raises(InvalidParameters):
             parse_temperatures(bad)
     assert math.isclose(float(parse_temperatures("1..1:1")[0]), 1)
+
+
+@pytest.mark.parametrize("level", [1, 3, 4])
+def test_particle_hole_law_agrees_with_the_recursion_law(level):
+    # 34 fermions in the 3D trap: shells 0..3 hold 20, shell 4 holds the other 14 of its 15 states
+    # (common practice), so levels 1, 3, 4 are below, below and at the Fermi shell; level 5 is above.
+    # Two independent routes (positive particle-hole sums in balls; alternating recursion in fixed point).
+    from enumerator.algorithms.levels.occupation import _law_at
+    from enumerator.algorithms.levels.particle_hole import fermion_canonical
+
+    system = make_system(34, preset="trap", rule="FD")
+    for lev in (level, 5):
+        (p,) = fermion_canonical(system, temperatures=["1/2"], digits=25, law_level=lev, levels=1)
+        law, _bits = _law_at(system, lev, Fraction(1, 2), 25)
+        assert len(p.law) == len(law)
+        assert max(abs(a - b) for a, b in zip(law, p.law)) < mpmath.mpf(10) ** -24
+        assert p.errors["law"] < mpmath.mpf(10) ** -25
+
+
+def test_fermion_law_far_below_the_fermi_temperature_is_quick_and_normalised():
+    # 969 fermions fill shells 0..16 (common practice); at T = 0.3 the recursion would need ~56000 bits.
+    (law,) = occupation_law(make_system(969, preset="trap", rule="FD"), 16, ["0.3"], digits=15)
+    assert len(law.law) == 154  # 0..153 fermions in the 153 states of shell 16
+    with mpmath.workdps(30):
+        assert abs(mpmath.fsum(law.law) - 1) < 1e-14
+    (point,) = canonical(make_system(969, preset="trap", rule="FD"), ["0.3"], digits=15, levels=17)
+    assert abs(law.mean - point.occupations_approx[16]) < 1e-12

@@ -74,10 +74,12 @@ from .ensembles import (
     GUARD_DIGITS,
     _online_recursion,
     _parse_temperature,
+    _particle_hole_pays,
     _to_fixed,
     grand_canonical,
     grand_canonical_level_variance,
 )
+from .particle_hole import fermion_canonical
 from .spectra import System, ground_energy, parse_rational
 
 __all__ = ["OccupationLaw", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
@@ -216,6 +218,12 @@ def _law_at(system: System, index: int, temperature: Fraction, digits: int):
     target = math.ceil(digits * math.log2(10))
     margin = 8 + 2 * (n + 1).bit_length()
     bits = target + margin + 16
+    if system.capacity is not None:
+        # The alternating sums cancel: about β (E_0 - N ε_min) / ln 2 bits (the plain recursion's loss).
+        excess = ground_energy(system) - n * spectrum.lowest
+        bits += math.ceil(float(excess * u_frac / temperature) / math.log(2))
+    check(_law_cost(n, bits), f"the occupation law of {n} particles at T = {temperature}",
+          advice="raise the temperature or lower particles=", parameters=["particles", "temperatures"])
     for _attempt in range(12):
         with mpmath.workprec(bits + 32):
             T = mpmath.mpf(temperature.numerator) / temperature.denominator
@@ -277,6 +285,13 @@ def _law_at(system: System, index: int, temperature: Fraction, digits: int):
     )
 
 
+def _law_cost(n: int, bits: int) -> Cost:
+    """Rough cost of one fixed-point recursion of length *n* at *bits* bits (two sequences, ``log2 n`` levels of products)."""
+    size = (n + 1) * (bits + 2 * n.bit_length())
+    seconds = 4 * max(1, n.bit_length()) * product_seconds(size) + n * bits / 2e7
+    return Cost(seconds=seconds, memory=6 * bigint_bytes(size))
+
+
 def _binomial_law(system: System, index: int, e_l: int, g: int, power):
     """MB: ``C(N, k) p^k (1 - p)^(N-k)``, ``p = g y_l / (g y_l + z'_1)`` (energies from the lowest other level)."""
     n = system.particles
@@ -309,6 +324,12 @@ def _grand(system: System, index: int, temperature: Fraction, digits: int):
     if mu is None:
         return None, None
     return occ[index], grand_canonical_level_variance(system, temperature, mu, index, occ[index], digits)
+
+
+def _own_energy(system: System, index: int) -> bool:
+    """True when listed level *index* shares its energy with no other listed level (a ladder's rungs never do)."""
+    energies = system.spectrum.energies
+    return system.spectrum.ladder is not None or energies.count(energies[index]) == 1
 
 
 def _check_system(system: System) -> None:
@@ -360,7 +381,14 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     without level ``l`` by the Borrmann–Franke recursion in fixed point
     (module docstring); MB binomial.  Cost per temperature: one recursion,
     ``O(M(N) log N)`` integer work (``M``: a FLINT product of length ``N``),
-    plus ``O(N)`` mpmath operations.
+    plus ``O(N)`` mpmath operations; refused beforehand past the limits
+    (:mod:`enumerator.core.limits`).  Fermions far below the Fermi
+    temperature (where the alternating recursion would need about
+    ``β (E_0 - N ε_min) / ln 2`` bits; the rule of
+    :func:`~.ensembles.canonical`) take the particle-hole sums instead
+    (:func:`.particle_hole.fermion_canonical` with ``law_level``): each
+    probability then within ``10^-digits`` *absolute* (ball radius plus
+    the truncation bound), not relative.
 
     Examples
     --------
@@ -378,7 +406,12 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     out = []
     for value in temperatures:
         temperature = _parse_temperature(value)
-        law, _bits = _law_at(system, level, temperature, digits)
+        if system.particles and _particle_hole_pays(system, temperature, digits, "auto") and _own_energy(system, level):
+            (point,) = fermion_canonical(system, temperatures=[temperature], digits=digits, law_level=level,
+                                         levels=1)
+            law = point.law
+        else:
+            law, _bits = _law_at(system, level, temperature, digits)
         with mpmath.workdps(digits + GUARD_DIGITS):
             law = [mpmath.mpf(p) for p in law]
             mean, var = _moments(law)

@@ -105,7 +105,8 @@ class FermionPoint:
     ``occupations_approx[i]`` is the mean number of particles in listed level
     ``i`` (all its states); ``occupation_above_approx`` is the mean number in
     the ladder rungs beyond the listed levels, so that the listed occupations
-    plus it sum to ``N``.
+    plus it sum to ``N``.  ``law`` (when asked for) is ``P(n_l = k)`` of one
+    level, ``k = 0..min(g_l, N)``, each within ``errors["law"]`` (absolute).
     """
 
     temperature: Fraction
@@ -120,6 +121,7 @@ class FermionPoint:
     occupations_approx: Tuple[mpmath.mpf, ...]
     occupation_above_approx: mpmath.mpf
     errors: Dict[str, mpmath.mpf]
+    law: Optional[Tuple[mpmath.mpf, ...]] = None
 
 
 # --------------------------------------------------------------------------
@@ -324,7 +326,7 @@ def _degree(levels, e_fermi: int, beta: float, shift: float, budget: float, cap:
 # One temperature
 # --------------------------------------------------------------------------
 def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: int, prec: int, top: int,
-        extra: int = 0):
+        extra: int = 0, law_energy: Optional[int] = None):
     """Everything at one temperature with ladder rungs through *top*: ``(point or None, widen the cut-offs?)``."""
     ctx.prec = prec
     unit = spectrum.unit
@@ -399,6 +401,7 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
     g_minus = arb_poly([math.comb(g_p - 1, k) for k in range(g_p)])
     SP = P[0] * g_minus
     per_state[e_p] = _shifted_dot(H[0], SP, n_p - 1) / Z
+    e_side = None
     if above:
         # e_p' = Σ_h H_h G_{n_P + h - p}: the hole side with the Fermi shell, as a polynomial in p.
         s_b = H[0].length() - 1
@@ -411,6 +414,31 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             rest = _factor(g - 1, y, 0, min(plen, cut[e] + 1))[0] if g > 1 else arb_poly([1])
             without = _trunc(_trunc(p_pre[i] * rest, plen) * p_suf[i + 1], plen)
             per_state[e] = y * _shifted_dot(without, e_side, 1) / Z
+
+    # The law of one level: its configurations restricted to k particles (holes below P).
+    law_sums: Dict[int, arb] = {}
+    if law_energy is not None:
+        if law_energy < e_p:
+            i = next(j for j, (e, _g) in enumerate(below) if e == law_energy)
+            g = below[i][1]
+            y = (-(b * (e_p - law_energy))).exp()
+            without = _trunc(h_pre[i] * h_suf[i + 1], hlen)
+            yk = arb(1)
+            for h in range(min(g, cut[law_energy], hmax) + 1):
+                law_sums[g - h] = math.comb(g, h) * yk * _shifted_dot(without, S[0], n_p + h)
+                yk = yk * y
+        elif law_energy == e_p:
+            for m in range(g_p + 1):
+                law_sums[m] = math.comb(g_p, m) * _shifted_dot(H[0], P[0], n_p - m)
+        else:
+            i = next(j for j, (e, _g) in enumerate(above) if e == law_energy)
+            g = above[i][1]
+            y = (-(b * (law_energy - e_p))).exp()
+            without = _trunc(p_pre[i] * p_suf[i + 1], plen)
+            yk = arb(1)
+            for k in range(min(g, cut[law_energy], pmax) + 1):
+                law_sums[k] = math.comb(g, k) * yk * _shifted_dot(without, e_side, k)
+                yk = yk * y
 
     # Truncation: configurations using rungs above `top`, more than `hmax`
     # holes or more than `pmax` particles (see the module docstring).
@@ -516,10 +544,23 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             "entropy": S_err,
             "occupations": occ_err,
         }
+        law = None
+        if law_energy is not None:
+            g_l = next(g for e, g in shells if e == law_energy) if law_energy <= shells[-1][0] else 0
+            law = []
+            law_err = zero
+            for k in range(min(g_l, n) + 1):
+                if k in law_sums:
+                    q = law_sums[k] / Z
+                    law.append(_mpf(q))
+                    law_err = max(law_err, _rad(q))
+                else:
+                    law.append(zero)
+            errors["law"] = law_err + eta[0]
         tol = mpmath.mpf(10) ** -digits
         checks = [(lnZ_err, lnZ), (U_exc_err, U_exc), (C_err, C), (S_err, S)]
         ok = all(err == 0 or err <= tol * abs(val) for err, val in checks)
-        ok = ok and occ_err <= tol
+        ok = ok and occ_err <= tol and errors.get("law", zero) <= tol
         if not ok:
             # Is the truncation alone above half the tolerance?  Then widen the cut-offs.
             mu = _upper(mean_units)
@@ -541,6 +582,8 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         }
         errors = {k: v + abs(values.get(k, 0)) * ulp for k, v in errors.items()}
         errors["occupations"] = occ_err + n * ulp
+        if law is not None:
+            errors["law"] += ulp
         point = FermionPoint(
             temperature,
             digits,
@@ -554,6 +597,7 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             tuple(occ),
             above_listed,
             errors,
+            None if law is None else tuple(law),
         )
         return point, False
 
@@ -587,6 +631,7 @@ def fermion_canonical(
     temperatures: Iterable = (),
     digits: int = 15,
     levels: Optional[int] = None,
+    law_level: Optional[int] = None,
 ) -> List[FermionPoint]:
     """Return the canonical ensemble of *particles* fermions on *spectrum* at each temperature.
 
@@ -608,6 +653,14 @@ def fermion_canonical(
         How many listed levels (ladder rungs) to report occupations for.
         Default: every listed level of a finite spectrum; for a ladder the
         rungs through the Fermi shell and two above it.
+    law_level : int, optional
+        Also the law ``P(n_l = k)`` of this listed level (ladder rung), from
+        the same sums restricted to ``k`` particles in it (``k`` holes below
+        the Fermi shell): ``C(g, h) y^h Σ_{h'} W_{h'} S_{h'+h+n_P}`` with ``W``
+        the hole polynomial without the level, and likewise above it; each
+        probability within ``10^-digits`` absolute (ball radius plus the
+        truncation bound).  Its energy must not be shared with another
+        listed level.
 
     Returns
     -------
@@ -675,6 +728,19 @@ def fermion_canonical(
             )
     else:
         report = fermi + 3 if levels is None else as_count(levels, "levels", 1)
+    law_energy = None
+    if law_level is not None:
+        index = as_count(law_level, "level", 0)
+        if spectrum.ladder is None:
+            if index >= len(spectrum.energies) or spectrum.energies.count(spectrum.energies[index]) > 1:
+                raise InvalidParameters(
+                    f"level {index} is not a listed level of its own energy; the particle-hole law needs one",
+                    parameters=["level"],
+                )
+            law_energy = spectrum.energies[index]
+        else:
+            law_energy = spectrum.ladder.energy(index)
+            report = max(report, index + 1)
     points = []
     for t in temps:
         prec = math.ceil(digits * math.log2(10)) + GUARD_BITS + 2 * (n + 1).bit_length()
@@ -685,7 +751,7 @@ def fermion_canonical(
                 top = fermi
                 if spectrum.ladder is not None:
                     top = max(_first_top(spectrum, fermi, t, digits, extra), report - 1)
-                point, widen = _at(spectrum, n, t, digits, report, prec, top, extra)
+                point, widen = _at(spectrum, n, t, digits, report, prec, top, extra, law_energy)
                 if point is not None:
                     points.append(point)
                     break
