@@ -205,6 +205,7 @@ def test_particle_hole_route_agrees_with_the_recursion_at_high_precision():
             assert abs(x - y) <= mpmath.mpf(10) ** -27 * abs(x)
         assert all(abs(x - y) < mpmath.mpf(10) ** -27 * 100 for x, y in zip(a.occupations_approx, b.occupations_approx))
         assert abs(a.occupation_above_approx - b.occupation_above_approx) < mpmath.mpf(10) ** -25
+        assert abs(a.ground_occupation_variance_approx - b.ground_occupation_variance_approx) < mpmath.mpf(10) ** -25
 
 
 def test_auto_route_takes_particle_hole_far_below_the_fermi_temperature():

@@ -201,7 +201,8 @@ class CanonicalPoint:
     localised: no reservoir exchanges them).  ``occupation_above_approx`` is
     the mean number of particles above the listed levels (the listed
     occupations plus it make ``N``); ``ground_occupation_variance_approx``
-    is ``⟨δn_0^2⟩`` of listed level 0 (``None`` on the particle-hole route),
+    is ``⟨δn_0^2⟩`` of listed level 0 (on the particle-hole route from the law
+    of level 0; ``None`` when level 0 shares its energy with another level),
     beside the grand-canonical ``grand_canonical_ground_variance_approx``.
     ``route`` names the method: ``"recursion"`` (Borrmann–Franke) or
     ``"particle-hole"`` (:mod:`.particle_hole`, fermions far below the Fermi
@@ -774,13 +775,22 @@ def _particle_hole_pays(system: System, temperature: Fraction, digits: int, rout
 
 def _particle_hole_point(system: System, temperature: Fraction, digits: int, count: int) -> CanonicalPoint:
     """One temperature by :func:`.particle_hole.fermion_canonical`, as a :class:`CanonicalPoint`."""
-    (p,) = fermion_canonical(system, temperatures=[temperature], digits=digits, levels=count)
+    energies = system.spectrum.energies
+    own = system.spectrum.ladder is not None or energies.count(energies[0]) == 1
+    (p,) = fermion_canonical(system, temperatures=[temperature], digits=digits, levels=count,
+                             law_level=0 if own else None)
+    variance = None
+    if p.law is not None:  # level 0's variance from its law (absolute error about 10^-digits N^2)
+        with mpmath.workdps(digits + GUARD_DIGITS):
+            mean = mpmath.fsum(k * q for k, q in enumerate(p.law))
+            variance = mpmath.fsum((k - mean) ** 2 * q for k, q in enumerate(p.law))
     with mpmath.workdps(digits):
         return CanonicalPoint(
             temperature, digits, +p.ln_partition_function_approx, +p.mean_energy_approx,
             +p.heat_capacity_approx, +p.free_energy_approx, +p.entropy_approx,
             tuple(+x for x in p.occupations_approx),
             occupation_above_approx=+p.occupation_above_approx, route="particle-hole",
+            ground_occupation_variance_approx=None if variance is None else +variance,
         )
 
 
