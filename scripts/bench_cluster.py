@@ -18,7 +18,13 @@ import time
 
 import distributed
 
-from enumerator.store.cluster import RowTask, _compute_rows, build_table_distributed, plan_row_batches
+from enumerator.store.cluster import (
+    RowTask,
+    _compute_rows,
+    build_table_distributed,
+    local_cluster,
+    plan_row_batches,
+)
 from enumerator.store.database import Store
 from enumerator.store.tables import TableSpec, build_table, load_table
 
@@ -45,10 +51,11 @@ def main() -> None:
     clusters = {}
     for k in (1, 2):
         t0 = time.perf_counter()
-        cluster = distributed.LocalCluster(n_workers=k, threads_per_worker=1, processes=True, dashboard_address=":0")
+        context = local_cluster(k)  # Dask's workers without MALLOC_TRIM_THRESHOLD_ (see local_cluster)
+        cluster = context.__enter__()
         client = distributed.Client(cluster, set_as_default=False)
         client.wait_for_workers(k)
-        clusters[k] = (cluster, client)
+        clusters[k] = (context, client)
         print(f"start-up of a {k}-worker LocalCluster: {time.perf_counter() - t0:.1f} s")
     for _ in range(args.rounds):
         store = fresh()
@@ -79,9 +86,9 @@ def main() -> None:
     gap = (min(remote) - min(local)) / spec.cells
     print(f"rows only, no store: here {min(local):.2f} s, through 1 worker {min(remote):.2f} s "
           f"({len(batches)} tasks): {gap * 1e6:.1f} us/cell")
-    for cluster, client in clusters.values():
+    for context, client in clusters.values():
         client.close()
-        cluster.close()
+        context.__exit__(None, None, None)
     best = {name: min(values) for name, values in times.items()}
     for name, value in best.items():
         print(f"{name:12s} {value:8.2f} s  (rounds: {', '.join(f'{v:.2f}' for v in times[name])})")

@@ -57,9 +57,10 @@ def register(bench) -> None:
         """A client on a fresh cluster: worker processes (full), threads in this process (quick)."""
         import distributed
 
+        from enumerator.store.cluster import local_cluster
+
         t0 = time.perf_counter()
-        with distributed.LocalCluster(n_workers=workers, threads_per_worker=1, processes=not ctx.quick,
-                                      dashboard_address=":0") as local:
+        with local_cluster(workers, processes=not ctx.quick) as local:
             with distributed.Client(local, set_as_default=False) as client:
                 client.wait_for_workers(workers)
                 yield client, time.perf_counter() - t0

@@ -40,8 +40,9 @@ cloudpickle.register_pickle_by_value(sys.modules[__name__])
 
 @pytest.fixture(scope="module")
 def client():
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=":0") as cluster:
+    from enumerator.store.cluster import local_cluster
+
+    with local_cluster(2) as cluster:
         with distributed.Client(cluster, set_as_default=False) as c:
             yield c
 
