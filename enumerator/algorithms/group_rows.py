@@ -18,8 +18,9 @@ and the number of groups.
 
 Algorithms: the binomial row ``C(m + c - 1, m)`` (no upper bound bites), the
 three-term recurrence of :func:`enumerator.core.series.window_power_row`
-(a capacity), ``c^m`` (MB unbounded), and J. C. P. Miller's recurrence for
-the power of a series,
+(a capacity), ``c^m`` (MB unbounded), FLINT's truncated power of the
+rational window (MB with a lower bound, or fewer than :data:`MILLER_COUNT`
+urns), and J. C. P. Miller's recurrence for the power of a series,
 ``M_k = (1/k) sum_{i=1}^{min(k,s)} ((c+1) i - k) C(k, i) M_{k-i}``,
 written on microstate counts ``M_k = k! [x^k]`` (Knuth, *TAOCP* vol. 2, 3rd
 ed., 1997, §4.7; Henrici, *Applied and computational complex analysis*,
@@ -33,23 +34,30 @@ from fractions import Fraction
 from typing import List, Optional, Sequence, Tuple
 
 import gmpy2
-from flint import fmpz_poly
+from flint import fmpq, fmpq_poly, fmpz_poly
 
 from ..core import series
 from ..core.limits import STEPS_PER_SECOND, Cost, bigint_bytes, product_seconds
 
 __all__ = [
+    "MILLER_COUNT",
     "combine",
     "exponential_group_row",
     "group_row",
     "integer_weights",
+    "miller_row",
     "ordinary_group_row",
     "row_bits",
+    "row_degree",
     "rows_cost",
+    "scale_by_powers",
     "suffix_rows",
 ]
 
 mpz = gmpy2.mpz
+
+#: Groups of this many urns or more take Miller's recurrence: FLINT's truncated powers take a machine-word exponent.
+MILLER_COUNT = 2 ** 62
 
 
 def integer_weights(weights: Sequence[Fraction]) -> Tuple[List[int], int]:
@@ -67,7 +75,8 @@ def integer_weights(weights: Sequence[Fraction]) -> Tuple[List[int], int]:
     return [int(w * d) for w in weights], d
 
 
-def _scale_by_powers(row: List, weight: int) -> List:
+def scale_by_powers(row: List, weight: int) -> List:
+    """Entry ``k`` of *row* times ``weight^k`` (the row of urns of that weight)."""
     if weight == 1:
         return row
     out, power = [], mpz(1)
@@ -111,14 +120,14 @@ def ordinary_group_row(count: int, lower: int, upper: Optional[int], top: int, w
     True
     """
     low = count * lower
-    if low > top:
+    if low > top or (upper is not None and upper < lower):
         return [mpz(0)] * (top + 1)
     span_top = top - low
     if upper is None or upper - lower >= span_top:
         values = series.binomial_row(count, span_top)
     else:
         values = series.window_power_row(upper - lower, count, span_top)
-    return _scale_by_powers([mpz(0)] * low + list(values), weight)
+    return scale_by_powers([mpz(0)] * low + list(values), weight)
 
 
 def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int, weight: int = 1) -> List:
@@ -138,10 +147,10 @@ def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int
     Notes
     -----
     ``(c w)^m`` without a biting bound; Miller's recurrence on ``M_k = k!
-    [x^k]`` (``O(top * min(top, b))`` steps) for ``2^32`` urns or more or
-    spans up to 16; else FLINT's binary power of the window scaled by
-    ``top!`` (``O(M(top) log c)``; the only route with a lower bound, where
-    ``c <= top / a``).
+    [x^k]`` (:func:`miller_row`, ``O(top * min(top, b))`` steps) for
+    :data:`MILLER_COUNT` urns or more or spans up to 16; else FLINT's
+    truncated power of the rational window (``O(M(top) log c)``; the only
+    route with a lower bound, where ``c <= top / a``).
 
     Examples
     --------
@@ -151,47 +160,63 @@ def exponential_group_row(count: int, lower: int, upper: Optional[int], top: int
     True
     """
     low = count * lower
-    if low > top:
+    if low > top or (upper is not None and upper < lower):
         return [mpz(0)] * (top + 1)
-    span_top = top - low
-    if lower == 0 and (upper is None or upper >= top):
+    high = lower + (top - low) if upper is None else min(upper, lower + (top - low))
+    if lower == 0 and high >= top:
         out, value = [], mpz(1)
         for _ in range(top + 1):
             out.append(value)
             value *= count
-        return _scale_by_powers(out, weight)
-    if lower == 0 and (count >= 2**32 or upper <= 16):
-        # Miller's recurrence on M_k = k! [x^k] f^c with f = sum_{i<=s} x^i/i!:
-        # O(top * s) steps whatever c (binary powering costs log2 c products).
-        s = upper
-        c1 = count + 1
-        out = [mpz(1)] + [mpz(0)] * top
-        for k in range(1, top + 1):
-            total = mpz(0)
-            binom = mpz(1)
-            for i in range(1, min(k, s) + 1):
-                binom = binom * (k - i + 1) // i
-                total += (c1 * i - k) * binom * out[k - i]
-            out[k] = gmpy2.divexact(total, k)
-        return _scale_by_powers(out, weight)
-    # Fewer than 2^32 urns (any with a lower bound: count <= top / lower): a
-    # truncated binary power of the window scaled by top! (exact divisions
-    # after each product), O(M(top) log c).
-    fac = gmpy2.fac
-    scale = fac(top)
-    high = span_top if upper is None else min(upper - lower, span_top)
-    window = fmpz_poly([int(scale // fac(lower + k)) for k in range(high + 1)])
-    product = series.scaled_power(window, count, span_top, scale)
+        return scale_by_powers(out, weight)
+    if lower == 0 and (count >= MILLER_COUNT or high <= 16):
+        # O(top * s) steps whatever c (binary powering costs log2 c products)
+        return scale_by_powers(miller_row(count, high, top, True), weight)
+    return scale_by_powers(_egf_power_row(count, lower, high, top), weight)
+
+
+def miller_row(c: int, span: int, top: int, labelled: bool) -> List:
+    r"""Coefficients of ``(sum_{j=0}^{span} x^j [/ j!])^c`` up to ``x^top``, any exponent ``c``.
+
+    Miller's recurrence (Knuth, TAOCP vol. 2, §4.7, eq. (9)) for ``g = f^c``
+    with ``f_0 = 1``: ``k g_k = sum_{j=1}^{k} ((c+1) j - k) f_j g_{k-j}``.
+    Labelled balls keep ``N(k) = k! g_k`` (integers):
+    ``N(k) = (1/k) sum_j ((c+1) j - k) C(k, j) N(k-j)``.  ``O(top * span)``
+    small-by-big multiplications, exact divisions.
+
+    >>> [int(v) for v in miller_row(3, 1, 3, True)]  # injective maps into 3 urns: 3^(k)
+    [1, 3, 6, 6]
+    """
+    N = [mpz(0)] * (top + 1)
+    N[0] = mpz(1)
+    c1 = c + 1
+    for k in range(1, top + 1):
+        total = mpz(0)
+        binom = mpz(1)
+        for j in range(1, min(k, span) + 1):
+            if labelled:
+                binom = gmpy2.divexact(binom * (k - j + 1), j)
+                total += (c1 * j - k) * binom * N[k - j]
+            else:
+                total += (c1 * j - k) * N[k - j]
+        N[k] = gmpy2.divexact(total, k)
+    return N
+
+
+def _egf_power_row(c: int, a: int, b: int, top: int) -> List:
+    """``k! [x^k] (sum_{j=a}^{b} x^j / j!)^c`` by FLINT's truncated power (``c`` below a machine word)."""
+    base = fmpq_poly([0] * a + [fmpq(1, int(gmpy2.fac(j))) for j in range(a, b + 1)])
+    power = base.pow_trunc(c, top + 1)
+    coeffs = power.coeffs()
     out = [mpz(0)] * (top + 1)
-    m_fac = fac(low)
-    for j in range(span_top + 1):
-        m = low + j
-        if j:
-            m_fac *= m
-        c = series.coefficient(product, j)
-        if c:
-            out[m] = gmpy2.divexact(m_fac * c, scale)
-    return _scale_by_powers(out, weight)
+    fac = mpz(1)
+    for k in range(top + 1):
+        if k:
+            fac *= k
+        if k < len(coeffs) and coeffs[k] != 0:
+            q = coeffs[k]
+            out[k] = gmpy2.divexact(fac * int(q.p), int(q.q))
+    return out
 
 
 def group_row(kind: str, count: int, lower: int, upper: Optional[int], top: int, weight: int = 1) -> List:
@@ -233,34 +258,49 @@ def combine(kind: str, left: Sequence, right: Sequence, top: int) -> List:
     -----
     Ordinary: the truncated product ``sum_j L_j R_{m-j}``; exponential: the
     binomial convolution ``sum_j C(m, j) L_j R_{m-j}``, computed as one FLINT
-    product of ``top!/j!``-scaled rows followed by exact divisions.
+    product of ``top!/j!``-scaled rows followed by exact divisions.  Only up
+    to the sum of the rows' degrees, and a constant row is a scaling.
 
     >>> [int(v) for v in combine("exponential", [1, 1, 1], [1, 1, 1], 2)]  # 2 urns, MB
     [1, 2, 4]
     """
+    dx, dy = row_degree(left), row_degree(right)
+    if dx < 0 or dy < 0:
+        return [mpz(0)] * (top + 1)
+    reach = min(top, dx + dy)
+    if reach < top:
+        # short rows (a few urns, small bounds) cost what their length says, not top
+        return combine(kind, left[: reach + 1], right[: reach + 1], reach) + [mpz(0)] * (top - reach)
+    if dx == 0 or dy == 0:
+        # one row is a constant: a scaling
+        c, row = (left[0], right) if dx == 0 else (right[0], left)
+        out = [c * v for v in row[: top + 1]]
+        return out + [mpz(0)] * (top + 1 - len(out))
     if kind != "exponential":
         product = fmpz_poly([int(v) for v in left[: top + 1]]).mul_low(
             fmpz_poly([int(v) for v in right[: top + 1]]), top + 1)
         return [mpz(v) for v in series.coefficients(product, top)]
-    fac = gmpy2.fac
-    scale = fac(top)
-    scaled = []
-    for row in (left, right):
-        values, f = [], scale
-        for j in range(top + 1):
-            values.append(int(row[j] * f) if j < len(row) and row[j] else 0)
-            if j < top:
-                f = f // (j + 1)
-        scaled.append(fmpz_poly(values))
-    product = scaled[0].mul_low(scaled[1], top + 1)
-    square = scale * scale
-    out, m_fac = [], mpz(1)
+    # X_j = x_j top!/j!, Y_j = y_j top!/j!: [z^m] X Y = top!^2 / m! * sum_j C(m, j) x_j y_{m-j}
+    falls = [mpz(1)] * (top + 1)  # top!/j!
+    for j in range(top - 1, -1, -1):
+        falls[j] = falls[j + 1] * (j + 1)
+    X = fmpz_poly([int(v * f) for v, f in zip(left, falls)])
+    Y = fmpz_poly([int(v * f) for v, f in zip(right, falls)])
+    coeffs = X.mul_low(Y, top + 1).coeffs()
+    ftop = falls[0]
+    out = []
     for m in range(top + 1):
-        if m:
-            m_fac *= m
-        c = series.coefficient(product, m)
-        out.append(gmpy2.divexact(m_fac * c, square) if c else mpz(0))
+        c = mpz(int(coeffs[m])) if m < len(coeffs) else mpz(0)
+        out.append(gmpy2.divexact(c, ftop * falls[m]) if c else mpz(0))
     return out
+
+
+def row_degree(row: Sequence) -> int:
+    """The index of the last nonzero entry (-1 for a zero row)."""
+    d = len(row) - 1
+    while d >= 0 and not row[d]:
+        d -= 1
+    return d
 
 
 def suffix_rows(kind: str, groups: Sequence[Tuple[int, int, Optional[int], int]], top: int) -> List[List]:
@@ -308,7 +348,7 @@ def rows_cost(kind: str, groups: Sequence[Tuple[int, int, Optional[int], int]], 
     steps = 0
     for _count, lower, upper, _ in groups:
         span = top if upper is None else min(top, upper - lower)
-        miller = kind == "exponential" and lower == 0 and span < top and (_count >= 2**32 or span <= 16)
+        miller = kind == "exponential" and lower == 0 and span < top and (_count >= MILLER_COUNT or span <= 16)
         steps += (top + 1) * (max(1, span) if miller else max(1, _count.bit_length() if span < top else 1))
     seconds = (steps / STEPS_PER_SECOND) * max(1.0, bits / 640.0)
     seconds += len(groups) * product_seconds(bits * (top + 1))

@@ -18,14 +18,15 @@ Weights are scaled to integers first (:func:`integer_groups`): every
 configuration of ``n`` balls gains the same factor ``L^n``, which cancels in
 every probability.
 
-Powers of a group's series (:func:`unit_row`) use closed forms where they
-exist (``c^k`` for free MB urns; ``(1 - x^s)^c (1 - x)^{-c}`` for BE/FD),
-J. C. P. Miller's recurrence for the power of a series with any exponent
-(Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §4.7, eq. (9)) written for the
-integers ``N(k)``, or FLINT's truncated power of rational series for a
-group of few urns with a lower bound.  Groups are combined by (binomial)
-convolution, one FLINT product each (Flajolet & Sedgewick, *Analytic
-Combinatorics*, 2009, §II.2, labelled products).  Marking the urns whose
+Powers of a group's series (:func:`unit_row`) and the products of rows are
+those of :mod:`enumerator.algorithms.group_rows` (one implementation for
+every route by groups): closed forms where they exist (``c^k`` for free MB
+urns; the binomial row or the window recurrence for BE/FD), J. C. P.
+Miller's recurrence for the power of a series with any exponent (Knuth,
+*TAOCP* vol. 2, 3rd ed., 1997, §4.7, eq. (9)) written for the integers
+``N(k)``, or FLINT's truncated power of rational series.  Groups are
+combined by (binomial) convolution, one FLINT product each (Flajolet &
+Sedgewick, *Analytic Combinatorics*, 2009, §II.2, labelled products).  Marking the urns whose
 occupancy lies in a set ``Z`` (not containing 0) adds a variable ``y``:
 ``prod_g (A_g(x) + y B_g(x))^{c_g}``, packed into one univariate series
 (Kronecker substitution) — the law of the number of marked urns has at most
@@ -47,6 +48,7 @@ from flint import fmpq, fmpq_poly, fmpz_poly
 
 from ..core import limits
 from ..core.limits import Cost, bigint_bytes
+from .group_rows import MILLER_COUNT, combine, group_row, miller_row, row_degree, scale_by_powers
 
 __all__ = [
     "Group",
@@ -65,7 +67,7 @@ divexact = gmpy2.divexact
 Group = Tuple[int, int, int, int]
 
 #: FLINT's powers take a machine-word exponent; larger counts go through Miller's recurrence.
-_WORD = 2 ** 62
+_WORD = MILLER_COUNT
 
 
 def integer_groups(model) -> Tuple[List[Group], int]:
@@ -132,57 +134,6 @@ def row_cost(groups: Sequence[Group], top: int, labelled: bool) -> Cost:
 # one group
 # ---------------------------------------------------------------------------
 
-def _binomial_row(c: int, top: int) -> List:
-    """``C(L + c - 1, L)`` for ``L = 0..top``: the BE count of ``L`` balls in ``c`` free urns."""
-    row = [mpz(1)] * (top + 1)
-    v = mpz(1)
-    for L in range(top):
-        v = divexact(v * (L + c), L + 1)
-        row[L + 1] = v
-    return row
-
-
-def _miller_row(c: int, span: int, top: int, labelled: bool) -> List:
-    r"""Coefficients of ``(sum_{j=0}^{span} x^j [/ j!])^c`` up to ``x^top``, any exponent ``c``.
-
-    Miller's recurrence (Knuth, TAOCP vol. 2, §4.7, eq. (9)) for ``g = f^c``
-    with ``f_0 = 1``: ``k g_k = sum_{j=1}^{k} ((c+1) j - k) f_j g_{k-j}``.
-    Labelled balls keep ``N(k) = k! g_k`` (integers):
-    ``N(k) = (1/k) sum_j ((c+1) j - k) C(k, j) N(k-j)``.  ``O(top * span)``
-    small-by-big multiplications, exact divisions.
-    """
-    N = [mpz(0)] * (top + 1)
-    N[0] = mpz(1)
-    c1 = c + 1
-    for k in range(1, top + 1):
-        total = mpz(0)
-        binom = mpz(1)
-        for j in range(1, min(k, span) + 1):
-            if labelled:
-                binom = divexact(binom * (k - j + 1), j)
-                total += (c1 * j - k) * binom * N[k - j]
-            else:
-                total += (c1 * j - k) * N[k - j]
-        N[k] = divexact(total, k)
-    return N
-
-
-def _egf_power_row(c: int, a: int, b: int, top: int) -> List:
-    """``k! [x^k] (sum_{j=a}^{b} x^j / j!)^c`` by FLINT's truncated power (``c`` below a machine word)."""
-    base = fmpq_poly([0] * a + [fmpq(1, int(gmpy2.fac(j))) for j in range(a, b + 1)])
-    power = base.pow_trunc(c, top + 1)
-    coeffs = power.coeffs()
-    out = [mpz(0)] * (top + 1)
-    fac = mpz(1)
-    for k in range(top + 1):
-        if k:
-            fac *= k
-        if k < len(coeffs) and coeffs[k] != 0:
-            q = coeffs[k]
-            out[k] = divexact(fac * int(q.p), int(q.q))
-    return out
-
-
 def unit_row(c: int, a: int, b: int, labelled: bool, top: int) -> List:
     r"""The counts of one group of ``c`` unweighted urns holding ``a..b`` each, for ``0..top`` balls.
 
@@ -204,97 +155,28 @@ def unit_row(c: int, a: int, b: int, labelled: bool, top: int) -> List:
 
     Notes
     -----
-    Closed forms for free urns (``c^k``; ``C(k + c - 1, k)``), BE/FD by
-    ``(1 - x^s)^c (1 - x)^{-c}`` (one FLINT product), MB bounded above by
-    Miller's recurrence (any ``c``; ``O(top * b)``) or FLINT's truncated power
-    of the rational window (``c < 2^62``; ``O(M(top) log c)``).
+    The group's row of :mod:`enumerator.algorithms.group_rows`
+    (:func:`~enumerator.algorithms.group_rows.group_row`, weight 1): closed
+    forms for free urns (``c^k``; ``C(k + c - 1, k)``), BE/FD by the
+    three-term window recurrence, MB bounded above by Miller's recurrence
+    (any ``c``; ``O(top * b)``) or FLINT's truncated power of the rational
+    window (``c < 2^62``; ``O(M(top) log c)``).
     """
-    zeros = [mpz(0)] * (top + 1)
-    if b < a or c * a > top:
-        return zeros
-    shift = c * a
-    room = top - shift
-    b = min(b, a + room)
-    if labelled:
-        if a == 0 and b >= top:
-            row = [mpz(1)] * (top + 1)
-            for k in range(1, top + 1):
-                row[k] = row[k - 1] * c
-            return row
-        if a == 0 and (c >= _WORD or b <= 16):
-            return _miller_row(c, b, top, True)
-        return _egf_power_row(c, a, b, top)
-    s = b - a + 1
-    row = _binomial_row(c, room)
-    if s <= room:
-        numerator = [0] * (room + 1)
-        choose = mpz(1)
-        for j in range(room // s + 1):
-            numerator[j * s] = int(-choose if j & 1 else choose)
-            choose = divexact(choose * (c - j), j + 1)
-        prod = fmpz_poly(numerator).mul_low(fmpz_poly([int(v) for v in row]), room + 1)
-        coeffs = prod.coeffs()
-        row = [mpz(int(coeffs[i])) if i < len(coeffs) else mpz(0) for i in range(room + 1)]
-    return zeros[:shift] + row
+    return group_row("exponential" if labelled else "ordinary", c, a, b, top)
 
 
 def _weighted(row: List, w: int) -> List:
     """Entry ``k`` times ``w^k``."""
-    if w == 1:
-        return row
-    out = list(row)
-    p = mpz(1)
-    for k in range(len(out)):
-        out[k] = out[k] * p
-        p *= w
-    return out
+    return scale_by_powers(row, w)
 
 
 # ---------------------------------------------------------------------------
 # products over groups
 # ---------------------------------------------------------------------------
 
-def _degree(row: List) -> int:
-    """The index of the last nonzero entry (-1 for a zero row)."""
-    d = len(row) - 1
-    while d >= 0 and not row[d]:
-        d -= 1
-    return d
-
-
 def _convolve(x: List, y: List, labelled: bool, top: int) -> List:
-    """The (binomial, for labelled balls) convolution of two rows, up to *top*.
-
-    Only up to the sum of the rows' degrees: short rows (a few urns, small
-    bounds) cost what their length says, not *top*.
-    """
-    dx, dy = _degree(x), _degree(y)
-    if dx < 0 or dy < 0:
-        return [mpz(0)] * (top + 1)
-    reach = min(top, dx + dy)
-    if reach < top:
-        return _convolve(x[: reach + 1], y[: reach + 1], labelled, reach) + [mpz(0)] * (top - reach)
-    if dx == 0 or dy == 0:
-        # one row is a constant: a scaling
-        (c, row) = (x[0], y) if dx == 0 else (y[0], x)
-        return [c * v for v in row[: top + 1]] + [mpz(0)] * (top + 1 - len(row[: top + 1]))
-    if not labelled:
-        prod = fmpz_poly([int(v) for v in x]).mul_low(fmpz_poly([int(v) for v in y]), top + 1)
-        coeffs = prod.coeffs()
-        return [mpz(int(coeffs[i])) if i < len(coeffs) else mpz(0) for i in range(top + 1)]
-    # X_i = x_i top!/i!, Y_j = y_j top!/j!: [z^k] X Y = top!^2 / k! * sum_i C(k, i) x_i y_{k-i}
-    falls = [mpz(1)] * (top + 1)  # top!/i!
-    for i in range(top - 1, -1, -1):
-        falls[i] = falls[i + 1] * (i + 1)
-    X = fmpz_poly([int(v * f) for v, f in zip(x, falls)])
-    Y = fmpz_poly([int(v * f) for v, f in zip(y, falls)])
-    coeffs = X.mul_low(Y, top + 1).coeffs()
-    ftop = falls[0]
-    out = []
-    for k in range(top + 1):
-        c = mpz(int(coeffs[k])) if k < len(coeffs) else mpz(0)
-        out.append(divexact(c, ftop * falls[k]) if c else mpz(0))
-    return out
+    """The (binomial, for labelled balls) convolution of two rows, up to *top* (:func:`~enumerator.algorithms.group_rows.combine`)."""
+    return combine("exponential" if labelled else "ordinary", x, y, top)
 
 
 def total_row(groups: Sequence[Group], labelled: bool, top: int, what: str = "the count") -> List:
@@ -448,7 +330,7 @@ def total_count(groups: Sequence[Group], labelled: bool, n: int, what: str = "th
             Z += (c - t) * w
             if t:
                 reach = min(n, t * (a - 1))
-                part = _weighted(_miller_row(t, a - 1, reach, True), w) + [mpz(0)] * (n - reach)
+                part = _weighted(miller_row(t, a - 1, reach, True), w) + [mpz(0)] * (n - reach)
                 row = _convolve(row, part, True, n)
         total += sign * weight * _exp_dot(row, Z, n)
     return total
@@ -471,7 +353,7 @@ def _capped_count(c: int, b: int, n: int, what: str):
 
     ``b = 1``: the falling factorial ``c^{(n)}`` (no two balls together: the
     birthday product, Feller, vol. 1, II.3).  Otherwise Miller's recurrence
-    (:func:`_miller_row`) keeping only the last ``b`` entries: ``O(n b)``
+    (:func:`~enumerator.algorithms.group_rows.miller_row`) keeping only the last ``b`` entries: ``O(n b)``
     small-by-big steps and memory for ``b + 1`` numbers.
     """
     bits = max(64.0, n * math.log2(max(2, c)))
@@ -516,7 +398,7 @@ def _product(lists):
 
 def _exp_dot(row: List, Z: int, n: int):
     """``n! [x^n] R(x) e^{Zx} = sum_i C(n, i) R_i Z^{n-i}`` for a row of labelled counts."""
-    top = max(0, _degree(row))
+    top = max(0, row_degree(row))
     if Z == 0:
         return row[n] if n < len(row) else mpz(0)
     acc = mpz(0)
