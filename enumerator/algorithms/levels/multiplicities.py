@@ -135,12 +135,22 @@ def _partition_polynomials_of(z: List[int], w: List[int], top: int, degree: int)
     packed_powers: Dict[int, fmpz_poly] = {}
 
     def pack(items) -> fmpz_poly:
-        out = []
-        for p in items:
-            c = p.coeffs()
-            out.extend(c)
-            out.extend([0] * (stride - len(c)))
-        return fmpz_poly(out)
+        # sum of items[i] x^(i stride), halves joined by a shift: FLINT copies only, no Python integers
+        if len(items) == 1:
+            return items[0]
+        half = len(items) // 2
+        return pack(items[:half]) + pack(items[half:]).left_shift(half * stride)
+
+    def scatter(block: fmpz_poly, first: int, count: int) -> None:
+        # add block's pieces of stride to acc[first .. first + count - 1], by halves
+        if block.is_zero():
+            return
+        if count == 1:
+            acc[first] += block.truncate(length)
+            return
+        half = count // 2
+        scatter(block.truncate(half * stride), first, half)
+        scatter(block.right_shift(half * stride), first + half, count - half)
 
     def solve(lo: int, hi: int) -> None:
         if hi - lo <= _EXACT_BLOCK:
@@ -157,12 +167,9 @@ def _partition_polynomials_of(z: List[int], w: List[int], top: int, degree: int)
         kernel = packed_powers.get(span)
         if kernel is None:
             kernel = packed_powers[span] = pack(powers[:span])
-        product = pack(polys[lo:mid]).mul_low(kernel, span * stride).coeffs()
-        for m in range(mid, hi):
-            start = (m - lo) * stride
-            piece = product[start : start + length]
-            if piece:
-                acc[m] += fmpz_poly(piece)
+        product = pack(polys[lo:mid]).mul_low(kernel, span * stride)
+        scatter(product.right_shift((mid - lo) * stride), mid, hi - mid)
+        del product
         solve(mid, hi)
 
     solve(0, top + 1)
