@@ -281,3 +281,22 @@ def test_fermion_law_far_below_the_fermi_temperature_is_quick_and_normalised():
         assert abs(mpmath.fsum(law.law) - 1) < 1e-14
     (point,) = canonical(make_system(969, preset="trap", rule="FD"), ["0.3"], digits=15, levels=17)
     assert abs(law.mean - point.occupations_approx[16]) < 1e-12
+
+
+def test_float_route_for_bosons_agrees_with_the_exact_recursion_within_its_bound():
+    # The exact fixed-point recursion (an independent arithmetic) at 20 digits is the reference.
+    system = make_system(800, preset="trap", rule="BE")
+    for temperature in ("3", "12"):
+        (a,) = canonical(system, [temperature], digits=20, levels=3, route="float", grand=False)
+        (b,) = canonical(system, [temperature], digits=20, levels=3, grand=False)
+        bounds = a.error_bounds
+        assert a.route == "float" and bounds["heat_capacity"] < 1e-5
+        assert abs(a.ln_partition_function_approx - b.ln_partition_function_approx) <= bounds["ln_partition_function"]
+        assert abs(a.mean_energy_approx / b.mean_energy_approx - 1) <= bounds["mean_energy"]
+        assert abs(a.heat_capacity_approx / b.heat_capacity_approx - 1) <= bounds["heat_capacity"]
+        for x, y in zip(a.occupations_approx, b.occupations_approx):
+            assert abs(x / y - 1) <= bounds["occupations"]
+        # The bounds are worst cases; the actual agreement is far closer (measured, not promised).
+        assert abs(a.heat_capacity_approx / b.heat_capacity_approx - 1) < 1e-9
+    with pytest.raises(InvalidParameters, match="float route is for bosons"):
+        canonical(make_system(10, preset="trap", rule="FD"), ["1"], route="float")

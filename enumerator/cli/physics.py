@@ -142,7 +142,9 @@ def levels_command(
         str,
         _levels_opt("--route", "Canonical method: auto (fermions far below the Fermi temperature by the "
                     "particle-hole expansion, the rest by the Borrmann-Franke recursion), recursion, "
-                    "particle-hole (FD only).", _THERMO, "auto|recursion|particle-hole"),
+                    "particle-hole (FD only), float (BE only: double precision with rigorous error bounds "
+                    "in the output, for N = 10^4 and more: 0.2 s per temperature).", _THERMO,
+                    "auto|recursion|particle-hole|float"),
     ] = "auto",
     digits: Annotated[
         int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath).", _THERMO)
@@ -188,6 +190,7 @@ def levels_command(
         $ enumerator levels --preset trap --particles 100 --rule BE --temperatures 2,4 --json
         $ enumerator levels --preset trap --particles 969 --rule FD --temperatures 0.1,0.3,1
         $ enumerator levels --preset trap --particles 1000 --rule BE --temperatures 1..12:12 --occupation-law 0 --plot c.png
+        $ enumerator levels --preset trap --particles 10000 --rule BE --temperatures 0.5..40:40 --route float --json
         $ enumerator levels --preset harmonic --particles 20 --rule BE --factor 1/2 --occupation-law 0 --json
         $ enumerator levels --preset einstein --oscillators 3 --max-energy 6 --microcanonical
     """

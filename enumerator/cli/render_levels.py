@@ -194,6 +194,8 @@ def _entry(system: System, p: CanonicalPoint, law, factor) -> dict:
         "ground_occupation_variance_approx": _float(p.ground_occupation_variance_approx),
         "route": p.route,
     }
+    if p.error_bounds is not None:
+        entry["error_bound_approx"] = dict(p.error_bounds)
     if factor is not None:
         entry = {"factor": exact(factor), **entry}
     if system.has_reservoir:

@@ -29,6 +29,7 @@ import mpmath
 from flint import fmpz_poly
 
 from ...core.errors import InvalidParameters, TooLarge
+from ...core.limits import Cost, check
 from ...core.model import as_count
 from ...core.rules import Rule
 from .particle_hole import fermion_canonical
@@ -204,9 +205,12 @@ class CanonicalPoint:
     is ``⟨δn_0^2⟩`` of listed level 0 (on the particle-hole route from the law
     of level 0; ``None`` when level 0 shares its energy with another level),
     beside the grand-canonical ``grand_canonical_ground_variance_approx``.
-    ``route`` names the method: ``"recursion"`` (Borrmann–Franke) or
+    ``route`` names the method: ``"recursion"`` (Borrmann–Franke),
     ``"particle-hole"`` (:mod:`.particle_hole`, fermions far below the Fermi
-    temperature).
+    temperature) or ``"float"`` (bosons at scale, :func:`_canonical_float`,
+    whose rigorous a-posteriori bounds are in ``error_bounds``: absolute for
+    ``ln_partition_function``, relative for ``mean_energy``,
+    ``heat_capacity`` and ``occupations``).
     """
 
     temperature: Fraction
@@ -225,6 +229,7 @@ class CanonicalPoint:
     grand_canonical_mean_energy_approx: Optional[mpmath.mpf] = None
     grand_canonical_heat_capacity_approx: Optional[mpmath.mpf] = None
     route: str = "recursion"
+    error_bounds: Optional[Dict[str, float]] = None
 
     @property
     def energy_variance_approx(self) -> mpmath.mpf:
@@ -653,8 +658,10 @@ def canonical(
         and ground-level variance (:func:`grand_canonical_level_variance`);
         never for an Einstein solid (localised oscillators have no reservoir).
     route : str
-        ``"auto"`` (default), ``"recursion"`` or ``"particle-hole"`` (FD
-        only): see Notes.
+        ``"auto"`` (default), ``"recursion"``, ``"particle-hole"`` (FD
+        only) or ``"float"`` (BE without capacity: double precision with
+        rigorous a-posteriori bounds, see :func:`_canonical_float`; *digits*
+        is then not met but stated in ``error_bounds``): see Notes.
 
     Returns
     -------
@@ -723,11 +730,20 @@ def canonical(
         raise InvalidParameters(f"route must be one of {', '.join(ROUTES)} (got {route!r})", parameters=["route"])
     if route == "particle-hole" and system.rule is not Rule.FD:
         raise InvalidParameters("the particle-hole route is for fermions (rule FD)", parameters=["route", "rule"])
+    if route == "float" and (system.rule is not Rule.BE or system.capacity is not None):
+        raise InvalidParameters("the float route is for bosons (rule BE without a capacity): its sums must be "
+                                "positive", parameters=["route", "rule"])
     grand = grand and system.has_reservoir
     points = []
     for value in temperatures:
         temperature = _parse_temperature(value)
-        if _particle_hole_pays(system, temperature, digits, route):
+        if route == "float":
+            lnZ, U, C, F, S, occ, extras = _canonical_float(system, temperature, count)
+            point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
+                                   occupation_above_approx=extras["above"],
+                                   ground_occupation_variance_approx=extras["ground_variance"],
+                                   route="float", error_bounds=extras["bounds"])
+        elif _particle_hole_pays(system, temperature, digits, route):
             point = _particle_hole_point(system, temperature, digits, count)
         else:
             lnZ, U, C, F, S, occ, extras = _canonical_at(system, temperature, digits, count, True)
@@ -750,7 +766,120 @@ def canonical(
 
 
 #: The routes of :func:`canonical`.
-ROUTES = ("auto", "recursion", "particle-hole")
+ROUTES = ("auto", "recursion", "particle-hole", "float")
+
+#: Unit roundoff of IEEE double precision.
+_U53 = 2.0**-53
+
+
+def _canonical_float(system: System, temperature: Fraction, count: int):
+    r"""Bosons at scale: the recursion and its β-derivatives in double precision, with rigorous bounds.
+
+    The BE recursion ``n Z_n = Σ_k z_k Z_{n-k}`` (and ``M1 = -∂Z/∂β``,
+    ``M2 = ∂²Z/∂β²``, the same couplings as :func:`_canonical_at`) has
+    positive terms only, so floating point is safe: stored reversed, each
+    step is three BLAS dot products; all values are divided by ``Z_n`` when it
+    passes ``10^250`` (the scale goes to a logarithm), so nothing overflows.
+    Error bound (positive sums, any summation order): a dot product of
+    ``n`` terms errs by at most ``γ_n = n u/(1 - n u)`` relative
+    (N. J. Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed.,
+    2002, § 3.1), so ``Z_N``, ``M1_N``, ``M2_N`` err by at most
+    ``e = u (N(N+1)/2 + 12 N)`` relative (kernels by at most ``8u`` each,
+    one division per step).  Then ``|δ ln Z| <= e``, ``U`` is within ``2e``
+    relative and ``C = β²(M2/Z - (M1/Z)^2)`` within ``(2 + 6K) e`` with
+    ``K = (M1/Z)^2 / Var E`` (the cancellation, up to ``3N`` at high
+    temperature).  These worst-case bounds are stated with each point; the
+    actual errors are typically ``10^3-10^5`` times smaller (N = 10^4 in the
+    3D trap: ``C`` to 9-12 digits against the exact route).  Occupations
+    ``g Σ_k y^k Z_{N-k}/Z_N`` and the level-0 variance come from the same
+    ratios (positive sums; the variance then subtracts ``⟨n_0⟩^2``).
+
+    Cost: ``3 N^2/2`` multiply-adds (BLAS) plus ``O(N)`` per listed level;
+    N = 10^4 in about 0.2 s per temperature.
+    """
+    import numpy as np
+
+    spectrum = system.spectrum
+    if count > len(spectrum.energies):
+        spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
+    n = system.particles
+    seconds = 3 * n * n * 1e-9 + 2e-5 * n
+    check(Cost(seconds=seconds, memory=64 * (n + 1) * (1 + (0 if spectrum.ladder else len(spectrum.energies)))),
+          f"the floating canonical recursion of {n} bosons", parameters=["particles"])
+    unit = spectrum.unit
+    b = float(unit / temperature)
+    k = np.arange(1, n + 1, dtype=np.float64)
+    shift = spectrum.lowest
+    if spectrum.ladder is not None:
+        lad = spectrum.ladder
+        d, sp = lad.dimension, lad.spacing
+        x = b * sp * k
+        om = -np.expm1(-x)
+        r = np.exp(-x) / om
+        z = om ** (-d)
+        first = d * sp * r
+        z1 = z * first
+        z2 = z * (first * first + d * sp * sp * r * (1 + r))
+    else:
+        E = np.array([e - shift for e in spectrum.energies], dtype=np.float64)
+        G = np.array(spectrum.degeneracies, dtype=np.float64)
+        P = np.exp(-b * np.outer(E, k))
+        z, z1, z2 = G @ P, (G * E) @ P, (G * E * E) @ P
+    a0 = np.concatenate([[0.0], z])
+    a1 = np.concatenate([[0.0], k * z1])
+    a2 = np.concatenate([[0.0], k * k * z2])
+    Zr = np.zeros(n + 1)
+    M1r = np.zeros(n + 1)
+    M2r = np.zeros(n + 1)
+    Zr[n] = 1.0
+    log_scale = 0.0
+    dot = np.dot
+    for m in range(1, n + 1):
+        zr, m1, m2 = Zr[n - m + 1:], M1r[n - m + 1:], M2r[n - m + 1:]
+        A0, A1, A2 = a0[1:m + 1], a1[1:m + 1], a2[1:m + 1]
+        zm = dot(A0, zr) / m
+        Zr[n - m] = zm
+        M1r[n - m] = (dot(A1, zr) + dot(A0, m1)) / m
+        M2r[n - m] = (dot(A2, zr) + 2 * dot(A1, m1) + dot(A0, m2)) / m
+        if zm > 1e250:
+            Zr /= zm
+            M1r /= zm
+            M2r /= zm
+            log_scale += math.log(zm)
+    ZN = Zr[0]
+    R = Zr / ZN  # R[j] = Z_{N-j} / Z_N
+    with mpmath.workdps(20):
+        T = mpmath.mpf(temperature.numerator) / temperature.denominator
+        u = mpmath.mpf(unit.numerator) / unit.denominator
+        lnz = mpmath.log(mpmath.mpf(ZN)) + log_scale
+        m1 = mpmath.mpf(M1r[0] / ZN)
+        var = mpmath.mpf(M2r[0] / ZN) - m1 * m1
+        bb = u / T
+        shift_e = n * shift
+        lnZ = lnz - bb * shift_e
+        U = u * (m1 + shift_e)
+        C = u * u * var / (T * T)
+        occ = []
+        for i in range(count):
+            e = spectrum.energies[i] - shift
+            g = spectrum.degeneracies[i]
+            yk = np.exp(-b * e * k)
+            occ.append(mpmath.mpf(g * float(dot(yk, R[1:]))))
+        extras = {"above": n - mpmath.fsum(occ), "ground_variance": None}
+        if count and n:
+            e = spectrum.energies[0] - shift
+            g = spectrum.degeneracies[0]
+            coef = g * k + g * g * (k - 1)
+            extras["ground_variance"] = mpmath.mpf(float(dot(coef * np.exp(-b * e * k), R[1:]))) - occ[0] ** 2
+        err = _U53 * (n * (n + 1) / 2 + 12 * n)
+        K = float(m1 * m1 / var) if var > 0 else math.inf
+        extras["bounds"] = {
+            "ln_partition_function": err,
+            "mean_energy": 2 * err,
+            "heat_capacity": (2 + 6 * K) * err,
+            "occupations": 2 * err,
+        }
+        return +lnZ, +U, +C, -T * lnZ, lnZ + U / T, tuple(occ), extras
 
 
 def _particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:
