@@ -2,9 +2,10 @@
 
 The catalogue, the sweep, the errors and the observed orders are
 :mod:`enumerator.algorithms.asymptotics`; this module parses the options,
-calls :func:`~enumerator.algorithms.asymptotics.compare_sweep` and hands the
-comparisons to :mod:`enumerator.cli.render_compare` (wide tables, CSV, one
-JSON object, or a plot).
+plans the sweep (:func:`~enumerator.algorithms.asymptotics.plan_sweep`) and
+hands it to :func:`enumerator.cli.render_compare.stream_comparisons`, which
+prints each point as it is computed (a table, CSV or one JSON object), then
+draws the plot.  The exit status is decided here from what ran.
 """
 
 import sys
@@ -12,7 +13,7 @@ from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json, NoCache, Store, store_scope
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, NoCache, Store, limits_scope, store_scope
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -46,8 +47,8 @@ def compare_command(
     names: Annotated[
         Optional[str],
         typer.Argument(
-            metavar="NAME[,NAME...]",
-            help="Approximation(s) from the catalogue, comma-separated (see --list).",
+            metavar="NAME[,NAME...]|all",
+            help="Approximation(s) from the catalogue, comma-separated (see --list), or all.",
             show_default=False,
         ),
     ] = None,
@@ -104,6 +105,8 @@ def compare_command(
     ] = False,
     store: Store = None,
     no_cache: NoCache = False,
+    max_memory: MaxMemory = None,
+    max_seconds: MaxSeconds = None,
     as_json: Json = False,
 ) -> None:
     """Compare an approximation with the exact value as the system grows.
@@ -119,6 +122,19 @@ def compare_command(
     makes the printed errors the approximation's, not rounding.  A single
     point (fixed values, no --vary) has order_approx null.
 
+    Each point is printed as soon as it is computed (table, CSV, or one JSON
+    object written row by row).  A point whose exact side is estimated
+    beyond --max-seconds/--max-memory is not computed: it is a skipped row
+    saying why (JSON "skipped"), and the sweep goes on.  Errors beyond the
+    float range are printed as decimal text ("4.2e+272"), never null; a null
+    relative error (exact value 0) comes with a "note".  Several names, or
+    all (the whole catalogue), run one after the other, and one that cannot
+    run (a missing --capacity, say) does not stop the others.
+
+    Exit status: 0 when every named approximation computed at least one
+    point (with all: when any did); 2 otherwise, after everything else is
+    printed, with one line per failure on stderr.
+
     Example:
 
         $ enumerator compare --list
@@ -126,10 +142,13 @@ def compare_command(
         $ enumerator compare stirling1,stirling2,stirling3 --vary balls=10..1000 --urns balls --plot stirling.png
         $ enumerator compare saddle --vary balls=100..10000 --urns "balls//2" --capacity 3 --csv
         $ enumerator compare grand-canonical --vary balls=10..160 --urns balls --factor 1/2
+        $ enumerator compare empty-mean --vary balls=10..1000000 --urns "balls//2"
+        $ enumerator compare all --vary balls=10..1000 --urns "balls//2" --capacity 3 --max-seconds 5
     """
-    from ..algorithms.asymptotics import compare_sweep
+    from ..algorithms.asymptotics import ALL, plan_sweep
     from ..core.errors import InvalidParameters
     from . import render_compare
+    from .app import FLAGS
 
     if show_list:
         entries = render_compare.catalogue_rows()
@@ -143,18 +162,38 @@ def compare_command(
         raise InvalidParameters("name an approximation, e.g. enumerator compare birthday (see --list)")
     if as_csv and as_json:
         raise InvalidParameters("give --csv or --json, not both")
-    with store_scope(store, no_cache):
-        comparisons = compare_sweep(
+    every = names.strip().lower() == ALL
+
+    def spell(error):
+        return error.spelled(FLAGS)
+
+    with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
+        plans = plan_sweep(
             names, vary, step=step, geometric=geometric, balls=balls, urns=urns, rule=rule,
             capacity=capacity, minimum=minimum, at=at, pattern=pattern, factor=factor,
         )
+        if all(plan.error is not None for plan in plans):
+            raise plans[0].error
+        form = "json" if as_json else "csv" if as_csv else "table"
+        comparisons = render_compare.stream_comparisons(
+            plans, form, several=every or len(plans) > 1, spell=spell,
+        )
     if plot is not None:
-        render_compare.plot_comparisons(comparisons, plot)
-    if as_json:
-        emit_json(render_compare.comparisons_payload(comparisons))
-        return
-    if as_csv:
-        sys.stdout.write(render_compare.comparisons_csv(comparisons))
+        render_compare.plot_comparisons([c for c in comparisons if c.error is None], plot)
+        if form == "table":
+            sys.stdout.write(f"plot: {plot}\n")
+            sys.stdout.flush()
+    failures = []
+    for comparison in comparisons:
+        if comparison.error is not None:
+            failures.append(f"{comparison.approximation.name}: {spell(comparison.error)}")
+        elif all(row.error is not None for row in comparison.rows):
+            failures.append(f"{comparison.approximation.name}: every point was skipped "
+                            f"({spell(comparison.rows[0].error)})")
+    ran = len(comparisons) - len(failures)
+    if failures and (not every or ran == 0):
         sys.stdout.flush()
-        return
-    render_compare.show_comparisons(comparisons, plot)
+        for line in failures:
+            sys.stderr.write(" ".join(f"Error: {line}".split()) + "\n")
+        sys.stderr.flush()
+        raise typer.Exit(2)

@@ -65,6 +65,7 @@ __all__ = [
     "finish",
     "float_or_text",
     "iter_rows",
+    "local_order",
     "plan_sweep",
 ]
 
@@ -188,13 +189,19 @@ class Comparison:
         out: List[Optional[float]] = []
         before = None
         for row in self.rows:
-            out.append(_local_order(before, row, self.variable))
+            out.append(local_order(before, row, self.variable))
             if row.error is None:
                 before = row
         return out
 
 
-def _local_order(before: Optional[Row], row: Row, variable: str) -> Optional[float]:
+def local_order(before: Optional[Row], row: Row, variable: str) -> Optional[float]:
+    """The order between a computed row and the computed row *before* it (``None`` where undefined).
+
+    Notes
+    -----
+    :func:`~enumerator.algorithms.asymptotics.sweeps.observed_order` of the two points; constant cost.
+    """
     if before is None or row.error is not None:
         return None
     return observed_order(
