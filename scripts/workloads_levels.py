@@ -1,0 +1,97 @@
+"""Benchmark workloads of the canonical ensemble of particles on energy levels.
+
+``scripts/bench.py`` loads this file and calls :func:`register`.
+
+* ``levels-fermions-969-trap``: 969 fermions in the 3D harmonic trap (closed
+  shells 0..16) at ``k_B T = 0.1, 0.3, 1`` (``U``, ``C``, ``S`` and the
+  occupations to 15 digits): the default route, which takes the
+  particle-hole expansion far below the Fermi temperature, against the
+  Borrmann–Franke recursion in fixed point (``route="recursion"``, the only
+  route before), estimated from smaller closed-shell systems when too slow.
+* ``levels-bosons-10^4-40T``: 10^4 bosons in the 3D trap at 40 temperatures
+  ``0.5..40`` (``--quick``: 4 temperatures): ``route="float"`` (the positive
+  recursion in double precision with rigorous bounds) against the exact
+  fixed-point recursion (the default route), estimated from fewer particles
+  when too slow.  The answers are compared to 6 significant digits.
+"""
+
+from __future__ import annotations
+
+#: Closed shells of the 3D trap: 1 + 3 + ... + (e+1)(e+2)/2 (common practice).
+_CLOSED = [sum((e + 1) * (e + 2) // 2 for e in range(top + 1)) for top in range(17)]
+
+
+def _rounded(points, digits: int = 6):
+    """``U``, ``C``, ``S`` and the lowest occupations of each point, as text rounded to *digits*."""
+    import mpmath
+
+    out = []
+    for p in points:
+        values = [p.mean_energy_approx, p.heat_capacity_approx, p.entropy_approx, *p.occupations_approx[:3]]
+        out.append(tuple(mpmath.nstr(v, digits) for v in values))
+    return tuple(out)
+
+
+def register(bench) -> None:
+    """Declare the workloads of this file in *bench* (``scripts/bench.py``)."""
+    Method = bench.Method
+
+    @bench.workload("levels-fermions-969-trap",
+                    "canonical 969 fermions in the 3D trap at T = 0.1, 0.3, 1 (15 digits): particle-hole "
+                    "route vs the Borrmann-Franke recursion in fixed point",
+                    target=bench.faster_by(10))
+    def _fermions(ctx):
+        from enumerator.algorithms.levels import canonical, make_system
+
+        temps = ["0.1", "0.3", "1"]
+
+        def run(n, route):
+            system = make_system(n, preset="trap", rule="FD")
+            return canonical(system, temps, digits=15, levels=3, grand=False, route=route)
+
+        def ours():
+            return _rounded(run(969, "auto"))
+
+        def recursion(n=969):
+            return _rounded(run(n, "recursion"))
+
+        def scaled(s):
+            size = max(c for c in _CLOSED if c <= max(4, 969 * s))
+            return lambda: recursion(size)
+
+        return ctx.compare(Method("enumerator (auto: particle-hole)", ours),
+                           [Method("Borrmann-Franke recursion, fixed point", recursion, scaled=scaled,
+                                   normalise=lambda x: x)],
+                           items=3,
+                           notes=["answer: U, C, S and three occupations at each temperature, 6 digits"])
+
+    @bench.workload("levels-bosons-10^4-40T",
+                    "canonical 10^4 bosons in the 3D trap at 40 temperatures (quick: 4): float route with "
+                    "rigorous bounds vs the exact fixed-point recursion",
+                    target=bench.faster_by(3))
+    def _bosons(ctx):
+        from enumerator.algorithms.levels import canonical, make_system, parse_temperatures
+
+        temps = parse_temperatures("0.5..40:4" if ctx.quick else "0.5..40:40")
+        n = 2000 if ctx.quick else 10_000
+
+        def run(size, route):
+            system = make_system(size, preset="trap", rule="BE")
+            return canonical(system, temps, digits=15, levels=3, grand=False, route=route)
+
+        def ours():
+            return _rounded(run(n, "float"))
+
+        def exact(size=n):
+            return _rounded(run(size, "auto"))
+
+        def scaled(s):
+            size = max(50, int(n * s))
+            return lambda: exact(size)
+
+        return ctx.compare(Method("enumerator (route float)", ours),
+                           [Method("exact fixed-point recursion (default route)", exact, scaled=scaled,
+                                   normalise=lambda x: x)],
+                           items=len(temps),
+                           notes=[f"{n} bosons, {len(temps)} temperatures; answer: U, C, S and three "
+                                  "occupations per temperature, 6 digits"])
