@@ -1,0 +1,112 @@
+"""Benchmark workloads of ``enumerator compare``: whole sweeps, exact side and approximation.
+
+``scripts/bench.py`` loads this file and calls :func:`register`.
+
+* ``compare-empty-mean-10^6``: the sweep ``empty-mean`` over ``balls =
+  10..10^6`` (10 points on a log scale, ``urns = balls//2``) through
+  :func:`enumerator.algorithms.asymptotics.compare_sweep`: the exact mean
+  ``(r-1)^n / r^(n-1)`` (two GMP powers, no gcd) and its error at honest
+  precision, against the same sweep with the exact side as it was computed
+  before, ``Fraction(r (r-1)^n, r^n)`` in Python integers (a CPython gcd of
+  numbers of ``n log2 r`` bits).  ``--quick``: to ``10^5``.
+* ``compare-normal-10^5``: the sweep ``normal`` over ``balls = 10..10^5``
+  (``urns = balls//2``, ``j = floor(r e^{-n/r})``): the exact law of the
+  number of empty urns by the cheaper of its two routes, each point checked
+  against a per-point limit of 60 s, so a point out of reach is skipped
+  rather than computed (the note says which); against the earlier exact
+  side (inclusion–exclusion with binomials from scratch and a CPython
+  ``Fraction``).  ``--quick``: to ``10^4``.
+
+In ``--quick`` mode both report plain seconds: estimating the earlier exact
+side alone takes longer than the sweeps themselves.
+"""
+
+from __future__ import annotations
+
+import math
+from fractions import Fraction
+
+#: Per-point limit (seconds) of the normal sweep: the planned cost of a point beyond it is refused.
+NORMAL_POINT_SECONDS = 60.0
+
+
+def register(bench) -> None:
+    """Declare the workloads of this file in *bench* (``scripts/bench.py``)."""
+    Method = bench.Method
+
+    def sweep_rows(name, top, **fixed):
+        from enumerator.algorithms.asymptotics import compare_sweep
+
+        (comparison,) = compare_sweep(name, f"balls=10..{top}", urns="balls//2", **fixed)
+        return [(row.point.balls, row.exact if row.error is None else row.skipped)
+                for row in comparison.rows]
+
+    def old_sweep(name, top, exact):
+        """The sweep's points with the earlier exact side (no approximation: a lower bound on its time)."""
+        from enumerator.algorithms.asymptotics import approximation, sweep
+
+        entry = approximation(name)
+        _, points = sweep(f"balls=10..{top}", urns="balls//2")
+        return [(p.balls, exact(entry.check(p))) for p in points]
+
+    @bench.workload("compare-empty-mean-10^6",
+                    "compare empty-mean --vary balls=10..10^6 --urns balls//2 (10 points): exact mean "
+                    "(r-1)^n/r^(n-1) by GMP vs Fraction(r(r-1)^n, r^n) in Python integers",
+                    target=bench.faster_by(1))
+    def _empty_mean(ctx):
+        top = 10**5 if ctx.quick else 10**6
+
+        def ours():
+            return sweep_rows("empty-mean", top)
+
+        def fraction_side(point):
+            n, r = point.balls, point.urns
+            return Fraction(r * (r - 1) ** n, r**n)
+
+        def scaled(s):
+            size = max(100, int(top * s))
+            return lambda: old_sweep("empty-mean", size, fraction_side)
+
+        # --quick: plain seconds (estimating the slow peer alone takes longer than the sweep)
+        peers = [] if ctx.quick else [Method("earlier exact side only, Python Fraction", lambda: old_sweep(
+            "empty-mean", top, fraction_side), scaled=scaled)]
+        return ctx.compare(Method("enumerator compare_sweep (exact + approximation)", ours), peers,
+                           items=10,
+                           notes=[f"10 points up to {top:,} balls; the largest exact mean has "
+                                  f"{int(top * math.log10(top // 2)):,} digits over as many"])
+
+    @bench.workload("compare-normal-10^5",
+                    "compare normal --vary balls=10..10^5 --urns balls//2: exact P(E <= j) by the cheaper "
+                    "route under a 60 s per-point limit vs inclusion-exclusion with a Python Fraction",
+                    target=bench.faster_by(1))
+    def _normal(ctx):
+        from enumerator.core.limits import limited
+
+        top = 10**4 if ctx.quick else 10**5
+
+        def ours():
+            with limited(seconds=NORMAL_POINT_SECONDS):
+                return sweep_rows("normal", top)
+
+        def fraction_side(point):
+            # the exact side as it was: binomials from scratch, CPython's gcd at the end
+            n, r, j = point.balls, point.urns, point.at
+            total = r**n
+            for m in range(j + 1, r + 1):
+                term = math.comb(r, m) * math.comb(m - 1, j) * (r - m) ** n
+                total += -term if (m + j) & 1 else term
+            return Fraction(total, r**n)
+
+        def scaled(s):
+            size = max(100, int(top * s))
+            return lambda: old_sweep("normal", size, fraction_side)
+
+        peers = [] if ctx.quick else [Method("earlier exact side only, Python Fraction", lambda: old_sweep(
+            "normal", top, fraction_side), scaled=scaled)]
+        result = ctx.compare(Method("enumerator compare_sweep (exact + approximation)", ours), peers, items=10)
+        rows = result.enumerator.answer or ()
+        skipped = [balls for balls, value in rows if isinstance(value, str)]
+        note = (f"points skipped at the {NORMAL_POINT_SECONDS:g} s per-point limit: {skipped}" if skipped
+                else "every point computed")
+        result.notes.append(f"10 points up to {top:,} balls; {note}")
+        return result
