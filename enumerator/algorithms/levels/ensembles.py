@@ -750,6 +750,8 @@ def canonical(
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
                                    occupation_above_approx=extras["above"],
                                    ground_occupation_variance_approx=extras["ground_variance"])
+        if system.spectrum.finite and count == len(system.spectrum.energies):
+            point = replace(point, occupation_above_approx=mpmath.mpf(0))  # every level listed: nothing above
         if grand:
             mu, gc = grand_canonical(system, temperature, digits, count)
             gvar = None
