@@ -314,7 +314,7 @@ def show_levels(
     counts : dict of int to int or None
         ``{E: Ω(N, E)}``, energies in units (``None``: not computed).
     points : sequence of CanonicalPoint or None
-        With one or two temperatures, per temperature a table of
+        With up to three temperatures, per temperature a table of
         thermodynamic quantities and one of mean level occupations (canonical,
         grand canonical, difference); with more, one row per temperature.
     micro : sequence of MicroPoint or None
@@ -356,20 +356,16 @@ def show_levels(
         spacing = " (the level spacing ħω)" if system.spectrum.ladder is not None or "oscillator" in system.spectrum.name else ""
         out.print(f"Energies and k_B T in the energy unit{spacing}; k_B = 1; {points[0].digits} digits computed.")
     reservoir = system.has_reservoir
-    if len(points) > 2:
-        columns = ["k_B T", "U", "C", "S", "<δE²>", "<n_0>", "<δn_0²>"]
-        if reservoir:
-            columns += ["μ (gc)", "<n_0> gc", "<δn_0²> gc"]
+    if len(points) > 3:
+        columns = ["k_B T", "U", "C", "S", "<n_0>", "<δn_0²>"] + (["<δn_0²> gc"] if reservoir else [])
         rows = []
         for p in points:
             row = [_float_cell(p.temperature), _float_cell(p.mean_energy_approx), _float_cell(p.heat_capacity_approx),
-                   _float_cell(p.entropy_approx), _float_cell(p.energy_variance_approx),
+                   _float_cell(p.entropy_approx),
                    _float_cell(p.occupations_approx[0] if p.occupations_approx else None),
                    _float_cell(p.ground_occupation_variance_approx)]
             if reservoir:
-                gc = p.grand_canonical_occupations_approx
-                row += [_float_cell(p.chemical_potential_approx), _float_cell(gc[0] if gc else None),
-                        _float_cell(p.grand_canonical_ground_variance_approx)]
+                row.append(_float_cell(p.grand_canonical_ground_variance_approx))
             rows.append(row)
         show_table(f"Canonical ensemble: {system.label}", columns, rows)
     else:
