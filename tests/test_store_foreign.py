@@ -114,6 +114,28 @@ def test_a_read_only_file_in_a_writable_folder_leaves_no_file_of_the_reader_besi
         path.chmod(0o644)
 
 
+@needs_permissions
+def test_your_own_file_in_a_folder_you_may_not_write_answers_reads(tmp_path):
+    # a WAL file needs its -shm and -wal beside it: the folder refuses them, so it is read read-only
+    folder = tmp_path / "mounted"
+    folder.mkdir()
+    path = _filled(folder / "s.sqlite")
+    folder.chmod(0o555)
+    try:
+        key = Key.of(Occupancy(balls=5, urns=3, rule="BE"))
+        assert quick.read(path, "configurations", key, 1) == _stars_and_bars(5, 3)
+        store = results.Store(str(path))
+        assert store.read_only and store.get("configurations", key, 1) == _stars_and_bars(5, 3)
+        store.close()
+        line = one_line_error(run("cache", "clear", "--yes", "--store", path))
+        assert "read-only" in line
+        quick.close_all()
+        results.close_all()
+        assert _files_beside(path) == set()
+    finally:
+        folder.chmod(0o755)
+
+
 def test_someone_elses_wal_file_is_read_immutable_and_left_as_it_was(tmp_path, monkeypatch, caplog):
     # as the tests may run as root, "this user may not write it" is simulated
     path = _filled(tmp_path / "s.sqlite")
