@@ -29,7 +29,7 @@ from typing import Callable, List, Optional, Sequence, TextIO, Tuple
 
 import mpmath
 
-from ..algorithms.asymptotics import CATALOGUE, Comparison, Plan, Row, finish, float_or_text, iter_rows
+from ..algorithms.asymptotics import CATALOGUE, Comparison, Plan, Row, finish, float_or_text
 from ..algorithms.asymptotics.comparison import local_order
 from ..algorithms.asymptotics.formulas import to_mpf
 from ..core.errors import EnumeratorError, InvalidParameters, Unsupported
@@ -608,7 +608,7 @@ def stream_comparisons(plans: Sequence[Plan], form: str = "table", several: Opti
         writer.begin(plan)
         rows: List[Row] = []
         before = None
-        for row in iter_rows(plan.approximation, plan.points):
+        for row in plan.rows():
             writer.row(row, local_order(before, row, plan.variable))
             rows.append(row)
             if row.error is None:

@@ -287,7 +287,8 @@ def evaluate(entry: Approximation, point: Point) -> Row:
         ))
 
 
-def iter_rows(entry: Approximation, points: Iterable[Point]) -> Iterator[Row]:
+def iter_rows(entry: Approximation, points: Iterable[Point],
+              rejected: Optional[Sequence[Optional[EnumeratorError]]] = None) -> Iterator[Row]:
     """Yield :func:`evaluate` of each checked point, in order, as each is computed.
 
     Parameters
@@ -295,6 +296,9 @@ def iter_rows(entry: Approximation, points: Iterable[Point]) -> Iterator[Row]:
     entry : Approximation
     points : iterable of Point
         Checked by ``entry.check`` (:func:`plan_sweep` does it).
+    rejected : sequence, optional
+        Per point, the error ``entry.check`` raised (``None`` for a valid
+        point): such a point is yielded as a skipped row with that error.
 
     Yields
     ------
@@ -307,8 +311,9 @@ def iter_rows(entry: Approximation, points: Iterable[Point]) -> Iterator[Row]:
     >>> [row.exact for row in iter_rows(entry, [entry.check(Point(balls=n, urns=2)) for n in (1, 2)])]
     [Fraction(1, 1), Fraction(1, 2)]
     """
-    for point in points:
-        yield evaluate(entry, point)
+    for i, point in enumerate(points):
+        error = None if rejected is None else rejected[i]
+        yield Row(point, error=error) if error is not None else evaluate(entry, point)
 
 
 def finish(entry: Approximation, rows: Sequence[Row], variable: str = "balls") -> Comparison:
@@ -379,12 +384,22 @@ def compare(name: Union[str, Approximation], points: Iterable[Point], variable: 
 # ---------------------------------------------------------------------------
 @dataclass(frozen=True)
 class Plan:
-    """One approximation of a sweep, with its checked points, or the reason it cannot run."""
+    """One approximation of a sweep, with its checked points, or the reason it cannot run.
+
+    ``rejected`` holds, per point, the error the entry's ``check`` raised for
+    it (``None`` for a valid point; the point is then kept as given): those
+    points are skipped rows, the others are computed.
+    """
 
     approximation: Approximation
     points: Tuple[Point, ...]
     variable: str
     error: Optional[EnumeratorError] = None
+    rejected: Optional[Tuple[Optional[EnumeratorError], ...]] = None
+
+    def rows(self) -> Iterator[Row]:
+        """:func:`iter_rows` of this plan: its rows one by one as they are computed."""
+        return iter_rows(self.approximation, self.points, self.rejected)
 
 
 def _split_names(names) -> Tuple[List[Approximation], bool]:
@@ -434,9 +449,11 @@ def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **p
     Returns
     -------
     list of Plan
-        One per approximation, in order; a plan whose points an entry
-        rejects (a parameter it needs is missing, a value outside its
-        domain) carries that ``error`` and no points.
+        One per approximation, in order.  A point the entry rejects (a
+        value outside its domain) is kept with its error in ``rejected``
+        and becomes a skipped row; when it rejects every point (a parameter
+        it needs is missing, say) the plan carries the first ``error`` and
+        no points.
 
     Raises
     ------
@@ -467,14 +484,24 @@ def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **p
     variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
     plans = []
     for entry in entries:
-        try:
-            if every and varied is not None and varied != "balls" and varied not in entry.uses:
-                raise _unused_error(entry, [varied])
-            checked = tuple(entry.check(_drop_unused(entry, point)) for point in points)
-        except EnumeratorError as error:
-            plans.append(Plan(entry, (), variable, error))
+        if every and varied is not None and varied != "balls" and varied not in entry.uses:
+            plans.append(Plan(entry, (), variable, _unused_error(entry, [varied])))
             continue
-        plans.append(Plan(entry, checked, variable))
+        checked, rejected = [], []
+        for point in points:
+            point = _drop_unused(entry, point)
+            try:
+                checked.append(entry.check(point))
+                rejected.append(None)
+            except EnumeratorError as error:
+                checked.append(point)
+                rejected.append(error)
+        if all(error is not None for error in rejected):
+            plans.append(Plan(entry, (), variable, rejected[0]))
+        elif any(error is not None for error in rejected):
+            plans.append(Plan(entry, tuple(checked), variable, None, tuple(rejected)))
+        else:
+            plans.append(Plan(entry, tuple(checked), variable))
     return plans
 
 
@@ -530,6 +557,5 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
         if plan.error is not None:
             out.append(Comparison(plan.approximation, (), plan.variable, None, plan.error))
         else:
-            out.append(finish(plan.approximation, tuple(iter_rows(plan.approximation, plan.points)),
-                              plan.variable))
+            out.append(finish(plan.approximation, tuple(plan.rows()), plan.variable))
     return out
