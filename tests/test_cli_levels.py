@@ -262,6 +262,27 @@ def test_law_plot_and_thermo_plot_are_png_files(tmp_path):
     assert "Occupation law of level 0" in result.stdout and "k_B T in the energy unit" in result.stdout
 
 
+def test_temperature_ranges_linear_and_log():
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 2, "--temperatures", "1..3")
+    assert [e["temperature"] for e in payload["canonical"]] == [1.0, 2.0, 3.0]
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 2, "--temperatures", "1..100:3:log")
+    assert [e["temperature"] for e in payload["canonical"]] == pytest.approx([1.0, 10.0, 100.0], rel=1e-12)
+    payload = run_json("levels", "--preset", "einstein", "--oscillators", 2, "--temperatures", "0.1..20:40")
+    temps = [e["temperature"] for e in payload["canonical"]]
+    assert len(temps) == 40 and temps[0] == 0.1 and temps[-1] == 20.0
+
+
+def test_canonical_run_survives_a_multiplicity_table_beyond_the_limits():
+    # Only canonical results asked on a finite spectrum: a refused Omega table is named, not fatal.
+    args = ("levels", "--particles", 300, "--energies", "0,1,2,3,4,5,6,7,8,9", "--degeneracies",
+            "1,3,5,7,9,11,13,15,17,19", "--rule", "BE", "--temperatures", 2, "--max-seconds", "0.001")
+    payload = run_json(*args)
+    assert "multiplicity" not in payload and "--max-seconds" in payload["multiplicity_omitted"]
+    assert len(payload["canonical"]) == 1
+    result = run(*args[:-4], "--max-energy", 2700, "--max-seconds", "0.001")
+    assert result.exit_code == 2 and "--max-seconds" in result.stderr
+
+
 @pytest.mark.parametrize(
     "args, message",
     [

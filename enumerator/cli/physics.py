@@ -12,7 +12,7 @@ from typing import Annotated, Optional
 
 import typer
 
-from ..core.errors import InvalidParameters
+from ..core.errors import InvalidParameters, TooLarge
 from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
 from .render import emit_json
 
@@ -25,6 +25,10 @@ _OUTPUT = OUTPUT_PANEL
 _LEVELS = "Levels"
 _PRESET = "Preset (instead of --energies/--degeneracies)"
 _THERMO = "Thermodynamics"
+
+#: How the omitted-multiplicities note spells library parameters.
+_FLAGS = {"max_energy": "--max-energy", "max_memory": "--max-memory", "max_seconds": "--max-seconds",
+          "particles": "--particles", "limit": "--limit"}
 
 
 def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None):
@@ -234,8 +238,15 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
             "canonical results alone (--temperatures or --factor) need none",
             parameters=["max_energy"],
         )
+    omitted = None
     if max_energy is not None or system.spectrum.finite:
-        counts = lv.multiplicities(system, max_energy)
+        try:
+            counts = lv.multiplicities(system, max_energy)
+        except TooLarge as error:
+            # Asked for canonical results only: say why the table is missing instead of failing.
+            if max_energy is not None or not temps or micro:
+                raise
+            omitted = error.spelled(_FLAGS)
     points = laws = None
     if temps:
         report = report_levels
@@ -258,9 +269,9 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
     if plot is not None:
         render_levels.plot_levels(plot, system, counts, points or (), laws or ())
     if as_json:
-        emit_json(render_levels.levels_payload(system, counts, points, micro_points, laws, factors))
+        emit_json(render_levels.levels_payload(system, counts, points, micro_points, laws, factors, omitted))
         return
-    render_levels.show_levels(system, counts, points, micro_points, max_energy, plot, laws, factors)
+    render_levels.show_levels(system, counts, points, micro_points, max_energy, plot, laws, factors, omitted)
 
 
 def _thermal_points(lv, system, temperatures, factor, digits):

@@ -231,6 +231,7 @@ def levels_payload(
     micro: Optional[Sequence[MicroPoint]] = None,
     laws: Optional[Sequence] = None,
     factors: Optional[Sequence] = None,
+    omitted: Optional[str] = None,
 ) -> dict:
     """The JSON object of ``enumerator levels``.
 
@@ -249,6 +250,9 @@ def levels_payload(
         Beside each point, the occupation law of the level asked for.
     factors : sequence of Fraction or None, optional
         Beside each point, its exact Boltzmann factor (``None``: a temperature).
+    omitted : str, optional
+        Why the multiplicities were left out (too large for the limits while
+        only canonical results were asked): ``"multiplicity_omitted"``.
 
     Returns
     -------
@@ -271,6 +275,8 @@ def levels_payload(
     payload = {"unit": exact(unit)}
     if counts is not None:
         payload["multiplicity"] = {exact(e * unit): str(v) for e, v in counts.items()}
+    if omitted is not None:
+        payload["multiplicity_omitted"] = omitted
     if points is not None:
         laws = list(laws) if laws else [None] * len(points)
         factors = list(factors) if factors else [None] * len(points)
@@ -304,6 +310,7 @@ def show_levels(
     plot: Optional[str] = None,
     laws: Optional[Sequence] = None,
     factors: Optional[Sequence] = None,
+    omitted: Optional[str] = None,
 ) -> None:
     """Print the multiplicities, the canonical tables and the occupation laws.
 
@@ -327,6 +334,8 @@ def show_levels(
         Per temperature, the law of one level's occupation.
     factors : sequence of Fraction or None, optional
         The exact Boltzmann factor of each point (``None`` for a temperature).
+    omitted : str, optional
+        Why the multiplicities were left out, printed first.
 
     Notes
     -----
@@ -337,6 +346,8 @@ def show_levels(
     """
     unit = system.spectrum.unit
     out = console()
+    if omitted is not None:
+        out.print(f"multiplicities left out: {omitted}")
     if counts is not None or micro is not None:
         if micro is not None:
             rows = [[exact(m.energy * unit), exact(m.multiplicity), _float_cell(m.ln_multiplicity_approx),
