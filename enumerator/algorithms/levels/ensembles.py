@@ -11,8 +11,18 @@ r"""Ensembles of particles on energy levels: canonical and grand canonical.
   itself in exact fixed-point integers (FLINT products, divide and conquer),
   with the precision raised until an error bound meets the request.
   :func:`canonical_occupations` is the same without the β-derivatives.
+  Two other routes serve where the recursion is slow: fermions far below the
+  Fermi temperature go through the particle-hole expansion
+  (:mod:`.particle_hole`, positive terms in ball arithmetic, chosen
+  automatically), and bosons at scale may take ``route="float"`` (the
+  positive recursion in double precision with rigorous a-posteriori bounds,
+  :func:`_canonical_float`).  Each point also carries the occupation above
+  the listed levels, ``⟨δE²⟩`` and the variance of level 0's occupation.
 * :func:`grand_canonical` -- the grand-canonical occupation formulas at the
-  chemical potential that gives mean ``N``.
+  chemical potential that gives mean ``N``; :func:`grand_canonical_level_variance`
+  and :func:`grand_canonical_thermo` (``U`` and ``C`` at fixed mean ``N``).
+* :func:`parse_temperatures` -- lists and ranges of temperatures
+  (``0.1..20:40``, ``1..100:5:log``).
 
 Units: energies and temperatures share the user's energy unit, with
 Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
