@@ -556,7 +556,7 @@ def test_infinite_ladder_needs_a_maximum_energy():
     )
 
 
-@pytest.mark.parametrize("name", ["", ".spectra", ".multiplicities", ".ensembles"])
+@pytest.mark.parametrize("name", ["", ".spectra", ".multiplicities", ".ensembles", ".occupation", ".particle_hole"])
 def test_module_doctests(name):
     import doctest
     import importlib
