@@ -131,7 +131,7 @@ def _partition_polynomials_of(z: List[int], w: List[int], top: int, degree: int)
         a = base.inflate(k) if k > 1 else base
         powers.append(a * w[k] if w[k] != 1 else a)
     polys: List[Optional[fmpz_poly]] = [fmpz_poly([1])] + [None] * top
-    acc = [fmpz_poly() for _ in range(top + 1)]
+    acc: List[Optional[fmpz_poly]] = [fmpz_poly() for _ in range(top + 1)]
     packed_powers: Dict[int, fmpz_poly] = {}
 
     def pack(items) -> fmpz_poly:
@@ -157,6 +157,7 @@ def _partition_polynomials_of(z: List[int], w: List[int], top: int, degree: int)
             for n in range(lo, hi):
                 if n:
                     polys[n] = acc[n] / n  # exact: raises if not
+                acc[n] = None  # complete: its sum is no longer needed
                 for m in range(n + 1, hi):
                     if not powers[m - n].is_zero():
                         acc[m] += powers[m - n].mul_low(polys[n], length)
