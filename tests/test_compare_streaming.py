@@ -315,3 +315,17 @@ def test_points_outside_the_domain_are_skipped_rows_when_others_are_valid():
 
     x = symbols("x")
     assert rows[0]["exact"] == str(Poly((1 + x + x**2 + x**3) ** 10, x).coeff_monomial(x**10))
+
+
+def test_several_failures_are_one_error_line_after_the_output():
+    result = run("compare", "empty-mean,saddle,boltzmann", "--balls", 100000, "--urns", 50000,
+                 "--max-memory", "100K", "--json")
+    assert result.exit_code == 2
+    mean, saddle, boltzmann = json.loads(result.stdout)["comparisons"]
+    assert "skipped" in mean["rows"][0] and "error" in saddle
+    # (r-1)/(n+r-1): the BE fraction of empty urns (Feller vol. 1, §II.5)
+    assert boltzmann["rows"][0]["exact"] == str(Fraction(49999, 149999))
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1
+    assert lines[0].startswith("Error: empty-mean: every point was skipped (the exact side of empty-mean")
+    assert "; saddle: saddle approximates a bounded count: give --capacity" in lines[0]

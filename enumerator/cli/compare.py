@@ -133,7 +133,7 @@ def compare_command(
 
     Exit status: 0 when every named approximation computed at least one
     point (with all: when any did); 2 otherwise, after everything else is
-    printed, with one line per failure on stderr.
+    printed, with one Error line on stderr naming each failure.
 
     Example:
 
@@ -192,8 +192,8 @@ def compare_command(
                             f"({spell(comparison.rows[0].error)})")
     ran = len(comparisons) - len(failures)
     if failures and (not every or ran == 0):
+        # one line, as every error of the command line (app._fail)
         sys.stdout.flush()
-        for line in failures:
-            sys.stderr.write(" ".join(f"Error: {line}".split()) + "\n")
+        sys.stderr.write(" ".join(("Error: " + "; ".join(failures)).split()) + "\n")
         sys.stderr.flush()
         raise typer.Exit(2)
