@@ -275,11 +275,11 @@ def test_temperature_ranges_linear_and_log():
 def test_canonical_run_survives_a_multiplicity_table_beyond_the_limits():
     # Only canonical results asked on a finite spectrum: a refused Omega table is named, not fatal.
     args = ("levels", "--particles", 300, "--energies", "0,1,2,3,4,5,6,7,8,9", "--degeneracies",
-            "1,3,5,7,9,11,13,15,17,19", "--rule", "BE", "--temperatures", 2, "--max-seconds", "0.001")
+            "1,3,5,7,9,11,13,15,17,19", "--rule", "BE", "--temperatures", 2, "--max-seconds", "5")
     payload = run_json(*args)
     assert "multiplicity" not in payload and "--max-seconds" in payload["multiplicity_omitted"]
     assert len(payload["canonical"]) == 1
-    result = run(*args[:-4], "--max-energy", 2700, "--max-seconds", "0.001")
+    result = run(*args[:-4], "--max-energy", 2700, "--max-seconds", "5")
     assert result.exit_code == 2 and "--max-seconds" in result.stderr
 
 
@@ -338,3 +338,11 @@ def test_render_doctests():
     import enumerator.cli.render_levels as module
 
     assert doctest.testmod(module).failed == 0
+
+
+def test_canonical_recursion_beyond_the_limits_is_refused_before_it_starts():
+    result = run("levels", "--preset", "trap", "--particles", 100000, "--rule", "BE", "--temperatures", 10,
+                 "--max-seconds", 60)
+    assert result.exit_code == 2
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and "--max-seconds" in lines[0] and "--route float" in lines[0]

@@ -39,7 +39,7 @@ import mpmath
 from flint import fmpz_poly
 
 from ...core.errors import InvalidParameters, TooLarge
-from ...core.limits import Cost, check
+from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
 from .particle_hole import fermion_canonical
@@ -473,6 +473,42 @@ def _level_variance(system: System, spectrum: Spectrum, b, ratios, index: int, m
     return mpmath.fsum(terms) - mean * mean
 
 
+def _recursion_cost(system: System, spectrum: Spectrum, temperature: Fraction, bits: int, moments: bool) -> Cost:
+    r"""Rough cost of the fixed-point recursion at one temperature.
+
+    Its integers hold ``bits`` fractional bits plus the magnitude of ``Z_N``
+    (of the majorant for alternating weights), bounded through the grand
+    canonical sum at fugacity ``φ``: ``ln Z_N <= ln Ξ(φ) - N ln φ <=
+    z_1 ln(1 + N/z_1) + N ln(1 + z_1/N)`` at ``φ = N/(N + z_1)`` (``z_1`` the
+    one-particle sum from the lowest level), plus the cancellation of the
+    alternating sums, ``β (E_0 - N ε_min) / ln 2`` bits.  Time: the
+    products of the divide and conquer (``log2 N`` levels, six couplings
+    with the moments) and the base loops; calibrated on the 3D trap
+    (scripts/workloads_levels.py).
+    """
+    n = max(system.particles, 1)
+    b = float(spectrum.unit / temperature)
+    if spectrum.ladder is not None:
+        lad = spectrum.ladder
+        x = b * lad.spacing
+        z1 = (-math.expm1(-x)) ** (-lad.dimension) if x < 700 else 1.0
+    else:
+        low = spectrum.lowest
+        z1 = sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies))
+    ln_z = z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
+    size = bits + ln_z / math.log(2)
+    if system.capacity is not None:
+        size += b * (ground_energy(system) - n * spectrum.lowest) / math.log(2)
+    couplings = 6 if moments else 1
+    if system.capacity is not None:
+        couplings *= 2
+    seconds = (couplings * 2 * max(1, n.bit_length()) * product_seconds(n * size)
+               + n * 8 * couplings * product_seconds(size) + n * 1.5e-4)
+    if system.capacity is not None:
+        seconds *= 8  # measured: the precision is found in a few attempts, the majorant doubles the work
+    return Cost(seconds=seconds, memory=(couplings + 3) * (n + 1) * bigint_bytes(size))
+
+
 def _report_count(spectrum: Spectrum, levels: Optional[int]) -> int:
     if levels is None:
         return len(spectrum.energies)
@@ -534,6 +570,10 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
     target = math.ceil(digits * math.log2(10))
     margin = 8 + 2 * (n + 1).bit_length()
     bits = target + margin + 16
+    if system.rule is not Rule.MB:
+        check(_recursion_cost(system, spectrum, temperature, bits, moments),
+              f"the canonical recursion of {n} particles at T = {temperature}",
+              advice="lower particles=, or for bosons use route= float", parameters=["particles", "route"])
     for _attempt in range(12):
         with mpmath.workprec(bits + 32):
             T = mpmath.mpf(temperature.numerator) / temperature.denominator
