@@ -545,7 +545,8 @@ class StoredTable:
             while True:
                 keys = self.store.cell_keys(*fields, chunk, balls, after=after, limit=KEY_BATCH)
                 yield from self._values(keys)
-                if len(keys) < KEY_BATCH:
+                # a chunk of at most KEY_BATCH cells is read whole by one query
+                if len(keys) < KEY_BATCH or len(chunk) * len(balls) <= KEY_BATCH:
                     break
                 after = keys[-1][:2]
 
@@ -719,8 +720,8 @@ def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
     -----
     Long: memory of one batch of cells (:meth:`StoredTable.cells`).  Wide:
     the cells are streamed once into a temporary file and each row is read
-    back by offset (two 8-byte numbers per cell in memory, one row of values
-    at a time).  Cost: one pass over the cells, plus one count query for
+    back by offset (12 bytes per cell in memory, one row of values at a
+    time: :func:`wide_rows`).  Cost: one pass over the cells, plus one count query for
     JSON (its ``missing``).
     """
     fmt, layout = _check_format(fmt, layout)
@@ -776,21 +777,26 @@ def _json_head(name: str, spec: TableSpec, missing: int) -> dict:
     }
 
 
-def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, List[Optional[str]]]]:
+def wide_rows(spec: TableSpec, cells: Iterable[Cell],
+              spilled: Optional[Callable[[int], None]] = None) -> Iterator[Tuple[int, List[Optional[str]]]]:
     """Turn cells in any order into the rows ``(n, [value text or None for each r])`` of the matrix.
+
+    *spilled*, when given, is called once with the total length of the
+    value texts, after every cell is read and before the first row.
 
     Notes
     -----
     One pass over *cells* writes each value to an unnamed temporary file
-    and records its offset and length (NumPy arrays of ``2 x 8`` bytes per
-    cell of the grid); each row is then read back by offset.  Memory: the
-    two arrays plus one row of values; disk: the values' digits.
+    and records its offset and length (NumPy arrays of 8 + 4 bytes per cell
+    of the grid: 60 MB for the largest table, ``MAX_CELLS``); each row is
+    then read back by offset.  Memory: the two arrays plus one row of
+    values; disk: the values' digits.
     """
     import numpy as np
 
     first_n, first_r, width = spec.balls.start, spec.urns.start, len(spec.urns)
     offsets = np.full(spec.cells, -1, dtype=np.int64)
-    lengths = np.zeros(spec.cells, dtype=np.int64)
+    lengths = np.zeros(spec.cells, dtype=np.uint32)  # a value text is far below 4 GB
     with tempfile.TemporaryFile() as spill:
         position = 0
         for n, r, text, _ in cells:
@@ -800,6 +806,8 @@ def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, Lis
             offsets[at], lengths[at] = position, len(data)
             position += len(data)
         spill.flush()
+        if spilled is not None:
+            spilled(position)
         for row, n in enumerate(spec.balls):
             base = row * width
             values: List[Optional[str]] = []
@@ -909,11 +917,16 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
 
     Notes
     -----
-    Written in row groups of at most :data:`PARQUET_ROWS` rows or
-    :data:`PARQUET_DIGITS` digits (four times that for the wide layout:
-    its groups have two columns per ``r``, and each group adds their
-    metadata to the footer the writer keeps), so memory stays that of one
-    group; the values get no dictionary (their texts are distinct).
+    Long: row groups of at most :data:`PARQUET_ROWS` rows or
+    :data:`PARQUET_DIGITS` digits, so memory stays that of one group.
+    Wide: pyarrow keeps about 2 KB of metadata per column chunk (two per
+    ``r`` in each row group) until the file is closed, so the number of
+    groups is chosen to balance that against the size of one group (about
+    the square root of the table's digits over its columns); a table of
+    ``10^6`` cells over 1000 urns (255 million digits) peaks near 250 MB,
+    the one layout that is not flat.  The value texts get no dictionary
+    (they are distinct) and no min/max statistics (the min/max of decimal
+    texts is not numeric order).
     Cost: one pass over the cells (the wide layout spills them once to a
     temporary file, see :func:`wide_rows`).
     """
@@ -930,8 +943,11 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     if layout == "long":
         schema = pa.schema([("balls", number), ("urns", number), ("value", pa.string()), ("digits", pa.int64()),
                             ("value_approx", pa.float64()), ("log10_approx", pa.float64())])
-        # no dictionary for the values (distinct texts: a dictionary would only cost memory)
-        with pq.ParquetWriter(str(path), schema, use_dictionary=["balls", "urns"]) as writer:
+        # no dictionary and no min/max for the value texts: they are distinct (a dictionary
+        # would only cost memory), and the min/max of decimal texts is not numeric order
+        with pq.ParquetWriter(str(path), schema, use_dictionary=["balls", "urns"],
+                              write_statistics=["balls", "urns", "digits", "value_approx",
+                                                "log10_approx"]) as writer:
             group: List[Cell] = []
             digits = 0
 
@@ -959,9 +975,18 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     for r in spec.urns:
         fields += [(f"urns={r}", pa.string()), (f"urns={r}_approx", pa.float64())]
     schema = pa.schema(fields)
-    with pq.ParquetWriter(str(path), schema, use_dictionary=False) as writer:
+    with pq.ParquetWriter(str(path), schema, use_dictionary=False,
+                          write_statistics=False) as writer:
         group_rows: List[Tuple[int, List[Optional[str]]]] = []
         digits = 0
+        budget = [4 * PARQUET_DIGITS]
+
+        def size_groups(total: int) -> None:
+            # pyarrow keeps about 2 KB of metadata per column chunk until the file is
+            # closed, and a group holds about 3 copies of its digits: G groups of C
+            # columns cost about G C 2000 + 3 total / G bytes, least at this G
+            groups = max(1, round(math.sqrt(3 * total / (len(fields) * 2000))))
+            budget[0] = max(PARQUET_DIGITS, math.ceil(total / groups))
 
         def flush_wide():
             arrays = [pa.array(numbers([n for n, _ in group_rows]), number)]
@@ -971,11 +996,10 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
                 arrays.append(pa.array([None if v is None else value_approx(v) for v in column], pa.float64()))
             writer.write_batch(pa.record_batch(arrays, schema=schema))
 
-        for n, values in wide_rows(spec, cells()):
+        for n, values in wide_rows(spec, cells(), size_groups):
             group_rows.append((n, values))
-            digits += sum(len(v) for v in values if v is not None) + len(values)
-            # wide groups hold four times the digits: fewer groups of many columns, a smaller footer
-            if len(group_rows) >= PARQUET_ROWS or digits >= 4 * PARQUET_DIGITS:
+            digits += sum(len(v) for v in values if v is not None)
+            if len(group_rows) >= PARQUET_ROWS or digits >= budget[0]:
                 flush_wide()
                 written += len(group_rows)
                 group_rows, digits = [], 0
