@@ -346,3 +346,12 @@ def test_canonical_recursion_beyond_the_limits_is_refused_before_it_starts():
     assert result.exit_code == 2
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and "--max-seconds" in lines[0] and "--route float" in lines[0]
+
+
+def test_a_boltzmann_factor_reaches_the_particle_hole_route():
+    # x = 1/1000 is k_B T = 1/ln 1000 ~ 0.145: far below the Fermi temperature of 969 fermions.
+    payload = run_json("levels", "--preset", "trap", "--particles", 969, "--rule", "FD", "--factor", "1/1000",
+                       "--digits", 15)
+    (entry,) = payload["canonical"]
+    assert entry["route"] == "particle-hole" and entry["factor"] == "1/1000"
+    assert entry["temperature"] == pytest.approx(1 / math.log(1000), rel=1e-15)

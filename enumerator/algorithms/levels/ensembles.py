@@ -71,7 +71,7 @@ _TAIL_GAP = 4
 def _parse_temperature(value) -> Fraction:
     if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
         man, exp = value.man_exp
-        number = Fraction(man) * Fraction(2) ** exp
+        number = Fraction(int(man)) * Fraction(2) ** int(exp)
     elif isinstance(value, float):
         if not math.isfinite(value):
             raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
