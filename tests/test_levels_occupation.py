@@ -300,3 +300,15 @@ def test_float_route_for_bosons_agrees_with_the_exact_recursion_within_its_bound
         assert abs(a.heat_capacity_approx / b.heat_capacity_approx - 1) < 1e-9
     with pytest.raises(InvalidParameters, match="float route is for bosons"):
         canonical(make_system(10, preset="trap", rule="FD"), ["1"], route="float")
+
+
+def test_grand_canonical_far_above_the_spacing_is_the_classical_gas():
+    # k_B T = 10^4 spacings: N = Σ g/(e^{β(ε-μ)} - 1) ≈ e^{βμ} Z_1 with Z_1 = (1 - e^{-β})^-3 (the classical
+    # limit, Pathria & Beale ch. 7, common practice); the next correction is e^{2βμ} Z_1(2β)/2, ~1e-11 here.
+    from enumerator.algorithms.levels import grand_canonical
+
+    mu, _occ = grand_canonical(make_system(50, preset="trap", rule="BE"), 10_000, digits=20, levels=1)
+    with mpmath.workdps(30):
+        z1 = (1 - mpmath.exp(-mpmath.mpf(1) / 10_000)) ** -3
+        classical = 10_000 * mpmath.log(50 / z1)
+    assert abs(mu / classical - 1) < 1e-9

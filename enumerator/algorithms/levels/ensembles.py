@@ -1211,6 +1211,11 @@ def _gc_total(system: System, b, eta, formula):
     # q = e^{-j b s}, in closed form q^m0 sum_{i<d} C(m0+i-1, i) (1-q)^{-(d-i)}
     # (Vandermonde's convolution).
     m0 = max(0, int(mpmath.ceil((eta + _TAIL_GAP) / bs)))
+    if m0 and system.capacity is None and eta < 0:
+        # Bosons (and MB): the tail series converges from rung 0 on (fugacity e^eta < 1), in
+        # about prec ln 2 / |eta| terms; far fewer than m0 rungs when k_B T is many spacings.
+        if mpmath.mp.prec * 0.7 / -eta < m0:
+            m0 = 0
     total = mpmath.mpf(0)
     if m0:
         step = mpmath.exp(bs)
