@@ -13,8 +13,15 @@ Two kinds of work split cleanly across processes and machines:
 :func:`build_table_distributed` sends row batches to the workers and writes
 the results from the client through the store's ordinary write path
 (:meth:`~enumerator.store.database.Store.put_many`), so a plain SQLite file
-works; :func:`enumeration_sum_distributed` sends equal rank shards and adds
-the exact integer sums.  The cluster is a
+works (a PostgreSQL store is also read by the workers, which skip cells
+stored meanwhile); :func:`enumeration_sum_distributed` sends equal rank
+shards and adds the exact integer sums, :func:`enumeration_counts_distributed`
+adds dicts of exact counts per value, and :func:`listing_to_files` has each
+shard written to its own file.  On top of these, :func:`event_count_distributed`
+and :func:`distribution_distributed` answer what the planner decides by
+listing; :func:`event_needs_listing` and :func:`distribution_needs_listing`
+tell, without listing, whether the single-process route would list (only
+then does a cluster help).  The cluster is a
 :class:`distributed.LocalCluster` of ``workers`` processes started here, or
 an existing scheduler at ``cluster`` (``"tcp://host:8786"``), or a
 :class:`distributed.Client` the caller holds.
@@ -22,7 +29,8 @@ an existing scheduler at ``cluster`` (``"tcp://host:8786"``), or a
 Faults: Dask reschedules the tasks of a worker that dies, and the client
 takes exactly one result per task (one future, one result), so a killed
 worker costs only its shards and nothing is counted twice; rows are written
-with ``put_many``, which keeps a key already stored.
+with ``put_many``, which keeps a key already stored, and files under a
+temporary name renamed when whole.
 
 Dask is an optional dependency: ``pip install 'enumerator[cluster]'``.
 """
