@@ -228,7 +228,7 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
     temps, factors = _thermal_points(lv, system, temperatures, factor, digits)
     if occupation_law is not None and not temps:
         raise InvalidParameters("--occupation-law needs --temperatures or --factor",
-                                   parameters=["occupation_law", "temperatures"])
+                                parameters=["occupation_law", "temperatures"])
     # Multiplicities only where they can be listed: a finite spectrum, or a
     # ladder cut by --max-energy; canonical results alone use the whole ladder.
     counts = None
@@ -247,6 +247,9 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
             if max_energy is not None or not temps or micro:
                 raise
             omitted = error.spelled(_FLAGS)
+    if micro and counts is None:
+        raise InvalidParameters("--microcanonical needs the multiplicities: give --max-energy",
+                                parameters=["max_energy"])
     points = laws = None
     if temps:
         report = report_levels
@@ -262,9 +265,6 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
             for i, x in enumerate(factors):
                 if x is not None:
                     laws[i] = lv.occupation_law_exact(system, occupation_law, x)
-    if micro and counts is None:
-        raise InvalidParameters("--microcanonical needs --max-energy on an infinite ladder",
-                                   parameters=["max_energy"])
     micro_points = lv.microcanonical(system, max_energy) if micro else None
     if plot is not None:
         render_levels.plot_levels(plot, system, counts, points or (), laws or ())
