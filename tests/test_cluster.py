@@ -447,3 +447,21 @@ def test_unreachable_scheduler_is_one_line_error():
         result = run("prob", "-n", "7", "-r", "5", "--event", MIXED, "--no-cache", "--cluster", address)
         line = one_line_error(result)
         assert "Dask scheduler" in line and "--cluster" in line and "--workers" in line
+
+
+def test_listing_beyond_the_time_limit_is_refused_before_a_cluster_starts(monkeypatch):
+    # the listing's estimated time, divided by the workers, is checked before any
+    # cluster is started: no LocalCluster may be built here
+    from enumerator.core.limits import limited
+    from enumerator.store import cluster as cluster_module
+
+    def no_cluster(*args, **kwargs):
+        raise AssertionError("a cluster was started for refused work")
+
+    monkeypatch.setattr(cluster_module, "local_cluster", no_cluster)
+    model = UrnModel(balls=7, urns=5, rule="MB")
+    with limited(seconds=1e-6):
+        with pytest.raises(TooLarge, match="2 workers"):
+            event_count_distributed(model, MIXED, workers=2)
+        with pytest.raises(TooLarge, match="2 workers"):
+            distribution_distributed(UrnModel(balls=6, urns=4, weights="1,2,2,5"), "profile", workers=2)
