@@ -145,8 +145,9 @@ def prob_command(
     mixing counting statistics, say) is decided by listing every
     configuration; that listing then runs on a Dask cluster in equal rank
     shards, and the exact per-shard sums are added (the same answer as one
-    process; --limit still applies).  An event the planner counts without
-    listing is answered here, and a note on stderr (JSON: "note") says so.
+    process; --limit still applies; such an answer is not remembered in the
+    store).  An event the planner counts without listing is answered here,
+    and a note on stderr (JSON: "note") says so.
 
     Example:
 
@@ -387,8 +388,9 @@ def dist_command(
     configuration (the profile of a weighted model; a counting statistic
     under many differing per-urn bounds) is listed on a Dask cluster in
     equal rank shards, the exact counts per value added over the shards
-    (the same law as one process; --limit still applies).  Any other law is
-    computed here, and a note on stderr (JSON: "note") says so.
+    (the same law as one process; --limit still applies; such a law is not
+    remembered in the store).  Any other law is computed here, and a note on
+    stderr (JSON: "note") says so.
 
     Example:
 
