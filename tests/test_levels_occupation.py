@@ -312,3 +312,20 @@ def test_grand_canonical_far_above_the_spacing_is_the_classical_gas():
         z1 = (1 - mpmath.exp(-mpmath.mpf(1) / 10_000)) ** -3
         classical = 10_000 * mpmath.log(50 / z1)
     assert abs(mu / classical - 1) < 1e-9
+
+
+def test_condensate_fluctuations_of_the_3d_trap_follow_the_limit_law():
+    # Well below T_c the canonical ⟨δn_0²⟩ of the isotropic 3D trap is Σ_excited n̄(n̄+1) to leading orders:
+    # ζ(2) t³ from the (m²/2)-part of the degeneracy and (3/2) t² (ln t + const) from its (3m/2)-part,
+    # t = k_B T/ħω (H. D. Politzer, Phys. Rev. A 54, 5048 (1996); M. Holthaus, E. Kalinowski and
+    # K. Kirsten, Ann. Phys. 270, 198 (1998); from memory).  So (⟨δn_0²⟩ - ζ(2) t³)/(1.5 t²) - ln t
+    # must be flat in t; 2*10^4 bosons (T_c ~ 25) by the float route, t = 4..16.
+    system = make_system(20_000, preset="trap", rule="BE")
+    points = canonical(system, ["4", "8", "12", "16"], digits=15, levels=1, grand=False, route="float")
+    rest = []
+    for p in points:
+        t = float(p.temperature)
+        var = float(p.ground_occupation_variance_approx)
+        assert 1 < var / (float(mpmath.zeta(2)) * t**3) < 2
+        rest.append((var - float(mpmath.zeta(2)) * t**3) / (1.5 * t * t) - math.log(t))
+    assert max(rest) - min(rest) < 0.1
