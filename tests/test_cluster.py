@@ -465,3 +465,22 @@ def test_listing_beyond_the_time_limit_is_refused_before_a_cluster_starts(monkey
             event_count_distributed(model, MIXED, workers=2)
         with pytest.raises(TooLarge, match="2 workers"):
             distribution_distributed(UrnModel(balls=6, urns=4, weights="1,2,2,5"), "profile", workers=2)
+
+
+def test_worker_that_cannot_reach_the_server_computes_every_cell():
+    # a free loopback port (bound, then closed) stands for a server only the client can reach;
+    # reference: C(n + r - 1, r - 1) configurations, here r = 2: n + 1 (Feller II.5)
+    import socket
+
+    from enumerator.store.cluster import RowTask, _compute_rows
+    from enumerator.store.keys import ALGORITHM_VERSIONS
+
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    spec = TableSpec.make("BE", "0..5", "2..2")
+    shared = (f"postgresql+psycopg://nobody@127.0.0.1:{port}/none", (spec.bounds_text(2),),
+              ALGORITHM_VERSIONS[spec.quantity])
+    ((urns, cells, _, _),) = _compute_rows(spec.rule, spec.quantity, spec.minimum, spec.capacity,
+                                           [RowTask(2, tuple(spec.balls))], shared)
+    assert urns == 2 and cells == [(n, n + 1) for n in range(6)]

@@ -286,13 +286,29 @@ _WORKER_STORES: dict = {}
 
 
 def _worker_store(url: str):
-    """The store at *url*, opened once per worker process."""
+    """The store at *url*, opened once per worker process; None when this worker cannot reach it."""
+    from ..core.errors import StoreError
     from .database import Store
 
-    store = _WORKER_STORES.get(url)
+    if url not in _WORKER_STORES:
+        try:
+            _WORKER_STORES[url] = Store(url)
+        except (StoreError, OSError):
+            _WORKER_STORES[url] = None  # e.g. a server on the client's loopback: compute every cell
+    return _WORKER_STORES[url]
+
+
+def _stored_here(url: str, quantity: str, rule: str, bounds: str, urns: int, version: int) -> set:
+    """The ``n`` of a row stored at *url* as this worker sees it (empty when it cannot read the store)."""
+    from ..core.errors import StoreError
+
+    store = _worker_store(url)
     if store is None:
-        store = _WORKER_STORES[url] = Store(url)
-    return store
+        return set()
+    try:
+        return store.stored_balls(quantity, rule, bounds, urns, version, values=False)
+    except StoreError:
+        return set()
 
 
 def _compute_rows(rule: str, quantity: str, minimum: int, capacity: Optional[int],
@@ -301,17 +317,18 @@ def _compute_rows(rule: str, quantity: str, minimum: int, capacity: Optional[int
     """Worker side: ``[(r, [(n, value) for missing n], method, ns per cell)]`` for each row of *batch*.
 
     With *shared* ``= (store URL, bounds text per row of the batch, version)``
-    (a database server every worker can reach), each row first reads which
-    of its cells are stored by then (by another builder, say) and computes
-    only the others; a row found complete comes back with no cells.
+    (a database server), each row first reads which of its cells are stored
+    by then (by another builder, say) and computes only the others; a row
+    found complete comes back with no cells.  A worker that cannot reach
+    or read the store computes every cell (the client's write keeps a cell
+    stored once).
     """
     out = []
     for index, task in enumerate(batch):
         missing = task.missing
         if shared is not None:
             url, bounds, version = shared
-            have = _worker_store(url).stored_balls(quantity, rule, bounds[index], task.urns, version,
-                                                   values=False)
+            have = _stored_here(url, quantity, rule, bounds[index], task.urns, version)
             missing = tuple(n for n in missing if n not in have)
             if not missing:
                 out.append((task.urns, [], "", 0))
