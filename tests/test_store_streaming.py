@@ -237,6 +237,19 @@ def test_parquet_round_trip_long_and_wide(where, tmp_path):
     assert wide["urns=2_approx"] == [float(_stars_and_bars(n, 2)) for n in range(401)]
 
 
+def test_wide_parquet_leaves_cells_not_built_null(where, tmp_path):
+    pq = pytest.importorskip("pyarrow.parquet")
+    # r 1..3 built through another table sharing the cells; r = 4 and n = 13 are not
+    tables.build_table(tables.TableSpec.make("BE", "0..12", "1..3"), store=where, name="part")
+    tables.claim_table(tables.TableSpec.make("BE", "0..13", "1..4"), "wide", results.open_store(where))
+    assert tables.export_parquet(tables.open_table("wide", store=where), tmp_path / "w.parquet", "wide") == 14
+    wide = pq.read_table(tmp_path / "w.parquet").to_pydict()
+    for r in (1, 2, 3):
+        assert wide[f"urns={r}"] == [str(_stars_and_bars(n, r)) for n in range(13)] + [None]
+        assert wide[f"urns={r}_approx"] == [float(_stars_and_bars(n, r)) for n in range(13)] + [None]
+    assert wide["urns=4"] == [None] * 14 and wide["urns=4_approx"] == [None] * 14
+
+
 def test_parquet_needs_pyarrow_and_an_output_file(where, monkeypatch):
     tables.build_table(tables.TableSpec.make("BE", "0..3", "1..2"), store=where, name="t")
     assert "--output" in one_line_error(run("table", "export", "t", "--format", "parquet", "--store", where))

@@ -777,48 +777,57 @@ def _json_head(name: str, spec: TableSpec, missing: int) -> dict:
     }
 
 
-def wide_rows(spec: TableSpec, cells: Iterable[Cell],
-              spilled: Optional[Callable[[int], None]] = None) -> Iterator[Tuple[int, List[Optional[str]]]]:
-    """Turn cells in any order into the rows ``(n, [value text or None for each r])`` of the matrix.
+class _Spill:
+    """The cells of a table written once to an unnamed temporary file, found by ``(row, column)``.
 
-    *spilled*, when given, is called once with the total length of the
-    value texts, after every cell is read and before the first row.
+    ``offsets[i]`` (-1: not stored) and ``lengths[i]`` locate the value
+    text of cell ``i = (n - first n) * len(urns) + (r - first r)``; NumPy
+    arrays of 8 + 4 bytes per cell of the grid (60 MB for the largest
+    table, ``MAX_CELLS``).  ``total`` is the length of all the texts.
+    """
+
+    def __init__(self, spec: TableSpec, cells: Iterable[Cell], handle):
+        import numpy as np
+
+        self.width = len(spec.urns)
+        self.handle = handle
+        self.offsets = np.full(spec.cells, -1, dtype=np.int64)
+        self.lengths = np.zeros(spec.cells, dtype=np.uint32)  # a value text is far below 4 GB
+        first_n, first_r, position = spec.balls.start, spec.urns.start, 0
+        for n, r, text, _ in cells:
+            data = text.encode("ascii")
+            handle.write(data)
+            at = (n - first_n) * self.width + (r - first_r)
+            self.offsets[at], self.lengths[at] = position, len(data)
+            position += len(data)
+        handle.flush()
+        self.total = position
+
+    def read(self, at: int) -> Optional[bytes]:
+        """The value text of cell *at* (None when it is not stored)."""
+        where = int(self.offsets[at])
+        if where < 0:
+            return None
+        self.handle.seek(where)
+        return self.handle.read(int(self.lengths[at]))
+
+
+def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, List[Optional[str]]]]:
+    """Turn cells in any order into the rows ``(n, [value text or None for each r])`` of the matrix.
 
     Notes
     -----
     One pass over *cells* writes each value to an unnamed temporary file
-    and records its offset and length (NumPy arrays of 8 + 4 bytes per cell
-    of the grid: 60 MB for the largest table, ``MAX_CELLS``); each row is
-    then read back by offset.  Memory: the two arrays plus one row of
-    values; disk: the values' digits.
+    and records its offset and length (12 bytes per cell of the grid, see
+    :class:`_Spill`); each row is then read back by offset.  Memory: the
+    two arrays plus one row of values; disk: the values' digits.
     """
-    import numpy as np
-
-    first_n, first_r, width = spec.balls.start, spec.urns.start, len(spec.urns)
-    offsets = np.full(spec.cells, -1, dtype=np.int64)
-    lengths = np.zeros(spec.cells, dtype=np.uint32)  # a value text is far below 4 GB
-    with tempfile.TemporaryFile() as spill:
-        position = 0
-        for n, r, text, _ in cells:
-            data = text.encode("ascii")
-            spill.write(data)
-            at = (n - first_n) * width + (r - first_r)
-            offsets[at], lengths[at] = position, len(data)
-            position += len(data)
-        spill.flush()
-        if spilled is not None:
-            spilled(position)
+    with tempfile.TemporaryFile() as handle:
+        spill = _Spill(spec, cells, handle)
         for row, n in enumerate(spec.balls):
-            base = row * width
-            values: List[Optional[str]] = []
-            for at in range(base, base + width):
-                where = int(offsets[at])
-                if where < 0:
-                    values.append(None)
-                    continue
-                spill.seek(where)
-                values.append(spill.read(int(lengths[at])).decode("ascii"))
-            yield n, values
+            base = row * spill.width
+            values = [spill.read(at) for at in range(base, base + spill.width)]
+            yield n, [None if v is None else v.decode("ascii") for v in values]
 
 
 def _wide_lines(name: str, spec: TableSpec, missing: Callable[[], int], cells: Callable[[], Iterator[Cell]],
@@ -975,38 +984,55 @@ def export_parquet(table: Union[StoredTable, TableData], path, layout: str = "lo
     for r in spec.urns:
         fields += [(f"urns={r}", pa.string()), (f"urns={r}_approx", pa.float64())]
     schema = pa.schema(fields)
-    with pq.ParquetWriter(str(path), schema, use_dictionary=False,
-                          write_statistics=False) as writer:
-        group_rows: List[Tuple[int, List[Optional[str]]]] = []
-        digits = 0
-        budget = [4 * PARQUET_DIGITS]
+    with tempfile.TemporaryFile() as handle, pq.ParquetWriter(str(path), schema, use_dictionary=False,
+                                                             write_statistics=False) as writer:
+        import numpy as np
 
-        def size_groups(total: int) -> None:
-            # pyarrow keeps about 2 KB of metadata per column chunk until the file is
-            # closed, and a group holds about 3 copies of its digits: G groups of C
-            # columns cost about G C 2000 + 3 total / G bytes, least at this G
-            groups = max(1, round(math.sqrt(3 * total / (len(fields) * 2000))))
-            budget[0] = max(PARQUET_DIGITS, math.ceil(total / groups))
-
-        def flush_wide():
-            arrays = [pa.array(numbers([n for n, _ in group_rows]), number)]
-            for j in range(len(spec.urns)):
-                column = [values[j] for _, values in group_rows]
-                arrays.append(pa.array(column, pa.string()))
-                arrays.append(pa.array([None if v is None else value_approx(v) for v in column], pa.float64()))
-            writer.write_batch(pa.record_batch(arrays, schema=schema))
-
-        for n, values in wide_rows(spec, cells(), size_groups):
-            group_rows.append((n, values))
-            digits += sum(len(v) for v in values if v is not None)
-            if len(group_rows) >= PARQUET_ROWS or digits >= budget[0]:
-                flush_wide()
-                written += len(group_rows)
-                group_rows, digits = [], 0
-        if group_rows:
-            flush_wide()
-            written += len(group_rows)
+        spill = _Spill(spec, cells(), handle)
+        # pyarrow keeps about 2 KB of metadata per column chunk until the file is closed,
+        # and a group is held about twice (Arrow's columns, the writer's pages): G groups
+        # of C columns cost about G C 2000 + 2 total / G bytes, least at this G
+        groups = max(1, round(math.sqrt(2 * spill.total / (len(fields) * 2000))))
+        budget = min(1 << 30, max(PARQUET_DIGITS, math.ceil(spill.total / groups)))
+        row_digits = spill.lengths.reshape(len(spec.balls), spill.width).sum(axis=1, dtype=np.int64).tolist()
+        start = 0
+        while start < len(spec.balls):
+            stop, digits = start + 1, row_digits[start]
+            while stop < len(spec.balls) and stop - start < PARQUET_ROWS and digits + row_digits[stop] <= budget:
+                digits += row_digits[stop]
+                stop += 1
+            writer.write_batch(_wide_group(pa, schema, spill, spec, start, stop, numbers(list(spec.balls[start:stop]))))
+            written += stop - start
+            start = stop
     return written
+
+
+def _wide_group(pa, schema, spill: _Spill, spec: TableSpec, start: int, stop: int, balls: list):
+    """The rows ``start..stop-1`` of the matrix as one Arrow record batch, built from the spilled bytes.
+
+    Each value column is one Arrow buffer of the texts read from the spill
+    file (no Python string per cell), with its offsets and validity
+    computed by NumPy; the approximations are one float array per column.
+    """
+    import numpy as np
+
+    rows = stop - start
+    arrays = [pa.array(balls, schema.field(0).type)]
+    base = np.arange(start, stop, dtype=np.int64) * spill.width
+    for j in range(spill.width):
+        at = base + j
+        present = spill.offsets[at] >= 0
+        texts = [spill.read(int(i)) for i in at[present]]
+        ends = np.zeros(rows + 1, dtype=np.int32)
+        ends[1:] = np.cumsum(np.where(present, spill.lengths[at], 0), dtype=np.int64)
+        missing = rows - len(texts)
+        validity = None if not missing else pa.py_buffer(np.packbits(present, bitorder="little"))
+        arrays.append(pa.StringArray.from_buffers(rows, pa.py_buffer(ends), pa.py_buffer(b"".join(texts)),
+                                                  validity, missing))
+        approx = np.zeros(rows, dtype=np.float64)
+        approx[present] = [value_approx(text) for text in texts]
+        arrays.append(pa.array(approx, mask=~present))
+    return pa.record_batch(arrays, schema=schema)
 
 
 def _latex_escape(text: str) -> str:
