@@ -699,7 +699,13 @@ def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
         the exact value in full and its number of digits (the column that
         makes huge values readable at a glance); ``wide``: the ``n x r``
         matrix, one line per ``n`` and one column per ``r`` (a cell not
-        stored is empty, or ``null`` in JSON).
+        stored is empty, or ``null`` in JSON).  Long JSON is the
+        definition (``name``, ``rule``, ``quantity``, ``minimum``,
+        ``capacity``, ``balls`` and ``urns`` as ``{"first", "last"}``,
+        ``missing``) and ``cells``: ``[{"balls", "urns", "value",
+        "digits"}]``; wide JSON is the same definition with ``"layout":
+        "wide"``, ``columns`` (the ``r``) and ``rows``: ``[{"balls",
+        "values"}]``.
 
     Yields
     ------
