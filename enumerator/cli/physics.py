@@ -128,7 +128,7 @@ def levels_command(
         Optional[str],
         _levels_opt("--temperatures", "Canonical results at these k_B T, in the energy unit (the level "
                     "spacing for harmonic/trap/einstein): a list 0.5,1,2; a range 1..20 (step 1); "
-                    "0.1..20:40 (40 points, linear); 0.1..20:40:log (geometric).", _THERMO, "T1,T2,..|A..B:K"),
+                    "0.1..20:40 (40 points, linear); 0.1..20:40:log (geometric).", _THERMO, "T1,T2|A..B:K"),
     ] = None,
     factor: Annotated[
         Optional[str],
@@ -148,7 +148,7 @@ def levels_command(
                     "particle-hole expansion, the rest by the Borrmann-Franke recursion), recursion, "
                     "particle-hole (FD only), float (BE only: double precision with rigorous error bounds "
                     "in the output, for N = 10^4 and more: 0.2 s per temperature).", _THERMO,
-                    "auto|recursion|particle-hole|float"),
+                    "ROUTE"),
     ] = "auto",
     digits: Annotated[
         int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath).", _THERMO)
