@@ -322,7 +322,7 @@ def test_the_interrupt_message_counts_the_cells_stored(where, monkeypatch):
 
 # -- the same reads on PostgreSQL ------------------------------------------------------------
 
-def test_streamed_reads_on_postgresql(postgres_url, small_batches):
+def test_streamed_reads_on_postgresql(postgres_url, small_batches, monkeypatch):
     # a throw-away server (tests/conftest.py); skipped when none can be started.  n and r
     # cross 1-, 2- and 3-digit numbers: the text comparisons must order them numerically
     # whatever the database's collation
@@ -339,3 +339,10 @@ def test_streamed_reads_on_postgresql(postgres_url, small_batches):
     assert table.stored(balls=range(95, 200), urns=range(10, 11)) == 9
     rows = dict(tables.wide_rows(spec, table.cells()))
     assert rows[100] == [str(_stars_and_bars(100, r)) for r in range(8, 13)]
+    # cache export: a server-side cursor read two rows at a time
+    from enumerator.store import database
+
+    monkeypatch.setattr(database, "ENTRY_BATCH", 2)
+    exported = list(csv.DictReader(io.StringIO("".join(results.open_store(postgres_url).export_lines("csv")))))
+    assert len(exported) == 485
+    assert all(row["value"] == str(_stars_and_bars(int(row["balls"]), int(row["urns"]))) for row in exported)
