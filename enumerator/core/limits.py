@@ -203,14 +203,15 @@ def _size_text(value: float) -> str:
 
 
 def _time_text(value: float) -> str:
-    if value >= 86400 * 365:
-        return f"{value / (86400 * 365):.3g} years"
-    if value >= 86400:
-        return f"{value / 86400:.3g} days"
-    if value >= 3600:
-        return f"{value / 3600:.3g} hours"
-    if value >= 60:
-        return f"{value / 60:.3g} minutes"
+    """A duration in its largest whole unit, singular where the number is exactly 1.
+
+    >>> _time_text(60), _time_text(600), _time_text(90), _time_text(86400 * 730)
+    ('1 minute', '10 minutes', '1.5 minutes', '2 years')
+    """
+    for unit, scale in (("year", 86400 * 365), ("day", 86400), ("hour", 3600), ("minute", 60)):
+        if value >= scale:
+            number = f"{value / scale:.3g}"
+            return f"{number} {unit}" if number == "1" else f"{number} {unit}s"
     return f"{value:.3g} s"
 
 
