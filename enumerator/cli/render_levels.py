@@ -264,8 +264,10 @@ def levels_payload(
         ``*_approx`` fields; with an occupation law its ``"occupation_law_approx"``
         ``{"k": P}``, mean and variance, and with a Boltzmann factor the exact
         ``"occupation_law"`` ``{"k": "p/q"}``, ``"occupation_mean"`` and
-        ``"occupation_variance"``; no grand-canonical fields for an Einstein
-        solid) and ``"microcanonical"`` when given.
+        ``"occupation_variance"``; ``"route"`` names the method and the float
+        route adds its rigorous ``"error_bound_approx"``; no grand-canonical
+        fields for an Einstein solid) and ``"microcanonical"`` when given;
+        ``"multiplicity_omitted"`` says why a refused table is missing.
 
     Notes
     -----
