@@ -120,6 +120,14 @@ def test_json_export_streams_the_same_document(where):
     assert streamed == tables.export_table(tables.load_table("sites", store=where), "json")
 
 
+def test_json_keeps_a_table_name_as_written(where):
+    tables.build_table(tables.TableSpec.make("BE", "0..2", "1..2"), store=where, name="étagères")
+    table = tables.open_table("étagères", store=where)
+    for layout in ("long", "wide"):
+        text = tables.export_table(table, "json", layout)
+        assert text.startswith('{"name": "étagères", ') and json.loads(text)["name"] == "étagères"
+
+
 def test_a_damaged_cell_stops_the_stream(where):
     tables.build_table(tables.TableSpec.make("BE", "0..20", "1..3"), store=where, name="shelves")
     with sqlite3.connect(where) as conn:

@@ -738,7 +738,7 @@ def export_lines(table: Union[StoredTable, TableData], fmt: str = "csv",
         yield from _wide_lines(name, spec, missing, cells, fmt)
         return
     if fmt == "json":
-        head = json.dumps(_json_head(name, spec, missing()))
+        head = json.dumps(_json_head(name, spec, missing()), ensure_ascii=False)
         yield head[:-1] + ', "cells": ['
         first = True
         for n, r, text, digits in cells():
@@ -842,7 +842,7 @@ def _wide_lines(name: str, spec: TableSpec, missing: Callable[[], int], cells: C
     rows = wide_rows(spec, cells())
     if fmt == "json":
         head = dict(_json_head(name, spec, missing()), layout="wide", columns=columns)
-        text = json.dumps(head)
+        text = json.dumps(head, ensure_ascii=False)
         yield text[:-1] + ', "rows": ['
         for i, (n, values) in enumerate(rows):
             row = json.dumps({"balls": str(n), "values": values})
