@@ -251,6 +251,9 @@ def test_fermions_far_below_the_fermi_temperature_in_json():
     low = payload["canonical"][0]
     assert 0 < low["mean_energy_approx"] - e0 < 1
     assert low["heat_capacity_approx"] > 0
+    for entry in payload["canonical"]:
+        assert entry["ground_energy"] == str(e0)
+        assert entry["excitation_energy_approx"] == pytest.approx(entry["mean_energy_approx"] - e0, rel=1e-9)
 
 
 def test_law_plot_and_thermo_plot_are_png_files(tmp_path):

@@ -206,6 +206,8 @@ def test_particle_hole_route_agrees_with_the_recursion_at_high_precision():
         assert all(abs(x - y) < mpmath.mpf(10) ** -27 * 100 for x, y in zip(a.occupations_approx, b.occupations_approx))
         assert abs(a.occupation_above_approx - b.occupation_above_approx) < mpmath.mpf(10) ** -25
         assert abs(a.ground_occupation_variance_approx - b.ground_occupation_variance_approx) < mpmath.mpf(10) ** -25
+        assert a.ground_energy == b.ground_energy == 3 + 2 * 6 + 3 * 10 + 4 * 15  # 35 = 1+3+6+10+15: shells 0..4 full
+        assert abs(a.excitation_energy_approx - b.excitation_energy_approx) <= mpmath.mpf(10) ** -27 * b.excitation_energy_approx
 
 
 def test_auto_route_takes_particle_hole_far_below_the_fermi_temperature():

@@ -189,6 +189,8 @@ def _entry(system: System, p: CanonicalPoint, law, factor) -> dict:
         "entropy_approx": float(p.entropy_approx),
         "ln_partition_function_approx": float(p.ln_partition_function_approx),
         "energy_variance_approx": float(p.energy_variance_approx),
+        "ground_energy": None if p.ground_energy is None else exact(p.ground_energy),
+        "excitation_energy_approx": _float(p.excitation_energy_approx),
         "occupation_approx": [float(x) for x in p.occupations_approx],
         "occupation_above_approx": _float(p.occupation_above_approx),
         "ground_occupation_variance_approx": _float(p.ground_occupation_variance_approx),
@@ -388,6 +390,8 @@ def show_levels(
             quantities = [
                 ["ln Z", _float_cell(p.ln_partition_function_approx)],
                 ["mean energy U", _float_cell(p.mean_energy_approx)],
+                ["U - E_0 (E_0 = ground energy " + ("-" if p.ground_energy is None else exact(p.ground_energy)) + ")",
+                 _float_cell(p.excitation_energy_approx)],
                 ["heat capacity C", _float_cell(p.heat_capacity_approx)],
                 ["free energy F", _float_cell(p.free_energy_approx)],
                 ["entropy S", _float_cell(p.entropy_approx)],

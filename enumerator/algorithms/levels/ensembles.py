@@ -211,7 +211,9 @@ class CanonicalPoint:
     when not computed or meaningless (an Einstein solid's oscillators are
     localised: no reservoir exchanges them).  ``occupation_above_approx`` is
     the mean number of particles above the listed levels (the listed
-    occupations plus it make ``N``); ``ground_occupation_variance_approx``
+    occupations plus it make ``N``); ``excitation_energy_approx`` is
+    ``U - E_0`` above the exact ``ground_energy`` ``E_0`` (computed from the
+    energy moment, not by subtracting ``U``); ``ground_occupation_variance_approx``
     is ``⟨δn_0^2⟩`` of listed level 0 (on the particle-hole route from the law
     of level 0; ``None`` when level 0 shares its energy with another level),
     beside the grand-canonical ``grand_canonical_ground_variance_approx``.
@@ -234,6 +236,8 @@ class CanonicalPoint:
     chemical_potential_approx: Optional[mpmath.mpf] = None
     grand_canonical_occupations_approx: Optional[Tuple[mpmath.mpf, ...]] = None
     occupation_above_approx: Optional[mpmath.mpf] = None
+    excitation_energy_approx: Optional[mpmath.mpf] = None
+    ground_energy: Optional[Fraction] = None
     ground_occupation_variance_approx: Optional[mpmath.mpf] = None
     grand_canonical_ground_variance_approx: Optional[mpmath.mpf] = None
     grand_canonical_mean_energy_approx: Optional[mpmath.mpf] = None
@@ -564,7 +568,7 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
             lnZ = -energy / T
             occ = [mpmath.mpf(system.capacity * g) for g in spectrum.degeneracies[:count]]
             zero = mpmath.mpf(0)
-            extras = {"above": n - mpmath.fsum(occ), "ground_variance": zero}
+            extras = {"above": n - mpmath.fsum(occ), "ground_variance": zero, "excitation": zero}
             with mpmath.workdps(digits):
                 return +lnZ, +energy, zero, +energy, zero, tuple(occ), extras
     target = math.ceil(digits * math.log2(10))
@@ -666,7 +670,9 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
             C = u * u * var / (T * T)
             F = -T * lnZ
             S = lnZ + U / T
-            extras = {"above": n - mpmath.fsum(occ), "ground_variance": None}
+            # U - E_0 from the moment about n ε_min (no subtraction of U itself).
+            excitation = u * (m1 + shift_e - ground_energy(system))
+            extras = {"above": n - mpmath.fsum(occ), "ground_variance": None, "excitation": excitation}
             if count and n:
                 if ratios is None:  # MB: n_0 is binomial(N, <n_0>/N)
                     extras["ground_variance"] = occ[0] * (1 - occ[0] / n)
@@ -791,6 +797,7 @@ def canonical(
             lnZ, U, C, F, S, occ, extras = _canonical_float(system, temperature, count)
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
                                    occupation_above_approx=extras["above"],
+                                   excitation_energy_approx=extras["excitation"],
                                    ground_occupation_variance_approx=extras["ground_variance"],
                                    route="float", error_bounds=extras["bounds"])
         elif _particle_hole_pays(system, temperature, digits, route):
@@ -799,7 +806,9 @@ def canonical(
             lnZ, U, C, F, S, occ, extras = _canonical_at(system, temperature, digits, count, True)
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
                                    occupation_above_approx=extras["above"],
+                                   excitation_energy_approx=extras["excitation"],
                                    ground_occupation_variance_approx=extras["ground_variance"])
+        point = replace(point, ground_energy=ground_energy(system) * system.spectrum.unit)
         if system.spectrum.finite and count == len(system.spectrum.energies):
             point = replace(point, occupation_above_approx=mpmath.mpf(0))  # every level listed: nothing above
         if grand:
@@ -917,7 +926,7 @@ def _canonical_float(system: System, temperature: Fraction, count: int):
             g = spectrum.degeneracies[i]
             yk = np.exp(-b * e * k)
             occ.append(mpmath.mpf(g * float(dot(yk, R[1:]))))
-        extras = {"above": n - mpmath.fsum(occ), "ground_variance": None}
+        extras = {"above": n - mpmath.fsum(occ), "ground_variance": None, "excitation": u * m1}
         if count and n:
             e = spectrum.energies[0] - shift
             g = spectrum.degeneracies[0]
@@ -973,6 +982,7 @@ def _particle_hole_point(system: System, temperature: Fraction, digits: int, cou
             +p.heat_capacity_approx, +p.free_energy_approx, +p.entropy_approx,
             tuple(+x for x in p.occupations_approx),
             occupation_above_approx=+p.occupation_above_approx, route="particle-hole",
+            excitation_energy_approx=+p.excitation_energy_approx,
             ground_occupation_variance_approx=None if variance is None else +variance,
         )
 
