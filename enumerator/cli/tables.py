@@ -229,7 +229,7 @@ def table_build_command(
         Optional[int],
         typer.Option("--workers", min=1, metavar="K",
                      help="Compute the rows on a local Dask cluster of K processes "
-                          "(needs the 'cluster' extra: pip install 'enumerator[cluster]')."),
+                          "(needs Dask: the cluster extra of enumerator)."),
     ] = None,
     cluster: Annotated[
         Optional[str],
