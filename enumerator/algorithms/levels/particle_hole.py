@@ -31,7 +31,10 @@ The expansion
     carried with their energy-weighted companions (``(AB)_1 = A_1 B_0 + A_0 B_1``,
     ``(AB)_2 = A_2 B_0 + 2 A_1 B_1 + A_0 B_2``, all positive), and the
     occupation of one state from the same sums with that state's factor
-    removed (prefix and suffix products, never a division).
+    removed (prefix and suffix products, never a division).  The law of one
+    level's occupation (``law_level=``) restricts the same sums to ``k``
+    particles (or holes) in it: ``C(g, k) y^k`` times the sum with the whole
+    level's factor removed, shifted by ``k``.
 
 Arithmetic and error bound
     Ball arithmetic (FLINT's ``arb``/``arb_poly`` through python-flint;
