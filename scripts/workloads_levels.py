@@ -9,7 +9,7 @@
   Borrmann–Franke recursion in fixed point (``route="recursion"``, the only
   route before), estimated from smaller closed-shell systems when too slow.
 * ``levels-bosons-10^4-40T``: 10^4 bosons in the 3D trap at 40 temperatures
-  ``0.5..40`` (``--quick``: 4 temperatures): ``route="float"`` (the positive
+  ``0.5..40`` (``--quick``: 1200 bosons at 4 temperatures): ``route="float"`` (the positive
   recursion in double precision with rigorous bounds) against the exact
   fixed-point recursion (the default route), estimated from fewer particles
   when too slow.  The answers are compared to 6 significant digits.
@@ -73,7 +73,7 @@ def register(bench) -> None:
         from enumerator.algorithms.levels import canonical, make_system, parse_temperatures
 
         temps = parse_temperatures("0.5..40:4" if ctx.quick else "0.5..40:40")
-        n = 2000 if ctx.quick else 10_000
+        n = 1200 if ctx.quick else 10_000
 
         def run(size, route):
             system = make_system(size, preset="trap", rule="BE")
