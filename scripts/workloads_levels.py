@@ -3,7 +3,7 @@
 ``scripts/bench.py`` loads this file and calls :func:`register`.
 
 * ``levels-fermions-969-trap``: 969 fermions in the 3D harmonic trap (closed
-  shells 0..16) at ``k_B T = 0.1, 0.3, 1`` (``U``, ``C``, ``S`` and the
+  shells 0..16; ``--quick``: 120, shells 0..7) at ``k_B T = 0.1, 0.3, 1`` (``U``, ``C``, ``S`` and the
   occupations to 15 digits): the default route, which takes the
   particle-hole expansion far below the Fermi temperature, against the
   Borrmann–Franke recursion in fixed point (``route="recursion"``, the only
@@ -44,26 +44,28 @@ def register(bench) -> None:
         from enumerator.algorithms.levels import canonical, make_system
 
         temps = ["0.1", "0.3", "1"]
+        n = 120 if ctx.quick else 969  # quick: shells 0..7, where the recursion finishes in a second or two
 
         def run(n, route):
             system = make_system(n, preset="trap", rule="FD")
             return canonical(system, temps, digits=15, levels=3, grand=False, route=route)
 
         def ours():
-            return _rounded(run(969, "auto"))
+            return _rounded(run(n, "auto"))
 
-        def recursion(n=969):
-            return _rounded(run(n, "recursion"))
+        def recursion(size=n):
+            return _rounded(run(size, "recursion"))
 
         def scaled(s):
-            size = max(c for c in _CLOSED if c <= max(4, 969 * s))
+            size = max(c for c in _CLOSED if c <= max(4, n * s))
             return lambda: recursion(size)
 
         return ctx.compare(Method("enumerator (auto: particle-hole)", ours),
                            [Method("Borrmann-Franke recursion, fixed point", recursion, scaled=scaled,
                                    normalise=lambda x: x)],
                            items=3,
-                           notes=["answer: U, C, S and three occupations at each temperature, 6 digits"])
+                           notes=[f"{n} fermions; answer: U, C, S and three occupations at each temperature, "
+                                  "6 digits"])
 
     @bench.workload("levels-bosons-10^4-40T",
                     "canonical 10^4 bosons in the 3D trap at 40 temperatures (quick: 4): float route with "
