@@ -209,10 +209,10 @@ def _mb_max_plan(n: int, r: int, first: int, last: int):
 def mb_max_estimate(n: int, r: int, top: int) -> Tuple[float, int]:
     """Estimated ``(seconds, bytes)`` of :func:`mb_max_cumulative` (the plan of :func:`_mb_max_plan`, priced).
 
-    One unit of the plan costs about ``max(0.6, 5.9e-5 b - 0.78)``
-    microseconds on numbers of ``b = n log2 r`` bits: fitted to measured
-    runs at ``b`` = 10,000 to 50,000 (MB ``n`` = 1000 to 5000, ``r`` = 500
-    and 1024: 0.44 to 2.2 us per unit).  The suffix sums above ``n/2`` cost
+    One unit of the plan costs about ``max(0.16, 1.45e-5 b - 0.03)``
+    microseconds of CPU on numbers of ``b = n log2 r`` bits: fitted to
+    measured runs at ``b`` = 10,000 to 50,000 (MB ``n`` = 1000 to 5000,
+    ``r`` = 500 and 1024: 0.16 to 0.69 us per unit, 0.3 to 28 s of CPU).  The suffix sums above ``n/2`` cost
     ``n`` steps.  Memory: the answers (``n`` numbers of ``b`` bits), two
     level rows and the largest set of level tails kept for extensions.
     Planning is ``O(n)`` small-number work (0.1 s at ``n = 10^4``).
@@ -223,7 +223,7 @@ def mb_max_estimate(n: int, r: int, top: int) -> Tuple[float, int]:
     bits = n * math.log2(r)
     plan = _mb_max_plan(n, r, lo, min(top, n // 2 - 1))
     units = sum(step[3] for step in plan)
-    per_unit = max(0.6, 5.9e-5 * bits - 0.78) * 1e-6
+    per_unit = max(0.16, 1.45e-5 * bits - 0.03) * 1e-6
     kept = 0
     for m, D, miller, _ in plan:
         if not miller and D > 1:
