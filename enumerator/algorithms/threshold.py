@@ -467,9 +467,9 @@ def _proved_no_collision(model: UrnModel, vary: str, node: Event, goal: Fraction
     probabilities (``~ n log2 r`` bits).
     """
     rule = model.rule.value
+    if goal >= 1:
+        return None  # only certainty reaches it: the exact search settles the edge
     if vary == "balls":
-        if goal >= 1:
-            return None
         q = 1 - goal
 
         def sizes(v):
@@ -524,6 +524,8 @@ def _proved_no_collision(model: UrnModel, vary: str, node: Event, goal: Fraction
         lo = v
         while True:
             hi = lo + step
+            if hi > SEARCH_CEILING:
+                return None
             got = reached(hi)
             if got is None:
                 return None
