@@ -175,3 +175,19 @@ def test_buckets_for_ten_thousand_keys_against_mpmath():
             return mpmath.exp(mpmath.loggamma(r + 1) - mpmath.loggamma(r - n + 1) - n * mpmath.log(r))
         assert none(t.value) >= mpmath.mpf("0.999") > none(t.value - 1)
     assert t.evaluations == 2  # the proved location leaves only the two exact probabilities to compute
+
+
+@pytest.mark.parametrize("q", ["1", "999/1000", "1/2", "1/3", "7/10", "1/1000000000", "3/1024"])
+def test_log_bounds_enclose_mpmath_logarithms(q):
+    import mpmath
+
+    from enumerator.algorithms.threshold import _log_bounds
+
+    q = Fraction(q)
+    with mpmath.workdps(60):
+        value = mpmath.log(mpmath.mpf(q.numerator) / q.denominator)  # mpmath at 60 digits (outside reference)
+        for K in (4, 16, 64):
+            lo, hi = _log_bounds(q, K)
+            assert mpmath.mpf(lo.numerator) / lo.denominator <= value + mpmath.mpf(10) ** -55
+            assert value <= mpmath.mpf(hi.numerator) / hi.denominator + mpmath.mpf(10) ** -55
+        assert hi - lo < Fraction(1, 10 ** 15)  # 64 terms pin it down
