@@ -244,8 +244,15 @@ def _stored_law(model: UrnModel, statistic: str, limit: int) -> dict:
 
 
 def register_recomputers() -> None:
-    """Tell the store how ``cache verify`` recomputes the laws and rows the facade remembers."""
+    """Tell the store how ``cache verify`` recomputes every quantity the facade remembers.
+
+    Laws (``distribution``), generating rows (``coefficient_row``) and event
+    probabilities (``event_probability``); counts and normalisers register
+    themselves when the counting kernel is imported.  Idempotent.
+    """
     from .store.keys import ALGORITHM_VERSIONS, recomputer, register_quantity
+
+    _register_event_probability()
 
     if recomputer("distribution") is None:
         def law(model, params):

@@ -571,11 +571,10 @@ def cache_verify_command(
         $ enumerator cache verify --sample 500 --seed 7
         $ enumerator cache verify --all --fix
     """
-    from ..facade import _register_event_probability, register_recomputers
+    from ..facade import register_recomputers
 
     # every quantity a command stores can then be recomputed, and so repaired by --fix
     register_recomputers()
-    _register_event_probability()
     from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
