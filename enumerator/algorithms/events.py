@@ -72,7 +72,9 @@ __all__ = [
     "Not",
     "Or",
     "Term",
+    "evaluate_block",
     "evaluate_event",
+    "event_needs_listing",
     "event_count",
     "event_probability",
     "parse_event",
@@ -446,22 +448,26 @@ class _Planner:
 _BLOCK = 1 << 16
 
 
-def _evaluate_block(node, block):
-    """*node* on every row of an integer numpy array of configurations."""
+def evaluate_block(node, block):
+    """*node* (a parsed event) on every row of an integer numpy array of configurations.
+
+    Returns a boolean numpy array, one entry per row; cost one vectorised
+    pass per comparison in the event.
+    """
     import numpy as np
 
     kind = type(node)
     if kind is Not:
-        return ~_evaluate_block(node.operand, block)
+        return ~evaluate_block(node.operand, block)
     if kind is And:
-        out = _evaluate_block(node.operands[0], block)
+        out = evaluate_block(node.operands[0], block)
         for x in node.operands[1:]:
-            out = out & _evaluate_block(x, block)
+            out = out & evaluate_block(x, block)
         return out
     if kind is Or:
-        out = _evaluate_block(node.operands[0], block)
+        out = evaluate_block(node.operands[0], block)
         for x in node.operands[1:]:
-            out = out | _evaluate_block(x, block)
+            out = out | evaluate_block(x, block)
         return out
     values = node.term.block_value(block)
     return np.asarray(OPS[node.op](values, node.value))
@@ -525,7 +531,7 @@ def _enumerate(model: UrnModel, node, text: str, limit: int, show: Optional[bool
                     found += len(hits)
             else:
                 arr = block.astype(np.int64)
-                mask = _evaluate_block(node, arr)
+                mask = evaluate_block(node, arr)
                 if weighted:
                     # the weight depends on the profile only: weigh each profile once
                     chosen = Statistic("profile").block_value(arr[mask])
@@ -574,6 +580,44 @@ def _enumerate_weighted(model: UrnModel, node, total: int, show: Optional[bool])
 # ---------------------------------------------------------------------------
 # public entry points
 # ---------------------------------------------------------------------------
+
+def event_needs_listing(model: UrnModel, event, limit: int = DEFAULT_LIMIT) -> bool:
+    """Whether the event planner would list the configurations to count *event* (no cluster helps otherwise).
+
+    Parameters
+    ----------
+    model : UrnModel
+    event : str or Event
+    limit : int
+        As for :func:`event_count`.
+
+    Returns
+    -------
+    bool
+        True when no exact shortcut applies and
+        :func:`event_count` would list every
+        configuration; False when the planner counts the event itself, and
+        also for a malformed request (an urn beyond ``r``, a model without
+        configurations), which the ordinary route then reports.
+
+    Notes
+    -----
+    Runs the planner of this module (its bounded
+    counts, inclusion–exclusion and single-statistic laws) without its
+    listing fallback, so it costs what the planner costs, not a listing.
+    """
+    node = parse_event(event)
+    r = model.urns
+    if any(c.term.entry.indexes_urns and c.term.parameter > r for c in comparisons(node)):
+        return False
+    if outcome_total(model) == 0:
+        return False
+    try:
+        _Planner(model, as_count(limit, "limit", 1)).count(model.groups, _normal_form(node, r))
+    except _Enumerate:
+        return True
+    return False
+
 
 def event_count(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_LIMIT,
                 progress: Optional[bool] = None) -> Tuple[int, int]:

@@ -302,7 +302,7 @@ def _event_on_cluster(model, event: str, limit: int, workers, cluster):
     Notes
     -----
     The event planner is run first without its listing fallback
-    (:func:`enumerator.store.cluster.event_needs_listing`); an event it
+    (:func:`enumerator.algorithms.events.event_needs_listing`); an event it
     counts by itself goes through the facade (and the store) as without the
     options.  Otherwise every configuration is listed on the cluster
     (:func:`enumerator.store.cluster.event_count_distributed`); that answer

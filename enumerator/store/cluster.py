@@ -19,9 +19,10 @@ shards and adds the exact integer sums, :func:`enumeration_counts_distributed`
 adds dicts of exact counts per value, and :func:`listing_to_files` has each
 shard written to its own file.  On top of these, :func:`event_count_distributed`
 and :func:`distribution_distributed` answer what the planner decides by
-listing; :func:`event_needs_listing` and :func:`distribution_needs_listing`
-tell, without listing, whether the single-process route would list (only
-then does a cluster help).  The cluster is a
+listing; :func:`~enumerator.algorithms.events.event_needs_listing` (the
+event planner's own probe, re-exported here) and
+:func:`distribution_needs_listing` tell, without listing, whether the
+single-process route would list (only then does a cluster help).  The cluster is a
 :class:`distributed.LocalCluster` of ``workers`` processes started here, or
 an existing scheduler at ``cluster`` (``"tcp://host:8786"``), or a
 :class:`distributed.Client` the caller holds.
@@ -50,12 +51,12 @@ import gmpy2
 
 from ..algorithms import laws
 from ..algorithms.counting import count_configurations, exact_fraction
-from ..algorithms.event_language import comparisons, evaluate, parse_event
-from ..algorithms.events import _Enumerate, _evaluate_block, _normal_form, _Planner
+from ..algorithms.event_language import evaluate, parse_event
+from ..algorithms.events import evaluate_block, event_needs_listing
 from ..algorithms.grouped import integer_groups
 from ..algorithms.laws import outcome_total
 from ..algorithms.listing import iter_blocks
-from ..algorithms.statistics import DEFAULT_LIMIT, Distribution, Statistic, parse_statistic
+from ..algorithms.statistics import Distribution, Statistic, parse_statistic
 from ..core import limits
 from ..core.errors import InvalidParameters, TooLarge
 from ..core.limits import Cost
@@ -707,7 +708,7 @@ class EventWeight(_BlockWeights):
             import numpy as np
 
             arr = block.astype(np.int64)
-            mask = _evaluate_block(self.event, arr)
+            mask = evaluate_block(self.event, arr)
             if not self.model.rule.distinguishable:
                 return int(mask.sum())
             return int(sum((self.weight(p) * t for p, t in self.by_profile(arr[mask])), gmpy2.mpz(0)))
@@ -800,44 +801,6 @@ def event_count_distributed(model: UrnModel, event, *, limit: Optional[int] = No
     _, check = _listing_check(model, f"the event {str(node)!r}", limit)
     return enumeration_sum_distributed(model, EventWeight(model, node), before=check, **options), \
         int(outcome_total(model))
-
-
-def event_needs_listing(model: UrnModel, event, limit: int = DEFAULT_LIMIT) -> bool:
-    """Whether the event planner would list the configurations to count *event* (no cluster helps otherwise).
-
-    Parameters
-    ----------
-    model : UrnModel
-    event : str or Event
-    limit : int
-        As for :func:`~enumerator.algorithms.events.event_count`.
-
-    Returns
-    -------
-    bool
-        True when no exact shortcut applies and
-        :func:`~enumerator.algorithms.events.event_count` would list every
-        configuration; False when the planner counts the event itself, and
-        also for a malformed request (an urn beyond ``r``, a model without
-        configurations), which the ordinary route then reports.
-
-    Notes
-    -----
-    Runs the planner of :mod:`enumerator.algorithms.events` (its bounded
-    counts, inclusion–exclusion and single-statistic laws) without its
-    listing fallback, so it costs what the planner costs, not a listing.
-    """
-    node = parse_event(event)
-    r = model.urns
-    if any(c.term.entry.indexes_urns and c.term.parameter > r for c in comparisons(node)):
-        return False
-    if outcome_total(model) == 0:
-        return False
-    try:
-        _Planner(model, as_count(limit, "limit", 1)).count(model.groups, _normal_form(node, r))
-    except _Enumerate:
-        return True
-    return False
 
 
 def _marked_window(stat: Statistic, r: int):
