@@ -30,6 +30,44 @@ def pytest_unconfigure(config):
         shutil.rmtree(_STORE_DIR, ignore_errors=True)
 
 
+# -- Result stores ---------------------------------------------------------------
+# Store-isolation fixtures shared by the test modules; a module opts in with
+# ``pytestmark = pytest.mark.usefixtures("private_store")`` (or one of the others).
+
+@pytest.fixture
+def private_store(monkeypatch, tmp_path):
+    """A fresh default store, ``default.sqlite`` in the test's own folder, with caching on.
+
+    Every open store is closed before and after the test.
+    """
+    from enumerator import store as results
+
+    monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
+    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
+    results.close_all()
+    yield
+    results.close_all()
+
+
+@pytest.fixture
+def no_configured_store(monkeypatch):
+    """No store named by the environment and caching on; every open store is closed after the test."""
+    from enumerator import store as results
+
+    monkeypatch.delenv(results.ENV_STORE, raising=False)
+    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
+    yield
+    results.close_all()
+
+
+@pytest.fixture(scope="module")
+def no_cache():
+    """Pure computations: keep a whole module out of any result store (``ENUMERATOR_NO_CACHE=1``)."""
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("ENUMERATOR_NO_CACHE", "1")
+        yield
+
+
 # -- PostgreSQL ----------------------------------------------------------------
 # The store's PostgreSQL tests (tests/test_store_postgres.py) run against a
 # real server: the one ENUMERATOR_TEST_POSTGRES_URL names, else a throw-away

@@ -35,13 +35,7 @@ from enumerator.algorithms.asymptotics import (
     sweep,
 )
 
-
-@pytest.fixture(autouse=True, scope="module")
-def _no_store():
-    """These are pure computations: keep them out of any result store."""
-    with pytest.MonkeyPatch.context() as patch:
-        patch.setenv("ENUMERATOR_NO_CACHE", "1")
-        yield
+pytestmark = pytest.mark.usefixtures("no_cache")  # pure computations: no result store (conftest.py)
 
 
 def rows_of(name, vary, **fixed):

@@ -25,13 +25,7 @@ from sympy.functions.combinatorial.numbers import stirling
 from enumerator import store as results
 from enumerator.store import tables
 
-
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch, tmp_path):
-    monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("private_store")  # a fresh default store per test (conftest.py)
 
 
 @pytest.fixture

@@ -41,13 +41,7 @@ from enumerator.cli.render_compare import CSV_COLUMNS, comparisons_payload, stre
 from enumerator.core.errors import InvalidParameters, TooLarge
 from enumerator.core.limits import limited
 
-
-@pytest.fixture(autouse=True, scope="module")
-def _no_store():
-    """Pure computations: keep them out of any result store."""
-    with pytest.MonkeyPatch.context() as patch:
-        patch.setenv("ENUMERATOR_NO_CACHE", "1")
-        yield
+pytestmark = pytest.mark.usefixtures("no_cache")  # pure computations: no result store (conftest.py)
 
 
 # ---------------------------------------------------------------------------

@@ -33,13 +33,7 @@ from enumerator import Occupancy, StoreError
 from enumerator import store as results
 from enumerator.store import migrations, schema, tables
 
-
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch):
-    monkeypatch.delenv(results.ENV_STORE, raising=False)
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
 
 
 #: The schema the synthetic steps start from (the one this code writes).

@@ -29,14 +29,7 @@ from enumerator.store import context as store_context
 from enumerator.store import database as store_database
 from enumerator.store import keys as store_keys
 
-
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch):
-    """Each test starts with no configured store and no environment overrides."""
-    monkeypatch.delenv(results.ENV_STORE, raising=False)
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
 
 
 @pytest.fixture

@@ -25,14 +25,7 @@ from enumerator.store import context as store_context
 from enumerator.store import quick
 from enumerator.store.keys import Key
 
-
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch, tmp_path):
-    monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    results.close_all()
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("private_store")  # a fresh default store per test (conftest.py)
 
 
 def _filled(path, cases=((5, 3), (7, 4), (40, 6))):

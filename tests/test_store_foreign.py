@@ -39,13 +39,7 @@ ROOT = hasattr(os, "geteuid") and os.geteuid() == 0
 needs_permissions = pytest.mark.skipif(ROOT, reason="chmod does not bite for root")
 
 
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch, tmp_path):
-    monkeypatch.setenv(results.ENV_STORE, str(tmp_path / "default.sqlite"))
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    results.close_all()
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("private_store")  # a fresh default store per test (conftest.py)
 
 
 def _stars_and_bars(n: int, r: int) -> int:

@@ -40,14 +40,14 @@ from enumerator import store as results
 from enumerator.store import schema, tables
 from enumerator.store.keys import ALGORITHM_VERSIONS, Key
 
+pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
+
 
 @pytest.fixture(autouse=True)
-def _isolated(monkeypatch):
-    monkeypatch.delenv(results.ENV_STORE, raising=False)
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
+def _int_digits():
+    """Restore the interpreter's integer-text digit limit a test may raise."""
     digits = sys.get_int_max_str_digits()
     yield
-    results.close_all()
     sys.set_int_max_str_digits(digits)
 
 

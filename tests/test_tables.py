@@ -32,13 +32,7 @@ from enumerator import store as results
 from enumerator.algorithms.counting import count_configurations, count_microstates, count_profiles
 from enumerator.store import tables
 
-
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch):
-    monkeypatch.delenv(results.ENV_STORE, raising=False)
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    yield
-    results.close_all()
+pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
 
 
 @pytest.fixture
