@@ -7,7 +7,6 @@ import typer
 
 from ..core.model import as_count
 from .options import (
-    CLUSTER_PANEL,
     Balls,
     Bounds,
     Capacity,
@@ -28,6 +27,7 @@ from .options import (
     limits_scope,
     parse_config,
     store_scope,
+    workers_option,
 )
 from .render import approx, describe, emit_json, exact, show_table, write_sparse, write_vectors
 
@@ -35,6 +35,10 @@ __all__ = ["commands"]
 
 #: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
 commands = typer.Typer()
+
+#: ``list --workers``: the workers write the shards of ``--output-dir`` themselves.
+ListWorkers = workers_option("With --output-dir: list and write the shards on a local Dask cluster of K "
+                             "processes (needs Dask: the cluster extra of enumerator).")
 
 
 @commands.command("count")
@@ -609,17 +613,8 @@ def list_command(
                      help="With --output-dir: the number of files, equal rank ranges "
                      "(default: 4 per worker on a cluster, else 1)."),
     ] = None,
-    workers: Annotated[
-        Optional[int],
-        typer.Option("--workers", min=1, metavar="K", rich_help_panel=CLUSTER_PANEL,
-                     help="With --output-dir: list and write the shards on a local Dask cluster of K "
-                     "processes (needs Dask: the cluster extra of enumerator)."),
-    ] = None,
-    cluster: Annotated[
-        Optional[str],
-        typer.Option("--cluster", metavar="ADDRESS", rich_help_panel=CLUSTER_PANEL,
-                     help="As --workers, on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786."),
-    ] = None,
+    workers: ListWorkers = None,
+    cluster: ClusterAddress = None,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,
     as_json: Json = False,

@@ -212,27 +212,28 @@ EventLimit = Annotated[
 
 #: Help panel of the cluster options.
 CLUSTER_PANEL = "Cluster"
-Workers = Annotated[
-    Optional[int],
-    typer.Option(
-        "--workers",
-        min=1,
-        metavar="K",
-        help="Where the answer needs every configuration listed, list it on a local Dask cluster "
-        "of K processes, in equal shards of the rank range (needs Dask: the cluster extra of "
-        "enumerator). Where it does not, the answer is computed here and a note says so.",
-        rich_help_panel=CLUSTER_PANEL,
-    ),
-]
-ClusterAddress = Annotated[
-    Optional[str],
-    typer.Option(
-        "--cluster",
-        metavar="ADDRESS",
-        help="As --workers, on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786.",
-        rich_help_panel=CLUSTER_PANEL,
-    ),
-]
+
+
+def workers_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
+    """The ``--workers K`` option (``K >= 1``) with a command's own *help* text and help *panel*.
+
+    Commands whose workers do something other than :data:`Workers` says
+    (build table rows, write listing shards) declare their own alias with it.
+    """
+    return Annotated[Optional[int], typer.Option("--workers", min=1, metavar="K", help=help, rich_help_panel=panel)]
+
+
+def cluster_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
+    """The ``--cluster ADDRESS`` option with a command's own *help* text and help *panel*."""
+    return Annotated[Optional[str], typer.Option("--cluster", metavar="ADDRESS", help=help, rich_help_panel=panel)]
+
+
+Workers = workers_option(
+    "Where the answer needs every configuration listed, list it on a local Dask cluster "
+    "of K processes, in equal shards of the rank range (needs Dask: the cluster extra of "
+    "enumerator). Where it does not, the answer is computed here and a note says so."
+)
+ClusterAddress = cluster_option("As --workers, on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786.")
 
 
 class ListFormat(str, Enum):

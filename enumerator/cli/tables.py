@@ -16,7 +16,9 @@ from .options import (
     Minimum,
     RuleOpt,
     Store,
+    cluster_option,
     limits_scope,
+    workers_option,
 )
 from .render import abbreviate, console, emit_json, exact, show_table
 
@@ -35,6 +37,12 @@ cache_app = typer.Typer(
 )
 commands.add_typer(table_app, name="table")
 commands.add_typer(cache_app, name="cache")
+
+#: ``table build --workers/--cluster``: the rows are computed on the cluster (in the default help panel).
+BuildWorkers = workers_option("Compute the rows on a local Dask cluster of K processes "
+                              "(needs Dask: the cluster extra of enumerator).", panel=None)
+BuildCluster = cluster_option("Compute the rows on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786.",
+                              panel=None)
 
 BallsRange = Annotated[
     str,
@@ -225,17 +233,8 @@ def table_build_command(
         typer.Option("--name", help="Name of the table (default: made from its definition)."),
     ] = None,
     store: Store = None,
-    workers: Annotated[
-        Optional[int],
-        typer.Option("--workers", min=1, metavar="K",
-                     help="Compute the rows on a local Dask cluster of K processes "
-                          "(needs Dask: the cluster extra of enumerator)."),
-    ] = None,
-    cluster: Annotated[
-        Optional[str],
-        typer.Option("--cluster", metavar="ADDRESS",
-                     help="Compute the rows on the running Dask scheduler at ADDRESS, e.g. tcp://host:8786."),
-    ] = None,
+    workers: BuildWorkers = None,
+    cluster: BuildCluster = None,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,
     as_json: Json = False,
