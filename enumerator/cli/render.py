@@ -41,8 +41,10 @@ __all__ = [
     "describe",
     "emit_json",
     "exact",
+    "float_cell",
     "format_rows",
     "human",
+    "pyplot",
     "scientific",
     "show_table",
     "write_sparse",
@@ -125,6 +127,60 @@ def approx(value: Fraction) -> float:
     with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
         x = gmpy2.mpfr(gmpy2.mpq(numerator, denominator))
     return float(x)
+
+
+def float_cell(x) -> str:
+    """A table cell for an approximate value: 6 significant digits, ``-`` for none.
+
+    Parameters
+    ----------
+    x : float, mpmath number, Fraction or None
+
+    Returns
+    -------
+    str
+        ``format(float(x), ".6g")``, or ``"-"`` when *x* is None.
+    """
+    return "-" if x is None else f"{float(x):.6g}"
+
+
+#: The message of :func:`pyplot` when matplotlib is missing.
+PLOT_EXTRA = "plots need matplotlib: pip install 'enumerator[plot]'"
+
+
+def pyplot(missing: str = PLOT_EXTRA):
+    """matplotlib's pyplot on the non-interactive Agg backend, imported on first use.
+
+    Parameters
+    ----------
+    missing : str
+        The message of the error when matplotlib is not installed.
+
+    Returns
+    -------
+    module
+        ``matplotlib.pyplot``.
+
+    Raises
+    ------
+    Unsupported
+        matplotlib is not installed (the ``plot`` extra).
+
+    Notes
+    -----
+    The one place the command line loads matplotlib: the plots of ``levels``,
+    ``contact`` and ``compare`` draw without a display, into files.
+    """
+    try:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+    except ImportError:  # pragma: no cover - depends on the installation
+        from ..core.errors import Unsupported
+
+        raise Unsupported(missing) from None
+    return plt
 
 
 def scientific(value, significant: int = SIGNIFICANT) -> str:

@@ -32,8 +32,9 @@ import mpmath
 from ..algorithms.asymptotics import CATALOGUE, Comparison, Plan, Row, finish, float_or_text
 from ..algorithms.asymptotics.comparison import local_order
 from ..algorithms.asymptotics.formulas import to_mpf
-from ..core.errors import EnumeratorError, InvalidParameters, Unsupported
+from ..core.errors import EnumeratorError, InvalidParameters
 from ..core.exact import exact_text
+from .render import pyplot
 
 __all__ = [
     "CSV_COLUMNS",
@@ -653,13 +654,7 @@ def plot_comparisons(comparisons: Sequence[Comparison], path: str) -> None:
     matplotlib's non-interactive Agg backend (install the ``plot`` extra).
     Cost: linear in the number of rows, plus matplotlib's drawing.
     """
-    try:
-        import matplotlib
-
-        matplotlib.use("Agg", force=True)
-        import matplotlib.pyplot as plt
-    except ImportError:  # pragma: no cover - depends on the environment
-        raise Unsupported("--plot needs matplotlib; install enumerator[plot]") from None
+    plt = pyplot("--plot needs matplotlib; install enumerator[plot]")
     lines = []
     for comparison in comparisons:
         pairs = [

@@ -15,8 +15,7 @@ from typing import Dict, Optional, Sequence
 import mpmath
 
 from ..algorithms.levels import CanonicalPoint, MicroPoint, System
-from ..core.errors import Unsupported
-from .render import console, exact, show_table
+from .render import console, exact, float_cell, pyplot, show_table
 
 __all__ = [
     "levels_payload",
@@ -28,18 +27,6 @@ __all__ = [
 # --------------------------------------------------------------------------
 # Plots (matplotlib, Agg backend)
 # --------------------------------------------------------------------------
-def _pyplot():
-    """matplotlib's pyplot on the non-interactive Agg backend; :class:`Unsupported` without matplotlib."""
-    try:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
-    except ImportError:  # pragma: no cover - depends on the installation
-        raise Unsupported("plots need matplotlib: pip install 'enumerator[plot]'") from None
-    return plt
-
-
 def plot_levels(path, system: System, counts: Optional[Dict[int, int]], points: Sequence[CanonicalPoint] = (),
                 laws: Sequence = ()) -> None:
     """Save a PNG of what was computed, one panel each.
@@ -71,7 +58,7 @@ def plot_levels(path, system: System, counts: Optional[Dict[int, int]], points: 
     the number of energies, temperatures, levels and law entries, plus
     matplotlib's drawing (Agg backend).
     """
-    plt = _pyplot()
+    plt = pyplot()
     panels = []
     if counts:
         panels.append("counts")
@@ -300,11 +287,6 @@ def levels_payload(
 # --------------------------------------------------------------------------
 # Tables for people
 # --------------------------------------------------------------------------
-def _float_cell(x) -> str:
-    """A table cell for an approximate value: 6 significant digits, ``-`` for none."""
-    return "-" if x is None else f"{float(x):.6g}"
-
-
 def show_levels(
     system: System,
     counts: Optional[Dict[int, int]],
@@ -354,8 +336,8 @@ def show_levels(
         out.print(f"multiplicities left out: {omitted}")
     if counts is not None or micro is not None:
         if micro is not None:
-            rows = [[exact(m.energy * unit), exact(m.multiplicity), _float_cell(m.ln_multiplicity_approx),
-                     _float_cell(m.temperature_approx)] for m in micro]
+            rows = [[exact(m.energy * unit), exact(m.multiplicity), float_cell(m.ln_multiplicity_approx),
+                     float_cell(m.temperature_approx)] for m in micro]
             columns = ["E", "Ω(N, E)", "ln Ω (approx)", "T (approx)"]
         else:
             rows = [[exact(e * unit), exact(v)] for e, v in counts.items()]
@@ -375,12 +357,12 @@ def show_levels(
         columns = ["k_B T", "U", "C", "S", "<n_0>", "<δn_0²>"] + (["<δn_0²> gc"] if reservoir else [])
         rows = []
         for p in points:
-            row = [_float_cell(p.temperature), _float_cell(p.mean_energy_approx), _float_cell(p.heat_capacity_approx),
-                   _float_cell(p.entropy_approx),
-                   _float_cell(p.occupations_approx[0] if p.occupations_approx else None),
-                   _float_cell(p.ground_occupation_variance_approx)]
+            row = [float_cell(p.temperature), float_cell(p.mean_energy_approx), float_cell(p.heat_capacity_approx),
+                   float_cell(p.entropy_approx),
+                   float_cell(p.occupations_approx[0] if p.occupations_approx else None),
+                   float_cell(p.ground_occupation_variance_approx)]
             if reservoir:
-                row.append(_float_cell(p.grand_canonical_ground_variance_approx))
+                row.append(float_cell(p.grand_canonical_ground_variance_approx))
             rows.append(row)
         show_table(f"Canonical ensemble: {system.label}", columns, rows)
     else:
@@ -388,20 +370,20 @@ def show_levels(
             out.print()
             at = f"T = {float(p.temperature):g}" + ("" if x is None else f" (Boltzmann factor {x})")
             quantities = [
-                ["ln Z", _float_cell(p.ln_partition_function_approx)],
-                ["mean energy U", _float_cell(p.mean_energy_approx)],
+                ["ln Z", float_cell(p.ln_partition_function_approx)],
+                ["mean energy U", float_cell(p.mean_energy_approx)],
                 ["U - E_0 (E_0 = ground energy " + ("-" if p.ground_energy is None else exact(p.ground_energy)) + ")",
-                 _float_cell(p.excitation_energy_approx)],
-                ["heat capacity C", _float_cell(p.heat_capacity_approx)],
-                ["free energy F", _float_cell(p.free_energy_approx)],
-                ["entropy S", _float_cell(p.entropy_approx)],
-                ["energy fluctuation <δE²>", _float_cell(p.energy_variance_approx)],
-                ["level 0 fluctuation <δn_0²>", _float_cell(p.ground_occupation_variance_approx)],
+                 float_cell(p.excitation_energy_approx)],
+                ["heat capacity C", float_cell(p.heat_capacity_approx)],
+                ["free energy F", float_cell(p.free_energy_approx)],
+                ["entropy S", float_cell(p.entropy_approx)],
+                ["energy fluctuation <δE²>", float_cell(p.energy_variance_approx)],
+                ["level 0 fluctuation <δn_0²>", float_cell(p.ground_occupation_variance_approx)],
             ]
             if reservoir:
                 quantities += [
-                    ["chemical potential (grand canonical)", _float_cell(p.chemical_potential_approx)],
-                    ["level 0 fluctuation (grand canonical)", _float_cell(p.grand_canonical_ground_variance_approx)],
+                    ["chemical potential (grand canonical)", float_cell(p.chemical_potential_approx)],
+                    ["level 0 fluctuation (grand canonical)", float_cell(p.grand_canonical_ground_variance_approx)],
                 ]
             show_table(f"Canonical ensemble at {at} ({p.route})", ["quantity", "value (approx)"], quantities)
             gc = p.grand_canonical_occupations_approx if reservoir else None
@@ -411,26 +393,26 @@ def show_levels(
                 ["level energy", "g", "canonical", "grand canonical", "difference"],
                 [
                     [exact(_level_energy(system, i)), str(_level_degeneracy(system, i)),
-                     _float_cell(c), _float_cell(g), _float_cell(None if g is None else c - g)]
+                     float_cell(c), float_cell(g), float_cell(None if g is None else c - g)]
                     for i, (c, g) in enumerate(zip(p.occupations_approx, gc))
                 ],
             )
             if p.occupation_above_approx is not None and abs(p.occupation_above_approx) > 10 ** -min(p.digits, 12) * system.particles:
-                out.print(f"above the listed levels: {_float_cell(p.occupation_above_approx)} of "
+                out.print(f"above the listed levels: {float_cell(p.occupation_above_approx)} of "
                           f"{system.particles} particles (list more with --report-levels)")
     for law in laws or ():
         out.print()
         exact_law = law.exact
         at = f"T = {float(law.temperature):g}" + ("" if law.factor is None else f" (Boltzmann factor {law.factor})")
         peak = max(float(q) for q in law.law)
-        rows = [[str(k), exact(q) if exact_law else _float_cell(q)] + ([_float_cell(q)] if exact_law else [])
+        rows = [[str(k), exact(q) if exact_law else float_cell(q)] + ([float_cell(q)] if exact_law else [])
                 for k, q in enumerate(law.law) if float(q) >= 1e-6 * peak]
         columns = ["k", "P(n = k)" + ("" if exact_law else " (approx)")] + (["(approx)"] if exact_law else [])
         show_table(f"Occupation law of level {law.level} at {at} (rows with P >= 1e-6 of the peak)", columns, rows)
-        line = f"mean {_float_cell(law.mean)}, variance {_float_cell(law.variance)}"
+        line = f"mean {float_cell(law.mean)}, variance {float_cell(law.variance)}"
         if law.grand_canonical_variance_approx is not None:
-            line += (f"; grand canonical: mean {_float_cell(law.grand_canonical_mean_approx)}, "
-                     f"variance {_float_cell(law.grand_canonical_variance_approx)}")
+            line += (f"; grand canonical: mean {float_cell(law.grand_canonical_mean_approx)}, "
+                     f"variance {float_cell(law.grand_canonical_variance_approx)}")
         out.print(line)
     if plot is not None:
         out.print(f"plot: {plot}")
