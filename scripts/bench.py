@@ -95,7 +95,7 @@ import traceback
 from dataclasses import asdict, dataclass, field
 from fractions import Fraction
 from pathlib import Path
-from typing import Any, Callable, Dict, List, Optional
+from typing import Any, Callable, Dict, List, Optional, Sequence
 
 # Cold measurements: the store (when present) must not answer from a cache.
 os.environ["ENUMERATOR_NO_CACHE"] = "1"
@@ -951,24 +951,38 @@ print(json.dumps(report))
 """
 
 
-def _child_peak(mode: str, n: int, r: int, count: int):
-    """List in a grandchild process; return its report and its peak RSS in MB.
+def child_peak(code: str, *args, failure: str = "measured child failed", drop_env: Sequence[str] = ()):
+    """Run the Python *code* with *args* in a grandchild; return ``(report, peak RSS in MB)``.
 
-    The peak is ``getrusage(RUSAGE_CHILDREN).ru_maxrss`` read by the launcher
-    after its one child exits.
+    The grandchild prints one JSON object (its report); the launcher
+    (:data:`_MEMORY_LAUNCHER`) adds ``children_maxrss``, the grandchild's
+    ``getrusage(RUSAGE_CHILDREN).ru_maxrss`` read after it exits.  The
+    variables named in *drop_env* are removed from the child's environment.
+
+    Raises
+    ------
+    RuntimeError
+        When the child fails (``failure`` and its stderr are the message), or
+        its report carries a nonzero ``code`` (the exit code of a command).
     """
     env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
-    proc = subprocess.run(
-        [sys.executable, "-c", _MEMORY_LAUNCHER, _MEMORY_CHILD, mode, str(n), str(r), str(count)],
-        capture_output=True, text=True, cwd=str(ROOT), env=env,
-    )
+    for name in drop_env:
+        env.pop(name, None)
+    proc = subprocess.run([sys.executable, "-c", _MEMORY_LAUNCHER, code, *map(str, args)],
+                          capture_output=True, text=True, cwd=str(ROOT), env=env)
     if proc.returncode != 0:
-        raise RuntimeError(f"{mode} listing child failed:\n{proc.stderr}")
+        raise RuntimeError(f"{failure}:\n{proc.stderr}")
     report = json.loads(proc.stdout)
+    if report.get("code"):
+        raise RuntimeError(f"the command exited {report['code']}")
     # ru_maxrss is in KiB on Linux, in bytes on macOS
     raw = report["children_maxrss"]
-    peak_mb = raw / (1024 * 1024) if sys.platform == "darwin" else raw / 1024
-    return report, peak_mb
+    return report, (raw / (1024 * 1024) if sys.platform == "darwin" else raw / 1024)
+
+
+def _child_peak(mode: str, n: int, r: int, count: int):
+    """List in a grandchild process (:func:`child_peak`); return its report and its peak RSS in MB."""
+    return child_peak(_MEMORY_CHILD, mode, n, r, count, failure=f"{mode} listing child failed")
 
 
 @workload("list-memory", "peak RSS listing the first 10^7 configurations of n=20 r=10 BE as tuples",

@@ -16,15 +16,10 @@ built beforehand)::
 from __future__ import annotations
 
 import argparse
-import json
 import math
-import os
-import subprocess
 import sys
 import tempfile
 from pathlib import Path
-
-ROOT = Path(__file__).resolve().parent.parent
 
 #: The measured process: runs the CLI with its stdout sent to /dev/null and
 #: prints one JSON line (exit code, seconds) on the real stdout.
@@ -63,36 +58,16 @@ with open(output, "w") as handle:
 print(json.dumps({"code": 0, "seconds": time.perf_counter() - t}))
 """
 
-_LAUNCHER = r"""
-import json, resource, subprocess, sys
-proc = subprocess.run([sys.executable, "-c"] + sys.argv[1:], stdout=subprocess.PIPE)
-if proc.returncode:
-    sys.exit(proc.returncode)
-report = json.loads(proc.stdout)
-report["children_maxrss"] = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-print(json.dumps(report))
-"""
-
-
-def child_peak(code: str, *args: str):
-    """Run *code* with *args* in a grandchild; return ``(report, peak RSS in MB)``.
+def child_peak(bench, code: str, *args: str):
+    """Run *code* with *args* in a grandchild (``bench.child_peak``); return ``(report, peak RSS in MB)``.
 
     Raises
     ------
     RuntimeError
         When the child fails (its stderr is in the message).
     """
-    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
-    env.pop("ENUMERATOR_NO_CACHE", None)  # these commands read the store they are given
-    proc = subprocess.run([sys.executable, "-c", _LAUNCHER, code, *map(str, args)],
-                          capture_output=True, text=True, cwd=str(ROOT), env=env)
-    if proc.returncode != 0:
-        raise RuntimeError(f"measured child failed:\n{proc.stderr}")
-    report = json.loads(proc.stdout)
-    if report.get("code"):
-        raise RuntimeError(f"the command exited {report['code']}")
-    raw = report["children_maxrss"]  # KiB on Linux, bytes on macOS
-    return report, (raw / (1024 * 1024) if sys.platform == "darwin" else raw / 1024)
+    # these commands read the store they are given
+    return bench.child_peak(code, *args, drop_env=("ENUMERATOR_NO_CACHE",))
 
 
 def commands(store: str, name: str, out: Path) -> dict:
@@ -146,8 +121,8 @@ def register(bench) -> None:
         build_table(spec, store=target, name="t")
         target.close()
         runs = commands(store, "t", folder)
-        ours, ours_mb = child_peak(runs["table export csv (long)"][0], *runs["table export csv (long)"][1])
-        peer, peer_mb = child_peak(*runs["all cells in memory, then csv (before streaming)"][:1],
+        ours, ours_mb = child_peak(bench, runs["table export csv (long)"][0], *runs["table export csv (long)"][1])
+        peer, peer_mb = child_peak(bench, *runs["all cells in memory, then csv (before streaming)"][:1],
                                    *runs["all cells in memory, then csv (before streaming)"][1])
         note = _check_long_csv(folder / "long.csv", spec)
         same = (folder / "long.csv").read_bytes() == (folder / "memory.csv").read_bytes()
@@ -171,11 +146,13 @@ def main(argv=None) -> int:
     parser.add_argument("--table", required=True)
     parser.add_argument("--only", action="append", help="measure only these (labels as printed)")
     args = parser.parse_args(argv)
+    import bench  # beside this file (scripts/ is on the path when this file is run)
+
     folder = Path(tempfile.mkdtemp(prefix="enumerator-store-measure-"))
     for label, (code, child_args) in commands(args.store, args.table, folder).items():
         if args.only and label not in args.only:
             continue
-        report, peak = child_peak(code, *child_args)
+        report, peak = child_peak(bench, code, *child_args)
         print(f"{label:<50} peak RSS {peak:8.1f} MB  {report['seconds']:8.2f} s", flush=True)
         for path in folder.iterdir():  # outputs of hundreds of MB: one at a time
             path.unlink()
