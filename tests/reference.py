@@ -1,7 +1,8 @@
 """Slow brute-force reference implementations, used only by the tests.
 
-They enumerate every vector of the bounded box with ``itertools.product``,
-so keep the inputs small.
+They enumerate every vector of the bounded box with ``itertools.product``
+(or every microstate of particles on single-particle states), so keep the
+inputs small.
 """
 
 from __future__ import annotations
@@ -47,3 +48,22 @@ def probabilities(model):
     ws = {k: weight(model, k) for k in box(model)}
     total = sum(ws.values())
     return {k: Fraction(w, total) for k, w in ws.items()}
+
+
+def level_microstates(states: int, n: int, rule: str, capacity=None):
+    """Yield every microstate of *n* particles on *states* single-particle states.
+
+    A microstate is the tuple of the states the particles occupy: MB every
+    assignment (``itertools.product``), BE every multiset
+    (``combinations_with_replacement``, at most *capacity* in a state when
+    given: Gentile statistics), FD every set (``combinations``).
+    """
+    index = range(states)
+    if rule == "MB":
+        yield from itertools.product(index, repeat=n)
+    elif rule == "FD":
+        yield from itertools.combinations(index, n)
+    else:
+        for combo in itertools.combinations_with_replacement(index, n):
+            if capacity is None or max((combo.count(s) for s in set(combo)), default=0) <= capacity:
+                yield combo

@@ -16,19 +16,13 @@ from fractions import Fraction
 import mpmath
 import pytest
 from cli_helpers import run, run_json
+from reference import level_microstates
 
 
 def brute_states(energies, degeneracies, n, rule):
     """Total energy of every microstate (MB assignments, BE multisets, FD sets)."""
     states = [e for e, g in zip(energies, degeneracies) for _ in range(g)]
-    index = range(len(states))
-    if rule == "MB":
-        combos = itertools.product(index, repeat=n)
-    elif rule == "BE":
-        combos = itertools.combinations_with_replacement(index, n)
-    else:
-        combos = itertools.combinations(index, n)
-    return [[states[s] for s in combo] for combo in combos], states
+    return [[states[s] for s in combo] for combo in level_microstates(len(states), n, rule)], states
 
 
 @pytest.mark.parametrize("rule", ["MB", "BE", "FD"])

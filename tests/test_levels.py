@@ -17,7 +17,6 @@ References used (named beside each check):
 
 from __future__ import annotations
 
-import itertools
 import math
 from collections import Counter
 from fractions import Fraction
@@ -27,6 +26,7 @@ import pytest
 import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from reference import level_microstates
 
 from enumerator.algorithms.levels import (
     System,
@@ -63,15 +63,7 @@ def states_of(spectrum):
 
 def microstates(spectrum, n, rule, capacity=None):
     """Yield each microstate as the tuple of the single-particle states it uses."""
-    states = list(range(len(states_of(spectrum))))
-    if rule == "MB":
-        yield from itertools.product(states, repeat=n)
-    elif rule == "FD":
-        yield from itertools.combinations(states, n)
-    else:
-        for combo in itertools.combinations_with_replacement(states, n):
-            if capacity is None or max(Counter(combo).values(), default=0) <= capacity:
-                yield combo
+    return level_microstates(len(states_of(spectrum)), n, rule, capacity)
 
 
 def brute_counts(spectrum, n, rule, capacity=None):

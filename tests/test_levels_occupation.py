@@ -15,12 +15,12 @@ memory).
 
 from __future__ import annotations
 
-import itertools
 import math
 from fractions import Fraction
 
 import mpmath
 import pytest
+from reference import level_microstates
 
 from enumerator.algorithms.levels import (
     canonical,
@@ -37,17 +37,8 @@ from enumerator.core.limits import limited
 def brute_law(energies, degeneracies, n, rule, capacity, level, weight):
     """P(n_level = k) by enumerating every microstate; *weight(E)* is the Boltzmann weight of total energy E."""
     states = [(i, e) for i, (e, g) in enumerate(zip(energies, degeneracies)) for _ in range(g)]
-    index = range(len(states))
-    if rule == "MB":
-        combos = itertools.product(index, repeat=n)
-    elif rule == "FD":
-        combos = itertools.combinations(index, n)
-    else:
-        combos = itertools.combinations_with_replacement(index, n)
     totals = {}
-    for combo in combos:
-        if capacity is not None and max((combo.count(s) for s in set(combo)), default=0) > capacity:
-            continue
+    for combo in level_microstates(len(states), n, rule, capacity):
         k = sum(1 for s in combo if states[s][0] == level)
         w = weight(sum(states[s][1] for s in combo))
         totals[k] = totals.get(k, 0) + w
