@@ -30,6 +30,7 @@ from enumerator.algorithms.levels import (
     make_spectrum,
     multiplicities,
     thermal_contact,
+    two_level,
 )
 from enumerator.core.errors import TooLarge
 from enumerator.core.limits import limited
@@ -245,3 +246,33 @@ def test_floats_of_huge_ratios_are_near_the_exact_ones():
     for e in (0, 1, 300, contact.most_probable, 899, 900):
         exact = contact.probability_of(e)
         assert contact.probability_approx_of(e) == pytest.approx(float(exact), rel=2.3e-16, abs=1e-320)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(1, 4), st.integers(1, 4), st.sampled_from(["1/2", "3/2", "2/3"]), st.sampled_from(["1/2", "1/3"]),
+       st.integers(0, 12))
+def test_rational_contact_in_the_users_unit_against_brute_force(n_a, n_b, gap_a, gap_b, twelfths):
+    # Brute force: the microstates of n_a distinguishable two-level systems of gap gap_a (tuples) and of
+    # n_b bosons on levels 0, gap_b, 1 (multisets), energies as exact Fractions; total energy k/12.
+    ga, gb, total = Fraction(gap_a), Fraction(gap_b), Fraction(twelfths, 12)
+    a = System.create(two_level(gap_a), n_a, "MB")
+    b = System.create(make_spectrum([0, gap_b, 1]), n_b, "BE")
+    contact = thermal_contact(a, b, total)
+    ca = Counter(sum(c, Fraction(0)) for c in itertools.product([0, ga], repeat=n_a))
+    cb = Counter(sum(c, Fraction(0)) for c in itertools.combinations_with_replacement([0, gb, 1], n_b))
+    expected = {ea: ca[ea] * cb[total - ea] for ea in ca if ca[ea] * cb[total - ea]}
+    assert {contact.energy_of(k): v for k, v in contact.split.items() if v} == expected
+    assert contact.energy_of(contact.energy) == total
+    s = contact.summary()
+    if not expected:
+        assert s is None and contact.most_probable is None
+        return
+    count = sum(expected.values())
+    best = max(expected.values())
+    mean = sum(ea * v for ea, v in expected.items()) / count
+    variance = sum((ea - mean) ** 2 * v for ea, v in expected.items()) / count
+    assert s.most_probable == contact.energy_of(contact.most_probable) == min(
+        ea for ea, v in expected.items() if v == best)
+    assert (s.mean, s.variance) == (contact.mean, contact.variance) == (mean, variance)
+    assert s.mean_approx == pytest.approx(float(mean), rel=1e-15)
+    assert s.variance_approx == pytest.approx(float(variance), rel=1e-15, abs=1e-300)

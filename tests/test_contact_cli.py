@@ -160,3 +160,71 @@ def test_no_microstate_keeps_the_empty_maps():
     expected = {"total": "0", "split": {}, "most_probable": None, "probability": {}, "probability_approx": {}}
     assert run_json(*args) == expected
     assert run_json(*args, "--summary") == expected
+
+
+# --------------------------------------------------------------------------
+# Energies in the user's unit (rational spectra)
+# --------------------------------------------------------------------------
+def _json_energy(value):
+    """An energy as the JSON writes it: an integer when whole, else "p/q" text."""
+    return value.numerator if value.denominator == 1 else str(value)
+
+
+def test_rational_spectra_report_energies_in_the_users_unit():
+    # Brute force: every microstate of A (5 distinguishable two-level systems of gap 1/2: tuples)
+    # and of B (3 fermions in the states of levels 0, 1/3, 1 with degeneracies 1, 2, 2: sets),
+    # energies as exact Fractions; the split, its peak, mean and variance computed from them.
+    half, third = Fraction(1, 2), Fraction(1, 3)
+    total = Fraction(2)
+    ca = Counter(sum(c, Fraction(0)) for c in itertools.product([0, half], repeat=5))
+    cb = Counter(sum(c, Fraction(0)) for c in itertools.combinations([0, third, third, 1, 1], 3))
+    split = {ea: ca[ea] * cb[total - ea] for ea in ca if ca[ea] * cb[total - ea]}
+    count = sum(split.values())
+    best = max(split.values())
+    peak = min(ea for ea, v in split.items() if v == best)
+    mean = sum(ea * v for ea, v in split.items()) / count
+    variance = sum((ea - mean) ** 2 * v for ea, v in split.items()) / count
+    args = ("contact", "--preset-a", "two-level", "--gap-a", "1/2", "--particles-a", 5, "--rule-a", "MB",
+            "--energies-b", "0,1/3,1", "--degeneracies-b", "1,2,2", "--particles-b", 3, "--rule-b", "FD",
+            "--energy", 2)
+    payload = run_json(*args, "--summary", "--splits", "all")
+    assert payload["unit"] == "1/6"  # the grid of both spectra: lcm of the denominators 2 and 3
+    assert payload["total"] == str(count)
+    assert {Fraction(e): int(v) for e, v in payload["split"].items() if int(v)} == split
+    # every listed key is an energy of A on the grid, written exactly ("1/2", "2", never "3")
+    assert all(Fraction(e) * 6 == int(Fraction(e) * 6) for e in payload["split"])
+    assert {Fraction(e): Fraction(p) for e, p in payload["probability"].items() if Fraction(p)} == {
+        e: Fraction(v, count) for e, v in split.items()}
+    assert payload["most_probable"] == _json_energy(peak)
+    s = payload["summary"]
+    assert s["most_probable"] == _json_energy(peak)
+    assert s["listed"] == [0, _json_energy(total - min(cb))]  # up to E less B's ground energy, 2/3
+    assert Fraction(s["mean"]) == mean and s["mean_approx"] == pytest.approx(float(mean), rel=1e-15)
+    assert Fraction(s["variance"]) == variance
+    assert s["std_dev_approx"] == pytest.approx(math.sqrt(variance), rel=1e-15)
+    # a window of energies of A in the same unit
+    window = run_json(*args, "--splits", "1/2..3/2")  # clipped to the splits that exist, up to 4/3
+    assert [Fraction(e) for e in window["split"]] == [Fraction(k, 6) for k in range(3, 9)]
+    assert window["summary"]["listed"] == ["1/2", "4/3"]
+
+
+def test_rational_energies_in_the_table_for_people():
+    # Brute force by hand: two two-level systems of gap 1/2 on each side (distinguishable), total 1/2:
+    # A holds 0 (1 way) x B holds 1/2 (2 ways), or A holds 1/2 (2 ways) x B holds 0 (1 way).
+    result = run("contact", "--preset-a", "two-level", "--gap-a", "1/2", "--particles-a", 2, "--rule-a", "MB",
+                 "--preset-b", "two-level", "--gap-b", "1/2", "--particles-b", 2, "--rule-b", "MB",
+                 "--energy", "1/2", "--summary")
+    assert result.exit_code == 0, result.output
+    out = " ".join(result.stdout.split())
+    assert "total energy 1/2" in out and "total microstates: 4" in out
+    assert "most probable split: E_A = 0, probability 1/2" in out
+    assert "mean E_A = 1/4" in out and "(E_A = 0..1/2)" in out
+
+
+def test_a_total_energy_off_the_grid_has_no_microstate():
+    # Every energy of two gap-1/2 systems is a multiple of 1/2 (by hand), so none totals 3/4;
+    # it is not rounded to 1/2.
+    payload = run_json("contact", "--preset-a", "two-level", "--gap-a", "1/2", "--particles-a", 3,
+                       "--preset-b", "two-level", "--gap-b", "1/2", "--particles-b", 3, "--energy", "3/4")
+    assert payload["total"] == "0" and payload["most_probable"] is None
+    assert not any(int(v) for v in payload["split"].values())

@@ -8,6 +8,7 @@ offer ``--store``/``--no-cache``.
 """
 
 import math
+from fractions import Fraction
 from typing import Annotated, Optional
 
 import typer
@@ -36,7 +37,8 @@ def _listing(contact, splits: Optional[str], summary: bool):
     ----------
     contact : Contact
     splits : str or None
-        ``all``, ``none``, ``LOW..HIGH`` (energies of A, in the keys' unit) or
+        ``all``, ``none``, ``LOW..HIGH`` (energies of A in the user's unit,
+        exact: ``3/2..5``; the splits on the grid between them) or
         ``K`` (the ``K`` splits around the most probable one); ``None``: all
         of them when the listing is small (:data:`AUTO_MAX_SPLITS`,
         :data:`AUTO_MAX_CHARS`), else none, with a summary.
@@ -46,6 +48,7 @@ def _listing(contact, splits: Optional[str], summary: bool):
     Returns
     -------
     Listing
+        Its window in grid indices of *contact* (energy = index × unit).
 
     Raises
     ------
@@ -66,6 +69,7 @@ def _listing(contact, splits: Optional[str], summary: bool):
     if not keys:
         return Listing(None, True, summary)
     low, high = keys[0], keys[-1]
+    unit = contact.unit
     text = (splits or "").strip().lower()
     if splits is None and not summary:
         size = len(keys) * (3 * math.ceil(contact.total.bit_length() * math.log10(2)) + 40)
@@ -74,8 +78,9 @@ def _listing(contact, splits: Optional[str], summary: bool):
         s = contact.summary()
         suggestion = None
         if s is not None:
-            width = math.ceil(2 * s.std_dev_approx)
-            suggestion = (max(low, s.most_probable - width), min(high, s.most_probable + width))
+            width = math.ceil(2 * s.std_dev_approx / unit)  # grid steps
+            peak = contact.most_probable
+            suggestion = (max(low, peak - width), min(high, peak + width))
         what = f"about {size / 1e6:,.0f} MB" if size >= 1e6 else f"{len(keys):,} rows"
         return Listing(None, False, True,
                        reason=f"the {len(keys):,} splits are not listed (their listing would be {what})",
@@ -88,7 +93,9 @@ def _listing(contact, splits: Optional[str], summary: bool):
         return Listing(None, False, True)
     try:
         if ".." in text:
-            a, b = (int(v) for v in text.split("..", 1))
+            # energies in the user's unit; the window holds the grid points between them
+            first, last = (Fraction(v.strip()) for v in text.split("..", 1))
+            a, b = math.ceil(first / unit), math.floor(last / unit)
         else:
             count = int(text)
             if count < 1:
@@ -97,13 +104,16 @@ def _listing(contact, splits: Optional[str], summary: bool):
             a = max(low, peak - (count - 1) // 2)
             b = min(high, a + count - 1)
             a = max(low, b - count + 1)
-    except ValueError:
+            first = last = None
+    except (ValueError, ZeroDivisionError):
+        example = f"{contact.energy_of(low)}..{contact.energy_of(min(high, low + 10))}"
         raise InvalidParameters(
             f"--splits takes all, none, LOW..HIGH (energies of A) or a number K of splits around the "
-            f"most probable one (got {splits!r}); e.g. --splits {low}..{min(high, low + 10)}"
+            f"most probable one (got {splits!r}); e.g. --splits {example}"
         ) from None
-    if a > b:
-        raise InvalidParameters(f"--splits {splits}: the low end must not exceed the high end, e.g. --splits {b}..{a}")
+    if first is not None and first > last:
+        raise InvalidParameters(f"--splits {splits}: the low end must not exceed the high end, "
+                                f"e.g. --splits {last}..{first}")
     window = (max(a, low), min(b, high))
     complete = window == (low, high)
     if window[0] > window[1]:
@@ -187,7 +197,8 @@ def contact_command(
     splits: Annotated[
         Optional[str],
         typer.Option("--splits", metavar="all|none|LOW..HIGH|K", rich_help_panel=_OUTPUT,
-                     help="Which splits to list: all, none, the energies of A from LOW to HIGH, or the K "
+                     help="Which splits to list: all, none, the energies of A from LOW to HIGH (in your "
+                     "energy unit, exact: 1/2..3), or the K "
                      f"around the most probable one. Default: all while there are at most {AUTO_MAX_SPLITS:,} "
                      f"and their listing stays under {AUTO_MAX_CHARS // 10**6} MB, else none (a summary instead)."),
     ] = None,
@@ -206,7 +217,9 @@ def contact_command(
     probability, exact (p/q) and as a float (all microstates of A+B equally
     likely), and the most probable split is named (the lowest E_A on a tie).
     Each side is an Einstein solid (--oscillators-a N) or any spectrum, given
-    as for 'enumerator levels' with -a/-b suffixes.
+    as for 'enumerator levels' with -a/-b suffixes.  Energies are in your
+    energy unit everywhere, JSON keys included ("3/2" for a rational
+    spectrum); "unit" is the grid they lie on, written when it is not 1.
 
     Big systems: past 1,001 splits or about 1 MB of listing the splits are
     not listed unless --splits asks, and a summary is given instead: the most
@@ -221,6 +234,7 @@ def contact_command(
         $ enumerator contact --oscillators-a 10000 --oscillators-b 10000 --quanta 10000 --summary
         $ enumerator contact --oscillators-a 10000 --oscillators-b 10000 --quanta 10000 --splits 21 --json
         $ enumerator contact --preset-a two-level --particles-a 10 --preset-b trap --particles-b 4 --rule-b BE --energy 12
+        $ enumerator contact --preset-a two-level --gap-a 1/2 --particles-a 6 --preset-b two-level --gap-b 1/2 --particles-b 4 --energy 3/2 --json
     """
     from ..algorithms import levels as lv
     from . import render_contact

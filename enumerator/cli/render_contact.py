@@ -11,6 +11,14 @@ Which splits are written is the caller's choice (:class:`Listing`): all of
 them, a window ``E_A = low..high``, or none; a summary of the split (peak,
 mean, variance, standard deviation) goes with any listing that is not
 complete, so a big system is described without writing every split.
+
+Energies are written in the user's unit, as ``enumerator levels`` writes
+them (:func:`~enumerator.cli.render_levels.levels_payload`): keys are exact
+energies (``"3"``, ``"3/2"``), ``most_probable`` and ``listed`` JSON integers
+when whole and ``"p/q"`` text otherwise, and ``"unit"`` (written when it is
+not 1) is the grid the energies lie on.  The library's
+:class:`~enumerator.algorithms.levels.Contact` keeps grid indices; the
+conversion is :meth:`~enumerator.algorithms.levels.Contact.energy_of`.
 """
 
 from __future__ import annotations
@@ -32,7 +40,7 @@ __all__ = [
 
 @dataclass(frozen=True)
 class Listing:
-    """Which splits to write: ``window`` ``(low, high)`` of ``E_A`` (units), ``None`` for none.
+    """Which splits to write: ``window`` ``(low, high)`` of ``E_A`` (grid indices), ``None`` for none.
 
     ``complete`` says the window holds every split; ``summary`` that the
     peak-and-width summary is written; ``reason`` (when splits were left out
@@ -68,6 +76,18 @@ def _pyplot():
 def _float_cell(x) -> str:
     """A table cell for an approximate value: 6 significant digits, ``-`` for none."""
     return "-" if x is None else f"{float(x):.6g}"
+
+
+def _energy(contact: Contact, index: int) -> str:
+    """The energy of grid *index* as exact text in the user's unit (``"3"``, ``"3/2"``), as JSON keys write it."""
+    return exact(contact.energy_of(index))
+
+
+def _energy_json(value):
+    """An energy in the user's unit as a JSON value: an integer when whole, else ``"p/q"`` (``None`` kept)."""
+    if value is None or isinstance(value, int):
+        return value
+    return value.numerator if value.denominator == 1 else exact(value)
 
 
 # --------------------------------------------------------------------------
@@ -106,7 +126,8 @@ def plot_contact(path, contact: Contact, label_a: str = "A", label_b: str = "B")
         ax.axvline(contact.most_probable * unit, color="grey", lw=0.8, ls="--")
     ax.set_xlabel(f"energy of {label_a}, E_A")
     ax.set_ylabel("probability")
-    ax.set_title(f"{label_a} and {label_b} in thermal contact, total energy {contact.energy * unit:g}", fontsize=9)
+    ax.set_title(f"{label_a} and {label_b} in thermal contact, total energy {_energy(contact, contact.energy)}",
+                 fontsize=9)
     fig.tight_layout()
     fig.savefig(path, dpi=110)
     plt.close(fig)
@@ -120,8 +141,8 @@ def _summary_payload(contact: Contact, listing: Listing) -> dict:
     s = contact.summary()
     return {
         "splits": s.splits,
-        "listed": None if listing.window is None else list(listing.window),
-        "most_probable": s.most_probable,
+        "listed": None if listing.window is None else [_energy_json(contact.energy_of(e)) for e in listing.window],
+        "most_probable": _energy_json(s.most_probable),
         "most_probable_probability": exact(s.most_probable_probability),
         "most_probable_probability_approx": s.most_probable_probability_approx,
         "mean": exact(s.mean),
@@ -147,12 +168,15 @@ def contact_payload(contact: Contact, listing: Optional[Listing] = None) -> dict
         ``{"total": "count", "split": {"E_A": "count"}, "most_probable": E_A,
         "probability": {"E_A": "p/q"}, "probability_approx": {"E_A": float}}``
         for the listed splits (the three maps are left out when none is
-        listed); energies in units, with a ``"unit"`` field added when the
-        unit is not 1.  With a summary: ``"summary": {"splits": count,
+        listed).  Energies are in the user's unit: keys exact (``"3/2"``),
+        ``most_probable`` and ``listed`` integers when whole, else ``"p/q"``;
+        a ``"unit"`` field (the grid the energies lie on) is added when it
+        is not 1.  With a summary: ``"summary": {"splits": count,
         "listed": [low, high] or null, "most_probable": E_A,
         "most_probable_probability": "p/q", "mean": "p/q", "variance":
         "p/q"}`` plus the floats ``most_probable_probability_approx``,
-        ``mean_approx``, ``variance_approx`` and ``std_dev_approx``.
+        ``mean_approx``, ``variance_approx`` and ``std_dev_approx`` (the
+        variance in the unit squared).
 
     Notes
     -----
@@ -166,6 +190,11 @@ def contact_payload(contact: Contact, listing: Optional[Listing] = None) -> dict
     >>> contact_payload(thermal_contact(einstein_solid(1), einstein_solid(1), 1))  # doctest: +NORMALIZE_WHITESPACE
     {'total': '2', 'split': {'0': '1', '1': '1'}, 'most_probable': 0, 'probability': {'0': '1/2', '1': '1/2'},
      'probability_approx': {'0': 0.5, '1': 0.5}}
+    >>> from enumerator.algorithms.levels import System, two_level
+    >>> half = System.create(two_level("1/2"), 1, "MB")
+    >>> contact_payload(thermal_contact(half, half, "1/2"))  # doctest: +NORMALIZE_WHITESPACE
+    {'total': '2', 'split': {'0': '1', '1/2': '1'}, 'most_probable': 0, 'probability': {'0': '1/2', '1/2': '1/2'},
+     'probability_approx': {'0': 0.5, '1/2': 0.5}, 'unit': '1/2'}
     """
     if listing is None:
         listing = Listing(None if not contact.split else (min(contact.split), max(contact.split)), True, False)
@@ -173,19 +202,21 @@ def contact_payload(contact: Contact, listing: Optional[Listing] = None) -> dict
     keys = listing.keys(contact)
     listed = listing.window is not None or listing.complete
     if listed:
-        payload["split"] = {str(e): exact(contact.split[e]) for e in keys}
-    payload["most_probable"] = contact.most_probable
+        names = [_energy(contact, e) for e in keys]
+        payload["split"] = {name: exact(contact.split[e]) for name, e in zip(names, keys)}
+    payload["most_probable"] = None if contact.most_probable is None else _energy_json(
+        contact.energy_of(contact.most_probable))
     if listed:
         if contact.total:
-            payload["probability"] = {str(e): exact(contact.probability_of(e)) for e in keys}
-            payload["probability_approx"] = {str(e): contact.probability_approx_of(e) for e in keys}
+            payload["probability"] = {name: exact(contact.probability_of(e)) for name, e in zip(names, keys)}
+            payload["probability_approx"] = {name: contact.probability_approx_of(e) for name, e in zip(names, keys)}
         else:
             payload["probability"] = {}
             payload["probability_approx"] = {}
     if listing.summary and contact.total:
         payload["summary"] = _summary_payload(contact, listing)
     if contact.unit != 1:
-        payload["unit"] = str(contact.unit)
+        payload["unit"] = exact(contact.unit)
     return payload
 
 
@@ -210,22 +241,23 @@ def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Opt
 
     Notes
     -----
-    Exact counts are printed whole when short and rounded with their digit
-    count when long (:func:`~enumerator.cli.render.human`); probabilities to
-    6 significant digits, the most probable split's exactly when short.
+    Energies in the user's unit, exact (``3/2``); exact counts are printed
+    whole when short and rounded with their digit count when long
+    (:func:`~enumerator.cli.render.human`); probabilities to 6 significant
+    digits, the most probable split's exactly when short.
     Cost: linear in the number of listed splits, plus the summary's pass.
     """
     out = console()
-    unit_note = "" if contact.unit == 1 else f" (energies in units of {contact.unit})"
+    unit_note = "" if contact.unit == 1 else f" (energies on a grid of {exact(contact.unit)})"
     if not contact.split:
         out.print(f"No microstate of A and B has total energy {energy}.")
         return
     if listing is None:
         listing = Listing((min(contact.split), max(contact.split)), True, False)
     keys = listing.keys(contact)
-    title = f"Thermal contact{unit_note}: A = {label_a}; B = {label_b}; total energy {contact.energy}"
+    title = f"Thermal contact{unit_note}: A = {label_a}; B = {label_b}; total energy {_energy(contact, contact.energy)}"
     if keys:
-        rows = [[str(ea), str(contact.energy - ea), contact.split[ea],
+        rows = [[_energy(contact, ea), _energy(contact, contact.energy - ea), contact.split[ea],
                  _float_cell(contact.probability_approx_of(ea) if contact.total else None)] for ea in keys]
         show_table(title, ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"], rows)
     else:
@@ -237,7 +269,8 @@ def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Opt
         if not p.startswith("≈"):
             p += f" (≈ {contact.probability_approx_of(contact.most_probable):.6g})"
         out.print(
-            f"total microstates: {human(contact.total)}\nmost probable split: E_A = {contact.most_probable}, "
+            f"total microstates: {human(contact.total)}\nmost probable split: E_A = "
+            f"{_energy(contact, contact.most_probable)}, "
             f"probability {p}"
         )
     if listing.summary and contact.total:
@@ -246,12 +279,14 @@ def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Opt
         out.print(
             f"mean E_A = {human(s.mean)} (≈ {s.mean_approx:.6g}), variance {human(s.variance)} "
             f"(≈ {s.variance_approx:.6g}), standard deviation ≈ {s.std_dev_approx:.6g}\n"
-            f"splits: {s.splits:,} (E_A = {low}..{high}); "
+            f"splits: {s.splits:,} (E_A = {_energy(contact, low)}..{_energy(contact, high)}); "
             + ("listed: all" if listing.complete else
-               "listed: none" if listing.window is None else f"listed: E_A = {listing.window[0]}..{listing.window[1]}")
+               "listed: none" if listing.window is None else
+               f"listed: E_A = {_energy(contact, listing.window[0])}..{_energy(contact, listing.window[1])}")
         )
     if listing.reason:
-        hint = "" if listing.suggestion is None else f"--splits {listing.suggestion[0]}..{listing.suggestion[1]} (±2σ) or "
+        hint = "" if listing.suggestion is None else \
+            f"--splits {_energy(contact, listing.suggestion[0])}..{_energy(contact, listing.suggestion[1])} (±2σ) or "
         out.print(f"{listing.reason}; list them with {hint}--splits all")
     if plot is not None:
         out.print(f"plot: {plot}")

@@ -35,7 +35,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Dict, List, Optional
+from typing import Dict, List, Optional, Union
 
 import gmpy2
 import mpmath
@@ -744,8 +744,12 @@ class Contact:
     exact ones are reduced only when asked (:attr:`probability`,
     :meth:`probability_of`), the floats computed directly
     (:meth:`probability_approx_of`), so a summary of 10^4 splits of
-    10^4-digit counts costs milliseconds.  Energies, ``mean`` and
-    ``variance`` are in units of ``unit``.
+    10^4-digit counts costs milliseconds.
+
+    ``energy``, the keys of ``split`` and ``most_probable`` are grid indices:
+    the energy they stand for is ``index * unit`` in the user's unit
+    (:meth:`energy_of`).  ``mean``, ``variance`` and :meth:`summary` are in
+    the user's unit.
     """
 
     energy: int
@@ -753,6 +757,20 @@ class Contact:
     total: int
     split: Dict[int, int]
     most_probable: Optional[int]
+
+    def energy_of(self, index: int):
+        """The energy of grid *index* in the user's unit: ``index * unit``, an ``int`` when whole, else a Fraction.
+
+        Examples
+        --------
+        >>> from enumerator.algorithms.levels.spectra import System, two_level
+        >>> half = System.create(two_level("1/2"), 2, "MB")
+        >>> c = thermal_contact(half, half, "3/2")
+        >>> c.unit, c.energy_of(c.energy), [(c.energy_of(k), v) for k, v in c.split.items()]
+        (Fraction(1, 2), Fraction(3, 2), [(0, 0), (Fraction(1, 2), 2), (1, 2), (Fraction(3, 2), 0)])
+        """
+        value = index * self.unit
+        return value.numerator if value.denominator == 1 else value
 
     @property
     def probability(self) -> Dict[int, Fraction]:
@@ -789,41 +807,52 @@ class Contact:
             s2 += ea * term
         return int(s1), int(s2)
 
+    def _scaled_moments(self):
+        """``(mean_num, mean_den, var_num, var_den)``: mean and variance of ``E_A`` in the user's unit, unreduced.
+
+        With ``unit = p/q``: ``mean = p Σ E_A v / (q total)`` and ``variance =
+        p^2 (Σ E_A^2 v · total - (Σ E_A v)^2) / (q total)^2`` (``E_A`` grid indices).
+        """
+        s1, s2 = self._moments()
+        p, q = self.unit.numerator, self.unit.denominator
+        t = self.total
+        return s1 * p, t * q, (s2 * t - s1 * s1) * p * p, (t * q) ** 2
+
     @property
     def mean(self) -> Optional[Fraction]:
-        """The exact mean of ``E_A`` (``None`` when no split is possible)."""
+        """The exact mean of ``E_A`` in the user's unit (``None`` when no split is possible)."""
         if not self.total:
             return None
-        s1, _ = self._moments()
-        return _ratio(s1, self.total)
+        mean_num, mean_den, _, _ = self._scaled_moments()
+        return _ratio(mean_num, mean_den)
 
     @property
     def variance(self) -> Optional[Fraction]:
-        """The exact variance of ``E_A``: ``(Σ E_A^2 v · total - (Σ E_A v)^2) / total^2``."""
+        """The exact variance of ``E_A`` in the user's unit squared: ``(Σ E_A^2 v · total - (Σ E_A v)^2) / total^2``."""
         if not self.total:
             return None
-        s1, s2 = self._moments()
-        return _ratio(s2 * self.total - s1 * s1, self.total * self.total)
+        _, _, var_num, var_den = self._scaled_moments()
+        return _ratio(var_num, var_den)
 
     def summary(self) -> Optional["ContactSummary"]:
         """The peak and the width of the split, exact and as floats (``None`` when no split is possible).
 
+        Energies in the user's unit (the grid indices times ``unit``).
         Cost: one pass over the splits (two small-by-big products each) and
         three gcds of numbers of twice the digits of ``total``.
         """
         if not self.total:
             return None
-        s1, s2 = self._moments()
+        mean_num, mean_den, var_num, var_den = self._scaled_moments()
         t = self.total
-        var_num, var_den = s2 * t - s1 * s1, t * t
         peak = self.split[self.most_probable]
         return ContactSummary(
             splits=len(self.split),
-            most_probable=self.most_probable,
+            most_probable=self.energy_of(self.most_probable),
             most_probable_probability=_ratio(peak, t),
             most_probable_probability_approx=_ratio_approx(peak, t),
-            mean=_ratio(s1, t),
-            mean_approx=_ratio_approx(s1, t),
+            mean=_ratio(mean_num, mean_den),
+            mean_approx=_ratio_approx(mean_num, mean_den),
             variance=_ratio(var_num, var_den),
             variance_approx=_ratio_approx(var_num, var_den),
             std_dev_approx=math.sqrt(_ratio_approx(var_num, var_den)),
@@ -832,10 +861,15 @@ class Contact:
 
 @dataclass(frozen=True)
 class ContactSummary:
-    """The shape of the energy split: its peak and its width (energies in units of the contact's ``unit``)."""
+    """The shape of the energy split: its peak and its width, energies in the user's unit.
+
+    ``most_probable`` is an energy of A (an ``int`` when whole, else a
+    Fraction), ``mean`` and ``variance`` exact in the user's unit (and its
+    square), with their floats and the standard deviation.
+    """
 
     splits: int
-    most_probable: int
+    most_probable: Union[int, Fraction]
     most_probable_probability: Fraction
     most_probable_probability_approx: float
     mean: Fraction
@@ -845,9 +879,12 @@ class ContactSummary:
     std_dev_approx: float
 
 
-def _common_unit(a: Spectrum, b: Spectrum) -> Fraction:
+def _common_unit(a: Spectrum, b: Spectrum, energy: Fraction) -> Fraction:
+    """The coarsest grid ``1/q`` holding both spectra and the total *energy* (``q`` the lcm of their denominators)."""
     da, db = a.unit.denominator, b.unit.denominator
-    return Fraction(1, da * db // math.gcd(da, db))
+    d = da * db // math.gcd(da, db)
+    de = energy.denominator
+    return Fraction(1, d * de // math.gcd(d, de))
 
 
 def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -> Contact:
@@ -865,7 +902,9 @@ def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -
     Returns
     -------
     Contact
-        Energies in the common unit of the two spectra.
+        Split keys are indices on the common grid of the two spectra and
+        the total energy (:meth:`Contact.energy_of` gives the energy in the
+        user's unit); the summary is in the user's unit.
 
     Raises
     ------
@@ -877,8 +916,9 @@ def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -
 
     Notes
     -----
-    Both spectra are written in a common unit (``1/lcm`` of the two unit
-    denominators); the table is the convolution of the two multiplicity rows,
+    Both spectra are written in a common unit (``1/lcm`` of the
+    denominators of the two units and of *energy*, so a total energy off the
+    spectra's grid has no microstate rather than being rounded); the table is the convolution of the two multiplicity rows,
     so ``total`` equals the multiplicity of the combined system (for two
     Einstein solids ``C(q + N_A + N_B - 1, q)``, the worked example of
     D. V. Schroeder, *An Introduction to Thermal Physics*, 2000, §2.3).  Cost:
@@ -896,10 +936,11 @@ def thermal_contact(a: System, b: System, energy, limit: Optional[int] = None) -
     >>> s.mean, s.variance, round(s.std_dev_approx, 6)
     (Fraction(3, 1), Fraction(18, 7), 1.603567)
     """
-    unit = _common_unit(a.spectrum, b.spectrum)
+    total_energy = parse_rational(energy, "energy")
+    unit = _common_unit(a.spectrum, b.spectrum, total_energy)
     a = System(a.spectrum.rescaled(unit), a.particles, a.rule, a.capacity)
     b = System(b.spectrum.rescaled(unit), b.particles, b.rule, b.capacity)
-    e = _to_units(energy, unit, "energy")
+    e = _to_units(total_energy, unit, "energy")
     low_a, low_b = ground_energy(a), ground_energy(b)
     if low_a is None or low_b is None or low_a + low_b > e:
         return Contact(e, unit, 0, {}, None)
