@@ -43,7 +43,7 @@ from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
 from .particle_hole import fermion_canonical
-from .spectra import Spectrum, System, ground_energy, parse_rational
+from .spectra import Spectrum, System, ground_energy, parse_temperature
 
 __all__ = [
     "CanonicalPoint",
@@ -66,23 +66,6 @@ GUARD_DIGITS = 12
 #: Grand-canonical ladder sums switch to the closed-form tail where
 #: ``β(ε - μ)`` exceeds this.
 _TAIL_GAP = 4
-
-
-def _parse_temperature(value) -> Fraction:
-    if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
-        man, exp = value.man_exp
-        number = Fraction(int(man)) * Fraction(2) ** int(exp)
-    elif isinstance(value, float):
-        if not math.isfinite(value):
-            raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
-        number = Fraction(value)
-    else:
-        number = parse_rational(value, "temperature")
-    if number <= 0:
-        raise InvalidParameters(
-            f"temperature must be positive (got {value}); give k_B T in the energy unit"
-        )
-    return number
 
 
 
@@ -132,7 +115,7 @@ def parse_temperatures(text) -> List[Fraction]:
     [1.0, 10.0, 100.0]
     """
     if not isinstance(text, str):
-        return [_parse_temperature(t) for t in text]
+        return [parse_temperature(t) for t in text]
     out: List[Fraction] = []
     for item in text.split(","):
         item = item.strip()
@@ -142,7 +125,7 @@ def parse_temperatures(text) -> List[Fraction]:
                 parameters=["temperatures"],
             )
         if ".." not in item:
-            out.append(_parse_temperature(item))
+            out.append(parse_temperature(item))
         else:
             out.extend(_temperature_range(item))
         if len(out) > MAX_TEMPERATURES:
@@ -160,8 +143,8 @@ def _temperature_range(item: str) -> List[Fraction]:
         raise InvalidParameters(
             f"a temperature range is A..B, A..B:K or A..B:K:log (got {item!r})", parameters=["temperatures"]
         )
-    lo = _parse_temperature(lo_text)
-    hi = _parse_temperature(parts[0])
+    lo = parse_temperature(lo_text)
+    hi = parse_temperature(parts[0])
     if hi < lo:
         raise InvalidParameters(f"the range {item!r} runs downwards; write the smaller end first",
                                 parameters=["temperatures"])
@@ -792,7 +775,7 @@ def canonical(
     grand = grand and system.has_reservoir
     points = []
     for value in temperatures:
-        temperature = _parse_temperature(value)
+        temperature = parse_temperature(value)
         if route == "float":
             lnZ, U, C, F, S, occ, extras = _canonical_float(system, temperature, count)
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
@@ -1172,7 +1155,7 @@ def canonical_occupations(
     count = _report_count(system.spectrum, levels)
     result = []
     for value in temperatures:
-        temperature = _parse_temperature(value)
+        temperature = parse_temperature(value)
         if _particle_hole_pays(system, temperature, digits, "auto"):
             result.append(_particle_hole_point(system, temperature, digits, count).occupations_approx)
         else:
@@ -1296,7 +1279,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
     iterations (a ladder sums its tail in closed form).
     """
     digits = as_count(digits, "digits", 5)
-    temperature = _parse_temperature(temperature)
+    temperature = parse_temperature(temperature)
     spectrum = system.spectrum
     count = _report_count(spectrum, levels)
     if count > len(spectrum.energies):

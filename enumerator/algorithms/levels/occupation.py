@@ -73,14 +73,13 @@ from .ensembles import (
     DEFAULT_DIGITS,
     GUARD_DIGITS,
     _online_recursion,
-    _parse_temperature,
     _particle_hole_pays,
     _to_fixed,
     grand_canonical,
     grand_canonical_level_variance,
 )
 from .particle_hole import fermion_canonical
-from .spectra import System, ground_energy, parse_rational
+from .spectra import System, ground_energy, parse_rational, parse_temperature
 
 __all__ = ["OccupationLaw", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
 
@@ -405,7 +404,7 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     _level(system, level)
     out = []
     for value in temperatures:
-        temperature = _parse_temperature(value)
+        temperature = parse_temperature(value)
         if system.particles and _particle_hole_pays(system, temperature, digits, "auto") and _own_energy(system, level):
             (point,) = fermion_canonical(system, temperatures=[temperature], digits=digits, law_level=level,
                                          levels=1)
@@ -446,7 +445,7 @@ def factor_temperature(factor: Fraction, unit: Fraction, digits: int = DEFAULT_D
     """The temperature ``k_B T = u / ln(1/x)`` of a Boltzmann factor, to *digits* digits (a binary fraction)."""
     with mpmath.workdps(digits + GUARD_DIGITS):
         t = mpmath.mpf(unit.numerator) / unit.denominator / mpmath.log(mpmath.mpf(factor.denominator) / factor.numerator)
-        return _parse_temperature(t)
+        return parse_temperature(t)
 
 
 def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:

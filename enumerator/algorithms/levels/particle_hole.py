@@ -86,7 +86,7 @@ from flint import arb, arb_poly, ctx
 from ...core.errors import InvalidParameters, TooLarge
 from ...core.model import as_count
 from ...core.rules import Rule
-from .spectra import Spectrum, System, parse_rational
+from .spectra import Spectrum, System, parse_temperature
 
 __all__ = ["FermionPoint", "fermion_canonical"]
 
@@ -605,21 +605,6 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         return point, False
 
 
-def _parse_temperature(value) -> Fraction:
-    if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
-        man, exp = value.man_exp
-        number = Fraction(int(man)) * Fraction(2) ** int(exp)
-    elif isinstance(value, float):
-        if not math.isfinite(value):
-            raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
-        number = Fraction(value)
-    else:
-        number = parse_rational(value, "temperature")
-    if number <= 0:
-        raise InvalidParameters(f"temperature must be positive (got {value}); give k_B T in the energy unit")
-    return number
-
-
 def _first_top(spectrum: Spectrum, fermi: int, temperature: Fraction, digits: int, extra: int) -> int:
     """A ladder cut-off: rungs above the Fermi shell until ``e^{-β Δ}`` is far below ``10^-digits``."""
     lad = spectrum.ladder
@@ -712,7 +697,7 @@ def fermion_canonical(
         raise InvalidParameters("give the number of particles")
     n = as_count(particles, "particles")
     digits = as_count(digits, "digits", 5)
-    temps = [_parse_temperature(t) for t in temperatures]
+    temps = [parse_temperature(t) for t in temperatures]
     if spectrum.ladder is None:
         states = spectrum.states()
         if n > states:

@@ -38,6 +38,8 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import List, Optional, Tuple
 
+import mpmath
+
 from ...core.errors import InvalidParameters, Unsupported
 from ...core.model import as_count
 from ...core.rules import Rule
@@ -54,6 +56,7 @@ __all__ = [
     "make_spectrum",
     "make_system",
     "parse_rational",
+    "parse_temperature",
     "two_level",
 ]
 
@@ -117,6 +120,51 @@ def parse_rational(value, name: str) -> Fraction:
         raise InvalidParameters(
             f"{name} must be an integer, a fraction or a decimal string (got {value!r})"
         ) from None
+
+
+def parse_temperature(value) -> Fraction:
+    """Return one temperature ``k_B T`` (in the energy unit) as an exact positive :class:`Fraction`.
+
+    Parameters
+    ----------
+    value : int, Fraction, str, float or mpmath.mpf
+        A finite float or mpmath number is taken at its exact binary value
+        (a Boltzmann factor's ``k_B T`` arrives as an mpmath number);
+        anything else goes through :func:`parse_rational`.
+
+    Returns
+    -------
+    Fraction
+        Numerator and denominator are Python ints.
+
+    Raises
+    ------
+    InvalidParameters
+        Not a number, not finite, or not positive.
+
+    Notes
+    -----
+    An mpmath number ``man * 2^exp`` becomes ``Fraction(man) * 2^exp``
+    exactly; a float goes through ``Fraction(float)`` (exact).  Cost linear
+    in the size of the number.
+
+    Examples
+    --------
+    >>> parse_temperature("0.75"), parse_temperature(0.5)
+    (Fraction(3, 4), Fraction(1, 2))
+    """
+    if isinstance(value, mpmath.mpf) and mpmath.isfinite(value):
+        man, exp = value.man_exp
+        number = Fraction(int(man)) * Fraction(2) ** int(exp)
+    elif isinstance(value, float):
+        if not math.isfinite(value):
+            raise InvalidParameters(f"temperature must be a finite positive number (got {value!r})")
+        number = Fraction(value)
+    else:
+        number = parse_rational(value, "temperature")
+    if number <= 0:
+        raise InvalidParameters(f"temperature must be positive (got {value}); give k_B T in the energy unit")
+    return number
 
 
 def _split_list(values, name: str) -> list:
