@@ -688,14 +688,26 @@ def multiplicity_table(
     _check_size((n + 1) * (degree + 1), limit)
     _check_plan(system, _plan(system, degree, rows=n + 1))
     polys = _partition_polynomials(system, n, degree)
-    for m in range(n + 1):
+    return _table_rows(system, top_units, polys)
+
+
+def _table_rows(system: System, top_units: int, polys: List[fmpz_poly]) -> List[Dict[int, int]]:
+    """The rows of :func:`multiplicity_table` from ``Z_m(t)``, ``m = 0..N`` (energies shifted by the lowest level).
+
+    Row ``m`` keeps the energies from its ground energy to *top_units*
+    (``{}`` when its ground state lies above); cost linear in the cells.
+    """
+    spectrum = system.spectrum
+    shift = spectrum.lowest
+    rows: List[Dict[int, int]] = []
+    for m, poly in enumerate(polys):
         sub = System(spectrum, m, system.rule, system.capacity)
         low = ground_energy(sub)
         d_m = top_units - m * shift
         if low is None or low > top_units:
             rows.append({})
             continue
-        coeffs = series.coefficients(polys[m], d_m)
+        coeffs = series.coefficients(poly, d_m)
         rows.append({m * shift + e: int(coeffs[e]) for e in range(low - m * shift, d_m + 1)})
     return rows
 
