@@ -39,6 +39,9 @@ Many processes at once
     ``INSERT ... ON CONFLICT DO NOTHING`` upserts, retried while another
     process holds the lock (:mod:`enumerator.store.engine`), so overlapping
     writers store each key once and never report "database is locked".
+    On PostgreSQL (psycopg 3) a batch is copied into a temporary table and
+    merged by one ``INSERT ... SELECT ... ON CONFLICT DO NOTHING`` in key
+    order (:meth:`Store._copy_rows`), with the same outcome.
     One :class:`Store` may be shared by threads: it keeps no per-call state.
 """
 
@@ -84,6 +87,15 @@ __all__ = ["EXPORT_ENTRY_FORMATS", "Store", "StoredEntry"]
 _SCHEMA_LOCK = 0x656E756D
 
 log = logging.getLogger("enumerator.store")
+
+#: The temporary table (one per PostgreSQL session) that a batch of new rows is copied into.
+_INCOMING = "enumerator_incoming"
+#: PostgreSQL's SQLSTATE insufficient_privilege (here: the database grants no TEMPORARY).
+_INSUFFICIENT_PRIVILEGE = "42501"
+
+
+class _NoTemporaryTables(Exception):
+    """This PostgreSQL user may not create the temporary table of :meth:`Store._copy_rows`."""
 
 #: Rows :meth:`Store.verify` reads at a time (by id).
 VERIFY_BATCH = 200
@@ -152,6 +164,7 @@ class Store:
         self.engine = make_engine(self.url, self.path, self.read_only, self.name)
         # built once, up front, so threads sharing the store never race to build it
         self._insert_stmt = self._upsert(Result, Result.key_digest)
+        self._copy = self._copy_plan()
         try:
             self._guard(self._initialise)
         except BaseException:
@@ -372,11 +385,21 @@ class Store:
         return stmt
 
     def _write_rows(self, rows: List[dict]) -> int:
-        """Upsert *rows* in one transaction; return how many were new."""
+        """Upsert *rows* in one transaction; return how many were new.
+
+        Notes
+        -----
+        On PostgreSQL through psycopg 3 the rows are copied into a temporary
+        table (:meth:`_copy_rows`), then merged by one ``INSERT ... SELECT
+        ... ON CONFLICT DO NOTHING``; elsewhere one multi-row ``INSERT ... ON
+        CONFLICT DO NOTHING`` (SQLAlchemy's insertmanyvalues).
+        """
         stmt = self._insert_stmt
 
         def attempt():
             with writing(self.engine) as conn:
+                if self._copy is not None:
+                    return self._copy_rows(conn, rows)
                 if stmt is not None:
                     result = conn.execute(stmt, rows)
                     if result.returns_rows:
@@ -393,7 +416,14 @@ class Store:
                 return added
 
         try:
-            return retry(attempt)
+            try:
+                return retry(attempt)
+            except _NoTemporaryTables as refused:
+                # a database that grants no TEMPORARY: write by INSERT from now on
+                log.info("enumerator: the store %s allows no temporary tables (%s); writing by "
+                         "INSERT instead of COPY", self.name, refused)
+                self._copy = None
+                return retry(attempt)
         except sa_exc.OperationalError as error:
             if is_readonly(error):
                 self._warn_read_only("writing to it failed")
@@ -402,6 +432,88 @@ class Store:
         except sa_exc.IntegrityError:
             # another writer on a backend without upserts got there first
             return 0
+
+    def _copy_plan(self) -> Optional[Tuple[tuple, str, str, str]]:
+        """The statements of the PostgreSQL write path (:meth:`_copy_rows`), or None elsewhere.
+
+        Returns ``(columns, create, copy, merge)``: the ``(name, bind
+        processor)`` of every result column but ``id`` (the processors are
+        the column types' own, so a row's texts are those SQLAlchemy's
+        ``INSERT`` writes), and the SQL that creates the session's temporary
+        table, copies into it and merges it into the results.
+        """
+        if self.engine.dialect.name != "postgresql" or self.engine.dialect.driver != "psycopg":
+            return None
+        dialect = self.engine.dialect
+        quote = dialect.identifier_preparer.quote
+        table = Result.__table__
+        columns = tuple((column.name, column.type.bind_processor(dialect))
+                        for column in table.columns if column.name != "id")
+        names = ", ".join(quote(name) for name, _ in columns)
+        target = quote(table.name)
+        create = (f"CREATE TEMPORARY TABLE IF NOT EXISTS {_INCOMING} ON COMMIT DELETE ROWS "
+                  f"AS SELECT {names} FROM {target} WITH NO DATA")
+        copy = f"COPY pg_temp.{_INCOMING} ({names}) FROM STDIN"
+        # in digest order: overlapping batches of concurrent writers take the unique
+        # index's entries in one order, so none waits for another in a cycle (a deadlock)
+        merge = (f"INSERT INTO {target} ({names}) SELECT {names} FROM pg_temp.{_INCOMING} "
+                 f"ORDER BY {quote('key_digest')} ON CONFLICT ({quote('key_digest')}) DO NOTHING")
+        return columns, create, copy, merge
+
+    def _copy_rows(self, conn, rows: List[dict]) -> int:
+        """Upsert *rows* on PostgreSQL (psycopg 3) inside the transaction of *conn*; return how many were new.
+
+        Raises
+        ------
+        sqlalchemy.exc.DBAPIError
+            The driver's failure, wrapped as SQLAlchemy wraps its own (so
+            :func:`~enumerator.store.engine.retry` and the store's messages
+            treat it alike).
+        _NoTemporaryTables
+            When this user may not create temporary tables (the transaction
+            is then rolled back and the caller writes by ``INSERT``).
+
+        Notes
+        -----
+        ``COPY ... FROM STDIN`` of the rows into a temporary table of the
+        session (created once per connection, emptied at each commit), then
+        one ``INSERT ... SELECT ... ORDER BY key_digest ON CONFLICT
+        (key_digest) DO NOTHING``, whose row count is the number of new rows.
+        The same semantics as the multi-row upsert it replaces (a key already
+        stored, or stored meanwhile by a concurrent writer, is kept and not
+        counted), with statement texts that never change: psycopg
+        converts the 6,000-parameter text of a 400-row ``INSERT ...
+        VALUES`` afresh for every batch, which took 60% of the client's time
+        in a table build.  COPY is PostgreSQL's bulk-load path
+        (PostgreSQL documentation, "Populating a Database", section 14.4).
+        Cost: three statements per transaction (four on a new connection)
+        and the rows' text once.
+        """
+        columns, create, copy_sql, merge = self._copy
+        record = conn.connection  # the pooled DBAPI connection: its info lives as long as its session
+        dbapi = self.engine.dialect.loaded_dbapi
+        statement = create
+        try:
+            with record.dbapi_connection.cursor() as cursor:
+                if not record.info.get(_INCOMING):
+                    cursor.execute(create)
+                    record.info[_INCOMING] = True
+                statement = copy_sql
+                with cursor.copy(copy_sql) as copy:
+                    for row in rows:
+                        copy.write_row([row[name] if bind is None else bind(row[name]) for name, bind in columns])
+                statement = merge
+                cursor.execute(merge)
+                return cursor.rowcount
+        except BaseException as error:
+            # the table may have gone with the rolled-back transaction: create it again next time
+            record.info.pop(_INCOMING, None)
+            if not isinstance(error, dbapi.Error):
+                raise
+            if statement is create and getattr(error, "sqlstate", None) == _INSUFFICIENT_PRIVILEGE:
+                raise _NoTemporaryTables(str(error)) from error
+            raise sa_exc.DBAPIError.instance(statement, None, error, dbapi.Error,
+                                             dialect=self.engine.dialect) from error
 
     def _row(self, quantity, key: Key, version, value, params, method, elapsed_ns, created_at=None) -> dict:
         digest = key_digest(quantity, key, params, version)
@@ -513,8 +625,9 @@ class Store:
         -----
         One ``BEGIN IMMEDIATE`` transaction of ``INSERT ... ON CONFLICT DO
         NOTHING`` upserts, retried while another process holds the lock, so
-        overlapping writers store each key once.  Cost: the encoding of the
-        values plus one indexed insert each.
+        overlapping writers store each key once (on PostgreSQL: ``COPY``
+        into a temporary table and one such upsert, :meth:`_copy_rows`).
+        Cost: the encoding of the values plus one indexed insert each.
         """
         now = _now()
         rows = [self._row(*item, created_at=now) for item in items]

@@ -55,6 +55,7 @@ __all__ = [
     "is_cannot_open",
     "is_damaged",
     "is_readonly",
+    "is_rolled_back",
     "make_engine",
     "not_a_store",
     "reading",
@@ -255,7 +256,9 @@ def retry(action, *args, **kwargs):
 
     Waits with jittered exponential back-off (5 ms doubling to 250 ms) for
     up to :data:`LOCK_PATIENCE` seconds in all, then lets the last
-    ``OperationalError`` through; any other error is raised at once.
+    ``OperationalError`` through; any other error is raised at once.  A
+    transaction PostgreSQL rolled back to break a deadlock or a
+    serialization conflict (:func:`is_rolled_back`) is retried the same way.
     """
     deadline = time.monotonic() + LOCK_PATIENCE
     delay = 0.005
@@ -263,7 +266,7 @@ def retry(action, *args, **kwargs):
         try:
             return action(*args, **kwargs)
         except sa_exc.OperationalError as error:
-            if not is_busy(error) or time.monotonic() > deadline:
+            if not (is_busy(error) or is_rolled_back(error)) or time.monotonic() > deadline:
                 raise
         time.sleep(delay * (0.5 + random.random()))
         delay = min(delay * 2, 0.25)
@@ -277,6 +280,16 @@ def is_busy(error: BaseException) -> bool:
     """True when *error* says another process holds the database lock."""
     text = _driver_text(error)
     return "locked" in text or "busy" in text
+
+
+#: SQLSTATEs of a transaction the server rolled back so that another could go on
+#: (serialization_failure, deadlock_detected): running it again is the remedy.
+_ROLLED_BACK_STATES = frozenset({"40001", "40P01"})
+
+
+def is_rolled_back(error: BaseException) -> bool:
+    """True when PostgreSQL rolled the transaction back to break a deadlock or a serialization conflict."""
+    return getattr(getattr(error, "orig", error), "sqlstate", None) in _ROLLED_BACK_STATES
 
 
 def is_readonly(error: BaseException) -> bool:
