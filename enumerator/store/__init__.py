@@ -15,11 +15,17 @@ One concept per module, each importing only the ones above it in this list:
 - :mod:`~enumerator.store.migrations` — the steps that upgrade an older store;
 - :mod:`~enumerator.store.engine` — locations, the SQLAlchemy engine,
   transactions, locks and failures;
+- :mod:`~enumerator.store.entries` — stored rows read back
+  (:class:`StoredEntry`): their exact values, their audit against a fresh
+  computation, their export;
 - :mod:`~enumerator.store.database` — :class:`Store`: opening (create,
   check, upgrade), reads, writes, verification, export;
 - :mod:`~enumerator.store.context` — which store a computation uses
   (:func:`using`, :func:`bypass`, :func:`remember`, :func:`open_store`);
-- :mod:`~enumerator.store.tables` — grids of counts built into a store.
+- :mod:`~enumerator.store.tables` — grids of counts built into a store and
+  read back in bounded batches;
+- :mod:`~enumerator.store.cluster` — tables, enumeration sums and listings
+  on a Dask cluster (imported only by the commands that use one).
 
 The names below are imported on first use (module ``__getattr__``), so
 importing this package, or reading a stored value through
