@@ -451,8 +451,25 @@ _BLOCK = 1 << 16
 def evaluate_block(node, block):
     """*node* (a parsed event) on every row of an integer numpy array of configurations.
 
-    Returns a boolean numpy array, one entry per row; cost one vectorised
-    pass per comparison in the event.
+    Parameters
+    ----------
+    node : event node
+        A parsed event (:func:`~enumerator.algorithms.event_language.parse_event`):
+        ``Not``/``And``/``Or`` of comparisons of a statistic with a number.
+    block : numpy.ndarray
+        Integer array, one configuration per row.
+
+    Returns
+    -------
+    numpy.ndarray
+        Booleans, one per row.
+
+    Notes
+    -----
+    A recursive walk of the event tree; each comparison is one vectorised
+    pass over the block (the statistic's ``block_value`` from the registry in
+    :mod:`~enumerator.algorithms.vocabulary`, then a NumPy comparison), so the
+    cost is linear in the block's size times the comparisons in the event.
     """
     import numpy as np
 

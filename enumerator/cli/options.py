@@ -219,12 +219,37 @@ def workers_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
 
     Commands whose workers do something other than :data:`Workers` says
     (build table rows, write listing shards) declare their own alias with it.
+
+    Parameters
+    ----------
+    help : str
+        The option's ``--help`` text.
+    panel : str or None
+        The rich help panel (None: the default ``Options`` panel).
+
+    Returns
+    -------
+    typing.Annotated
+        ``Optional[int]`` with its ``typer.Option``, for a parameter's annotation.
     """
     return Annotated[Optional[int], typer.Option("--workers", min=1, metavar="K", help=help, rich_help_panel=panel)]
 
 
 def cluster_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
-    """The ``--cluster ADDRESS`` option with a command's own *help* text and help *panel*."""
+    """The ``--cluster ADDRESS`` option with a command's own *help* text and help *panel*.
+
+    Parameters
+    ----------
+    help : str
+        The option's ``--help`` text.
+    panel : str or None
+        The rich help panel (None: the default ``Options`` panel).
+
+    Returns
+    -------
+    typing.Annotated
+        ``Optional[str]`` with its ``typer.Option``, for a parameter's annotation.
+    """
     return Annotated[Optional[str], typer.Option("--cluster", metavar="ADDRESS", help=help, rich_help_panel=panel)]
 
 

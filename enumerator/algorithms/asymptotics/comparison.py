@@ -99,6 +99,12 @@ def float_or_text(value) -> Union[float, str, None]:
         (``"1.1481306952742545e+602"``), so nothing overflows to ``inf`` or
         underflows to ``0.0``.
 
+    Notes
+    -----
+    Two comparisons against the normal double range
+    (``2.2e-308 .. 1.8e308``) and one conversion or ``mpmath.nstr``:
+    constant cost (17 digits).
+
     Examples
     --------
     >>> float_or_text(mpf(2) ** -2000), float_or_text(mpf(2) ** 2000), float_or_text(mpf("0.25"))
@@ -197,6 +203,21 @@ class Comparison:
 
 def local_order(before: Optional[Row], row: Row, variable: str) -> Optional[float]:
     """The order between a computed row and the computed row *before* it (``None`` where undefined).
+
+    Parameters
+    ----------
+    before : Row or None
+        The previous computed row of the sweep.
+    row : Row
+    variable : str
+        The varied parameter (``"balls"``, ``"urns"``, ...).
+
+    Returns
+    -------
+    float or None
+        The observed order ``p`` (relative error ``~ C x^{-p}``) between the
+        two points; ``None`` without a previous row, for a skipped row, or
+        where an error is zero or undefined.
 
     Notes
     -----
@@ -305,6 +326,12 @@ def iter_rows(entry: Approximation, points: Iterable[Point],
     Row
         Computed or skipped; a skipped point never stops the sweep.
 
+    Notes
+    -----
+    Lazy: each row costs one :func:`evaluate` (its exact side checked
+    against the limits first by ``entry.cost``, then the approximation), and
+    nothing is kept, so memory is that of one row.
+
     Examples
     --------
     >>> entry = approximation("empty-mean")
@@ -318,6 +345,18 @@ def iter_rows(entry: Approximation, points: Iterable[Point],
 
 def finish(entry: Approximation, rows: Sequence[Row], variable: str = "balls") -> Comparison:
     """The :class:`Comparison` of computed and skipped *rows*: the observed order over the computed ones.
+
+    Parameters
+    ----------
+    entry : Approximation
+    rows : sequence of Row
+        In sweep order, skipped rows included.
+    variable : str
+        The varied parameter.
+
+    Returns
+    -------
+    Comparison
 
     Notes
     -----

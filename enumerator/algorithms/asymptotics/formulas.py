@@ -220,7 +220,20 @@ def empty_mean(balls, urns) -> Fraction:
 
 
 def empty_mean_cost(balls: int, urns: int) -> Cost:
-    """Estimated time and memory of :func:`empty_mean`: two powers of ``n log2 r`` bits."""
+    """Estimated time and memory of :func:`empty_mean`: two powers of ``n log2 r`` bits.
+
+    Parameters
+    ----------
+    balls, urns : int
+        ``n`` and ``r``.
+
+    Returns
+    -------
+    Cost
+        Three products and four integers of ``n log2 r`` bits, rated by
+        :func:`~enumerator.core.limits.product_seconds` and
+        :func:`~enumerator.core.limits.bigint_bytes`.
+    """
     bits = max(64.0, balls * math.log2(max(urns, 2)))
     return Cost(seconds=3 * limits.product_seconds(bits), memory=4 * limits.bigint_bytes(bits))
 
@@ -244,12 +257,23 @@ def _empty_routes(n: int, r: int, j: int) -> Tuple[float, float, float]:
 def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     """Estimated time and memory of :func:`empty_urns_at_most` (the cheaper of its two routes).
 
+    Parameters
+    ----------
+    balls, urns, at : int
+        ``n``, ``r`` and ``j``.
+
+    Returns
+    -------
+    Cost
+
     Notes
     -----
     The Stirling route costs ``j + 1`` Stirling numbers of about ``min(k, n)``
-    powers each, inclusion–exclusion ``r - j`` powers of ``n log2 r`` bits;
-    each power is rated at :func:`~enumerator.core.limits.product_seconds`
-    of that size.  A handful of such numbers live at once.
+    powers each; inclusion–exclusion ``(r - j)/2`` powers ``o^n`` of ``n log2 r``
+    bits (the odd bases; even ones are shifts) and about eight products per
+    odd base, plus two binomials of ``r`` bits per term; each product is
+    rated at :func:`~enumerator.core.limits.product_seconds` of its size.  A
+    handful of such numbers live at once.
     """
     if at >= urns:
         return Cost(seconds=1e-6, memory=64)

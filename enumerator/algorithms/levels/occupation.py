@@ -426,6 +426,25 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
 def parse_factor(value) -> Fraction:
     """A Boltzmann factor ``x = e^{-β u}``: an exact rational with ``0 < x < 1``.
 
+    Parameters
+    ----------
+    value : int, Fraction or str
+        ``"1/2"``, ``"0.3"``: exact (see
+        :func:`~enumerator.algorithms.levels.spectra.parse_rational`).
+
+    Returns
+    -------
+    Fraction
+
+    Raises
+    ------
+    InvalidParameters
+        Not a number, a float, or outside ``(0, 1)``.
+
+    Notes
+    -----
+    ``fractions.Fraction`` parsing, linear in the length of the text.
+
     Examples
     --------
     >>> parse_factor("1/2")
@@ -442,7 +461,28 @@ def parse_factor(value) -> Fraction:
 
 
 def factor_temperature(factor: Fraction, unit: Fraction, digits: int = DEFAULT_DIGITS) -> Fraction:
-    """The temperature ``k_B T = u / ln(1/x)`` of a Boltzmann factor, to *digits* digits (a binary fraction)."""
+    """The temperature ``k_B T = u / ln(1/x)`` of a Boltzmann factor, to *digits* digits (a binary fraction).
+
+    Parameters
+    ----------
+    factor : Fraction
+        ``x = e^{-u/k_B T}``, ``0 < x < 1`` (:func:`parse_factor`).
+    unit : Fraction
+        The energy unit ``u`` of the spectrum.
+    digits : int
+        Significant decimal digits (plus the guard digits).
+
+    Returns
+    -------
+    Fraction
+        The mpmath value of ``u / ln(1/x)`` taken exactly
+        (:func:`~enumerator.algorithms.levels.spectra.parse_temperature`).
+
+    Notes
+    -----
+    One logarithm and one division in mpmath at ``digits + GUARD_DIGITS``
+    digits: quasi-linear in the digits (mpmath's ``log``, AGM or Taylor).
+    """
     with mpmath.workdps(digits + GUARD_DIGITS):
         t = mpmath.mpf(unit.numerator) / unit.denominator / mpmath.log(mpmath.mpf(factor.denominator) / factor.numerator)
         return parse_temperature(t)
