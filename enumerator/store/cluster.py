@@ -161,6 +161,10 @@ def local_cluster(workers: int, processes: bool = True) -> Iterator[object]:
     processes : bool
         Separate processes (the default: the arithmetic holds the GIL).
 
+    Yields
+    ------
+    distributed.LocalCluster
+
     Notes
     -----
     Dask's nannies start workers with ``MALLOC_TRIM_THRESHOLD_=65536``,
@@ -636,6 +640,22 @@ def enumeration_counts_distributed(model: UrnModel, value_of_block: Callable[[ob
     client merges one dict per shard.  *before* is called with the number of
     workers before anything is sent (a cost check).
 
+    Parameters
+    ----------
+    model : UrnModel
+    value_of_block : callable
+        Picklable: an integer numpy block of configurations to
+        ``{value: exact int}``.
+    start, stop : int
+        The ranks ``[start, stop)`` (default: all).
+    shards, block, workers, cluster, client, progress, before
+        As :func:`enumeration_sum_distributed`.
+
+    Returns
+    -------
+    dict
+        ``{value: exact int}`` summed over the range.
+
     Notes
     -----
     Cost: the listing of the range spread over the workers, plus one
@@ -933,7 +953,26 @@ def distribution_distributed(model: UrnModel, statistic, *, limit: Optional[int]
 # ---------------------------------------------------------------------------
 
 def shard_file_name(lo: int, hi: int, stop: int, extension: str) -> str:
-    """The file of ranks ``[lo, hi)``: ``ranks-LO-HI.EXT``, zero-padded to the digits of *stop* (sorts in rank order)."""
+    """The file of ranks ``[lo, hi)``: ``ranks-LO-HI.EXT``, zero-padded to the digits of *stop* (sorts in rank order).
+
+    Parameters
+    ----------
+    lo, hi : int
+        The shard's ranks ``[lo, hi)``.
+    stop : int
+        The end of the whole listing (sets the width).
+    extension : str
+        ``csv`` or ``jsonl``.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> shard_file_name(0, 50, 120, "csv")
+    'ranks-000-050.csv'
+    """
     width = len(str(stop))
     return f"ranks-{lo:0{width}d}-{hi:0{width}d}.{extension}"
 

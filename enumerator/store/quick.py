@@ -65,6 +65,15 @@ def file_kind(path: Path) -> str:
     ``"unreadable"``, ``"wal"`` (an SQLite database in WAL mode), ``"sqlite"`` (another
     journal mode) or ``"other"`` (not an SQLite database).
 
+    Parameters
+    ----------
+    path : pathlib.Path
+
+    Returns
+    -------
+    str
+        One of the six words above.
+
     Notes
     -----
     The journal mode is the file-format write version, byte 18 of the

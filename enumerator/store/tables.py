@@ -508,6 +508,15 @@ class StoredTable:
     def stored(self, balls: Optional[range] = None, urns: Optional[range] = None) -> int:
         """Return how many cells of the table (or of the window *balls* x *urns*) are stored.
 
+        Parameters
+        ----------
+        balls, urns : range, optional
+            A window of the grid (default: the whole table), clipped to it.
+
+        Returns
+        -------
+        int
+
         Notes
         -----
         One ``count(*)`` query (:meth:`~enumerator.store.database.Store.count_cells`).
@@ -519,6 +528,16 @@ class StoredTable:
 
     def cells(self, balls: Optional[range] = None, urns: Optional[range] = None) -> Iterator[Cell]:
         """Yield the stored cells (of the window *balls* x *urns*) as ``(n, r, text, digits)``, by ``r`` then ``n``.
+
+        Parameters
+        ----------
+        balls, urns : range, optional
+            A window of the grid (default: the whole table), clipped to it.
+
+        Yields
+        ------
+        tuple
+            ``(n, r, decimal text, digit count)`` of each stored cell.
 
         Raises
         ------
@@ -602,6 +621,17 @@ class TableData:
 
 def open_table(name: str, store=None) -> StoredTable:
     """Find the table *name* in the store (nothing else is read).
+
+    Parameters
+    ----------
+    name : str
+    store : Store, str or None
+        The store or its location (default: the active store).
+
+    Returns
+    -------
+    StoredTable
+        Its cells are read on demand (:meth:`StoredTable.cells`).
 
     Raises
     ------
@@ -821,6 +851,19 @@ class _Spill:
 def wide_rows(spec: TableSpec, cells: Iterable[Cell]) -> Iterator[Tuple[int, List[Optional[str]]]]:
     """Turn cells in any order into the rows ``(n, [value text or None for each r])`` of the matrix.
 
+    Parameters
+    ----------
+    spec : TableSpec
+        The grid the cells belong to.
+    cells : iterable of tuple
+        ``(n, r, decimal text, digits)``, in any order.
+
+    Yields
+    ------
+    tuple
+        ``(n, values)`` for each ``n`` of the grid in order; ``values`` has
+        one text per ``r`` (``None`` for a cell not stored).
+
     Notes
     -----
     One pass over *cells* writes each value to an unnamed temporary file
@@ -879,12 +922,36 @@ def export_table(data: Union[StoredTable, TableData], fmt: str = "csv", layout: 
 
 
 def value_approx(text: str) -> float:
-    """The nearest double of a decimal text (``inf`` beyond the double range, about ``1.8e308``)."""
+    """The nearest double of a decimal text (``inf`` beyond the double range, about ``1.8e308``).
+
+    Parameters
+    ----------
+    text : str
+        Decimal digits of a non-negative integer.
+
+    Returns
+    -------
+    float
+        Python's correctly rounded ``float(text)``; ``inf`` for more than
+        309 digits without parsing them (constant cost there, else linear).
+    """
     return math.inf if len(text) > 309 else float(text)
 
 
 def log10_approx(text: str) -> float:
-    """``log10`` of a non-negative decimal text to double precision (``-inf`` for 0), from its first 17 digits."""
+    """``log10`` of a non-negative decimal text to double precision (``-inf`` for 0), from its first 17 digits.
+
+    Parameters
+    ----------
+    text : str
+        Decimal digits of a non-negative integer, without leading zeros.
+
+    Returns
+    -------
+    float
+        ``(digits - 17) + log10(first 17 digits)``: the dropped digits
+        change it by less than ``1e-16``; constant cost.
+    """
     head = text[:17]
     if int(head) == 0:
         return -math.inf
