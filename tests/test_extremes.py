@@ -108,3 +108,33 @@ def test_long_laws_are_refused_under_a_short_limit_with_their_estimate():
             Occupancy(balls=10 ** 4, urns=1024).distribution("max", store=None)
         with pytest.raises(TooLarge, match="minutes|hours"):
             Occupancy(balls=2000, weights="200x1,200x2,200x3,200x4,200x5").distribution("max", store=None)
+
+
+@pytest.mark.parametrize("n, groups", [
+    (6, [(2, 0, 6, 1), (1, 0, 6, 3)]),
+    (7, [(1, 0, 7, 2), (2, 0, 7, 1), (1, 0, 7, 5)]),
+    (7, [(3, 0, 7, 1)]),
+])
+def test_levels_over_weighted_groups_equal_brute_force(n, groups):
+    from enumerator.algorithms.group_laws import _mb_free_capped
+
+    weights = [w for c, _, _, w in groups for _ in range(c)]
+    for m in range(1, n + 1):
+        # every assignment of labelled balls with at most m per urn, weighed prod w_i (written out)
+        expected = sum(math.prod(weights[i] for i in a) for a in itertools.product(range(len(weights)), repeat=n)
+                       if max(a.count(i) for i in range(len(weights))) <= m)
+        assert _mb_free_capped(groups, n, m) == expected
+
+
+def test_weighted_max_law_takes_both_routes_and_agrees_with_brute_force(monkeypatch):
+    from enumerator.algorithms import group_laws
+    from enumerator.algorithms.statistics import distribution
+    from enumerator.core.model import UrnModel
+
+    weights = [1, 1, 2, 3, 3]
+    expected = _weighted_max_law(7, weights)  # brute force over the 5^7 assignments
+    for choice in (True, False):
+        # the pure computation (no store), once by each route
+        monkeypatch.setattr(group_laws, "_levels_first", lambda *args, choice=choice: choice)
+        got = distribution(UrnModel(balls=7, weights=weights), "max").pmf
+        assert {m: Fraction(p) for m, p in got.items()} == expected
