@@ -10,7 +10,9 @@ never with ``r``:
   groups capped below ``m``;
 * ``max``/``min`` by grouped bounded counts, with the one-term
   inclusion–exclusion for ``2(m+1) > n`` (Riordan, *An Introduction to
-  Combinatorial Analysis*, 1958, ch. 5);
+  Combinatorial Analysis*, 1958, ch. 5) and, for free MB groups, a level
+  recursion with one level index per group (:func:`_mb_free_capped`)
+  wherever it is estimated cheaper (large ``m``: few urns can exceed it);
 * ``urn:I`` by the urn's weight times the other groups' row (binomial under
   MB when the others are free);
 * counting statistics by the bivariate generating function of the groups
@@ -224,8 +226,12 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     r"""``{m: weight with max == m}`` by groups: one grouped count per ``m`` (uppers lowered to ``m``).
 
     For MB with every group free, the ``m`` with ``2(m+1) > n`` come from
-    one pass of suffix sums (:func:`_mb_free_tail`).  Cost: the sum over
-    ``m`` of :func:`~enumerator.algorithms.grouped.row_cost` (checked first).
+    one pass of suffix sums (:func:`_mb_free_tail`), and each other ``m``
+    from the levels over the groups (:func:`_mb_free_capped`) when those are
+    estimated cheaper.  Cost: the sum over ``m`` of the route taken
+    (:func:`_bound_cost`), checked first.  MB 2000 balls in 5 groups of 200
+    urns: about 1.1 s per ``m`` below ``m = 250`` (three FLINT
+    convolutions), well under 1 s above.
     """
     n, r = model.balls, model.urns
     groups, _ = grouped.integer_groups(model)
