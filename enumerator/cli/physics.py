@@ -13,6 +13,7 @@ from typing import Annotated, Optional
 import typer
 
 from ..core.errors import InvalidParameters, TooLarge
+from .app import FLAGS
 from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
 from .render import emit_json
 
@@ -25,10 +26,6 @@ _OUTPUT = OUTPUT_PANEL
 _LEVELS = "Levels"
 _PRESET = "Preset (instead of --energies/--degeneracies)"
 _THERMO = "Thermodynamics"
-
-#: How the omitted-multiplicities note spells library parameters.
-_FLAGS = {"max_energy": "--max-energy", "max_memory": "--max-memory", "max_seconds": "--max-seconds",
-          "particles": "--particles", "limit": "--limit"}
 
 
 def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None):
@@ -246,7 +243,7 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
             # Asked for canonical results only: say why the table is missing instead of failing.
             if max_energy is not None or not temps or micro:
                 raise
-            omitted = error.spelled(_FLAGS)
+            omitted = error.spelled(FLAGS)  # spelled as the CLI spells every error
     if micro and counts is None:
         raise InvalidParameters("--microcanonical needs the multiplicities: give --max-energy",
                                 parameters=["max_energy"])
