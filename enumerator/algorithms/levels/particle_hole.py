@@ -200,6 +200,22 @@ def _shifted_dot(a: arb_poly, b: arb_poly, shift: int) -> arb:
     return total
 
 
+def _level_terms(g: int, y: arb, without: arb_poly, other: arb_poly, offset: int, top: int) -> List[arb]:
+    """``C(g, j) y^j Σ_h without_h other_{h + offset + j}`` for ``j = 0..top``: one level's law terms.
+
+    *j* particles (above the Fermi level) or holes (below it) in a level of
+    degeneracy *g* with Boltzmann factor *y* per particle or hole; *without*
+    is the generating polynomial of the same side without that level and
+    *other* that of the other side.  Positive terms; ``top + 1`` dot products.
+    """
+    terms = []
+    yk = arb(1)
+    for j in range(top + 1):
+        terms.append(math.comb(g, j) * yk * _shifted_dot(without, other, offset + j))
+        yk = yk * y
+    return terms
+
+
 # --------------------------------------------------------------------------
 # Shells
 # --------------------------------------------------------------------------
@@ -426,10 +442,8 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             g = below[i][1]
             y = (-(b * (e_p - law_energy))).exp()
             without = _trunc(h_pre[i] * h_suf[i + 1], hlen)
-            yk = arb(1)
-            for h in range(min(g, cut[law_energy], hmax) + 1):
-                law_sums[g - h] = math.comb(g, h) * yk * _shifted_dot(without, S[0], n_p + h)
-                yk = yk * y
+            for h, term in enumerate(_level_terms(g, y, without, S[0], n_p, min(g, cut[law_energy], hmax))):
+                law_sums[g - h] = term  # h holes: g - h particles in the level
         elif law_energy == e_p:
             for m in range(g_p + 1):
                 law_sums[m] = math.comb(g_p, m) * _shifted_dot(H[0], P[0], n_p - m)
@@ -438,10 +452,8 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             g = above[i][1]
             y = (-(b * (law_energy - e_p))).exp()
             without = _trunc(p_pre[i] * p_suf[i + 1], plen)
-            yk = arb(1)
-            for k in range(min(g, cut[law_energy], pmax) + 1):
-                law_sums[k] = math.comb(g, k) * yk * _shifted_dot(without, e_side, k)
-                yk = yk * y
+            for k, term in enumerate(_level_terms(g, y, without, e_side, 0, min(g, cut[law_energy], pmax))):
+                law_sums[k] = term
 
     # Truncation: configurations using rungs above `top`, more than `hmax`
     # holes or more than `pmax` particles (see the module docstring).
