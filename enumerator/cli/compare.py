@@ -13,7 +13,17 @@ from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, NoCache, Store, limits_scope, store_scope
+from .options import (
+    OUTPUT_PANEL,
+    Json,
+    MaxMemory,
+    MaxSeconds,
+    NoCache,
+    Store,
+    limits_scope,
+    plot_option,
+    store_scope,
+)
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -22,6 +32,9 @@ __all__ = ["commands"]
 commands = typer.Typer()
 
 _OUTPUT = OUTPUT_PANEL
+
+#: ``compare --plot``.
+ComparePlot = plot_option("Also draw |relative error| against the varied parameter, log-log, to FILE.png.")
 _SWEEP = "Sweep (a whole number, or an expression of the --vary name)"
 
 
@@ -95,11 +108,7 @@ def compare_command(
     as_csv: Annotated[
         bool, typer.Option("--csv", rich_help_panel=_OUTPUT, help="Print CSV rows (exact values whole)."),
     ] = False,
-    plot: Annotated[
-        Optional[str],
-        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
-                     help="Also draw |relative error| against the varied parameter, log-log, to FILE.png."),
-    ] = None,
+    plot: ComparePlot = None,
     show_list: Annotated[
         bool, typer.Option("--list", help="List the catalogue of approximations and exit."),
     ] = False,

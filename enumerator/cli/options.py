@@ -253,6 +253,23 @@ def cluster_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
     return Annotated[Optional[str], typer.Option("--cluster", metavar="ADDRESS", help=help, rich_help_panel=panel)]
 
 
+def plot_option(help: str):
+    """The ``--plot FILE.png`` option (in the output panel) with a command's own *help* text.
+
+    Parameters
+    ----------
+    help : str
+        What the command draws.
+
+    Returns
+    -------
+    typing.Annotated
+        ``Optional[str]`` with its ``typer.Option``, for a parameter's annotation.
+    """
+    return Annotated[Optional[str], typer.Option("--plot", metavar="FILE.png", rich_help_panel=OUTPUT_PANEL,
+                                                 help=help)]
+
+
 Workers = workers_option(
     "Where the answer needs every configuration listed, list it on a local Dask cluster "
     "of K processes, in equal shards of the rank range (needs Dask: the cluster extra of "

@@ -14,7 +14,7 @@ import typer
 
 from ..core.errors import InvalidParameters, TooLarge
 from .app import FLAGS
-from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope, plot_option
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -26,6 +26,11 @@ _OUTPUT = OUTPUT_PANEL
 _LEVELS = "Levels"
 _PRESET = "Preset (instead of --energies/--degeneracies)"
 _THERMO = "Thermodynamics"
+
+#: ``levels --plot``.
+LevelsPlot = plot_option("Draw what was computed: multiplicity against energy; canonical occupations "
+                         "against the grand-canonical formula; with several temperatures C(T), U(T), <N0>(T) "
+                         "and δN0(T) against the grand-canonical curves; with --occupation-law the law P(n = k).")
 
 
 def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None):
@@ -158,13 +163,7 @@ def levels_command(
         bool,
         _levels_opt("--microcanonical", "Also give ln Ω(E) and T(E) = 1/(d ln Ω/dE) (central differences).", _THERMO),
     ] = False,
-    plot: Annotated[
-        Optional[str],
-        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
-                     help="Draw what was computed: multiplicity against energy; canonical occupations "
-                     "against the grand-canonical formula; with several temperatures C(T), U(T), <N0>(T) "
-                     "and δN0(T) against the grand-canonical curves; with --occupation-law the law P(n = k)."),
-    ] = None,
+    plot: LevelsPlot = None,
     as_json: Json = False,
     max_memory: MaxMemory = None,
     max_seconds: MaxSeconds = None,

@@ -38,6 +38,9 @@ cache_app = typer.Typer(
 commands.add_typer(table_app, name="table")
 commands.add_typer(cache_app, name="cache")
 
+#: ``table export --output`` and ``cache export --output``.
+OutputFile = Annotated[Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout.")]
+
 #: ``table build --workers/--cluster``: the rows are computed on the cluster (in the default help panel).
 BuildWorkers = workers_option("Compute the rows on a local Dask cluster of K processes "
                               "(needs Dask: the cluster extra of enumerator).", panel=None)
@@ -443,9 +446,7 @@ def table_export_command(
                      help="long: one line per cell with n, r, the exact value and its number of "
                      "digits; wide: the n x r matrix, one line per n and one column per r."),
     ] = TableLayout.long,
-    output: Annotated[
-        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
-    ] = None,
+    output: OutputFile = None,
     store: Store = None,
 ) -> None:
     """Export a lookup table with every value exact and in full.
@@ -668,9 +669,7 @@ def cache_export_command(
         typer.Option("--format", case_sensitive=False,
                      help="csv (with a header) or jsonl (one JSON object a line); exact values in full."),
     ] = EntryFormat.jsonl,
-    output: Annotated[
-        Optional[str], typer.Option("--output", "-o", help="Write to this file instead of stdout."),
-    ] = None,
+    output: OutputFile = None,
     store: Store = None,
 ) -> None:
     """Export every stored result with its key, exact value, digits, method and time.
