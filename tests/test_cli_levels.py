@@ -15,7 +15,7 @@ from fractions import Fraction
 
 import mpmath
 import pytest
-from cli_helpers import run, run_json
+from cli_helpers import one_line_error, run, run_json
 from reference import level_microstates
 
 
@@ -352,3 +352,10 @@ def test_a_boltzmann_factor_reaches_the_particle_hole_route():
     (entry,) = payload["canonical"]
     assert entry["route"] == "particle-hole" and entry["factor"] == "1/1000"
     assert entry["temperature"] == pytest.approx(1 / math.log(1000), rel=1e-15)
+
+
+def test_temperatures_beyond_the_float_range_are_refused_in_one_line():
+    # the *_approx fields are doubles, so k_B T must stay inside their range (common practice: IEEE 754)
+    for text in ("1e400", "1e-400"):
+        message = one_line_error(run("levels", "--preset", "two-level", "--particles", "2", "--temperatures", text))
+        assert "outside 1e-300..1e300" in message

@@ -140,7 +140,8 @@ def parse_temperature(value) -> Fraction:
     Raises
     ------
     InvalidParameters
-        Not a number, not finite, or not positive.
+        Not a number, not finite, not positive, or outside ``1e-300 .. 1e300``
+        (the reported floats could not follow it).
 
     Notes
     -----
@@ -164,7 +165,22 @@ def parse_temperature(value) -> Fraction:
         number = parse_rational(value, "temperature")
     if number <= 0:
         raise InvalidParameters(f"temperature must be positive (got {value}); give k_B T in the energy unit")
+    if not _TEMPERATURE_RANGE[0] <= number <= _TEMPERATURE_RANGE[1]:
+        raise InvalidParameters(
+            f"temperature {_short_number(number)} is outside 1e-300..1e300 (in the energy unit), where "
+            "the reported floats cannot follow it; give k_B T within that range"
+        )
     return number
+
+
+#: Temperatures accepted by :func:`parse_temperature`: the ``*_approx`` fields
+#: (temperature, energies, heat capacity) must stay inside the double range.
+_TEMPERATURE_RANGE = (Fraction(1, 10**300), Fraction(10**300))
+
+
+def _short_number(number: Fraction) -> str:
+    """A huge or tiny positive rational as a short decimal text (``1e+400``), for messages."""
+    return mpmath.nstr(mpmath.mpf(number.numerator) / number.denominator, 3)
 
 
 def _split_list(values, name: str) -> list:
