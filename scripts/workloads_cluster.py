@@ -9,7 +9,8 @@
   (``event_count``).
 * ``table-sqlite-vs-postgres``: the same table built into SQLite and into
   PostgreSQL (a throw-away server from ``tests/pg_server.py``), one process
-  and 2 workers, side by side.
+  and 2 workers, side by side; PostgreSQL both by the store's COPY write path
+  and by the multi-row INSERT it replaced.
 
 Quick mode (``--quick``, run by the test suite) keeps each workload to a few
 seconds: the clusters are in-process (threads, not processes: they start in
@@ -236,43 +237,59 @@ def register(bench) -> None:
                           notes=[f"skipped: no PostgreSQL server ({error})"])
         rounds = 3
         root = tempfile.mkdtemp(prefix="enumerator-pg-bench-")
+        #: (label, backend, PostgreSQL write path); the INSERT path is the multi-row
+        #: INSERT ... ON CONFLICT the store used before COPY (still its path without TEMPORARY)
+        configs = (("SQLite", "sqlite", None), ("PostgreSQL", "postgres", "copy"),
+                   ("PostgreSQL by INSERT", "postgres", "insert"))
         times = {}
         answers = {}
         try:
             with cluster(ctx, 2) as (client, _):
-                for label, where in (("SQLite", "sqlite"), ("PostgreSQL", "postgres")):
+                for i in range(rounds):  # interleaved: each round builds every configuration once
                     for how in ("one process", "2 workers"):
-                        seconds = []
-                        for i in range(rounds):
+                        for label, where, path in configs:
+                            url = None
                             if where == "sqlite":
                                 store = Store(os.path.join(root, f"{how}-{i}.sqlite"))
                             else:
-                                store = Store(pg_server.create_database(server.url))
+                                url = pg_server.create_database(server.url)
+                                store = Store(url)
+                                if path == "insert":
+                                    store._copy = None  # the store's own fallback: write by INSERT
                             t0 = time.perf_counter()
                             if how == "one process":
                                 build_table(spec, store=store)
                             else:
                                 build_table_distributed(spec, store=store, client=client)
-                            seconds.append(time.perf_counter() - t0)
-                        answers[label, how] = load_table(spec.default_name(), store).cells
-                        store.close()
-                        times[label, how] = (min(seconds), sorted(seconds)[1])
+                            times.setdefault((label, how), []).append(time.perf_counter() - t0)
+                            answers[label, how] = load_table(spec.default_name(), store).cells
+                            store.close()
+                            if url is not None:
+                                pg_server.drop_database(server.url, url)
         finally:
             from enumerator import store as results
 
             results.close_all()
             server.stop()
             shutil.rmtree(root, ignore_errors=True)
+        times = {key: (min(seconds), sorted(seconds)[len(seconds) // 2]) for key, seconds in times.items()}
         reference = answers["SQLite", "one process"]
         pg = times["PostgreSQL", "one process"]
         lite = times["SQLite", "one process"]
-        ours = measurement("PostgreSQL, one process", pg[0], pg[1], rounds, reference)
+        old = times["PostgreSQL by INSERT", "one process"]
+        ours = measurement("PostgreSQL (COPY), one process", pg[0], pg[1], rounds, reference)
         peer = measurement("SQLite, one process", lite[0], lite[1], rounds, reference)
-        notes = [f"{spec.cells} cells, best of {rounds}, each build into a fresh file / database; "
+        before = measurement("PostgreSQL by INSERT, one process", old[0], old[1], rounds, reference)
+        notes = [f"{spec.cells} cells; {rounds} interleaved rounds, each build into a fresh file / database; "
                  f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores"]
-        for (label, how), (best, _) in sorted(times.items()):
-            notes.append(f"{label:10s} {how:11s} {fmt_time(best)} ({best / spec.cells * 1e6:.0f} us/cell)")
-        result = Result("", "", ours, [peer], notes=notes)
+        for (label, how), (best, median) in sorted(times.items()):
+            notes.append(f"{label:20s} {how:11s} median {fmt_time(median)} ({median / spec.cells * 1e6:.0f} us/cell), "
+                         f"best {fmt_time(best)}")
+        for how in ("one process", "2 workers"):
+            notes.append(f"{how}: PostgreSQL / SQLite {times['PostgreSQL', how][1] / times['SQLite', how][1]:.2f}x, "
+                         f"INSERT path / COPY path {times['PostgreSQL by INSERT', how][1] / times['PostgreSQL', how][1]:.1f}x"
+                         " (medians)")
+        result = Result("", "", ours, [peer, before], notes=notes)
         for key, cells in answers.items():
             if cells != reference:
                 result.mismatches.append(f"{key} cells differ from SQLite, one process")
