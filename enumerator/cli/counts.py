@@ -556,7 +556,7 @@ Sparse = Annotated[
     typer.Option(
         "--sparse",
         help="Write each vector sparsely: the occupied urns with their counts (csv: "
-        "urn:count pairs; jsonl/--json: [urn, count] pairs). Automatic above 1,048,576 urns.",
+        "urn:count pairs; jsonl/--json: \\[urn, count] pairs). Automatic above 1,048,576 urns.",
     ),
 ]
 

@@ -59,7 +59,7 @@ def gf_command(
             "--mark",
             metavar="empty|occupied|exactly:J|atleast:J",
             help="Also print the bivariate function whose u marks these urns "
-            "([x^n u^j] counts outcomes with j marked urns).",
+            "(\\[x^n u^j] counts outcomes with j marked urns).",
         ),
     ] = None,
     var: Var = "x",
@@ -71,8 +71,8 @@ def gf_command(
 ) -> None:
     """Print the model's generating function and its counts for 0..N balls.
 
-    BE and FD: the ordinary generating function, [x^m] = configurations of m
-    balls. MB: the exponential one, m! [x^m] = microstates of m balls. The
+    BE and FD: the ordinary generating function, \\[x^m] = configurations of m
+    balls. MB: the exponential one, m! \\[x^m] = microstates of m balls. The
     row comes from one exact series pass; N is --upto (default: --balls).
 
     Example:
