@@ -29,6 +29,7 @@ from enumerator.algorithms.levels import (
     harmonic_trap,
     make_spectrum,
     multiplicities,
+    multiplicity_table,
     thermal_contact,
     two_level,
 )
@@ -276,3 +277,87 @@ def test_rational_contact_in_the_users_unit_against_brute_force(n_a, n_b, gap_a,
     assert (s.mean, s.variance) == (contact.mean, contact.variance) == (mean, variance)
     assert s.mean_approx == pytest.approx(float(mean), rel=1e-15)
     assert s.variance_approx == pytest.approx(float(variance), rel=1e-15, abs=1e-300)
+
+
+# --------------------------------------------------------------------------
+# The table of every particle number: the excited-rows route
+# --------------------------------------------------------------------------
+def _table_by_all_rows(system, max_energy):
+    """The route the table took before: the particle-number recursion over all N + 1 rows."""
+    top_units = mult._to_units(max_energy, system.spectrum.unit)
+    n = system.particles
+    degree = top_units - min(0, n * system.spectrum.lowest)
+    polys = mult._partition_polynomials(system, n, degree)
+    return mult._table_rows(system, top_units, lambda m, d: mult.series.coefficients(polys[m], d))
+
+
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, rule, capacity, top",
+    [
+        ("0,1,2,5", "1,2,4,1", 14, "BE", None, 6),  # one ground state: prefix sums shared past the last row
+        ("0,1,2,5", "3,2,4,1", 12, "BE", None, 6),  # G_j = C(j + 2, 2): three passes
+        ("0,1,2,5", "3,2,4,1", 12, "FD", None, 6),  # G = (1 + x)^3
+        ("0,1,3", "4,2,3", 14, "BE", 3, 5),  # Gentile: at most 3 per state
+        ("0,1,2", "40,3,2", 9, "BE", None, 3),  # a ground degeneracy above the passes: one FLINT product
+        ("0,1,2", "40,3,2", 9, "FD", None, 3),
+        ("0,2,3", "2,2,1", 8, "BE", None, 9),  # the gap 2 halves the rows
+    ],
+)
+def test_table_by_excited_rows_matches_the_knapsack_and_the_old_route(energies, degeneracies, n, rule, capacity,
+                                                                     top):
+    # Brute force: the knapsack over single-particle states (defined above), row by row; and the
+    # recursion over all N + 1 rows, the route the table took before.
+    spectrum = make_spectrum(energies, degeneracies)
+    system = System.create(spectrum, n, rule, capacity)
+    assert mult._table_plan(system, top).route == "excited-table"
+    table = multiplicity_table(system, top)
+    states = [e for e, g in zip(spectrum.energies, spectrum.degeneracies) for _ in range(g)]
+    for m, row in enumerate(table):
+        reference = knapsack(states, m, top, system.capacity)
+        assert row == {e: reference[e] for e in row}
+        assert sum(row.values()) == sum(reference)  # no state below the row's first key is left out
+    assert table == _table_by_all_rows(system, top)
+
+
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, rule, top",
+    [("-1,1,2", "1,2,1", 8, "BE", 3), ("-1,1,2", "2,2,1", 8, "FD", -2), ("1/2,3/2,7/2", "1,1,3", 20, "BE", "15"),
+     ("0", "3", 5, "BE", 2), ("2,5", "1,2", 9, "BE", 25)],
+)
+def test_table_by_excited_rows_on_shifted_spectra_matches_the_old_route(energies, degeneracies, n, rule, top):
+    # Negative, rational and single-level spectra: the recursion over all N + 1 rows, and the one-row route
+    system = System.create(make_spectrum(energies, degeneracies), n, rule)
+    table = multiplicity_table(system, top)
+    assert table == _table_by_all_rows(system, top)
+    assert table == [multiplicities(System.create(system.spectrum, m, rule), top) for m in range(n + 1)]
+
+
+def test_table_takes_only_the_rows_it_needs(monkeypatch):
+    # 2,000 bosons in the 3D trap up to E = 60: 61 rows of the recursion, not 2,001.  The first
+    # rows against the coin count of excited states (brute force, as above): N >= E bosons with one
+    # ground state count the multisets of excited states.
+    seen = []
+    recursion = mult._partition_polynomials_of
+
+    def spy(z, w, top, degree):
+        seen.append(top)
+        return recursion(z, w, top, degree)
+
+    monkeypatch.setattr(mult, "_partition_polynomials_of", spy)
+    system = System.create(harmonic_trap().through(60), 2000, "BE")
+    table = mult.multiplicity_table(system, 60)
+    assert seen == [60]
+    states = [m for m in range(1, 61) for _ in range(math.comb(m + 2, 2))]
+    coins = coin_count(states, 60)
+    assert [table[2000][e] for e in range(61)] == coins
+    assert [table[5][e] for e in range(61)] == knapsack([m for m in range(61) for _ in range(math.comb(m + 2, 2))],
+                                                        5, 60)
+
+
+def test_table_refused_before_computing(monkeypatch):
+    monkeypatch.setattr(mult, "_partition_polynomials_of", lambda *a, **k: pytest.fail("computed past the limit"))
+    system = System.create(harmonic_trap().through(300), 10**5, "BE")
+    assert mult._table_plan(system, 300).route == "excited-table"
+    with limited(memory="64M"):
+        with pytest.raises(TooLarge, match="max_memory="):
+            mult.multiplicity_table(system, 300)
