@@ -1,0 +1,55 @@
+"""Benchmark workloads of the multiplicity table of every particle number.
+
+``scripts/bench.py`` loads this file and calls :func:`register`.
+
+* ``levels-table-trap-bosons-10^3-E200``: ``Ω(n, E)`` for every
+  ``n = 0..10^3`` bosons in the 3D harmonic trap and ``E <= 200``
+  (:func:`enumerator.algorithms.levels.multiplicity_table`: the 201 rows of
+  the excited levels, then one prefix sum over ``n`` for the single ground
+  state), against the particle-number recursion over all ``N + 1`` rows (the
+  route the table took before).  ``--quick``: 400 bosons, ``E <= 120``.
+"""
+
+from __future__ import annotations
+
+
+def register(bench) -> None:
+    """Declare the workloads of this file in *bench* (``scripts/bench.py``)."""
+    Method = bench.Method
+
+    @bench.workload("levels-table-trap-bosons-10^3-E200",
+                    "Omega(n, E) for n = 0..10^3 bosons in the 3D trap, E <= 200 (quick: 400, E <= 120): "
+                    "the excited rows then the ground state's prefix sum vs the recursion over N+1 rows",
+                    target=bench.faster_by(1))
+    def _table(ctx):
+        import importlib
+
+        from enumerator.algorithms.levels import System, harmonic_trap, multiplicity_table
+
+        mult = importlib.import_module("enumerator.algorithms.levels.multiplicities")
+        particles, top = (400, 120) if ctx.quick else (1000, 200)
+
+        def digest(rows):
+            # every row's total count and its count at the top energy: equal tables give equal digests
+            return tuple((sum(row.values()), row.get(top)) for row in rows)
+
+        def system(n, e):
+            return System.create(harmonic_trap().through(e), n, "BE")
+
+        def ours():
+            return digest(multiplicity_table(system(particles, top), top))
+
+        def all_rows(n=particles, e=top):
+            sy = system(n, e)
+            polys = mult._partition_polynomials(sy, n, e)
+            return digest(mult._table_rows(sy, e, lambda m, d: mult.series.coefficients(polys[m], d)))
+
+        def scaled(s):
+            return lambda: all_rows(max(8, int(particles * s)), max(4, int(top * s)))
+
+        cells = (particles + 1) * (top + 1)
+        return ctx.compare(Method("enumerator multiplicity_table (excited rows)", ours),
+                           [Method("particle-number recursion, N+1 rows", all_rows, scaled=scaled)],
+                           items=cells,
+                           notes=[f"answer: the {cells:,} multiplicities (digest: each row's total and "
+                                  "its count at the top energy)"])
