@@ -228,3 +228,25 @@ def test_a_total_energy_off_the_grid_has_no_microstate():
                        "--preset-b", "two-level", "--gap-b", "1/2", "--particles-b", 3, "--energy", "3/4")
     assert payload["total"] == "0" and payload["most_probable"] is None
     assert not any(int(v) for v in payload["split"].values())
+
+
+def test_rational_summary_is_a_scaled_hypergeometric_law():
+    # N_A + N_B distinguishable two-level systems of gap 1/2 sharing E: the 2E excited systems are
+    # a uniform draw without replacement, so A's excited count is hypergeometric (M = N_A + N_B,
+    # n = N_A, N = 2E; from memory) and E_A = count / 2.  Law and moments from SciPy.
+    from scipy.stats import hypergeom
+
+    n_a, n_b, energy = 1500, 1000, 400
+    law = hypergeom(n_a + n_b, n_a, 2 * energy)
+    payload = run_json("contact", "--preset-a", "two-level", "--gap-a", "1/2", "--particles-a", n_a,
+                       "--preset-b", "two-level", "--gap-b", "1/2", "--particles-b", n_b, "--energy", energy,
+                       "--summary", "--splits", 3)
+    s = payload["summary"]
+    peak = Fraction(int(law.pmf(range(2 * energy + 1)).argmax()), 2)
+    assert Fraction(s["most_probable"]) == Fraction(payload["most_probable"]) == peak
+    assert s["mean_approx"] == pytest.approx(law.mean() / 2, rel=1e-12)
+    assert s["variance_approx"] == pytest.approx(law.var() / 4, rel=1e-12)
+    assert s["std_dev_approx"] == pytest.approx(law.std() / 2, rel=1e-12)
+    assert [Fraction(e) for e in payload["split"]] == [peak - Fraction(1, 2), peak, peak + Fraction(1, 2)]
+    for e, p in payload["probability_approx"].items():
+        assert p == pytest.approx(law.pmf(int(2 * Fraction(e))), rel=1e-9)
