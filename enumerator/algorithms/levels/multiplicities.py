@@ -908,7 +908,7 @@ def _ratio_approx(p: int, q: int) -> float:
 
 @dataclass(frozen=True)
 class Contact:
-    """Two systems sharing ``energy`` (units of ``unit``): exact split statistics.
+    """Two systems sharing ``energy`` (a grid index: the energy is ``energy * unit``): exact split statistics.
 
     ``split[E_A] = Ω_A(E_A) Ω_B(E - E_A)`` for every ``E_A`` from A's lowest
     energy to ``E`` minus B's lowest; ``total`` is their sum; ``most_probable``
@@ -958,7 +958,7 @@ class Contact:
         return cached
 
     def probability_of(self, energy_a: int) -> Fraction:
-        """The exact probability that A holds *energy_a* (units): ``split[E_A] / total``."""
+        """The exact probability that A holds grid index *energy_a* (energy ``energy_a * unit``): ``split[E_A] / total``."""
         return _ratio(self.split.get(energy_a, 0), self.total)
 
     def probability_approx_of(self, energy_a: int) -> float:
