@@ -28,6 +28,7 @@ the code (or the typer parameters) of ``compare`` or ``levels``.
 
 from __future__ import annotations
 
+import errno
 import importlib
 import os
 import sys
@@ -257,14 +258,14 @@ class _Group(TyperGroup):
             sys.exit(0)
         except KeyboardInterrupt:
             _fail("Interrupted.", 130)
+        except OSError as error:
+            if error.filename is None or error.errno not in _PATH_ERRNOS:
+                _internal(error)
+            # a path the user gave that cannot be used (missing, not writable, full disk)
+            _fail(f"Error: cannot use {str(error.filename)!r}: {error.strerror}; "
+                  "choose a path in an existing folder you can write", 2)
         except Exception as error:  # noqa: BLE001 - the last line of defence
-            if os.environ.get("ENUMERATOR_DEBUG", "").strip() not in ("", "0"):
-                traceback.print_exc()
-            _fail(
-                f"Internal error: {type(error).__name__}: {error} "
-                "(this is a bug; set ENUMERATOR_DEBUG=1 for a traceback)",
-                1,
-            )
+            _internal(error)
         sys.exit(result if isinstance(result, int) else 0)
 
     def invoke(self, ctx):
@@ -276,6 +277,22 @@ class _Group(TyperGroup):
             # Caught here, before click's own EPIPE handler turns it into exit 1.
             _silence_stdout()
             raise typer.Exit(0) from None
+
+
+#: errno values of an unusable path the user gave (exit 2, not an internal error).
+_PATH_ERRNOS = frozenset({errno.ENOENT, errno.EACCES, errno.EPERM, errno.ENOTDIR, errno.EISDIR, errno.EEXIST,
+                          errno.EROFS, errno.ENOSPC, errno.EDQUOT, errno.ENAMETOOLONG, errno.ELOOP})
+
+
+def _internal(error: BaseException) -> None:
+    """Report *error* as our own bug: one line, exit 1 (a traceback with ``ENUMERATOR_DEBUG=1``)."""
+    if os.environ.get("ENUMERATOR_DEBUG", "").strip() not in ("", "0"):
+        traceback.print_exc()
+    _fail(
+        f"Internal error: {type(error).__name__}: {error} "
+        "(this is a bug; set ENUMERATOR_DEBUG=1 for a traceback)",
+        1,
+    )
 
 
 def _fail(message: str, code: int) -> None:

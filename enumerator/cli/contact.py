@@ -13,7 +13,7 @@ from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope, plot_path
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -204,7 +204,7 @@ def contact_command(
     ] = None,
     plot: Annotated[
         Optional[str],
-        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT,
+        typer.Option("--plot", metavar="FILE.png", rich_help_panel=_OUTPUT, callback=plot_path,
                      help="Draw the probability of each split E_A."),
     ] = None,
     as_json: Json = False,

@@ -25,6 +25,7 @@ from .options import (
     Workers,
     build_model,
     limits_scope,
+    output_folder,
     parse_config,
     store_scope,
     workers_option,
@@ -602,6 +603,7 @@ def list_command(
         typer.Option(
             "--output-dir",
             metavar="DIR",
+            callback=output_folder,
             help="Write the listing to files in DIR instead of stdout, one per shard of the rank "
             "range: ranks-START-STOP.csv (or .jsonl), each with its own header. With --workers/--cluster "
             "the workers write their shards themselves (DIR must be reachable from every worker).",

@@ -253,6 +253,85 @@ def cluster_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
     return Annotated[Optional[str], typer.Option("--cluster", metavar="ADDRESS", help=help, rich_help_panel=panel)]
 
 
+def _writable_folder(folder: str, what: str) -> None:
+    """Refuse (``typer.BadParameter``) when *folder* is missing, not a folder or not writable."""
+    import os
+
+    if not os.path.isdir(folder):
+        raise typer.BadParameter(f"cannot write {what}: {folder!r} is not an existing folder; create it first")
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise typer.BadParameter(f"cannot write {what}: the folder {folder!r} is not writable; choose another")
+
+
+def plot_path(text) -> Optional[str]:
+    """Check a ``--plot`` file before any work: a format matplotlib writes, in a writable folder.
+
+    Parameters
+    ----------
+    text : str or None
+        The path given to ``--plot``.
+
+    Returns
+    -------
+    str or None
+        *text* unchanged.
+
+    Raises
+    ------
+    typer.BadParameter
+        An unknown file format (the message lists the known ones), a path
+        that is a folder, or a folder that is missing or not writable, so a
+        long computation never ends in a failed save.
+
+    Notes
+    -----
+    The formats are matplotlib's own list (imported only when ``--plot``
+    is given); without matplotlib the check is left to the plot itself,
+    which names the missing extra.
+    """
+    import os
+
+    if text is None:
+        return None
+    path = str(text)
+    if os.path.isdir(path):
+        raise typer.BadParameter(f"{path!r} is a folder; give a file name such as plot.png")
+    suffix = os.path.splitext(path)[1].lstrip(".").lower()
+    try:
+        from matplotlib.backend_bases import FigureCanvasBase
+    except ImportError:
+        formats = None
+    else:
+        formats = FigureCanvasBase.get_supported_filetypes()
+    if formats is not None and suffix not in formats:
+        known = ", ".join(sorted(formats))
+        raise typer.BadParameter(f"cannot draw {path!r}: give a file name ending in one of {known} (e.g. plot.png)")
+    _writable_folder(os.path.dirname(path) or ".", f"the plot to {path!r}")
+    return path
+
+
+def output_folder(text) -> Optional[str]:
+    """Check an ``--output-dir`` before any work: an existing folder, or one that can be made in a writable one.
+
+    Raises
+    ------
+    typer.BadParameter
+        *text* names a file, or its parent folder is missing or not writable.
+    """
+    import os
+
+    if text is None:
+        return None
+    path = str(text)
+    if os.path.isdir(path):
+        _writable_folder(path, f"the listing into {path!r}")
+    elif os.path.exists(path):
+        raise typer.BadParameter(f"{path!r} is a file, not a folder; give a folder for the listing's files")
+    else:
+        _writable_folder(os.path.dirname(os.path.abspath(path)), f"the folder {path!r}")
+    return path
+
+
 def plot_option(help: str):
     """The ``--plot FILE.png`` option (in the output panel) with a command's own *help* text.
 
@@ -267,7 +346,7 @@ def plot_option(help: str):
         ``Optional[str]`` with its ``typer.Option``, for a parameter's annotation.
     """
     return Annotated[Optional[str], typer.Option("--plot", metavar="FILE.png", rich_help_panel=OUTPUT_PANEL,
-                                                 help=help)]
+                                                 help=help, callback=plot_path)]
 
 
 Workers = workers_option(

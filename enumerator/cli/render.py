@@ -296,11 +296,19 @@ def console() -> "Console":
     Notes
     -----
     Built per call so that a redirected ``sys.stdout`` (tests, pipes) is
-    honoured.  The first call imports rich (tens of milliseconds).
+    honoured.  The first call imports rich (tens of milliseconds).  A reader
+    that stops early (``enumerator levels ... | head``) raises
+    ``BrokenPipeError``, which the command wrapper ends quietly with exit 0
+    (rich's own handling would exit 1).
     """
     from rich.console import Console
 
-    return Console(file=sys.stdout, highlight=False, soft_wrap=False)
+    class PipeConsole(Console):
+        def on_broken_pipe(self) -> None:
+            self.quiet = True
+            raise BrokenPipeError
+
+    return PipeConsole(file=sys.stdout, highlight=False, soft_wrap=False)
 
 
 def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]) -> None:
