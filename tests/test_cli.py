@@ -152,12 +152,23 @@ def test_count_over_100000_digits_prints_in_full():
 
 def test_big_count_human_output_keeps_every_digit_on_one_line():
     sys.set_int_max_str_digits(0)
-    n, r = 100_001, 10
+    n, r = 2_001, 10
     result = run("count", "-n", n, "-r", r)
     assert result.exit_code == 0
-    expected = str(pow(r, n))  # 10^100001: 100,002 digits
+    expected = str(pow(r, n))  # 10^2001: 2,002 digits, r^n (common practice)
     lines = [line for line in result.stdout.splitlines() if line.startswith("microstates")]
     assert lines == [f"microstates = {expected}"]
+
+
+def test_a_count_too_long_to_read_keeps_its_rounded_form_and_digit_count_in_tables():
+    from enumerator.cli.render import SPILL_DIGITS
+
+    n = SPILL_DIGITS  # 10^n has n + 1 digits, one more than a table writes out
+    result = run("count", "-n", n, "-r", 10, "--no-cache")
+    assert result.exit_code == 0
+    lines = [line for line in result.stdout.splitlines() if line.startswith("microstates")]
+    assert lines == [f"microstates: {n + 1:,} digits in all, too many to write here; --json prints the value exactly"]
+    assert f"1.0000e+{n} ({n + 1:,} digits)" in result.stdout
 
 
 # ---------------------------------------------------------------- prob

@@ -55,6 +55,10 @@ __all__ = [
 NARROW = 12
 #: Exact values with more digits than this show rounded in tables (:func:`human`).
 LONG_DIGITS = 40
+#: Digits (numerator and denominator together) above which a table does not
+#: write an exact number out after it: the rounded form and the digit count
+#: stand, and ``--json`` prints the value exactly.
+SPILL_DIGITS = 10_000
 #: Significant digits of the rounded form of a long value.
 SIGNIFICANT = 5
 
@@ -275,15 +279,20 @@ def human(value) -> str:
     return f"≈ {scientific(value)} (p/q: {top:,}/{bottom:,} digits)"
 
 
-def _is_long(value) -> bool:
-    """True for an exact number (not text) whose table cell would be :func:`human`'s rounded form."""
+def _digits(value) -> int:
+    """Decimal digits of an exact integer, or of a fraction's numerator and denominator together."""
     from ..core.exact import decimal_digits, is_exact_int
 
+    if is_exact_int(value):
+        return decimal_digits(value)
+    return decimal_digits(value.numerator) + decimal_digits(value.denominator)
+
+
+def _is_long(value) -> bool:
+    """True for an exact number (not text) whose table cell would be :func:`human`'s rounded form."""
     if isinstance(value, str):
         return False
-    if is_exact_int(value):
-        return decimal_digits(value) > LONG_DIGITS
-    return decimal_digits(value.numerator) + decimal_digits(value.denominator) > LONG_DIGITS
+    return _digits(value) > LONG_DIGITS
 
 
 def console() -> "Console":
@@ -331,8 +340,9 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
     the table as a correctly rounded decimal with its digit count; a text
     cell too wide for the table gives its length instead; either way the
     exact value is then written on a line of its own, unbroken, as
-    ``<row> = <value>`` (two columns) or ``<row>, <column> = <value>``
-    (a million digits in a fraction of a second: GMP's conversion).  The width each value column may use is
+    ``<row> = <value>`` (two columns) or ``<row>, <column> = <value>``,
+    up to :data:`SPILL_DIGITS` digits; a larger number keeps its rounded form
+    and a line with its digit count (``--json`` writes it exactly).  The width each value column may use is
     what the terminal leaves after the first column, shared equally.  Cost:
     linear in the total length of the cells.
     """
@@ -368,7 +378,13 @@ def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]
     out.print(title, style="bold")
     out.print(table)
     for label, cell in spill:
-        sys.stdout.write(f"{label} = {cell if isinstance(cell, str) else exact(cell)}\n")
+        if isinstance(cell, str):
+            sys.stdout.write(f"{label} = {cell}\n")
+        elif _digits(cell) > SPILL_DIGITS:
+            sys.stdout.write(f"{label}: {_digits(cell):,} digits in all, too many to write here; "
+                             "--json prints the value exactly\n")
+        else:
+            sys.stdout.write(f"{label} = {exact(cell)}\n")
     sys.stdout.flush()
 
 
