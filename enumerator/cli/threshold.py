@@ -113,7 +113,7 @@ def threshold_command(
 
         $ enumerator threshold --vary balls -r 365 --event "max >= 2" --target 0.5
         $ enumerator threshold --vary balls -r 365 --event "max >= 3" --target 0.5 --json
-        $ enumerator threshold --vary balls -r 2^64 --event "max >= 2" --target 1e-6
+        $ enumerator threshold --vary balls -r 2^32 --event "max >= 2" --target 1/2
         $ enumerator threshold --vary urns -n 100000 --event "max <= 1" --target 0.999
     """
     from ..algorithms.threshold import find_threshold
