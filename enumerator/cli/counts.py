@@ -762,16 +762,17 @@ def _sparse_rows(model, start: int, stop: Optional[int]):
     Returns
     -------
     iterator of tuple of (int, int)
-        :func:`enumerator.algorithms.listing.unrank_sparse` of each rank.
+        :func:`enumerator.algorithms.listing.iter_sparse`: the first rank
+        unranked, each next vector its lexicographic successor on the
+        occupied urns and groups (never per urn).
 
     Raises
     ------
     TooLarge
-        When the range holds more than :data:`_SPARSE_ROWS` vectors (each
-        one is unranked on its own: ``O(n log r)`` suffix counts).
+        When the range holds more than :data:`_SPARSE_ROWS` vectors.
     """
     from ..algorithms.counting import count_configurations
-    from ..algorithms.listing import unrank_sparse
+    from ..algorithms.listing import iter_sparse
     from ..core.errors import TooLarge
 
     # The pure count, not the facade's remembered one: a listing never touches the store.
@@ -783,4 +784,4 @@ def _sparse_rows(model, start: int, stop: Optional[int]):
             "list a range of ranks (start=, stop=, or limit=)",
             parameters=["start", "stop", "limit"],
         )
-    return (unrank_sparse(model, i) for i in range(start, end))
+    return iter_sparse(model, start, end)
