@@ -191,3 +191,16 @@ def test_log_bounds_enclose_mpmath_logarithms(q):
             assert mpmath.mpf(lo.numerator) / lo.denominator <= value + mpmath.mpf(10) ** -55
             assert value <= mpmath.mpf(hi.numerator) / hi.denominator + mpmath.mpf(10) ** -55
         assert hi - lo < Fraction(1, 10 ** 15)  # 64 terms pin it down
+
+
+def test_a_scan_stops_at_the_time_limit_with_the_last_value_tried():
+    # P(min >= 1) for BE with unequal weights tends to a limit below 1/3 as balls grow (the weights'
+    # product over the total, common practice for weighted BE), so the scan can never succeed.
+    from enumerator.core.errors import TooLarge
+    from enumerator.core.limits import limited
+    from enumerator.core.model import UrnModel
+
+    model = UrnModel(balls=0, weights="1,1,2,2,3,1/2", rule="BE")
+    with limited(seconds=0.5), pytest.raises(TooLarge, match="within the time limit of 0.5 s") as caught:
+        find_threshold(model, "balls", "min >= 1", Fraction(1, 3))
+    assert "max_seconds" in caught.value.parameters

@@ -45,6 +45,7 @@ from __future__ import annotations
 
 import math
 import re
+import time
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Callable, Optional, Tuple, Union
@@ -621,13 +622,33 @@ def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
 
 
 def _scan(vary, start, highest, goal, p, count) -> Threshold:
+    """Try every value from *start* up; stop at :data:`SCAN_STEPS` values or when the time limit would pass.
+
+    Each evaluation is cost-checked on its own; the scan also watches its
+    total: when the time spent plus the last step's time would exceed the
+    limit in force (:func:`enumerator.core.limits.active_limits`), it stops
+    with a refusal naming the last value tried.
+    """
+    seconds = limits.active_limits().seconds
+    began = time.perf_counter()
     before = None
     v = start
     while v <= highest and v - start < SCAN_STEPS:
+        step_began = time.perf_counter()
         value = p(v)
         if value >= goal:
             return Threshold(vary, v, value, before, "scan", count())
         before = value
+        now = time.perf_counter()
+        if now - began + (now - step_began) > seconds:
+            raise TooLarge(
+                f"the target {float(goal):.6g} is not reached for {vary} from {start} to {v} "
+                f"(P = {float(value):.6g} there) within the time limit of {seconds:g} s "
+                "(monotonicity is not proved for this event and model, so every value is tried); "
+                "raise max_seconds= (or ENUMERATOR_MAX_SECONDS), use an event built from max, min, occupied, "
+                "kI, empty or count(>= J) comparisons on a model without bounds, or lower the target",
+                parameters=["max_seconds", "target"],
+            )
         v += 1
     raise TooLarge(
         f"the target {float(goal):.6g} is not reached for {vary} from {start} to {v - 1} "
