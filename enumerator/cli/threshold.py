@@ -147,14 +147,29 @@ def threshold_command(
         )
         return
     fixed = f"{model.urns} urns" if kind == "balls" else f"{model.balls} balls"
+    digits = _separating_digits(target, found.probability, before)
     rows = [
-        [f"{kind} = {found.value}", found.probability, f"{approx(found.probability):.6g}"],
+        [f"{kind} = {found.value}", found.probability, f"{approx(found.probability):.{digits}g}"],
     ]
     if before is not None:
-        rows.insert(0, [f"{kind} = {found.value - 1}", before, f"{approx(before):.6g}"])
+        rows.insert(0, [f"{kind} = {found.value - 1}", before, f"{approx(before):.{digits}g}"])
     show_table(
         f"Least {kind} with P({event}) >= {exact(target)}: {found.value} "
         f"({model.rule.value}, {fixed}; {found.method}, {found.evaluations} evaluations)",
         [kind, "P(event) (exact)", "approx"],
         rows,
     )
+
+
+def _separating_digits(target, probability, before) -> int:
+    """Significant digits (6 to 17) at which the approximate column tells the two rows and the target apart.
+
+    With a target of ``1e-6`` reached between ``0.99999999e-6`` and
+    ``1.0000003e-6``, six digits would print all three alike.
+    """
+    values = [float(v) for v in (target, probability, before) if v is not None]
+    for digits in range(6, 18):
+        texts = {f"{v:.{digits}g}" for v in values}
+        if len(texts) == len(set(values)):
+            return digits
+    return 17
