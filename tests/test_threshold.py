@@ -204,3 +204,21 @@ def test_a_scan_stops_at_the_time_limit_with_the_last_value_tried():
     with limited(seconds=0.5), pytest.raises(TooLarge, match="within the time limit of 0.5 s") as caught:
         find_threshold(model, "balls", "min >= 1", Fraction(1, 3))
     assert "max_seconds" in caught.value.parameters
+
+
+def test_varying_the_urns_starts_where_the_event_is_defined():
+    # P(k3 >= 1) = 1 - (1 - 1/r)^5 under MB (complement of urn 3 missed by every ball, common
+    # practice); with fewer than 3 urns there is no urn 3, so the search starts at r = 3.
+    found = find_threshold(UrnModel(balls=5, urns=1), "urns", "k3 >= 1", "1/2")
+    assert (found.value, found.probability, found.probability_before) == (3, 1 - Fraction(2, 3) ** 5, None)
+
+
+def test_the_cli_refuses_per_urn_lists_when_the_urns_vary_and_notes_an_ignored_count():
+    from cli_helpers import one_line_error, run
+
+    message = one_line_error(run("threshold", "--vary", "urns", "-n", "23", "--bounds", "0:1,0:1",
+                                 "--event", "max <= 1", "--target", "1/2"))
+    assert "cannot vary" in message
+    result = run("threshold", "--vary", "balls", "-n", "3", "-r", "365", "--event", "max >= 2", "--target", "1/2",
+                 "--json")
+    assert result.exit_code == 0 and '"value": "23"' in result.stdout  # Feller vol. 1, II.3: 23 people

@@ -54,7 +54,7 @@ from ..core import limits
 from ..core.errors import InvalidParameters, TooLarge
 from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
-from .event_language import And, Comparison, Event, Not, Or, parse_event
+from .event_language import And, Comparison, Event, Not, Or, comparisons, parse_event
 from .events import event_probability
 
 __all__ = ["SCAN_STEPS", "Threshold", "event_direction", "find_threshold", "parse_probability"]
@@ -224,7 +224,9 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
         The fixed part of the problem: its rule, bounds and weights, and the
         value of the parameter that is not varied.  With ``vary="balls"`` its
         ball count is ignored; with ``vary="urns"`` it must be one group of
-        equal urns (whose count is ignored).
+        equal urns (whose count is ignored), and the search starts at the
+        largest urn the event names (``k3``: from 3 urns), where the event
+        is first defined.
     vary : {"balls", "urns"}
         The free parameter.
     event : str
@@ -287,7 +289,8 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
                 "weight shared by all)", parameters=["vary"],
             )
         group = model.groups[0]
-        start = 1
+        # an event naming urn I (kI) is defined from I urns on: the search starts there
+        start = max([1] + [c.term.parameter for c in comparisons(node) if c.term.entry.indexes_urns])
         highest = SEARCH_CEILING
 
         def at(v: int) -> UrnModel:

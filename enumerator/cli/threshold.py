@@ -93,7 +93,7 @@ def threshold_command(
     The other parameters stay fixed (-r 365, or -n 23; --rule, bounds and
     weights).  The answer is the least value v with P(event) >= P at v,
     with the exact probabilities at v and at v - 1 (none below the smallest
-    value: 0 balls, 1 urn).
+    value: 0 balls, 1 urn, or I urns for an event naming kI).
 
     How it searches.  Bisection (an exponential search 1, 2, 4, ... then a
     binary search: O(log v) exact evaluations) where P is proved monotone in
@@ -123,12 +123,21 @@ def threshold_command(
     # so the command offers no --store/--no-cache.
     with limits_scope(max_memory, max_seconds):
         if kind == "balls":
+            if balls is not None:
+                _note("--balls is what --vary balls searches; the value given is not used")
             model = build_model(0 if balls is None else balls, urns, rule, capacity, minimum, bounds, weights)
         else:
             from ..core.errors import InvalidParameters
 
             if balls is None:
                 raise InvalidParameters("give the number of balls (--balls) when the urns vary")
+            if bounds is not None or weights is not None:
+                raise InvalidParameters(
+                    "--bounds and --weights list the urns one by one, so they cannot vary; with --vary urns "
+                    "give the bound every urn shares (--capacity, --minimum) instead"
+                )
+            if urns is not None:
+                _note("--urns is what --vary urns searches; the value given is not used")
             model = build_model(balls, 1 if urns is None and bounds is None and weights is None else urns,
                                 rule, capacity, minimum, bounds, weights)
         found = find_threshold(model, kind, event, target, limit=limit)
@@ -173,3 +182,10 @@ def _separating_digits(target, probability, before) -> int:
         if len(texts) == len(set(values)):
             return digits
     return 17
+
+
+def _note(text: str) -> None:
+    """One line on stderr that does not change the answer or the exit code."""
+    import sys
+
+    sys.stderr.write(f"Note: {text}.\n")
