@@ -319,10 +319,33 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
             return Threshold(vary, start, first, None, "bisection", evaluations)
         raise TooLarge(
             f"P({node}) never grows as the {vary} increase, and at {vary} = {start} it is "
-            f"{float(first):.6g}, below the target {float(goal):.6g}; no value reaches it",
+            f"{_probability_text(first)}, below the target {_probability_text(goal)}; no value reaches it",
             parameters=["target"],
         )
     return _scan(vary, start, highest, goal, p, lambda: evaluations)
+
+
+def _probability_text(value: Fraction) -> str:
+    """A probability for a message: six significant digits, or ``1 - d`` when those would read 1 but it is not.
+
+    >>> _probability_text(Fraction(1, 3)), _probability_text(1 - Fraction(1, 10**9)), _probability_text(Fraction(1))
+    ('0.333333', '1 - 1e-09', '1')
+    """
+    text = f"{float(value):.6g}"
+    if text == "1" and value != 1:
+        return f"1 - {float(1 - value):.3g}"
+    return text
+
+
+def _count_text(value: int) -> str:
+    """A count for a message: with thousands separators, or ``2^k`` for a large power of two.
+
+    >>> _count_text(10_000), _count_text(2**512)
+    ('10,000', '2^512')
+    """
+    if value > 10**6 and value & (value - 1) == 0:
+        return f"2^{value.bit_length() - 1}"
+    return f"{value:,}"
 
 
 def _largest_balls(model: UrnModel) -> int:
@@ -574,7 +597,7 @@ def _check_exact_pair(model: UrnModel, vary: str, node: Event, goal: Fraction, v
     limits.check(
         cost,
         f"the least number of {vary} is {value:,} (proved by rational bounds on ln P: P({node}) reaches "
-        f"{float(goal):.6g} at {value:,} and not at {value - 1:,}); its exact probabilities there are "
+        f"{_probability_text(goal)} at {value:,} and not at {value - 1:,}); its exact probabilities there are "
         f"fractions of about {digits:,} digits each, and computing and writing them",
         advice="ask prob --event for one probability at a smaller size",
         parameters=["target"],
@@ -609,8 +632,8 @@ def _gallop(vary, start, highest, goal, p, count, guess: int) -> Threshold:
                 break
             if hi >= highest:
                 raise TooLarge(
-                    f"the target {float(goal):.6g} is not reached up to {vary} = {highest:,} "
-                    f"(P = {float(hi_value):.6g} there); lower the target", parameters=["target"],
+                    f"the target {_probability_text(goal)} is not reached up to {vary} = {_count_text(highest)} "
+                    f"(P = {_probability_text(hi_value)} there); lower the target", parameters=["target"],
                 )
             lo, lo_value = hi, hi_value
             step *= 2
@@ -645,8 +668,8 @@ def _scan(vary, start, highest, goal, p, count) -> Threshold:
         now = time.perf_counter()
         if now - began + (now - step_began) > seconds:
             raise TooLarge(
-                f"the target {float(goal):.6g} is not reached for {vary} from {start} to {v} "
-                f"(P = {float(value):.6g} there) within the time limit of {seconds:g} s "
+                f"the target {_probability_text(goal)} is not reached for {vary} from {start} to {v} "
+                f"(P = {_probability_text(value)} there) within the time limit of {seconds:g} s "
                 "(monotonicity is not proved for this event and model, so every value is tried); "
                 "raise max_seconds= (or ENUMERATOR_MAX_SECONDS), use an event built from max, min, occupied, "
                 "kI, empty or count(>= J) comparisons on a model without bounds, or lower the target",
@@ -654,7 +677,7 @@ def _scan(vary, start, highest, goal, p, count) -> Threshold:
             )
         v += 1
     raise TooLarge(
-        f"the target {float(goal):.6g} is not reached for {vary} from {start} to {v - 1} "
+        f"the target {_probability_text(goal)} is not reached for {vary} from {start} to {v - 1} "
         f"(monotonicity is not proved for this event and model, so every value is tried, "
         f"at most {SCAN_STEPS:,}); use an event built from max, min, occupied, kI, empty or "
         "count(>= J) comparisons on a model without bounds, or lower the target",
