@@ -359,3 +359,12 @@ def test_temperatures_beyond_the_float_range_are_refused_in_one_line():
     for text in ("1e400", "1e-400"):
         message = one_line_error(run("levels", "--preset", "two-level", "--particles", "2", "--temperatures", text))
         assert "outside 1e-300..1e300" in message
+
+
+def test_sizes_that_would_run_away_are_refused_in_one_line():
+    # each would otherwise run for minutes or exhaust memory before printing anything
+    base = ["levels", "--particles", "3", "--temperatures", "1"]
+    assert "beyond 64" in one_line_error(run(*base, "--preset", "trap", "--dimension", "99999"))
+    assert "beyond 10,000" in one_line_error(run(*base, "--preset", "harmonic", "--digits", "99999999"))
+    assert "--max-memory" in one_line_error(run(*base, "--preset", "harmonic", "--rule", "BE",
+                                                "--occupation-law", "99999999999"))

@@ -153,7 +153,7 @@ def levels_command(
                     "ROUTE"),
     ] = "auto",
     digits: Annotated[
-        int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath).", _THERMO)
+        int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath), at most 10,000.", _THERMO)
     ] = 50,
     report_levels: Annotated[
         Optional[int],
@@ -200,6 +200,10 @@ def levels_command(
                 as_json)
 
 
+#: Most significant digits ``--digits`` may ask of the canonical arithmetic.
+MAX_DIGITS = 10_000
+
+
 def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
             max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
             as_json) -> None:
@@ -213,8 +217,12 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
         What to compute and how to show it.
     """
     from ..algorithms import levels as lv
+    from ..core.errors import InvalidParameters
     from . import render_levels
 
+    if digits > MAX_DIGITS:
+        raise InvalidParameters(f"--digits {digits:,} is beyond {MAX_DIGITS:,}: every canonical step would carry "
+                                "numbers that long; ask for fewer digits (50 is ample for 12-digit floats)")
     system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
                            dimension, gap, oscillators)
     if max_energy is not None and not system.spectrum.finite:

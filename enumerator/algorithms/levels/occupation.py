@@ -121,6 +121,10 @@ def _level(system: System, level) -> Tuple[int, int]:
     index = as_count(level, "level", 0)
     spectrum = system.spectrum
     if spectrum.ladder is not None:
+        # the law of rung l lists the rungs 0..l (its grand-canonical side sums them): ~50 us, ~400 bytes each
+        check(Cost(seconds=(index + 1) * 5e-5, memory=(index + 1) * 400),
+              f"the occupation law of level {index:,} (every level up to it is listed)",
+              advice="choose a lower level", parameters=["level"])
         lad = spectrum.ladder
         return lad.energy(index), lad.degeneracy(index)
     if index >= len(spectrum.energies):

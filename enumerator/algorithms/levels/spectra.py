@@ -388,6 +388,10 @@ def harmonic_oscillator(levels: Optional[int] = None, spacing=1) -> Spectrum:
     return harmonic_trap(levels, dimension=1, spacing=spacing)
 
 
+#: Largest dimension of :func:`harmonic_trap`.
+MAX_DIMENSION = 64
+
+
 def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -> Spectrum:
     """The isotropic harmonic trap in *dimension* dimensions, from its ground state.
 
@@ -422,6 +426,12 @@ def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -
     (1, 3, 6, 10)
     """
     d = as_count(dimension, "dimension", 1)
+    if d > MAX_DIMENSION:
+        raise InvalidParameters(
+            f"dimension {d:,} is beyond {MAX_DIMENSION}: the degeneracy C(m + d - 1, d - 1) of rung m grows "
+            "like m^(d-1), so every canonical sum would hold numbers of that size; choose a smaller dimension",
+            parameters=["dimension"],
+        )
     step = parse_rational(spacing, "spacing")
     if step <= 0:
         raise InvalidParameters(f"spacing must be positive (got {step})")
