@@ -329,3 +329,12 @@ def test_env_no_cache_for_the_cli(tmp_path, monkeypatch):
     monkeypatch.setenv(results.ENV_NO_CACHE, "1")
     assert run_json("count", "-n", 6, "-r", 3, "--rule", "BE")["configurations"] == str(math.comb(8, 2))
     assert not target.exists()
+
+
+def test_clearing_a_quantity_no_command_stores_is_refused(tmp_path):
+    # a typo must not read as "nothing to remove" (common practice for destructive commands)
+    from cli_helpers import one_line_error, run
+
+    message = one_line_error(run("cache", "clear", "--quantity", "microstate", "--yes",
+                                 "--store", str(tmp_path / "s.db")))
+    assert "no quantity 'microstate'" in message and "microstates" in message

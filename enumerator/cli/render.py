@@ -320,6 +320,17 @@ def console() -> "Console":
     return PipeConsole(file=sys.stdout, highlight=False, soft_wrap=False)
 
 
+def plural(count: int, noun: str) -> str:
+    """``"1 urn"``, ``"3 urns"``: a count with its noun, singular for exactly one.
+
+    >>> plural(1, "urn"), plural(3, "ball"), plural(0, "entry")
+    ('1 urn', '3 balls', '0 entries')
+    """
+    if count == 1:
+        return f"1 {noun}"
+    return f"{count} {noun[:-1]}ies" if noun.endswith("y") else f"{count} {noun}s"
+
+
 def show_table(title: str, columns: Sequence[str], rows: Iterable[Sequence[str]]) -> None:
     """Print a rich table; values too wide for it follow the table in full.
 
@@ -430,7 +441,8 @@ def describe(model: "Occupancy") -> str:
     Cost: constant for uniform bounds, linear in the groups otherwise
     (the model's canonical bounds).
     """
-    text = f"{model.rule.title} ({model.rule.value}): {model.balls} balls in {model.urns} urns"
+    text = (f"{model.rule.title} ({model.rule.value}): {plural(model.balls, 'ball')} in "
+            f"{plural(model.urns, 'urn')}")
     if not model.is_uniform:
         return text + ", bounds " + model.canonical_bounds()
     if model.weighted:

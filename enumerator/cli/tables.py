@@ -20,7 +20,7 @@ from .options import (
     limits_scope,
     workers_option,
 )
-from .render import abbreviate, console, emit_json, exact, show_table
+from .render import abbreviate, console, emit_json, exact, plural, show_table
 
 __all__ = ["commands"]
 
@@ -629,6 +629,19 @@ def cache_verify_command(
         raise typer.Exit(1)
 
 
+def _check_quantity(target, quantity: str) -> None:
+    """Refuse a ``--quantity`` that no command stores and this store does not hold (a typo removes nothing)."""
+    from ..core.errors import InvalidParameters
+    from ..facade import register_recomputers
+    from ..store.keys import ALGORITHM_VERSIONS
+
+    register_recomputers()
+    known = set(ALGORITHM_VERSIONS) | set(target.stats().get("by_quantity", {}))
+    if quantity not in known:
+        raise InvalidParameters(f"no quantity {quantity!r} is stored by any command; choose one of "
+                                f"{', '.join(sorted(known))}")
+
+
 @cache_app.command("clear")
 def cache_clear_command(
     stale: Annotated[bool, typer.Option("--stale", help="Only entries of superseded algorithm versions.")] = False,
@@ -648,6 +661,8 @@ def cache_clear_command(
         $ enumerator cache clear --quantity profiles --yes
     """
     target = _open_store(store)
+    if quantity is not None:
+        _check_quantity(target, quantity)
     if not (yes or stale):
         what = f"every {quantity} entry" if quantity else "every stored result and table definition"
         if not sys.stdin.isatty():
@@ -659,7 +674,7 @@ def cache_clear_command(
     if as_json:
         emit_json({"store": target.name, "removed": exact(removed)})
         return
-    sys.stdout.write(f"Removed {removed} entries from {target.name}.\n")
+    sys.stdout.write(f"Removed {plural(removed, 'entry')} from {target.name}.\n")
 
 
 @cache_app.command("export")

@@ -21,7 +21,7 @@ from .options import (
     count_parser,
     limits_scope,
 )
-from .render import approx, emit_json, exact, show_table
+from .render import approx, emit_json, exact, plural, show_table
 
 __all__ = ["commands"]
 
@@ -155,7 +155,7 @@ def threshold_command(
             }
         )
         return
-    fixed = f"{model.urns} urns" if kind == "balls" else f"{model.balls} balls"
+    fixed = plural(model.urns, "urn") if kind == "balls" else plural(model.balls, "ball")
     digits = _separating_digits(target, found.probability, before)
     rows = [
         [f"{kind} = {found.value}", found.probability, f"{approx(found.probability):.{digits}g}"],
