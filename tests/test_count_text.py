@@ -54,3 +54,13 @@ def test_the_cli_takes_a_power_for_urns():
 
 def test_the_cli_refuses_a_huge_power_in_one_line():
     assert "digits" in one_line_error(run("count", "-n", "3", "-r", "2^99999999"))
+
+
+def test_weights_read_powers_and_name_a_zero_denominator():
+    from fractions import Fraction
+
+    from enumerator.core.groups import parse_weight
+
+    assert parse_weight("2^10") == 1024 and parse_weight("1/2^3") == Fraction(1, 8)
+    with pytest.raises(InvalidParameters, match="the denominator of weight"):
+        parse_weight("1/0")

@@ -220,6 +220,8 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
     from ..core.errors import InvalidParameters
     from . import render_levels
 
+    if report_levels is not None and report_levels < 1:
+        raise InvalidParameters(f"--report-levels must be at least 1 (got {report_levels})")
     if digits > MAX_DIGITS:
         raise InvalidParameters(f"--digits {digits:,} is beyond {MAX_DIGITS:,}: every canonical step would carry "
                                 "numbers that long; ask for fewer digits (50 is ample for 12-digit floats)")

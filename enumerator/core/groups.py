@@ -228,7 +228,7 @@ def _parse_power(match: "re.Match", body: str, name: str, minimum: int) -> int:
 
 
 def parse_weight(text: str, name: str = "weight") -> Fraction:
-    """Read a positive exact rational: ``"3"``, ``"2/7"`` or a plain decimal ``"0.25"``.
+    """Read a positive exact rational: ``"3"``, ``"2/7"``, a plain decimal ``"0.25"`` or a power ``"2^10"``.
 
     Raises
     ------
@@ -246,12 +246,15 @@ def parse_weight(text: str, name: str = "weight") -> Fraction:
         raise InvalidParameters(f"{name} has {len(body):,} characters; numbers are limited to {MAX_DIGITS:,} digits")
     top, slash, bottom = body.partition("/")
     if slash:
-        value = Fraction(parse_count(top, name), parse_count(bottom, name, 1))
+        value = Fraction(parse_count(top, f"the numerator of {name}"),
+                         parse_count(bottom, f"the denominator of {name}", 1))
+    elif _POWER.fullmatch(top):
+        value = Fraction(parse_count(top, name))
     else:
         match = _DECIMAL.fullmatch(top)
         if not match or not (match.group(1) or match.group(2)):
             raise InvalidParameters(
-                f"{name} must be a positive number such as 3, 2/7 or 0.25 (got {_short(body)!r})"
+                f"{name} must be a positive number such as 3, 2/7, 0.25 or 2^10 (got {_short(body)!r})"
             )
         whole, frac = match.group(1) or "0", match.group(2) or ""
         value = Fraction(int(whole + frac), 10 ** len(frac))

@@ -485,7 +485,7 @@ class UrnModel:
             raise InvalidConfiguration("configuration entries must be whole numbers, not booleans")
         if len(values) != self.urns:
             raise InvalidConfiguration(
-                f"configuration has {len(values)} entries but the model has {self.urns} urns; "
+                f"configuration has {len(values)} entries but the model has {self.urns} urn{'s' * (self.urns != 1)}; "
                 "give one occupancy per urn"
             )
         if values and min(values) < 0:
@@ -496,7 +496,7 @@ class UrnModel:
         total = sum(values)
         if total != self.balls:
             raise InvalidConfiguration(
-                f"configuration sums to {total} but the model has {self.balls} balls; "
+                f"configuration sums to {total} but the model has {self.balls} ball{'s' * (self.balls != 1)}; "
                 "the occupancies must add up to the number of balls"
             )
         return values
