@@ -338,3 +338,10 @@ def test_clearing_a_quantity_no_command_stores_is_refused(tmp_path):
     message = one_line_error(run("cache", "clear", "--quantity", "microstate", "--yes",
                                  "--store", str(tmp_path / "s.db")))
     assert "no quantity 'microstate'" in message and "microstates" in message
+
+
+def test_a_show_window_outside_the_table_is_refused(where):
+    assert run("table", "build", "--rule", "BE", "--balls", "0..5", "--urns", "1..3", "--name", "small",
+               "--store", where).exit_code == 0
+    message = one_line_error(run("table", "show", "small", "--balls", "100..200", "--store", where))
+    assert "outside the table" in message and "0..5" in message

@@ -399,6 +399,12 @@ def table_show_command(
     rows = parse_range(balls, "--balls") if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
     fit = max(1, min(8, (console().width - 10) // 13))  # value columns that fit the terminal
     cols = parse_range(urns, "--urns") if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    for window, full, flag in ((rows, spec.balls, "--balls"), (cols, spec.urns, "--urns")):
+        if not range(max(window.start, full.start), min(window.stop, full.stop)):
+            from ..core.errors import InvalidParameters
+
+            raise InvalidParameters(f"{flag} {_range_text(window)} is outside the table, which covers "
+                                    f"{flag.lstrip('-')} {_range_text(full)}; choose a window inside it")
     # only the window is read (WHERE on n and r), plus one count of the whole table
     data = load_table(name, store=target, balls=rows, urns=cols)
     if as_json:
