@@ -119,12 +119,13 @@ def threshold_command(
     from ..algorithms.threshold import find_threshold
 
     kind = vary.value
+    notes = []
     # Each value tried is a fresh model, evaluated once: nothing is remembered,
     # so the command offers no --store/--no-cache.
     with limits_scope(max_memory, max_seconds):
         if kind == "balls":
             if balls is not None:
-                _note("--balls is what --vary balls searches; the value given is not used")
+                notes.append("--balls is what --vary balls searches; the value given is not used")
             model = build_model(0 if balls is None else balls, urns, rule, capacity, minimum, bounds, weights)
         else:
             from ..core.errors import InvalidParameters
@@ -137,10 +138,12 @@ def threshold_command(
                     "give the bound every urn shares (--capacity, --minimum) instead"
                 )
             if urns is not None:
-                _note("--urns is what --vary urns searches; the value given is not used")
+                notes.append("--urns is what --vary urns searches; the value given is not used")
             model = build_model(balls, 1 if urns is None and bounds is None and weights is None else urns,
                                 rule, capacity, minimum, bounds, weights)
         found = find_threshold(model, kind, event, target, limit=limit)
+    for text in notes:  # after the answer is found: an error stays one line
+        _note(text)
     before = found.probability_before
     if as_json:
         emit_json(
