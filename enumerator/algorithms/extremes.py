@@ -26,6 +26,7 @@ import gmpy2
 from flint import fmpz, fmpz_poly
 
 from ..core import series
+from .group_rows import capped_levels
 
 __all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_estimate"]
 
@@ -103,33 +104,9 @@ def _mb_max_levels(n: int, r: int, m: int, keep: Callable[[int], int]):
     """
     T = min(r, n // (m + 1))
     tails: List[List] = [[] for _ in range(T + 1)]
-    prev: List = []
-    cur: List = [mpz(1)]
-    # C(k, m) for k = m .. n - 1, shared by every level
-    binomials = [mpz(1)] * max(n - m, 0)
-    c = mpz(1)
-    for k in range(m, n - 1):
-        c = divexact(c * (k + 1), k + 1 - m)
-        binomials[k + 1 - m] = c
-    for t in range(T, -1, -1):
-        j = r - t
-        K = n - t * (m + 1)
-        if j == 0:
-            cur = [mpz(1)] + [mpz(0)] * K
-        else:
-            cur = [mpz(0)] * (K + 1)
-            v = mpz(1)
-            cur[0] = v
-            for k in range(1, min(m, K) + 1):
-                v *= j
-                cur[k] = v
-            if K > m:
-                for k in range(m, K):
-                    v = j * (v - binomials[k - m] * prev[k - m])
-                    cur[k + 1] = v
+    for t, K, cur in capped_levels(r, m, n):
         take = min(K + 1, keep(t))
         tails[t] = cur[K - take + 1:][::-1]
-        prev = cur
     return cur[n], tails
 
 

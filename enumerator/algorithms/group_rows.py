@@ -30,8 +30,9 @@ vol. 1, 1974, §1.6), exact in integers whatever the size of ``c``.
 from __future__ import annotations
 
 import math
+from collections import deque
 from fractions import Fraction
-from typing import List, Optional, Sequence, Tuple
+from typing import Iterator, List, Optional, Sequence, Tuple
 
 import gmpy2
 from flint import fmpq, fmpq_poly, fmpz_poly
@@ -41,6 +42,7 @@ from ..core.limits import STEPS_PER_SECOND, Cost, bigint_bytes, product_seconds
 
 __all__ = [
     "MILLER_COUNT",
+    "capped_levels",
     "capped_levels_row",
     "combine",
     "exponential_group_row",
@@ -225,29 +227,30 @@ def exponential_route_steps(count: int, lower: int, high: int, top: int) -> Opti
     return None
 
 
-def capped_levels_row(count: int, cap: int, top: int) -> List:
-    r"""``k! [x^k] e_b(x)^c`` for ``k = 0..top``: assignments of ``k`` labelled balls to ``c`` urns holding at most ``b``.
+def capped_levels(count: int, cap: int, top: int) -> Iterator[Tuple[int, int, List]]:
+    r"""The level recursion over the number of urns, deepest level first.
 
-    The level recursion over the number of urns: ``L_t(k)`` counts ``k``
-    balls in ``c - t`` urns; from ``e_b' = e_b - x^b/b!``,
+    ``L_t(k)`` counts the assignments of ``k`` labelled balls to ``c - t``
+    urns (``c`` = *count*) holding at most ``b`` (= *cap*) each.  From
+    ``e_b' = e_b - x^b/b!``,
     ``L_t(k+1) = j (L_t(k) - C(k, b) L_{t+1}(k - b))`` with ``j = c - t``
     and ``L_t(k) = j^k`` for ``k <= b`` (the differential equation of the
     truncated exponential; Flajolet & Sedgewick, *Analytic Combinatorics*,
-    2009, §VII.8).  Level ``t`` is needed up to ``K_t = top - t(b+1)``, so
-    the cost is ``sum_t (K_t - b) ~ top^2 / (2b)`` small-by-big steps (the
-    maximum-load laws use the same recursion,
-    :mod:`enumerator.algorithms.extremes`).
+    2009, §VII.8).  Level ``t`` is needed up to ``K_t = top - t(b+1)``.
 
-    >>> [int(v) for v in capped_levels_row(3, 1, 4)]  # injective maps into 3 urns: 3^(k)
-    [1, 3, 6, 6, 0]
+    Yields
+    ------
+    (t, K_t, row)
+        For ``t = T, T-1, ..., 0`` (``T = min(c, top // (b+1))``), with
+        ``row[k] = L_t(k)`` for ``k = 0..K_t``; the last one is level 0.
+
+    Notes
+    -----
+    Cost ``sum_t (K_t - b) ~ top^2 / (2b)`` small-by-big multiplications.
+    :func:`capped_levels_row` keeps level 0; the maximum-load laws
+    (:mod:`enumerator.algorithms.extremes`) also keep each level's tail.
     """
     b = cap
-    if b >= top:
-        out, value = [], mpz(1)
-        for _ in range(top + 1):
-            out.append(value)
-            value *= count
-        return out
     T = min(count, top // (b + 1))
     binomials = [mpz(1)] * max(top - b, 1)  # C(k, b) for k = b .. top - 1
     c = mpz(1)
@@ -255,7 +258,6 @@ def capped_levels_row(count: int, cap: int, top: int) -> List:
         c = gmpy2.divexact(c * (k + 1), k + 1 - b)
         binomials[k + 1 - b] = c
     prev: List = []
-    cur: List = [mpz(1)]
     for t in range(T, -1, -1):
         j = count - t
         K = top - t * (b + 1)
@@ -272,8 +274,27 @@ def capped_levels_row(count: int, cap: int, top: int) -> List:
                 for k in range(b, K):
                     v = j * (v - binomials[k - b] * prev[k - b])
                     cur[k + 1] = v
+        yield t, K, cur
         prev = cur
-    return cur
+
+
+def capped_levels_row(count: int, cap: int, top: int) -> List:
+    r"""``k! [x^k] e_b(x)^c`` for ``k = 0..top``: assignments of ``k`` labelled balls to ``c`` urns holding at most ``b``.
+
+    Level 0 of :func:`capped_levels` (``b >= top``: the powers ``c^k``);
+    cost ``~ top^2 / (2b)`` small-by-big steps.
+
+    >>> [int(v) for v in capped_levels_row(3, 1, 4)]  # injective maps into 3 urns: 3^(k)
+    [1, 3, 6, 6, 0]
+    """
+    if cap >= top:
+        out, value = [], mpz(1)
+        for _ in range(top + 1):
+            out.append(value)
+            value *= count
+        return out
+    # level 0 comes last; each deeper level is dropped once the next is built
+    return deque(capped_levels(count, cap, top), maxlen=1)[0][2]
 
 
 def miller_row(c: int, span: int, top: int, labelled: bool) -> List:
