@@ -60,6 +60,16 @@ def no_configured_store(monkeypatch):
     results.close_all()
 
 
+@pytest.fixture
+def int_digits():
+    """Restore the interpreter's integer-text digit limit, which a test may raise."""
+    import sys
+
+    digits = sys.get_int_max_str_digits()
+    yield
+    sys.set_int_max_str_digits(digits)
+
+
 @pytest.fixture(scope="module")
 def no_cache():
     """Pure computations: keep a whole module out of any result store (``ENUMERATOR_NO_CACHE=1``)."""

@@ -189,6 +189,19 @@ def _admin(url: str):
     return sqlalchemy.create_engine(url, isolation_level="AUTOCOMMIT", poolclass=sqlalchemy.pool.NullPool)
 
 
+def run_sql(url: str, statement: str, **params) -> list:
+    """Run one statement on *url* in its own transaction; return its rows (no store code involved)."""
+    import sqlalchemy
+
+    engine = sqlalchemy.create_engine(url, poolclass=sqlalchemy.pool.NullPool)
+    try:
+        with engine.begin() as conn:
+            result = conn.execute(sqlalchemy.text(statement), params)
+            return result.all() if result.returns_rows else []
+    finally:
+        engine.dispose()
+
+
 def create_database(server_url: str) -> str:
     """Create an empty database on the server of *server_url*; return its URL."""
     from sqlalchemy.engine import make_url

@@ -23,6 +23,7 @@ import threading
 
 import pytest
 import sqlalchemy as sa
+from pg_server import run_sql
 from sqlalchemy import exc as sa_exc
 from sqlalchemy.engine import make_url
 
@@ -32,30 +33,13 @@ from enumerator.store import engine as store_engine
 from enumerator.store.keys import ALGORITHM_VERSIONS, Key
 
 VERSION = ALGORITHM_VERSIONS["configurations"]
+pytestmark = pytest.mark.usefixtures("no_configured_store", "int_digits")  # conftest.py
+
 #: Columns that a row's key and value decide (not its id, nor when it was written).
 COLUMNS = ("key_digest", "quantity", "rule", "balls", "urns", "bounds", "params", "version", "kind",
            "value", "digits", "checksum", "method", "elapsed_ns")
 
 
-@pytest.fixture(autouse=True)
-def _isolated(monkeypatch):
-    monkeypatch.delenv(results.ENV_STORE, raising=False)
-    monkeypatch.delenv(results.ENV_NO_CACHE, raising=False)
-    digits = sys.get_int_max_str_digits()
-    yield
-    results.close_all()
-    sys.set_int_max_str_digits(digits)
-
-
-def _sql(url: str, statement: str, **params):
-    """Run one statement on *url* in its own transaction; return its rows (no store code involved)."""
-    engine = sa.create_engine(url, poolclass=sa.pool.NullPool)
-    try:
-        with engine.begin() as conn:
-            result = conn.execute(sa.text(statement), params)
-            return result.all() if result.returns_rows else []
-    finally:
-        engine.dispose()
 
 
 def _be(n: int, r: int) -> int:
@@ -70,7 +54,7 @@ def _items(ns, r=3, method="test"):
 
 def _rows(url: str) -> dict:
     names = ", ".join(COLUMNS)
-    return {row[0]: tuple(row) for row in _sql(url, f"SELECT {names} FROM enumerator_results")}
+    return {row[0]: tuple(row) for row in run_sql(url, f"SELECT {names} FROM enumerator_results")}
 
 
 def test_the_store_writes_postgresql_by_copy(postgres_url):
@@ -93,7 +77,7 @@ def test_new_rows_are_counted_once_including_duplicates_and_rows_another_writer_
     assert store.put_many(_items(range(8))) == 4  # 3, 4, 6, 7 are new
     assert store.put_many(_items(range(8))) == 0
     assert store.put(*_items([8])[0][:4]) is True and store.put(*_items([8])[0][:4]) is False
-    (count, distinct), = _sql(postgres_url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results")
+    (count, distinct), = run_sql(postgres_url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results")
     assert count == distinct == 9
     for n in range(9):  # stars and bars
         assert store.get("configurations", Key.of(Occupancy(balls=n, urns=3, rule="BE")), VERSION) == _be(n, 3)
@@ -143,7 +127,7 @@ def test_a_200000_digit_value_round_trips_whole_by_copy(postgres_url):
     batch = _items(range(3)) + [("microstates", key, version, expected, "", "pow", 0)] + _items(range(3, 6))
     assert store.put_many(batch) == 7
     results.close_all()
-    rows = _sql(postgres_url, "SELECT length(value), digits, pg_typeof(value)::text, md5(value) "
+    rows = run_sql(postgres_url, "SELECT length(value), digits, pg_typeof(value)::text, md5(value) "
                               "FROM enumerator_results WHERE quantity = 'microstates'")
     import hashlib
 
@@ -176,30 +160,30 @@ def test_overlapping_writers_in_opposite_orders_store_every_key_once_and_count_i
         thread.join(120)
     assert errors == []
     assert sum(counted) == 3 * 600
-    (count, distinct), = _sql(postgres_url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results")
+    (count, distinct), = run_sql(postgres_url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results")
     assert count == distinct == 3 * 600
 
 
 @pytest.fixture
 def user_without_temporary_tables(postgres_url, postgres_server):
     """A login role with rights on the store's tables in a database that grants no TEMPORARY; yields its URL."""
-    (allowed,), = _sql(postgres_server, "SELECT rolsuper FROM pg_roles WHERE rolname = current_user")
+    (allowed,), = run_sql(postgres_server, "SELECT rolsuper FROM pg_roles WHERE rolname = current_user")
     if not allowed:
         pytest.skip("the test server's user is not a superuser")
     database = make_url(postgres_url).database
     name = "enumerator_notemp_" + database[-12:]
     results.Store(postgres_url).close()  # the owner creates the store
-    _sql(postgres_server, f'CREATE ROLE "{name}" LOGIN')
-    _sql(postgres_server, f'REVOKE TEMPORARY ON DATABASE "{database}" FROM PUBLIC')
+    run_sql(postgres_server, f'CREATE ROLE "{name}" LOGIN')
+    run_sql(postgres_server, f'REVOKE TEMPORARY ON DATABASE "{database}" FROM PUBLIC')
     for grant in ("GRANT SELECT, INSERT, UPDATE, DELETE ON ALL TABLES IN SCHEMA public TO",
                   "GRANT USAGE ON ALL SEQUENCES IN SCHEMA public TO"):
-        _sql(postgres_url, f'{grant} "{name}"')
+        run_sql(postgres_url, f'{grant} "{name}"')
     try:
         yield make_url(postgres_url).set(username=name).render_as_string(hide_password=False)
     finally:
         results.close_all()
-        _sql(postgres_url, f'DROP OWNED BY "{name}"')
-        _sql(postgres_server, f'DROP ROLE "{name}"')
+        run_sql(postgres_url, f'DROP OWNED BY "{name}"')
+        run_sql(postgres_server, f'DROP ROLE "{name}"')
 
 
 def test_a_user_who_may_not_create_temporary_tables_writes_by_insert(user_without_temporary_tables, postgres_url):
@@ -207,7 +191,7 @@ def test_a_user_who_may_not_create_temporary_tables_writes_by_insert(user_withou
     assert store.put_many(_items(range(5))) == 5
     assert store._copy is None  # fell back to INSERT for the rest of its life
     assert store.put_many(_items(range(8))) == 3
-    assert {int(n): int(v) for n, v in _sql(postgres_url, "SELECT balls, value FROM enumerator_results")} == {
+    assert {int(n): int(v) for n, v in run_sql(postgres_url, "SELECT balls, value FROM enumerator_results")} == {
         n: _be(n, 3) for n in range(8)}
 
 

@@ -33,6 +33,7 @@ import zlib
 import pytest
 import sqlalchemy as sa
 from cli_helpers import one_line_error, run, run_json
+from pg_server import run_sql
 from sqlalchemy.engine import make_url
 
 from enumerator import Occupancy, StoreError
@@ -40,30 +41,13 @@ from enumerator import store as results
 from enumerator.store import schema, tables
 from enumerator.store.keys import ALGORITHM_VERSIONS, Key
 
-pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
+pytestmark = pytest.mark.usefixtures("no_configured_store", "int_digits")  # conftest.py
 
 
-@pytest.fixture(autouse=True)
-def _int_digits():
-    """Restore the interpreter's integer-text digit limit a test may raise."""
-    digits = sys.get_int_max_str_digits()
-    yield
-    sys.set_int_max_str_digits(digits)
-
-
-def _sql(url: str, statement: str, **params):
-    """Run one statement on *url* in its own transaction and return every row (no store code involved)."""
-    engine = sa.create_engine(url, poolclass=sa.pool.NullPool)
-    try:
-        with engine.begin() as conn:
-            result = conn.execute(sa.text(statement), params)
-            return result.all() if result.returns_rows else []
-    finally:
-        engine.dispose()
 
 
 def _column_types(url: str) -> dict:
-    rows = _sql(url, "SELECT table_name, column_name, data_type, is_nullable FROM information_schema.columns "
+    rows = run_sql(url, "SELECT table_name, column_name, data_type, is_nullable FROM information_schema.columns "
                      "WHERE table_schema = current_schema() ORDER BY table_name, ordinal_position")
     return {(t, c): (d, n) for t, c, d, n in rows}
 
@@ -78,7 +62,7 @@ def _be(n: int, r: int) -> int:
 def test_a_new_database_gets_the_current_schema_with_numbers_as_text(postgres_url):
     store = results.Store(postgres_url)
     assert store.engine.dialect.name == "postgresql"
-    version = _sql(postgres_url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'")
+    version = run_sql(postgres_url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'")
     assert version == [(str(schema.SCHEMA_VERSION),)]
     types = _column_types(postgres_url)
     # exact values and every number describing a problem are TEXT (numeric stops at 131,072 digits)
@@ -86,7 +70,7 @@ def test_a_new_database_gets_the_current_schema_with_numbers_as_text(postgres_ur
         assert types[("enumerator_results", column)][0] == "text", column
     for column in ("minimum", "capacity", "balls_first", "balls_last", "urns_first", "urns_last"):
         assert types[("enumerator_tables", column)][0] == "text", column
-    indexes = {name for (name,) in _sql(postgres_url, "SELECT indexname FROM pg_indexes "
+    indexes = {name for (name,) in run_sql(postgres_url, "SELECT indexname FROM pg_indexes "
                                                       "WHERE tablename = 'enumerator_results'")}
     assert "ix_enumerator_results_row" in indexes
     store.close()
@@ -94,12 +78,12 @@ def test_a_new_database_gets_the_current_schema_with_numbers_as_text(postgres_ur
     before = _column_types(postgres_url)
     results.Store(postgres_url).close()
     assert _column_types(postgres_url) == before
-    assert _sql(postgres_url, "SELECT count(*) FROM enumerator_meta WHERE key = 'schema_version'") == [(1,)]
+    assert run_sql(postgres_url, "SELECT count(*) FROM enumerator_meta WHERE key = 'schema_version'") == [(1,)]
 
 
 def test_a_database_of_a_newer_schema_is_refused(postgres_url):
     results.Store(postgres_url).close()
-    _sql(postgres_url, "UPDATE enumerator_meta SET value = :v WHERE key = 'schema_version'",
+    run_sql(postgres_url, "UPDATE enumerator_meta SET value = :v WHERE key = 'schema_version'",
          v=str(schema.SCHEMA_VERSION + 1))
     with pytest.raises(StoreError, match=f"schema version {schema.SCHEMA_VERSION + 1}, newer"):
         results.Store(postgres_url)
@@ -117,17 +101,17 @@ def test_an_unreachable_server_is_one_line_without_the_password(postgres_server)
 @pytest.fixture
 def second_user(postgres_url, postgres_server):
     """A login role with no rights beyond PostgreSQL's defaults (dropped after the test); yields its name."""
-    (allowed,), = _sql(postgres_server, "SELECT rolsuper OR rolcreaterole FROM pg_roles WHERE rolname = current_user")
+    (allowed,), = run_sql(postgres_server, "SELECT rolsuper OR rolcreaterole FROM pg_roles WHERE rolname = current_user")
     if not allowed:
         pytest.skip("the test server's user may not create roles")
     name = "enumerator_user_" + make_url(postgres_url).database[-12:]
-    _sql(postgres_server, f'CREATE ROLE "{name}" LOGIN')
+    run_sql(postgres_server, f'CREATE ROLE "{name}" LOGIN')
     try:
         yield name
     finally:
         results.close_all()
-        _sql(postgres_url, f'DROP OWNED BY "{name}"')
-        _sql(postgres_server, f'DROP ROLE "{name}"')
+        run_sql(postgres_url, f'DROP OWNED BY "{name}"')
+        run_sql(postgres_server, f'DROP ROLE "{name}"')
 
 
 def test_a_user_without_create_rights_cannot_make_the_store_and_is_told_in_one_line(postgres_url, second_user):
@@ -143,14 +127,14 @@ def test_a_second_user_with_rights_on_the_tables_only_shares_the_store(postgres_
     results.close_all()
     for grant in ("GRANT SELECT, INSERT, UPDATE, DELETE ON ALL TABLES IN SCHEMA public TO",
                   "GRANT USAGE ON ALL SEQUENCES IN SCHEMA public TO"):
-        _sql(postgres_url, f'{grant} "{second_user}"')
+        run_sql(postgres_url, f'{grant} "{second_user}"')
     url = make_url(postgres_url).set(username=second_user).render_as_string(hide_password=False)
     store = ("--store", url)
     assert run_json("count", "-n", 10, "-r", 4, "--rule", "BE", *store)["configurations"] == str(_be(10, 4))
     built = run_json("table", "build", "--rule", "BE", "--balls", "0..12", "--urns", "3..5", *store)
     assert built["reused"] == "1" and built["computed"] == str(13 * 3 - 1)
     assert run_json("cache", "verify", "--all", *store)["mismatches"] == []
-    (count,), = _sql(postgres_url, "SELECT count(*) FROM enumerator_results")
+    (count,), = run_sql(postgres_url, "SELECT count(*) FROM enumerator_results")
     assert count == 13 * 3
 
 
@@ -166,7 +150,7 @@ def test_a_100000_digit_value_round_trips_as_text(postgres_url):
         assert model.configurations() == expected
     results.close_all()
     # stored whole, as text, with its digit count
-    rows = _sql(postgres_url, "SELECT length(value), digits, pg_typeof(value)::text FROM enumerator_results "
+    rows = run_sql(postgres_url, "SELECT length(value), digits, pg_typeof(value)::text FROM enumerator_results "
                               "WHERE quantity = 'configurations'")
     assert rows == [(len(str(expected)), len(str(expected)), "text")]
     # read back by a fresh store, under the model's key
@@ -184,14 +168,14 @@ def test_a_value_past_numeric_s_131072_digits_is_kept_whole(postgres_url):
     fresh = results.Store(postgres_url)
     key = Key.of(Occupancy(balls=n, urns=r, rule="MB"))
     assert fresh.get("microstates", key, ALGORITHM_VERSIONS["microstates"]) == r**n
-    assert _sql(postgres_url, "SELECT max(digits) FROM enumerator_results") == [(n + 1,)]
+    assert run_sql(postgres_url, "SELECT max(digits) FROM enumerator_results") == [(n + 1,)]
 
 
 def test_urns_past_64_bits_are_stored_as_decimal_text(postgres_url):
     r = 2**70  # BE with n = 3: C(r + 2, 3) (stars and bars)
     with results.using(postgres_url):
         assert Occupancy(balls=3, urns=r, rule="BE").configurations() == _be(3, r)
-    assert _sql(postgres_url, "SELECT urns FROM enumerator_results") == [(str(r),)]
+    assert run_sql(postgres_url, "SELECT urns FROM enumerator_results") == [(str(r),)]
 
 
 # -- the upgrade from schema 1 ---------------------------------------------------------------
@@ -268,7 +252,7 @@ def test_a_schema_1_database_is_upgraded_in_place(postgres_url, postgres_server)
     _write_schema_1(postgres_url)
     assert _column_types(postgres_url)[("enumerator_results", "urns")][0] == "bigint"
     store = results.Store(postgres_url)  # runs step 1 -> 2, PostgreSQL branch (ALTER COLUMN ... TYPE TEXT)
-    assert _sql(postgres_url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'") == [
+    assert run_sql(postgres_url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'") == [
         (str(schema.SCHEMA_VERSION),)]
     # the same layout as a database the current code creates
     import pg_server
@@ -279,7 +263,7 @@ def test_a_schema_1_database_is_upgraded_in_place(postgres_url, postgres_server)
         assert _column_types(postgres_url) == _column_types(fresh)
     finally:
         pg_server.drop_database(postgres_server, fresh)
-    texts = {bounds for (bounds,) in _sql(postgres_url, "SELECT bounds FROM enumerator_results")}
+    texts = {bounds for (bounds,) in run_sql(postgres_url, "SELECT bounds FROM enumerator_results")}
     assert texts == {"4*0:", "2x0:2,1x1:"}
     # the old rows answer under the new keys, read straight from the store
     for n in range(6):
@@ -344,12 +328,12 @@ def _check_every_cell_once(url: str, outcome: list) -> None:
         b0, b1 = map(int, balls.split(".."))
         r0, r1 = map(int, urns.split(".."))
         wanted |= {(n, r) for n in range(b0, b1 + 1) for r in range(r0, r1 + 1)}
-    rows = _sql(url, "SELECT balls, urns, value FROM enumerator_results WHERE quantity = 'configurations'")
+    rows = run_sql(url, "SELECT balls, urns, value FROM enumerator_results WHERE quantity = 'configurations'")
     cells = [(int(n), int(r)) for n, r, _ in rows]
     assert len(cells) == len(set(cells)) == len(wanted)  # every cell once
     assert set(cells) == wanted
     assert {(int(n), int(r)): int(v) for n, r, v in rows} == {(n, r): _be(n, r) for n, r in wanted}
-    assert _sql(url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results") == [
+    assert run_sql(url, "SELECT count(*), count(DISTINCT key_digest) FROM enumerator_results") == [
         (len(wanted), len(wanted))]
     listed = {name: stored for name, _, stored in tables.list_tables(store=url)}
     assert listed == {f"grid{i}": 61 * 30 for i in range(len(_GRIDS))}
@@ -370,7 +354,7 @@ def test_builders_forked_from_a_process_using_the_store_store_every_cell_once(po
     outcome = _build_concurrently(postgres_url, "fork")
     errors = [answer for answer in outcome if answer[0] != "ok"]
     assert errors == [], errors
-    _sql(postgres_url, "DELETE FROM enumerator_tables WHERE name = 'seed'")
+    run_sql(postgres_url, "DELETE FROM enumerator_tables WHERE name = 'seed'")
     _check_every_cell_once(postgres_url, outcome)
 
 
@@ -382,7 +366,7 @@ def test_put_counts_only_the_rows_that_were_new(postgres_url):
     assert store.put_many(items[:3]) == 3
     assert store.put_many(items) == 2  # two of five are new
     assert store.put(*items[0][:4]) is False  # stored already
-    assert _sql(postgres_url, "SELECT count(*) FROM enumerator_results") == [(5,)]
+    assert run_sql(postgres_url, "SELECT count(*) FROM enumerator_results") == [(5,)]
 
 
 def _opener(urls, barrier, answers):
@@ -415,7 +399,7 @@ def test_processes_opening_an_empty_database_at_once_all_succeed(postgres_server
             _end(workers)
         assert failures == []
         for url in urls:  # each created once, at the current schema
-            assert _sql(url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'") == [
+            assert run_sql(url, "SELECT value FROM enumerator_meta WHERE key = 'schema_version'") == [
                 (str(schema.SCHEMA_VERSION),)]
     finally:
         for url in urls:
@@ -451,16 +435,16 @@ def test_cache_verify_export_clear_through_the_cli(postgres_url):
         assert counted["configurations"] == str(_be(n, r))
     run_json("count", "-n", 3000, "-r", 10, "--rule", "MB", *store)  # 10**3000, 3001 digits
     checked = run_json("cache", "verify", "--all", *store)
-    (rows,), = _sql(postgres_url, "SELECT count(*) FROM enumerator_results")
+    (rows,), = run_sql(postgres_url, "SELECT count(*) FROM enumerator_results")
     assert (checked["checked"], checked["mismatches"]) == (str(rows), [])
     # damage one value behind the store's back: verify names it, --fix puts the right one back
-    _sql(postgres_url, "UPDATE enumerator_results SET value = '287' WHERE value = '286'")
+    run_sql(postgres_url, "UPDATE enumerator_results SET value = '287' WHERE value = '286'")
     damaged = run("cache", "verify", "--all", "--json", *store)
     payload = json.loads(damaged.stdout.splitlines()[0])
     assert [m["stored"] for m in payload["mismatches"]] == ["287"]
     fixed = run("cache", "verify", "--all", "--fix", "--json", *store)
     assert json.loads(fixed.stdout.splitlines()[0])["fixed"] == "1"
-    assert _sql(postgres_url, "SELECT count(*) FROM enumerator_results WHERE value = :v", v=str(_be(10, 4))) == [(1,)]
+    assert run_sql(postgres_url, "SELECT count(*) FROM enumerator_results WHERE value = :v", v=str(_be(10, 4))) == [(1,)]
     # export: every row, values in full
     exported = run("cache", "export", "--format", "jsonl", *store)
     assert exported.exit_code == 0, exported.output
@@ -472,7 +456,7 @@ def test_cache_verify_export_clear_through_the_cli(postgres_url):
     assert refused.exit_code == 2
     cleared = run("cache", "clear", "--yes", *store)
     assert cleared.exit_code == 0, cleared.output
-    assert _sql(postgres_url, "SELECT count(*) FROM enumerator_results") == [(0,)]
+    assert run_sql(postgres_url, "SELECT count(*) FROM enumerator_results") == [(0,)]
     assert run_json("table", "list", *store)["tables"] == []
 
 
@@ -489,7 +473,7 @@ def test_the_plain_postgresql_url_form_works_when_psycopg_is_sqlalchemy_s_defaul
         pytest.skip(f"postgresql:// means the {plain.get_dialect().driver} driver with this SQLAlchemy")
     url = plain.render_as_string(hide_password=False)
     assert run_json("count", "-n", 5, "-r", 3, "--rule", "BE", "--store", url)["configurations"] == str(_be(5, 3))
-    assert _sql(postgres_url, "SELECT value FROM enumerator_results") == [(str(_be(5, 3)),)]
+    assert run_sql(postgres_url, "SELECT value FROM enumerator_results") == [(str(_be(5, 3)),)]
 
 
 def test_the_password_of_a_store_url_is_never_shown(postgres_url):
