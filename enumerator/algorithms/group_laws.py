@@ -30,7 +30,7 @@ from __future__ import annotations
 
 import math
 from fractions import Fraction
-from typing import Dict, Optional
+from typing import Callable, Dict, Optional
 
 import gmpy2
 from flint import fmpz
@@ -258,14 +258,29 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
                  advice="ask for P(max <= m) at one m (an event) instead of the whole law")
     if free and hi >= n // 2:
         cumulative.update(_mb_free_tail(groups, n, max(lo, n // 2)))
-    counts: Dict[int, mpz] = {}
-    previous = mpz(0)
-    for m in range(lo, hi + 1):
+
+    def at_most(m: int) -> mpz:
         value = cumulative.get(m)
         if value is None and free and _levels_first(groups, n, m, bits):
             value = _mb_free_capped(groups, n, m)
         if value is None:
             value = mpz(_total_of(_capped(groups, m), model, "a bounded count"))
+        return value
+
+    return law_from_cumulative(at_most, lo, hi, total)
+
+
+def law_from_cumulative(at_most: Callable[[int], "mpz"], lo: int, hi: int, total) -> Dict[int, "mpz"]:
+    """``{m: A_m - A_(m-1)}`` for ``m = lo..hi`` from the cumulative counts ``A_m = at_most(m)``.
+
+    Only the nonzero differences are kept, and the walk stops once ``A_m``
+    reaches *total* (no later ``m`` can add weight), so ``at_most`` is
+    called at most ``hi - lo + 1`` times, in increasing ``m``.
+    """
+    counts: Dict[int, mpz] = {}
+    previous = mpz(0)
+    for m in range(lo, hi + 1):
+        value = at_most(m)
         if value != previous:
             counts[m] = value - previous
         previous = value

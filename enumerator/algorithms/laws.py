@@ -81,6 +81,7 @@ from .group_laws import (
     _group_min_counts,
     _group_urn_counts,
     _mb_max_cost,
+    law_from_cumulative,
     marked_moments,
 )
 from .listing import iter_configurations
@@ -199,19 +200,13 @@ def max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
         elif not model.rule.distinguishable:
             cumulative = be_max_cumulative(n, r, model.bounds[0][0], lo, hi)
         cumulative[hi] = mpz(total)
-    counts: Dict[int, mpz] = {}
-    previous = mpz(0)
-    for m in range(lo, hi + 1):
+
+    def at_most(m: int) -> mpz:
         if m in cumulative:
-            value = cumulative[m]
-        else:
-            value = mpz(outcome_count(tuple((a, min(b, m)) for a, b in eff), model.rule, n))
-        if value != previous:
-            counts[m] = value - previous
-        previous = value
-        if value == total:
-            break
-    return counts
+            return cumulative[m]
+        return mpz(outcome_count(tuple((a, min(b, m)) for a, b in eff), model.rule, n))
+
+    return law_from_cumulative(at_most, lo, hi, total)
 
 
 
