@@ -27,8 +27,7 @@ from dataclasses import dataclass
 from typing import Optional, Tuple
 
 from ..algorithms.levels import Contact
-from ..core.errors import Unsupported
-from .render import console, exact, human, show_table
+from .render import console, exact, float_cell, human, pyplot, show_table
 
 __all__ = [
     "Listing",
@@ -59,23 +58,6 @@ class Listing:
             return []
         low, high = self.window
         return [ea for ea in contact.split if low <= ea <= high]
-
-
-def _pyplot():
-    """matplotlib's pyplot on the non-interactive Agg backend; :class:`Unsupported` without matplotlib."""
-    try:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
-    except ImportError:  # pragma: no cover - depends on the installation
-        raise Unsupported("plots need matplotlib: pip install 'enumerator[plot]'") from None
-    return plt
-
-
-def _float_cell(x) -> str:
-    """A table cell for an approximate value: 6 significant digits, ``-`` for none."""
-    return "-" if x is None else f"{float(x):.6g}"
 
 
 def _energy(contact: Contact, index: int) -> str:
@@ -117,7 +99,7 @@ def plot_contact(path, contact: Contact, label_a: str = "A", label_b: str = "B")
     gcd), the most probable split marked by a dashed line.  Cost: one
     division per split, plus matplotlib's drawing.
     """
-    plt = _pyplot()
+    plt = pyplot()
     fig, ax = plt.subplots(figsize=(6, 4.2))
     unit = float(contact.unit)
     keys = sorted(contact.split)
@@ -258,7 +240,7 @@ def show_contact(contact: Contact, label_a: str, label_b: str, energy, plot: Opt
     title = f"Thermal contact{unit_note}: A = {label_a}; B = {label_b}; total energy {_energy(contact, contact.energy)}"
     if keys:
         rows = [[_energy(contact, ea), _energy(contact, contact.energy - ea), contact.split[ea],
-                 _float_cell(contact.probability_approx_of(ea) if contact.total else None)] for ea in keys]
+                 float_cell(contact.probability_approx_of(ea) if contact.total else None)] for ea in keys]
         show_table(title, ["E_A", "E_B", "Ω_A Ω_B", "probability (approx)"], rows)
     else:
         out.print(title)
