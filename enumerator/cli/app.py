@@ -78,6 +78,7 @@ FLAGS: Dict[str, str] = {
     "capacity": "--capacity",
     "cluster": "--cluster",
     "degeneracies": "--degeneracies",
+    "digits": "--digits",
     "dimension": "--dimension",
     "energies": "--energies",
     "event": "--event",

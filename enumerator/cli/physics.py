@@ -200,10 +200,6 @@ def levels_command(
                 as_json)
 
 
-#: Most significant digits ``--digits`` may ask of the canonical arithmetic.
-MAX_DIGITS = 10_000
-
-
 def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
             max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
             as_json) -> None:
@@ -222,9 +218,7 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
 
     if report_levels is not None and report_levels < 1:
         raise InvalidParameters(f"--report-levels must be at least 1 (got {report_levels})")
-    if digits > MAX_DIGITS:
-        raise InvalidParameters(f"--digits {digits:,} is beyond {MAX_DIGITS:,}: every canonical step would carry "
-                                "numbers that long; ask for fewer digits (50 is ample for 12-digit floats)")
+    lv.parse_digits(digits)  # refused before any work, even where only multiplicities are asked
     system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
                            dimension, gap, oscillators)
     if max_energy is not None and not system.spectrum.finite:

@@ -67,6 +67,7 @@ from .spectra import (
     harmonic_trap,
     make_spectrum,
     make_system,
+    parse_digits,
     parse_rational,
     two_level,
 )
@@ -103,6 +104,7 @@ __all__ = [
     "occupation_law_exact",
     "OccupationLaw",
     "parse_factor",
+    "parse_digits",
     "parse_rational",
     "thermal_contact",
     "two_level",

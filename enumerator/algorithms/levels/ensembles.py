@@ -43,7 +43,7 @@ from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
 from .particle_hole import fermion_canonical
-from .spectra import Spectrum, System, ground_energy, parse_temperature
+from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature
 
 __all__ = [
     "CanonicalPoint",
@@ -757,7 +757,7 @@ def canonical(
     negligible) and ``O(N)`` for the ground-level variance; MB
     ``O(levels)``; the particle-hole route as stated in its module.
     """
-    digits = as_count(digits, "digits", 5)
+    digits = parse_digits(digits)
     if ground_energy(system) is None:
         raise InvalidParameters(
             f"{system.particles} particles do not fit in the {system.spectrum.states()} "
@@ -1147,7 +1147,7 @@ def canonical_occupations(
     grand-canonical comparison; cost per temperature ``O(M(N) log N)`` plus
     ``O(N)`` mpmath operations per level.
     """
-    digits = as_count(digits, "digits", 5)
+    digits = parse_digits(digits)
     if ground_energy(system) is None:
         raise InvalidParameters(
             f"{system.particles} particles do not fit in the single-particle states under this rule"
@@ -1278,7 +1278,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
     mpmath operations per evaluation of the total, times the root finder's
     iterations (a ladder sums its tail in closed form).
     """
-    digits = as_count(digits, "digits", 5)
+    digits = parse_digits(digits)
     temperature = parse_temperature(temperature)
     spectrum = system.spectrum
     count = _report_count(spectrum, levels)

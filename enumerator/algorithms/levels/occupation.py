@@ -79,7 +79,7 @@ from .ensembles import (
     grand_canonical_level_variance,
 )
 from .particle_hole import fermion_canonical
-from .spectra import System, ground_energy, parse_rational, parse_temperature
+from .spectra import System, ground_energy, parse_digits, parse_rational, parse_temperature
 
 __all__ = ["OccupationLaw", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
 
@@ -403,7 +403,7 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     >>> [mpmath.nstr(p, 12) for p in law.law]
     ['0.142857142857', '0.285714285714', '0.571428571429']
     """
-    digits = as_count(digits, "digits", 5)
+    digits = parse_digits(digits)
     _check_system(system)
     _level(system, level)
     out = []

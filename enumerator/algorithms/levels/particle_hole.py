@@ -86,7 +86,7 @@ from flint import arb, arb_poly, ctx
 from ...core.errors import InvalidParameters, TooLarge
 from ...core.model import as_count
 from ...core.rules import Rule
-from .spectra import Spectrum, System, parse_temperature
+from .spectra import Spectrum, System, parse_digits, parse_temperature
 
 __all__ = ["FermionPoint", "fermion_canonical"]
 
@@ -708,7 +708,7 @@ def fermion_canonical(
     if particles is None:
         raise InvalidParameters("give the number of particles")
     n = as_count(particles, "particles")
-    digits = as_count(digits, "digits", 5)
+    digits = parse_digits(digits)
     temps = [parse_temperature(t) for t in temperatures]
     if spectrum.ladder is None:
         states = spectrum.states()

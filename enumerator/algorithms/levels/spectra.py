@@ -178,6 +178,32 @@ def parse_temperature(value) -> Fraction:
 _TEMPERATURE_RANGE = (Fraction(1, 10**300), Fraction(10**300))
 
 
+#: Most significant digits the canonical arithmetic may be asked for.
+MAX_DIGITS = 10_000
+
+
+def parse_digits(digits) -> int:
+    """Check the significant digits asked of the canonical arithmetic: a whole number from 5 to :data:`MAX_DIGITS`.
+
+    Raises
+    ------
+    InvalidParameters
+        Below 5, or above :data:`MAX_DIGITS` (every canonical step would
+        carry numbers that long, so the work would run without end).
+
+    Examples
+    --------
+    >>> parse_digits(50)
+    50
+    """
+    digits = as_count(digits, "digits", 5)
+    if digits > MAX_DIGITS:
+        raise InvalidParameters(f"digits= {digits:,} is beyond {MAX_DIGITS:,}: every canonical step would carry "
+                                "numbers that long; ask for fewer digits (50 is ample for 12-digit floats)",
+                                parameters=["digits"])
+    return digits
+
+
 def _short_number(number: Fraction) -> str:
     """A huge or tiny positive rational as a short decimal text (``1e+400``), for messages."""
     return mpmath.nstr(mpmath.mpf(number.numerator) / number.denominator, 3)
