@@ -19,6 +19,7 @@ never loads numpy.
 
 from __future__ import annotations
 
+import functools
 import json
 import sys
 from fractions import Fraction
@@ -310,6 +311,12 @@ def console() -> "Console":
     ``BrokenPipeError``, which the command wrapper ends quietly with exit 0
     (rich's own handling would exit 1).
     """
+    return _pipe_console_class()(file=sys.stdout, highlight=False, soft_wrap=False)
+
+
+@functools.lru_cache(maxsize=None)
+def _pipe_console_class():
+    """rich's ``Console`` raising ``BrokenPipeError`` on a closed pipe (made once, when rich is first needed)."""
     from rich.console import Console
 
     class PipeConsole(Console):
@@ -317,7 +324,7 @@ def console() -> "Console":
             self.quiet = True
             raise BrokenPipeError
 
-    return PipeConsole(file=sys.stdout, highlight=False, soft_wrap=False)
+    return PipeConsole
 
 
 def plural(count: int, noun: str) -> str:
