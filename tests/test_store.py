@@ -698,3 +698,18 @@ def test_model_from_key_reads_groups_weights_and_schema_1_texts():
     assert model.urns == 2**64 + 1 and model.canonical_bounds() == f"{2**64}x0:3@2,1x1:@1/3"
     with pytest.raises(InvalidParameters):
         results.model_from_key("BE", 1, "0:2,zz")
+
+
+def test_no_store_module_imports_a_private_name_of_another():
+    # a helper two modules share gets a public name: a private one stays in its module;
+    # the rule read straight off each module's import statements
+    import ast
+
+    folder = Path(results.__file__).parent
+    borrowed = []
+    for module in sorted(folder.glob("*.py")):
+        for node in ast.walk(ast.parse(module.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.ImportFrom):
+                borrowed += [f"{module.name}: {node.module} {alias.name}" for alias in node.names
+                             if alias.name.startswith("_") and not alias.name.startswith("__")]
+    assert borrowed == []

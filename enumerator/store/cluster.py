@@ -62,7 +62,7 @@ from ..core.errors import InvalidParameters, TooLarge
 from ..core.limits import Cost
 from ..core.model import UrnModel, as_count
 from .keys import ALGORITHM_VERSIONS, Key
-from .tables import BuildReport, TableSpec, _need_store, claim_table, row_values
+from .tables import BuildReport, TableSpec, claim_table, need_store, row_values
 
 __all__ = [
     "EventWeight",
@@ -421,7 +421,7 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     the transfer of one big integer to the client and its share of a write
     (and per row one query from a worker on a server store).
     """
-    target = _need_store(store)
+    target = need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
     claim_table(spec, name, target)

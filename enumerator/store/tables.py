@@ -69,12 +69,14 @@ __all__ = [
     "TableSpec",
     "bench_workloads",
     "build_table",
+    "claim_table",
     "export_lines",
     "export_parquet",
     "export_table",
     "list_tables",
     "load_table",
     "log10_approx",
+    "need_store",
     "open_table",
     "parse_range",
     "row_values",
@@ -363,7 +365,31 @@ class BuildReport:
     read_only: bool = False
 
 
-def _need_store(store) -> Store:
+def need_store(store=None) -> Store:
+    """The store tables are built in and read from: *store*, else the active one.
+
+    Parameters
+    ----------
+    store : Store, StoreHandle, str or None
+        A store or its location; ``None`` means
+        :func:`~enumerator.store.context.current_store`.
+
+    Returns
+    -------
+    Store
+
+    Raises
+    ------
+    StoreError
+        When no store is given and remembering is switched off (``no_cache=``
+        or ``ENUMERATOR_NO_CACHE``), or the store cannot be opened.
+
+    Notes
+    -----
+    Shared by the single-process table routes here and the cluster build
+    (:mod:`enumerator.store.cluster`).  Cost: that of
+    :func:`~enumerator.store.context.open_store`.
+    """
     target = open_store(store) if store is not None else current_store()
     if target is None:
         raise StoreError(
@@ -436,7 +462,7 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     Cost: one generating-function pass per row with a missing cell (see the
     module docstring) and one write transaction per such row.
     """
-    target = _need_store(store)
+    target = need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
     claim_table(spec, name, target)
@@ -639,7 +665,7 @@ def open_table(name: str, store=None) -> StoredTable:
         When the store has no table of that name (the message lists the
         known ones, or says there are none).
     """
-    target = _need_store(store)
+    target = need_store(store)
     row = target.table(name)
     if row is None:
         known = [t["name"] for t in target.tables()]
@@ -667,7 +693,7 @@ def load_table(name: str, store=None, *, balls: Optional[range] = None,
 
 def list_tables(store=None) -> List[Tuple[str, TableSpec, int]]:
     """Every table as ``(name, spec, cells stored)``: one query for the definitions, one count per table."""
-    target = _need_store(store)
+    target = need_store(store)
     out = []
     for row in target.tables():
         table = StoredTable(row["name"], TableSpec.from_row(row), target)
