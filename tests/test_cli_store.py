@@ -345,3 +345,25 @@ def test_a_show_window_outside_the_table_is_refused(where):
                "--store", where).exit_code == 0
     message = one_line_error(run("table", "show", "small", "--balls", "100..200", "--store", where))
     assert "outside the table" in message and "0..5" in message
+
+
+def test_clear_checks_the_quantity_without_a_pass_over_the_store(where, monkeypatch):
+    # the names are checked by index seeks: stats() (a grouped pass over every row) must not run
+    from enumerator.core.model import UrnModel
+    from enumerator.store.database import Store
+
+    run("count", "-n", 4, "-r", 3, "--store", where)
+    target = results.open_store(where)
+    # a quantity no command stores, put there by a library user (2^4 = 16, r^n)
+    assert results.remember("lab-notes", UrnModel(balls=4, urns=2), lambda: 2**4, version=1, store=target) == 16
+
+    def no_full_pass(self):
+        raise AssertionError("cache clear --quantity read the whole store")
+
+    monkeypatch.setattr(Store, "stats", no_full_pass)
+    message = one_line_error(run("cache", "clear", "--quantity", "lab-note", "--yes", "--store", where))
+    assert "no quantity 'lab-note'" in message and "lab-notes" in message and "microstates" in message
+    assert run_json("cache", "clear", "--quantity", "lab-notes", "--yes", "--store", where)["removed"] == "1"
+    assert run_json("cache", "clear", "--quantity", "microstates", "--yes", "--store", where)["removed"] == "1"
+    with sqlite3.connect(where) as conn:
+        assert conn.execute("SELECT DISTINCT quantity FROM enumerator_results").fetchall() == [("configurations",)]

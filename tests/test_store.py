@@ -713,3 +713,16 @@ def test_no_store_module_imports_a_private_name_of_another():
                 borrowed += [f"{module.name}: {node.module} {alias.name}" for alias in node.names
                              if alias.name.startswith("_") and not alias.name.startswith("__")]
     assert borrowed == []
+
+
+def test_stored_quantities_and_holds_quantity_match_the_rows(store, tmp_path):
+    # reference: SELECT DISTINCT over the file with the standard library's sqlite3
+    assert store.stored_quantities() == [] and not store.holds_quantity("microstates")
+    for name in ("zeta", "alpha", "microstates", "alpha2", "Beta"):
+        for n in range(3):
+            store.put(name, store_keys.Key.of(Occupancy(balls=n, urns=2)), 1, n)
+    with sqlite3.connect(tmp_path / "s.sqlite") as conn:
+        names = sorted(row[0] for row in conn.execute("SELECT DISTINCT quantity FROM enumerator_results"))
+    assert store.stored_quantities() == names == ["Beta", "alpha", "alpha2", "microstates", "zeta"]
+    assert all(store.holds_quantity(name) for name in names)
+    assert not store.holds_quantity("alph") and not store.holds_quantity("beta")

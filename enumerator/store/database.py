@@ -840,6 +840,48 @@ class Store:
         except sa_exc.DBAPIError as error:
             raise self._translate(error) from None
 
+    def holds_quantity(self, quantity: str) -> bool:
+        """Return whether at least one row of *quantity* is stored.
+
+        Notes
+        -----
+        One indexed seek (``LIMIT 1`` on the index that starts with the
+        quantity); no row is read beyond the first.
+        """
+        if not self._schema_ready:
+            return False
+
+        def fetch():
+            with reading(self.engine) as conn:
+                return conn.execute(select(Result.id).where(Result.quantity == quantity).limit(1)).first()
+
+        return self._guard(fetch) is not None
+
+    def stored_quantities(self) -> List[str]:
+        """Return the names of the quantities that have stored rows, in sorted order.
+
+        Notes
+        -----
+        A loose index scan: ``min(quantity)`` above the name found last,
+        one indexed seek per name on the index that starts with the
+        quantity, so the cost is the number of names (times the log of the
+        rows), never a pass over the results as :meth:`stats` makes.
+        """
+        if not self._schema_ready:
+            return []
+        after = select(func.min(Result.quantity)).where(Result.quantity > bindparam("after"))
+
+        def fetch():
+            names: List[str] = []
+            with reading(self.engine) as conn:
+                name = conn.execute(select(func.min(Result.quantity))).scalar()
+                while name is not None:
+                    names.append(name)
+                    name = conn.execute(after, {"after": name}).scalar()
+            return names
+
+        return self._guard(fetch)
+
     def stats(self) -> Dict[str, Any]:
         """Return counts by quantity and rule, stale rows, the largest value, time spent, file size.
 
