@@ -141,43 +141,59 @@ class Occupancy(UrnModel):
         return self._remembered("profiles", partial(count_profiles, self), store=store)
 
     # -- laws ----------------------------------------------------------------
-    def distribution(self, statistic, limit=None, *, store=None):
+    def distribution(self, statistic, limit=None, *, store=None, compute=None):
         """The exact distribution of *statistic* (``"max"``, ``"empty"``, ``"urn:1"``, ...).
 
         Remembered in the result store under the statistic's canonical name;
         pure: :func:`enumerator.algorithms.statistics.distribution`.
+        *compute*, if given, is called as ``compute(name)`` with the
+        statistic's canonical name on a miss, instead of the library's
+        planner, and must return the same exact
+        :class:`~enumerator.algorithms.statistics.Distribution` (the CLI
+        passes rank shards on a cluster,
+        :func:`enumerator.store.cluster.distribution_distributed`); a
+        remembered law is returned without calling it.
         """
         from .algorithms.statistics import DEFAULT_LIMIT, Distribution, parse_statistic
 
         stat = parse_statistic(statistic)
         bound = DEFAULT_LIMIT if limit is None else limit
 
-        def compute():
+        def compute_here():
+            if compute is not None:
+                return _law_record(compute(stat.name))
             return _stored_law(self, stat.name, bound)
 
         register_recomputers()
-        stored = self._remembered("distribution", compute, params=stat.name, store=store)
+        stored = self._remembered("distribution", compute_here, params=stat.name, store=store)
         pmf = {}
         for value, p in stored["pmf"]:
             pmf[tuple(value) if isinstance(value, list) else value] = p
         return Distribution(stat.name, pmf, stored["mean"], stored["variance"])
 
-    def event_probability(self, event: str, limit=None, *, store=None) -> Fraction:
+    def event_probability(self, event: str, limit=None, *, store=None, compute=None) -> Fraction:
         """The exact probability of an event such as ``"max <= 2 and k1 >= 1"``.
 
         Remembered in the result store under the event's canonical text; see
-        :mod:`enumerator.algorithms.events` for the language.
+        :mod:`enumerator.algorithms.events` for the language.  *compute*, if
+        given, is called as ``compute(text)`` with the canonical text on a
+        miss, instead of the library's planner, and must return the same
+        exact probability (the CLI passes rank shards on a cluster,
+        :func:`enumerator.store.cluster.event_count_distributed`); a
+        remembered answer is returned without calling it.
         """
         from .algorithms.event_language import parse_event
         from .algorithms.events import event_probability
 
         text = str(parse_event(event))
 
-        def compute():
+        def compute_here():
+            if compute is not None:
+                return compute(text)
             return event_probability(self, text) if limit is None else event_probability(self, text, limit=limit)
 
         _register_event_probability()
-        return self._remembered("event_probability", compute, params=text, store=store)
+        return self._remembered("event_probability", compute_here, params=text, store=store)
 
     def coefficient_row(self, upto=None, *, store=None):
         """Counts for every ball number ``0..upto`` at once (one series pass).
@@ -235,7 +251,11 @@ def _stored_law(model: UrnModel, statistic: str, limit: int) -> dict:
     """The law of *statistic* in the form the store keeps (pmf pairs, mean, variance)."""
     from .algorithms.statistics import distribution
 
-    law = distribution(model, statistic, limit=limit)
+    return _law_record(distribution(model, statistic, limit=limit))
+
+
+def _law_record(law) -> dict:
+    """A :class:`~enumerator.algorithms.statistics.Distribution` in the form the store keeps."""
     return {
         "pmf": [[list(v) if isinstance(v, tuple) else v, p] for v, p in law.pmf.items()],
         "mean": law.mean,

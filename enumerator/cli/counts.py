@@ -150,9 +150,10 @@ def prob_command(
     mixing counting statistics, say) is decided by listing every
     configuration; that listing then runs on a Dask cluster in equal rank
     shards, and the exact per-shard sums are added (the same answer as one
-    process; --limit still applies; such an answer is not remembered in the
-    store).  An event the planner counts without listing is answered here,
-    and a note on stderr (JSON: "note") says so.
+    process; --limit still applies).  The answer is remembered like any
+    other, and a remembered one is given without listing.  An event the
+    planner counts without listing is answered here; a note on stderr
+    (JSON: "note") says which of these happened.
 
     Example:
 
@@ -241,6 +242,8 @@ def _limit(limit: Optional[int]) -> int:
 
 #: The note of --workers/--cluster when the answer needed no listing.
 _NO_CLUSTER = "{what} needed no listing, so no cluster: it was computed in this process"
+#: The note of --workers/--cluster when the listed answer was already in the store.
+_REMEMBERED_CLUSTER = "{what} was remembered in the store, so no cluster: nothing was listed"
 
 
 def _cluster_requested(workers: Optional[int], cluster: Optional[str]) -> bool:
@@ -309,21 +312,37 @@ def _event_on_cluster(model, event: str, limit: int, workers, cluster):
     The event planner is run first without its listing fallback
     (:func:`enumerator.algorithms.events.event_needs_listing`); an event it
     counts by itself goes through the facade (and the store) as without the
-    options.  Otherwise every configuration is listed on the cluster
-    (:func:`enumerator.store.cluster.event_count_distributed`); that answer
-    is not remembered in the store.
+    options.  Otherwise the answer comes through the facade with the
+    cluster as its computation: a remembered answer is returned with no
+    listing, else every configuration is listed on the cluster
+    (:func:`enumerator.store.cluster.event_count_distributed`) and the
+    answer is remembered like any other.
     """
-    from ..algorithms.counting import count_configurations, exact_fraction
+    from ..algorithms.counting import exact_fraction
     from ..store.cluster import event_count_distributed, event_needs_listing
 
     if not event_needs_listing(model, event, limit):
         return model.event_probability(event, limit=limit), _NO_CLUSTER.format(what="the event")
-    with _shard_progress("listing configurations on the cluster") as advance:
-        count, total = event_count_distributed(model, event, limit=limit, workers=workers, cluster=cluster,
-                                               progress=advance)
-    listed = count_configurations(model)
-    return exact_fraction(count, total), \
-        f"listed all {listed} configurations in rank shards on {_where(workers, cluster)}"
+    ran = []
+
+    def on_cluster(text: str):
+        ran.append(text)
+        with _shard_progress("listing configurations on the cluster") as advance:
+            count, total = event_count_distributed(model, text, limit=limit, workers=workers, cluster=cluster,
+                                                   progress=advance)
+        return exact_fraction(count, total)
+
+    probability = model.event_probability(event, limit=limit, compute=on_cluster)
+    return probability, _listing_note(model, ran, "the probability of the event", workers, cluster)
+
+
+def _listing_note(model, ran, what: str, workers, cluster) -> str:
+    """The note of a listing answer: listed on the cluster now, or remembered from before."""
+    from ..algorithms.counting import count_configurations
+
+    if not ran:
+        return _REMEMBERED_CLUSTER.format(what=what)
+    return f"listed all {count_configurations(model)} configurations in rank shards on {_where(workers, cluster)}"
 
 
 def _value_text(value) -> str:
@@ -393,9 +412,10 @@ def dist_command(
     configuration (the profile of a weighted model; a counting statistic
     under many differing per-urn bounds) is listed on a Dask cluster in
     equal rank shards, the exact counts per value added over the shards
-    (the same law as one process; --limit still applies; such a law is not
-    remembered in the store).  Any other law is computed here, and a note on
-    stderr (JSON: "note") says so.
+    (the same law as one process; --limit still applies).  The law is
+    remembered like any other, and a remembered one is given without
+    listing.  Any other law is computed here; a note on stderr (JSON:
+    "note") says which of these happened.
 
     Example:
 
@@ -469,20 +489,25 @@ def _law_on_cluster(model, stat: str, limit: int, workers, cluster):
     :func:`enumerator.store.cluster.distribution_needs_listing` tells from
     the model and the statistic alone whether the exact route lists every
     configuration; only then does the cluster list them
-    (:func:`enumerator.store.cluster.distribution_distributed`, not
-    remembered in the store).  Otherwise the law comes through the facade
-    and the store as without the options.
+    (:func:`enumerator.store.cluster.distribution_distributed`), unless the
+    law is remembered in the store; either way it comes through the facade
+    and is remembered like any other.  Otherwise the law comes through the
+    facade and the store as without the options.
     """
-    from ..algorithms.counting import count_configurations
     from ..store.cluster import distribution_distributed, distribution_needs_listing
 
     if not distribution_needs_listing(model, stat):
         return model.distribution(stat, limit=limit), _NO_CLUSTER.format(what=f"the law of {stat}")
-    with _shard_progress("listing configurations on the cluster") as advance:
-        law = distribution_distributed(model, stat, limit=limit, workers=workers, cluster=cluster,
-                                       progress=advance)
-    listed = count_configurations(model)
-    return law, f"listed all {listed} configurations in rank shards on {_where(workers, cluster)}"
+    ran = []
+
+    def on_cluster(name: str):
+        ran.append(name)
+        with _shard_progress("listing configurations on the cluster") as advance:
+            return distribution_distributed(model, name, limit=limit, workers=workers, cluster=cluster,
+                                            progress=advance)
+
+    law = model.distribution(stat, limit=limit, compute=on_cluster)
+    return law, _listing_note(model, ran, f"the law of {stat}", workers, cluster)
 
 
 def _moments(model, stat: str, limit: int):
