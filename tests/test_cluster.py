@@ -484,3 +484,35 @@ def test_worker_that_cannot_reach_the_server_computes_every_cell():
     ((urns, cells, _, _),) = _compute_rows(spec.rule, spec.quantity, spec.minimum, spec.capacity,
                                            [RowTask(2, tuple(spec.balls))], shared)
     assert urns == 2 and cells == [(n, n + 1) for n in range(6)]
+
+
+def test_a_build_refused_for_its_cluster_leaves_the_store_as_it_was(tmp_path):
+    # a free loopback port (bound, then closed): nothing accepts there; common practice
+    import socket
+    import sqlite3
+
+    from cli_helpers import one_line_error, run
+
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        port = probe.getsockname()[1]
+    address = f"tcp://127.0.0.1:{port}"
+    path = tmp_path / "kept.sqlite"
+    store = Store(str(path))
+    spec = TableSpec.make("BE", "0..6", "1..4")
+    with pytest.raises(InvalidParameters, match="Dask scheduler"):
+        build_table_distributed(spec, store=store, cluster=address)
+    with pytest.raises(InvalidParameters, match="exactly one"):
+        build_table_distributed(spec, store=store, workers=2, cluster=address)
+    assert store.tables() == [] and store.stats()["entries"] == 0  # no definition, no pilot row
+    store.close()
+    line = one_line_error(run("table", "build", "--rule", "BE", "--balls", "0..6", "--urns", "1..4",
+                              "--cluster", address, "--store", path))
+    assert "Dask scheduler" in line and "--cluster" in line
+    with sqlite3.connect(path) as conn:
+        assert conn.execute("SELECT count(*) FROM enumerator_tables").fetchone() == (0,)
+        assert conn.execute("SELECT count(*) FROM enumerator_results").fetchone() == (0,)
+    fresh = tmp_path / "never" / "made.sqlite"  # nothing is created for a refused build
+    one_line_error(run("table", "build", "--rule", "BE", "--balls", "0..6", "--urns", "1..4",
+                       "--cluster", address, "--store", fresh))
+    assert not fresh.parent.exists()

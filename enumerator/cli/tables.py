@@ -265,6 +265,14 @@ def table_build_command(
 
     spec = TableSpec.make(rule, parse_range(balls, "--balls"), parse_range(urns, "--urns"),
                           capacity=capacity, minimum=minimum, quantity=quantity)
+    distributed = workers is not None or cluster is not None
+    if distributed:
+        # checked before the store is opened: a refused build leaves the store as it was
+        if workers is not None and cluster is not None:
+            raise typer.BadParameter("give --workers or --cluster, not both")
+        from ..store.cluster import build_table_distributed, check_cluster
+
+        check_cluster(workers=workers, cluster=cluster)
     target = _open_store(store)
     label = name or spec.default_name()
     err = Console(stderr=True)
@@ -285,11 +293,7 @@ def table_build_command(
 
         try:
             with limits_scope(max_memory, max_seconds):
-                if workers is not None or cluster is not None:
-                    if workers is not None and cluster is not None:
-                        raise typer.BadParameter("give --workers or --cluster, not both")
-                    from ..store.cluster import build_table_distributed
-
+                if distributed:
                     report = build_table_distributed(spec, name=name, store=target, workers=workers,
                                                      cluster=cluster, progress=advance)
                 else:

@@ -69,6 +69,7 @@ __all__ = [
     "RowTask",
     "StatisticWeights",
     "build_table_distributed",
+    "check_cluster",
     "cluster_client",
     "distribution_distributed",
     "distribution_needs_listing",
@@ -128,16 +129,12 @@ def cluster_client(workers: Optional[int] = None, cluster=None, client=None) -> 
     Cost: starting a local cluster takes about a second per worker process
     (interpreter start and imports); connecting to a scheduler, one round trip.
     """
-    given = [x is not None for x in (workers, cluster, client)]
-    if sum(given) != 1:
-        raise InvalidParameters("give exactly one of workers=, cluster= or client=",
-                                parameters=["workers", "cluster"])
+    check_cluster(workers, cluster, client)
     if client is not None:
         yield client
         return
     distributed = _need_dask()
     if cluster is not None:
-        _check_reachable(str(cluster))
         try:
             own = distributed.Client(str(cluster), set_as_default=False, timeout=CONNECT_SECONDS)
         except (OSError, TimeoutError, ValueError) as error:
@@ -148,6 +145,41 @@ def cluster_client(workers: Optional[int] = None, cluster=None, client=None) -> 
     with local_cluster(as_count(workers, "workers", 1)) as local:
         with distributed.Client(local, set_as_default=False) as own:
             yield own
+
+
+def check_cluster(workers: Optional[int] = None, cluster=None, client=None) -> None:
+    """Refuse, before any work is done or stored, a cluster that cannot be used.
+
+    Parameters
+    ----------
+    workers, cluster, client
+        As for :func:`cluster_client`.
+
+    Raises
+    ------
+    InvalidParameters
+        Unless exactly one of the three is given, when Dask is missing
+        (unless *client* is given), when *workers* is not a positive count,
+        or when nothing accepts a connection at the TCP address *cluster*.
+
+    Notes
+    -----
+    Starts nothing and connects no Dask client: a route calls it first, so
+    a refused request leaves the store as it was (no table definition is
+    recorded).  :func:`cluster_client` checks the same way.  Cost: one TCP
+    connection to the scheduler's port for *cluster*, else constant.
+    """
+    given = [x is not None for x in (workers, cluster, client)]
+    if sum(given) != 1:
+        raise InvalidParameters("give exactly one of workers=, cluster= or client=",
+                                parameters=["workers", "cluster"])
+    if client is not None:
+        return
+    _need_dask()
+    if cluster is not None:
+        _check_reachable(str(cluster))
+    else:
+        as_count(workers, "workers", 1)
 
 
 @contextmanager
@@ -396,8 +428,10 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     ------
     InvalidParameters
         When a table of that name exists with another definition, when not
-        exactly one of *workers*, *cluster*, *client* is given, or when Dask
-        is not installed.
+        exactly one of *workers*, *cluster*, *client* is given, when Dask
+        is not installed, or when no scheduler answers at *cluster*; the
+        cluster is checked (:func:`check_cluster`) before the store is
+        opened, so such a refusal leaves the store as it was.
     StoreError
         When the store is switched off or fails.
 
@@ -421,6 +455,8 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     the transfer of one big integer to the client and its share of a write
     (and per row one query from a worker on a server store).
     """
+    # the cluster is checked first: a refused build records no table definition
+    check_cluster(workers, cluster, client)
     target = need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
