@@ -367,3 +367,52 @@ def test_clear_checks_the_quantity_without_a_pass_over_the_store(where, monkeypa
     assert run_json("cache", "clear", "--quantity", "microstates", "--yes", "--store", where)["removed"] == "1"
     with sqlite3.connect(where) as conn:
         assert conn.execute("SELECT DISTINCT quantity FROM enumerator_results").fetchall() == [("configurations",)]
+
+
+#: Every table and cache command but 'table build': each only reads or removes.
+NON_CREATING = [
+    ("cache", "stats"), ("cache", "export"), ("cache", "export", "--format", "csv"),
+    ("cache", "verify"), ("cache", "verify", "--fix"), ("cache", "clear", "--yes"),
+    ("cache", "clear", "--quantity", "microstates", "--yes"),
+    ("table", "list"), ("table", "show", "t"), ("table", "export", "t"), ("table", "drop", "t"),
+]
+
+
+@pytest.mark.parametrize("command", NON_CREATING, ids=" ".join)
+def test_a_command_that_only_reads_or_removes_creates_no_store(tmp_path, command):
+    # where there is no store it sees an empty one: the exit code and any error line of a new,
+    # empty store (made here by 'count', then cleared), and no folder, file or table appears
+    empty = tmp_path / "empty.sqlite"
+    run("count", "-n", 2, "-r", 2, "--store", empty)
+    run("cache", "clear", "--yes", "--store", empty)
+    expected = run(*command, "--store", empty)
+    for missing in (tmp_path / "no" / "such" / "folder" / "s.sqlite", tmp_path / "absent.sqlite"):
+        result = run(*command, "--store", missing)
+        assert result.exit_code == expected.exit_code, result.output
+        assert result.stderr.replace(str(missing), str(empty)) == expected.stderr
+        assert not missing.exists() and not (tmp_path / "no").exists()
+
+
+def test_stats_of_a_missing_store_is_empty_and_a_later_build_creates_it(tmp_path):
+    where = tmp_path / "later" / "s.sqlite"
+    stats = run_json("cache", "stats", "--store", where)
+    assert (stats["entries"], stats["tables"], stats["file_bytes"], stats["read_only"]) == ("0", "0", None, False)
+    assert run_json("table", "list", "--store", where)["tables"] == []
+    assert not where.parent.exists()
+    # the same process then builds there: the store is made, and every reader sees it
+    built = run_json("table", "build", "--rule", "BE", "--balls", "0..4", "--urns", "1..2", "--store", where)
+    assert built["computed"] == "10" and where.exists()
+    assert run_json("cache", "stats", "--store", where)["entries"] == "10"
+    # C(n + r - 1, r - 1) configurations (stars and bars, common practice)
+    cells = run_json("table", "show", built["name"], "--store", where)["cells"]
+    assert {(c["balls"], c["urns"]): c["value"] for c in cells} == {
+        (str(n), str(r)): str(math.comb(n + r - 1, r - 1)) for n in range(5) for r in (1, 2)}
+
+
+def test_stats_of_a_file_that_is_not_a_store_yet_leaves_it_empty(tmp_path):
+    # an empty file (or a database without the store's tables) becomes a store only by a write
+    empty = tmp_path / "blank.sqlite"
+    empty.touch()
+    assert run_json("cache", "stats", "--store", empty)["file_bytes"] == "0"
+    assert run("table", "list", "--store", empty).exit_code == 0
+    assert empty.stat().st_size == 0

@@ -493,9 +493,9 @@ def test_threads_opening_one_location_at_once_share_one_store(tmp_path, monkeypa
     opened = []
 
     class CountingStore(results.Store):
-        def __init__(self, location):
+        def __init__(self, location, **options):
             opened.append(location)
-            super().__init__(location)
+            super().__init__(location, **options)
 
     # open_store imports the class when it opens a store (so a stored answer loads no SQLAlchemy)
     monkeypatch.setattr(store_database, "Store", CountingStore)
@@ -726,3 +726,20 @@ def test_stored_quantities_and_holds_quantity_match_the_rows(store, tmp_path):
     assert store.stored_quantities() == names == ["Beta", "alpha", "alpha2", "microstates", "zeta"]
     assert all(store.holds_quantity(name) for name in names)
     assert not store.holds_quantity("alph") and not store.holds_quantity("beta")
+
+
+def test_open_store_without_create_makes_nothing_and_keeps_nothing(tmp_path):
+    where = tmp_path / "a" / "b" / "s.sqlite"
+    absent = results.open_store(str(where), create=False)
+    assert not absent.exists and not absent.read_only and not (tmp_path / "a").exists()
+    assert (absent.stats()["entries"], absent.tables(), list(absent.entries())) == (0, [], [])
+    assert absent.stored_quantities() == [] and absent.verify()["checked"] == 0
+    # not kept: the next open that may create makes the store, and every later open finds it
+    made = results.open_store(str(where))
+    assert made is not absent and made.exists and where.exists()
+    assert results.open_store(str(where), create=False) is made
+    # a place where no folder can be made (below a file) reads as empty and read-only
+    blocker = tmp_path / "plain-file"
+    blocker.write_text("not a folder")
+    below = results.Store(str(blocker / "s.sqlite"), create=False)
+    assert not below.exists and below.read_only and below.stats()["entries"] == 0

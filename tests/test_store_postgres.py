@@ -482,3 +482,20 @@ def test_the_password_of_a_store_url_is_never_shown(postgres_url):
     listed = run("table", "list", "--json", "--store", url)
     assert listed.exit_code == 0, listed.output
     assert "hunter2" not in listed.output and "***" in json.loads(listed.stdout)["store"]
+
+
+def test_reading_commands_make_no_tables_in_an_empty_database(postgres_url):
+    # a database without the store's tables stays without them until something is stored
+    # (reference: PostgreSQL's own catalogue, information_schema.tables)
+    def tables_here():
+        return run_sql(postgres_url, "SELECT count(*) FROM information_schema.tables "
+                                     "WHERE table_schema = current_schema()")
+
+    store = ("--store", postgres_url)
+    assert tables_here() == [(0,)]
+    assert run_json("cache", "stats", *store)["entries"] == "0"
+    assert run_json("table", "list", *store)["tables"] == []
+    assert run("cache", "export", *store).stdout == ""
+    assert tables_here() == [(0,)]
+    run_json("count", "-n", 10, "-r", 4, "--rule", "BE", *store)
+    assert tables_here()[0][0] >= 3 and run_json("cache", "stats", *store)["entries"] == "1"

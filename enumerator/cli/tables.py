@@ -86,13 +86,18 @@ class EntryFormat(str, Enum):
     jsonl = "jsonl"
 
 
-def _open_store(location: Optional[str]):
+def _open_store(location: Optional[str], create: bool = False):
     """The store named by ``--store``, else the default one.
 
     Parameters
     ----------
     location : str or None
         A SQLite file path or a database URL.
+    create : bool
+        Make the store when there is none there: only ``table build`` does.
+        Every other command here only reads or removes, so where there is
+        no store it sees an empty one and nothing is created (no folder, no
+        file, no tables).
 
     Returns
     -------
@@ -110,7 +115,7 @@ def _open_store(location: Optional[str]):
     """
     from ..store.context import open_store
 
-    return open_store(location)
+    return open_store(location, create=create)
 
 
 def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
@@ -273,7 +278,7 @@ def table_build_command(
         from ..store.cluster import build_table_distributed, check_cluster
 
         check_cluster(workers=workers, cluster=cluster)
-    target = _open_store(store)
+    target = _open_store(store, create=True)
     label = name or spec.default_name()
     err = Console(stderr=True)
     progress = Progress(

@@ -127,7 +127,8 @@ _open: Dict[str, "Store"] = {}
 _opening: Dict[str, threading.Lock] = {}  # one lock per location, held while it opens
 
 
-def open_store(location: Union[str, os.PathLike, "Store", "StoreHandle", None] = None) -> "Store":
+def open_store(location: Union[str, os.PathLike, "Store", "StoreHandle", None] = None,
+               create: bool = True) -> "Store":
     """Return the open :class:`Store` at *location*, opening it on first use.
 
     Parameters
@@ -136,11 +137,17 @@ def open_store(location: Union[str, os.PathLike, "Store", "StoreHandle", None] =
         A path, directory or SQLAlchemy URL; ``None`` means
         :func:`default_location`; a :class:`Store` is returned as it is, a
         :class:`StoreHandle` (what :func:`using` yields) gives its store.
+    create : bool
+        Make the store when there is none at *location* (the default).
+        With False nothing is created: where there is no store, a
+        :class:`Store` that reads as empty (``exists`` False) is returned
+        and not kept, so a later call that may create it does.
 
     Returns
     -------
     Store
-        The same object for the same location text within a process.
+        The same object for the same location text within a process
+        (except a store that does not exist, opened with ``create=False``).
 
     Raises
     ------
@@ -169,7 +176,9 @@ def open_store(location: Union[str, os.PathLike, "Store", "StoreHandle", None] =
         if store is None:
             from .database import Store
 
-            store = Store(where)
+            store = Store(where, create=create)
+            if not store.exists:
+                return store  # nothing there, and nothing made: not kept
             with _open_lock:
                 _open[where] = store
     return store

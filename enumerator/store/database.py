@@ -128,6 +128,12 @@ class Store:
     location : str or os.PathLike
         A file path, a directory (``enumerator.sqlite`` inside) or an
         SQLAlchemy URL.
+    create : bool
+        Make the store (its folder, file and tables) when there is none at
+        *location* (the default).  With False nothing is created: where
+        there is no store (no file, or a database without the store's
+        tables) the Store reads as empty, stores nothing, and
+        :attr:`exists` is False; the read-only commands open stores so.
 
     Raises
     ------
@@ -150,10 +156,13 @@ class Store:
     the engine's pool).
     """
 
-    def __init__(self, location: str):
+    def __init__(self, location: str, create: bool = True):
         self.location = str(location)
         self.url, self.path = resolve_location(self.location)
-        self.read_only = self.path is not None and not writable(self.path)
+        self.read_only = self.path is not None and not writable(self.path, make_folder=create)
+        #: False when opened with ``create=False`` where there is no store (it then reads as empty).
+        self.exists = True
+        self._create = create
         self._warned = False
         self._warn_lock = threading.Lock()  # one warning even when threads fail together
         self._schema_ready = False
@@ -208,6 +217,9 @@ class Store:
     # -- schema: create, check, upgrade --------------------------------------
     def _initialise(self) -> None:
         """Make the store usable: check its schema, create or upgrade it when needed."""
+        if not self._create and self.path is not None and not self.path.exists():
+            self.exists = False  # no file: nothing is read, and (no connection) nothing is made
+            return
         if self.read_only and self.path is not None and not self.path.exists():
             self._warn_read_only("its folder cannot be written, so it cannot be created")
             return
@@ -222,6 +234,10 @@ class Store:
             self._reopen_read_only()
             present, found = self._look()
         latest = schema.SCHEMA_VERSION
+        if found is None and not self._create:
+            self.exists = False  # a database without the store's tables: left as it is
+            self.engine.dispose()
+            return
         if found is not None:
             self._check_not_newer(found)
             if found == latest and _TABLES <= present:

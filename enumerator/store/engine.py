@@ -120,23 +120,35 @@ def resolve_location(location: str) -> Tuple[URL, Optional[Path]]:
     return URL.create("sqlite", database=str(path)), path
 
 
-def writable(path: Path) -> bool:
+def writable(path: Path, make_folder: bool = True) -> bool:
     """Return True when the SQLite file *path* can be written (or created, with its folder).
 
-    A missing folder is created first (a failure counts as not writable).
+    Parameters
+    ----------
+    path : pathlib.Path
+        The file.
+    make_folder : bool
+        Create a missing folder first (a failure counts as not writable).
+        Without, nothing is created: the answer is whether the nearest
+        folder that exists could take the missing ones and the file.
 
     Notes
     -----
-    Cost: at most one ``mkdir`` and two ``access`` calls.
+    Cost: at most one ``mkdir`` and two ``access`` calls (without
+    *make_folder*, one ``stat`` per missing folder level).
     """
+    if path.exists():
+        return os.access(path, os.W_OK)
     directory = path.parent
+    if not make_folder:
+        while not directory.exists() and directory.parent != directory:
+            directory = directory.parent
+        return directory.is_dir() and os.access(directory, os.W_OK)
     if not directory.exists():
         try:
             directory.mkdir(parents=True, exist_ok=True)
         except OSError:
             pass  # reported as not writable below
-    if path.exists():
-        return os.access(path, os.W_OK)
     return os.access(directory, os.W_OK)
 
 
