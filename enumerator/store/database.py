@@ -20,7 +20,10 @@ Where it lives
     computation uses is decided in :mod:`enumerator.store.context`.
 
 Opening it
-    A new store is created at the current schema version.  An older store
+    A new store is created at the current schema version, unless it is
+    opened with ``create=False`` (as the commands that only read or remove
+    do): where there is no store it then reads as empty and nothing is
+    made, neither folder nor file nor table.  An older store
     is upgraded in one transaction (:mod:`enumerator.store.migrations`), or
     refused, with what to do, when it cannot be written; a newer store is
     refused.  A store that cannot be written still answers reads; writes
