@@ -8,6 +8,13 @@
   the excited levels, then one prefix sum over ``n`` for the single ground
   state), against the particle-number recursion over all ``N + 1`` rows (the
   route the table took before).  ``--quick``: 400 bosons, ``E <= 120``.
+* ``levels-table-mb-trap-401-levels-10^3-E400``: ``Ω(n, E)`` for every
+  ``n = 0..10^3`` distinguishable particles in the 3D trap cut at 401 levels
+  (a finite spectrum) and ``E <= 400``: each row the previous one times
+  ``z(t)`` (one truncated product per row), against one truncated power per
+  row (:func:`enumerator.algorithms.levels.multiplicities` for each ``n``,
+  the route the MB table took before).  ``--quick``: 300 particles,
+  ``E <= 150``.
 """
 
 from __future__ import annotations
@@ -50,6 +57,39 @@ def register(bench) -> None:
         cells = (particles + 1) * (top + 1)
         return ctx.compare(Method("enumerator multiplicity_table (excited rows)", ours),
                            [Method("particle-number recursion, N+1 rows", all_rows, scaled=scaled)],
+                           items=cells,
+                           notes=[f"answer: the {cells:,} multiplicities (digest: each row's total and "
+                                  "its count at the top energy)"])
+
+    @bench.workload("levels-table-mb-trap-401-levels-10^3-E400",
+                    "Omega(n, E) for n = 0..10^3 distinguishable particles in the 3D trap cut at 401 levels, "
+                    "E <= 400 (quick: 300, E <= 150): each row the previous one times z(t) vs one power per row",
+                    target=bench.faster_by(1))
+    def _mb_table(ctx):
+        from enumerator.algorithms.levels import System, harmonic_trap, multiplicities, multiplicity_table
+
+        particles, top = (300, 150) if ctx.quick else (1000, 400)
+
+        def digest(rows):
+            # every row's total count and its count at the top energy: equal tables give equal digests
+            return tuple((sum(row.values()), row.get(top)) for row in rows)
+
+        def system(n, e):
+            return System.create(harmonic_trap(levels=e + 1), n, "MB")
+
+        def ours():
+            return digest(multiplicity_table(system(particles, top), top))
+
+        def per_row(n=particles, e=top):
+            sy = system(n, e)
+            return digest([multiplicities(System(sy.spectrum, m, sy.rule), e) for m in range(n + 1)])
+
+        def scaled(s):
+            return lambda: per_row(max(8, int(particles * s)), max(4, int(top * s)))
+
+        cells = (particles + 1) * (top + 1)
+        return ctx.compare(Method("enumerator multiplicity_table (row times z)", ours),
+                           [Method("one truncated power per row", per_row, scaled=scaled)],
                            items=cells,
                            notes=[f"answer: the {cells:,} multiplicities (digest: each row's total and "
                                   "its count at the top energy)"])

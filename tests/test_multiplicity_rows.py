@@ -1,0 +1,172 @@
+"""The table of every particle number, ``Ω(n, E)`` for ``n = 0..N``: its routes and their limits.
+
+Expected values come from outside the project: brute force written here
+(every assignment of distinguishable particles to single-particle states,
+``itertools.product``; the multisets and sets for bosons and fermions, from
+``tests/reference.py``), and closed forms: ``n`` distinguishable particles on
+a ``d``-dimensional oscillator ladder count ``[t^E] (1 - t)^{-dn} =
+C(E + dn - 1, E)`` ways (stars and bars, common practice: the Einstein solid
+of any statistical mechanics textbook), and on two levels ``0, 1``
+``C(n, E)`` ways (the two-state paramagnet, common practice).  The MB table
+is also checked against the route it took before: one row at a time
+(:func:`multiplicities` for each ``n``).
+"""
+
+from __future__ import annotations
+
+import importlib
+import itertools
+import math
+from collections import Counter
+from fractions import Fraction
+
+import pytest
+from reference import level_microstates
+
+from enumerator.algorithms.levels import (
+    System,
+    harmonic_oscillator,
+    harmonic_trap,
+    make_spectrum,
+    multiplicities,
+    multiplicity_table,
+    two_level,
+)
+from enumerator.core.errors import TooLarge
+from enumerator.core.limits import limited
+
+# the module (the package exports a function of the same name)
+mult = importlib.import_module("enumerator.algorithms.levels.multiplicities")
+
+
+def brute_force_row(spectrum, n, rule, top, capacity=None):
+    """``{E: Ω}`` by listing every microstate of *n* particles (energies in units), ``E <= top`` in units.
+
+    Keys from the row's lowest energy (the lowest microstate) to *top*, zeros included, as the
+    library writes them; ``{}`` when no microstate lies at or below *top*.
+    """
+    states = [e for e, g in zip(spectrum.energies, spectrum.degeneracies) for _ in range(g)]
+    counts = Counter(sum(states[s] for s in micro) for micro in level_microstates(len(states), n, rule, capacity))
+    if not counts or min(counts) > top:
+        return {}
+    return {e: counts.get(e, 0) for e in range(min(counts), top + 1)}
+
+
+def one_row_at_a_time(system, max_energy):
+    """The route the MB table took before: :func:`multiplicities` for each particle number."""
+    return [multiplicities(System(system.spectrum, m, system.rule, system.capacity), max_energy)
+            for m in range(system.particles + 1)]
+
+
+# --------------------------------------------------------------------------
+# MB: each row the previous one times z(t)
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, top",
+    [
+        ("0,1,2,5", "1,2,4,1", 5, 7),  # z of 6 coefficients: FLINT's product
+        ("0,3,6", "1,1,2", 5, 20),  # z = 1 + t^3 + 2 t^6, 7 coefficients and 3 terms: shifted multiples
+        ("-1,1,2", "2,1,1", 5, 3),  # a negative lowest level: rows grow with n
+        ("1,2", "2,3", 5, 6),  # a positive lowest level: the top rows lie above the cut
+        ("0,1/2,3/2", "1,2,1", 4, 4),  # rational energies (units of 1/2)
+        ("0", "3", 4, 2),  # one level
+    ],
+)
+def test_mb_table_matches_brute_force_and_the_rows_one_at_a_time(energies, degeneracies, n, top):
+    # Brute force: every assignment of n distinguishable particles (itertools.product)
+    spectrum = make_spectrum(energies, degeneracies)
+    system = System.create(spectrum, n, "MB")
+    table = multiplicity_table(system, top)
+    top_units = mult._to_units(top, spectrum.unit)
+    assert len(table) == n + 1
+    for m, row in enumerate(table):
+        assert row == brute_force_row(spectrum, m, "MB", top_units)
+    assert table == one_row_at_a_time(system, top)
+
+
+@pytest.mark.parametrize("dimension, n, top", [(1, 40, 60), (3, 25, 30), (2, 300, 12)])
+def test_mb_table_on_the_oscillator_ladder_is_stars_and_bars(dimension, n, top):
+    # n distinguishable particles on the d-dimensional oscillator ladder:
+    # Omega(n, E) = [t^E] (1 - t)^(-dn) = C(E + dn - 1, E) (stars and bars; Einstein solid, common practice)
+    for spectrum in (harmonic_trap(dimension=dimension), harmonic_trap(levels=top + 1, dimension=dimension)):
+        table = multiplicity_table(System.create(spectrum, n, "MB"), top)
+        for m, row in enumerate(table):
+            assert row == {e: math.comb(e + dimension * m - 1, e) if m else int(e == 0) for e in range(top + 1)}
+
+
+def test_mb_table_on_a_ladder_of_spacing_two_keeps_the_odd_energies_empty():
+    # The 1D ladder 0, 1, 2, ... written in units of 1/2 (spacing 2 units): Omega(n, E) = C(E + n - 1, E)
+    # at whole E and 0 between (stars and bars, common practice); and brute force on the listed rungs.
+    spectrum = harmonic_oscillator().rescaled(Fraction(1, 2))
+    assert spectrum.ladder is not None and spectrum.ladder.spacing == 2
+    table = multiplicity_table(System.create(spectrum, 6, "MB"), "9/2")
+    for m, row in enumerate(table):
+        assert row == {k: (math.comb(k // 2 + m - 1, k // 2) if m else int(k == 0)) if k % 2 == 0 else 0
+                       for k in range(10)}
+        assert row == brute_force_row(spectrum.through(9), m, "MB", 9)
+
+
+def test_mb_table_on_two_levels_is_binomial():
+    # n distinguishable particles on two single states 0 and 1: Omega(n, E) = C(n, E) (two-state
+    # paramagnet, common practice)
+    table = multiplicity_table(System.create(two_level(), 30, "MB"), 30)
+    for m, row in enumerate(table):
+        assert row == {e: math.comb(m, e) for e in range(31)}
+
+
+def test_mb_table_many_particles_few_levels_against_the_rows_one_at_a_time():
+    # Larger than brute force can list: the old route (one truncated power per row) is the reference,
+    # and the last row's total is the number of assignments with energy <= top, here checked by
+    # the multinomial sum over occupations (n0, n1, n2) with n1 + 3 n2 <= top (common practice).
+    spectrum = make_spectrum("0,1,3", "2,1,4")
+    n, top = 120, 40
+    system = System.create(spectrum, n, "MB")
+    table = multiplicity_table(system, top)
+    assert table == one_row_at_a_time(system, top)
+    expected = sum(
+        math.factorial(n) // (math.factorial(n - a - b) * math.factorial(a) * math.factorial(b))
+        * 2 ** (n - a - b) * 4 ** b
+        for a in range(n + 1) for b in range(n + 1 - a) if a + 3 * b <= top
+    )
+    assert sum(table[n].values()) == expected
+
+
+@pytest.mark.parametrize("rule, capacity", [("BE", None), ("FD", None), ("BE", 2)])
+def test_identical_particle_tables_match_brute_force(rule, capacity):
+    # The BE/FD/Gentile table beside the MB one: brute force over multisets, sets and capped multisets
+    spectrum = make_spectrum("0,1,2,4", "2,1,2,1")
+    table = multiplicity_table(System.create(spectrum, 5, rule, capacity), 6)
+    for m, row in enumerate(table):
+        assert row == brute_force_row(spectrum, m, rule, 6, capacity if rule == "BE" else None)
+
+
+def test_mb_table_plan_bounds_every_row():
+    # The plan's bound on the size of a coefficient holds for every cell of the table (the cells
+    # themselves are the reference), and its memory grows with the table.
+    system = System.create(harmonic_trap(levels=30), 60, "MB")
+    plan = mult._mb_table_plan(system, 50)
+    table = multiplicity_table(system, 50)
+    assert max(v.bit_length() for row in table for v in row.values()) <= plan.bits
+    bigger = mult._mb_table_plan(System.create(harmonic_trap(levels=30), 120, "MB"), 50)
+    assert bigger.cost.memory > plan.cost.memory and bigger.cost.seconds > plan.cost.seconds
+
+
+def test_mb_table_refused_before_computing(monkeypatch):
+    monkeypatch.setattr(mult, "_mb_table_rows", lambda *a, **k: pytest.fail("computed past the limit"))
+    system = System.create(harmonic_trap(), 10**4, "MB")
+    with limited(memory="64M"):
+        with pytest.raises(TooLarge, match="max_memory="):
+            multiplicity_table(system, 300)
+    with pytest.raises(TooLarge, match="limit="):
+        multiplicity_table(system, 300, limit=10**5)
+
+
+def test_mb_table_rows_are_produced_one_at_a_time():
+    # The rows come from a generator: the first rows exist before the last is computed.
+    system = System.create(make_spectrum("0,1,2", "1,1,1"), 50, "MB")
+    rows = mult._mb_table_rows(system, 10)
+    first = next(rows)
+    assert first == {e: int(e == 0) for e in range(11)}
+    # three states: Omega(1, E) = 1 for E = 0, 1, 2 (brute force: one particle, one state each)
+    assert next(rows) == {e: int(e <= 2) for e in range(11)}
+    assert len(list(itertools.islice(rows, 100))) == 49
