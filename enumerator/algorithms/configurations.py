@@ -14,7 +14,7 @@ Methods, cheapest first, on the model's urn groups (never urn by urn):
   then one dot product with a row of binomials.
 
 Also the small exact helpers :func:`binomial` and :func:`exact_fraction`
-(GMP), and the per-model memo the counting modules share.  All arithmetic
+(GMP), and the per-model memo the counting modules share (:data:`MEMO`).  All arithmetic
 is exact (gmpy2 / FLINT inside); public functions return ``int`` and
 ``fractions.Fraction``.
 """
@@ -32,12 +32,13 @@ from ..core.errors import TooLarge
 from ..core.exact import coprime_fraction
 from ..core.memo import ModelMemo
 from ..core.model import UrnModel
-from .counting_costs import _check, _shift_target
+from .counting_costs import check_counting_cost, free_balls
 
-__all__ = ["binomial", "count_configurations", "exact_fraction"]
+__all__ = ["MEMO", "binomial", "count_configurations", "count_configurations_mpz", "exact_fraction"]
 
-# Working data kept per model between calls (see enumerator.core.memo).
-_MEMO = ModelMemo("counting")
+#: Working data kept per model between calls (see enumerator.core.memo),
+#: shared by the counting modules (normalisers, profiles) under their own keys.
+MEMO = ModelMemo("counting")
 
 mpz = gmpy2.mpz
 
@@ -176,16 +177,45 @@ def _grouped_product_count(target: int, model: UrnModel) -> "mpz":
     return series.dot_reversed(numerator, row, target)
 
 
-def _configurations(model: UrnModel):
-    memo = _MEMO.slots(model)
+def count_configurations_mpz(model: UrnModel):
+    """The number of configurations of *model* as an ``mpz``, kept in :data:`MEMO`.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+
+    Returns
+    -------
+    mpz
+        What :func:`count_configurations` returns as an ``int``; the other
+        counting modules compute on it without a conversion.
+
+    Raises
+    ------
+    TooLarge
+        When :func:`~enumerator.algorithms.counting_costs.counting_cost` is beyond the active limits.
+
+    Notes
+    -----
+    The routes and costs of :func:`count_configurations` (Feller vol. 1,
+    §II.5; Riordan 1958, ch. 5); a second call for an equal model is a
+    lookup.
+
+    Examples
+    --------
+    >>> count_configurations_mpz(UrnModel(balls=4, urns=3, rule="BE"))
+    mpz(15)
+    """
+    memo = MEMO.slots(model)
     if "configurations" in memo:
         return memo["configurations"]
-    target = _shift_target(model)
+    target = free_balls(model)
     r = model.urns
     if target < 0:
         value = mpz(0)
     else:
-        _check(model, "configurations", "counting the configurations")
+        check_counting_cost(model, "configurations", "counting the configurations")
         if model.is_uniform:
             b = model.groups[0].upper
             if b is None:
@@ -235,4 +265,4 @@ def count_configurations(model: UrnModel) -> int:
     >>> count_configurations(UrnModel(balls=2, urns=2**64, rule="FD")) == 2**63 * (2**64 - 1)
     True
     """
-    return int(_configurations(model))
+    return int(count_configurations_mpz(model))

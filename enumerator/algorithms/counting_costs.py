@@ -5,7 +5,7 @@ checked through :func:`enumerator.core.limits.check`), in ``n``, the number
 of urn groups ``G`` and the size of the answer, never in the number of urns.
 Also here are the pieces the estimates and the routes share: the shift
 ``n' = n - sum_g c_g a_g``, the integer weights, the groups merged by value
-and the plan of the MB normaliser (:func:`_mb_plan`).
+and the plan of the MB normaliser (:func:`mb_plan`).
 
 The estimates follow the routes of :mod:`enumerator.algorithms.configurations`,
 :mod:`enumerator.algorithms.normalisers` and :mod:`enumerator.algorithms.profiles`:
@@ -35,7 +35,21 @@ from ..core.limits import (
 )
 from ..core.model import UrnModel
 
-__all__ = ["PROFILE_ENUMERATION_LIMIT", "counting_cost"]
+__all__ = [
+    "PROFILE_ENUMERATION_LIMIT",
+    "capacity_overflow_cost",
+    "check_counting_cost",
+    "counting_cost",
+    "free_balls",
+    "integer_weights",
+    "log2_approx",
+    "log2_binomial_approx",
+    "log2_factorial_approx",
+    "mb_grouped_cost",
+    "mb_plan",
+    "merged_groups",
+    "partitions_cost",
+]
 
 #: Largest number of integer partitions examined one by one when counting
 #: the profiles of a model with differing per-urn bounds.
@@ -46,10 +60,34 @@ PROFILE_ENUMERATION_LIMIT = 2_000_000
 # cost estimates
 # ---------------------------------------------------------------------------
 
-def _log2(value) -> float:
-    """``log2`` of a positive int or Fraction of any size (0 for values below 1)."""
+def log2_approx(value) -> float:
+    """``log2`` of a positive int or Fraction of any size, for cost estimates.
+
+    Parameters
+    ----------
+    value : int or Fraction
+        Any size.
+
+    Returns
+    -------
+    float
+        ``log2(value)``, or 0 for values of at most 1; an int of 1000 bits
+        or more counts as its bit length (off by less than one).
+
+    Notes
+    -----
+    ``math.log2`` below 1000 bits, ``int.bit_length`` above (``O(1)``); a
+    Fraction is the difference of its two sides, so no float ever overflows.
+
+    Examples
+    --------
+    >>> log2_approx(1024), log2_approx(Fraction(8, 1)), log2_approx(Fraction(1, 8))
+    (10.0, 3.0, 0.0)
+    >>> log2_approx(2**2000)
+    2001.0
+    """
     if isinstance(value, Fraction):
-        return max(0.0, _log2(value.numerator) - _log2(value.denominator))
+        return max(0.0, log2_approx(value.numerator) - log2_approx(value.denominator))
     value = int(value)
     if value <= 1:
         return 0.0
@@ -59,15 +97,60 @@ def _log2(value) -> float:
     return float(bits)
 
 
-def _log2_factorial(k: int) -> float:
-    """``log2(k!)`` by Stirling's formula (an upper estimate, exact enough for costs)."""
+def log2_factorial_approx(k: int) -> float:
+    """An upper estimate of ``log2(k!)``, for cost estimates.
+
+    Parameters
+    ----------
+    k : int
+        Any size.
+
+    Returns
+    -------
+    float
+        ``k log2 k - k log2 e + log2(2 pi k)/2 + 1``; 0 below ``k = 2``.
+
+    Notes
+    -----
+    Stirling's formula (Abramowitz & Stegun 6.1.38) plus one bit to stay
+    above the true value; ``O(1)``.
+
+    Examples
+    --------
+    >>> import math
+    >>> 0 <= log2_factorial_approx(10) - math.log2(math.factorial(10)) <= 1.5
+    True
+    """
     if k < 2:
         return 0.0
     return k * math.log2(k) - k * 1.4426950408889634 + 0.5 * math.log2(2 * math.pi * k) + 1
 
 
-def _log2_binomial(top: int, k: int) -> float:
-    """An upper estimate of ``log2 C(top, k)``: ``k log2(e top / k)`` with ``k`` the smaller side."""
+def log2_binomial_approx(top: int, k: int) -> float:
+    """An upper estimate of ``log2 C(top, k)``, for cost estimates.
+
+    Parameters
+    ----------
+    top, k : int
+        Any size; *k* and ``top - k`` give the same estimate.
+
+    Returns
+    -------
+    float
+        ``k log2(e top / k) + 1`` with ``k`` the smaller side; 0 when that
+        side is empty.
+
+    Notes
+    -----
+    From ``C(top, k) <= (e top / k)^k`` (Knuth, *TAOCP* vol. 1, 3rd ed.,
+    1997, §1.2.6, exercise 67); ``O(1)``.
+
+    Examples
+    --------
+    >>> import math
+    >>> math.log2(math.comb(100, 3)) <= log2_binomial_approx(100, 3) == log2_binomial_approx(100, 97)
+    True
+    """
     k = min(k, top - k)
     if k <= 0:
         return 0.0
@@ -86,13 +169,60 @@ def _series_cost(length: int, bits: float, products: float) -> Cost:
     return Cost(seconds=products * product_seconds(total), memory=4 * bigint_bytes(total))
 
 
-def _shift_target(model: UrnModel) -> int:
-    """``n' = n - sum_g c_g a_g``: the balls left once every urn holds its lower bound."""
+def free_balls(model: UrnModel) -> int:
+    """The balls left once every urn holds its lower bound: ``n' = n - sum_g c_g a_g``.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+
+    Returns
+    -------
+    int
+        ``n'``, negative when the lower bounds alone need more than ``n`` balls.
+
+    Notes
+    -----
+    The shift that turns lower bounds into a problem without them (Feller,
+    *An Introduction to Probability Theory*, vol. 1, §II.5); one pass over
+    the groups, ``O(G)``.
+
+    Examples
+    --------
+    >>> free_balls(UrnModel(balls=10, bounds="2x1:3,1x0:", rule="BE"))
+    8
+    """
     return model.balls - sum(g.count * g.lower for g in model.groups)
 
 
-def _integer_weights(model: UrnModel):
-    """``(D, [v_g])``: the least common denominator of the weights and the integer weights ``D w_g``."""
+def integer_weights(model: UrnModel):
+    """The weights of the groups brought to one denominator.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+
+    Returns
+    -------
+    tuple of (int, list of int)
+        ``(D, [v_g])``: the least common denominator ``D`` of the weights
+        and the integer weights ``v_g = D w_g``, in the order of
+        ``model.groups``; ``(1, [1, ...])`` for an unweighted model.
+
+    Notes
+    -----
+    ``math.lcm`` over the denominators, ``O(G)`` operations on numbers of
+    the weights' size.
+
+    Examples
+    --------
+    >>> from enumerator.core.groups import UrnGroup
+    >>> halves_thirds = [UrnGroup(2, 0, None, Fraction(1, 2)), UrnGroup(1, 0, None, Fraction(1, 3))]
+    >>> integer_weights(UrnModel(balls=3, groups=halves_thirds))
+    (6, [3, 2])
+    """
     if not model.weighted:
         return 1, [1] * len(model.groups)
     den = 1
@@ -101,15 +231,35 @@ def _integer_weights(model: UrnModel):
     return den, [g.weight.numerator * (den // g.weight.denominator) for g in model.groups]
 
 
-def _merged(model: UrnModel, target: int):
-    """The groups merged by value, whatever their order: ``{(a, s, v): count}``.
+def merged_groups(model: UrnModel, target: int):
+    """The groups merged by value, whatever their order.
 
-    ``s`` is the room above the lower bound, made tight (at most *target*);
-    ``v`` the integer weight (see :func:`_integer_weights`).  Products over
-    groups do not depend on the order of the urns, so equal groups anywhere
-    in the model form one power.  Cost ``O(G)``.
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    target : int
+        The free balls ``n'`` (:func:`free_balls`).
+
+    Returns
+    -------
+    dict
+        ``{(a, s, v): count}``: the lower bound ``a``, the room ``s`` above
+        it made tight (at most *target*) and the integer weight ``v`` (see
+        :func:`integer_weights`), with the number of urns sharing them.
+
+    Notes
+    -----
+    Products over groups do not depend on the order of the urns, so equal
+    groups anywhere in the model form one power (Flajolet & Sedgewick,
+    *Analytic Combinatorics*, 2009, §II.2).  Cost ``O(G)``.
+
+    Examples
+    --------
+    >>> merged_groups(UrnModel(balls=5, bounds="2x0:2,1x0:,3x0:2", rule="BE"), 5)
+    {(0, 2, 1): 5, (0, 5, 1): 1}
     """
-    _, ints = _integer_weights(model)
+    _, ints = integer_weights(model)
     out: Dict[Tuple[int, int, int], int] = {}
     for g, v in zip(model.groups, ints):
         s = target if g.upper is None else min(g.upper - g.lower, target)
@@ -172,11 +322,11 @@ def counting_cost(model: UrnModel, quantity: str = "configurations") -> Cost:
 
 
 def _configurations_cost(model: UrnModel) -> Cost:
-    target = _shift_target(model)
+    target = free_balls(model)
     if target <= 0:
         return Cost()
     r = model.urns
-    bits = _log2_binomial(target + r - 1, target) + 64
+    bits = log2_binomial_approx(target + r - 1, target) + 64
     steps = Counter()
     for g in model.groups:
         if g.upper is not None and g.upper - g.lower < target:
@@ -193,39 +343,69 @@ def _configurations_cost(model: UrnModel) -> Cost:
 
 
 def _microstates_cost(model: UrnModel) -> Cost:
-    target = _shift_target(model)
+    target = free_balls(model)
     if target < 0:
         return Cost()
     n = model.balls
-    den, ints = _integer_weights(model)
+    den, ints = integer_weights(model)
     total_weight = sum(g.count * v for g, v in zip(model.groups, ints))
     if not model.rule.distinguishable:
         if not model.weighted:
             return _configurations_cost(model)
-        bits = _log2_binomial(target + model.urns - 1, target) + target * _log2(max(ints)) + 64
-        parts = _merged(model, target)
+        bits = log2_binomial_approx(target + model.urns - 1, target) + target * log2_approx(max(ints)) + 64
+        parts = merged_groups(model, target)
         # one row per group (a three-term recurrence or a binomial row), a product tree, one dot product
         rows = _linear_cost(3 * (target + 1) * len(parts), (len(parts) + 1) * (target + 1), bits)
         return rows + _series_cost(target + 1, bits, max(0, len(parts) - 2))
-    bits = n * _log2(total_weight) + n * _log2(den) + 64
+    bits = n * log2_approx(total_weight) + n * log2_approx(den) + 64
     if len(model.groups) == 1 and model.groups[0].lower == 0 and (
         model.groups[0].upper is None or model.groups[0].upper >= n
     ):
         return Cost(seconds=2 * product_seconds(bits) * max(1.0, math.log2(n + 1)), memory=4 * bigint_bytes(bits))
-    grouped = _mb_grouped_cost(model, target, bits)
+    grouped = mb_grouped_cost(model, target, bits)
     g = model.groups[0]
     if len(model.groups) == 1 and g.lower == 0 and g.upper is not None:
-        overflow = _overflow_cost(n, g.count, g.upper)
+        overflow = capacity_overflow_cost(n, g.count, g.upper)
         if overflow.seconds < grouped.seconds:
             return overflow
     return grouped
 
 
-def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
-    """The cost of :func:`~enumerator.algorithms.normalisers._mb_grouped`, following its plan (:func:`_mb_plan`)."""
+def mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
+    """The cost of the grouped MB normaliser, following its plan (:func:`mb_plan`).
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    target : int
+        The free balls ``n'`` (:func:`free_balls`).
+    bits : float
+        The estimated size of the answer in bits.
+
+    Returns
+    -------
+    Cost
+        Seconds and bytes of
+        :func:`~enumerator.algorithms.normalisers.count_microstates` on its
+        grouped route: per merged group a row by a recurrence or a FLINT
+        power, the rows multiplied together, then one coefficient.
+
+    Notes
+    -----
+    ``n! [x^n] prod_g (sum_{k=a}^{b} (w_g x)^k / k!)^{c_g}`` (Flajolet &
+    Sedgewick, *Analytic Combinatorics*, 2009, §II.2): a FLINT power costs
+    ``O(M(n' B) log c)``, J. C. P. Miller's recurrence (Knuth, *TAOCP*
+    vol. 2, §4.7) ``O(n' min(s, n'))`` small steps.
+
+    Examples
+    --------
+    >>> mb_grouped_cost(UrnModel(balls=10, bounds="2x1:3,1x0:"), 8, 64).seconds < 1
+    True
+    """
     n = model.balls
-    plan = _mb_plan(model, target)
-    wide = bits + _log2_factorial(n)
+    plan = mb_plan(model, target)
+    wide = bits + log2_factorial_approx(n)
     cost = Cost()
     labelled = 0
     ordinary = 0
@@ -235,7 +415,7 @@ def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
             continue
         if kind == "flint":
             ordinary += 1
-            fw_bits = c * _log2_factorial(a + s) + target * _log2(v) + 64
+            fw_bits = c * log2_factorial_approx(a + s) + target * log2_approx(v) + 64
             cost = cost + _series_cost(target + 1, fw_bits, 2 * max(1.0, math.log2(c + 1)))
             continue
         labelled += 1
@@ -250,15 +430,46 @@ def _mb_grouped_cost(model: UrnModel, target: int, bits: float) -> Cost:
     return cost + _linear_cost(3 * (target + 1), 2, wide)
 
 
-def _partitions_cost(total: int, parts: int, largest) -> Cost:
-    """The cost of :func:`~enumerator.algorithms.profiles._gaussian_partitions` (a row of ``total + 1`` integers, ``min(parts, total)`` passes)."""
+def partitions_cost(total: int, parts: int, largest) -> Cost:
+    """The cost of counting the partitions of *total* into at most *parts* parts, each at most *largest*.
+
+    Parameters
+    ----------
+    total, parts : int
+        The number partitioned and the most parts.
+    largest : int or None
+        The largest part, ``None`` for no limit.
+
+    Returns
+    -------
+    Cost
+        Seconds and bytes of the Gaussian-binomial row of
+        :func:`~enumerator.algorithms.profiles.partitions_at_most` and
+        :func:`~enumerator.algorithms.profiles.count_profiles`: a row of
+        ``total + 1`` integers of ``O(sqrt(total))`` bits, ``min(parts,
+        total)`` passes (two with a largest part), or the
+        Hardy–Ramanujan–Rademacher formula when every partition fits.
+
+    Notes
+    -----
+    Andrews, *The Theory of Partitions*, 1976, Thm 3.1; the size of
+    ``p(n)`` from the Hardy–Ramanujan asymptotic ``log2 p(n) ~ pi
+    sqrt(2n/3) / ln 2``.
+
+    Examples
+    --------
+    >>> partitions_cost(0, 3, None)
+    Cost(seconds=0.0, memory=0)
+    >>> partitions_cost(10**4, 50, 20).seconds < partitions_cost(10**4, 50, None).seconds * 3
+    True
+    """
     if total <= 0:
         return Cost()
     if largest is not None:
         total = min(total, max(0, parts * largest - total))
         parts = min(parts, largest)
     # log2 p(n) ~ pi sqrt(2n/3) / ln 2; with at most `parts` parts also at most log2 C(n + parts - 1, parts - 1)
-    bits = min(3.71 * math.sqrt(total), _log2_binomial(total + parts - 1, parts - 1)) + 64
+    bits = min(3.71 * math.sqrt(total), log2_binomial_approx(total + parts - 1, parts - 1)) + 64
     if parts >= total and (largest is None or largest >= total):
         return Cost(seconds=product_seconds(bits) * 64 + total / STEPS_PER_SECOND, memory=8 * bigint_bytes(bits))
     passes = min(parts, total) * (2 if largest is not None else 1)
@@ -270,28 +481,80 @@ def _profiles_cost(model: UrnModel) -> Cost:
     n, r = model.balls, model.urns
     if model.is_uniform:
         g = model.groups[0]
-        return _partitions_cost(n - r * g.lower, r, None if g.upper is None else g.upper - g.lower)
+        return partitions_cost(n - r * g.lower, r, None if g.upper is None else g.upper - g.lower)
     largest = max(top for _, _, top, _ in model.effective_groups())
-    budget = _partitions_cost(n, r, max(largest, 0))
+    budget = partitions_cost(n, r, max(largest, 0))
     return budget + Cost(seconds=PROFILE_ENUMERATION_LIMIT * len(model.groups) / STEPS_PER_SECOND)
 
 
-def _check(model: UrnModel, quantity: str, what: str) -> None:
+def check_counting_cost(model: UrnModel, quantity: str, what: str) -> None:
+    """Refuse a count whose :func:`counting_cost` is beyond the active limits.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    quantity : {"configurations", "microstates", "profiles"}
+        The count.
+    what : str
+        The work, as the refusal names it ("counting the configurations").
+
+    Raises
+    ------
+    TooLarge
+        Past the limits (:func:`enumerator.core.limits.check`), saying what
+        the work would take and advising fewer balls, fewer distinct urn
+        groups or smaller weights (parameter ``balls``).
+
+    Notes
+    -----
+    One estimate, ``O(G)``; the routes of
+    :mod:`~enumerator.algorithms.configurations`,
+    :mod:`~enumerator.algorithms.normalisers` and
+    :mod:`~enumerator.algorithms.profiles` call it before computing.
+
+    Examples
+    --------
+    >>> check_counting_cost(UrnModel(balls=10, urns=2**64, rule="BE"), "configurations", "counting")
+    """
     check(counting_cost(model, quantity), what,
           advice="use fewer balls, fewer distinct urn groups or smaller weights",
           parameters=["balls"])
 
 
-def _mb_plan(model: UrnModel, target: int):
-    """How each merged group's factor is computed: ``(kind, a, s, v, c)`` in a fixed order.
+def mb_plan(model: UrnModel, target: int):
+    """How the MB normaliser computes each merged group's factor.
 
-    Kinds: ``"fixed"`` (``s = 0``: a constant), ``"exp"`` (no bounds: merged
-    into ``e^{W x}``), ``"single"`` (one urn), ``"levels"`` (a lower bound and
-    no upper one), ``"flint"`` (a bounded power by FLINT) and ``"miller"`` (a
-    bounded power with a huge exponent, by Miller's recurrence).
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    target : int
+        The free balls ``n'`` (:func:`free_balls`).
+
+    Returns
+    -------
+    list of tuple
+        ``(kind, a, s, v, c)`` per merged group (:func:`merged_groups`),
+        sorted by ``(a, s, v)``.  Kinds: ``"fixed"`` (``s = 0``: a
+        constant), ``"exp"`` (no bounds: merged into ``e^{W x}``),
+        ``"single"`` (one urn), ``"levels"`` (a lower bound and no upper
+        one), ``"flint"`` (a bounded power by FLINT) and ``"miller"`` (a
+        bounded power with a huge exponent, by J. C. P. Miller's recurrence,
+        Knuth, *TAOCP* vol. 2, §4.7).
+
+    Notes
+    -----
+    Shared by the normaliser and its estimate (:func:`mb_grouped_cost`), so
+    that both follow one plan; ``O(G log G)``.
+
+    Examples
+    --------
+    >>> mb_plan(UrnModel(balls=10, bounds="2x1:3,1x0:"), 8)
+    [('exp', 0, 8, 1, 1), ('flint', 1, 2, 1, 2)]
     """
     plan = []
-    for (a, s, v), c in sorted(_merged(model, target).items()):
+    for (a, s, v), c in sorted(merged_groups(model, target).items()):
         if s == 0:
             kind = "fixed"
         elif a == 0 and s == target:
@@ -308,13 +571,37 @@ def _mb_plan(model: UrnModel, target: int):
     return plan
 
 
-def _overflow_cost(n: int, r: int, b: int) -> Cost:
-    """The cost of :func:`~enumerator.algorithms.normalisers._mb_capacity_overflow`: ``r^n``, then ``sum_j (j + 2)(n - j(b+1) + 1)`` steps, ``1 <= j <= n/(b+1)``."""
+def capacity_overflow_cost(n: int, r: int, b: int) -> Cost:
+    """The cost of the MB normaliser of *r* urns of capacity *b* by inclusion–exclusion over overfull urns.
+
+    Parameters
+    ----------
+    n, r, b : int
+        The balls, the urns and their common capacity.
+
+    Returns
+    -------
+    Cost
+        Seconds and bytes of ``r^n`` and then ``sum_j (j + 2)(n - j(b+1) +
+        1)`` small steps, ``1 <= j <= n/(b+1)``, on numbers of about
+        ``n log2 r + log2 n!`` bits.
+
+    Notes
+    -----
+    The route counts the maps that overfill ``j`` chosen urns (Riordan, *An
+    Introduction to Combinatorial Analysis*, 1958, ch. 5); it pays when the
+    capacity is near ``n``, so that few terms remain.
+
+    Examples
+    --------
+    >>> capacity_overflow_cost(10, 3, 4).seconds < 1
+    True
+    """
     d = b + 1
     top = min(r, n // d)
     steps = sum((j + 2) * (n - j * d + 1) for j in range(1, top + 1))
-    bits = n * _log2(r) + 64
+    bits = n * log2_approx(r) + 64
     power = Cost(seconds=2 * product_seconds(bits) * max(1.0, math.log2(n + 1)), memory=4 * bigint_bytes(bits))
     if not top:
         return power
-    return power + _linear_cost(2 * steps, 2 * (n - d + 1), bits + _log2_factorial(n))
+    return power + _linear_cost(2 * steps, 2 * (n - d + 1), bits + log2_factorial_approx(n))

@@ -39,17 +39,17 @@ from ..core.limits import (
 )
 from ..core.model import UrnModel
 from ..core.rules import multinomial
-from .configurations import _MEMO, _configurations, exact_fraction
+from .configurations import MEMO, count_configurations_mpz, exact_fraction
 from .counting_costs import (
-    _check,
-    _integer_weights,
-    _log2,
-    _log2_factorial,
-    _mb_grouped_cost,
-    _mb_plan,
-    _merged,
-    _overflow_cost,
-    _shift_target,
+    capacity_overflow_cost,
+    check_counting_cost,
+    free_balls,
+    integer_weights,
+    log2_approx,
+    log2_factorial_approx,
+    mb_grouped_cost,
+    mb_plan,
+    merged_groups,
 )
 
 __all__ = [
@@ -58,6 +58,7 @@ __all__ = [
     "count_microstates",
     "over_prime_power",
     "power_primes",
+    "surjections",
 ]
 
 mpz = gmpy2.mpz
@@ -67,8 +68,32 @@ mpz = gmpy2.mpz
 # microstates (MB: weighted by multinomials; weighted models: the normaliser)
 # ---------------------------------------------------------------------------
 
-def _mb_surjections(n: int, r: int):
-    """``r! S(n, r)`` (maps onto all ``r`` urns) via FLINT's Stirling numbers."""
+def surjections(n: int, r: int):
+    """The number of ways to put *n* labelled balls into *r* labelled urns leaving none empty.
+
+    Parameters
+    ----------
+    n, r : int
+        The balls and the urns.
+
+    Returns
+    -------
+    mpz
+        ``r! S(n, r)``, the surjections of an *n*-set onto an *r*-set; 0
+        when ``n < r``.
+
+    Notes
+    -----
+    The Stirling number of the second kind by FLINT (``fmpz.stirling_s2``)
+    times ``r!`` by GMP (Stanley, *Enumerative Combinatorics* vol. 1, 2nd
+    ed., 2012, §1.9, the twelvefold way); the cost is FLINT's, about
+    ``O(n M(n log r))``.
+
+    Examples
+    --------
+    >>> surjections(4, 2), surjections(2, 3)
+    (mpz(14), mpz(0))
+    """
     if n < r:
         return mpz(0)
     return mpz(int(fmpz.stirling_s2(n, r))) * gmpy2.fac(r)
@@ -154,11 +179,11 @@ def _mb_grouped(model: UrnModel):
     Returns an ``mpz`` or, with fractional weights, an ``mpq``.
     """
     n = model.balls
-    target = _shift_target(model)
+    target = free_balls(model)
     if target < 0:
         return mpz(0)
-    den, _ = _integer_weights(model)
-    plan = _mb_plan(model, target)
+    den, _ = integer_weights(model)
+    plan = mb_plan(model, target)
     lift = mpz(1)            # prod v^{a c}
     lift_den = mpz(1)        # prod (a!)^c of the fixed groups
     exp_weight = 0
@@ -235,11 +260,11 @@ def _mb_grouped(model: UrnModel):
 def _ordinary_grouped(model: UrnModel):
     r"""The BE/FD normaliser ``[x^n] prod_g (sum_{k=a_g}^{b_g} (w_g x)^k)^{c_g}`` by groups (``mpz`` or ``mpq``)."""
     n = model.balls
-    target = _shift_target(model)
+    target = free_balls(model)
     if target < 0:
         return mpz(0)
-    den, _ = _integer_weights(model)
-    parts = _merged(model, target)
+    den, _ = integer_weights(model)
+    parts = merged_groups(model, target)
     lift = mpz(1)
     length = target + 1
     rows = []
@@ -291,23 +316,23 @@ def _mb_unweighted(model: UrnModel):
         g = model.groups[0]
         a, b = g.lower, g.upper
         if a == 0 and (b is None or b >= n):
-            check(Cost(seconds=4 * product_seconds(n * _log2(r) + 64) * max(1.0, math.log2(n + 1)),
-                       memory=4 * bigint_bytes(n * _log2(r) + 64)),
+            check(Cost(seconds=4 * product_seconds(n * log2_approx(r) + 64) * max(1.0, math.log2(n + 1)),
+                       memory=4 * bigint_bytes(n * log2_approx(r) + 64)),
                   "r^n", advice="use fewer balls", parameters=["balls"])
             return mpz(r) ** n
         if a == 1 and (b is None or b >= n - r + 1):
-            bits = n * _log2(r) + 64
+            bits = n * log2_approx(r) + 64
             check(Cost(seconds=2 * min(r, n - r + 1) * product_seconds(bits), memory=8 * bigint_bytes(bits)),
                   "r! S(n, r)", advice="use fewer balls", parameters=["balls"])
-            return _mb_surjections(n, r)
+            return surjections(n, r)
         if b is not None and b == a:
             return gmpy2.divexact(gmpy2.fac(n), gmpy2.fac(a) ** r) if n == r * a else mpz(0)
         if a == 0:
-            overflow = _overflow_cost(n, r, b)
-            if overflow.seconds < _mb_grouped_cost(model, n, n * _log2(r) + 64).seconds:
+            overflow = capacity_overflow_cost(n, r, b)
+            if overflow.seconds < mb_grouped_cost(model, n, n * log2_approx(r) + 64).seconds:
                 check(overflow, "counting the microstates", advice="use fewer balls", parameters=["balls"])
                 return _mb_capacity_overflow(n, r, b)
-    _check(model, "microstates", "counting the microstates")
+    check_counting_cost(model, "microstates", "counting the microstates")
     return _mb_grouped(model)
 
 
@@ -348,7 +373,7 @@ def _mb_capacity_overflow(n: int, r: int, b: int):
 
 def _microstates(model: UrnModel):
     """The normaliser as an ``mpz`` or ``mpq`` (memoised per model)."""
-    memo = _MEMO.slots(model)
+    memo = MEMO.slots(model)
     if "microstates" in memo:
         return memo["microstates"]
     common = _common_weight(model)
@@ -357,11 +382,11 @@ def _microstates(model: UrnModel):
         if model.rule.distinguishable:
             value = _mb_unweighted(plain)
         else:
-            value = _configurations(plain)
+            value = count_configurations_mpz(plain)
         if common != 1 and value:
             value = gmpy2.mpq(value * mpz(common.numerator) ** model.balls, mpz(common.denominator) ** model.balls)
     else:
-        _check(model, "microstates", "computing the total weight")
+        check_counting_cost(model, "microstates", "computing the total weight")
         value = _mb_grouped(model) if model.rule.distinguishable else _ordinary_grouped(model)
     memo["microstates"] = value
     return value
@@ -433,11 +458,11 @@ def count_microstates(model: UrnModel):
 
 def _check_multinomial(model: UrnModel) -> None:
     """Refuse a configuration's weight whose ``n!`` (about ``n log2 n`` bits) is beyond the limits."""
-    memo = _MEMO.slots(model)
+    memo = MEMO.slots(model)
     cost = memo.get("weight_cost")
     if cost is None:
         n = model.balls
-        bits = _log2_factorial(n) + n * max(_log2(g.weight.numerator) + _log2(g.weight.denominator)
+        bits = log2_factorial_approx(n) + n * max(log2_approx(g.weight.numerator) + log2_approx(g.weight.denominator)
                                             for g in model.groups) + 64
         cost = memo["weight_cost"] = Cost(seconds=4 * product_seconds(bits) * max(1.0, math.log2(n + 1)),
                                           memory=6 * bigint_bytes(bits))
@@ -575,7 +600,7 @@ def over_prime_power(count, total, primes) -> Fraction:
 
 def _reduced_mb_probability(model: UrnModel, values) -> Fraction:
     """``multinomial(k) / r^n`` in lowest terms without a big gcd (:func:`over_prime_power`)."""
-    memo = _MEMO.slots(model)
+    memo = MEMO.slots(model)
     fac_n = memo.get("fac_n")
     if fac_n is None:
         fac_n = memo["fac_n"] = gmpy2.fac(model.balls)
@@ -644,7 +669,7 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
             if plain.is_uniform and g.lower == 0 and (g.upper is None or g.upper >= plain.balls):
                 return _reduced_mb_probability(plain, values)
             return exact_fraction(multinomial(values), _microstates(plain))
-        return exact_fraction(1, _configurations(plain))
+        return exact_fraction(1, count_configurations_mpz(plain))
     num, den = _group_weight_power(model, values)
     n = model.balls
     if model.rule.distinguishable:

@@ -31,9 +31,15 @@ from ..core.limits import (
     product_seconds,
 )
 from ..core.model import UrnModel, as_count
-from .configurations import _MEMO
-from .counting_costs import PROFILE_ENUMERATION_LIMIT, _check, _log2, _log2_binomial, _partitions_cost
-from .normalisers import _mb_surjections
+from .configurations import MEMO
+from .counting_costs import (
+    PROFILE_ENUMERATION_LIMIT,
+    check_counting_cost,
+    log2_approx,
+    log2_binomial_approx,
+    partitions_cost,
+)
+from .normalisers import surjections
 
 __all__ = ["WAYS_ORDER", "count_profiles", "partitions_at_most", "twelvefold"]
 
@@ -162,11 +168,11 @@ def count_profiles(model: UrnModel) -> int:
     >>> count_profiles(UrnModel(balls=10, urns=2**64, rule="BE"))   # p(10), OEIS A000041
     42
     """
-    memo = _MEMO.slots(model)
+    memo = MEMO.slots(model)
     if "profiles" in memo:
         return memo["profiles"]
     n, r = model.balls, model.urns
-    _check(model, "profiles", "counting the profiles")
+    check_counting_cost(model, "profiles", "counting the profiles")
     if model.is_uniform:
         g = model.groups[0]
         value = _gaussian_partitions(n - r * g.lower, r, None if g.upper is None else g.upper - g.lower)
@@ -251,23 +257,23 @@ WAYS_ORDER = [
 def _twelvefold_cost(n: int, r: int) -> Cost:
     """The cost of :func:`twelvefold`: its largest numbers (about ``n log2 r`` bits), their
     powers, Stirling and Bell numbers, and the partition rows, with their decimal output."""
-    power_bits = n * _log2(r) + 64
+    power_bits = n * log2_approx(r) + 64
     small = min(n, r)
     big = Cost(seconds=2 * product_seconds(power_bits) * max(1.0, math.log2(n + 1)),
                memory=12 * bigint_bytes(power_bits))
     cost = big                                               # r^n, r^(n), the decimal text
     if n >= r:
-        stirling_bits = n * _log2(r) + 64
+        stirling_bits = n * log2_approx(r) + 64
         cost = cost + Cost(seconds=2 * min(r, n - r + 1) * product_seconds(stirling_bits),
                            memory=8 * bigint_bytes(stirling_bits))
         cost = cost + big.times(r)                           # sum of S(n, k), k <= r: r powers
     else:
-        bell_bits = n * _log2(n) + 64
+        bell_bits = n * log2_approx(n) + 64
         cost = cost + Cost(seconds=n * product_seconds(bell_bits), memory=8 * bigint_bytes(bell_bits))
-    cost = cost + Cost(seconds=product_seconds(_log2_binomial(n + r, small) + 64) * 8)
-    cost = cost + _partitions_cost(n, r, None)
+    cost = cost + Cost(seconds=product_seconds(log2_binomial_approx(n + r, small) + 64) * 8)
+    cost = cost + partitions_cost(n, r, None)
     if n >= r:
-        cost = cost + _partitions_cost(n - r, r, None)
+        cost = cost + partitions_cost(n - r, r, None)
     return cost
 
 
@@ -331,7 +337,7 @@ def twelvefold(balls, urns) -> List[Dict[str, object]]:
     values = {
         ("labelled", "labelled", "any"): int(mpz(r) ** n),
         ("labelled", "labelled", "at_most_one"): math.perm(r, n),
-        ("labelled", "labelled", "at_least_one"): int(_mb_surjections(n, r)),
+        ("labelled", "labelled", "at_least_one"): int(surjections(n, r)),
         ("unlabelled", "labelled", "any"): math.comb(n + r - 1, n),
         ("unlabelled", "labelled", "at_most_one"): math.comb(r, n),
         ("unlabelled", "labelled", "at_least_one"): (math.comb(n - 1, r - 1) if n >= 1 else 0),
