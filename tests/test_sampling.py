@@ -19,7 +19,7 @@ import reference
 from scipy.stats import binom, chisquare
 
 from enumerator import InvalidParameters, Occupancy, TooLarge
-from enumerator.algorithms import sampling
+from enumerator.algorithms.exact_samplers import SequentialSampler
 from enumerator.algorithms.sampling import (
     METHODS,
     iter_sample_blocks,
@@ -215,7 +215,7 @@ def test_threshold_ties_are_resolved_exactly():
     # A word within one unit of a threshold is ambiguous; the refinement must give the
     # share of the exact real U = (word * 2^64 + extra) / 2^128 (definition of the method).
     model = Occupancy(balls=5, bounds=[(0, None), (1, 4)], rule="MB")
-    plan = sampling._Sequential(model)
+    plan = SequentialSampler(model)
     root = plan.root
     j_lo, j_hi, weight, total = plan._split(root, 5)
     weights = [weight(j) for j in range(j_lo, j_hi + 1)]
@@ -243,7 +243,7 @@ def test_threshold_ties_are_resolved_exactly():
 def test_bulk_thresholds_are_exact_to_one_unit(model):
     # The omitted tails are below total / 2^66, so each stored threshold t' satisfies
     # t' <= floor(2^64 F_j / F) <= t' + 1 against the full exact row (definition).
-    plan = sampling._Sequential(model)
+    plan = SequentialSampler(model)
     checked = 0
     for node in plan.preorder:
         if node.left is None:

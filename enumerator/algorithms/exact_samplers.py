@@ -1,6 +1,6 @@
 r"""The individual exact samplers: one class per method, each drawing blocks of occupancy rows.
 
-Every sampler is a :class:`_Plan` built once per model by
+Every sampler is a :class:`Sampler` built once per model by
 :mod:`enumerator.algorithms.sampling` (which chooses among them and holds the
 public interface); ``draw(rng, rows)`` returns an ``int64`` array of
 ``rows`` occupancy vectors.  The laws are exact: every random choice is a
@@ -8,20 +8,20 @@ uniform integer from NumPy's ``Generator.integers`` (Lemire's unbiased
 bounded integers, no floating point), or a comparison of a uniform random
 real, revealed 64 bits at a time, with exact integer thresholds.
 
-``stars-and-bars`` (:class:`_StarsAndBars`)
+``stars-and-bars`` (:class:`StarsAndBarsSampler`)
     BE without upper bounds: a uniform ``(r-1)``-subset of ``n + r - 1``
     positions are the bars (Feller, vol. 1, §II.5), by Floyd's algorithm
     (Bentley & Floyd, *A sample of brilliance*, CACM 1987) for all rows at once.
-``subset`` (:class:`_Subset`)
+``subset`` (:class:`SubsetSampler`)
     A uniform subset of the free urns, by Floyd's algorithm or selection
     sampling (Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §3.4.2, Algorithm S).
-``uniform-balls`` (:class:`_UniformBalls`)
+``uniform-balls`` (:class:`UniformBallsSampler`)
     MB without bounds: each ball uniform among the urns, occupancies by
     ``numpy.bincount``.
-``rejection`` (:class:`_Rejection`)
+``rejection`` (:class:`RejectionSampler`)
     Draws from an unbounded proposal kept when inside the bounds — exact,
     since the proposal is uniform (BE) or multinomial (MB) on a superset.
-``sequential`` (:class:`_Sequential`)
+``sequential`` (:class:`SequentialSampler`)
     Recursive halving of the urns with exact conditional weights and 64-bit
     thresholds, refined exactly only near a threshold (Han & Hoshi,
     *Interval algorithm for random number generation*, IEEE Trans. Inf.
@@ -46,6 +46,20 @@ from ..core.errors import TooLarge
 from ..core.model import UrnModel
 from .counting import count_microstates
 
+__all__ = [
+    "BALL_CELLS",
+    "BLOCK_CELLS",
+    "FIRST_BLOCK",
+    "MAX_TABLE_BITS",
+    "RejectionSampler",
+    "SEQUENTIAL_CELLS",
+    "Sampler",
+    "SequentialSampler",
+    "StarsAndBarsSampler",
+    "SubsetSampler",
+    "UniformBallsSampler",
+]
+
 mpz = gmpy2.mpz
 
 #: Rows of the first block; later blocks double up to a model-dependent cap.
@@ -66,8 +80,28 @@ _TOP = np.uint64(2**64 - 1)
 # the plan every sampler is
 # ---------------------------------------------------------------------------
 
-class _Plan:
-    """A model's sampling method with its precomputed data."""
+class Sampler:
+    """A model's sampling method with its precomputed data: the base of every exact sampler.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem; a subclass precomputes what its method needs.
+
+    Attributes
+    ----------
+    method : str
+        The method's name, as ``sample(..., method=)`` spells it.
+    cap : int
+        The most rows one block should have (:data:`FIRST_BLOCK` at least).
+
+    Notes
+    -----
+    ``draw(rng, rows)`` returns an ``int64`` array of *rows* occupancy
+    vectors, each drawn from the exact law of the model's rule; the planner
+    in :mod:`enumerator.algorithms.sampling` chooses the subclass and sizes
+    the blocks.
+    """
 
     method = ""
 
@@ -135,8 +169,31 @@ def _selection(rng: np.random.Generator, rows: int, population: int, k: int) -> 
     return out.T
 
 
-class _StarsAndBars(_Plan):
-    """BE without (binding) upper bounds: uniform bars among ``free + r - 1`` slots."""
+class StarsAndBarsSampler(Sampler):
+    """BE without (binding) upper bounds: uniform bars among ``free + r - 1`` slots.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    lows : sequence of int
+        The lower bound of each urn.
+    free : int
+        The balls above the lower bounds.
+
+    Notes
+    -----
+    The ``r - 1`` bars (or the *free* stars, whichever are fewer) are a
+    uniform subset of the slots (Feller, vol. 1, §II.5), drawn for all rows
+    at once by Floyd's algorithm (Bentley & Floyd, CACM 1987):
+    ``O(min(r, free))`` draws per row.
+
+    Examples
+    --------
+    >>> sampler = StarsAndBarsSampler(UrnModel(balls=5, urns=3, rule="BE"), [0, 0, 0], 5)
+    >>> sampler.draw(np.random.default_rng(1), 4).sum(axis=1).tolist()
+    [5, 5, 5, 5]
+    """
 
     method = "stars-and-bars"
 
@@ -166,8 +223,32 @@ class _StarsAndBars(_Plan):
         return out + self.lows
 
 
-class _Subset(_Plan):
-    """Every urn holds its lower bound or one more: a uniform subset of the free urns."""
+class SubsetSampler(Sampler):
+    """Every urn holds its lower bound or one more: a uniform subset of the free urns.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem.
+    lows : sequence of int
+        The lower bound of each urn.
+    spans : sequence of int
+        The room of each urn above its lower bound (0 or 1).
+    free : int
+        The balls above the lower bounds: the size of the subset.
+
+    Notes
+    -----
+    By Floyd's algorithm for sparse subsets (Bentley & Floyd, CACM 1987) or
+    selection sampling for dense ones (Knuth, *TAOCP* vol. 2, 3rd ed.,
+    1997, §3.4.2, Algorithm S), taking the complement when it is smaller.
+
+    Examples
+    --------
+    >>> fd = UrnModel(balls=2, urns=4, rule="FD")
+    >>> SubsetSampler(fd, [0] * 4, [1] * 4, 2).draw(np.random.default_rng(1), 3).sum(axis=1).tolist()
+    [2, 2, 2]
+    """
 
     method = "subset"
 
@@ -200,8 +281,25 @@ class _Subset(_Plan):
 # MB without bounds
 # ---------------------------------------------------------------------------
 
-class _UniformBalls(_Plan):
-    """Each ball uniform among the ``r`` urns; several balls per 32-bit draw."""
+class UniformBallsSampler(Sampler):
+    """MB without bounds: each ball uniform among the ``r`` urns, several balls per 32-bit draw.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem (no binding bounds, no weights).
+
+    Notes
+    -----
+    A uniform integer below ``r^per`` holds ``per`` base-``r`` digits, one
+    urn per ball; the occupancies are one ``numpy.bincount``: ``O(n)`` per
+    row.
+
+    Examples
+    --------
+    >>> UniformBallsSampler(UrnModel(balls=7, urns=3)).draw(np.random.default_rng(1), 2).sum(axis=1).tolist()
+    [7, 7]
+    """
 
     method = "uniform-balls"
 
@@ -240,12 +338,30 @@ class _UniformBalls(_Plan):
 # rejection from an unbounded proposal
 # ---------------------------------------------------------------------------
 
-class _Rejection(_Plan):
-    """Draw from the unbounded proposal and keep the rows inside the bounds."""
+class RejectionSampler(Sampler):
+    """Draw from an unbounded proposal and keep the rows inside the bounds.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem, with bounds.
+    proposal : Sampler
+        A sampler of the same balls and urns with looser bounds (MB: none;
+        BE: the lower bounds only).
+    share : Fraction
+        The exact share of the proposal's draws that fall inside the bounds
+        (sizes the batches only).
+
+    Notes
+    -----
+    Exact, since the proposal is uniform (BE) or multinomial (MB) on a
+    superset (von Neumann's rejection method; Knuth, *TAOCP* vol. 2, 3rd
+    ed., 1997, §3.4.1): ``1 / share`` proposals per row on average.
+    """
 
     method = "rejection"
 
-    def __init__(self, model: UrnModel, proposal: _Plan, share: Fraction):
+    def __init__(self, model: UrnModel, proposal: Sampler, share: Fraction):
         super().__init__(model)
         self.proposal = proposal
         self.share = share
@@ -284,8 +400,18 @@ class _Node:
         self.right: Optional[_Node] = None
 
 
-class _Sequential(_Plan):
+class SequentialSampler(Sampler):
     r"""Recursive halving of the urns with exact integer weights and 64-bit thresholds.
+
+    Parameters
+    ----------
+    model : UrnModel
+        The problem, any bounds, BE or MB.
+
+    Raises
+    ------
+    TooLarge
+        When the count tables would exceed :data:`MAX_TABLE_BITS`.
 
     The urns are split into halves, recursively (a balanced binary tree).
     ``S_v(m)`` counts the ways (BE: vectors; MB: assignments of ``m``

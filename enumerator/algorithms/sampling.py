@@ -81,12 +81,12 @@ from .exact_samplers import (  # noqa: F401 (the cell budgets are re-exported)
     FIRST_BLOCK,
     MAX_TABLE_BITS,
     SEQUENTIAL_CELLS,
-    _Plan,
-    _Rejection,
-    _Sequential,
-    _StarsAndBars,
-    _Subset,
-    _UniformBalls,
+    RejectionSampler,
+    Sampler,
+    SequentialSampler,
+    StarsAndBarsSampler,
+    SubsetSampler,
+    UniformBallsSampler,
 )
 from .sampling_groups import GroupSampler, RandomWords
 
@@ -318,7 +318,7 @@ def sample(model: UrnModel, size, seed=None, method: Optional[str] = None, spars
 # ---------------------------------------------------------------------------
 # planning
 # ---------------------------------------------------------------------------
-def _plan(model: UrnModel) -> _Plan:
+def _plan(model: UrnModel) -> Sampler:
     memo = _MEMO.slots(model)
     plan = memo.get("sampling.plan")
     if plan is not None:
@@ -333,7 +333,7 @@ def _plan(model: UrnModel) -> _Plan:
     return plan
 
 
-def _forced(model: UrnModel, method: str) -> _Plan:
+def _forced(model: UrnModel, method: str) -> Sampler:
     """The plan for an explicitly requested *method*, or a clear error if it does not apply."""
     if method not in METHODS:
         raise InvalidParameters(f"method must be one of {', '.join(METHODS)} (got {method!r})")
@@ -358,37 +358,37 @@ def _forced(model: UrnModel, method: str) -> _Plan:
     unbounded_mb = all(a == 0 and b >= model.balls for a, b in bounds)
     why = None
     if method == "sequential":
-        plan = _Sequential(model)
+        plan = SequentialSampler(model)
     elif method == "subset":
         if mb or max(spans) > 1:
             why = "it needs BE or FD urns with room for at most one ball above their minimum"
         else:
-            plan = _Subset(model, lows, spans, free)
+            plan = SubsetSampler(model, lows, spans, free)
     elif method == "stars-and-bars":
         if mb or not all(s >= free for s in spans):
             why = "it needs BE without upper bounds"
         else:
-            plan = _StarsAndBars(model, lows, free)
+            plan = StarsAndBarsSampler(model, lows, free)
     elif method == "uniform-balls":
         if not (mb and unbounded_mb):
             why = "it needs MB without bounds"
         else:
-            plan = _UniformBalls(model)
+            plan = UniformBallsSampler(model)
     else:
         if mb:
             proposal = UrnModel(balls=model.balls, urns=model.urns, rule="MB")
             share = Fraction(count_microstates(model), count_microstates(proposal))
-            base: _Plan = _UniformBalls(proposal)
+            base: Sampler = UniformBallsSampler(proposal)
         else:
             proposal = UrnModel(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
             share = Fraction(count_configurations(model), count_configurations(proposal))
-            base = _StarsAndBars(proposal, lows, free)
+            base = StarsAndBarsSampler(proposal, lows, free)
         if share < REJECTION_FLOOR:
             raise TooLarge(
                 f"method 'rejection' would keep only about 1 in {-(-share.denominator // share.numerator):,} "
                 f"draws for {model!r}; use the default method (sequential) instead"
             )
-        plan = _Rejection(model, base, share)
+        plan = RejectionSampler(model, base, share)
     if why:
         raise InvalidParameters(f"method {method!r} does not apply to {model!r}: {why}")
     _MEMO.slots(model)[key] = plan
@@ -403,7 +403,7 @@ def _group_sampler(model: UrnModel) -> GroupSampler:
     return sampler
 
 
-class _Groups(_Plan):
+class _Groups(Sampler):
     """Dense rows from the sparse group sampler (weighted models, or on request)."""
 
     method = "groups"
@@ -417,7 +417,7 @@ class _Groups(_Plan):
         return self.sampler.draw_dense(rng, rows, self.r)
 
 
-def _choose(model: UrnModel) -> _Plan:
+def _choose(model: UrnModel) -> Sampler:
     if model.weighted or model.urns > PER_URN_LIMIT:
         return _Groups(model)
     bounds = model.effective_bounds()
@@ -428,18 +428,18 @@ def _choose(model: UrnModel) -> _Plan:
         # labelled balls: the draws are balls thrown one by one, not vectors
         unbounded = all(a == 0 and b >= model.balls for a, b in bounds)
         if unbounded:
-            return _UniformBalls(model)
+            return UniformBallsSampler(model)
         proposal = UrnModel(balls=model.balls, urns=model.urns, rule="MB")
         share = Fraction(count_microstates(model), count_microstates(proposal))
         if share >= REJECTION_MIN:
-            return _Rejection(model, _UniformBalls(proposal), share)
-        return _Sequential(model)
+            return RejectionSampler(model, UniformBallsSampler(proposal), share)
+        return SequentialSampler(model)
     if max(spans) <= 1:
-        return _Subset(model, lows, spans, free)
+        return SubsetSampler(model, lows, spans, free)
     if all(s >= free for s in spans):
-        return _StarsAndBars(model, lows, free)
+        return StarsAndBarsSampler(model, lows, free)
     proposal = UrnModel(balls=model.balls, bounds=[(a, None) for a in lows], rule="BE")
     share = Fraction(count_configurations(model), count_configurations(proposal))
     if share >= REJECTION_MIN:
-        return _Rejection(model, _StarsAndBars(proposal, lows, free), share)
-    return _Sequential(model)
+        return RejectionSampler(model, StarsAndBarsSampler(proposal, lows, free), share)
+    return SequentialSampler(model)
