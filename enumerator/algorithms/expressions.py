@@ -516,7 +516,7 @@ class _Expander:
         self._check_power(a.poly, k, rel)
         absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
         if a.prec is None and a.poly.denom() == 1:
-            span = series._window_span(a.poly.numer())
+            span = series.window_span(a.poly.numer())
             if span is not None:
                 # (1 + x + ... + x^span)^k by the three-term recurrence: O(rel) operations.
                 row = series.window_power_row(span, k, rel - 1)

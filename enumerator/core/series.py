@@ -34,6 +34,7 @@ __all__ = [
     "scaled_product",
     "window",
     "window_power_row",
+    "window_span",
 ]
 
 mpz = gmpy2.mpz
@@ -114,7 +115,7 @@ def power(base: fmpz_poly, exponent: int, degree: int) -> fmpz_poly:
     full_degree = base.degree() * exponent
     if full_degree <= FULL_POWER_RATIO * (degree + 1):
         return base ** exponent
-    span = _window_span(base)
+    span = window_span(base)
     if span is not None:
         # A window far above the truncation: the three-term recurrence of
         # window_power_row costs O(degree) big operations, pow_trunc
@@ -123,8 +124,31 @@ def power(base: fmpz_poly, exponent: int, degree: int) -> fmpz_poly:
     return base.pow_trunc(exponent, degree + 1)
 
 
-def _window_span(base: fmpz_poly):
-    """``s`` when *base* is ``1 + x + ... + x^s`` (``s >= 1``), else ``None``."""
+def window_span(base: fmpz_poly):
+    """The span ``s`` of a window ``1 + x + ... + x^s``, or ``None`` for any other series.
+
+    Parameters
+    ----------
+    base : fmpz_poly
+        A series.
+
+    Returns
+    -------
+    int or None
+        ``s >= 1`` when *base* is ``1 + x + ... + x^s`` with ``s < 64``,
+        else ``None``.
+
+    Notes
+    -----
+    Recognises the bases whose powers :func:`window_power_row` computes by
+    its three-term recurrence (Knuth, *TAOCP* vol. 2, 3rd ed., 1997, §4.7)
+    instead of by repeated squaring; ``O(s)``.
+
+    Examples
+    --------
+    >>> window_span(fmpz_poly([1, 1, 1])), window_span(fmpz_poly([1, 2, 1])), window_span(fmpz_poly([1]))
+    (2, None, None)
+    """
     length = base.length()
     if length < 2 or length > 64:
         return None
