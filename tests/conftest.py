@@ -127,3 +127,105 @@ def postgres_url(postgres_server):
     finally:
         results.close_all()  # the store's pooled connections, before the database goes
         pg_server.drop_database(postgres_server, url)
+
+
+# -- Private names ---------------------------------------------------------------
+# A helper two modules share gets a public name in its home module; a private
+# (underscore) name stays in its module.  The rule is read straight off each
+# module's source: tests/test_private_imports.py checks the whole package,
+# tests/test_store.py the store.
+
+def _module_of(path, root):
+    """The dotted name of the module at *path* (``root`` is the package's folder) and its package."""
+    parts = list(path.relative_to(root.parent).with_suffix("").parts)
+    if parts[-1] == "__init__":
+        parts.pop()
+        return ".".join(parts), ".".join(parts)
+    return ".".join(parts), ".".join(parts[:-1])
+
+
+def _is_module(dotted, root):
+    """Is *dotted* (``enumerator.x.y``) one of the package's modules or subpackages?"""
+    base = root.parent.joinpath(*dotted.split("."))
+    return base.with_suffix(".py").is_file() or (base / "__init__.py").is_file()
+
+
+def _private(name):
+    return name.startswith("_") and not name.startswith("__")
+
+
+def _module_named(expr, bound, root):
+    """The package module an expression (``series`` or ``enumerator.core.series``) names, or ``None``."""
+    import ast
+
+    if isinstance(expr, ast.Name):
+        return bound.get(expr.id)
+    if isinstance(expr, ast.Attribute):
+        outer = _module_named(expr.value, bound, root)
+        if outer is not None and _is_module(f"{outer}.{expr.attr}", root):
+            return f"{outer}.{expr.attr}"
+    return None
+
+
+def _private_borrowings(root, modules=None):
+    """Every private name a module under *root* takes from another module of the package.
+
+    Two ways to borrow are found: ``from <module> import _name`` (relative or
+    absolute, at any depth of the file) and ``<module>._name`` on a name bound
+    to one of the package's modules by an import.  Returns sorted
+    ``(importer path, home module, name)`` triples, the path relative to the
+    package's parent (``"enumerator/algorithms/laws.py"``).
+    """
+    import ast
+    from pathlib import Path
+
+    root = Path(root)
+    package = root.name
+    found = set()
+    for path in sorted(modules if modules is not None else root.rglob("*.py")):
+        path = Path(path)
+        own, here = _module_of(path, root)
+        where = path.relative_to(root.parent).as_posix()
+        tree = ast.parse(path.read_text(encoding="utf-8"), filename=str(path))
+        bound = {}  # local name -> dotted name of a package module
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom):
+                if node.level:
+                    base = here.split(".")[: len(here.split(".")) - (node.level - 1)]
+                    home = ".".join(base + ([node.module] if node.module else []))
+                else:
+                    home = node.module or ""
+                if home != package and not home.startswith(package + "."):
+                    continue
+                for alias in node.names:
+                    if _is_module(f"{home}.{alias.name}", root):
+                        bound[alias.asname or alias.name] = f"{home}.{alias.name}"
+                        if _private(alias.name):
+                            found.add((where, home, alias.name))
+                    elif _private(alias.name) and home != own:
+                        found.add((where, home, alias.name))
+            elif isinstance(node, ast.Import):
+                for alias in node.names:
+                    if alias.name == package or alias.name.startswith(package + "."):
+                        if alias.asname:
+                            bound[alias.asname] = alias.name
+                        else:
+                            bound[package] = package
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Attribute) and _private(node.attr):
+                home = _module_named(node.value, bound, root)
+                if home is not None and home != own:
+                    found.add((where, home, node.attr))
+    return sorted(found)
+
+
+@pytest.fixture(scope="session")
+def private_borrowings():
+    """The function listing private names borrowed between a package's modules.
+
+    ``private_borrowings(root, modules=None)``: *root* is the package's folder
+    (``Path(enumerator.__file__).parent``), *modules* the files to read
+    (default: every ``.py`` under *root*); the answer is a sorted list of
+    ``(importer path, home module, name)`` triples.
+    """
+    return _private_borrowings

@@ -700,19 +700,11 @@ def test_model_from_key_reads_groups_weights_and_schema_1_texts():
         results.model_from_key("BE", 1, "0:2,zz")
 
 
-def test_no_store_module_imports_a_private_name_of_another():
+def test_no_store_module_imports_a_private_name_of_another(private_borrowings):
     # a helper two modules share gets a public name: a private one stays in its module;
-    # the rule read straight off each module's import statements
-    import ast
-
+    # the rule read straight off each module's source (the fixture in conftest.py)
     folder = Path(results.__file__).parent
-    borrowed = []
-    for module in sorted(folder.glob("*.py")):
-        for node in ast.walk(ast.parse(module.read_text(encoding="utf-8"))):
-            if isinstance(node, ast.ImportFrom):
-                borrowed += [f"{module.name}: {node.module} {alias.name}" for alias in node.names
-                             if alias.name.startswith("_") and not alias.name.startswith("__")]
-    assert borrowed == []
+    assert private_borrowings(folder.parent, folder.glob("*.py")) == []
 
 
 def test_stored_quantities_and_holds_quantity_match_the_rows(store, tmp_path):
