@@ -1,4 +1,4 @@
-"""The float route for bosons: its proved error bounds.
+"""The float route for bosons: its proved error bounds, and when route ``auto`` takes it.
 
 References, each outside the float route: numpy's summation order replayed in
 plain Python (the tree of ``DOUBLE_pairwise_sum``, numpy/_core/src/umath/
@@ -128,6 +128,25 @@ def test_float_route_on_a_finite_spectrum_against_brute_force():
         for key in REPORTED:
             assert checks[key] <= a.error_bounds[key], key
         assert a.error_bounds["heat_capacity"] < 1e-12
+
+
+def test_auto_takes_the_float_route_only_when_its_bounds_meet_the_digits():
+    # 1000 bosons at k_B T = 10 spacings (about T_c): the exact recursion is estimated the slower here.
+    system = make_system(1000, preset="trap", rule="BE")
+    (fast,) = canonical(system, ["10"], digits=6, levels=3, grand=False)
+    assert fast.route == "float"
+    assert all(fast.error_bounds[key] <= 1e-6 for key in ("mean_energy", "heat_capacity", "occupations"))
+    (exact,) = canonical(system, ["10"], digits=15, levels=3, grand=False)
+    assert exact.route == "recursion" and exact.error_bounds is None
+    # 6 digits asked, and met: the exact route at 15 digits (an independent arithmetic) agrees.
+    for key, value in errors(fast, exact).items():
+        assert value <= max(fast.error_bounds[key], 1e-14) and fast.error_bounds[key] <= 1e-6, key
+    # 12 digits: more than this route's bounds promise here, so the exact recursion.
+    (strict,) = canonical(system, ["10"], digits=12, levels=3, grand=False)
+    assert strict.route == "recursion"
+    # Fermions never take it, whatever the digits.
+    (fermions,) = canonical(make_system(1000, preset="trap", rule="FD"), ["30"], digits=6, levels=1, grand=False)
+    assert fermions.route != "float"
 
 
 def test_float_bounds_stay_finite_and_small_for_ten_thousand_bosons_at_high_temperature():

@@ -14,9 +14,11 @@ r"""Ensembles of particles on energy levels: canonical and grand canonical.
   Two other routes serve where the recursion is slow: fermions far below the
   Fermi temperature go through the particle-hole expansion
   (:mod:`.particle_hole`, positive terms in ball arithmetic, chosen
-  automatically), and bosons at scale may take ``route="float"`` (the
-  recursion as a mixture of positive terms in double precision with
-  rigorous a-posteriori bounds, :func:`_canonical_float`).  Each point also carries the occupation above
+  automatically), and bosons at scale take the float route (the recursion
+  as a mixture of positive terms in double precision with rigorous
+  a-posteriori bounds, :func:`_canonical_float`): asked for with
+  ``route="float"``, or chosen by ``"auto"`` where the exact recursion would
+  be slower and the bounds meet the digits asked.  Each point also carries the occupation above
   the listed levels, ``⟨δE²⟩`` and the variance of level 0's occupation.
 * :func:`grand_canonical` -- the grand-canonical occupation formulas at the
   chemical potential that gives mean ``N``; :func:`grand_canonical_level_variance`
@@ -700,8 +702,8 @@ def canonical(
         ``"auto"`` (default), ``"recursion"``, ``"particle-hole"`` (FD
         only) or ``"float"`` (BE without capacity: double precision with
         rigorous a-posteriori bounds, see :func:`_canonical_float`; *digits*
-        is then not promised but the bounds are stated in ``error_bounds``):
-        see Notes.
+        is then not promised but the bounds are stated in ``error_bounds``;
+        ``"auto"`` takes it only when they meet *digits*): see Notes.
 
     Returns
     -------
@@ -752,6 +754,17 @@ def canonical(
     to the requested digits where both finish (tests/test_particle_hole.py,
     tests/test_levels_fluctuations.py).
 
+    Bosons (BE without a capacity, route ``"auto"``) take the float route
+    (:func:`_canonical_float`) when at most :data:`FLOAT_MAX_DIGITS` digits
+    are asked and the exact recursion's estimated time is at least four
+    times the float route's (:func:`_float_pays`: 10^4 bosons in the 3D trap
+    from about ``k_B T = 6`` spacings up, where the recursion takes seconds
+    to minutes), and keep it only when every bound (``ln Z`` through ``F``,
+    ``U``, ``U - E_0``, ``C``, ``S``, the occupations and the level-0
+    variance) is within ``10^-digits`` relative; otherwise the exact
+    recursion runs.  The point then says ``route="float"`` and carries its
+    ``error_bounds``.
+
     Cost per temperature: ``O(M(N) log N)`` integer work for the recursion
     (``M``: one FLINT product of length ``N``), plus ``O(N)`` mpmath
     operations per reported level (fewer for BE, whose sums stop once
@@ -780,6 +793,10 @@ def canonical(
         floated = None
         if route == "float":
             floated = _canonical_float(system, temperature, count)
+        elif route == "auto" and _float_pays(system, temperature, digits, count):
+            floated = _canonical_float(system, temperature, count)
+            if not _float_meets(floated[6]["all_bounds"], digits):
+                floated = None  # the bounds fall short of the digits asked: the exact recursion below
         if floated is not None:
             lnZ, U, C, F, S, occ, extras = floated
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
@@ -822,6 +839,10 @@ _U53 = 2.0**-53
 #: Absolute slack added to every bound of the float route: it covers the values that fall below the
 #: normal range of doubles (each then errs by at most ``2^-1000`` absolutely, far below any result).
 _FLOAT_TINY = 2.0**-900
+
+#: Most digits the float route is tried for on route ``"auto"`` (its bounds are never below ``N u``).
+FLOAT_MAX_DIGITS = 12
+
 
 def _gamma(j: int) -> float:
     """Higham's ``γ_j = j u / (1 - j u)`` for double precision."""
@@ -1184,6 +1205,37 @@ def _canonical_float(system: System, temperature: Fraction, count: int):
         extras["bounds"] = {k: v * scale for k, v in bounds.items()}
         extras["all_bounds"] = {k: v * scale for k, v in {**bounds, **more}.items()}
         return +lnZ, +U, +C, -T * lnZ, lnZ + U / T, tuple(occ), extras
+
+
+def _float_meets(bounds: Dict[str, float], digits: int) -> bool:
+    """Whether every bound of a float point (:func:`_canonical_float`) is within ``10^-digits``.
+
+    ``ln Z`` is held to ``digits`` significant digits through the free
+    energy's relative bound, the rest relative as they stand.
+    """
+    tol = 10.0 ** -digits
+    return all(value <= tol for key, value in bounds.items() if key != "ln_partition_function")
+
+
+def _float_pays(system: System, temperature: Fraction, digits: int, count: int) -> bool:
+    """Whether route ``"auto"`` tries the float route first (it keeps it only when its bounds meet *digits*).
+
+    Bosons (BE without a capacity, at least one particle), at most
+    :data:`FLOAT_MAX_DIGITS` digits asked, and the exact recursion's estimated
+    time (:func:`_recursion_cost`) at least four times the float route's
+    (:func:`_float_cost`).
+    """
+    if system.rule is not Rule.BE or system.capacity is not None or system.particles == 0:
+        return False
+    if digits > FLOAT_MAX_DIGITS:
+        return False
+    spectrum = system.spectrum
+    if count > len(spectrum.energies):
+        spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
+    n = system.particles
+    bits = math.ceil(digits * math.log2(10)) + 8 + 2 * (n + 1).bit_length() + 16
+    exact = _recursion_cost(System(spectrum, n, system.rule, system.capacity), spectrum, temperature, bits, True)
+    return exact.seconds >= 4 * _float_cost(spectrum, n, count).seconds
 
 
 def _particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:
