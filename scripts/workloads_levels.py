@@ -11,8 +11,20 @@
 * ``levels-bosons-10^4-40T``: 10^4 bosons in the 3D trap at 40 temperatures
   ``0.5..40`` (``--quick``: 1200 bosons at 4 temperatures): ``route="float"`` (the positive
   recursion in double precision with rigorous bounds) against the exact
-  fixed-point recursion (the default route), estimated from fewer particles
-  when too slow.  The answers are compared to 6 significant digits.
+  fixed-point recursion (``route="recursion"``), estimated from fewer
+  particles when too slow.  The answers are compared to 6 significant digits.
+* ``levels-bosons-10^4-40T-auto``: the same 40 temperatures at 6 digits on
+  the default route ``"auto"``, which takes the float route where the exact
+  recursion is slow and the float route's proved bounds meet the 6 digits
+  (``--quick``: 1200 bosons at 4 temperatures), against the float route at
+  every temperature and against the exact recursion at every temperature
+  (the previous default, here at 15 digits so that its rounding to 6 is
+  exact; estimated from fewer particles when too slow: at 10^4 bosons it
+  takes minutes, so the ratio is against the float route).
+* ``levels-bosons-10^4-3T-auto``: the same at ``k_B T = 0.5, 10, 20``
+  spacings only, where the exact recursion (15 digits) finishes within the
+  bench's limit (about 1, 4 and 15 s at 10^4 bosons), so the ratio is
+  against it (``--quick``: 1200 bosons).
 """
 
 from __future__ import annotations
@@ -85,15 +97,87 @@ def register(bench) -> None:
             return _rounded(run(n, "float"))
 
         def exact(size=n):
-            return _rounded(run(size, "auto"))
+            return _rounded(run(size, "recursion"))
 
         def scaled(s):
             size = max(50, int(n * s))
             return lambda: exact(size)
 
         return ctx.compare(Method("enumerator (route float)", ours),
-                           [Method("exact fixed-point recursion (default route)", exact, scaled=scaled,
+                           [Method("exact fixed-point recursion", exact, scaled=scaled,
                                    normalise=lambda x: x)],
                            items=len(temps),
                            notes=[f"{n} bosons, {len(temps)} temperatures; answer: U, C, S and three "
                                   "occupations per temperature, 6 digits"])
+
+    @bench.workload("levels-bosons-10^4-40T-auto",
+                    "canonical 10^4 bosons in the 3D trap at 40 temperatures (quick: 4), 6 digits: default "
+                    "route auto vs the float route and the exact recursion at every temperature",
+                    target=bench.at_most(1.5))
+    def _bosons_auto(ctx):
+        from enumerator.algorithms.levels import canonical, make_system, parse_temperatures
+
+        temps = parse_temperatures("0.5..40:4" if ctx.quick else "0.5..40:40")
+        n = 1200 if ctx.quick else 10_000
+
+        def run(size, route, digits=6):
+            system = make_system(size, preset="trap", rule="BE")
+            return canonical(system, temps, digits=digits, levels=3, grand=False, route=route)
+
+        routes = {}
+
+        def ours():
+            points = run(n, "auto")
+            routes["float"] = sum(p.route == "float" for p in points)
+            return _rounded(points)
+
+        def floated():
+            return _rounded(run(n, "float"))
+
+        def exact(size=n):
+            # 15 digits, so that its 6-digit rounding is the true one (its integers are sized by ln Z
+            # far more than by the digits: about as fast as at 6)
+            return _rounded(run(size, "recursion", 15))
+
+        def scaled(s):
+            size = max(50, int(n * s))
+            return lambda: exact(size)
+
+        result = ctx.compare(Method("enumerator (route auto, 6 digits)", ours),
+                             [Method("float route at every temperature", floated, normalise=lambda x: x),
+                              Method("exact fixed-point recursion at every temperature (previous default)",
+                                     exact, scaled=scaled, normalise=lambda x: x)],
+                             items=len(temps),
+                             notes=[f"{n} bosons, {len(temps)} temperatures; answer: U, C, S and three "
+                                    "occupations per temperature, 6 digits"])
+        result.notes.append(f"auto took the float route at {routes.get('float', 0)} of {len(temps)} temperatures")
+        return result
+
+    @bench.workload("levels-bosons-10^4-3T-auto",
+                    "canonical 10^4 bosons in the 3D trap at T = 0.5, 10, 20 (quick: 1200 bosons), 6 digits: "
+                    "default route auto vs the exact recursion (the previous default)",
+                    target=bench.faster_by(3))
+    def _bosons_auto_exact(ctx):
+        from enumerator.algorithms.levels import canonical, make_system
+
+        temps = ["0.5", "10", "20"]
+        n = 1200 if ctx.quick else 10_000
+        system = make_system(n, preset="trap", rule="BE")
+        routes = {}
+
+        def ours():
+            points = canonical(system, temps, digits=6, levels=3, grand=False)
+            routes["taken"] = [p.route for p in points]
+            return _rounded(points)
+
+        def exact():
+            return _rounded(canonical(system, temps, digits=15, levels=3, grand=False, route="recursion"))
+
+        result = ctx.compare(Method("enumerator (route auto, 6 digits)", ours),
+                             [Method("exact fixed-point recursion, 15 digits (previous default)", exact,
+                                     normalise=lambda x: x)],
+                             items=len(temps),
+                             notes=[f"{n} bosons at k_B T = {', '.join(temps)}; answer: U, C, S and three "
+                                    "occupations per temperature, 6 digits"])
+        result.notes.append(f"routes taken by auto: {', '.join(routes.get('taken', []))}")
+        return result
