@@ -77,23 +77,34 @@ class Threshold:
         ``"balls"`` or ``"urns"``.
     value : int
         The least value with ``P(event) >= target``.
-    probability : Fraction
-        ``P(event)`` at *value*.
+    probability : Fraction or None
+        ``P(event)`` at *value*; None when it was not computed exactly
+        (``exact_digits`` of :func:`find_threshold`; *bounds* then hold it).
     probability_before : Fraction or None
         ``P(event)`` at ``value - 1`` (None when ``value`` is the smallest
-        value the parameter takes).
+        value the parameter takes, or when it was not computed exactly).
     method : str
         ``"bisection"`` (monotonicity proved) or ``"scan"``.
     evaluations : int
         How many exact probabilities were computed.
+    bounds : tuple of (Fraction, Fraction), optional
+        Set only when the exact probabilities were skipped: rational
+        enclosures ``(lo, hi)`` of ``P(event)`` at *value* and (second
+        entry, or None) at ``value - 1``, proved as in
+        :func:`_proved_no_collision`, relative width below ``1e-20``.
+    digits : int, optional
+        With *bounds*: the estimated decimal digits of each exact
+        probability (numerator or denominator).
     """
 
     vary: str
     value: int
-    probability: Fraction
+    probability: Optional[Fraction]
     probability_before: Optional[Fraction]
     method: str
     evaluations: int
+    bounds: Optional[Tuple[Tuple[Fraction, Fraction], Optional[Tuple[Fraction, Fraction]]]] = None
+    digits: Optional[int] = None
 
 
 def parse_probability(text: Union[str, Fraction, int]) -> Fraction:
@@ -215,7 +226,8 @@ def _no_collision(event: Event) -> int:
 
 def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
                    limit: Optional[int] = None,
-                   probability: Optional[Callable[[UrnModel, Event], Fraction]] = None) -> Threshold:
+                   probability: Optional[Callable[[UrnModel, Event], Fraction]] = None,
+                   exact_digits: Optional[int] = None) -> Threshold:
     """Return the least value of the free parameter at which ``P(event) >= target``.
 
     Parameters
@@ -238,6 +250,13 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
     probability : callable, optional
         ``f(model, event) -> Fraction``; default
         :func:`~enumerator.algorithms.events.event_probability`.
+    exact_digits : int, optional
+        When the answer is located by proved bounds (the no-collision
+        searches) and its exact probabilities would have more than this many
+        digits, they are not computed: the answer carries rational
+        enclosures instead (``Threshold.bounds``), at a cost independent of
+        their size, and nothing is refused for their size.  Default None:
+        always exact.
 
     Returns
     -------
@@ -310,6 +329,10 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
         if guess is not None:
             proved = _proved_no_collision(model, vary, node, goal, guess)
             if proved is not None and probability is None:
+                if exact_digits is not None:
+                    bounded = _bounded_threshold(model, vary, proved, start, exact_digits)
+                    if bounded is not None:
+                        return bounded
                 _check_exact_pair(model, vary, node, goal, proved)
             return _gallop(vary, start, highest, goal, p, lambda: evaluations, proved or guess)
         return _bisect(vary, start, highest, goal, p, lambda: evaluations)
@@ -589,6 +612,71 @@ def exact_pair_cost(model: UrnModel, vary: str, value: int) -> Tuple[Cost, int]:
     text = 4 * limits.product_seconds(bits) * math.log2(bits)
     digits = int(bits * math.log10(2)) + 1
     return Cost(seconds=2 * tree + 4 * text, memory=8 * bigint_bytes(bits)), digits
+
+
+def _probability_enclosure(model: UrnModel, vary: str, value: int) -> Optional[Tuple[Fraction, Fraction]]:
+    r"""Rational bounds on ``P(event)`` at *value* for the no-collision searches, relative width below ``1e-20``.
+
+    From the bounds ``[a, b]`` on ``ln P(max <= 1)`` (:func:`_log_none_bounds`,
+    up to 64 series terms), ``P(none)`` lies in ``[e^a, e^b]`` and, varying
+    the balls (the collision event), ``P(event) = 1 - P(none)``.  The
+    exponentials are taken in mpmath's interval arithmetic (outward
+    rounding), with ``96 + log2(1/|b|)`` bits so that ``1 - e^b`` keeps its
+    digits when the probability is tiny.  None when the series do not apply
+    (``2(n-1) > r``) or do not reach the width.  Cost: ``O(K^2)`` rational
+    operations on numbers of ``O(K log r)`` bits; independent of the size of
+    the exact probability.
+    """
+    from mpmath import iv
+
+    def fraction(raw) -> Fraction:
+        sign, man, exp, _ = raw
+        v = Fraction(man) * Fraction(2) ** exp
+        return -v if sign else v
+
+    n, r = (value, model.urns) if vary == "balls" else (model.balls, value)
+    for K in (16, 32, 64):
+        log_none = _log_none_bounds(model.rule.value, n, r, K)
+        if log_none is None:
+            return None
+        a, b = log_none
+        if b == 0:
+            return (Fraction(0), Fraction(0)) if vary == "balls" else (Fraction(1), Fraction(1))
+        prec = 96 + max(0, -math.floor(math.log2(-b)))
+        saved = iv.prec
+        try:
+            iv.prec = prec
+            low = iv.exp(iv.mpf(a.numerator) / iv.mpf(a.denominator))
+            high = iv.exp(iv.mpf(b.numerator) / iv.mpf(b.denominator))
+            none_lo, none_hi = fraction(low._mpi_[0]), fraction(high._mpi_[1])
+        finally:
+            iv.prec = saved
+        lo, hi = (1 - none_hi, 1 - none_lo) if vary == "balls" else (none_lo, min(none_hi, Fraction(1)))
+        if lo > 0 and hi - lo <= lo * Fraction(1, 10 ** 20):
+            return max(lo, Fraction(0)), hi
+    return None
+
+
+def _bounded_threshold(model: UrnModel, vary: str, value: int, start: int,
+                       exact_digits: int) -> Optional[Threshold]:
+    """The answer at a proved *value* with enclosures instead of exact probabilities, when those are too long.
+
+    None (compute exactly) when the exact probabilities have at most
+    *exact_digits* digits, or when an enclosure cannot be made narrow
+    enough (:func:`_probability_enclosure`).
+    """
+    _, digits = exact_pair_cost(model, vary, value)
+    if digits <= exact_digits:
+        return None
+    here = _probability_enclosure(model, vary, value)
+    if here is None:
+        return None
+    before = None
+    if value - 1 >= start:
+        before = _probability_enclosure(model, vary, value - 1)
+        if before is None:
+            return None
+    return Threshold(vary, value, None, None, "bisection", 0, bounds=(here, before), digits=digits)
 
 
 def _check_exact_pair(model: UrnModel, vary: str, node: Event, goal: Fraction, value: int) -> None:

@@ -21,7 +21,7 @@ from .options import (
     count_parser,
     limits_scope,
 )
-from .render import approx, emit_json, exact, plural, show_table
+from .render import SPILL_DIGITS, approx, emit_json, exact, plural, show_table
 
 __all__ = ["commands"]
 
@@ -107,7 +107,11 @@ def threshold_command(
     urn), FD with equal weights and no lower bound.  Varying the urns, it is
     proved for the collision events (max <= 1, max >= 2 and the like) on
     equal unbounded urns under MB or BE.  "method" in the output says which
-    search ran.
+    search ran.  For the collision events on equal free urns the answer is
+    located by proved rational bounds on ln P(no collision), so only the two
+    exact probabilities remain: a table computes them only up to 10,000
+    digits and otherwise shows them rounded from the bounds (--json always
+    computes them exactly; for 64-bit IDs at 1e-6 that is minutes).
 
     Example:
 
@@ -141,7 +145,10 @@ def threshold_command(
                 notes.append("--urns is what --vary urns searches; the value given is not used")
             model = build_model(balls, 1 if urns is None and bounds is None and weights is None else urns,
                                 rule, capacity, minimum, bounds, weights)
-        found = find_threshold(model, kind, event, target, limit=limit)
+        # a table does not write probabilities beyond SPILL_DIGITS digits, so it
+        # need not compute them where proved bounds locate the answer
+        found = find_threshold(model, kind, event, target, limit=limit,
+                               exact_digits=None if as_json else SPILL_DIGITS)
     for text in notes:  # after the answer is found: an error stays one line
         _note(text)
     before = found.probability_before
@@ -159,18 +166,53 @@ def threshold_command(
         )
         return
     fixed = plural(model.urns, "urn") if kind == "balls" else plural(model.balls, "ball")
-    digits = _separating_digits(target, found.probability, before)
-    rows = [
-        [f"{kind} = {found.value}", found.probability, f"{approx(found.probability):.{digits}g}"],
-    ]
-    if before is not None:
-        rows.insert(0, [f"{kind} = {found.value - 1}", before, f"{approx(before):.{digits}g}"])
+    if found.bounds is not None:
+        rows, how = _bounded_rows(kind, found, target), "located by proved bounds"
+    else:
+        digits = _separating_digits(target, found.probability, before)
+        rows = [
+            [f"{kind} = {found.value}", found.probability, f"{approx(found.probability):.{digits}g}"],
+        ]
+        if before is not None:
+            rows.insert(0, [f"{kind} = {found.value - 1}", before, f"{approx(before):.{digits}g}"])
+        how = f"{found.evaluations} evaluations"
     show_table(
         f"Least {kind} with P({event}) >= {exact(target)}: {found.value} "
-        f"({model.rule.value}, {fixed}; {found.method}, {found.evaluations} evaluations)",
+        f"({model.rule.value}, {fixed}; {found.method}, {how})",
         [kind, "P(event) (exact)", "approx"],
         rows,
     )
+    if found.bounds is not None:
+        import sys
+
+        sys.stdout.write(_bounded_note(found))
+
+
+def _bounded_rows(kind: str, found, target) -> list:
+    """Table rows of an answer whose exact probabilities were too long to compute for a table.
+
+    The approximate column is the midpoint of the proved enclosure (relative
+    width below 1e-20, so every digit shown is right); the exact column
+    shows the same rounded value (:func:`_bounded_note` says why the
+    fractions were not computed).
+    """
+    from .render import scientific
+
+    here, before = found.bounds
+    value = sum(here) / 2
+    previous = None if before is None else sum(before) / 2
+    digits = _separating_digits(target, value, previous)
+    rows = [[f"{kind} = {found.value}", f"≈ {scientific(value)}", f"{approx(value):.{digits}g}"]]
+    if previous is not None:
+        rows.insert(0, [f"{kind} = {found.value - 1}", f"≈ {scientific(previous)}",
+                        f"{approx(previous):.{digits}g}"])
+    return rows
+
+
+def _bounded_note(found) -> str:
+    """The line under a table of :func:`_bounded_rows`."""
+    return (f"The exact probabilities are fractions of about {found.digits:,} digits each, more than a table "
+            "writes, so they were not computed; --json computes and writes them.\n")
 
 
 def _separating_digits(target, probability, before) -> int:
