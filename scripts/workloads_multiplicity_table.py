@@ -15,6 +15,12 @@
   row (:func:`enumerator.algorithms.levels.multiplicities` for each ``n``,
   the route the MB table took before).  ``--quick``: 300 particles,
   ``E <= 150``.
+* ``levels-row-trap-bosons-300-E600-modular``: one row ``Ω(300, E)``,
+  ``E <= 600``, of bosons in the 3D trap by evaluation modulo primes (the
+  route taken when the recursion's table does not fit the memory limit),
+  against the particle-number recursion over the excited rows; the notes
+  give each route's peak resident memory in a child process.  ``--quick``:
+  80 bosons, ``E <= 160``.
 """
 
 from __future__ import annotations
@@ -93,3 +99,46 @@ def register(bench) -> None:
                            items=cells,
                            notes=[f"answer: the {cells:,} multiplicities (digest: each row's total and "
                                   "its count at the top energy)"])
+
+    @bench.workload("levels-row-trap-bosons-300-E600-modular",
+                    "Omega(300, E) for bosons in the 3D trap, E <= 600 (quick: 80, E <= 160): evaluation "
+                    "modulo primes vs the particle-number recursion, with each route's peak memory",
+                    target=bench.faster_by(0.5))
+    def _modular_row(ctx):
+        import importlib
+
+        from enumerator.algorithms.levels import System, harmonic_trap
+
+        mult = importlib.import_module("enumerator.algorithms.levels.multiplicities")
+        particles, top = (80, 160) if ctx.quick else (300, 600)
+        system = System.create(harmonic_trap(), particles, "BE")
+        bits = mult._plan(system, top).bits
+
+        def digest(values):
+            return (sum(values), values[-1])
+
+        def ours():
+            return digest(mult._modular_row(system, top, bits))
+
+        def recursion():
+            return digest(mult.series.coefficients(mult._excited_recursion(system, particles, top), top))
+
+        code = (
+            "import importlib, json, sys\n"
+            "from enumerator.algorithms.levels import System, harmonic_trap\n"
+            "mult = importlib.import_module('enumerator.algorithms.levels.multiplicities')\n"
+            "n, e, route = int(sys.argv[1]), int(sys.argv[2]), sys.argv[3]\n"
+            "s = System.create(harmonic_trap(), n, 'BE')\n"
+            "if route == 'modular':\n"
+            "    mult._modular_row(s, e, mult._plan(s, e).bits)\n"
+            "else:\n"
+            "    mult._excited_recursion(s, n, e)\n"
+            "print(json.dumps({}))\n"
+        )
+        peaks = {route: bench.child_peak(code, particles, top, route)[1] for route in ("modular", "recursion")}
+        return ctx.compare(Method("enumerator multiplicities (modular route)", ours),
+                           [Method("particle-number recursion", recursion)],
+                           items=top + 1,
+                           notes=[f"peak RSS (child, interpreter included): modular {peaks['modular']:.0f} MB, "
+                                  f"recursion {peaks['recursion']:.0f} MB",
+                                  "answer: the row's total and its count at the top energy"])

@@ -9,18 +9,22 @@ C(E + dn - 1, E)`` ways (stars and bars, common practice: the Einstein solid
 of any statistical mechanics textbook), and on two levels ``0, 1``
 ``C(n, E)`` ways (the two-state paramagnet, common practice).  The MB table
 is also checked against the route it took before: one row at a time
-(:func:`multiplicities` for each ``n``).
+(:func:`multiplicities` for each ``n``); the single row's modular route
+(evaluation modulo primes) against brute force and against the
+particle-number recursion.
 """
 
 from __future__ import annotations
 
 import importlib
 import itertools
+import json
 import math
 from collections import Counter
 from fractions import Fraction
 
 import pytest
+from cli_helpers import run
 from reference import level_microstates
 
 from enumerator.algorithms.levels import (
@@ -170,3 +174,95 @@ def test_mb_table_rows_are_produced_one_at_a_time():
     # three states: Omega(1, E) = 1 for E = 0, 1, 2 (brute force: one particle, one state each)
     assert next(rows) == {e: int(e <= 2) for e in range(11)}
     assert len(list(itertools.islice(rows, 100))) == 49
+
+
+# --------------------------------------------------------------------------
+# One row, Omega(N, E) for every E: evaluation modulo primes
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    "energies, degeneracies, n, rule, capacity, top",
+    [
+        ("0,1,2,5", "1,2,4,1", 4, "BE", None, 9),  # one ground state, N below the excited rows
+        ("0,1,2,5", "3,2,4,1", 4, "BE", None, 8),  # G_j = C(j + 2, 2)
+        ("0,1,2,5", "3,2,4,1", 5, "FD", None, 10),  # G = (1 + x)^3
+        ("0,1,3", "2,2,3", 5, "BE", 2, 9),  # Gentile: at most 2 per state
+        ("0,2,3", "1,2,1", 4, "BE", None, 11),  # the gap 2: K = 5 points
+        ("-1,1/2,2", "2,2,2", 4, "BE", None, "5/2"),  # negative and rational energies
+    ],
+)
+def test_modular_row_matches_brute_force(energies, degeneracies, n, rule, capacity, top):
+    # Brute force: every multiset / set of single-particle states (tests/reference.py)
+    spectrum = make_spectrum(energies, degeneracies)
+    system = System.create(spectrum, n, rule, capacity)
+    top_units = mult._to_units(top, spectrum.unit)
+    degree = top_units - n * spectrum.lowest
+    plan = mult._plan(system, degree)
+    coeffs = mult._modular_row(system, degree, plan.bits)
+    expected = brute_force_row(spectrum, n, rule, top_units, capacity if rule == "BE" else None)
+    low = min(expected)
+    shift = n * spectrum.lowest
+    assert coeffs[: low - shift] == [0] * (low - shift)
+    assert {shift + e: v for e, v in enumerate(coeffs) if shift + e >= low} == expected
+    # through the planner: with only the modular route's memory allowed the row takes that route
+    lean = mult._modular_cost(spectrum, degree, mult._ground_and_gap(spectrum)[1], plan.bits)
+    assert mult._plan(system, degree, rows=n + 1).cost.memory > lean.memory  # the recursion's table
+    with limited(memory=lean.memory):
+        assert mult._plan(system, degree).route == "modular"
+        assert multiplicities(system, top) == expected
+
+
+@pytest.mark.parametrize("n, top, rule, capacity", [(60, 120, "BE", None), (20, 160, "FD", None),
+                                                    (30, 120, "BE", 3)])
+def test_modular_row_matches_the_recursion_in_the_trap(n, top, rule, capacity):
+    # The particle-number recursion over the excited rows (Newton's identities) is the reference
+    # here, beyond brute force; coefficients of hundreds of bits need several primes.
+    system = System.create(harmonic_trap(), n, rule, capacity)
+    plan = mult._plan(system, top)
+    recursion = mult.series.coefficients(mult._excited_recursion(system, min(n, top), top), top)
+    assert mult._modular_row(system, top, plan.bits) == recursion
+    assert max(recursion).bit_length() > 2 * 31
+
+
+def test_modular_row_takes_more_primes_when_the_bound_falls_short():
+    # A size bound of 1 bit: the first primes cannot hold the answer, the check sees it and takes more.
+    system = System.create(harmonic_trap(), 30, "BE")
+    recursion = mult.series.coefficients(mult._excited_recursion(system, 30, 70), 70)
+    assert max(recursion).bit_length() > 64
+    assert mult._modular_row(system, 70, 1.0) == recursion
+
+
+def test_modular_route_chosen_when_the_recursion_does_not_fit(monkeypatch):
+    # 80 trap bosons up to E = 160: the recursion's table is estimated at about 8 MB; with 1 MB
+    # allowed the planner takes the modular route, and the answer is the recursion's (the reference).
+    system = System.create(harmonic_trap(), 80, "BE")
+    reference = mult.series.coefficients(mult._excited_recursion(system, 80, 160), 160)
+    with limited(memory="1M"):
+        plan = mult._plan(system, 160)
+        assert plan.route == "modular" and plan.cost.memory < 2**20
+        assert mult._plan(system, 160, rows=81).cost.memory > 2**20
+        monkeypatch.setattr(mult, "_partition_polynomials_of", lambda *a, **k: pytest.fail("recursion ran"))
+        row = multiplicities(system, 160)
+    assert row == dict(enumerate(reference))
+    # N >= E bosons on one ground state count the multisets of excited states (coin counting, brute
+    # force), here up to E = N = 80.
+    states = [m for m in range(1, 81) for _ in range(math.comb(m + 2, 2))]
+    ways = [1] + [0] * 80
+    for e in states:
+        for energy in range(e, 81):
+            ways[energy] += ways[energy - e]
+    assert [row[e] for e in range(81)] == ways
+
+
+def test_levels_cli_takes_the_modular_route_within_a_small_memory_limit():
+    # The CLI's multiplicities under a memory limit that only the modular route meets: the
+    # recursion's values (the reference); and a refusal in one line when no route fits.
+    system = System.create(harmonic_trap(), 80, "BE")
+    reference = mult.series.coefficients(mult._excited_recursion(system, 80, 160), 160)
+    args = ("levels", "--preset", "trap", "--particles", 80, "--rule", "BE", "--max-energy", 160,
+            "--max-memory", "1M")
+    result = run(*args, "--json")
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["multiplicity"] == {str(e): str(v) for e, v in enumerate(reference)}
+    refused = run(*args, "--max-seconds", "0.001")
+    assert refused.exit_code == 2 and len(refused.stderr.strip().splitlines()) == 1, refused.output
+    assert "--max-seconds" in refused.stderr
