@@ -184,6 +184,7 @@ def test_mb_table_rows_are_produced_one_at_a_time():
     [
         ("0,1,2,5", "1,2,4,1", 4, "BE", None, 9),  # one ground state, N below the excited rows
         ("0,1,2,5", "3,2,4,1", 4, "BE", None, 8),  # G_j = C(j + 2, 2)
+        ("0,1,2,5", "3,2,4,1", 9, "BE", None, 5),  # N above the 6 rows: G_{N-m} weighs every row
         ("0,1,2,5", "3,2,4,1", 5, "FD", None, 10),  # G = (1 + x)^3
         ("0,1,3", "2,2,3", 5, "BE", 2, 9),  # Gentile: at most 2 per state
         ("0,2,3", "1,2,1", 4, "BE", None, 11),  # the gap 2: K = 5 points

@@ -239,9 +239,10 @@ _TABLE_COPIES = 4
 _TABLE_OVERHEAD = 120
 #: The modular route (:func:`_modular_row`) works modulo primes below
 #: ``2^32``, so that a product of two residues fits NumPy's unsigned 64-bit
-#: words; it evaluates at most this many points per prime.
+#: words; it evaluates at most this many points per prime (so that primes
+#: ``≡ 1`` modulo the number of points below ``2^32`` are plentiful).
 _MODULAR_PRIME_BITS = 32
-_MODULAR_MAX_POINTS = 2**20
+_MODULAR_MAX_POINTS = 2**16
 #: Seconds of one truncated exponential modulo a word-sized prime, per
 #: ``D log2 D`` (times ``max(1, D/2000)``: FLINT's products leave the cache),
 #: and per term of the logarithm and per coefficient of one evaluation (NumPy
@@ -420,7 +421,9 @@ def _plan(system: System, degree: int, rows: Optional[int] = None) -> _Plan:
     plan = _Plan(route, degree, top, bits, Cost(seconds, int(memory)))
     if route == "recursion" and rows is None and top >= 2 and degree // gap < _MODULAR_MAX_POINTS:
         # the same row by evaluation modulo primes: little memory, about as fast
-        modular = _Plan("modular", degree, top, bits, _modular_cost(system.spectrum, degree, gap, bits))
+        # the primes must hold Ω(N, E) itself: with g0 > 1 and N > top the bound of the rows is short
+        whole = bits if top == n else _coefficient_bits(system, n, degree)
+        modular = _Plan("modular", degree, top, whole, _modular_cost(system.spectrum, degree, gap, whole))
         limits = active_limits()
 
         def fits(p: _Plan) -> bool:
