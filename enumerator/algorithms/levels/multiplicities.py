@@ -420,9 +420,10 @@ def _plan(system: System, degree: int, rows: Optional[int] = None) -> _Plan:
         memory = cells * (_CELL_COPIES * bits / 8 + _CELL_OVERHEAD)
     plan = _Plan(route, degree, top, bits, Cost(seconds, int(memory)))
     if route == "recursion" and rows is None and top >= 2 and degree // gap < _MODULAR_MAX_POINTS:
-        # the same row by evaluation modulo primes: little memory, about as fast
-        # the primes must hold Ω(N, E) itself: with g0 > 1 and N > top the bound of the rows is short
-        whole = bits if top == n else _coefficient_bits(system, n, degree)
+        # the same row by evaluation modulo primes: little memory, about as fast.  Its primes must
+        # hold Ω(N, E) itself (with g0 > 1 and N > top the rows' bound is short; past 10^9 cells
+        # the bound above is a placeholder)
+        whole = bits if top == n and cells <= 10**9 else _coefficient_bits(system, n, degree)
         modular = _Plan("modular", degree, top, whole, _modular_cost(system.spectrum, degree, gap, whole))
         limits = active_limits()
 
