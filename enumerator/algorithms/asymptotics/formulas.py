@@ -238,6 +238,20 @@ def empty_mean_cost(balls: int, urns: int) -> Cost:
     return Cost(seconds=3 * limits.product_seconds(bits), memory=4 * limits.bigint_bytes(bits))
 
 
+def _exclusion_seconds(n: int, r: int, j: int) -> float:
+    """Estimated seconds of :func:`_exclusion_sum` (the inclusion–exclusion route)."""
+    top = r - j - 1  # K: the bases k = 1..K
+    if top < 1:
+        return 1e-6
+    bits = max(64.0, n * math.log2(max(r, 2)))
+    primes = top / math.log(top) if top > 2 else 1.0  # about pi(K) full powers P^n, one per prime
+    # measured (loaded machine, 2 cores shared): 10^5 balls in 5*10^4 urns (K = 43,233): 46 s CPU,
+    # 3*10^4: 2.7 s, 10^4: 0.23 s, that is 13, 8.4 and 6.3 products at the rate of core.limits per
+    # prime; 16 per prime keeps the estimate above them.  The per-k coefficient work (a product of
+    # an n-bit-free binomial of about r bits by a short one) is the second term.
+    return primes * 16 * limits.product_seconds(bits) + top * 4 * limits.product_seconds(3.0 * r)
+
+
 def _empty_routes(n: int, r: int, j: int) -> Tuple[float, float, float]:
     """``(bits, stirling_seconds, inclusion_exclusion_seconds)`` of :func:`empty_urns_at_most`."""
     bits = max(64.0, n * math.log2(max(r, 2)))
@@ -246,12 +260,7 @@ def _empty_routes(n: int, r: int, j: int) -> Tuple[float, float, float]:
     low, high = r - min(j, r), min(r, n)  # the k = r - i with S(n, k) != 0
     stirling = 4 * (low + high) * (high - low + 1) / 2 * product if low <= high else 0.0
     stirling += max(0, high - low + 1) * product
-    # (r - j)/2 exact powers o^n of the odd bases (the even ones are shifts) and as many products
-    # by them: measured about eight products at the rate of core.limits per odd base (40,000
-    # balls in 20,000 urns, j = 2706: 3 ms per base of 0.56 Mbit on a loaded machine); plus two
-    # binomials of r bits per term
-    exclusion = max(0, r - j) * (4 * product + 4 * limits.product_seconds(r * 1.0))
-    return bits, stirling, exclusion
+    return bits, stirling, _exclusion_seconds(n, r, j)
 
 
 def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
@@ -269,16 +278,126 @@ def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     Notes
     -----
     The Stirling route costs ``j + 1`` Stirling numbers of about ``min(k, n)``
-    powers each; inclusion–exclusion ``(r - j)/2`` powers ``o^n`` of ``n log2 r``
-    bits (the odd bases; even ones are shifts) and about eight products per
-    odd base, plus two binomials of ``r`` bits per term; each product is
-    rated at :func:`~enumerator.core.limits.product_seconds` of its size.  A
-    handful of such numbers live at once.
+    powers each.  Inclusion–exclusion (:func:`_exclusion_sum`) takes one
+    full power ``P^n`` of ``n log2 r`` bits and about one product of that
+    size per prime ``P <= K = r - j - 1`` (about ``K / ln K`` of them; the
+    rest are products by shorter powers), rated at sixteen products of
+    :func:`~enumerator.core.limits.product_seconds` per prime (measured:
+    6 to 13 on a loaded machine from ``10^4`` to ``10^5`` balls), plus a
+    short product per term for its binomial coefficient.  Memory: a handful
+    of ``n log2 r``-bit numbers, the powers ``Q^n`` of the primes
+    ``Q <= sqrt(K)`` (half that size each on average), and one
+    ``3r``-bit coefficient per 64 bases.
     """
     if at >= urns:
         return Cost(seconds=1e-6, memory=64)
     bits, stirling, exclusion = _empty_routes(balls, urns, at)
-    return Cost(seconds=min(stirling, exclusion), memory=8 * limits.bigint_bytes(bits))
+    top = max(0, urns - at - 1)
+    root = math.isqrt(top)
+    small = root / math.log(root) if root > 2 else 1.0
+    memory = (8 + small / 2) * limits.bigint_bytes(bits) + (top // 64 + 1) * limits.bigint_bytes(3.0 * urns)
+    return Cost(seconds=min(stirling, exclusion), memory=memory)
+
+
+def _smallest_factor_table(top: int):
+    """``lpf[k]`` for ``0 <= k <= top``: the smallest prime factor of ``k`` (``k`` itself for a prime, 1 for 1)."""
+    spf = list(range(top + 1))
+    for p in range(2, math.isqrt(top) + 1):
+        if spf[p] == p:
+            for q in range(p * p, top + 1, p):
+                if spf[q] == q:
+                    spf[q] = p
+    return spf
+
+
+def _exclusion_sum(n: int, r: int, j: int):
+    """``sum_{k=1}^{K} (-1)^(r-k+j) c_k k^n`` with ``c_k = C(r, k) C(r-k-1, j)`` and ``K = r - j - 1``, exact.
+
+    Notes
+    -----
+    ``k -> k^n`` is completely multiplicative, so the terms are summed by
+    Horner's rule along the tree of factorisations: node ``m`` stands for the
+    ``k = m k'`` whose cofactor ``k'`` has no prime above the smallest prime
+    of ``m``, and ``V(m) = ±c_m + sum_Q Q^n V(mQ)`` over the primes ``Q`` up to
+    that prime and to ``K/m``.  The root's children are all primes
+    ``P <= K``; each costs one power ``P^n`` and one product by ``V(P)``
+    (about ``K / ln K`` of them, instead of ``K/2`` odd powers).  Below the
+    root only primes ``Q <= sqrt(K)`` occur, and their powers are taken
+    once; ``Q = 2`` is a shift.  ``c_k = r C(r-1, j) C(K, k) / (r - k)`` is
+    read from the nearest of the values ``r C(r-1, j) C(K, 64 i)`` by one
+    short product and one exact division.  Source of the sum: W. Feller,
+    vol. 1, 3rd ed., 1968, §IV.2; Horner's rule: D. E. Knuth, *The Art of
+    Computer Programming*, vol. 2, 3rd ed., 1997, §4.6.4.
+    """
+    mpz = gmpy2.mpz
+    top = r - j - 1
+    if top < 1:
+        return mpz(0)
+    step = 64
+    scaled = r * gmpy2.comb(r - 1, j)  # r C(r-1, j) = r! / (j! K!)
+    marks = [scaled]
+    for base in range(0, top - step + 1, step):  # r C(r-1, j) C(K, base + step), one step at a time
+        marks.append(gmpy2.divexact(marks[-1] * math.prod(range(top - base - step + 1, top - base + 1)),
+                                    math.prod(range(base + 1, base + step + 1))))
+
+    def coefficient(k):
+        mark = min((k + step // 2) // step, len(marks) - 1)
+        base = mark * step
+        if k >= base:  # C(K, k) = C(K, base) (K-base)...(K-k+1) / ((base+1)...k)
+            up, down = math.prod(range(top - k + 1, top - base + 1)), math.prod(range(base + 1, k + 1))
+        else:  # C(K, k) = C(K, base) (k+1)...base / ((K-base+1)...(K-k))
+            up, down = math.prod(range(k + 1, base + 1)), math.prod(range(top - base + 1, top - k + 1))
+        c = gmpy2.divexact(marks[mark] * up, down * (r - k))
+        return -c if (r - k + j) & 1 else c
+
+    spf = _smallest_factor_table(top)
+    root = math.isqrt(top)
+    small = [q for q in range(2, root + 1) if spf[q] == q]
+    power = {q: mpz(q) ** n for q in small if q > 2}
+
+    def node(m, largest):
+        value = coefficient(m)
+        bound = min(largest, top // m)
+        for q in small:
+            if q > bound:
+                break
+            below = node(m * q, q)
+            value += below << n if q == 2 else below * power[q]
+        return value
+
+    total = coefficient(1)
+    for q in small:
+        below = node(q, q)
+        total += below << n if q == 2 else below * power[q]
+    for p in range(root + 1, top + 1):
+        if spf[p] == p:
+            total += node(p, p) * mpz(p) ** n
+    return total
+
+
+def _exclusion_sum_by_odd_parts(n: int, r: int, j: int):
+    """The same sum as :func:`_exclusion_sum`, one power ``o^n`` per odd ``o <= K`` (the earlier route).
+
+    Kept as the peer of the benchmark and the tests: the terms of one odd
+    part ``o`` (``k = 2^a o``) are summed with shifts and multiplied once by
+    ``o^n``; each coefficient is two binomials from scratch.
+    """
+    mpz = gmpy2.mpz
+    top = r - j - 1
+
+    def coefficient(k):
+        c = gmpy2.comb(r, k) * gmpy2.comb(r - k - 1, j)
+        return -c if (r - k + j) & 1 else c
+
+    total = mpz(0)
+    for odd in range(1, top + 1, 2):
+        inner = coefficient(odd)
+        k, shift = 2 * odd, n
+        while k <= top:
+            inner += coefficient(k) << shift
+            k, shift = 2 * k, shift + n
+        total += inner if odd == 1 else inner * mpz(odd) ** n
+    return total
 
 
 def empty_urns_at_most(balls, urns, at) -> Fraction:
@@ -317,9 +436,11 @@ def empty_urns_at_most(balls, urns, at) -> Fraction:
       C(r, m) (1 - m/r)^n``, summed over ``i <= j`` with
       ``sum_{i<=j} (-1)^i C(m, i) = (-1)^j C(m-1, j)``:
       ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n``.
-      With ``k = r - m = 2^a o`` (``o`` odd), ``k^n = o^n 2^{an}``: the
-      terms of one odd part are summed with shifts and multiplied once by
-      ``o^n``, so only ``(r - j)/2`` exact powers are taken (gmpy2).
+      With ``k = r - m``, the terms are summed by Horner's rule along the
+      factorisations of ``k`` (:func:`_exclusion_sum`): one full power
+      ``P^n`` per prime ``P <= r - j - 1`` (about ``(r-j)/ln(r-j)`` of
+      them), the other ``k^n`` assembled from them and from the powers of
+      the primes up to ``sqrt(r - j)`` (gmpy2).
 
     The cheaper route by :func:`empty_urns_cost` is taken.  The sum is
     divided by ``r^n`` removing only the primes of ``r``
@@ -347,20 +468,8 @@ def empty_urns_at_most(balls, urns, at) -> Fraction:
             total += gmpy2.comb(r, i) * gmpy2.fac(occupied) * mpz(int(fmpz.stirling_s2(n, occupied)))
     else:
         # k = r - m runs over 1..r-j-1: the coefficient of k^n is (-1)^(r-k+j) C(r, k) C(r-k-1, j)
-        top = r - j - 1
-
-        def coefficient(k):
-            c = gmpy2.comb(r, k) * gmpy2.comb(r - k - 1, j)
-            return -c if (r - k + j) & 1 else c
-
-        total = mpz(r) ** n
-        for odd in range(1, top + 1, 2):
-            inner = coefficient(odd)
-            k, shift = 2 * odd, n
-            while k <= top:
-                inner += coefficient(k) << shift
-                k, shift = 2 * k, shift + n
-            total += inner if odd == 1 else inner * mpz(odd) ** n
+        total = mpz(r) ** n + _exclusion_sum(n, r, j)
         if n == 0:  # the term k = 0 (m = r) is 0^0 = 1
-            total += coefficient(0)
+            zero = gmpy2.comb(r - 1, j)
+            total += -zero if (r + j) & 1 else zero
     return over_prime_power(total, mpz(r) ** n, power_primes(r, n))
