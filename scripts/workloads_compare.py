@@ -17,7 +17,16 @@
   side (inclusion–exclusion with binomials from scratch and a CPython
   ``Fraction``).  ``--quick``: to ``10^4``.
 
-In ``--quick`` mode both report plain seconds: estimating the earlier exact
+* ``empty-law-point-10^5``: one point of that sweep, ``P(E <= j)`` for
+  ``n = 10^5`` balls in ``r = n/2`` urns, ``j = floor(r e^{-2})``, through
+  :func:`enumerator.algorithms.asymptotics.formulas.empty_urns_at_most`
+  (inclusion-exclusion by Horner's rule along the factorisations of the
+  bases, one power per prime), against the same law by the earlier route
+  (one power ``o^n`` per odd base ``o``, two binomials per term,
+  ``formulas._exclusion_sum_by_odd_parts``), the same final division.
+  ``--quick``: ``n = 10^4``.
+
+In ``--quick`` mode the two sweeps report plain seconds: estimating the earlier exact
 side alone takes longer than the sweeps themselves.
 """
 
@@ -110,3 +119,37 @@ def register(bench) -> None:
                 else "every point computed")
         result.notes.append(f"10 points up to {top:,} balls; {note}")
         return result
+
+    @bench.workload("empty-law-point-10^5",
+                    "exact P(E <= j), 10^5 balls in 5*10^4 urns, j = floor(r e^-2): inclusion-exclusion with "
+                    "one power per prime base vs one per odd base (the earlier route)",
+                    target=bench.faster_by(1))
+    def _empty_law_point(ctx):
+        import gmpy2
+
+        from enumerator.algorithms.asymptotics import formulas
+        from enumerator.algorithms.counting import over_prime_power, power_primes
+        from enumerator.core.limits import limited
+
+        top = 10**4 if ctx.quick else 10**5
+
+        def point(balls):
+            urns = balls // 2
+            return balls, urns, math.floor(urns * math.exp(-balls / urns))
+
+        def ours(balls):
+            n, r, j = point(balls)
+            with limited(seconds=1e6):
+                return formulas.empty_urns_at_most(n, r, j)
+
+        def earlier(balls):
+            n, r, j = point(balls)
+            whole = gmpy2.mpz(r) ** n
+            return over_prime_power(whole + formulas._exclusion_sum_by_odd_parts(n, r, j), whole,
+                                    power_primes(r, n))
+
+        n, r, j = point(top)
+        return ctx.compare(Method("enumerator empty_urns_at_most (one power per prime base)", lambda: ours(top)),
+                           [Method("earlier route: one power per odd base, binomials from scratch",
+                                   lambda: earlier(top), scaled=lambda s: (lambda: earlier(max(100, int(top * s)))))],
+                           notes=[f"n = {n:,}, r = {r:,}, j = {j:,}: {r - j - 1:,} bases"])
