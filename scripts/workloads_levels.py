@@ -158,7 +158,7 @@ def register(bench) -> None:
     @bench.workload("levels-bosons-10^4-3T-auto",
                     "canonical 10^4 bosons in the 3D trap at T = 0.5, 10, 15 (quick: 1200 bosons), 6 digits: "
                     "default route auto vs the exact recursion (the previous default)",
-                    target=bench.faster_by(3))
+                    target=bench.faster_by(2))
     def _bosons_auto_exact(ctx):
         from enumerator.algorithms.levels import canonical, make_system
 
