@@ -1,0 +1,107 @@
+"""The inclusion–exclusion route of the exact law of empty urns (``formulas._exclusion_sum``).
+
+References, outside the project:
+
+* brute force: every one of the ``r^n`` maps of ``n`` labelled balls to ``r``
+  urns, counted by its number of empty urns (written here);
+* W. Feller, *An Introduction to Probability Theory and Its Applications*,
+  vol. 1, 3rd ed., 1968, §IV.2: ``r^n P(E <= j) = r^n + sum_{m>j} (-1)^{m+j}
+  C(r, m) C(m-1, j) (r-m)^n``, evaluated here term by term with Python
+  integers and ``math.comb``;
+* the same book's other form, ``P(E = i) = C(r, i) (r-i)! S(n, r-i) / r^n``
+  with Stirling numbers from SymPy.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from fractions import Fraction
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from sympy.functions.combinatorial.numbers import stirling
+
+from enumerator import TooLarge
+from enumerator.algorithms.asymptotics import formulas
+from enumerator.core.limits import limited
+
+
+def _feller_sum(n, r, j):
+    """``sum_{m=j+1}^{r} (-1)^{m+j} C(r, m) C(m-1, j) (r-m)^n`` term by term (Feller vol. 1, §IV.2)."""
+    return sum((-1) ** (m + j) * math.comb(r, m) * math.comb(m - 1, j) * (r - m) ** n for m in range(j + 1, r + 1))
+
+
+def _brute_at_most(n, r, j):
+    """``P(E <= j)`` by listing the ``r^n`` maps of labelled balls to urns."""
+    hits = sum(1 for urns in itertools.product(range(r), repeat=n) if r - len(set(urns)) <= j)
+    return Fraction(hits, r**n)
+
+
+def _forced_exclusion(monkeypatch):
+    # (bits, stirling seconds, exclusion seconds): the planner then always takes inclusion-exclusion
+    monkeypatch.setattr(formulas, "_empty_routes", lambda n, r, j: (64.0, 1.0, 0.0))
+
+
+@pytest.mark.parametrize("n,r", [(0, 1), (0, 4), (1, 1), (1, 3), (3, 3), (5, 2), (6, 4), (7, 5), (4, 6), (2, 5)])
+def test_exclusion_route_matches_brute_force(monkeypatch, n, r):
+    _forced_exclusion(monkeypatch)
+    for j in range(0, r + 2):
+        assert formulas.empty_urns_at_most(n, r, j) == _brute_at_most(n, r, j), (n, r, j)
+
+
+@settings(max_examples=150, deadline=None)
+@given(n=st.integers(1, 90), r=st.integers(1, 70), data=st.data())
+def test_sum_matches_feller_term_by_term(n, r, data):
+    # the k = 0 term (m = r) is 0^n = 0 for n >= 1, so both sums have the same terms
+    j = data.draw(st.integers(0, r - 1))
+    assert formulas._exclusion_sum(n, r, j) == _feller_sum(n, r, j), (n, r, j)
+
+
+@pytest.mark.parametrize("n,r,j", [
+    (300, 150, 0), (300, 150, 1), (300, 150, 20), (300, 150, 148), (300, 150, 149),
+    (1000, 500, 67), (1000, 499, 70), (1200, 1500, 400), (800, 64, 3), (2000, 1000, 135),
+    (500, 1000, 600), (97, 97, 0), (5000, 2500, 338),
+])
+def test_sum_matches_feller_medium(n, r, j):
+    # sizes where the Horner tree has many levels (K up to 2161: primes to 2161, cofactors to 46)
+    assert formulas._exclusion_sum(n, r, j) == _feller_sum(n, r, j), (n, r, j)
+
+
+@pytest.mark.parametrize("n,r,j", [(40, 20, 0), (40, 20, 3), (60, 25, 24), (120, 60, 8), (200, 90, 12)])
+def test_law_by_exclusion_matches_stirling_form(monkeypatch, n, r, j):
+    # Feller vol. 1, §IV.2, Stirling numbers of the second kind from SymPy
+    _forced_exclusion(monkeypatch)
+    expected = Fraction(sum(math.comb(r, i) * math.factorial(r - i) * int(stirling(n, r - i)) for i in range(j + 1)),
+                        r**n)
+    assert formulas.empty_urns_at_most(n, r, j) == expected
+
+
+@pytest.mark.parametrize("n,r,j", [(3000, 1500, 203), (4000, 1000, 10), (2500, 3000, 900)])
+def test_new_and_earlier_routes_agree(n, r, j):
+    # the earlier route (one power per odd base, binomials from gmpy2) and Feller's sum term by term
+    new = formulas._exclusion_sum(n, r, j)
+    assert new == formulas._exclusion_sum_by_odd_parts(n, r, j)
+    assert new == _feller_sum(n, r, j)
+
+
+def test_every_j_of_one_law_is_a_distribution(monkeypatch):
+    # P(E <= j) is nondecreasing in j, 0 below r - n empty urns and 1 at j = r (brute force of the support)
+    _forced_exclusion(monkeypatch)
+    n, r = 9, 12
+    law = [formulas.empty_urns_at_most(n, r, j) for j in range(r + 1)]
+    assert all(a <= b for a, b in zip(law, law[1:]))
+    assert law[r - n - 1] == 0 and law[r - n] > 0 and law[r] == 1
+    # n >= 1 balls leave at most r - 1 urns empty, exactly r - 1 when all share one urn: r / r^n
+    assert law[r - 1] == 1 and law[r - 1] - law[r - 2] == Fraction(r, r**n)
+
+
+def test_cost_estimate_grows_with_the_number_of_prime_bases():
+    # one full power per prime P <= r - j - 1: fewer bases, less time; the planner refuses 10^5 at 1 s
+    small = formulas.empty_urns_cost(10**5, 5 * 10**4, 4 * 10**4).seconds
+    large = formulas.empty_urns_cost(10**5, 5 * 10**4, 6766).seconds
+    assert small < large
+    with limited(seconds=1.0):
+        with pytest.raises(TooLarge, match="the exact law of empty urns"):
+            formulas.empty_urns_at_most(10**5, 5 * 10**4, 6766)
