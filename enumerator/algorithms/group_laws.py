@@ -33,7 +33,7 @@ from fractions import Fraction
 from typing import Callable, Dict, Optional
 
 import gmpy2
-from flint import fmpz
+from flint import fmpz, fmpz_poly
 
 from ..core import limits
 from ..core.errors import InvalidParameters
@@ -41,6 +41,7 @@ from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from . import grouped
 from .extremes import mb_max_estimate
+from .group_rows import combine
 
 __all__ = ["marked_moments"]
 
@@ -123,9 +124,7 @@ def _vector_level_cost(groups, n: int, m: int, bits: float) -> Cost:
     if G > 1 and T > 40:
         # at least C(T + G - 1, G - 1) states of rows of about n/2 entries: never the cheaper route
         return Cost(seconds=math.inf, memory=0)
-    ways = [1] + [0] * T
-    for c, _, _, _ in groups:
-        ways = [sum(ways[s - v] for v in range(min(c, s) + 1)) for s in range(T + 1)]
+    ways = _level_ways(groups, T)
     steps = sum(ways[s] * max(0, n - s * (m + 1) - m) for s in range(T + 1)) * (G + 3)
     entries = [ways[s] * (max(0, n - s * (m + 1)) + 1) for s in range(T + 1)] + [0, 0]
     kept = max(entries[s] + entries[s + 1] + entries[s + 2] for s in range(T + 1))
@@ -150,8 +149,20 @@ def _mb_free_capped(groups, n: int, m: int):
     exponential; Flajolet & Sedgewick, *Analytic Combinatorics*, 2009,
     §VII.8).  Level ``t`` is needed up to ``K_t = n - |t|(m+1)``: cost
     :func:`_vector_level_cost`, small when ``m`` is a large part of ``n``
-    (few urns can exceed it), whatever the counts ``c_g``
-    (:func:`_vector_level_cost`).
+    (few urns can exceed it), whatever the counts ``c_g``.
+    """
+    return _mb_free_levels(groups, n, m)[0]
+
+
+def _mb_free_levels(groups, n: int, m: int, extensions: int = 0, whole: bool = False):
+    r"""The levels of :func:`_mb_free_capped` at bound *m*: ``(M_0(n), tails)``.
+
+    For ``extensions = D > 0``, ``tails[t]`` holds ``M_t(K_t - i)`` for
+    ``i < min(K_t + 1, |t| (D - 1) + 1)``, the entries :func:`_mb_free_extend`
+    reads for the bounds ``m + 1 .. m + D``; for ``D = 0`` it is empty.
+    With *whole*, the first item is the whole row ``M_0(0..n)`` (the
+    weighted counts of ``0..n`` balls) instead of ``M_0(n)``.  Cost
+    :func:`_vector_level_cost` (the tails: :func:`_vector_extension_cost`).
     """
     W = sum(c * w for c, _, _, w in groups)
     G = len(groups)
@@ -161,6 +172,7 @@ def _mb_free_capped(groups, n: int, m: int):
         value = divexact(value * (k + 1), k + 1 - m)
         binomials[k + 1 - m] = value
     rows: Dict[tuple, list] = {}
+    tails: Dict[tuple, list] = {}
     layer = None
     for t in _vector_level_states(groups, n, m):
         size = sum(t)
@@ -195,7 +207,81 @@ def _mb_free_capped(groups, n: int, m: int):
                 v = Wt * v - binomials[k - m] * acc
                 row[k + 1] = v
         rows[t] = row
-    return rows[(0,) * G][n]
+        if extensions:
+            take = min(K + 1, size * (extensions - 1) + 1)
+            tails[t] = row[K - take + 1:][::-1]
+    top = rows[(0,) * G]
+    return (top if whole else top[n]), tails
+
+
+def _extension_tails(n: int, m: int, tails: Dict[tuple, list]) -> Dict[tuple, list]:
+    """``{t: [n!/(K_t - i)! M_t(K_t - i)]}`` from the tails of :func:`_mb_free_levels` (what :func:`_mb_free_extend` reads)."""
+    out = {}
+    start: Dict[int, mpz] = {n: mpz(1)}  # n!/K! for K = n - j(m+1), j = 0, 1, ...
+    for j in range(1, max((sum(t) for t in tails), default=0) + 1):
+        K = n - j * (m + 1)
+        value = start[K + m + 1]
+        for s in range(K + 1, K + m + 2):
+            value *= s
+        start[K] = value
+    for t, tail in tails.items():
+        K = n - sum(t) * (m + 1)
+        falling = start[K]  # n!/K!, then n!/(K - i)!
+        row = []
+        for i, v in enumerate(tail):
+            row.append(falling * v)
+            falling *= K - i
+        out[t] = row
+    return out
+
+
+def _mb_free_extend(groups, n: int, m: int, d: int, vtails: Dict[tuple, list]):
+    r"""MB total weight of ``n`` balls in free weighted groups with every urn at most ``m + d``, from the levels at *m*.
+
+    With ``delta_g = sum_{l=m+1}^{m+d} (w_g x)^l / l!``,
+    ``e_{m+d}(w_g x)^{c_g} = sum_s C(c_g, s) delta_g^s e_m(w_g x)^{c_g - s}``, so
+
+    ``A_{m+d} = sum_t prod_g C(c_g, t_g) n! [x^n] prod_g delta_g^{t_g} P_t``
+
+    over the level vectors ``t`` of :func:`_mb_free_levels`.  Writing
+    ``delta_g = (w_g x)^{m+1} eps(w_g x) / (m+d)!`` with the integer
+    polynomial ``eps(z) = sum_{i<d} (m+d)!/(m+1+i)! z^i``, each ``t`` is one
+    dot product of the short FLINT polynomial ``prod_g eps(w_g x)^{t_g}``
+    (degree ``|t|(d-1)``, built from its parent vector by one product)
+    with the tail of ``M_t`` (:func:`_mb_free_levels`; *vtails* holds
+    ``n!/(K_t-i)! M_t(K_t - i)``), divided exactly by ``((m+d)!)^{|t|}``.
+    The extension of :func:`~enumerator.algorithms.extremes.mb_max_cumulative`
+    to vectors of levels; cost :func:`_vector_extension_cost`.
+    """
+    F = gmpy2.fac(m + d)
+    base = [int(divexact(F, gmpy2.fac(m + 1 + i))) for i in range(d)]
+    eps = [fmpz_poly([b * w ** i for i, b in enumerate(base)]) for _, _, _, w in groups]
+    polys: Dict[tuple, fmpz_poly] = {}
+    powers = [mpz(1)]
+    total = mpz(0)
+    for t in sorted(vtails, key=sum):
+        size = sum(t)
+        if size == 0:
+            E = fmpz_poly([1])
+        else:
+            g = next(i for i, v in enumerate(t) if v)
+            parent = t[:g] + (t[g] - 1,) + t[g + 1:]
+            E = polys[parent].mul_low(eps[g], size * (d - 1) + 1)
+        polys[t] = E
+        row = vtails[t]
+        acc = mpz(0)
+        for i, c in enumerate(E.coeffs()[: len(row)]):
+            if c:
+                acc += int(c) * row[i]
+        if acc:
+            while len(powers) <= size:
+                powers.append(powers[-1] * F)
+            choose = mpz(1)
+            for v, (c, _, _, _) in zip(t, groups):
+                if v:
+                    choose *= gmpy2.comb(c, v)
+            total += choose * divexact(acc, powers[size])
+    return total
 
 
 def _capped(groups, top: int):
@@ -206,32 +292,177 @@ def _raised(groups, bottom: int):
     return [(c, max(a, bottom), b, w) for c, a, b, w in groups]
 
 
-def _levels_first(groups, n: int, m: int, bits: float) -> bool:
-    """True when the levels over the groups (:func:`_mb_free_capped`) are estimated cheaper than a grouped count."""
-    levels = _vector_level_cost(groups, n, m, bits)
-    return levels.seconds < grouped.row_cost(_capped(groups, m), n, True).seconds
+def _level_ways(groups, T: int) -> list:
+    """``ways[s]``: the level vectors ``t`` with ``|t| = s`` (``t_g <= c_g``), for ``s = 0..T`` (a small DP, nothing listed)."""
+    ways = [1] + [0] * T
+    for c, _, _, _ in groups:
+        prefix = [0]
+        for value in ways:
+            prefix.append(prefix[-1] + value)
+        ways = [prefix[s + 1] - prefix[max(0, s - c)] for s in range(T + 1)]
+    return ways
 
 
-def _bound_cost(groups, n: int, m: int, labelled: bool, free: bool, bits: float) -> Cost:
-    """The cost of ``A_m`` by the route :func:`_group_max_counts` takes at bound *m*."""
-    rows = grouped.row_cost(_capped(groups, m), n, labelled)
-    if free:
-        levels = _vector_level_cost(groups, n, m, bits)
-        if levels.seconds < rows.seconds:
-            return levels
-    return rows
+def _tail_bits(groups, n: int, bits: float) -> float:
+    """Bits of an extension tail entry: ``n!/(K-i)! M_t(K - i)`` (the count, the scaling ``S_t`` and the falling factorial)."""
+    return bits + n * math.log2(max(2, max(w for _, _, _, w in groups))) + n * math.log2(n + 2)
+
+
+def _vector_extension_cost(groups, n: int, m: int, d: int, bits: float) -> float:
+    """Seconds of :func:`_mb_free_extend` for the bound ``m + d`` from the levels at *m*.
+
+    Per level vector ``t`` (``|t| = s``): one short FLINT product and a dot
+    product of ``s (d - 1) + 1`` terms, each a coefficient of
+    ``s (d - 1) log2((m + d) w)`` bits times a tail entry
+    (:func:`_tail_bits`).  Priced like the level steps of
+    :func:`_vector_level_cost`, with the coefficient's limbs as a factor,
+    times 4 for the conversions between FLINT and gmpy2 numbers (measured
+    3.3 to 5 times the bare figure: 1.3 s for the 17 extensions from
+    ``m = 300``, 2000 balls in 5 groups of 200).
+    """
+    T = n // (m + 1)
+    ways = _level_ways(groups, T)
+    big = _tail_bits(groups, n, bits)
+    wbits = math.log2(max(2, (m + d) * max(w for _, _, _, w in groups)))
+    terms = 0.0
+    for s in range(T + 1):
+        if ways[s]:
+            length = min(n - s * (m + 1), s * (d - 1)) + 1
+            terms += ways[s] * (length * (1 + s * (d - 1) * wbits / 2000) + 4)
+    return 4 * terms * (1 + big / 20000) / 4e6
+
+
+def _vector_tail_memory(groups, n: int, m: int, D: int, bits: float) -> int:
+    """Bytes of the tails :func:`_mb_free_levels` keeps for *D* extensions (every level vector)."""
+    T = n // (m + 1)
+    ways = _level_ways(groups, T)
+    entries = sum(ways[s] * (min(n - s * (m + 1), s * max(D - 1, 0)) + 1) for s in range(T + 1))
+    return entries * bigint_bytes(_tail_bits(groups, n, bits))
+
+
+#: Most memory the tails of one run of levels may take, whatever the limits (the planner stops extending there).
+_TAIL_MEMORY = 512 * 2 ** 20
+
+
+def _levels_span(groups, n: int, m: int, last: int, bits: float):
+    """``(D, cost)``: the extensions after the levels at *m* (bounds ``m+1 .. m+D``, ``m + D <= last``) and their cost.
+
+    Extensions are added while the next one costs less than the average so
+    far per bound (as :func:`~enumerator.algorithms.extremes.mb_max_cumulative`
+    plans them) and the tails fit in :data:`_TAIL_MEMORY`.
+    """
+    base = _vector_level_cost(groups, n, m, bits)
+    spent = base.seconds
+    D = 0
+    if math.isfinite(spent) and n // (m + 1) <= 64:
+        while m + D + 1 <= last:
+            # the first extension also pays for the tails (n!/(K-i)! M_t(K-i)): measured 0.55-0.65 of the levels
+            extra = _vector_extension_cost(groups, n, m, D + 1, bits) + (0.6 * base.seconds if D == 0 else 0.0)
+            if extra >= spent / (D + 1) or _vector_tail_memory(groups, n, m, D + 1, bits) > _TAIL_MEMORY:
+                break
+            spent += extra
+            D += 1
+    memory = base.memory + (_vector_tail_memory(groups, n, m, D, bits) if D else 0)
+    return D, Cost(seconds=spent, memory=memory)
+
+
+def _blocks(groups):
+    """The groups in blocks of at most two (pairs, then one group alone when their number is odd)."""
+    return [list(groups[i:i + 2]) for i in range(0, len(groups), 2)]
+
+
+def _product_cost(n: int, bits: float) -> Cost:
+    """One binomial convolution of two rows of ``n + 1`` entries (:func:`~enumerator.algorithms.group_rows.combine`)."""
+    row = (n + 1) * (bits + n * math.log2(n + 2))
+    return Cost(seconds=2 * limits.product_seconds(row), memory=4 * (n + 1) * bigint_bytes(bits + n * math.log2(n + 2)))
+
+
+def _blocks_cost(groups, n: int, m: int, bits: float) -> Cost:
+    """Estimate :func:`_blocks_capped` at bound *m*: the rows of the blocks, their products and one dot product."""
+    blocks = _blocks(groups)
+    cost = Cost()
+    for block in blocks:
+        cost = cost + _vector_level_cost(block, n, m, bits)
+    products = max(0, len(blocks) - 2)
+    dot = Cost(seconds=(n + 1) * 3 * limits.product_seconds(bits), memory=0)
+    return cost + _product_cost(n, bits).times(products) + dot
+
+
+def _blocks_capped(groups, n: int, m: int):
+    r"""``A_m`` of free weighted MB groups from the whole rows of blocks of at most two groups.
+
+    Each block's row ``k! [x^k] prod_{g in block} e_m(w_g x)^{c_g}``
+    (``k = 0..n``) comes from the levels over its groups
+    (:func:`_mb_free_levels` with one or two level indices: ``O(n T)`` or
+    ``O(n T^2)`` small-by-big steps, ``T = n // (m + 1)``); the rows are
+    combined by binomial convolutions (FLINT products,
+    :func:`~enumerator.algorithms.group_rows.combine`) but for the last two,
+    whose convolution is needed at ``n`` only: one dot product (Flajolet &
+    Sedgewick, *Analytic Combinatorics*, 2009, §II.2, labelled products).
+    With 5 groups: two pair rows, one product and one dot, against four
+    rows and three products for a grouped count.  Rows are scaled by
+    ``S = prod w_g^{(m+1) t_g}`` only at ``t = 0``, where ``S = 1``.
+    """
+    rows = [_mb_free_levels(block, n, m, whole=True)[0] for block in _blocks(groups)]
+    while len(rows) > 2:
+        rows = [combine("exponential", rows[0], rows[1], n)] + rows[2:]
+    if len(rows) == 1:
+        return rows[0][n]
+    return grouped.weighted_dot(rows[0], rows[1], True, n)
+
+
+def _per_bound_route(groups, n: int, m: int, free: bool, bits: float):
+    """``(name, cost)`` of the cheaper way to one ``A_m`` on its own: ``"blocks"`` (free MB groups) or ``"rows"``."""
+    rows = grouped.row_cost(_capped(groups, m), n, True)
+    if free and len(groups) > 2:
+        blocks = _blocks_cost(groups, n, m, bits)
+        if blocks.seconds < rows.seconds:
+            return "blocks", blocks
+    return "rows", rows
+
+
+def _levels_first(groups, n: int, m: int, bits: float, last: Optional[int] = None) -> bool:
+    """True when the levels over the groups at *m* with their extensions cost less per bound than one ``A_m`` on its own."""
+    last = n // 2 - 1 if last is None else last
+    D, levels = _levels_span(groups, n, m, max(m, last), bits)
+    _, other = _per_bound_route(groups, n, m, True, bits)
+    return levels.seconds / (D + 1) < other.seconds
+
+
+def _max_plan(groups, n: int, lo: int, last: int, free: bool, bits: float):
+    """The steps of :func:`_group_max_counts` for ``m = lo..last``: ``[(m, D, route, cost)]``.
+
+    ``route`` is ``"levels"`` (the levels over the groups at ``m`` and
+    ``D`` extensions, free MB groups only), ``"blocks"`` or ``"rows"`` (one
+    ``A_m``; ``D = 0``).  Chosen from the estimates alone, so the whole plan
+    is priced before any arithmetic.  Planning costs ``O(G T^2)`` small
+    steps per bound tried.
+    """
+    plan = []
+    m = lo
+    while m <= last:
+        if free and _levels_first(groups, n, m, bits, last):
+            D, cost = _levels_span(groups, n, m, last, bits)
+            plan.append((m, D, "levels", cost))
+            m += D + 1
+            continue
+        route, cost = _per_bound_route(groups, n, m, free, bits)
+        plan.append((m, 0, route, cost))
+        m += 1
+    return plan
 
 
 def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
     r"""``{m: weight with max == m}`` by groups: one grouped count per ``m`` (uppers lowered to ``m``).
 
     For MB with every group free, the ``m`` with ``2(m+1) > n`` come from
-    one pass of suffix sums (:func:`_mb_free_tail`), and each other ``m``
-    from the levels over the groups (:func:`_mb_free_capped`) when those are
-    estimated cheaper.  Cost: the sum over ``m`` of the route taken
-    (:func:`_bound_cost`), checked first.  MB 2000 balls in 5 groups of 200
-    urns: about 1.1 s per ``m`` below ``m = 250`` (three FLINT
-    convolutions), well under 1 s above.
+    one pass of suffix sums (:func:`_mb_free_tail`), and the others by the
+    plan of :func:`_max_plan`: the levels over the groups
+    (:func:`_mb_free_levels`) at a base bound followed by extensions to the
+    next bounds (:func:`_mb_free_extend`), where few urns can exceed ``m``;
+    else, bound by bound, the blocks of at most two groups and one dot
+    product (:func:`_blocks_capped`) or a grouped count.  Cost: the sum of
+    the plan's steps, checked first.
     """
     n, r = model.balls, model.urns
     groups, _ = grouped.integer_groups(model)
@@ -249,20 +480,35 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
         # suffix sums: G n products, and one count per m kept
         cost = Cost(seconds=len(groups) * (n - start + 1) * 2 * limits.product_seconds(bits),
                     memory=(n - start + 2) * bigint_bytes(bits))
-    # one grouped count per m: priced at every m, or at 4096 evenly spaced m (scaled up) for longer ranges
-    span = last - lo + 1
-    stride = max(1, -(-span // 4096))
-    for m in range(lo, last + 1, stride):
-        cost = cost + _bound_cost(groups, n, m, labelled, free, bits).times(min(stride, last + 1 - m))
+    if labelled:
+        plan = _max_plan(groups, n, lo, last, free, bits)
+        for _, _, _, step in plan:
+            cost = Cost(seconds=cost.seconds + step.seconds, memory=max(cost.memory, step.memory))
+    else:
+        # one grouped count per m: priced at every m, or at 4096 evenly spaced m (scaled up) for longer ranges
+        plan = []
+        span = last - lo + 1
+        stride = max(1, -(-span // 4096))
+        for m in range(lo, last + 1, stride):
+            cost = cost + grouped.row_cost(_capped(groups, m), n, False).times(min(stride, last + 1 - m))
     limits.check(cost, f"the law of max for {n} balls in {r} urns",
                  advice="ask for P(max <= m) at one m (an event) instead of the whole law")
     if free and hi >= n // 2:
         cumulative.update(_mb_free_tail(groups, n, max(lo, n // 2)))
+    steps = {m: (D, route) for m, D, route, _ in plan}
 
     def at_most(m: int) -> mpz:
         value = cumulative.get(m)
-        if value is None and free and _levels_first(groups, n, m, bits):
-            value = _mb_free_capped(groups, n, m)
+        if value is None and m in steps:
+            D, route = steps[m]
+            if route == "levels":
+                value, tails = _mb_free_levels(groups, n, m, extensions=D)
+                if D:
+                    vtails = _extension_tails(n, m, tails)
+                    for d in range(1, D + 1):
+                        cumulative[m + d] = _mb_free_extend(groups, n, m, d, vtails)
+            elif route == "blocks":
+                value = _blocks_capped(groups, n, m)
         if value is None:
             value = mpz(_total_of(_capped(groups, m), model, "a bounded count"))
         return value
