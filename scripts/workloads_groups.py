@@ -12,6 +12,12 @@
   ``P(collision) >= 10^-6``, proved by rational bounds on ``ln P``
   (:mod:`enumerator.algorithms.threshold`), against a bisection on
   mpmath's ``loggamma`` at 40 digits (fast, but not a proof).
+* ``weighted-max-law-by-plan``: the exact law of the maximum for MB balls
+  in 5 groups of urns of weights 1..5, by the planned routes of
+  :mod:`enumerator.algorithms.group_laws` (levels over the groups with
+  extensions, blocks of two groups and one dot product, grouped counts),
+  against one grouped count (FLINT products of the groups' rows) at every
+  bound, the same answer.
 """
 
 from __future__ import annotations
@@ -67,3 +73,32 @@ def register(bench) -> None:
 
         return ctx.compare(Method("enumerator (proved)", proved), [Method("mpmath loggamma bisection", guess)],
                            notes=["answer: the least number of IDs (6,074,004)"])
+
+    @bench.workload("weighted-max-law-by-plan",
+                    "exact law of max, MB 400 balls in 5 groups of 40 urns of weights 1..5 (quick: 150 in 5 of 15), "
+                    "planned routes vs a grouped count at every bound",
+                    target=bench.faster_by(1))
+    def _weighted_max_plan(ctx):
+        import math
+
+        from enumerator.algorithms import grouped
+        from enumerator.algorithms.group_laws import _capped, _group_max_counts, law_from_cumulative
+        from enumerator.core.model import UrnModel
+
+        balls, count = (150, 15) if ctx.quick else (400, 40)
+        model = UrnModel(balls=balls, weights=",".join(f"{count}x{w}" for w in range(1, 6)))
+        groups, _ = grouped.integer_groups(model)
+        total = sum(c * w for c, _, _, w in groups) ** balls
+        lo = max(1, math.ceil(balls / model.urns))
+
+        def planned():
+            return {m: int(v) for m, v in _group_max_counts(model, total).items()}
+
+        def every_bound():
+            def at_most(m):
+                return grouped.total_count(_capped(groups, m), True, balls)
+            return {m: int(v) for m, v in law_from_cumulative(at_most, lo, balls, total).items()}
+
+        return ctx.compare(Method("enumerator (planned routes)", planned),
+                           [Method("a grouped count at every bound", every_bound)],
+                           notes=[f"answer: the counts of max = m for {balls} balls, total weight {sum(c * w for c, _, _, w in groups)}^{balls}"])
