@@ -85,6 +85,26 @@ def test_extensions_from_every_base_equal_the_per_urn_product(n, groups):
             assert group_laws._mb_free_extend(groups, n, m, d, vtails) == expected[m + d]
 
 
+@pytest.mark.parametrize("n, groups", [MEDIUM[1], (30, [(3, 0, 30, w) for w in (1, 2, 3, 5, 4)])])
+def test_every_cut_and_every_row_route_equals_the_per_urn_product(n, groups):
+    import itertools as it
+
+    weights = _urns(groups)
+    for m in (1, 2, 3, 5, 8, n // 3, n // 2):
+        expected = _per_urn_at_most(n, weights, m)  # the per-urn exponential product (Feller vol. 1 ch. IV)
+        for blocks in group_laws._partitions(groups):
+            for hows in it.product(("levels", "miller", "rows"), repeat=len(blocks)):
+                assert group_laws._blocks_capped(groups, n, m, blocks, list(hows)) == expected, (m, blocks, hows)
+
+
+def test_miller_rows_of_a_block_equal_the_per_urn_product_for_every_ball_number():
+    block = [(3, 0, 20, 2), (3, 0, 20, 5), (3, 0, 20, 1)]
+    for m in (1, 2, 4, 7):
+        row = group_laws._miller_block_row(block, 20, m)
+        # per-urn product of the 9 urns, entry by entry (Feller vol. 1 ch. IV)
+        assert row == [_per_urn_at_most(k, _urns(block), m) for k in range(21)]
+
+
 def test_equal_weights_give_the_unweighted_law():
     # 12 urns of weight 3 in four groups: weights scale every assignment of n balls by 3^n, so
     # A_m = 3^n times the unweighted count of mb_max_cumulative (the per-urn route for 12 urns)
