@@ -310,6 +310,10 @@ def _smallest_factor_table(top: int):
     return spf
 
 
+#: Widest run of bases ``k`` whose coefficients share one long factor in :func:`_exclusion_sum`.
+_RUN = 128
+
+
 def _exclusion_sum(n: int, r: int, j: int):
     """``sum_{k=1}^{K} (-1)^(r-k+j) c_k k^n`` with ``c_k = C(r, k) C(r-k-1, j)`` and ``K = r - j - 1``, exact.
 
@@ -325,7 +329,16 @@ def _exclusion_sum(n: int, r: int, j: int):
     root only primes ``Q <= sqrt(K)`` occur, and their powers are taken
     once; ``Q = 2`` is a shift.  ``c_k = r C(r-1, j) C(K, k) / (r - k)`` is
     read from the nearest of the values ``r C(r-1, j) C(K, 64 i)`` by one
-    short product and one exact division.  Source of the sum: W. Feller,
+    short product and one exact division.
+
+    The primes ``P > K/4`` (about two thirds of them) have only the
+    cofactors ``m <= 3``; their terms ``c_{mP} P^n`` are summed per ``m`` in
+    runs of bases ``k = mP`` spanning at most 128: in a run from ``a`` to
+    ``b``, ``c_k = c_a (r-a) h_k / d`` with ``h_k`` of about ``16 (b - a)``
+    bits and ``d`` dividing ``c_a (r-a) h_k``, so each ``P^n`` is multiplied
+    by a short ``h_k`` and each run once by the long ``c_a (r-a)/gcd``; the
+    three sums are multiplied by ``1``, ``2^n`` (a shift) and ``3^n`` at the
+    end.  Source of the sum: W. Feller,
     vol. 1, 3rd ed., 1968, §IV.2; Horner's rule: D. E. Knuth, *The Art of
     Computer Programming*, vol. 2, 3rd ed., 1997, §4.6.4.
     """
@@ -365,14 +378,49 @@ def _exclusion_sum(n: int, r: int, j: int):
             value += below << n if q == 2 else below * power[q]
         return value
 
+    def run_sum(run):
+        # sum of ±c_k X over a run of (k, X), k increasing from a to b: c_k = c_a (r-a) h_k / d with
+        # h_k = (b!/k!) ((K-a)!/(K-k)!) (prod/(r-k)) and d = (b!/a!) prod, prod the r - k of the run;
+        # d/g divides every h_k (g = gcd(c_a (r-a), d), as each c_k is whole), so one long product per run
+        a, b = run[0][0], run[-1][0]
+        spread = math.prod(r - k for k, _ in run)
+        lead = abs(coefficient(a)) * (r - a)
+        d = math.prod(range(a + 1, b + 1)) * spread
+        common = gmpy2.gcd(lead, d)
+        rest = d // common
+        inner = mpz(0)
+        for k, x in run:
+            h = gmpy2.divexact(math.prod(range(k + 1, b + 1)) * math.prod(range(top - k + 1, top - a + 1))
+                               * (spread // (r - k)), rest)
+            inner += -h * x if (r - k + j) & 1 else h * x
+        return gmpy2.divexact(lead, common) * inner
+
     total = coefficient(1)
     for q in small:
         below = node(q, q)
         total += below << n if q == 2 else below * power[q]
+    # the primes p > K/4 (k = m p, m <= 3): their terms go to one sum per m in runs of k spanning at most
+    # RUN bases, each term a product of p^n by a number of about 16 RUN bits instead of c_k
+    runs = {1: [], 2: [], 3: []}
+    sums = {1: mpz(0), 2: mpz(0), 3: mpz(0)}
     for p in range(root + 1, top + 1):
-        if spf[p] == p:
+        if spf[p] != p:
+            continue
+        if 4 * p <= top or p <= 3:
             total += node(p, p) * mpz(p) ** n
-    return total
+            continue
+        x = mpz(p) ** n
+        for m in range(1, top // p + 1):
+            run = runs[m]
+            if run and m * p - run[0][0] > _RUN:
+                sums[m] += run_sum(run)
+                run.clear()
+            run.append((m * p, x))
+    for m, run in runs.items():
+        if run:
+            sums[m] += run_sum(run)
+    three = power.get(3, mpz(3) ** n)
+    return total + sums[1] + (sums[2] << n) + sums[3] * three
 
 
 def _exclusion_sum_by_odd_parts(n: int, r: int, j: int):
