@@ -134,6 +134,27 @@ def approx(value: Fraction) -> float:
     return float(x)
 
 
+def _enclosure(p, q, bits: int):
+    """Fractions ``low <= p/q <= high`` of *bits* significant bits each (MPFR with directed rounding).
+
+    ``p``, ``q`` positive integers of any size; cost independent of their size
+    beyond reading their top bits.
+    """
+    import gmpy2
+
+    ends = []
+    for down in (True, False):
+        way, back = (gmpy2.RoundDown, gmpy2.RoundUp) if down else (gmpy2.RoundUp, gmpy2.RoundDown)
+        with gmpy2.context(gmpy2.get_context(), precision=bits, emax=1 << 40, emin=-(1 << 40)) as ctx:
+            ctx.round = way
+            top = gmpy2.mpfr(p)
+            ctx.round = back
+            bottom = gmpy2.mpfr(q)
+            ctx.round = way
+            ends.append(Fraction(*(top / bottom).as_integer_ratio()))
+    return ends[0], ends[1]
+
+
 def float_cell(x) -> str:
     """A table cell for an approximate value: 6 significant digits, ``-`` for none.
 
@@ -215,17 +236,34 @@ def scientific(value, significant: int = SIGNIFICANT) -> str:
     Notes
     -----
     Cost: one exact division of the value by a power of ten, quasi-linear in
-    its digits with GMP (a million-digit integer in a few milliseconds).
+    its digits with GMP (a million-digit integer in a few milliseconds).  A
+    value of moderate size whose numerator or denominator passes 4,000 bits
+    (a probability, a mean) is first enclosed
+    between two short binary fractions (MPFR, rounding down and up, 64 bits
+    more than the mantissa needs); rounding is monotone, so when both ends
+    round alike that is the answer, at a cost independent of the digits.
     """
     import gmpy2
-
-    from ..core.exact import decimal_digits
 
     if value == 0:
         return "0." + "0" * (significant - 1) + "e+0"
     sign = "-" if value < 0 else ""
     p = gmpy2.mpz(abs(value.numerator))
     q = gmpy2.mpz(value.denominator)
+    if max(p.bit_length(), q.bit_length()) > 4000 and abs(p.bit_length() - q.bit_length()) < 4000:
+        low, high = _enclosure(p, q, 4 * significant + 64)
+        text = _rounded(gmpy2.mpz(low.numerator), gmpy2.mpz(low.denominator), significant)
+        if text == _rounded(gmpy2.mpz(high.numerator), gmpy2.mpz(high.denominator), significant):
+            return sign + text
+    return sign + _rounded(p, q, significant)
+
+
+def _rounded(p, q, significant: int) -> str:
+    """``p/q`` (positive ``mpz``) rounded half to even to *significant* digits, exactly: the body of :func:`scientific`."""
+    import gmpy2
+
+    from ..core.exact import decimal_digits
+
     # exponent e with 10^e <= p/q < 10^(e+1); estimated from the digit counts, then corrected
     e = decimal_digits(p) - decimal_digits(q)
     below = p < q * gmpy2.mpz(10) ** e if e >= 0 else p * gmpy2.mpz(10) ** (-e) < q
@@ -245,7 +283,7 @@ def scientific(value, significant: int = SIGNIFICANT) -> str:
         e += 1
     digits = str(int(m))
     mantissa = digits[0] + ("." + digits[1:] if significant > 1 else "")
-    return f"{sign}{mantissa}e{'+' if e >= 0 else '-'}{abs(e)}"
+    return f"{mantissa}e{'+' if e >= 0 else '-'}{abs(e)}"
 
 
 def human(value) -> str:
