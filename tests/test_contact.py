@@ -154,9 +154,12 @@ def test_refused_before_computing(monkeypatch):
     monkeypatch.setattr(mult, "_partition_polynomials_of", tripwire)
     monkeypatch.setattr(mult, "_scalar_euler", tripwire)
     monkeypatch.setattr(mult, "_mb_polynomial", tripwire)
-    with limited(memory="64M"):
-        with pytest.raises(TooLarge, match=r"raise max_memory= .* lower the maximum energy \(max_energy=\)"):
+    monkeypatch.setattr(mult, "_modular_row", tripwire)
+    # 1000 trap bosons to E = 2000 fit 64 MB on the modular route (O(E) memory), but not a minute
+    with limited(memory="64M", seconds=60):
+        with pytest.raises(TooLarge, match=r"raise max_seconds="):
             multiplicities(System.create(harmonic_trap(), 1000, "BE"), 2000)
+    with limited(memory="64M"):
         with pytest.raises(TooLarge, match="max_memory="):
             multiplicities(System.create(harmonic_trap(), 10**7, "BE"), 10**6)
         with pytest.raises(TooLarge, match="max_memory="):
