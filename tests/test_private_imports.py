@@ -28,10 +28,6 @@ ALLOWED = {
     ("enumerator/algorithms/laws.py", "enumerator.algorithms.group_laws", "_group_min_counts"),
     ("enumerator/algorithms/laws.py", "enumerator.algorithms.group_laws", "_group_urn_counts"),
     ("enumerator/algorithms/laws.py", "enumerator.algorithms.group_laws", "_mb_max_cost"),
-    # levels/occupation.py reuses the ensembles' online recursion and its helpers
-    ("enumerator/algorithms/levels/occupation.py", "enumerator.algorithms.levels.ensembles", "_online_recursion"),
-    ("enumerator/algorithms/levels/occupation.py", "enumerator.algorithms.levels.ensembles", "_particle_hole_pays"),
-    ("enumerator/algorithms/levels/occupation.py", "enumerator.algorithms.levels.ensembles", "_to_fixed"),
 }
 
 

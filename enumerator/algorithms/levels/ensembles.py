@@ -56,7 +56,10 @@ __all__ = [
     "grand_canonical",
     "grand_canonical_level_variance",
     "grand_canonical_thermo",
+    "online_recursion",
     "parse_temperatures",
+    "particle_hole_pays",
+    "to_fixed",
 ]
 
 #: Default number of significant decimal digits of the canonical results.
@@ -296,7 +299,7 @@ class _Single:
         return z, z1, z2
 
 
-def _to_fixed(x, bits: int) -> int:
+def to_fixed(x, bits: int) -> int:
     """``round(x 2^bits)`` for an mpmath number (exact at the working precision)."""
     return int(mpmath.nint(mpmath.ldexp(x, bits)))
 
@@ -316,7 +319,7 @@ def _rdiv(a: int, d: int) -> int:
 _BASE_BLOCK = 16
 
 
-def _online_recursion(kernels, couplings, starts, n_max: int, bits: int):
+def online_recursion(kernels, couplings, starts, n_max: int, bits: int):
     r"""Solve ``n X^t_n = Σ_{(j, s)} Σ_{k=1}^{n} K^j_k X^s_{n-k}`` for ``n = 1..n_max``, in fixed point.
 
     All values are integers scaled by ``2^bits``.  The convolutions are
@@ -578,13 +581,13 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                 z, z1, z2 = single.sums(n)
                 w = system.weights(n)
                 alternating = any(x < 0 for x in w[1:])
-                a0 = [0] + [_to_fixed(w[k] * z[k], bits) for k in range(1, n + 1)]
+                a0 = [0] + [to_fixed(w[k] * z[k], bits) for k in range(1, n + 1)]
                 kernels = [a0]
                 couplings = [[(0, 0)]]
                 starts = [1 << bits]
                 if moments:
-                    a1 = [0] + [_to_fixed(w[k] * k * z1[k], bits) for k in range(1, n + 1)]
-                    a2 = [0] + [_to_fixed(w[k] * k * k * z2[k], bits) for k in range(1, n + 1)]
+                    a1 = [0] + [to_fixed(w[k] * k * z1[k], bits) for k in range(1, n + 1)]
+                    a2 = [0] + [to_fixed(w[k] * k * k * z2[k], bits) for k in range(1, n + 1)]
                     kernels += [a1, a2, [2 * x for x in a1]]
                     # Z: a0*Z;  M1: a1*Z + a0*M1;  M2: a2*Z + 2 a1*M1 + a0*M2
                     couplings += [[(1, 0), (0, 1)], [(2, 0), (3, 1), (0, 2)]]
@@ -602,7 +605,7 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                             [(base + 2, off), (base + 3, off + 1), (base, off + 2)],
                         ]
                         starts += [0, 0]
-                seqs = _online_recursion(kernels, couplings, starts, n, bits)
+                seqs = online_recursion(kernels, couplings, starts, n, bits)
                 Z = seqs[0]
                 ZN = Z[n]
                 if alternating:
@@ -745,7 +748,7 @@ def canonical(
 
     Fermions far below the Fermi temperature (route ``"auto"``, when the
     recursion would lose more than ``4 × 3.32 digits + 256`` bits, see
-    :func:`_particle_hole_pays`) go through the particle-hole expansion about
+    :func:`particle_hole_pays`) go through the particle-hole expansion about
     the ground state instead (:func:`.particle_hole.fermion_canonical`): a
     sum of positive terms in ball arithmetic with rigorous truncation
     bounds, ``10^-digits`` relative for ``ln Z``, ``U - E_0``, ``C``, ``S``
@@ -804,7 +807,7 @@ def canonical(
                                    excitation_energy_approx=extras["excitation"],
                                    ground_occupation_variance_approx=extras["ground_variance"],
                                    route="float", error_bounds=extras["bounds"])
-        elif _particle_hole_pays(system, temperature, digits, route):
+        elif particle_hole_pays(system, temperature, digits, route):
             point = _particle_hole_point(system, temperature, digits, count)
         else:
             lnZ, U, C, F, S, occ, extras = _canonical_at(system, temperature, digits, count, True)
@@ -1250,7 +1253,7 @@ def _float_pays(system: System, temperature: Fraction, digits: int, count: int) 
     return exact.seconds >= 4 * _float_cost(spectrum, n, count).seconds
 
 
-def _particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:
+def particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:
     """Whether *route* (``"auto"``: fermions whose recursion would cancel badly) takes the particle-hole expansion.
 
     The Borrmann–Franke recursion for fermions loses about
@@ -1480,7 +1483,7 @@ def canonical_occupations(
     result = []
     for value in temperatures:
         temperature = parse_temperature(value)
-        if _particle_hole_pays(system, temperature, digits, "auto"):
+        if particle_hole_pays(system, temperature, digits, "auto"):
             result.append(_particle_hole_point(system, temperature, digits, count).occupations_approx)
         else:
             result.append(_canonical_at(system, temperature, digits, count, False)[5])

@@ -33,7 +33,7 @@ r^j``).
 Two arithmetics:
 
 * **a temperature** (:func:`occupation_law`): the recursion in fixed point
-  (:func:`~.ensembles._online_recursion`: exact integers, FLINT products,
+  (:func:`~.ensembles.online_recursion`: exact integers, FLINT products,
   divide and conquer) with energies measured from the lowest remaining level,
   so ``Z'_M >= 1`` for bosons; for the alternating FD/capacity weights the
   precision is raised until the majorant bound ``M 2^-bits Ẑ'_M`` is below
@@ -72,11 +72,11 @@ from ...core.rules import Rule
 from .ensembles import (
     DEFAULT_DIGITS,
     GUARD_DIGITS,
-    _online_recursion,
-    _particle_hole_pays,
-    _to_fixed,
     grand_canonical,
     grand_canonical_level_variance,
+    online_recursion,
+    particle_hole_pays,
+    to_fixed,
 )
 from .particle_hole import fermion_canonical
 from .spectra import System, ground_energy, parse_digits, parse_rational, parse_temperature
@@ -244,13 +244,13 @@ def _law_at(system: System, index: int, temperature: Fraction, digits: int):
                 # z'_k lose at most log2(Z_1) bits to the subtraction for an upper rung.
                 with mpmath.workprec(bits + 64 + 4 * n.bit_length()):
                     zp = _reduced_sums(system, index, low, n, lambda e, b=b: mpmath.exp(-b * e))
-                kern = [0] + [_to_fixed(w[k] * zp[k], bits) for k in range(1, n + 1)]
+                kern = [0] + [to_fixed(w[k] * zp[k], bits) for k in range(1, n + 1)]
                 kernels, couplings, starts = [kern], [[(0, 0)]], [1 << bits]
                 if alternating:
                     kernels.append([abs(x) for x in kern])
                     couplings.append([(1, 1)])
                     starts.append(1 << bits)
-                seqs = _online_recursion(kernels, couplings, starts, n, bits)
+                seqs = online_recursion(kernels, couplings, starts, n, bits)
                 seq = seqs[0]
                 major = seqs[1] if alternating else seq
                 need = bits
@@ -409,7 +409,7 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     out = []
     for value in temperatures:
         temperature = parse_temperature(value)
-        if system.particles and _particle_hole_pays(system, temperature, digits, "auto") and _own_energy(system, level):
+        if system.particles and particle_hole_pays(system, temperature, digits, "auto") and _own_energy(system, level):
             (point,) = fermion_canonical(system, temperatures=[temperature], digits=digits, law_level=level,
                                          levels=1)
             law = point.law
