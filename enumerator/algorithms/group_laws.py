@@ -10,9 +10,14 @@ never with ``r``:
   groups capped below ``m``;
 * ``max``/``min`` by grouped bounded counts, with the one-term
   inclusion–exclusion for ``2(m+1) > n`` (Riordan, *An Introduction to
-  Combinatorial Analysis*, 1958, ch. 5) and, for free MB groups, a level
-  recursion with one level index per group (:func:`_mb_free_capped`)
-  wherever it is estimated cheaper (large ``m``: few urns can exceed it);
+  Combinatorial Analysis*, 1958, ch. 5) and, for free MB groups, a plan
+  priced before any arithmetic (:func:`_max_plan`): a level recursion with
+  one level index per group (:func:`_mb_free_levels`) at a base bound,
+  extended to the next bounds from its tails (:func:`_mb_free_extend`),
+  where few urns can exceed ``m``; else, bound by bound, the rows of blocks
+  of groups (levels, or J. C. P. Miller's recurrence for a power of one urn
+  of each group) joined by one dot product (:func:`_blocks_capped`), or a
+  grouped count;
 * ``urn:I`` by the urn's weight times the other groups' row (binomial under
   MB when the others are free);
 * counting statistics by the bivariate generating function of the groups
@@ -588,6 +593,17 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
         cost = Cost(seconds=len(groups) * (n - start + 1) * 2 * limits.product_seconds(bits),
                     memory=(n - start + 2) * bigint_bytes(bits))
     if labelled:
+        span = last - lo + 1
+        if span > 4096:
+            # a long range: first a sampled price (one bound on its own at 4096 evenly spaced m, scaled up),
+            # so a law far beyond the limits is refused without planning every bound
+            stride = -(-span // 4096)
+            rough = Cost()
+            for m in range(lo, last + 1, stride):
+                rough = rough + _per_bound_route(groups, n, m, free, bits)[1].times(min(stride, last + 1 - m))
+            limits.check(Cost(seconds=cost.seconds + rough.seconds, memory=max(cost.memory, rough.memory)),
+                         f"the law of max for {n} balls in {r} urns",
+                         advice="ask for P(max <= m) at one m (an event) instead of the whole law")
         plan = _max_plan(groups, n, lo, last, free, bits)
         for _, _, _, step in plan:
             cost = Cost(seconds=cost.seconds + step.seconds, memory=max(cost.memory, step.memory))
