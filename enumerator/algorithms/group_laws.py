@@ -354,16 +354,18 @@ def _levels_span(groups, n: int, m: int, last: int, bits: float):
 
     Extensions are added while the next one costs less than the average so
     far per bound (as :func:`~enumerator.algorithms.extremes.mb_max_cumulative`
-    plans them) and the tails fit in :data:`_TAIL_MEMORY`.
+    plans them) and the tails fit in :data:`_TAIL_MEMORY` and in a quarter
+    of the memory limit in force.
     """
     base = _vector_level_cost(groups, n, m, bits)
     spent = base.seconds
     D = 0
+    room = min(_TAIL_MEMORY, limits.active_limits().memory // 4)
     if math.isfinite(spent) and n // (m + 1) <= 64:
         while m + D + 1 <= last:
             # the first extension also pays for the tails (n!/(K-i)! M_t(K-i)): measured 0.55-0.65 of the levels
             extra = _vector_extension_cost(groups, n, m, D + 1, bits) + (0.6 * base.seconds if D == 0 else 0.0)
-            if extra >= spent / (D + 1) or _vector_tail_memory(groups, n, m, D + 1, bits) > _TAIL_MEMORY:
+            if extra >= spent / (D + 1) or _vector_tail_memory(groups, n, m, D + 1, bits) > room:
                 break
             spent += extra
             D += 1
