@@ -248,8 +248,15 @@ def _exclusion_seconds(n: int, r: int, j: int) -> float:
     # measured (loaded machine, 2 cores shared), r = n/2, j = floor(r e^-2): 10^5 balls (K = 43,233)
     # 37 s CPU, 3*10^4: 2.7 s, 10^4: 0.2 s, that is 10.5, 8.4 and 5.5 products at the rate of
     # core.limits per prime; 16 per prime keeps the estimate above them.  The second term is the
-    # coefficient of each base: a product of a number of about 3r bits by a short one, and a division.
-    return primes * 16 * limits.product_seconds(bits) + top * 4 * limits.product_seconds(3.0 * r)
+    # coefficient of each base: a product of a number of _coefficient_bits by a short one, and a division.
+    return primes * 16 * limits.product_seconds(bits) + top * 4 * limits.product_seconds(_coefficient_bits(r, j))
+
+
+def _coefficient_bits(r: int, j: int) -> float:
+    """A bound on the bits of ``c_k = r C(r-1, j) C(K, k) / (r - k)``: ``log2(r C(r-1, j)) + K``, ``K = r - j - 1``."""
+    top = r - j - 1
+    binomial = (math.lgamma(r) - math.lgamma(j + 1) - math.lgamma(r - j)) / math.log(2)
+    return max(64.0, binomial + math.log2(max(r, 2)) + top + 1)
 
 
 def _stirling_seconds(n: int, k: int) -> float:
@@ -319,7 +326,7 @@ def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     dozen ``n log2 r``-bit numbers (the powers in the runs of
     :func:`_exclusion_sum`), the powers ``Q^n`` of the primes
     ``Q <= sqrt(K)`` (half that size each on average), and one
-    ``3r``-bit coefficient per 64 bases.
+    coefficient of ``log2(r C(r-1, j)) + K`` bits at most per 64 bases.
     """
     if at >= urns:
         return Cost(seconds=1e-6, memory=64)
@@ -328,7 +335,7 @@ def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     root = math.isqrt(top)
     small = root / math.log(root) if root > 2 else 1.0
     # measured: 2.5 MB above the start for 3*10^4 balls in 15,000 urns (numbers of 51 KB)
-    memory = (48 + small / 2) * limits.bigint_bytes(bits) + (top // 64 + 1) * limits.bigint_bytes(3.0 * urns)
+    memory = (48 + small / 2) * limits.bigint_bytes(bits) + (top // 64 + 1) * limits.bigint_bytes(_coefficient_bits(urns, at))
     return Cost(seconds=min(stirling, exclusion), memory=memory)
 
 
