@@ -105,3 +105,27 @@ def test_cost_estimate_grows_with_the_number_of_prime_bases():
     with limited(seconds=1.0):
         with pytest.raises(TooLarge, match="the exact law of empty urns"):
             formulas.empty_urns_at_most(10**5, 5 * 10**4, 6766)
+
+
+def test_planner_takes_stirling_numbers_for_few_empty_urns(monkeypatch):
+    # j = 0 at 3000 balls in 1500 urns: one Stirling number S(n, r) from FLINT beats 1499 bases; the
+    # answer is r! S(n, r) / r^n (Feller vol. 1, §IV.2; S from SymPy)
+    n, r = 3000, 1500
+    expected = Fraction(math.factorial(r) * int(stirling(n, r)), r**n)
+
+    def refuse(*args):
+        raise AssertionError("inclusion-exclusion taken")
+
+    monkeypatch.setattr(formulas, "_exclusion_sum", refuse)
+    assert formulas.empty_urns_at_most(n, r, 0) == expected
+
+
+def test_planner_takes_inclusion_exclusion_near_the_mean(monkeypatch):
+    # j = floor(r e^-2) = 203 empty urns: 204 Stirling numbers against 1296 bases, 210 of them prime
+    n, r, j = 3000, 1500, 203
+    calls = []
+    real = formulas._exclusion_sum
+    monkeypatch.setattr(formulas, "_exclusion_sum", lambda *a: calls.append(a) or real(*a))
+    value = formulas.empty_urns_at_most(n, r, j)
+    assert calls == [(n, r, j)]
+    assert value == Fraction(r**n + _feller_sum(n, r, j), r**n)
