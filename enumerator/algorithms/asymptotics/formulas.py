@@ -381,9 +381,11 @@ def _exclusion_sum(n: int, r: int, j: int):
     bits and ``d`` dividing ``c_a (r-a) h_k``, so each ``P^n`` is multiplied
     by a short ``h_k`` and each run once by the long ``c_a (r-a)/gcd``; the
     three sums are multiplied by ``1``, ``2^n`` (a shift) and ``3^n`` at the
-    end.  Source of the sum: W. Feller,
-    vol. 1, 3rd ed., 1968, §IV.2; Horner's rule: D. E. Knuth, *The Art of
-    Computer Programming*, vol. 2, 3rd ed., 1997, §4.6.4.
+    end.
+
+    Source of the sum: W. Feller, vol. 1, 3rd ed., 1968, §IV.2; Horner's
+    rule: D. E. Knuth, *The Art of Computer Programming*, vol. 2, 3rd ed.,
+    1997, §4.6.4.
     """
     mpz = gmpy2.mpz
     top = r - j - 1
@@ -462,8 +464,9 @@ def _exclusion_sum(n: int, r: int, j: int):
     for m, run in runs.items():
         if run:
             sums[m] += run_sum(run)
-    three = power.get(3, mpz(3) ** n)
-    return total + sums[1] + (sums[2] << n) + sums[3] * three
+    if sums[3]:
+        total += sums[3] * power.get(3, mpz(3) ** n)
+    return total + sums[1] + (sums[2] << n)
 
 
 def _exclusion_sum_by_odd_parts(n: int, r: int, j: int):
