@@ -285,11 +285,10 @@ class _Single:
             return z, z1, z2
         lad = self.spectrum.ladder
         d, s = lad.dimension, lad.spacing
-        q1 = mpmath.exp(-self.b * s)
-        qk = mpmath.mpf(1)
-        for _ in range(kmax):
-            qk = qk * q1
-            r = qk / (1 - qk)
+        bs = self.b * s
+        for k in range(1, kmax + 1):
+            # r = q^k / (1 - q^k) with q = e^{-b s}, by expm1: 1 - q^k underflows to 0 when b s is tiny (high T)
+            r = 1 / mpmath.expm1(k * bs)
             zk = (1 + r) ** d  # (1 - q^k)^{-d}
             z.append(zk)
             if self.moments:
@@ -482,12 +481,17 @@ def _recursion_cost(system: System, spectrum: Spectrum, temperature: Fraction, b
     b = float(spectrum.unit / temperature)
     if spectrum.ladder is not None:
         lad = spectrum.ladder
-        x = b * lad.spacing
-        z1 = (-math.expm1(-x)) ** (-lad.dimension) if x < 700 else 1.0
+        x = max(b * float(lad.spacing), 1e-300)
+        # ln z_1 = -d ln(1 - e^-x): in logarithms, since z_1 ~ x^-d passes the float range at high T
+        log_z1 = -lad.dimension * math.log(-math.expm1(-x)) if x < 700 else 0.0
     else:
         low = spectrum.lowest
-        z1 = sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies))
-    ln_z = z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
+        log_z1 = math.log(sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies)))
+    if log_z1 < 600:
+        z1 = math.exp(log_z1)
+        ln_z = z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
+    else:  # z_1 ln(1 + N/z_1) <= N and N ln(1 + z_1/N) <= N ln(2 z_1/N) once z_1 >= N
+        ln_z = n + n * (log_z1 - math.log(n) + math.log(2))
     size = bits + ln_z / math.log(2)
     if system.capacity is not None:
         size += b * (ground_energy(system) - n * spectrum.lowest) / math.log(2)
@@ -670,7 +674,7 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                 extras = {k: (None if v is None else +v) for k, v in extras.items()}
                 return +lnZ, +U, +C, +F, +S, tuple(+x for x in occ), extras
     raise TooLarge(
-        f"the canonical sums at T = {temperature} lose more digits than a reasonable working "
+        f"the canonical sums at T = {_temperature_text(temperature)} lose more digits than a reasonable working "
         "precision holds; raise the temperature or lower the number of particles"
     )
 
@@ -797,8 +801,11 @@ def canonical(
         if route == "float":
             floated = _canonical_float(system, temperature, count)
         elif route == "auto" and _float_pays(system, temperature, digits, count):
-            floated = _canonical_float(system, temperature, count)
-            if not _float_meets(floated[6]["all_bounds"], digits):
+            try:
+                floated = _canonical_float(system, temperature, count)
+            except TooLarge:
+                floated = None  # beyond the double range: the exact recursion below
+            if floated is not None and not _float_meets(floated[6]["all_bounds"], digits):
                 floated = None  # the bounds fall short of the digits asked: the exact recursion below
         if floated is not None:
             lnZ, U, C, F, S, occ, extras = floated
@@ -831,6 +838,19 @@ def canonical(
                             grand_canonical_heat_capacity_approx=gcap)
         points.append(point)
     return points
+
+
+def _temperature_text(temperature: Fraction) -> str:
+    """A temperature for a message: exact when short (``1/10``), else six significant digits (``1.0e-300``).
+
+    >>> _temperature_text(Fraction(1, 10)), _temperature_text(Fraction(1, 10**300))
+    ('1/10', '1.0e-300')
+    """
+    text = str(temperature)
+    if len(text) <= 16:
+        return text
+    with mpmath.workdps(15):
+        return mpmath.nstr(mpmath.mpf(temperature.numerator) / temperature.denominator, 6)
 
 
 #: The routes of :func:`canonical`.
@@ -1095,6 +1115,12 @@ def _canonical_float(system: System, temperature: Fraction, count: int):
           parameters=["particles"])
     b = spectrum.unit / temperature
     kern = _float_kernels(spectrum, b, n, count)
+    if not all(np.isfinite(x).all() for x in (kern.a, kern.mean, kern.var)):
+        raise TooLarge(
+            f"the one-particle sums at T = {_temperature_text(temperature)} pass the range of double precision, "
+            "so the float route cannot hold them; use the exact recursion (route recursion)",
+            parameters=["route"],
+        )
     u = _U53
     a = kern.a
     mean, var = kern.mean, kern.var
@@ -1370,7 +1396,8 @@ def grand_canonical_thermo(system: System, temperature, mu, digits: int = 20):
                 add(e, g)
         else:
             lad = spectrum.ladder
-            rungs = float((mu + (lad.dimension + 2.3 * digits + 20) * T) / (lad.spacing * u))
+            # the terms fall like e^{-ε/T} from max(μ, 0): a negative μ (high T) does not shorten the sum
+            rungs = float((max(mu, 0) + (lad.dimension + 2.3 * digits + 20) * T) / (lad.spacing * u))
             if rungs > _GC_MAX_RUNGS:
                 return None, None
             m = 0
@@ -1380,6 +1407,8 @@ def grand_canonical_thermo(system: System, temperature, mu, digits: int = 20):
                 if past_peak and all(abs(t) <= eps * abs(s_) for t, s_ in zip(terms, sums) if s_):
                     break
                 m += 1
+                if m > _GC_MAX_RUNGS:  # the estimate above was passed: these fields are extras
+                    return None, None
         U, varN, cov, varE = sums
         C = (varE - cov * cov / varN) / (T * T) if varN > 0 else mpmath.mpf(0)
         with mpmath.workdps(digits):
@@ -1546,19 +1575,17 @@ def _gc_total(system: System, b, eta, formula):
             total += lad.degeneracy(m) * formula(X)
             X = X * step
     eps = mpmath.ldexp(mpmath.mpf(1), -mpmath.mp.prec)
-    q1 = mpmath.exp(-bs)
     fug = mpmath.exp(eta)
     lead = [math.comb(m0 + i - 1, i) if m0 else int(i == 0) for i in range(d)]
     c1 = None if system.capacity is None else system.capacity + 1
-    q = mpmath.mpf(1)
     fj = mpmath.mpf(1)
     j = 0
     while True:
         j += 1
-        q = q * q1
+        q = mpmath.exp(-j * bs)
         fj = fj * fug
         weight = 1 if c1 is None or j % c1 else 1 - c1
-        inv = 1 / (1 - q)
+        inv = -1 / mpmath.expm1(-j * bs)  # 1/(1 - q): 1 - q rounds to 0 when b s is tiny (high T)
         tail = q ** m0 * mpmath.fsum(lead[i] * inv ** (d - i) for i in range(d))
         term = weight * fj * tail
         total += term

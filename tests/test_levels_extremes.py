@@ -1,0 +1,30 @@
+"""Canonical quantities at the ends of the accepted temperature range: answers or one-line refusals.
+
+Reference: equipartition, ``U -> d N k_B T`` and ``C -> d N`` for ``N``
+particles in a ``d``-dimensional harmonic trap far above the level spacing
+(the classical limit; common practice, e.g. Pathria & Beale, *Statistical
+Mechanics*, 3rd ed., §3.8, from memory).
+"""
+
+from __future__ import annotations
+
+import pytest
+from cli_helpers import run, run_json
+
+
+@pytest.mark.parametrize("temperature", ["1e100", "1e300"])
+def test_bosons_far_above_the_spacing_reach_equipartition(temperature):
+    point = run_json("levels", "--particles", "3", "--preset", "trap", "--rule", "BE",
+                     "--temperatures", temperature)["canonical"][0]
+    assert point["heat_capacity_approx"] == pytest.approx(9, rel=1e-6)
+    assert point["mean_energy_approx"] == pytest.approx(9 * float(temperature), rel=1e-6)
+
+
+@pytest.mark.parametrize("extra, words", [
+    (("--temperatures", "1e-300"), "T = 1.0e-300"),
+    (("--temperatures", "1e300", "--route", "float"), "route recursion"),
+])
+def test_refusals_are_one_short_line(extra, words):
+    result = run("levels", "--particles", "3", "--preset", "trap", "--rule", "BE", *extra)
+    assert result.exit_code == 2 and "Traceback" not in result.output
+    assert result.stderr.count("\n") == 1 and words in result.stderr and len(result.stderr) < 300
