@@ -60,3 +60,31 @@ def test_json_stays_exact_and_small_tables_unchanged():
     # 373 balls in 10^5 urns: fractions of about 1,900 digits, computed for the table as before
     table = run("threshold", "--vary", "balls", "-r", "100000", "--event", "max >= 2", "--target", "1/2")
     assert table.exit_code == 0 and "373" in table.stdout and "evaluations" in table.stdout and "not computed" not in table.stdout
+
+
+def test_urns_vary_from_the_fewest_that_hold_the_balls():
+    # reference: under FD (at most one per urn) n balls need n urns, where "max <= 1" is certain
+    # (common practice); with capacity 3, 10 balls need 4 urns, and P at 10 and 11 urns is the
+    # ratio of bounded counts, checked here by brute force over the urn of every ball
+    import itertools
+
+    fd = run_json("threshold", "--vary", "urns", "-n", "3", "--rule", "FD", "--event", "max <= 1", "--target", "1/2")
+    assert fd["value"] == "3" and fd["probability"] == "1" and fd["probability_before"] is None
+
+    def brute(n, r, cap, top):
+        total = good = 0
+        for balls in itertools.product(range(r), repeat=n):
+            counts = [balls.count(i) for i in range(r)]
+            if max(counts) <= cap:
+                total += 1
+                good += max(counts) <= top
+        return Fraction(good, total)
+
+    capped = run_json("threshold", "--vary", "urns", "-n", "6", "--capacity", "3", "--event", "max <= 1",
+                      "--target", "1/10")
+    value = int(capped["value"])
+    assert Fraction(capped["probability"]) == brute(6, value, 3, 1) >= Fraction(1, 10)
+    assert Fraction(capped["probability_before"]) == brute(6, value - 1, 3, 1) < Fraction(1, 10)
+    refused = run("threshold", "--vary", "urns", "-n", "10", "--minimum", "3", "--capacity", "3", "--event",
+                  "max <= 3", "--target", "1/2")
+    assert refused.exit_code == 2 and "no number of urns holds 10 balls" in refused.stderr

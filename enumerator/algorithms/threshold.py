@@ -238,7 +238,9 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
         ball count is ignored; with ``vary="urns"`` it must be one group of
         equal urns (whose count is ignored), and the search starts at the
         largest urn the event names (``k3``: from 3 urns), where the event
-        is first defined.
+        is first defined, or at the fewest urns that hold the balls within
+        their capacity (FD: from ``n`` urns) if that is more; a minimum per
+        urn caps the search at ``n // minimum`` urns.
     vary : {"balls", "urns"}
         The free parameter.
     event : str
@@ -311,6 +313,18 @@ def find_threshold(model: UrnModel, vary: str, event: Union[str, Event], target,
         # an event naming urn I (kI) is defined from I urns on: the search starts there
         start = max([1] + [c.term.parameter for c in comparisons(node) if c.term.entry.indexes_urns])
         highest = SEARCH_CEILING
+        # the model admits the balls only from ceil(n / upper) urns on, and up to n // lower urns
+        n = model.balls
+        if group.upper is not None:
+            start = max(start, -(-n // group.upper) if group.upper else (1 if n == 0 else SEARCH_CEILING + 1))
+        if group.lower:
+            highest = min(highest, n // group.lower)
+        if start > highest:
+            most = "any number" if group.upper is None else f"at most {group.upper}"
+            raise InvalidParameters(
+                f"no number of urns holds {_count_text(n)} balls with at least {group.lower} and {most} in "
+                "each urn; change the bounds or the number of balls", parameters=["vary"],
+            )
 
         def at(v: int) -> UrnModel:
             return model.with_groups([(v, group.lower, group.upper, group.weight)])

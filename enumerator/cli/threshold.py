@@ -93,7 +93,8 @@ def threshold_command(
     The other parameters stay fixed (-r 365, or -n 23; --rule, bounds and
     weights).  The answer is the least value v with P(event) >= P at v,
     with the exact probabilities at v and at v - 1 (none below the smallest
-    value: 0 balls, 1 urn, or I urns for an event naming kI).
+    value: 0 balls, 1 urn, I urns for an event naming kI, or the fewest
+    urns that hold the balls within --capacity, e.g. n urns under FD).
 
     How it searches.  Bisection (an exponential search 1, 2, 4, ... then a
     binary search: O(log v) exact evaluations) where P is proved monotone in
