@@ -28,3 +28,12 @@ def test_refusals_are_one_short_line(extra, words):
     result = run("levels", "--particles", "3", "--preset", "trap", "--rule", "BE", *extra)
     assert result.exit_code == 2 and "Traceback" not in result.output
     assert result.stderr.count("\n") == 1 and words in result.stderr and len(result.stderr) < 300
+
+
+def test_a_unit_step_range_must_reach_its_upper_end():
+    # 0.5..0.6 in steps of 1 would silently be the single value 0.5
+    result = run("levels", "--preset", "harmonic", "--particles", "3", "--rule", "BE", "--temperatures", "0.5..0.6")
+    assert result.exit_code == 2 and ":K" in result.stderr and result.stderr.count("\n") == 1
+    points = run_json("levels", "--preset", "harmonic", "--particles", "3", "--rule", "BE",
+                      "--temperatures", "0.5..2.5")["canonical"]
+    assert [p["temperature"] for p in points] == [0.5, 1.5, 2.5]

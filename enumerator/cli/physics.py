@@ -129,7 +129,7 @@ def levels_command(
     temperatures: Annotated[
         Optional[str],
         _levels_opt("--temperatures", "Canonical results at these k_B T, in the energy unit (the level "
-                    "spacing for harmonic/trap/einstein): a list 0.5,1,2; a range 1..20 (step 1); "
+                    "spacing for harmonic/trap/einstein): a list 0.5,1,2; a range 1..20 (step 1, so B - A whole); "
                     "0.1..20:40 (40 points, linear); 0.1..20:40:log (geometric).", _THERMO, "T1,T2|A..B:K"),
     ] = None,
     factor: Annotated[

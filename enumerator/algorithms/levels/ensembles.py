@@ -87,7 +87,7 @@ def parse_temperatures(text) -> List[Fraction]:
         Items separated by commas, each one of
 
         * ``T``: one value (integer, fraction ``1/3`` or decimal ``0.25``);
-        * ``A..B``: ``A, A+1, ...`` up to ``B``;
+        * ``A..B``: ``A, A+1, ..., B`` (``B - A`` a whole number);
         * ``A..B:K``: ``K`` equally spaced values from ``A`` to ``B`` (both
           included), exact rationals;
         * ``A..B:K:log``: ``K`` values in geometric progression from ``A`` to
@@ -158,6 +158,10 @@ def _temperature_range(item: str) -> List[Fraction]:
         if steps + 1 > MAX_TEMPERATURES:
             raise InvalidParameters(f"the range {item!r} has more than {MAX_TEMPERATURES} values; add :K",
                                     parameters=["temperatures"])
+        if lo + steps != hi:  # steps of 1 would drop the upper end without a word
+            raise InvalidParameters(
+                f"the range {item!r} goes in steps of 1, which do not reach {parts[0].strip()}; "
+                f"add :K for K equally spaced values (e.g. {item.strip()}:5)", parameters=["temperatures"])
         return [lo + i for i in range(steps + 1)]
     try:
         count = int(parts[1])
