@@ -659,7 +659,7 @@ def event_count(model: UrnModel, event: Union[str, Event], limit: int = DEFAULT_
     total = outcome_total(model)
     if total == 0:
         raise InvalidParameters(
-            f"the model ({model!r}) admits no configuration, so the event has no probability; "
+            f"the model of {model} admits no configuration, so the event has no probability; "
             "loosen the bounds or change the number of balls"
         )
     planner = _Planner(model, limit)

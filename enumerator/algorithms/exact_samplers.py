@@ -458,7 +458,7 @@ class SequentialSampler(Sampler):
         estimate = 2 * self.r * (self.free + 1) * max(bits, 1)
         if estimate > MAX_TABLE_BITS:
             raise TooLarge(
-                f"exact sampling of {self.model!r} needs count tables of about "
+                f"exact sampling of {self.model} needs count tables of about "
                 f"{estimate // 8 // 2**20:,} MiB; use fewer balls or urns, or looser bounds"
             )
 

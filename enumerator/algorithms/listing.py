@@ -379,7 +379,7 @@ def iter_sparse(model, start=0, stop=None) -> Iterator[Tuple[Tuple[int, int], ..
         return iter(())
     if stop is not None:
         steps = (end - start) * (max(ranker.N, 0) + len(ranker.counts) + 1)
-        check(Cost(seconds=steps / SPARSE_STEPS_PER_SECOND, memory=0), f"listing {model!r} sparsely",
+        check(Cost(seconds=steps / SPARSE_STEPS_PER_SECOND, memory=0), f"listing {model} sparsely",
               advice="list a shorter range of ranks (start=, stop=)", parameters=["start", "stop"])
     first = ranker.unrank(start)
     return _sparse_walk(ranker, first, end - start)
@@ -531,7 +531,7 @@ def _check(model, cost: Cost, size) -> None:
     if size is not None:
         advice += " or smaller blocks (size=)"
         parameters.append("size")
-    check(cost, f"listing {model!r}", advice=advice, parameters=parameters)
+    check(cost, f"listing {model}", advice=advice, parameters=parameters)
 
 
 def _check_listing(model, start, stop, size=None) -> None:

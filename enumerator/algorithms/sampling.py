@@ -325,7 +325,7 @@ def _plan(model: UrnModel) -> Sampler:
         return plan
     if count_configurations(model) == 0:
         raise InvalidParameters(
-            f"{model!r} admits no configuration (its bounds cannot hold {model.balls} balls), "
+            f"the model of {model} admits no configuration (its bounds cannot hold {model.balls} balls), "
             "so there is nothing to sample; change the balls or the bounds"
         )
     plan = _choose(model)
@@ -347,7 +347,7 @@ def _forced(model: UrnModel, method: str) -> Sampler:
         return plan
     if model.weighted:
         raise InvalidParameters(
-            f"method {method!r} does not apply to {model!r}: it ignores weights; use method 'groups' (or the default)",
+            f"method {method!r} does not apply to {model}: it ignores weights; use method 'groups' (or the default)",
             parameters=["method"],
         )
     bounds = model.effective_bounds()
@@ -386,11 +386,11 @@ def _forced(model: UrnModel, method: str) -> Sampler:
         if share < REJECTION_FLOOR:
             raise TooLarge(
                 f"method 'rejection' would keep only about 1 in {-(-share.denominator // share.numerator):,} "
-                f"draws for {model!r}; use the default method (sequential) instead"
+                f"draws for {model}; use the default method (sequential) instead"
             )
         plan = RejectionSampler(model, base, share)
     if why:
-        raise InvalidParameters(f"method {method!r} does not apply to {model!r}: {why}")
+        raise InvalidParameters(f"method {method!r} does not apply to {model}: {why}")
     _MEMO.slots(model)[key] = plan
     return plan
 

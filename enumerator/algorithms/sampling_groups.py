@@ -155,7 +155,7 @@ class GroupSampler:
         self.empty = any(b < a for _, a, b, _ in spec) or sum(c * a for c, a, _, _ in spec) > n
         if self.empty:
             raise InvalidParameters(
-                f"{model!r} admits no configuration (its bounds cannot hold {n} balls), "
+                f"the model of {model} admits no configuration (its bounds cannot hold {n} balls), "
                 "so there is nothing to sample; change the balls or the bounds"
             )
         self._halves: Dict[Tuple[int, int, int, int], List] = {}
@@ -177,7 +177,7 @@ class GroupSampler:
         self.rows = suffix_rows(self.kind, spec, n)
         if self.rows[0][n] == 0:
             raise InvalidParameters(
-                f"{model!r} admits no configuration (its bounds cannot hold {n} balls), "
+                f"the model of {model} admits no configuration (its bounds cannot hold {n} balls), "
                 "so there is nothing to sample; change the balls or the bounds"
             )
         self.own = [group_row(self.kind, c, a, b, n, w) for c, a, b, w in spec] if len(spec) > 1 else None

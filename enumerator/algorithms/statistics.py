@@ -217,7 +217,7 @@ def statistic_counts(model: UrnModel, statistic: Union[str, Statistic], limit: i
     total = outcome_total(model)
     if total == 0:
         raise InvalidParameters(
-            f"the model ({model!r}) admits no configuration, so {stat.name!r} has no distribution; "
+            f"the model of {model} admits no configuration, so {stat.name!r} has no distribution; "
             "loosen the bounds or change the number of balls"
         )
     _check_answer_size(model, stat, int(total).bit_length())
@@ -297,7 +297,7 @@ def statistic_moments(model: UrnModel, statistic: Union[str, Statistic], limit: 
             pass
     if outcome_total(model) == 0:
         raise InvalidParameters(
-            f"the model ({model!r}) admits no configuration, so {stat.name!r} has no moments; "
+            f"the model of {model} admits no configuration, so {stat.name!r} has no moments; "
             "loosen the bounds or change the number of balls"
         )
     how, J = stat.entry.marking(stat.parameter)

@@ -322,6 +322,32 @@ class UrnModel:
             return f"{name}(balls={self.balls}, bounds={list(self.bounds)!r}, rule={self.rule.value!r})"
         return f"{name}(balls={self.balls}, groups={list(map(tuple, self._group_tuples()))!r}, rule={self.rule.value!r})"
 
+    def __str__(self):
+        """The model in words, for messages: ``"3 balls in 2 urns (MB, at most 0 per urn)"``.
+
+        Cost: constant for one group, linear in the groups otherwise (never in the urns).
+
+        >>> str(UrnModel(balls=3, urns=2, rule="MB", capacity=0))
+        '3 balls in 2 urns (MB, at most 0 per urn)'
+        >>> str(UrnModel(balls=1, bounds=[(0, 1), (1, None)], rule="BE"))
+        '1 ball in 2 urns (BE, 2 groups of urns)'
+        """
+        def count(n, noun):
+            return f"{n:,} {noun}" + ("" if n == 1 else "s")
+
+        words = [self.rule.value]
+        if self.is_uniform:
+            low, high = self.groups[0].bound
+            if low:
+                words.append(f"at least {low} per urn")
+            if high is not None and high != self.rule.description.per_urn:
+                words.append(f"at most {high} per urn")
+            if self.weighted:
+                words.append("weighted urns")
+        else:
+            words.append(count(len(self.groups), "group") + " of urns")
+        return f"{count(self.balls, 'ball')} in {count(self.urns, 'urn')} ({', '.join(words)})"
+
     def _group_tuples(self):
         return [(g.count, g.lower, g.upper, g.weight) for g in self.groups]
 
