@@ -469,20 +469,22 @@ def _check_multinomial(model: UrnModel) -> None:
     check(cost, "the weight of one configuration", advice="use fewer balls", parameters=["balls"])
 
 
-def _group_weight_power(model: UrnModel, values):
-    """``prod_i w_i^{k_i}`` as ``(numerator, denominator)`` mpz, walking the groups (``O(r)``)."""
+def _group_weight_power(model: UrnModel, view):
+    """``prod_i w_i^{k_i}`` as ``(numerator, denominator)`` mpz from a :meth:`~UrnModel.configuration_groups` view."""
     num = mpz(1)
     den = mpz(1)
-    start = 0
-    for g in model.groups:
-        count = g.count
+    for g, (counts, _) in zip(model.groups, view):
         if g.weight != 1:
-            k = sum(values[start:start + count])
+            k = sum(counts)
             if k:
                 num *= mpz(g.weight.numerator) ** k
                 den *= mpz(g.weight.denominator) ** k
-        start += count
     return num, den
+
+
+def _occupancies(view) -> Tuple[int, ...]:
+    """The occupancies a view lists, group after group (the unlisted urns hold 0 and change no weight)."""
+    return tuple(k for counts, _ in view for k in counts)
 
 
 def configuration_weight(model: UrnModel, config):
@@ -493,8 +495,9 @@ def configuration_weight(model: UrnModel, config):
     model : UrnModel
         The problem (at most :data:`~enumerator.core.model.PER_URN_LIMIT`
         urns: a vector has one entry per urn).
-    config : sequence of int
-        One occupancy per urn, summing to ``n``.
+    config : sequence of int, or mapping of int to int
+        One occupancy per urn, summing to ``n``; or a sparse vector
+        ``{urn: count}`` (urns from 1, the others empty), at any number of urns.
 
     Returns
     -------
@@ -519,14 +522,15 @@ def configuration_weight(model: UrnModel, config):
     >>> configuration_weight(UrnModel(balls=3, weights=[2, "1/2"], rule="BE"), (2, 1))
     2
     """
-    values = model.check_configuration(config)
-    if not model._within_bounds(values):
+    view = model.configuration_groups(config)
+    if not model.groups_admit(view):
         return 0
+    values = _occupancies(view)
     _check_multinomial(model)
     base = model.rule.weight(values)
     if not model.weighted:
         return int(base)
-    num, den = _group_weight_power(model, values)
+    num, den = _group_weight_power(model, view)
     return _public(gmpy2.mpq(mpz(base) * num, den))
 
 
@@ -622,8 +626,9 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
     model : UrnModel
         The problem (at most :data:`~enumerator.core.model.PER_URN_LIMIT`
         urns: a vector has one entry per urn).
-    config : sequence of int
-        One occupancy per urn, summing to ``n``.
+    config : sequence of int, or mapping of int to int
+        One occupancy per urn, summing to ``n``; or a sparse vector
+        ``{urn: count}`` (urns from 1, the others empty), at any number of urns.
 
     Returns
     -------
@@ -657,9 +662,10 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
     >>> configuration_probability(UrnModel(balls=2, weights=[1, 3], rule="MB"), (1, 1))
     Fraction(3, 8)
     """
-    values = model.check_configuration(config)
-    if not model._within_bounds(values):
+    view = model.configuration_groups(config)
+    if not model.groups_admit(view):
         return Fraction(0)
+    values = _occupancies(view)
     _check_multinomial(model)
     common = _common_weight(model)
     if common is not None:
@@ -670,7 +676,7 @@ def configuration_probability(model: UrnModel, config) -> Fraction:
                 return _reduced_mb_probability(plain, values)
             return exact_fraction(multinomial(values), _microstates(plain))
         return exact_fraction(1, count_configurations_mpz(plain))
-    num, den = _group_weight_power(model, values)
+    num, den = _group_weight_power(model, view)
     n = model.balls
     if model.rule.distinguishable:
         num *= multinomial(values)

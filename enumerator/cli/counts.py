@@ -107,7 +107,9 @@ def prob_command(
         Optional[str],
         typer.Option(
             "--config",
-            help='The occupancy vector "k1,k2,...,kr": one whole number per urn, summing to n.',
+            help='The occupancy vector "k1,k2,...,kr": one whole number per urn, summing to n; or, at '
+                 'any number of urns, the occupied urns as "URN:COUNT" pairs ("3:2 7:1", urns from 1), '
+                 'as sparse listings and samples write them.',
         ),
     ] = None,
     event: Annotated[
@@ -138,6 +140,9 @@ def prob_command(
     --config: MB n!/(k1!...kr!) assignments out of all admissible ones; BE and
     FD one vector out of all admissible vectors.  A vector that breaks a bound
     has probability exactly 0; one of the wrong length or sum is an error.
+    At any number of urns, --config "URN:COUNT ..." gives the occupied urns
+    only (the form of sparse listings and samples; the other urns are empty),
+    at a cost in the pairs, never in the urns.
 
     --event: a statement about the vector built from max, min, empty,
     occupied, k1..kr and count(OP J), compared with == != < <= > >= and joined
@@ -188,7 +193,10 @@ def prob_command(
         else:
             vector = parse_config(config)
             probability = model.probability(vector)
-            text = ",".join(map(str, vector))
+            if isinstance(vector, dict):  # sparse: the pairs in urn order, as sparse listings write them
+                text = " ".join(f"{urn}:{count}" for urn, count in sorted(vector.items()))
+            else:
+                text = ",".join(map(str, vector))
             field, title = "config", f"{describe(model)}; configuration ({text})"
             if on_cluster:
                 note = _NO_CLUSTER.format(what="the probability of one vector")

@@ -532,30 +532,57 @@ def store_scope(location: Optional[str], no_cache: bool) -> Iterator[None]:
 _WHOLE = re.compile(r"[+-]?\d+")
 
 
-def parse_config(text: str) -> tuple:
-    """Parse ``"2,0,1"`` into a tuple of ints.
+def parse_config(text: str):
+    """Parse ``--config``: ``"2,0,1"`` into a tuple of ints, or ``"3:2 7:1"`` into ``{urn: count}``.
 
     Parameters
     ----------
     text : str
-        The value of ``--config``: one whole number per urn, comma-separated.
+        One whole number per urn, comma-separated; or, for any number of
+        urns, the occupied urns as ``URN:COUNT`` pairs separated by blanks
+        or commas (urns numbered from 1, powers such as ``2^64`` allowed), the
+        form sparse listings and samples write.
 
     Returns
     -------
-    tuple of int
-        The entries; length, sum and signs are the model's to check.
+    tuple of int or dict of int to int
+        The entries; length, sum, urn range and signs are the model's to check.
 
     Raises
     ------
     InvalidConfiguration
-        An entry is not a whole number.
+        An entry is not a whole number, or a pair is malformed or repeats an urn.
 
     Notes
     -----
     Cost: linear in the length of *text*.
-    """
-    from ..core.groups import MAX_DIGITS
 
+    Examples
+    --------
+    >>> parse_config("2,0,1"), parse_config("3:2 2^64:1")
+    ((2, 0, 1), {3: 2, 18446744073709551616: 1})
+    """
+    from ..core.errors import InvalidParameters
+    from ..core.groups import MAX_DIGITS, parse_count
+
+    if ":" in text:
+        pairs = {}
+        for position, item in enumerate(text.replace(",", " ").split(), start=1):
+            urn_text, colon, count_text = item.partition(":")
+            count_text = count_text.strip()
+            if not colon or len(count_text) > MAX_DIGITS + 1 or not _WHOLE.fullmatch(count_text):
+                raise InvalidConfiguration(
+                    f"config pair {position} ({item!r}) is not URN:COUNT; write the occupied urns as pairs "
+                    "such as --config \"3:2 7:1\" (urns from 1), or one occupancy per urn such as 2,0,1"
+                )
+            try:
+                urn = parse_count(urn_text, f"the urn of config pair {position}", 1)
+            except InvalidParameters as error:
+                raise InvalidConfiguration(str(error)) from None
+            if urn in pairs:
+                raise InvalidConfiguration(f"urn {urn} appears twice in --config; give each occupied urn once")
+            pairs[urn] = int(count_text)
+        return pairs
     items = text.split(",")
     values = []
     for position, item in enumerate(items, start=1):
@@ -563,7 +590,8 @@ def parse_config(text: str) -> tuple:
         if len(item) > MAX_DIGITS + 1 or not _WHOLE.fullmatch(item):
             raise InvalidConfiguration(
                 f"config entry {position} ({item!r}) is not a whole number; "
-                'write one occupancy per urn separated by commas, e.g. --config 2,0,1'
+                'write one occupancy per urn separated by commas, e.g. --config 2,0,1, '
+                'or the occupied urns as URN:COUNT pairs, e.g. --config "3:2 7:1"'
             )
         values.append(int(item))
     return tuple(values)

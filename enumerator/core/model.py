@@ -528,18 +528,88 @@ class UrnModel:
         return values
 
     def admits(self, config) -> bool:
-        """True when the (well-formed) configuration respects every bound."""
-        values = self.check_configuration(config)
-        return self._within_bounds(values)
+        """True when the (well-formed) configuration respects every bound (a vector or ``{urn: count}``)."""
+        return self.groups_admit(self.configuration_groups(config))
 
-    def _within_bounds(self, values: Tuple[int, ...]) -> bool:
-        start = 0
+    def configuration_groups(self, config) -> Tuple[Tuple[Tuple[int, ...], int], ...]:
+        """A configuration seen group by group: per group, ``(listed occupancies, unlisted urns)``.
+
+        Parameters
+        ----------
+        config : sequence of int or mapping of int to int
+            One occupancy per urn (checked by :meth:`check_configuration`),
+            or a sparse vector ``{urn: count}`` with urns numbered from 1 as
+            in sparse listings; the urns it leaves out hold 0.
+
+        Returns
+        -------
+        tuple
+            For each group in order, the occupancies given for its urns and
+            the number of its urns given none (0 for a full vector).
+
+        Raises
+        ------
+        InvalidConfiguration
+            An urn outside ``1..r``, a negative or non-whole occupancy, or a
+            sum other than ``n``.
+
+        Notes
+        -----
+        Cost: linear in a full vector; ``O(m log g)`` for ``m`` sparse
+        entries and ``g`` groups (a bisection over the group starts), never in
+        the number of urns, so a vector over ``2^64`` urns is cheap.
+
+        Examples
+        --------
+        >>> UrnModel(balls=3, urns=2**64, rule="MB").configuration_groups({5: 2, 2**64: 1})
+        (((2, 1), 18446744073709551614),)
+        """
+        from collections.abc import Mapping
+
+        if not isinstance(config, Mapping):
+            values = self.check_configuration(config)
+            out, start = [], 0
+            for g in self.groups:
+                out.append((values[start:start + g.count], 0))
+                start += g.count
+            return tuple(out)
+        import bisect
+
+        starts, total = [], 0
         for g in self.groups:
-            part = values[start:start + g.count]
-            start += g.count
-            if min(part) < g.lower or (g.upper is not None and max(part) > g.upper):
+            starts.append(total + 1)
+            total += g.count
+        listed = [[] for _ in self.groups]
+        balls = 0
+        for urn, count in config.items():
+            try:
+                urn, count = operator.index(urn), operator.index(count)
+            except TypeError:
+                raise InvalidConfiguration(
+                    f"a sparse configuration maps urn numbers to whole occupancies (got {urn!r}: {count!r})"
+                ) from None
+            if not 1 <= urn <= total:
+                raise InvalidConfiguration(f"urn {urn} is outside 1..{total}; number the urns from 1")
+            if count < 0:
+                raise InvalidConfiguration(f"urn {urn} holds {count}; occupancies cannot be negative")
+            listed[bisect.bisect_right(starts, urn) - 1].append(count)
+            balls += count
+        if balls != self.balls:
+            raise InvalidConfiguration(
+                f"configuration sums to {balls} but the model has {self.balls} ball{'s' * (self.balls != 1)}; "
+                "the occupancies must add up to the number of balls"
+            )
+        return tuple((tuple(counts), g.count - len(counts)) for counts, g in zip(listed, self.groups))
+
+    def groups_admit(self, view) -> bool:
+        """True when a :meth:`configuration_groups` view respects every bound (unlisted urns hold 0)."""
+        for g, (counts, zeros) in zip(self.groups, view):
+            if zeros and g.lower > 0:
+                return False
+            if counts and (min(counts) < g.lower or (g.upper is not None and max(counts) > g.upper)):
                 return False
         return True
+
 
 
 def _as_group(item, position: int) -> UrnGroup:
