@@ -75,7 +75,9 @@ def sample_command(
     draws reproducible, and a smaller --size gives the first rows of a larger
     one. With --sparse, or more than 1,048,576 urns (or dense rows beyond
     --max-memory), each draw is written as its occupied urns and their counts
-    (csv: draw,occupied with "urn:count" pairs), by the exact group sampler.
+    (csv: draw,occupied with "urn:count" pairs), by the exact group sampler:
+    the same law, but a seed gives other draws than in the dense form.
+    prob --config takes such pairs back.
 
     Example:
 
