@@ -435,11 +435,26 @@ def _miller_block_cost(block, n: int, m: int, bits: float) -> Cost:
 
 
 def _block_route(block, n: int, m: int, bits: float):
-    """``(how, cost)``: the cheapest row of one block at bound *m*, ``"levels"``, ``"miller"`` or ``"rows"``."""
+    """``(how, cost)``: the cheapest row of one block at bound *m*, ``"levels"``, ``"miller"`` or ``"rows"``.
+
+    ``"rows"`` (a grouped row: one row per group and a FLINT product per
+    further group) is priced as its single-group rows and
+    :func:`_product_cost` per product, the same figures as the other
+    routes, so that the choice compares like with like.
+    """
     options = [("levels", _vector_level_cost(block, n, m, bits)), ("miller", _miller_block_cost(block, n, m, bits))]
     if len(block) > 1:
-        options.append(("rows", grouped.row_cost(_capped(block, m), n, True)))
+        options.append(("rows", _grouped_row_cost(block, n, m, bits)))
     return min(options, key=lambda option: option[1].seconds)
+
+
+def _grouped_row_cost(block, n: int, m: int, bits: float) -> Cost:
+    """A grouped row of free MB groups at bound *m*: one row per group and ``|block| - 1`` products."""
+    cost = _product_cost(n, bits).times(len(block) - 1)
+    for g in block:
+        cost = cost + min(_vector_level_cost([g], n, m, bits), _miller_block_cost([g], n, m, bits),
+                          key=lambda c: c.seconds)
+    return cost
 
 
 def _block_row(block, n: int, m: int, how: str) -> list:
@@ -528,6 +543,10 @@ def _blocks_capped(groups, n: int, m: int, blocks=None, hows=None):
 def _per_bound_route(groups, n: int, m: int, free: bool, bits: float):
     """``(name, cost)`` of the cheaper way to one ``A_m`` on its own: ``"blocks"`` (free MB groups) or ``"rows"``."""
     rows = grouped.row_cost(_capped(groups, m), n, True)
+    if free and len(groups) > 1:
+        # a grouped count (grouped.total_count): G rows, G - 2 products and one dot product, priced as the blocks are
+        rows = Cost(seconds=max(rows.seconds, _grouped_row_cost(groups, n, m, bits).seconds
+                                - _product_cost(n, bits).seconds), memory=rows.memory)
     if free and len(groups) > 2:
         blocks = _blocks_cost(groups, n, m, bits)
         if blocks.seconds < rows.seconds:
