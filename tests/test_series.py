@@ -241,5 +241,35 @@ def test_miller_power_rejects_a_zero_constant_term():
     with pytest.raises(ValueError):
         series.miller_power([0, 1], 3, 4)
     with pytest.raises(ValueError):
-        series.miller_power([1, 1], -1, 4)
+        series.miller_power([2, 1], -1, 4)  # 1/(2 + x) has no integer coefficients
     assert series.miller_power([1, 1], 3, -1) == []
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    values=st.lists(st.integers(-5, 5), min_size=1, max_size=5),
+    sign=st.sampled_from([1, -1]),
+    exponent=st.integers(-12, -1),
+    degree=st.integers(0, 12),
+)
+def test_miller_power_negative_exponent_matches_flint_inverse(values, sign, exponent, degree):
+    # a unit constant term: F^e = (1/F)^|e|, the inverse by schoolbook long division (written
+    # here) and its power by FLINT, not by the recurrence under test
+    f = [sign] + values + [0] * degree
+    inverse = [sign]
+    for k in range(1, degree + 1):
+        inverse.append(-sign * sum(f[j] * inverse[k - j] for j in range(1, k + 1)))
+    expected = series.coefficients(fmpz_poly(inverse) ** -exponent, degree)
+    assert [int(c) for c in series.miller_power([sign] + values, exponent, degree)] == expected
+
+
+def test_miller_rational_power_against_sympy_series():
+    # (1 + x - 2x^2)^(p/q) by SymPy's series() (outside reference)
+    x = sympy.Symbol("x")
+    for a in (Fraction(1, 2), Fraction(-2, 3), Fraction(7, 5), Fraction(-3)):
+        expansion = sympy.series((1 + x - 2 * x**2) ** sympy.Rational(a.numerator, a.denominator), x, 0, 8).removeO()
+        expected = [Fraction(str(expansion.coeff(x, k))) for k in range(8)]
+        got = series.miller_rational_power([1, 1, -2], a, 7)
+        assert [Fraction(int(c.numerator), int(c.denominator)) for c in got] == expected
+    with pytest.raises(ValueError):
+        series.miller_rational_power([2, 1], Fraction(1, 2), 3)

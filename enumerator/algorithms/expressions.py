@@ -1,10 +1,11 @@
 r"""User-written generating functions: safe parsing and exact expansion.
 
 :func:`parse_expression` reads a one-variable expression (whole numbers, the
-variable, ``+ - * /``, integer powers, parentheses) without running any
-other Python; :func:`extract_coefficients` expands it exactly in truncated
-power series by the project's kernel (:mod:`enumerator.core.series`: FLINT
-products and powers, Newton's iteration for reciprocals), never by SymPy's
+variable, ``+ - * /``, powers, parentheses) without running any other
+Python; :func:`extract_coefficients` expands it exactly in truncated power
+series by the project's kernel (:mod:`enumerator.core.series`: FLINT
+products and powers, Newton's iteration for reciprocals, Miller's
+recurrence for a power of any size or a rational power), never by SymPy's
 ``series()``.  The generating functions of a model are
 :mod:`enumerator.algorithms.generating`.
 """
@@ -18,23 +19,30 @@ import tokenize
 from fractions import Fraction
 from typing import Dict, List, Optional, Tuple, Union
 
+import gmpy2
 import sympy
 from flint import fmpq, fmpq_poly, fmpz_poly
 
 from ..core import series
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.exact import decimal_digits
 from ..core.groups import MAX_DIGITS
-from ..core.limits import STEPS_PER_SECOND, Cost, check
+from ..core.limits import STEPS_PER_SECOND, Cost, check, product_seconds
 from ..core.model import as_count
 
 __all__ = [
+    "MAX_BINARY_EXPONENT",
     "MAX_CONSTANT_BITS",
     "MAX_EXPRESSION_CHARS",
     "MAX_NESTING",
     "MAX_POWER_BITS",
+    "MESSAGE_DIGITS",
     "extract_coefficients",
     "expansion_cost",
+    "miller_cost",
+    "number_text",
     "parse_expression",
+    "rational_power",
     "symbol",
 ]
 
@@ -82,6 +90,15 @@ MAX_CONSTANT_BITS = 10_000_000
 #: Largest estimated total size, in bits, of the coefficients of one
 #: truncated power in :func:`extract_coefficients`.
 MAX_POWER_BITS = 2**32
+#: Largest whole exponent taken by binary powering (FLINT); larger ones, and
+#: rational ones, go by Miller's recurrence, whose cost does not grow with
+#: the exponent's size beyond its bits.
+MAX_BINARY_EXPONENT = 10**12
+#: Most terms Miller's recurrence is asked for before any cost estimate
+#: (a pole raised to a huge power); the limits refuse far fewer.
+MAX_MILLER_TERMS = 2**40
+#: Numbers longer than this many digits are written by their digit count in messages.
+MESSAGE_DIGITS = 40
 
 
 def symbol(name, what: str = "var") -> sympy.Symbol:
@@ -496,9 +513,14 @@ class _Expander:
         self._check_growth(a.poly, rel)
         return _normalise(val, series.inverse(a.poly, rel), val + rel, self.limit)
 
-    def power(self, a: _Series, k: int) -> _Series:
+    def power(self, a: _Series, k) -> _Series:
         if k == 0:
             return self.constant(Fraction(1))
+        if isinstance(k, Fraction):
+            if k.denominator == 1 and abs(k) <= MAX_BINARY_EXPONENT:
+                k = k.numerator
+            else:
+                return self.miller(a, k)
         if k < 0:
             return self.power(self.inverse(a), -k)
         if a.is_exact_zero():
@@ -524,6 +546,69 @@ class _Expander:
         poly = _truncated_power(a.poly, k, rel)
         absolute = math.inf if (a.prec is None and a.poly.degree() * k < rel) else val + rel
         return _normalise(val, poly, absolute, self.limit)
+
+    def miller(self, a: _Series, k: Fraction) -> _Series:
+        """``a^k`` for a rational or huge exponent *k*, by Miller's recurrence.
+
+        ``a = x^v c_0 (1 + ...)``: the result is ``x^(v k) c_0^k (1 + ...)^k``,
+        a power series only when ``v k`` is whole and ``c_0^k`` rational
+        (checked exactly); its relative precision is *a*'s (``[x^j]`` of the
+        power reads ``a``'s first ``j`` terms).  Costs are checked by
+        :func:`miller_cost` before computing.
+        """
+        if a.is_exact_zero():
+            if k < 0:
+                raise InvalidParameters("division by zero: a denominator of the expression is identically 0")
+            return a
+        if a.is_zero():
+            # Only O(x^m) is known: the power is O(x^(m k)) when k > 0.
+            if k > 0 and a.val > 0 and a.val * k >= self.limit:
+                return _Series(self.limit, fmpq_poly([]), 0)
+            raise _NeedPrecision(max(16, self.limit // 2))
+        shifted = a.val * k
+        if shifted.denominator != 1:
+            raise InvalidParameters(
+                f"the power {number_text(k)} of a series starting with x^{a.val} starts with "
+                f"x^({number_text(shifted)}), which is not a power series; only a base whose "
+                f"lowest power of the variable times the exponent is whole can take this exponent"
+            )
+        val = shifted.numerator
+        if val >= self.limit:
+            return _Series(self.limit, fmpq_poly([]), 0)
+        poly = a.poly
+        c0 = Fraction(int(poly[0].p), int(poly[0].q))
+        lead = rational_power(c0, k, "the constant term")
+        if a.prec is None and poly.degree() == 0:
+            return _normalise(val, fmpq_poly([fmpq(lead.numerator, lead.denominator)]), math.inf, self.limit)
+        rel = self.limit - val
+        if a.prec is not None:
+            rel = min(rel, a.prec)
+        if rel <= 0:
+            return _Series(self.limit, fmpq_poly([]), 0)
+        if rel > MAX_MILLER_TERMS:
+            raise TooLarge(
+                f"the power {number_text(k)} of a series starting with x^{a.val} starts with "
+                f"x^({number_text(val)}): expanding it would take {number_text(rel)} terms; lower the "
+                "exponent or the order of the pole at 0",
+            )
+        terms = min(poly.length(), rel)
+        unit = poly.truncate(terms) / fmpq(c0.numerator, c0.denominator)
+        denominator = int(unit.denom())
+        numer = unit.numer()
+        norm = sum(abs(int(c)) for c in numer.coeffs())
+        check(miller_cost(rel, terms, k, norm, denominator),
+              f"raising a series to the power {number_text(k)} to {number_text(rel)} terms",
+              advice="lower upto=", parameters=["upto"])
+        if k.denominator == 1 and denominator == 1 and lead.denominator == 1:
+            row = series.miller_power(numer.coeffs(), k.numerator, rel - 1)
+            if lead != 1:
+                row = [c * lead.numerator for c in row]
+            return _Series(val, None, rel, row)
+        values = [Fraction(int(numer[j]), denominator) for j in range(terms)]
+        row = series.miller_rational_power(values, k, rel - 1)
+        scale = gmpy2.mpq(lead.numerator, lead.denominator)
+        poly = fmpq_poly([fmpq(int(c.numerator), int(c.denominator)) for c in (v * scale for v in row)])
+        return _normalise(val, poly, val + rel, self.limit)
 
     # -- size guards -------------------------------------------------------
     @staticmethod
@@ -627,15 +712,27 @@ class _Expander:
             return result
         if node.is_Pow:
             base, exponent = node.args
-            k = _integer_exponent(exponent, x)
+            try:
+                k = _exponent(exponent, x)
+            except TooLarge:
+                # An exponent too large to write: x^E (or a series without a
+                # constant term to that power) is 0 below x^limit when E is
+                # provably a huge positive whole number.
+                if x in base.free_symbols and _huge_positive(exponent, x):
+                    a = self.expand(base)
+                    if a.val > 0 and not a.is_zero():
+                        return _Series(self.limit, fmpq_poly([]), 0)
+                raise
             if x not in base.free_symbols:
-                value = _constant_value(base, x)
-                if value == 0 and k < 0:
-                    raise InvalidParameters("division by zero: a denominator of the expression is 0")
-                _guard_constant_power(value, k)
-                return self.constant(value**k)
+                return self.constant(rational_power(_constant_value(base, x), k))
             if base == x:
-                return self.laurent({k: Fraction(1)})
+                if k.denominator != 1:
+                    raise InvalidParameters(
+                        f"the exponent {number_text(k)} is not a whole number, and {x.name}^({number_text(k)}) "
+                        f"is not a power series; only whole powers of {x.name} itself are allowed (a series "
+                        f"with constant term 1 may take any rational power, e.g. (1 + {x.name})^(1/2))"
+                    )
+                return self.laurent({k.numerator: Fraction(1)})
             return self.power(self.expand(base), k)
         raise InvalidParameters(_not_allowed(node, x))
 
@@ -679,13 +776,112 @@ def _monomial(node, x) -> Optional[Tuple[Fraction, int]]:
     return None
 
 
+def number_text(value) -> str:
+    """*value* (an int or Fraction) as text, or by its digit count when it is long.
+
+    Messages write a number of at most :data:`MESSAGE_DIGITS` digits in
+    full and a longer one as ``a 19,729-digit number`` (a fraction as
+    ``a fraction of 19,729 / 3 digits``), so that a refusal stays one short
+    line whatever the input.
+
+    Examples
+    --------
+    >>> number_text(Fraction(1, 2)), number_text(-2**64), number_text(2**65536)
+    ('1/2', '-18446744073709551616', 'a 19,729-digit number')
+    """
+    value = Fraction(value)
+    top, bottom = decimal_digits(value.numerator), decimal_digits(value.denominator)
+    if top + bottom <= MESSAGE_DIGITS:
+        return str(value)
+    sign = "-" if value < 0 else ""
+    if value.denominator == 1:
+        return f"a {sign and 'negative '}{top:,}-digit number"
+    return f"a {sign and 'negative '}fraction of {top:,} / {bottom:,} digits"
+
+
 def _guard_constant_power(value: Fraction, k: int, what: str = "the constant") -> None:
     bits = max(abs(value.numerator).bit_length(), value.denominator.bit_length())
     if bits > 1 and (bits - 1) * abs(k) > MAX_CONSTANT_BITS:
         raise TooLarge(
-            f"{what} {value} raised to the power {k} would have about {(bits - 1) * abs(k):,} bits; "
-            "use a smaller exponent"
+            f"{what} {number_text(value)} raised to the power {number_text(k)} would have about "
+            f"{(bits - 1) * abs(k):,} bits; use a smaller exponent"
+            if decimal_digits((bits - 1) * abs(k)) <= MESSAGE_DIGITS else
+            f"{what} {number_text(value)} raised to the power {number_text(k)} would have more bits "
+            "than any memory holds; use a smaller exponent"
         )
+
+
+def _exact_root(value: int, q: int) -> Optional[int]:
+    """The ``q``-th root of ``value >= 0`` when it is whole, else ``None`` (gmpy2 ``iroot``)."""
+    if value in (0, 1):
+        return value
+    if q >= value.bit_length():
+        return None  # 2^q > value > 1: no whole root
+    root, exact = gmpy2.iroot(gmpy2.mpz(value), q)
+    return int(root) if exact else None
+
+
+def rational_power(value: Fraction, k, what: str = "the constant") -> Fraction:
+    """``value^k`` for a rational *k*, exactly, or raise when it is irrational or too large.
+
+    Parameters
+    ----------
+    value : Fraction
+        The base.
+    k : int or Fraction
+        The exponent ``p/q`` in lowest terms, any size.
+    what : str
+        How the message names *value*.
+
+    Returns
+    -------
+    Fraction
+        ``(value^(1/q))^p``, with the real ``q``-th root (negative for a
+        negative base and odd ``q``).
+
+    Raises
+    ------
+    InvalidParameters
+        ``0`` to a negative power, or a base with no rational ``q``-th root.
+    TooLarge
+        A result of more than :data:`MAX_CONSTANT_BITS` bits.
+
+    Notes
+    -----
+    The root is checked exactly with GMP's ``mpz_root`` (gmpy2 ``iroot``)
+    on the numerator and denominator: ``O(M(b) log b)`` for a ``b``-bit base.
+
+    Examples
+    --------
+    >>> rational_power(Fraction(9, 4), Fraction(-3, 2)), rational_power(Fraction(-8), Fraction(1, 3))
+    (Fraction(8, 27), Fraction(-2, 1))
+    """
+    value, k = Fraction(value), Fraction(k)
+    if value == 0:
+        if k < 0:
+            raise InvalidParameters("division by zero: a denominator of the expression is 0")
+        return Fraction(0)
+    if value in (1, -1) and k.denominator == 1:
+        return Fraction(-1) if value == -1 and k.numerator & 1 else Fraction(1)
+    q, p = k.denominator, k.numerator
+    if q != 1:
+        if value < 0 and q % 2 == 0:
+            raise InvalidParameters(
+                f"{what} {number_text(value)} is negative, so its power {number_text(k)} (an even root) "
+                "is not a real number; such a power has no rational coefficients"
+            )
+        top = _exact_root(abs(value.numerator), q)
+        bottom = _exact_root(value.denominator, q)
+        if top is None or bottom is None:
+            root = "square" if q == 2 else "cube" if q == 3 else f"{number_text(q)}-th power"
+            raise InvalidParameters(
+                f"{what} {number_text(value)} is not a perfect {root}, so its power {number_text(k)} is "
+                f"irrational and the expansion has no rational coefficients; a rational exponent needs a "
+                f"constant term whose power is rational (1, or e.g. a perfect {root} for this exponent)"
+            )
+        value = Fraction(-top if value < 0 else top, bottom)
+    _guard_constant_power(value, p, what)
+    return value**p
 
 
 def _constant_value(node, x) -> Fraction:
@@ -701,34 +897,93 @@ def _constant_value(node, x) -> Fraction:
         return value
     if node.is_Pow:
         base, exponent = node.args
-        k = _integer_exponent(exponent, x)
-        value = _constant_value(base, x)
-        if value == 0 and k < 0:
-            raise InvalidParameters("division by zero: a denominator of the expression is 0")
-        _guard_constant_power(value, k)
-        return value**k
+        return rational_power(_constant_value(base, x), _exponent(exponent, x))
     raise InvalidParameters(_not_allowed(node, x))
 
 
-def _integer_exponent(node, x) -> int:
-    """The exponent of a power: an exact integer constant, else a clear error."""
+def _exponent(node, x) -> Fraction:
+    """The exponent of a power: an exact rational constant (any size), else a clear error."""
     if x in node.free_symbols:
         raise InvalidParameters(
-            f"the exponent {node} contains {x.name}; only constant integer exponents are allowed"
+            f"the exponent {_short(node)} contains {x.name}; only constant (rational) exponents are allowed"
         )
     if node.is_Integer:
-        value = Fraction(int(node))
-    else:
-        value = _constant_value(node, x)
-    if value.denominator != 1:
-        raise InvalidParameters(
-            f"the exponent {node} is not a whole number; only integer powers give a power series "
-            "with rational coefficients"
-        )
-    k = value.numerator
-    if abs(k) > 10**12:
-        raise TooLarge(f"the exponent {k} is too large (at most 10^12 in absolute value)")
-    return k
+        return Fraction(int(node))
+    return _constant_value(node, x)
+
+
+def _huge_positive(node, x) -> bool:
+    """True when *node* is, from its shape, a whole number ``b^e >= 2^MAX_CONSTANT_BITS``.
+
+    That is a power whose base is a whole number ``>= 2`` (or itself such a
+    power) and whose exponent is a positive whole number (or itself such a
+    power) too large to evaluate: towers like ``2^2^2^2^2^2``.  Cost: one
+    evaluation per level, each within :data:`MAX_CONSTANT_BITS` bits.
+    """
+    if not node.is_Pow:
+        return False
+    base, exponent = node.args
+    if x in base.free_symbols or x in exponent.free_symbols:
+        return False
+    for part in (base, exponent):
+        try:
+            value = _constant_value(part, x)
+        except TooLarge:
+            if not _huge_positive(part, x):
+                return False
+        else:
+            if value.denominator != 1 or value < (2 if part is base else 1):
+                return False
+    return True
+
+
+def _short(node) -> str:
+    """A node as text, cut to 60 characters for a message."""
+    text = str(node)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def miller_cost(rel: int, terms: int, k: Fraction, norm: int, denominator: int) -> Cost:
+    """The cost of Miller's recurrence for ``(c_0 (1 + ...))^k`` to ``rel`` terms.
+
+    Parameters
+    ----------
+    rel : int
+        Terms wanted.
+    terms : int
+        Terms of the base (``s + 1``).
+    k : Fraction
+        The exponent ``p/q``.
+    norm : int
+        ``||N||_1``, the sum of the absolute values of the base's numerators
+        once divided by ``c_0`` and brought to the common *denominator*.
+    denominator : int
+        That common denominator ``D``.
+
+    Returns
+    -------
+    Cost
+        ``rel * min(terms - 1, rel)`` products of numbers of up to ``B``
+        bits, where ``[x^j]`` holds at most about
+        ``b_j = j (log2(|p| + q j) + log2 q + log2 D + log2 ||N||_1)`` bits
+        (a generalised binomial coefficient ``|C(a, j)| <= C(|a| + j, j)``
+        over ``(q D)^j`` times the norm to the ``j``; Knuth, *TAOCP* vol. 2,
+        §4.7); memory three copies of ``sum_j b_j`` bits.
+
+    Examples
+    --------
+    >>> miller_cost(4, 2, Fraction(2**64), 2, 1).seconds < 1e-3
+    True
+    """
+    p, q = abs(k.numerator), k.denominator
+    rel = min(rel, 2**62)  # beyond every limit anyway; keeps the float arithmetic finite
+    per = ((p + q * rel).bit_length() + q.bit_length() + denominator.bit_length()
+           + max(1, norm.bit_length()))
+    total_bits = per * rel * (rel + 1) // 2
+    steps = rel * max(1, min(terms - 1, rel))
+    rational = 24 if (q != 1 or denominator != 1) else 1  # mpq: products, a gcd and Python per step (measured)
+    seconds = steps * rational * product_seconds(per * rel / 2)
+    return Cost(seconds=seconds, memory=3 * (total_bits // 8) + rel * COEFFICIENT_BYTES)
 
 
 def _truncated_power(poly: fmpq_poly, k: int, length: int) -> fmpq_poly:

@@ -134,17 +134,22 @@ def coeff_command(
 ) -> None:
     """Expand a generating function exactly and print its coefficients up to x^N.
 
-    Polynomials, products, integer powers (negative too) and quotients are
-    expanded by the exact series kernel, never in floating point. A
-    denominator whose constant term is not 1 or -1 gives fractions, printed
-    as p/q. Start the expression with a space (or put -- before it) if it
-    begins with a minus sign.
+    Polynomials, products, powers and quotients are expanded by the exact
+    series kernel, never in floating point. An exponent may be any whole
+    number (2^64 is ordinary) or a fraction such as 1/2 when the base's
+    constant term has a rational power (1, or a perfect square for 1/2):
+    such powers go by Miller's recurrence, at a cost that grows with the
+    exponent's digits, not its size. A denominator whose constant term is not
+    1 or -1 gives fractions, printed as p/q. Start the expression with a
+    space (or put -- before it) if it begins with a minus sign.
 
     Example:
 
         $ enumerator coeff "1/(1 - x - x^2)" --upto 20
         $ enumerator coeff "1/((1-x)(1-x^2)(1-x^5)(1-x^10))" --upto 100 --json
         $ enumerator coeff "(1 + z)^5/(2 - z)" --var z --upto 6
+        $ enumerator coeff "(1 + x)^(1/2)" --upto 5
+        $ enumerator coeff "(1 + x)^(2^64)" --upto 3 --json
     """
     from ..algorithms.generating import extract_coefficients
 

@@ -27,6 +27,7 @@ __all__ = [
     "from_coefficients",
     "inverse",
     "miller_power",
+    "miller_rational_power",
     "one_minus_power",
     "power",
     "product",
@@ -222,8 +223,9 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
         ``f_0 != 0``: the ordinary series ``F = sum f_j x^j``, or with
         *labelled* the exponential one ``F = sum f_j x^j / j!``.
     exponent : int
-        ``e >= 0``, any size (``2**64`` is ordinary): it enters the
-        recurrence only as a multiplier.
+        Any size (``2**64`` is ordinary): it enters the recurrence only as
+        a multiplier.  Negative only when ``f_0 = ±1`` (the power is then a
+        series with integer coefficients).
     degree : int
         The last coefficient wanted.
     labelled : bool
@@ -240,7 +242,8 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
     Raises
     ------
     ValueError
-        For ``f_0 = 0``, a negative exponent, or an empty *values*.
+        For ``f_0 = 0``, a negative exponent with ``f_0 != ±1``, or an
+        empty *values*.
 
     Notes
     -----
@@ -267,15 +270,20 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
     """
     if degree < 0:
         return []
-    if exponent < 0:
-        raise ValueError("miller_power needs an exponent >= 0")
     f = [mpz(v) for v in values]
     if not f or f[0] == 0:
         raise ValueError("miller_power needs a series with a nonzero constant term")
     s = len(f) - 1
     f0 = f[0]
+    if exponent < 0 and f0 not in (1, -1):
+        raise ValueError("miller_power needs an exponent >= 0, or a constant term 1 or -1")
     p = [mpz(0)] * (degree + 1)
-    p[0] = f0 ** exponent if f0 != 1 else mpz(1)
+    if f0 == 1:
+        p[0] = mpz(1)
+    elif f0 == -1:
+        p[0] = mpz(-1) if exponent & 1 else mpz(1)
+    else:
+        p[0] = f0 ** exponent
     e1 = exponent + 1
     divexact = gmpy2.divexact
     for k in range(1, degree + 1):
@@ -295,6 +303,72 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
                     total += (e1 * j - k) * fj * p[k - j]
         p[k] = divexact(total, k * f0)
     return p
+
+
+def miller_rational_power(values: Sequence, exponent, degree: int) -> List:
+    r"""The coefficients of ``F(x)^a`` up to *degree* for a rational exponent ``a`` and ``f_0 = 1``.
+
+    Parameters
+    ----------
+    values : sequence of rationals
+        The coefficients ``f_0 = 1, f_1, ..., f_s`` of a polynomial ``F``
+        (``int``, ``Fraction``, ``mpq`` or ``fmpq``).
+    exponent : int or Fraction
+        ``a = p/q``, any sign and any size.
+    degree : int
+        The last coefficient wanted.
+
+    Returns
+    -------
+    list of mpq
+        ``degree + 1`` exact rationals: the binomial series
+        ``F^a = sum_k C(a, k) (F - 1)^k``, which has rational coefficients
+        because ``f_0 = 1`` (``F^a`` is the power series whose constant term
+        is 1).
+
+    Raises
+    ------
+    ValueError
+        For ``f_0 != 1`` (scale by ``f_0`` first; ``f_0^a`` is the caller's
+        business) or an empty *values*.
+
+    Notes
+    -----
+    J. C. P. Miller's recurrence (Knuth, *The Art of Computer Programming*,
+    vol. 2, 3rd ed., 1997, §4.7, eq. (9)): ``G = F^a`` satisfies
+    ``F G' = a F' G``, so ``k g_k = sum_{j=1}^{min(k, s)} ((a + 1) j - k) f_j g_{k-j}``
+    for any exponent, whole or not.  Cost: ``degree * min(s, degree)``
+    products of GMP rationals (``mpq``, reduced by a gcd each), whose
+    size grows linearly in ``k`` and in ``log |p| + log q``; memory
+    ``degree + 1`` entries.
+
+    Examples
+    --------
+    >>> from fractions import Fraction
+    >>> [str(c) for c in miller_rational_power([1, 1], Fraction(1, 2), 4)]   # sqrt(1 + x)
+    ['1', '1/2', '-1/8', '1/16', '-5/128']
+    >>> [int(c) for c in miller_rational_power([1, -1], -3, 4)]              # (1 - x)^-3
+    [1, 3, 6, 10, 15]
+    """
+    if degree < 0:
+        return []
+    mpq = gmpy2.mpq
+    f = [mpq(int(v.numerator), int(v.denominator)) for v in values]
+    if not f or f[0] != 1:
+        raise ValueError("miller_rational_power needs a series with constant term 1")
+    s = len(f) - 1
+    a1 = mpq(int(exponent.numerator), int(exponent.denominator)) + 1
+    steps = [(j, f[j]) for j in range(1, s + 1) if f[j]]
+    g = [mpq(0)] * (degree + 1)
+    g[0] = mpq(1)
+    for k in range(1, degree + 1):
+        total = mpq(0)
+        for j, fj in steps:
+            if j > k:
+                break
+            total += (a1 * j - k) * fj * g[k - j]
+        g[k] = total / k
+    return g
 
 
 def inverse(series, length: int):
