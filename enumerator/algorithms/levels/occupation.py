@@ -588,8 +588,10 @@ def occupation_law_exact(system: System, level: int, factor) -> OccupationLaw:
             yk = yk * ratio
         total = sum(terms)
         law = [t / total for t in terms]
-    law = tuple(_fraction(p) for p in law)
+    # the moments in gmpy2 rationals (GMP's subquadratic gcd), not CPython Fractions (quadratic gcd)
     mean, var = _moments(law)
+    law = tuple(_fraction(p) for p in law)
+    mean, var = _fraction(mean), _fraction(var)
     temperature = factor_temperature(x, spectrum.unit)
     gm, gv = _grand(system, level, temperature, DEFAULT_DIGITS)
     return OccupationLaw(level, temperature, x, law, mean, var, gm, gv)
