@@ -249,3 +249,46 @@ def test_csv_text_and_plot_file(tmp_path):
     path = tmp_path / "errors.png"
     plot_comparisons(results, str(path))
     assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec)
+
+
+def test_several_names_each_read_their_own_options():
+    # saddle reads --capacity, empty-mean does not: both run, one note on stderr names what is ignored
+    result = run("empty-mean,saddle", "--vary", "balls=20..60", "--step", 20, "--urns", "balls//2",
+                 "--capacity", 3, "--csv")
+    assert result.exit_code == 0, result.output
+    assert result.stderr.strip().splitlines() == ["note: empty-mean ignores --capacity"]
+    rows = list(csv.DictReader(io.StringIO(result.stdout)))
+    assert [(row["approximation"], row["balls"]) for row in rows] == [
+        ("empty-mean", "20"), ("empty-mean", "40"), ("empty-mean", "60"),
+        ("saddle", "20"), ("saddle", "40"), ("saddle", "60")]
+    for row in rows[:3]:
+        n, r = int(row["balls"]), int(row["urns"])
+        assert row["capacity"] == ""  # empty-mean did not read it
+        # MB mean number of empty urns r (1 - 1/r)^n (Feller vol. 1, §IV.2; common practice)
+        assert Fraction(row["exact"]) == r * Fraction(r - 1, r) ** n
+    for row in rows[3:]:
+        n, r = int(row["balls"]), int(row["urns"])
+        # BE count with capacity 3: [x^n] (1 + x + x^2 + x^3)^r by inclusion-exclusion (common practice)
+        count = sum((-1) ** j * math.comb(r, j) * math.comb(n - 4 * j + r - 1, r - 1) for j in range(n // 4 + 1))
+        assert int(row["exact"]) == count
+
+
+def test_several_names_one_lacking_a_needed_option_fails_alone():
+    result = run("empty-mean,saddle", "--vary", "balls=20..40", "--step", 20, "--urns", "balls//2", "--json")
+    assert result.exit_code == 2  # a named entry computed nothing
+    mean, saddle = json.loads(result.stdout)["comparisons"]
+    assert len(mean["rows"]) == 2 and "error" in saddle
+    lines = result.stderr.strip().splitlines()
+    assert lines == ["Error: saddle: saddle approximates a bounded count: give --capacity (at most that many "
+                     "balls per urn)"]
+
+
+def test_several_names_an_option_none_uses_is_an_error_and_the_varied_one_fails_alone():
+    result = run("empty-mean,birthday", "--balls", 20, "--urns", 30, "--capacity", 3)
+    assert result.exit_code == 2
+    assert result.stderr.strip().splitlines() == ["Error: none of empty-mean, birthday uses --capacity; leave it out"]
+    varied = run("empty-mean,saddle", "--vary", "capacity=3..4", "--step", 1, "--balls", 20, "--urns", 10, "--csv")
+    assert varied.exit_code == 2  # empty-mean cannot vary the capacity; saddle still runs
+    names = [line.split(",")[0] for line in varied.stdout.splitlines()[1:]]
+    assert names == ["empty-mean", "saddle", "saddle"]
+    assert varied.stderr.strip().splitlines()[-1].startswith("Error: empty-mean: empty-mean does not use --capacity")

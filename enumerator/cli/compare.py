@@ -138,7 +138,10 @@ def compare_command(
     float range are printed as decimal text ("4.2e+272"), never null; a null
     relative error (exact value 0) comes with a "note".  Several names, or
     all (the whole catalogue), run one after the other, and one that cannot
-    run (a missing --capacity, say) does not stop the others.
+    run (a missing --capacity, say) does not stop the others. With several
+    names each reads the options it uses, and one line on stderr ("note:
+    empty-mean ignores --capacity") names those an entry ignores; an option
+    that none of them uses is an error, as for a single name.
 
     Exit status: 0 when every named approximation computed at least one
     point (with all: when any did); 2 otherwise, after everything else is
@@ -155,6 +158,7 @@ def compare_command(
         $ enumerator compare all --vary balls=10..1000 --urns "balls//2" --capacity 3 --max-seconds 5
     """
     from ..algorithms.asymptotics import ALL, plan_sweep
+    from ..algorithms.asymptotics.comparison import ignored_note
     from ..core.errors import InvalidParameters
     from . import render_compare
     from .app import FLAGS
@@ -183,6 +187,11 @@ def compare_command(
         )
         if all(plan.error is not None for plan in plans):
             raise plans[0].error
+        note = ignored_note(plans, FLAGS)
+        if note:
+            # one line, before the output, so that a pipe of stdout stays clean
+            sys.stderr.write(f"note: {note}\n")
+            sys.stderr.flush()
         form = "json" if as_json else "csv" if as_csv else "table"
         comparisons = render_compare.stream_comparisons(
             plans, form, several=every or len(plans) > 1, spell=spell,

@@ -64,6 +64,7 @@ __all__ = [
     "evaluate",
     "finish",
     "float_or_text",
+    "ignored_note",
     "iter_rows",
     "local_order",
     "plan_sweep",
@@ -427,7 +428,9 @@ class Plan:
 
     ``rejected`` holds, per point, the error the entry's ``check`` raised for
     it (``None`` for a valid point; the point is then kept as given): those
-    points are skipped rows, the others are computed.
+    points are skipped rows, the others are computed.  ``ignored`` names the
+    given parameters this entry does not read (when several entries are
+    named, each reads its own; the caller may say so once).
     """
 
     approximation: Approximation
@@ -435,6 +438,7 @@ class Plan:
     variable: str
     error: Optional[EnumeratorError] = None
     rejected: Optional[Tuple[Optional[EnumeratorError], ...]] = None
+    ignored: Tuple[str, ...] = ()
 
     def rows(self) -> Iterator[Row]:
         """:func:`iter_rows` of this plan: its rows one by one as they are computed."""
@@ -474,6 +478,14 @@ def _unused_error(entry: Approximation, unused: Sequence[str]) -> InvalidParamet
     )
 
 
+def _unused_by_every(entries: Sequence[Approximation], unused: Sequence[str]) -> InvalidParameters:
+    options = ", ".join(f"{name}=" for name in unused)
+    return InvalidParameters(
+        f"none of {', '.join(entry.name for entry in entries)} uses {options}; leave it out",
+        parameters=list(unused),
+    )
+
+
 def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **parameters) -> List[Plan]:
     """Build one sweep and check its points for each named approximation.
 
@@ -492,16 +504,18 @@ def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **p
         value outside its domain) is kept with its error in ``rejected``
         and becomes a skipped row; when it rejects every point (a parameter
         it needs is missing, say) the plan carries the first ``error`` and
-        no points.
+        no points.  With several entries each reads the parameters it uses
+        and lists the others in ``ignored``; one that does not use the
+        varied parameter fails on its own.
 
     Raises
     ------
     InvalidParameters
-        No name, an unknown name, a parameter a *named* approximation does
-        not use (a forgotten or misspelt option is an error rather than
-        silently ignored; with ``"all"`` each entry ignores what it does
-        not use, and one that does not use the varied parameter fails on
-        its own), and whatever the sweep raises.
+        No name, an unknown name, a parameter that a single named
+        approximation does not use, or that none of several named ones uses
+        (a forgotten or misspelt option is an error rather than silently
+        ignored; with ``"all"`` each entry ignores what it does not use),
+        and whatever the sweep raises.
     TooLarge
         More points than :data:`~enumerator.algorithms.asymptotics.sweeps.MAX_POINTS`.
 
@@ -515,17 +529,21 @@ def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **p
     varied = parse_range(vary)[0] if vary is not None else None
     if varied is not None:
         given.add(varied)
-    if not every:
-        for entry in entries:
-            unused = _unused(entry, given)
-            if unused:
-                raise _unused_error(entry, unused)
+    if len(entries) == 1 and not every:
+        unused = _unused(entries[0], given)
+        if unused:
+            raise _unused_error(entries[0], unused)
+    elif not every:
+        unused = sorted(set.intersection(*(set(_unused(entry, given)) for entry in entries)))
+        if unused:
+            raise _unused_by_every(entries, unused)
     variable, points = sweep(vary, step=step, geometric=geometric, **parameters)
     plans = []
     for entry in entries:
-        if every and varied is not None and varied != "balls" and varied not in entry.uses:
+        if varied is not None and varied != "balls" and varied not in entry.uses:
             plans.append(Plan(entry, (), variable, _unused_error(entry, [varied])))
             continue
+        ignored = () if every else tuple(_unused(entry, given))
         checked, rejected = [], []
         for point in points:
             point = _drop_unused(entry, point)
@@ -536,12 +554,41 @@ def plan_sweep(names, vary: Optional[str] = None, step=None, geometric=None, **p
                 checked.append(point)
                 rejected.append(error)
         if all(error is not None for error in rejected):
-            plans.append(Plan(entry, (), variable, rejected[0]))
+            plans.append(Plan(entry, (), variable, rejected[0], ignored=ignored))
         elif any(error is not None for error in rejected):
-            plans.append(Plan(entry, tuple(checked), variable, None, tuple(rejected)))
+            plans.append(Plan(entry, tuple(checked), variable, None, tuple(rejected), ignored))
         else:
-            plans.append(Plan(entry, tuple(checked), variable))
+            plans.append(Plan(entry, tuple(checked), variable, ignored=ignored))
     return plans
+
+
+def ignored_note(plans: Sequence[Plan], spell=None) -> Optional[str]:
+    """One line naming, per entry, the given parameters it does not read; ``None`` when there are none.
+
+    Parameters
+    ----------
+    plans : sequence of Plan
+        From :func:`plan_sweep`.
+    spell : mapping, optional
+        Library parameter name to its spelling (the CLI's flags); default
+        ``name=``.
+
+    Returns
+    -------
+    str or None
+
+    Examples
+    --------
+    >>> plans = plan_sweep("empty-mean,saddle", balls=20, urns=10, capacity=3)
+    >>> ignored_note(plans)
+    'empty-mean ignores capacity='
+    """
+    spell = spell or {}
+    parts = [
+        f"{plan.approximation.name} ignores " + ", ".join(spell.get(name, f"{name}=") for name in plan.ignored)
+        for plan in plans if plan.ignored
+    ]
+    return "; ".join(parts) if parts else None
 
 
 def _drop_unused(entry: Approximation, point: Point) -> Point:
@@ -560,10 +607,11 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
         ``"stirling1,stirling2"``, a list of names or entries, or ``"all"``.
     vary, step, geometric, **parameters
         As :func:`~enumerator.algorithms.asymptotics.sweeps.sweep` takes them.
-        Every parameter given (and the varied one) must be one that each named
-        approximation uses (``balls`` always; the rest as listed in its
-        ``uses``), so that a forgotten or misspelt option is an error rather
-        than silently ignored (:func:`plan_sweep`).
+        Each approximation reads the parameters it uses (``balls`` always;
+        the rest as listed in its ``uses``); a parameter that a single named
+        approximation, or none of several, uses is an error, so that a
+        forgotten or misspelt option is not silently ignored
+        (:func:`plan_sweep`).
 
     Returns
     -------
@@ -575,7 +623,7 @@ def compare_sweep(names, vary: Optional[str] = None, step=None, geometric=None, 
     Raises
     ------
     InvalidParameters
-        No name, an unknown name, a parameter an approximation does not use,
+        No name, an unknown name, a parameter no named approximation uses,
         whatever :func:`~enumerator.algorithms.asymptotics.sweeps.sweep`
         raises, and, when no approximation can run, the first one's error.
 
