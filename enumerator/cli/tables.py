@@ -257,6 +257,16 @@ def table_build_command(
     batches of about a second each and written here as they arrive; the
     cells are the same as a single-process build's.
 
+    Before any cell is computed the whole build is planned: its time (the
+    rows left, each rated by the route it takes, plus the writes; divided
+    by the workers with --workers/--cluster), one row's memory and the
+    size it adds to the store.  Past --max-seconds or --max-memory (or
+    ENUMERATOR_MAX_SECONDS / ENUMERATOR_MAX_MEMORY), or beyond the free
+    disk space of a SQLite store's folder, it is refused with what it
+    would take.  A table holds at most 5,000,000 cells (the wide export
+    keeps 12 bytes a cell in memory); build a larger grid as several tables
+    over parts of the urns range.
+
     Example:
 
         $ enumerator table build --rule BE --balls 0..200 --urns 1..50
@@ -276,10 +286,23 @@ def table_build_command(
         if workers is not None and cluster is not None:
             raise typer.BadParameter("give --workers or --cluster, not both")
         from ..store.cluster import build_table_distributed, check_cluster
+        from ..store.cluster import plan_table_distributed as build_plan_distributed
 
         check_cluster(workers=workers, cluster=cluster)
-    target = _open_store(store, create=True)
     label = name or spec.default_name()
+    probe = _open_store(store)
+    if not probe.exists:
+        # planned before the store is made: a refused build leaves no file behind
+        # (an existing store is planned by the build itself, before it writes)
+        from ..store.tables import check_table_plan, plan_table
+
+        with limits_scope(max_memory, max_seconds):
+            if distributed:
+                plan = build_plan_distributed(spec, probe, name=label, workers=workers, cluster=cluster)
+            else:
+                plan = plan_table(spec, probe, name=label)
+            check_table_plan(plan, probe)
+    target = _open_store(store, create=True)
     err = Console(stderr=True)
     progress = Progress(
         TextColumn("[bold]{task.description}"), BarColumn(), MofNCompleteColumn(),

@@ -62,7 +62,7 @@ from ..core.errors import InvalidParameters, TooLarge
 from ..core.limits import Cost
 from ..core.model import UrnModel, as_count
 from .keys import ALGORITHM_VERSIONS, Key
-from .tables import BuildReport, TableSpec, claim_table, need_store, row_values
+from .tables import BuildReport, TablePlan, TableSpec, check_table_plan, claim_table, need_store, plan_table, row_values
 
 __all__ = [
     "EventWeight",
@@ -80,6 +80,7 @@ __all__ = [
     "event_needs_listing",
     "listing_to_files",
     "plan_row_batches",
+    "plan_table_distributed",
 ]
 
 #: Target duration of one task, in seconds.
@@ -384,6 +385,47 @@ def _shared_url(store) -> Optional[str]:
     return store.url.render_as_string(hide_password=False)
 
 
+def plan_table_distributed(spec: TableSpec, store=None, *, name: Optional[str] = None,
+                           workers: Optional[int] = None, cluster=None, client=None) -> TablePlan:
+    """:func:`~enumerator.store.tables.plan_table` for the cluster route: the rows' time divided by the workers.
+
+    Parameters
+    ----------
+    spec, store, name
+        As :func:`~enumerator.store.tables.plan_table`.
+    workers, cluster, client
+        As :func:`cluster_client`: *workers* processes, the workers of the
+        scheduler at *cluster*, or those of *client*.
+
+    Returns
+    -------
+    TablePlan
+        The rows' computation divided by the workers, the client's writes
+        (one process) added in full, as the route runs them.
+
+    Notes
+    -----
+    The workers of a scheduler at *cluster* are counted only when the plan
+    with one worker would be refused (one short connection); a scheduler
+    that cannot be asked counts as one worker.  The pilot row, computed by
+    the client, and starting a local cluster (about a second per worker)
+    are not counted.  Cost: that of :func:`~enumerator.store.tables.plan_table`.
+    """
+    plan = plan_table(spec, store, name=name)
+    if workers is not None:
+        return plan.spread(as_count(workers, "workers", 1))
+    if client is not None:
+        return plan.spread(_worker_count(client))
+    limit = limits.active_limits()
+    if plan.seconds_approx <= limit.seconds or cluster is None:
+        return plan
+    try:
+        with cluster_client(cluster=cluster) as dask:
+            return plan.spread(_worker_count(dask))
+    except InvalidParameters:
+        return plan
+
+
 def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, store=None,
                             workers: Optional[int] = None, cluster=None, client=None,
                             progress: Optional[Callable[[int, int, int], None]] = None,
@@ -432,6 +474,11 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
         is not installed, or when no scheduler answers at *cluster*; the
         cluster is checked (:func:`check_cluster`) before the store is
         opened, so such a refusal leaves the store as it was.
+    TooLarge
+        Before anything is computed or written, when the whole build
+        (:func:`plan_table_distributed`: the rows' time divided by the
+        workers) is beyond the active limits or its store size beyond the
+        free disk space (:func:`~enumerator.store.tables.check_table_plan`).
     StoreError
         When the store is switched off or fails.
 
@@ -460,6 +507,8 @@ def build_table_distributed(spec: TableSpec, *, name: Optional[str] = None, stor
     target = need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
+    check_table_plan(plan_table_distributed(spec, target, name=name, workers=workers, cluster=cluster,
+                                            client=client), target)
     claim_table(spec, name, target)
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]

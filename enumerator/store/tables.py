@@ -51,7 +51,8 @@ from typing import Callable, Dict, Iterable, Iterator, List, Optional, Tuple, Un
 import gmpy2
 from flint import fmpz_poly
 
-from ..core import series
+from ..algorithms.counting_costs import log2_factorial_approx
+from ..core import limits, series
 from ..core.errors import InvalidParameters, StoreError, TooLarge, Unsupported
 from ..core.exact import text_int
 from ..core.model import UrnModel
@@ -66,9 +67,11 @@ __all__ = [
     "EXPORT_LAYOUTS",
     "StoredTable",
     "TableData",
+    "TablePlan",
     "TableSpec",
     "bench_workloads",
     "build_table",
+    "check_table_plan",
     "claim_table",
     "export_lines",
     "export_parquet",
@@ -79,6 +82,7 @@ __all__ = [
     "need_store",
     "open_table",
     "parse_range",
+    "plan_table",
     "row_values",
     "value_approx",
     "wide_rows",
@@ -88,7 +92,11 @@ mpz = gmpy2.mpz
 
 #: Quantities a table can hold.
 QUANTITIES = ("configurations", "microstates", "profiles")
-#: Largest number of cells in one table.
+#: Largest number of cells in one table.  It keeps the one reader whose memory
+#: grows with the table bounded (the wide export holds 12 bytes a cell: 60 MB
+#: here, :class:`_Spill`); a larger grid is built as several tables over parts
+#: of the urns range.  Time and store size are planned separately
+#: (:func:`plan_table`).
 MAX_CELLS = 5_000_000
 #: Export formats: the text ones of :func:`export_lines`, and Parquet (:func:`export_parquet`).
 EXPORT_FORMATS = ("csv", "json", "markdown", "latex", "parquet")
@@ -152,7 +160,8 @@ class TableSpec:
         cells = len(balls) * len(urns)
         if cells > MAX_CELLS:
             raise TooLarge(
-                f"the table would have {cells} cells, above the limit {MAX_CELLS}; narrow balls= or urns=",
+                f"the table would have {cells} cells, above the limit of {MAX_CELLS} cells a table; narrow "
+                "balls= or urns=, or build the grid as several tables over parts of the urns range",
                 parameters=["balls", "urns"],
             )
         # the model validates the bounds (and normalises FD's capacity to 1)
@@ -427,6 +436,419 @@ def _same_definition(a: dict, b: dict) -> bool:
     return all(a[k] == b[k] for k in keys)
 
 
+# ---------------------------------------------------------------------------
+# planning a build: its time, memory and store size, before any cell
+# ---------------------------------------------------------------------------
+
+#: Rows whose cost is estimated one by one at most: a table with more rows
+#: left is estimated from this many of them, evenly spaced, each standing for
+#: its share of the rows.
+PLAN_ROWS = 512
+#: Balls of a row at which the digits are estimated at most (evenly spaced,
+#: each standing for its share of the row).
+PLAN_BALLS = 1024
+#: Count queries spent at most finding which rows of a resumed table are stored.
+PLAN_QUERIES = 48
+#: Bytes a stored cell takes beside its digits (key, digest, checksum,
+#: method text, the two indexes), measured on SQLite: 300 to 350.
+CELL_OVERHEAD_BYTES = 340
+#: The write path, measured (CPU, SQLite, the reference machine): per row
+#: (one read of the stored balls, one transaction), per cell (key digest,
+#: checksum, row) and per digit (decimal conversion and the bytes written).
+ROW_WRITE_SECONDS = 1.5e-3
+CELL_WRITE_SECONDS = 25e-6
+DIGIT_WRITE_SECONDS = 30e-9
+
+_LN2 = math.log(2.0)
+_LOG10_2 = math.log10(2.0)
+
+
+@dataclass(frozen=True)
+class TablePlan:
+    """What a build of a table would take, estimated before any cell is computed (:func:`plan_table`).
+
+    Attributes
+    ----------
+    name : str
+        The table's name.
+    spec : TableSpec
+        Its definition.
+    cells : int
+        Cells left to compute: the table's cells less those stored (exact,
+        one count query).
+    rows : int
+        Rows with a cell left to compute (estimated when a stretch of rows
+        is partly stored and the query budget ran out).
+    seconds_approx : float
+        Estimated seconds of the whole build: the rows' computation
+        (divided by *workers*) plus the writes.
+    compute_seconds_approx, write_seconds_approx : float
+        Its two parts: the rows' computation in one process, and the
+        writes (done by one process whatever the workers).
+    memory : int
+        Estimated peak bytes of one row's computation (rows are computed
+        one at a time per process).
+    digits_approx : int
+        Estimated decimal digits of the cells left.
+    store_bytes_approx : int
+        Estimated bytes they add to the store (digits plus
+        :data:`CELL_OVERHEAD_BYTES` a cell).
+    workers : int
+        The processes the rows' computation is divided by.
+    sampled : bool
+        True when the estimate extrapolates a sample of the rows or of the
+        balls (:data:`PLAN_ROWS`, :data:`PLAN_BALLS`).
+    """
+
+    name: str
+    spec: TableSpec
+    cells: int
+    rows: int
+    seconds_approx: float
+    memory: int
+    digits_approx: int
+    store_bytes_approx: int
+    compute_seconds_approx: float = 0.0
+    write_seconds_approx: float = 0.0
+    workers: int = 1
+    sampled: bool = False
+
+    def spread(self, workers: int) -> "TablePlan":
+        """The same plan with the rows' computation divided over *workers* processes."""
+        from dataclasses import replace
+
+        workers = max(1, int(workers))
+        return replace(self, workers=workers,
+                       seconds_approx=self.compute_seconds_approx / workers + self.write_seconds_approx)
+
+    def describe(self) -> str:
+        """One phrase for messages: ``"building table T (40,100 cells to compute, about 28.0 MB in the store)"``."""
+        return (f"building table {self.name} ({self.cells:,} cells to compute, about "
+                f"{_size_text(self.store_bytes_approx)} in the store)")
+
+
+def _size_text(value: float) -> str:
+    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+        if value >= scale:
+            return f"{value / scale:.1f} {unit}"
+    return f"{int(value)} bytes"
+
+
+def _log2_factorials(k):
+    """``log2 k!`` of a float array by Stirling's series (A&S 6.1.38 with the ``1/12k`` term); 0 below 2."""
+    import numpy as np
+
+    k = np.asarray(k, dtype=np.float64)
+    safe = np.maximum(k, 1.0)
+    out = (safe * np.log(safe) - safe + 0.5 * np.log(2 * np.pi * safe) + 1.0 / (12.0 * safe)) / _LN2
+    return np.where(k < 2, 0.0, out)
+
+
+def _log2_binomials(top, k):
+    """``log2 C(top, k)`` of float arrays (Stirling), 0 where ``k <= 0`` or ``k >= top``."""
+    import numpy as np
+
+    top = np.asarray(top, dtype=np.float64)
+    k = np.clip(np.asarray(k, dtype=np.float64), 0.0, None)
+    value = _log2_factorials(top) - _log2_factorials(k) - _log2_factorials(np.maximum(top - k, 0.0))
+    return np.maximum(value, 0.0)
+
+
+def _log2_partitions(m):
+    """``log2 p(m)`` by the Hardy–Ramanujan asymptotic ``e^{pi sqrt(2m/3)} / (4 sqrt(3) m)``, at least 0."""
+    import numpy as np
+
+    m = np.maximum(np.asarray(m, dtype=np.float64), 1.0)
+    return np.maximum(math.pi * np.sqrt(2.0 * m / 3.0) / _LN2 - np.log2(4.0 * math.sqrt(3.0) * m), 0.0)
+
+
+def _row_log2(spec: TableSpec, r: int, balls):
+    """``(log2 estimate, zero mask)`` of the cells ``(n, r)`` for the array *balls*.
+
+    The estimates are the sizes the counting planner works from
+    (:mod:`enumerator.algorithms.counting_costs`), taken as the smaller of a
+    few upper bounds, each off by a small factor at worst in the digits:
+    configurations ``C(m + r - 1, m)`` with ``m = n - r a``, and with a
+    room ``s = c - a`` at most ``(s + 1)^r`` and symmetric in ``m <-> r s -
+    m`` (Riordan, 1958, ch. 5); MB ``r^n``, with bounds at most ``n! /
+    (a!)^r`` times the configurations (each is a multinomial coefficient);
+    profiles the Hardy–Ramanujan size of ``p(m)``, at most the
+    configurations and, with a room, ``C(r + s, r)`` (Andrews, 1976,
+    Thm 3.1).  Cost: ``O(len(balls))`` vectorised.
+    """
+    import numpy as np
+
+    a, b = spec.minimum, spec.capacity
+    n = np.asarray(balls, dtype=np.float64)
+    m = n - r * a
+    zero = m < 0
+    room = None if b is None else b - a
+    if room is not None:
+        zero |= m > r * room
+    mm = np.clip(m, 0.0, None) if room is None else np.clip(np.minimum(m, r * room - m), 0.0, None)
+    configurations = _log2_binomials(mm + r - 1, mm)
+    if room is not None:
+        configurations = np.minimum(configurations, r * math.log2(room + 1))
+    if spec.quantity == "profiles":
+        value = np.minimum(_log2_partitions(mm), configurations)
+        if room is not None:
+            value = np.minimum(value, float(_log2_binomials(r + room, room)))
+    elif spec.quantity == "microstates" and spec.rule == "MB":
+        value = n * math.log2(r)
+        if a or b is not None:
+            bound = _log2_factorials(n) - r * float(_log2_factorials(a)) + configurations
+            value = np.minimum(value, bound)
+    else:
+        value = configurations
+    return np.where(zero, 0.0, np.maximum(value, 0.0)), zero
+
+
+def _poly_seconds(length: float, bits: float) -> float:
+    """One truncated FLINT product of two series of *length* coefficients of *bits* bits."""
+    total = max(1.0, length * (bits + 2 * math.log2(length + 1)))
+    return length / limits.STEPS_PER_SECOND + limits.product_seconds(total)
+
+
+def _step_seconds(steps: float, bits: float) -> float:
+    """*steps* big-by-small operations (a small multiplication, an exact division) on *bits*-bit numbers."""
+    return steps * (1.0 / limits.STEPS_PER_SECOND + bits / limits.MULTIPLY_BITS_PER_SECOND)
+
+
+def _row_cost(spec: TableSpec, r: int, top: int, bits: float) -> limits.Cost:
+    """Seconds and bytes of :func:`row_values` for ``r`` urns up to ``top`` balls, entries of *bits* bits.
+
+    Follows the routes of :func:`row_values`: the binomial row and ``r^n``
+    in ``O(top)`` steps; a FLINT power (binary powering: about ``2 log2 r``
+    truncated products, Knuth, *TAOCP* vol. 2, §4.6.3) of the window, whose
+    MB coefficients are scaled by ``(c!)^r`` (``r log2 c!`` bits), plus one
+    exact division per cell; the occupied-urns sum, ``top`` products and
+    ``top^2 / 2`` steps; the Gaussian binomial product, ``min(r, m)``
+    products (and as many again with a capacity).  Measured against the
+    routes, within a factor of about 2 (``tests/test_table_plan.py``).
+    """
+    a, b = spec.minimum, spec.capacity
+    span = top - r * a
+    if span < 0:
+        return limits.Cost()
+    length = span + 1
+    held = limits.Cost(memory=4 * length * limits.bigint_bytes(bits))
+    powers = 2.0 * max(1.0, math.log2(max(r, 2)))
+    if spec.quantity == "profiles":
+        passes = min(r, span) + (0 if b is None else min(r, span // max(1, b - a + 1)))
+        return limits.Cost(seconds=passes * _poly_seconds(length, bits), memory=held.memory)
+    if spec.quantity == "configurations" or spec.rule != "MB":
+        if b is None:
+            return limits.Cost(seconds=_step_seconds(2 * length, bits), memory=held.memory)
+        room = b - a
+        if room * r <= series.FULL_POWER_RATIO * length:
+            return limits.Cost(seconds=powers * _poly_seconds(min(length, room * r + 1), bits), memory=held.memory)
+        return limits.Cost(seconds=_step_seconds(3 * length, bits), memory=held.memory)
+    if a == 0 and b is None:
+        return limits.Cost(seconds=_step_seconds(top + 1, bits), memory=held.memory)
+    top_urn = a + span if b is None else min(b, a + span)
+    if top_urn == a:
+        return limits.Cost(seconds=limits.product_seconds(bits) * 4, memory=limits.bigint_bytes(bits) * 4)
+    if a == 0 and r > 2 * (top + 1):
+        scaled = top * log2_factorial_approx(top_urn) + 64
+        seconds = top / 2 * _poly_seconds(top + 1, scaled) + _step_seconds(top * top / 2, bits)
+        return limits.Cost(seconds=seconds, memory=4 * (top + 1) * limits.bigint_bytes(max(bits, scaled)))
+    scaled = r * (log2_factorial_approx(top_urn) + 1.5) + 64
+    seconds = (powers * _poly_seconds(min(length, top_urn * r + 1), scaled)
+               + length * limits.product_seconds(scaled + bits))
+    return limits.Cost(seconds=seconds, memory=3 * length * limits.bigint_bytes(scaled))
+
+
+def _missing_stretches(spec: TableSpec, target: Store, stored: int) -> List[Tuple[range, float]]:
+    """The stretches of rows with cells left, each with the share of its cells left.
+
+    A stretch partly stored is halved (one count query for the first half)
+    until it is all stored, all missing, a single row, or
+    :data:`PLAN_QUERIES` queries are spent; an interrupted build (rows are
+    committed whole, in order) leaves one boundary, found in about
+    ``log2(rows)`` queries.
+    """
+    if stored == 0:
+        return [(spec.urns, 1.0)]
+    if stored >= spec.cells:
+        return []
+    table = StoredTable("", spec, target)
+    width = len(spec.balls)
+    out: List[Tuple[range, float]] = []
+    pending = [(spec.urns, stored)]
+    queries = 0
+    while pending:
+        stretch, have = pending.pop()
+        total = len(stretch) * width
+        if have >= total:
+            continue
+        if have == 0 or len(stretch) == 1 or queries >= PLAN_QUERIES:
+            out.append((stretch, 1.0 - have / total))
+            continue
+        half = len(stretch) // 2
+        first, second = stretch[:half], stretch[half:]
+        in_first = table.stored(urns=first)
+        queries += 1
+        pending += [(second, have - in_first), (first, in_first)]
+    return sorted(out, key=lambda item: item[0].start)
+
+
+def _sample(stretches: List[Tuple[range, float]], budget: int) -> Tuple[List[Tuple[int, float]], bool]:
+    """Rows ``(r, weight)`` standing for *stretches*: every row within *budget*, else evenly spaced ones."""
+    rows = sum(len(stretch) for stretch, _ in stretches)
+    if rows <= budget:
+        return [(r, share) for stretch, share in stretches for r in stretch], False
+    out = []
+    for stretch, share in stretches:
+        k = max(1, min(len(stretch), round(budget * len(stretch) / rows)))
+        step = len(stretch) / k
+        out += [(stretch[int((i + 0.5) * step)], share * step) for i in range(k)]
+    return out, True
+
+
+def plan_table(spec: TableSpec, store=None, *, name: Optional[str] = None, workers: int = 1) -> TablePlan:
+    """Estimate what building *spec* would take, before any cell is computed.
+
+    Parameters
+    ----------
+    spec : TableSpec
+        The table (:meth:`TableSpec.make`).
+    store : Store or location, optional
+        The store it would be built in (default: the current store); its
+        stored cells are left out of the plan.  A store that does not exist
+        yet (``open_store(..., create=False)``) plans the whole table.
+    name : str, optional
+        The table's name, for messages (default :meth:`TableSpec.default_name`).
+    workers : int
+        Processes computing rows (the cluster route): the rows' time is
+        divided by it, the writes (done by one client) are not.
+
+    Returns
+    -------
+    TablePlan
+
+    Notes
+    -----
+    Method: one count query gives the cells stored; when some are, a few
+    more (at most :data:`PLAN_QUERIES`, halving the urns range) find which
+    rows are left.  Over those rows, the estimate is a **sum of per-row
+    estimates** when there are at most :data:`PLAN_ROWS` rows, else a
+    **sample of** :data:`PLAN_ROWS` **evenly spaced rows extrapolated**, each
+    standing for its share.  A row's estimate is the cost of the route
+    :func:`row_values` takes (:func:`_row_cost`: FLINT products rated by
+    :func:`enumerator.core.limits.product_seconds`) plus the measured
+    write path (:data:`ROW_WRITE_SECONDS`, :data:`CELL_WRITE_SECONDS`,
+    :data:`DIGIT_WRITE_SECONDS`); its digits are the base-10 sizes of the
+    counts estimated from ``log2`` bounds (:func:`_row_log2`), at every
+    ball or at :data:`PLAN_BALLS` evenly spaced ones.  A row counts in full
+    up to its top ball, even when some of its cells are stored (a row is
+    one pass).  Estimates are rough, like every cost in
+    :mod:`enumerator.core.limits`: the time within a factor of a few, the
+    digits within a factor of two (upper bounds).  Cost: at most
+    ``PLAN_ROWS * PLAN_BALLS`` vectorised evaluations and
+    ``PLAN_QUERIES + 1`` count queries, well under a second for any table.
+
+    Examples
+    --------
+    >>> plan = plan_table(TableSpec.make("BE", "0..10", "1..4"), Store("sqlite://"))
+    >>> plan.cells, plan.rows, plan.sampled
+    (44, 4, False)
+    """
+    import numpy as np
+
+    target = need_store(store)
+    name = name or spec.default_name()
+    stored = StoredTable(name, spec, target).stored()
+    stretches = _missing_stretches(spec, target, stored)
+    rows, row_sampled = _sample(stretches, PLAN_ROWS)
+    balls = spec.balls
+    if len(balls) <= PLAN_BALLS:
+        points, per_point, ball_sampled = np.arange(balls.start, balls.stop, dtype=np.float64), 1.0, False
+    else:
+        points = np.floor(np.linspace(balls.start, balls.stop - 1, PLAN_BALLS))
+        per_point, ball_sampled = len(balls) / PLAN_BALLS, True
+    compute = writes = digits = 0.0
+    memory = 0
+    top = balls.stop - 1
+    for r, weight in rows:
+        log2s, zero = _row_log2(spec, r, points)
+        row_digits = float(np.sum(np.where(zero, 1.0, np.floor(log2s * _LOG10_2) + 1.0))) * per_point
+        cost = _row_cost(spec, r, top, float(log2s.max(initial=0.0)) + 64)
+        compute += weight * cost.seconds
+        memory = max(memory, cost.memory)
+        writes += weight * (ROW_WRITE_SECONDS + len(balls) * CELL_WRITE_SECONDS)
+        digits += weight * row_digits
+    writes += digits * DIGIT_WRITE_SECONDS
+    cells = spec.cells - stored
+    return TablePlan(
+        name=name, spec=spec, cells=cells,
+        rows=round(sum(len(stretch) for stretch, _ in stretches)),
+        seconds_approx=compute + writes,
+        memory=memory, digits_approx=round(digits),
+        store_bytes_approx=round(digits) + CELL_OVERHEAD_BYTES * cells,
+        compute_seconds_approx=compute, write_seconds_approx=writes,
+        sampled=row_sampled or ball_sampled,
+    ).spread(workers)
+
+
+def _free_bytes(target: Optional[Store]) -> Optional[Tuple[int, str]]:
+    """``(free bytes, folder)`` where the SQLite file *target* lives (its nearest existing folder); None otherwise."""
+    import shutil
+
+    path = getattr(target, "path", None)
+    if path is None:
+        return None
+    folder = Path(path).absolute().parent
+    while not folder.exists() and folder != folder.parent:
+        folder = folder.parent
+    try:
+        return shutil.disk_usage(folder).free, str(folder)
+    except OSError:
+        return None
+
+
+def check_table_plan(plan: TablePlan, store=None) -> None:
+    """Refuse a build whose :class:`TablePlan` is beyond the active limits or the free disk space.
+
+    Parameters
+    ----------
+    plan : TablePlan
+        From :func:`plan_table`.
+    store : Store, optional
+        The store it would be built in (one that does not exist yet
+        included): for a SQLite file, the plan's store size is compared
+        with the free space of its folder (:func:`shutil.disk_usage`).
+
+    Raises
+    ------
+    TooLarge
+        With one sentence: the table, the cells left, its store size, the
+        time or memory and the limit (:func:`enumerator.core.limits.check`:
+        ``max_seconds=`` / ``max_memory=`` or their environment variables),
+        and what to change (the limit, the ranges, the workers); or the store
+        size against the free disk space.
+
+    Notes
+    -----
+    The time limit applies to the whole build (its seconds, divided by the
+    workers for the cluster route), the memory limit to one row's peak.
+    Cost: one :func:`shutil.disk_usage`.
+    """
+    if plan.cells == 0:
+        return
+    spread = "more workers= or cluster=" if plan.workers > 1 else "spread the rows over workers= or cluster="
+    limits.check(limits.Cost(seconds=plan.seconds_approx, memory=plan.memory), plan.describe(),
+                 advice=f"narrow balls= or urns=, or {spread}",
+                 parameters=["balls", "urns", "workers", "cluster"])
+    free = _free_bytes(store)
+    if free is not None and plan.store_bytes_approx > free[0]:
+        raise TooLarge(
+            f"{plan.describe()} would need about {_size_text(plan.store_bytes_approx)} of disk, more than the "
+            f"{_size_text(free[0])} free in {free[1]}; narrow balls= or urns=, free space there, or choose "
+            "another store=",
+            parameters=["balls", "urns", "store"],
+        )
+
+
 def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
                 progress: Optional[Callable[[int, int, int], None]] = None) -> BuildReport:
     """Fill every cell of *spec* into the store, one generating-function pass per row.
@@ -451,13 +873,18 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     ------
     InvalidParameters
         When a table of that name exists with another definition.
+    TooLarge
+        Before anything is computed or written, when the whole build's
+        :func:`plan_table` is beyond the active limits (its time against
+        ``max_seconds=``, one row's memory against ``max_memory=``) or its
+        store size beyond the free disk space (:func:`check_table_plan`).
     StoreError
         When the store is switched off or fails.
 
     Notes
     -----
     Cells already stored (by an earlier or a concurrent build, or by single
-    lookups) are not recomputed; each row is committed as soon as it is
+    lookups) are not recomputed, nor planned; each row is committed as soon as it is
     computed, so an interrupted build loses at most the row in progress.
     Cost: one generating-function pass per row with a missing cell (see the
     module docstring) and one write transaction per such row.
@@ -465,6 +892,8 @@ def build_table(spec: TableSpec, *, name: Optional[str] = None, store=None,
     target = need_store(store)
     name = name or spec.default_name()
     started = time.perf_counter()
+    # the whole build is planned, and refused past the limits, before anything is written
+    check_table_plan(plan_table(spec, target, name=name), target)
     claim_table(spec, name, target)
     report = BuildReport(name=name, spec=spec)
     version = ALGORITHM_VERSIONS[spec.quantity]
