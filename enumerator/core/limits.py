@@ -51,9 +51,15 @@ __all__ = [
     "Cost",
     "Limits",
     "active_limits",
+    "DECIMAL_PRODUCTS",
+    "GCD_PRODUCTS",
+    "TEXT_BYTES_PER_DIGIT",
     "bigint_bytes",
     "check",
+    "decimal_seconds",
+    "gcd_seconds",
     "limited",
+    "multiply_seconds",
     "parse_size",
     "product_seconds",
 ]
@@ -118,10 +124,93 @@ def bigint_bytes(bits: float) -> int:
 
 
 def product_seconds(bits: float) -> float:
-    """Seconds for one multiplication of two numbers of *bits* bits (GMP's FFT, ``O(b log b)``)."""
+    """Seconds for one multiplication of two numbers of *bits* bits (GMP's FFT, ``O(b log b)``): a nominal rate.
+
+    This is a unit of work, not a prediction: one GMP product of two
+    ``b``-bit numbers measured (CPU time, 2 cores under a load of 4-5,
+    2026-12) 1.8x this at ``b = 10^4``, 8x at ``10^6``, 13x at ``10^7``
+    and ``10^8``, 16x at ``10^9``.  The routes priced with it carry
+    factors calibrated against their own measured CPU times (counting
+    powers, ensembles, asymptotic sides), so its value stays; a new
+    estimate should use :func:`multiply_seconds`, which follows the
+    measurement.
+    """
     if bits <= 64:
         return 1.0 / STEPS_PER_SECOND
     return bits * max(1.0, math.log2(bits) / 20.0) / MULTIPLY_BITS_PER_SECOND
+
+
+#: A GMP gcd of two ``b``-bit numbers (``mpq`` canonicalisation), in products
+#: of ``b``-bit numbers: measured 16x at ``b = 10^6``, 19x at ``10^7``, 23x at
+#: ``4 10^7`` (CPU time, same machine as :func:`multiply_seconds`).
+GCD_PRODUCTS = 24
+#: Writing a ``b``-bit number in decimal (GMP ``mpz_get_str``), in products:
+#: measured 2.4x at ``10^6`` bits, 3.7x at ``10^7``, 3.8x at ``4 10^7``.
+DECIMAL_PRODUCTS = 5
+#: Bytes held per decimal digit of an exact answer the command line writes:
+#: the ``str`` of digits, its JSON text, that text with its newline and its
+#: UTF-8 encoding on the way out, about six copies at a byte each (measured
+#: with ``threshold --vary urns``: 269 MB of peak RSS above the interpreter
+#: for 4 numbers of 12.5 million digits, 68 MB for 4 of 2.8 million).
+TEXT_BYTES_PER_DIGIT = 6
+
+
+def multiply_seconds(bits: float) -> float:
+    """CPU seconds of one GMP product of two numbers of *bits* bits, as measured on the reference machine.
+
+    Parameters
+    ----------
+    bits : float
+        The size of each factor.
+
+    Returns
+    -------
+    float
+        ``b log2(b)^2 1.5e-11`` seconds, at least one small step: above
+        the measured CPU time of ``gmpy2`` products (2 cores under a load
+        of 4-5): ``9e-6`` s at ``b = 10^4`` (formula ``2.6e-5``),
+        ``0.004`` s at ``10^6`` (``0.006``), ``0.075`` s at ``10^7``
+        (``0.08``), ``0.87`` s at ``10^8`` (``1.06``), ``12.3`` s at
+        ``10^9`` (``13.4``).
+
+    Notes
+    -----
+    GMP multiplies by Toom–Cook and Schönhage–Strassen's FFT,
+    ``O(b log b log log b)`` in theory (T. Granlund et al., *GNU MP
+    manual*, "Multiplication Algorithms"); the extra ``log b`` fits the
+    cache misses of the large sizes.  Wall time under load is longer still:
+    the limits are about CPU time.
+
+    Examples
+    --------
+    >>> 0.5 < multiply_seconds(1e8) < 2
+    True
+    """
+    if bits <= 64:
+        return 1.0 / STEPS_PER_SECOND
+    return max(1.0 / STEPS_PER_SECOND, bits * math.log2(bits) ** 2 * 1.5e-11)
+
+
+def gcd_seconds(bits: float) -> float:
+    """CPU seconds of one GMP gcd of two *bits*-bit numbers (:data:`GCD_PRODUCTS` products).
+
+    Examples
+    --------
+    >>> gcd_seconds(1e7) == GCD_PRODUCTS * multiply_seconds(1e7)
+    True
+    """
+    return GCD_PRODUCTS * multiply_seconds(bits)
+
+
+def decimal_seconds(bits: float) -> float:
+    """CPU seconds of writing a *bits*-bit number in decimal (:data:`DECIMAL_PRODUCTS` products).
+
+    Examples
+    --------
+    >>> decimal_seconds(1e7) == DECIMAL_PRODUCTS * multiply_seconds(1e7)
+    True
+    """
+    return DECIMAL_PRODUCTS * multiply_seconds(bits)
 
 
 _SIZE = re.compile(r"\s*([0-9]+(?:\.[0-9]+)?)\s*([kKmMgGtT]?)(?:i?[bB])?\s*")
