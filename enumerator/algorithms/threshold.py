@@ -613,19 +613,30 @@ def exact_pair_cost(model: UrnModel, vary: str, value: int) -> Tuple[Cost, int]:
     """The cost of the no-collision probabilities at *value* and *value - 1*, exactly, and their digits.
 
     ``P(max <= 1)`` is a falling factorial over ``r^n`` (MB) or over the
-    rising factorial (BE): numbers of ``b ~ n log2(r + n)`` bits.  Seconds:
-    two product trees (``3 M(b) log2 n`` each, measured 5 s for ``n = 10^6``,
-    ``r = 2^64`` on the reference machine under load) and writing the four
-    numbers in decimal (``4 M(b) log2 b`` each, measured 8 s for 19 million
-    digits), since the exact answer exists to be written.  Memory: the
-    product tree and the answers, ``~ 8`` numbers of ``b`` bits.
+    rising factorial (BE): numbers of ``b ~ n log2(r + n)`` bits.  The work,
+    in GMP products of ``b``-bit numbers (:func:`~enumerator.core.limits.multiply_seconds`):
+    two product trees (about 6 products each), four gcds (each fraction
+    reduced once, and once more when the command line rounds it to a float;
+    :data:`~enumerator.core.limits.GCD_PRODUCTS` each) and four numbers
+    written in decimal (:data:`~enumerator.core.limits.DECIMAL_PRODUCTS`
+    each), since the exact answer exists to be written.  Memory: the trees
+    and the answers, ``~ 8`` numbers of ``b`` bits, plus the four decimal
+    texts on their way out (:data:`~enumerator.core.limits.TEXT_BYTES_PER_DIGIT`).
+
+    Measured (``threshold --vary urns --event "max <= 1" --target 1/2
+    --json``, CPU time and peak RSS above the 61 MB of the command's own
+    start, 2 cores under a load of 4-5): ``n = 2^16``: 1.4 s, 14 MB
+    (estimate 1.8 s, 17 MB); ``2^18``: 8.4 s, 52 MB (9.6 s, 77 MB);
+    ``2^20``: 47-52 s, 252 MB (51 s, 341 MB).  The former estimate (nominal
+    :func:`~enumerator.core.limits.product_seconds`, no gcd, no text) said
+    13.8 s and 41 MB at ``2^20``.
     """
     n, r = (value, model.urns) if vary == "balls" else (model.balls, value)
     bits = max(64.0, n * math.log2(max(2, r + (n if model.rule.value == "BE" else 0))))
-    tree = 3 * limits.product_seconds(bits) * math.log2(n + 2)
-    text = 4 * limits.product_seconds(bits) * math.log2(bits)
     digits = int(bits * math.log10(2)) + 1
-    return Cost(seconds=2 * tree + 4 * text, memory=8 * bigint_bytes(bits)), digits
+    seconds = 12 * limits.multiply_seconds(bits) + 4 * limits.gcd_seconds(bits) + 4 * limits.decimal_seconds(bits)
+    memory = 8 * bigint_bytes(bits) + 4 * limits.TEXT_BYTES_PER_DIGIT * digits
+    return Cost(seconds=seconds, memory=memory), digits
 
 
 def _probability_enclosure(model: UrnModel, vary: str, value: int) -> Optional[Tuple[Fraction, Fraction]]:
