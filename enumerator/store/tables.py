@@ -447,8 +447,10 @@ PLAN_ROWS = 512
 #: Balls of a row at which the digits are estimated at most (evenly spaced,
 #: each standing for its share of the row).
 PLAN_BALLS = 1024
-#: Count queries spent at most finding which rows of a resumed table are stored.
+#: Count queries spent at most finding which rows of a resumed table are stored ...
 PLAN_QUERIES = 48
+#: ... and seconds (each query scans the table's stored cells once).
+PLAN_QUERY_SECONDS = 0.4
 #: Bytes a stored cell takes beside its digits (key, digest, checksum,
 #: method text, the two indexes), measured on SQLite: 300 to 350.
 CELL_OVERHEAD_BYTES = 340
@@ -663,9 +665,10 @@ def _missing_stretches(spec: TableSpec, target: Store, stored: int) -> List[Tupl
 
     A stretch partly stored is halved (one count query for the first half)
     until it is all stored, all missing, a single row, or
-    :data:`PLAN_QUERIES` queries are spent; an interrupted build (rows are
-    committed whole, in order) leaves one boundary, found in about
-    ``log2(rows)`` queries.
+    :data:`PLAN_QUERIES` queries or :data:`PLAN_QUERY_SECONDS` seconds are
+    spent; a stretch left partly stored counts by the share of its cells
+    left.  An interrupted build (rows are committed whole, in order) leaves
+    one boundary, found in about ``log2(rows)`` queries.
     """
     if stored == 0:
         return [(spec.urns, 1.0)]
@@ -676,12 +679,13 @@ def _missing_stretches(spec: TableSpec, target: Store, stored: int) -> List[Tupl
     out: List[Tuple[range, float]] = []
     pending = [(spec.urns, stored)]
     queries = 0
+    deadline = time.perf_counter() + PLAN_QUERY_SECONDS
     while pending:
         stretch, have = pending.pop()
         total = len(stretch) * width
         if have >= total:
             continue
-        if have == 0 or len(stretch) == 1 or queries >= PLAN_QUERIES:
+        if have == 0 or len(stretch) == 1 or queries >= PLAN_QUERIES or time.perf_counter() > deadline:
             out.append((stretch, 1.0 - have / total))
             continue
         half = len(stretch) // 2
@@ -729,8 +733,8 @@ def plan_table(spec: TableSpec, store=None, *, name: Optional[str] = None, worke
     Notes
     -----
     Method: one count query gives the cells stored; when some are, a few
-    more (at most :data:`PLAN_QUERIES`, halving the urns range) find which
-    rows are left.  Over those rows, the estimate is a **sum of per-row
+    more (at most :data:`PLAN_QUERIES` or :data:`PLAN_QUERY_SECONDS`,
+    halving the urns range) find which rows are left.  Over those rows, the estimate is a **sum of per-row
     estimates** when there are at most :data:`PLAN_ROWS` rows, else a
     **sample of** :data:`PLAN_ROWS` **evenly spaced rows extrapolated**, each
     standing for its share.  A row's estimate is the cost of the route
@@ -745,7 +749,9 @@ def plan_table(spec: TableSpec, store=None, *, name: Optional[str] = None, worke
     :mod:`enumerator.core.limits`: the time within a factor of a few, the
     digits within a factor of two (upper bounds).  Cost: at most
     ``PLAN_ROWS * PLAN_BALLS`` vectorised evaluations and
-    ``PLAN_QUERIES + 1`` count queries, well under a second for any table.
+    ``PLAN_QUERIES + 1`` count queries: well under a second for a table
+    not built yet, whatever its size; a partly built one adds the count
+    queries (each scans the stored cells once: 0.1 s for 3 * 10^5 cells).
 
     Examples
     --------
