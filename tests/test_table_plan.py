@@ -223,3 +223,10 @@ def test_a_store_that_does_not_exist_yet_plans_the_whole_table(tmp_path):
     spec = tables.TableSpec.make("BE", "0..10", "1..4")
     assert tables.plan_table(spec, probe).cells == spec.cells
     assert not (tmp_path / "absent.sqlite").exists()
+
+
+def test_the_cell_cap_is_explained_in_the_help():
+    result = run("table", "build", "--help")
+    assert result.exit_code == 0
+    text = " ".join(result.stdout.replace("│", " ").split())
+    assert f"at most {tables.MAX_CELLS:,} cells" in text and "--max-seconds" in text

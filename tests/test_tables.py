@@ -192,8 +192,10 @@ def test_spec_validation_and_normalisation():
         tables.TableSpec.make("BE", "0..5", "0..3")
     with pytest.raises(InvalidParameters, match="quantity must be one of"):
         tables.TableSpec.make("BE", "0..5", "1..3", quantity="entropy")
-    with pytest.raises(TooLarge, match="narrow balls= or urns="):
+    with pytest.raises(TooLarge, match="narrow balls= or urns=") as capped:
         tables.TableSpec.make("BE", "0..100000", "1..1000")
+    # the cap is stated, with the way round it
+    assert f"limit of {tables.MAX_CELLS} cells" in str(capped.value) and "several tables" in str(capped.value)
 
 
 # -- building -------------------------------------------------------------------
