@@ -841,7 +841,7 @@ def check_table_plan(plan: TablePlan, store=None) -> None:
     """
     if plan.cells == 0:
         return
-    spread = "more workers= or cluster=" if plan.workers > 1 else "spread the rows over workers= or cluster="
+    spread = "use more workers= or cluster=" if plan.workers > 1 else "spread the rows over workers= or cluster="
     limits.check(limits.Cost(seconds=plan.seconds_approx, memory=plan.memory), plan.describe(),
                  advice=f"narrow balls= or urns=, or {spread}",
                  parameters=["balls", "urns", "workers", "cluster"])
