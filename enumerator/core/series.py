@@ -256,9 +256,12 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
 
     and for ``N_k = k! p_k`` with ``f_j = g_j / j!`` the same identity reads
     ``k g_0 N_k = sum_j ((e + 1) j - k) C(k, j) g_j N_{k-j}``.  Every
-    division is exact.  Cost: ``degree * min(s, degree)`` multiplications of
-    an entry by a small number, ``p_0 = f_0^e`` apart (callers normalise
-    ``f_0 = 1`` for huge exponents); memory ``degree + 1`` entries.
+    division is exact.  The sum is taken as ``(e + 1) sum j t_j - k sum t_j``,
+    so each coefficient costs one product by the exponent.  Cost:
+    ``degree * min(s, degree)`` multiplications of an entry by a small
+    number plus ``degree`` products by ``e + 1``, ``p_0 = f_0^e`` apart
+    (callers normalise ``f_0 = 1`` for huge exponents); memory ``degree + 1``
+    entries.
 
     Examples
     --------
@@ -286,22 +289,32 @@ def miller_power(values: Sequence, exponent: int, degree: int, *, labelled: bool
         p[0] = f0 ** exponent
     e1 = exponent + 1
     divexact = gmpy2.divexact
+    steps = [(j, f[j]) for j in range(1, s + 1) if f[j]]
     for k in range(1, degree + 1):
-        total = mpz(0)
-        top = min(k, s)
+        # sum ((e + 1) j - k) t_j = (e + 1) sum j t_j - k sum t_j: one product by the
+        # exponent per coefficient, whatever its size, and small multipliers otherwise
+        plain = mpz(0)
+        weighted = mpz(0)
         if labelled:
             choose = mpz(1)
-            for j in range(1, top + 1):
-                choose = divexact(choose * (k - j + 1), j)
-                fj = f[j]
-                if fj:
-                    total += (e1 * j - k) * fj * choose * p[k - j]
+            last = 0
+            for j, fj in steps:
+                if j > k:
+                    break
+                for i in range(last + 1, j + 1):
+                    choose = divexact(choose * (k - i + 1), i)
+                last = j
+                t = fj * choose * p[k - j]
+                plain += t
+                weighted += j * t
         else:
-            for j in range(1, top + 1):
-                fj = f[j]
-                if fj:
-                    total += (e1 * j - k) * fj * p[k - j]
-        p[k] = divexact(total, k * f0)
+            for j, fj in steps:
+                if j > k:
+                    break
+                t = fj * p[k - j]
+                plain += t
+                weighted += j * t
+        p[k] = divexact(e1 * weighted - k * plain, k * f0)
     return p
 
 
@@ -362,6 +375,9 @@ def miller_rational_power(values: Sequence, exponent, degree: int) -> List:
     g = [mpq(0)] * (degree + 1)
     g[0] = mpq(1)
     for k in range(1, degree + 1):
+        # term by term: a product of a small rational by an entry reduces by gcds
+        # with the small operand only, where a sum of entries would need gcds of two
+        # large denominators (so the split of miller_power does not pay here)
         total = mpq(0)
         for j, fj in steps:
             if j > k:
