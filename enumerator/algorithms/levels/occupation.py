@@ -66,7 +66,7 @@ from flint import fmpz_poly
 
 from ...core.errors import InvalidParameters, TooLarge
 from ...core.exact import coprime_fraction
-from ...core.limits import Cost, bigint_bytes, check, product_seconds
+from ...core.limits import Cost, bigint_bytes, check, decimal_seconds, multiply_seconds, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
 from .ensembles import (
@@ -492,8 +492,31 @@ def factor_temperature(factor: Fraction, unit: Fraction, digits: int = DEFAULT_D
         return parse_temperature(t)
 
 
+#: Bytes of peak memory per decimal digit of the exact law the command line
+#: writes (the digits, the JSON text and its copy on the way out), measured
+#: with the trap below.
+_LAW_BYTES_PER_DIGIT = 3
+
+
 def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:
-    """Rough cost of the exact recursion: ``N^2/2`` rational products on numbers of ``bits`` bits."""
+    """Rough cost of the exact recursion and of writing the law: ``N^2/2`` rational products on ``bits``-bit numbers.
+
+    Seconds: ``2 N^2/2`` GMP products of ``bits``-bit numbers
+    (:func:`~enumerator.core.limits.multiply_seconds`; an ``mpq`` product
+    and sum with its gcds, on sizes growing to ``bits``) and ``2 (N + 1)``
+    numbers written in decimal.  Memory: the ``N + 1`` rationals of the
+    recursion and the decimal text of the law, ``2 (N + 1)`` numbers of
+    ``bits`` bits at :data:`_LAW_BYTES_PER_DIGIT` bytes per digit.
+
+    Measured (``levels --preset trap --rule BE --factor 9/10
+    --occupation-law 0 --json``; CPU time and peak RSS above the 62 MB of
+    the command's own start; 2 cores under a load of 4-5; ``N``: measured,
+    estimate): 100: 1.7 s, 10 MB (2.8 s, 14 MB); 140: 7.4 s, 29 MB
+    (12 s, 37 MB); 170: 18 s, 51 MB (26 s, 65 MB); 200: 40 s (55 s before
+    the moments were taken in ``mpq``), 83 MB (52 s, 105 MB).  The former
+    estimate (``8 N^2/2`` nominal products, no text) said 20.3 s and 13 MB
+    at ``N = 200``.
+    """
     n = max(system.particles, 1)
     height = max(factor.numerator.bit_length(), factor.denominator.bit_length(), 1)
     if system.spectrum.ladder is not None:
@@ -501,8 +524,10 @@ def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:
         bits = d * system.spectrum.ladder.spacing * n * (n + 1) / 2 * height + n * 64
     else:
         bits = n * max(span, 1) * height + n * 64
-    seconds = n * n / 2 * product_seconds(bits) * 8  # a gcd per rational operation
-    return Cost(seconds=seconds, memory=bigint_bytes(bits) * 2 * (n + 1))
+    numbers = 2 * (n + 1)
+    seconds = n * n * multiply_seconds(bits) + numbers * decimal_seconds(bits)
+    digits = numbers * bits * math.log10(2)
+    return Cost(seconds=seconds, memory=numbers * bigint_bytes(bits) + int(_LAW_BYTES_PER_DIGIT * digits))
 
 
 def occupation_law_exact(system: System, level: int, factor) -> OccupationLaw:
