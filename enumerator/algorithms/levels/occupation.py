@@ -81,7 +81,7 @@ from .ensembles import (
 from .particle_hole import fermion_canonical
 from .spectra import System, ground_energy, parse_digits, parse_rational, parse_temperature
 
-__all__ = ["OccupationLaw", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
+__all__ = ["OccupationLaw", "exact_law_cost", "factor_temperature", "occupation_law", "occupation_law_exact", "parse_factor"]
 
 
 @dataclass(frozen=True)
@@ -498,9 +498,26 @@ def factor_temperature(factor: Fraction, unit: Fraction, digits: int = DEFAULT_D
 _LAW_BYTES_PER_DIGIT = 3
 
 
-def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:
-    """Rough cost of the exact recursion and of writing the law: ``N^2/2`` rational products on ``bits``-bit numbers.
+def exact_law_cost(system: System, factor) -> Cost:
+    """Rough cost of :func:`occupation_law_exact`: ``N^2/2`` rational products on ``bits``-bit numbers, and the law written.
 
+    Parameters
+    ----------
+    system : System
+    factor : Fraction or str
+        The Boltzmann factor ``x = e^{-β u}`` (:func:`parse_factor`).
+
+    Returns
+    -------
+    Cost
+        Seconds and bytes, from ``N``, the spectrum's span (or a ladder's
+        dimension and spacing) and the height of ``x``: the rationals have
+        about ``bits = d s N(N+1)/2 h + 64 N`` bits on a ladder of
+        dimension ``d`` and spacing ``s``, ``N span h + 64 N`` on a finite
+        spectrum (``h`` the bits of ``x``'s numerator or denominator).
+
+    Notes
+    -----
     Seconds: ``2 N^2/2`` GMP products of ``bits``-bit numbers
     (:func:`~enumerator.core.limits.multiply_seconds`; an ``mpq`` product
     and sum with its gcds, on sizes growing to ``bits``) and ``2 (N + 1)``
@@ -516,7 +533,17 @@ def _exact_cost(system: System, factor: Fraction, span: int) -> Cost:
     the moments were taken in ``mpq``), 83 MB (52 s, 105 MB).  The former
     estimate (``8 N^2/2`` nominal products, no text) said 20.3 s and 13 MB
     at ``N = 200``.
+
+    Examples
+    --------
+    >>> from enumerator.algorithms.levels import make_system
+    >>> small, large = (exact_law_cost(make_system(n, preset="trap", rule="BE"), "9/10") for n in (50, 100))
+    >>> small.seconds < large.seconds and small.memory < large.memory
+    True
     """
+    factor = parse_factor(factor)
+    spectrum = system.spectrum
+    span = 0 if spectrum.ladder is not None else max(spectrum.energies) - min(spectrum.energies)
     n = max(system.particles, 1)
     height = max(factor.numerator.bit_length(), factor.denominator.bit_length(), 1)
     if system.spectrum.ladder is not None:
@@ -577,8 +604,7 @@ def occupation_law_exact(system: System, level: int, factor) -> OccupationLaw:
     e_l, g = _level(system, level)
     n = system.particles
     spectrum = system.spectrum
-    span = 0 if spectrum.ladder is not None else max(spectrum.energies) - min(spectrum.energies)
-    check(_exact_cost(system, x, span), "the exact occupation law", advice="lower particles= or use temperatures=",
+    check(exact_law_cost(system, x), "the exact occupation law", advice="lower particles= or use temperatures=",
           parameters=["particles", "temperatures"])
     xq = gmpy2.mpq(x.numerator, x.denominator)
 
