@@ -1023,8 +1023,10 @@ def miller_cost(rel: int, terms: int, k: Fraction, norm: int, denominator: int) 
     small = max(1, min(terms - 1, rel))
     ebits = (p + q).bit_length()
     if q == 1 and denominator == 1:
-        # integers: one product by the exponent, small products, sums and an exact division
-        step = _product_seconds(ebits, average) + average * (3e-11 * small + 5e-11) + 2e-6 * small
+        # integers: products by the exponent (one per coefficient when miller_power
+        # gathers the terms first), small products, sums and an exact division
+        products = 1 if (small > 1 and ebits > series.SPLIT_EXPONENT_BITS) else small
+        step = products * _product_seconds(ebits, average) + average * (3e-11 * small + 5e-11) + 2e-6 * small
     else:
         # GMP rationals, term by term: a product by the small (a + 1) j - k with gcds against
         # it, and a sum of two entries (a gcd of two large numbers, O(M(b) log b)) per term
