@@ -120,6 +120,9 @@ def test_refusals_write_huge_numbers_by_their_digit_count():
     assert pole.exit_code == 2
     assert len(one_line_error(pole)) < 400 and "-digit number" in one_line_error(pole)
     assert number_text(Fraction(2**200, 3)) == "a fraction of 61 / 1 digits"  # 2^200 has 61 digits (log10)
+    # a pole of order 2^65536 is named by its digit count, not written out (nor a ValueError from str(int))
+    with pytest.raises(InvalidParameters, match="x to the power a negative 19,729-digit number"):
+        extract_coefficients("x^-2^2^2^2^2", 3)
 
 
 def test_cost_is_checked_before_computing():

@@ -1105,10 +1105,14 @@ def extract_coefficients(expr, upto, var="x") -> List[Union[int, Fraction]]:
             limit += need.extra
         else:
             if not result.is_zero() and result.val < 0:
+                if decimal_digits(result.val) <= MESSAGE_DIGITS:
+                    start, cure = f"{x.name}^{result.val}", f"multiply it by {x.name}^{-result.val}"
+                else:
+                    start = f"{x.name} to the power {number_text(result.val)}"
+                    cure = f"multiply it by the opposite power of {x.name}"
                 raise InvalidParameters(
                     f"the expression has a pole at {x.name} = 0: its expansion starts with "
-                    f"{x.name}^{result.val}, a Laurent series rather than a power series; "
-                    f"multiply it by {x.name}^{-result.val}"
+                    f"{start}, a Laurent series rather than a power series; {cure}"
                 )
             if result.absolute >= target:
                 return _coefficients(result, top)
