@@ -21,6 +21,7 @@ from ..core import series
 from ..core.model import UrnModel
 from ..core.rules import Rule
 from .counting import count_configurations, count_microstates
+from .counting_costs import check_counting_cost
 from .extremes import mb_at_least
 
 __all__ = ["outcome_count", "outcome_row"]
@@ -47,6 +48,11 @@ def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int)
     int
         The exact count; 0 for infeasible bounds.
 
+    Raises
+    ------
+    TooLarge
+        When the count's estimate is past the limits.
+
     Notes
     -----
     This is the bounded count behind every distribution and event:
@@ -56,7 +62,9 @@ def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int)
     MB bounds where most urns are unbounded are handled without expanding
     their factors: ``n! [x^n] P(x) e^{q x}`` for ``q`` free urns and a
     polynomial ``P`` of the others is ``sum_i C(n, i) N(i) q^{n-i}``
-    (Flajolet & Sedgewick 2009, §II.2), one Horner pass.  Everything else
+    (Flajolet & Sedgewick 2009, §II.2), one Horner pass, checked first
+    against the limits with the estimate of the grouped count (the same
+    FLINT powers and product).  Everything else
     is :func:`~enumerator.counting.count_microstates` of the model with
     those bounds, except uniform MB lower bounds ``a >= 2`` without upper
     bounds (:func:`mb_at_least`).
@@ -86,6 +94,8 @@ def outcome_count(bounds: Sequence[Tuple[int, Optional[int]]], rule, balls: int)
     if not free:
         return count_microstates(UrnModel(balls=n, bounds=bounds, rule=rule))
     rest = [bounds[i] for i in range(r) if i not in set(free)]
+    # the grouped normaliser's estimate prices the same FLINT powers and product
+    check_counting_cost(UrnModel(balls=n, bounds=bounds, rule=rule), "microstates", "counting the assignments")
     return int(_mb_free_dot(rest, len(free), n))
 
 
@@ -165,7 +175,15 @@ def outcome_row(bounds, rule: Rule, top: int) -> List:
     for the bounded urns' EGF ``P`` and ``q`` unbounded urns — a binomial
     convolution done as one product of factorial-scaled rows (Flajolet &
     Sedgewick, *Analytic Combinatorics*, 2009, §II.2).  Cost: one FLINT
-    product of length ``top`` per distinct bound, ``O(G M(top))``.
+    product of length ``top`` per distinct bound, ``O(G M(top))``,
+    checked first against the limits with the estimate of the grouped count
+    at ``top`` balls
+    (:func:`~enumerator.algorithms.counting_costs.check_counting_cost`).
+
+    Raises
+    ------
+    TooLarge
+        When that estimate is past the limits.
     """
     if top < 0:
         return []
@@ -176,6 +194,8 @@ def outcome_row(bounds, rule: Rule, top: int) -> List:
         room = top - shift
         if room < 0:
             return [mpz(0)] * (top + 1)
+        check_counting_cost(UrnModel(balls=top, bounds=bounds, rule=Rule.BE), "configurations",
+                            "counting the occupancy vectors of every number of balls")
         groups: Counter = Counter()
         for a, b in bounds:
             if b is not None and b - a + 1 <= room:
@@ -192,6 +212,8 @@ def outcome_row(bounds, rule: Rule, top: int) -> List:
     fac = gmpy2.fac
     if not rest:
         return [mpz(q) ** L for L in range(top + 1)]
+    check_counting_cost(UrnModel(balls=top, bounds=bounds, rule=Rule.MB), "microstates",
+                        "counting the assignments of every number of balls")
     poly, shift, scale = _mb_bounded_part(rest, top)
     coeffs = [0] * shift + [int(c) for c in poly.coeffs()]
     coeffs = (coeffs + [0] * (top + 1))[: top + 1]
