@@ -24,6 +24,29 @@ occupation law of a trap
 (:func:`enumerator.algorithms.levels.occupation.exact_law_cost`) and the
 exact pair of the no-collision threshold
 (:func:`enumerator.algorithms.threshold.exact_pair_cost`).
+
+``--full`` on 2026-12-02 (2 cores, load 0.5-1.6; MB of 10^6 bytes)::
+
+    command                                           est s   cpu s  ratio   est MB  peak MB  ratio
+    count -n 5000 -r 7 --capacity 1000                 0.16    0.08   2.09     11.3      4.4   2.53
+    count -n 10000 -r 7 --capacity 2000                0.60    0.38   1.59     36.6     15.1   2.42
+    count -n 20000 -r 7 --capacity 4000                2.32    1.99   1.16    129.3     60.9   2.12
+    count -n 3000 --bounds 7x0:600,1x0:                0.74    0.65   1.14    172.4    165.5   1.04
+    count -n 5000 --bounds 7x0:1000,1x0:               2.32    2.07   1.12    523.3    229.0   2.29
+    count -n 4000 --bounds 7x0:800,5x0:700             2.18    2.58   0.85    445.3    365.3   1.22
+    count -n 7000 --bounds 7x0:1400,1x0:               4.92    4.80   1.02   1083.3    733.2   1.48
+    levels --preset trap --particles 100 (exact law)   2.84    1.62   1.76     13.9     10.9   1.27
+    levels --preset trap --particles 140               11.55   7.55   1.53     36.9     29.7   1.25
+    levels --preset trap --particles 170               26.05  18.13   1.44     65.2     52.7   1.24
+    levels --preset trap --particles 200               51.60  40.44   1.28    105.0     86.6   1.21
+    threshold --vary urns -n 2^16                      1.75    1.14   1.53     17.0     14.2   1.20
+    threshold --vary urns -n 2^18                      9.58    7.71   1.24     76.6     60.5   1.27
+    threshold --vary urns -n 2^20                     50.96   47.05   1.08    340.9    258.9   1.32
+
+Before these estimates were corrected, ``count -n 20000 -r 7 --capacity
+4000`` planned 2.9 GB and peaked at 6.0 GB (a FLINT power; it now takes the
+capacity-overflow route), the trap at 200 particles planned 20.3 s for
+55 s of CPU, and the threshold at ``2^20`` planned 13.8 s and 41 MB.
 """
 
 from __future__ import annotations
