@@ -88,3 +88,14 @@ def test_cli_round_trip_of_a_sparse_sample():
     assert Fraction(payload["probability"]) == expected and payload["config"] == pairs
     repeated = run("prob", "-n", "3", "-r", "5", "--config", "1:1 1:2")
     assert repeated.exit_code == 2 and "twice" in repeated.stderr
+
+
+def test_weighted_generating_row_is_labelled_as_count_labels_it():
+    # with weights a BE row is the total weight of the vectors, which count calls "microstates"
+    # (here sum over vectors of 2 balls of prod w_i^k_i, by brute force)
+    weights = [1, 2, Fraction(1, 2)]
+    payload = run_json("gf", "-n", "2", "--weights", "1,2,1/2", "--rule", "BE")
+    total = sum(prod(Fraction(w) ** k for w, k in zip(weights, c))
+                for c in itertools.product(range(3), repeat=3) if sum(c) == 2)
+    assert payload["counts"] == "microstates" and Fraction(payload["coefficients"][2]) == total
+    assert run_json("count", "-n", "2", "--weights", "1,2,1/2", "--rule", "BE")["microstates"] == str(total)

@@ -72,8 +72,10 @@ def gf_command(
     """Print the model's generating function and its counts for 0..N balls.
 
     BE and FD: the ordinary generating function, \\[x^m] = configurations of m
-    balls. MB: the exponential one, m! \\[x^m] = microstates of m balls. The
-    row comes from one exact series pass; N is --upto (default: --balls).
+    balls (with --weights, the total weight of those vectors: "microstates",
+    as count names it). MB: the exponential one, m! \\[x^m] = microstates of
+    m balls. The row comes from one exact series pass; N is --upto (default:
+    --balls).
 
     Example:
 
@@ -89,7 +91,8 @@ def gf_command(
         function = generating_function(model, var)
         bivariate = None if mark is None else bivariate_generating_function(model, mark, var)
         row = model.coefficient_row(top)
-    counts = "microstates" if model.rule is Rule.MB else "configurations"
+    # with weights a BE/FD row is the total weight of the vectors, which count calls microstates
+    counts = "microstates" if model.rule is Rule.MB or model.weighted else "configurations"
     if as_json:
         payload = {
             "rule": model.rule.value,
