@@ -323,3 +323,11 @@ def test_several_failures_are_one_error_line_after_the_output():
     assert len(lines) == 1
     assert lines[0].startswith("Error: empty-mean: every point was skipped (the exact side of empty-mean")
     assert "; saddle: saddle approximates a bounded count: give --capacity" in lines[0]
+
+
+def test_a_point_whose_exact_text_is_beyond_the_time_limit_is_skipped():
+    # the mean of 10^7 keys in 5*10^6 buckets is (r-1)^n / r^(n-1) (Feller vol. 1, ch. IX), two numbers of
+    # about 67 million digits: computing them is quick, writing them is not, and the point is skipped at once
+    result = run("compare", "empty-mean", "--balls", 10**7, "--urns", 5 * 10**6, "--max-seconds", "5", "--json")
+    row = json.loads(result.stdout)["comparisons"][0]["rows"][0]
+    assert "skipped" in row and "above the limit of 5 s" in row["skipped"]

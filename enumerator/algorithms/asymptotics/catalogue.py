@@ -139,6 +139,15 @@ class Approximation:
         bits = max(64.0, point.balls * math.log2(point.balls + (point.urns or 1) + 2))
         return Cost(seconds=4 * limits.product_seconds(bits), memory=6 * limits.bigint_bytes(bits))
 
+    def answer_bits(self, point: Point) -> float:
+        """About how many bits the exact side's numerator and denominator hold together (it is written out).
+
+        Default 0: writing is within :meth:`cost`'s margin.  The entries whose
+        exact side is a probability over ``r^n`` (or a mean like it), whose
+        decimal text can cost more than computing it, give its size.
+        """
+        return 0.0
+
     def guard(self, point: Point) -> int:
         """Digits the evaluation may lose to the size of the numbers involved."""
         sizes = [point.balls, point.urns or 1, point.capacity or 1, point.at or 1]
@@ -307,6 +316,10 @@ class Birthday(Approximation):
         falling = counting_cost(UrnModel(balls=n, urns=r, rule="MB", capacity=1), "microstates")
         return falling + Cost(seconds=6 * limits.product_seconds(bits), memory=6 * limits.bigint_bytes(bits))
 
+    def answer_bits(self, point):
+        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
+        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
+
     def approximate(self, point):
         n, r = point.balls, point.urns
         return mpmath.exp(-mpf(n * (n - 1)) / (2 * r))
@@ -339,6 +352,10 @@ class EmptyMean(Approximation):
 
     def cost(self, point):
         return empty_mean_cost(point.balls, point.urns)
+
+    def answer_bits(self, point):
+        # (r-1)^n / r^(n-1): two numbers of about n log2 r bits
+        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         n, r = point.balls, point.urns
@@ -381,6 +398,10 @@ class EmptyPoisson(Approximation):
     def cost(self, point):
         # the law, then j + 1 Poisson terms per precision step of the approximation
         return empty_urns_cost(point.balls, point.urns, point.at) + Cost(seconds=2e-5 * (point.at + 1))
+
+    def answer_bits(self, point):
+        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
+        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         lam = point.urns * mpmath.exp(-mpf(point.balls) / point.urns)
@@ -436,6 +457,10 @@ class EmptyNormal(Approximation):
 
     def cost(self, point):
         return empty_urns_cost(point.balls, point.urns, point.at)
+
+    def answer_bits(self, point):
+        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
+        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         n, r, j = point.balls, point.urns, point.at

@@ -291,12 +291,17 @@ def evaluate(entry: Approximation, point: Point) -> Row:
 
     Notes
     -----
-    :func:`enumerator.core.limits.check` of ``entry.cost(point)`` first, so a
+    :func:`enumerator.core.limits.check` of ``entry.cost(point)`` and of
+    writing the exact side in decimal (``entry.answer_bits``) first, so a
     point out of reach is refused before any work; then the exact side and
     the approximation at increasing precision (module docstring).
     """
     try:
-        limits.check(entry.cost(point), f"the exact side of {entry.name} at {_where(entry, point)}",
+        bits = entry.answer_bits(point)
+        # the exact side is also written out in decimal, which for huge answers costs more than computing it
+        writing = limits.Cost(seconds=limits.decimal_seconds(bits),
+                              memory=int(limits.TEXT_BYTES_PER_DIGIT * bits * math.log10(2)))
+        limits.check(entry.cost(point) + writing, f"the exact side of {entry.name} at {_where(entry, point)}",
                      advice="use smaller parameters")
         return _evaluate(entry, point)
     except EnumeratorError as error:
