@@ -53,3 +53,20 @@ def test_digit_counts_next_to_powers_of_ten():
     for k in list(range(1, 60)) + [rng.randint(100, 20000) for _ in range(40)]:
         for n in (10 ** k - 1, 10 ** k, 10 ** k + 1, rng.randint(10 ** (k - 1), 10 ** k)):
             assert decimal_digits(n) == len(gmpy2.mpz(n).digits())
+
+
+def test_approx_of_long_fractions_is_the_nearest_float():
+    # reference: MPFR's correctly rounded quotient of the whole fraction (gmpy2), and Python's float()
+    from enumerator.cli.render import approx
+
+    rng = random.Random(13)
+    for _ in range(500):
+        a = rng.randint(1, 2 ** rng.randint(4100, 5000))
+        b = rng.randint(1, 2 ** rng.randint(4100, 5000))
+        value = Fraction(a, b) * rng.choice((1, -1))
+        with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
+            expected = float(gmpy2.mpfr(gmpy2.mpq(value.numerator, value.denominator)))
+        assert approx(value) == expected
+    # a tie-free value next to a float: 1 + 2^-53 + tiny rounds up; written over a long denominator
+    scale = 3 ** 3000
+    assert approx(Fraction((2 ** 53 + 1) * scale + 1, 2 ** 53 * scale)) == float.fromhex("0x1.0000000000001p+0")

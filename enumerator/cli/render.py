@@ -117,10 +117,11 @@ def approx(value: Fraction) -> float:
     Notes
     -----
     Correctly rounded to the nearest float: ``Fraction.__float__`` for small
-    values; GMP's MPFR (round to nearest) once the numerator or denominator
-    passes a few thousand bits, where CPython's quadratic division would take
-    seconds.  Values beyond the float range give ``±inf`` or ``0.0``.  Cost:
-    quasi-linear in the digits of the numerator and denominator.
+    values; past a few thousand bits, an MPFR enclosure of 128 bits rounded
+    to 53 at both ends (equal ends are the nearest float: rounding is
+    monotone), else MPFR's correctly rounded quotient of the whole fraction.
+    Values beyond the float range give ``±inf`` or ``0.0``.  Cost: reading
+    the top bits, or quasi-linear in the digits when the ends differ.
     """
     if isinstance(value, int) and value.bit_length() <= 1000:
         return float(value)
@@ -129,6 +130,23 @@ def approx(value: Fraction) -> float:
         return float(value)
     import gmpy2
 
+    p, q = gmpy2.mpz(abs(numerator)), gmpy2.mpz(denominator)
+    sign = -1.0 if numerator < 0 else 1.0
+    # an enclosure from the top bits (directed rounding), rounded to 53 bits at both ends: when they
+    # agree that is the nearest float, without a gcd or a division of the whole numbers
+    ends = []
+    for way, back in ((gmpy2.RoundDown, gmpy2.RoundUp), (gmpy2.RoundUp, gmpy2.RoundDown)):
+        with gmpy2.context(gmpy2.get_context(), precision=128, emax=1 << 40, emin=-(1 << 40)) as ctx:
+            ctx.round = way
+            top = gmpy2.mpfr(p)
+            ctx.round = back
+            bottom = gmpy2.mpfr(q)
+            ctx.round = way
+            ratio = top / bottom
+        with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
+            ends.append(float(gmpy2.mpfr(ratio)))
+    if ends[0] == ends[1]:
+        return sign * ends[0]
     with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
         x = gmpy2.mpfr(gmpy2.mpq(numerator, denominator))
     return float(x)
