@@ -19,6 +19,7 @@ import sqlite3
 import time
 
 import pytest
+from cli_helpers import one_line_error, run
 from scipy.special import comb
 
 from enumerator import TooLarge
@@ -26,7 +27,6 @@ from enumerator.core.limits import limited
 from enumerator.store import cluster, tables
 from enumerator.store.context import open_store
 from enumerator.store.database import Store
-from tests.cli_helpers import one_line_error, run
 
 pytestmark = pytest.mark.usefixtures("no_configured_store")  # no store from the environment (conftest.py)
 
