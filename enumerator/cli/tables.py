@@ -140,8 +140,13 @@ def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
 
     Notes
     -----
-    Streams: nothing is held beyond one line.  Cost: linear in the output.
+    Streams: nothing is held beyond one line.  A file is written under a
+    temporary name beside *output* and renamed when whole, so an export that
+    fails half way (a damaged cell, an interrupt) leaves no partial file
+    under the final name.  Cost: linear in the output.
     """
+    import os
+
     count = 0
     if output is None:
         for line in lines:
@@ -149,15 +154,21 @@ def _write_output(lines: Iterable[str], output: Optional[str]) -> int:
             count += 1
         sys.stdout.flush()
         return count
+    partial = f"{output}.partial-{os.getpid()}"
     try:
-        with open(output, "w", encoding="utf-8", newline="") as handle:
-            for line in lines:
-                handle.write(line)
-                count += 1
-    except OSError as error:
-        from ..core.errors import StoreError
+        try:
+            with open(partial, "w", encoding="utf-8", newline="") as handle:
+                for line in lines:
+                    handle.write(line)
+                    count += 1
+            os.replace(partial, output)
+        except OSError as error:
+            from ..core.errors import StoreError
 
-        raise StoreError(f"cannot write {output} ({error.strerror}); choose another --output") from None
+            raise StoreError(f"cannot write {output} ({error.strerror}); choose another --output") from None
+    finally:
+        if os.path.exists(partial):
+            os.remove(partial)
     return count
 
 

@@ -1054,7 +1054,7 @@ class StoredTable:
                     or digest != key_digest(quantity, Key(rule, n, self.spec.bounds_text(r), r), "", version)):
                 raise StoreError(
                     f"the store {self.store.name} holds a damaged cell (n={n}, r={r}) of this table; "
-                    "run 'enumerator cache verify --fix' or rebuild after 'enumerator cache clear'"
+                    "run 'enumerator cache verify --fix --all' (a sample may miss it) or rebuild after 'enumerator cache clear'"
                 )
             yield n, r, text, digits
 
