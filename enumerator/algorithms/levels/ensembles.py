@@ -56,6 +56,7 @@ __all__ = [
     "grand_canonical",
     "grand_canonical_level_variance",
     "grand_canonical_thermo",
+    "ln_partition_bound",
     "online_recursion",
     "parse_temperatures",
     "particle_hole_pays",
@@ -468,6 +469,36 @@ def _level_variance(system: System, spectrum: Spectrum, b, ratios, index: int, m
     return mpmath.fsum(terms) - mean * mean
 
 
+def ln_partition_bound(spectrum: Spectrum, particles: int, temperature: Fraction) -> float:
+    r"""An upper bound on ``ln Z_N`` (energies from the lowest level), for sizing the recursions' integers.
+
+    Through the grand canonical sum at fugacity ``φ = N/(N + z_1)``:
+    ``ln Z_N <= ln Ξ(φ) - N ln φ <= z_1 ln(1 + N/z_1) + N ln(1 + z_1/N)``,
+    ``z_1`` the one-particle sum from the lowest level (for a ladder,
+    ``-d ln(1 - e^{-x})`` in logarithms, since ``z_1 ~ x^{-d}`` passes the
+    float range at high temperature; beyond ``e^600``,
+    ``N + N ln(2 z_1/N)``).  Cost: ``O(levels)`` float operations.
+
+    >>> from enumerator.algorithms.levels.spectra import harmonic_trap
+    >>> 0 < ln_partition_bound(harmonic_trap(), 100, Fraction(2)) < ln_partition_bound(harmonic_trap(), 100, Fraction(4))
+    True
+    """
+    n = max(particles, 1)
+    b = float(spectrum.unit / temperature)
+    if spectrum.ladder is not None:
+        lad = spectrum.ladder
+        x = max(b * float(lad.spacing), 1e-300)
+        log_z1 = -lad.dimension * math.log(-math.expm1(-x)) if x < 700 else 0.0
+    else:
+        low = spectrum.lowest
+        log_z1 = math.log(sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies)))
+    if log_z1 < 600:
+        z1 = math.exp(log_z1)
+        return z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
+    # z_1 ln(1 + N/z_1) <= N and N ln(1 + z_1/N) <= N ln(2 z_1/N) once z_1 >= N
+    return n + n * (log_z1 - math.log(n) + math.log(2))
+
+
 def _recursion_cost(system: System, spectrum: Spectrum, temperature: Fraction, bits: int, moments: bool) -> Cost:
     r"""Rough cost of the fixed-point recursion at one temperature.
 
@@ -483,20 +514,7 @@ def _recursion_cost(system: System, spectrum: Spectrum, temperature: Fraction, b
     """
     n = max(system.particles, 1)
     b = float(spectrum.unit / temperature)
-    if spectrum.ladder is not None:
-        lad = spectrum.ladder
-        x = max(b * float(lad.spacing), 1e-300)
-        # ln z_1 = -d ln(1 - e^-x): in logarithms, since z_1 ~ x^-d passes the float range at high T
-        log_z1 = -lad.dimension * math.log(-math.expm1(-x)) if x < 700 else 0.0
-    else:
-        low = spectrum.lowest
-        log_z1 = math.log(sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies)))
-    if log_z1 < 600:
-        z1 = math.exp(log_z1)
-        ln_z = z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
-    else:  # z_1 ln(1 + N/z_1) <= N and N ln(1 + z_1/N) <= N ln(2 z_1/N) once z_1 >= N
-        ln_z = n + n * (log_z1 - math.log(n) + math.log(2))
-    size = bits + ln_z / math.log(2)
+    size = bits + ln_partition_bound(spectrum, n, temperature) / math.log(2)
     if system.capacity is not None:
         size += b * (ground_energy(system) - n * spectrum.lowest) / math.log(2)
     couplings = 6 if moments else 1

@@ -74,6 +74,7 @@ from .ensembles import (
     GUARD_DIGITS,
     grand_canonical,
     grand_canonical_level_variance,
+    ln_partition_bound,
     online_recursion,
     particle_hole_pays,
     to_fixed,
@@ -310,20 +311,7 @@ def _law_cost(system: System, temperature: Fraction, bits: int) -> Cost:
     *bits* bits) said 0.19 s and 2 MB at 20000, 40.
     """
     n = max(system.particles, 1)
-    spectrum = system.spectrum
-    b = float(spectrum.unit / temperature)
-    if spectrum.ladder is not None:
-        x = max(b * float(spectrum.ladder.spacing), 1e-300)
-        log_z1 = -spectrum.ladder.dimension * math.log(-math.expm1(-x)) if x < 700 else 0.0
-    else:
-        low = spectrum.lowest
-        log_z1 = math.log(sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies)))
-    if log_z1 < 600:
-        z1 = math.exp(log_z1)
-        ln_z = z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
-    else:  # z_1 ln(1 + N/z_1) <= N and N ln(1 + z_1/N) <= N ln(2 z_1/N) once z_1 >= N
-        ln_z = n + n * (log_z1 - math.log(n) + math.log(2))
-    size = bits + ln_z / math.log(2)
+    size = bits + ln_partition_bound(system.spectrum, n, temperature) / math.log(2)
     sequences = 1 if system.capacity is None else 2
     seconds = sequences * 1.2 * (2 * max(1, n.bit_length()) * product_seconds(n * size)
                                  + 8 * n * product_seconds(size)) + 4e-5 * n
