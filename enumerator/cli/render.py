@@ -132,28 +132,19 @@ def approx(value: Fraction) -> float:
 
     p, q = gmpy2.mpz(abs(numerator)), gmpy2.mpz(denominator)
     sign = -1.0 if numerator < 0 else 1.0
-    # an enclosure from the top bits (directed rounding), rounded to 53 bits at both ends: when they
-    # agree that is the nearest float, without a gcd or a division of the whole numbers
-    ends = []
-    for way, back in ((gmpy2.RoundDown, gmpy2.RoundUp), (gmpy2.RoundUp, gmpy2.RoundDown)):
-        with gmpy2.context(gmpy2.get_context(), precision=128, emax=1 << 40, emin=-(1 << 40)) as ctx:
-            ctx.round = way
-            top = gmpy2.mpfr(p)
-            ctx.round = back
-            bottom = gmpy2.mpfr(q)
-            ctx.round = way
-            ratio = top / bottom
-        with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
-            ends.append(float(gmpy2.mpfr(ratio)))
-    if ends[0] == ends[1]:
-        return sign * ends[0]
+    # an enclosure from the top bits, rounded to 53 bits at both ends: when they agree that is the
+    # nearest float, without a gcd or a division of the whole numbers
+    with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
+        low, high = (float(gmpy2.mpfr(end)) for end in _enclosure(p, q, 128))
+    if low == high:
+        return sign * low
     with gmpy2.context(gmpy2.get_context(), precision=53, emax=1 << 30, emin=-(1 << 30)):
         x = gmpy2.mpfr(gmpy2.mpq(numerator, denominator))
     return float(x)
 
 
 def _enclosure(p, q, bits: int):
-    """Fractions ``low <= p/q <= high`` of *bits* significant bits each (MPFR with directed rounding).
+    """MPFR numbers ``low <= p/q <= high`` of *bits* significant bits each (directed rounding).
 
     ``p``, ``q`` positive integers of any size; cost independent of their size
     beyond reading their top bits.
@@ -161,15 +152,14 @@ def _enclosure(p, q, bits: int):
     import gmpy2
 
     ends = []
-    for down in (True, False):
-        way, back = (gmpy2.RoundDown, gmpy2.RoundUp) if down else (gmpy2.RoundUp, gmpy2.RoundDown)
+    for way, back in ((gmpy2.RoundDown, gmpy2.RoundUp), (gmpy2.RoundUp, gmpy2.RoundDown)):
         with gmpy2.context(gmpy2.get_context(), precision=bits, emax=1 << 40, emin=-(1 << 40)) as ctx:
             ctx.round = way
             top = gmpy2.mpfr(p)
             ctx.round = back
             bottom = gmpy2.mpfr(q)
             ctx.round = way
-            ends.append(Fraction(*(top / bottom).as_integer_ratio()))
+            ends.append(top / bottom)
     return ends[0], ends[1]
 
 
@@ -269,7 +259,7 @@ def scientific(value, significant: int = SIGNIFICANT) -> str:
     p = gmpy2.mpz(abs(value.numerator))
     q = gmpy2.mpz(value.denominator)
     if max(p.bit_length(), q.bit_length()) > 4000 and abs(p.bit_length() - q.bit_length()) < 4000:
-        low, high = _enclosure(p, q, 4 * significant + 64)
+        low, high = (Fraction(*end.as_integer_ratio()) for end in _enclosure(p, q, 4 * significant + 64))
         text = _rounded(gmpy2.mpz(low.numerator), gmpy2.mpz(low.denominator), significant)
         if text == _rounded(gmpy2.mpz(high.numerator), gmpy2.mpz(high.denominator), significant):
             return sign + text
