@@ -25,7 +25,6 @@ import sys
 from fractions import Fraction
 from typing import TYPE_CHECKING, Iterable, Optional, Sequence
 
-from ..core.rules import Rule
 from .options import ListFormat
 
 if TYPE_CHECKING:  # pragma: no cover - annotations only
@@ -502,15 +501,8 @@ def describe(model: "Occupancy") -> str:
         text += f", each of weight {exact(model.groups[0].weight)}"
     # The uniform bounds, read from the model's one group: never per urn, so a
     # title costs nothing however many urns there are.
-    low, high = model.minimum, model.capacity
-    limits = []
-    if low:
-        limits.append(f"at least {low}")
-    if high is not None and not (model.rule is Rule.FD and high == 1):
-        limits.append(f"at most {high}")
-    if limits:
-        text += ", " + " and ".join(limits) + " per urn"
-    return text
+    bounds = model.uniform_bounds_words()
+    return text + ", " + bounds if bounds else text
 
 
 def write_vectors(blocks, urns: int, fmt, json_head: Optional[str], count_field: str) -> None:

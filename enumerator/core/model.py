@@ -337,16 +337,33 @@ class UrnModel:
 
         words = [self.rule.value]
         if self.is_uniform:
-            low, high = self.groups[0].bound
-            if low:
-                words.append(f"at least {low} per urn")
-            if high is not None and high != self.rule.description.per_urn:
-                words.append(f"at most {high} per urn")
+            bounds = self.uniform_bounds_words()
+            if bounds:
+                words.append(bounds)
             if self.weighted:
                 words.append("weighted urns")
         else:
             words.append(count(len(self.groups), "group") + " of urns")
         return f"{count(self.balls, 'ball')} in {count(self.urns, 'urn')} ({', '.join(words)})"
+
+    def uniform_bounds_words(self) -> str:
+        """The bound every urn shares, in words: ``"at least 1 and at most 3 per urn"``, or ``""``.
+
+        The rule's own bound (FD: at most one) is not repeated.  Only for a
+        uniform model (:attr:`is_uniform`); cost constant.
+
+        >>> UrnModel(balls=3, urns=4, rule="BE", minimum=1, capacity=3).uniform_bounds_words()
+        'at least 1 and at most 3 per urn'
+        >>> UrnModel(balls=2, urns=4, rule="FD").uniform_bounds_words()
+        ''
+        """
+        low, high = self.groups[0].bound
+        limits = []
+        if low:
+            limits.append(f"at least {low}")
+        if high is not None and high != self.rule.description.per_urn:
+            limits.append(f"at most {high}")
+        return " and ".join(limits) + " per urn" if limits else ""
 
     def _group_tuples(self):
         return [(g.count, g.lower, g.upper, g.weight) for g in self.groups]
