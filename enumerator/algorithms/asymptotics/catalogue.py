@@ -139,14 +139,19 @@ class Approximation:
         bits = max(64.0, point.balls * math.log2(point.balls + (point.urns or 1) + 2))
         return Cost(seconds=4 * limits.product_seconds(bits), memory=6 * limits.bigint_bytes(bits))
 
+    #: True for an entry whose exact side is a fraction over ``r^n`` (a probability, or a mean such as
+    #: ``(r-1)^n / r^(n-1)``), whose decimal text can cost more than computing it.
+    over_power = False
+
     def answer_bits(self, point: Point) -> float:
         """About how many bits the exact side's numerator and denominator hold together (it is written out).
 
-        Default 0: writing is within :meth:`cost`'s margin.  The entries whose
-        exact side is a probability over ``r^n`` (or a mean like it), whose
-        decimal text can cost more than computing it, give its size.
+        0 where writing is within :meth:`cost`'s margin; for the entries
+        :attr:`over_power`, two numbers of about ``n log2 r`` bits.
         """
-        return 0.0
+        if not self.over_power:
+            return 0.0
+        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def guard(self, point: Point) -> int:
         """Digits the evaluation may lose to the size of the numbers involved."""
@@ -293,6 +298,7 @@ class Birthday(Approximation):
     """
 
     name = "birthday"
+    over_power = True
     quantity = "P(no two balls share an urn) under MB"
     formula = "exp(-n(n-1)/(2r))"
     source = "Feller 1968, vol. 1, §II.3; von Mises 1939"
@@ -316,10 +322,6 @@ class Birthday(Approximation):
         falling = counting_cost(UrnModel(balls=n, urns=r, rule="MB", capacity=1), "microstates")
         return falling + Cost(seconds=6 * limits.product_seconds(bits), memory=6 * limits.bigint_bytes(bits))
 
-    def answer_bits(self, point):
-        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
-        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
-
     def approximate(self, point):
         n, r = point.balls, point.urns
         return mpmath.exp(-mpf(n * (n - 1)) / (2 * r))
@@ -341,6 +343,7 @@ class EmptyMean(Approximation):
     """
 
     name = "empty-mean"
+    over_power = True
     quantity = "the mean number of empty urns r(1-1/r)^n under MB"
     formula = "r e^{-n/r}"
     source = "Feller 1968, vol. 1, ch. IX; Kolchin, Sevast'yanov & Chistyakov 1978"
@@ -352,10 +355,6 @@ class EmptyMean(Approximation):
 
     def cost(self, point):
         return empty_mean_cost(point.balls, point.urns)
-
-    def answer_bits(self, point):
-        # (r-1)^n / r^(n-1): two numbers of about n log2 r bits
-        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         n, r = point.balls, point.urns
@@ -384,6 +383,7 @@ class EmptyPoisson(Approximation):
     """
 
     name = "poisson"
+    over_power = True
     quantity = "P(at most j urns empty) under MB (j = --at, default 0)"
     formula = "Poisson law with mean r e^{-n/r}"
     source = "von Mises 1939; Kolchin et al. 1978, ch. II; Barbour, Holst & Janson 1992, ch. 6"
@@ -398,10 +398,6 @@ class EmptyPoisson(Approximation):
     def cost(self, point):
         # the law, then j + 1 Poisson terms per precision step of the approximation
         return empty_urns_cost(point.balls, point.urns, point.at) + Cost(seconds=2e-5 * (point.at + 1))
-
-    def answer_bits(self, point):
-        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
-        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         lam = point.urns * mpmath.exp(-mpf(point.balls) / point.urns)
@@ -433,6 +429,7 @@ class EmptyNormal(Approximation):
     """
 
     name = "normal"
+    over_power = True
     quantity = "P(at most j urns empty) under MB (j = --at, default floor(r e^{-n/r}))"
     formula = "Φ((j + ½ - μ)/σ), μ = r e^{-α}, σ² = r e^{-α}(1 - (1+α)e^{-α}), α = n/r"
     source = "Weiss 1958; Rényi 1962; Kolchin et al. 1978, ch. II"
@@ -457,10 +454,6 @@ class EmptyNormal(Approximation):
 
     def cost(self, point):
         return empty_urns_cost(point.balls, point.urns, point.at)
-
-    def answer_bits(self, point):
-        # a fraction over r^n (reduced by the primes of r): two numbers of about n log2 r bits
-        return max(64.0, 2 * point.balls * math.log2(max(point.urns, 2)))
 
     def approximate(self, point):
         n, r, j = point.balls, point.urns, point.at
