@@ -484,6 +484,8 @@ def _group_weight_power(model: UrnModel, view):
 
 def _occupancies(view) -> Tuple[int, ...]:
     """The occupancies a view lists, group after group (the unlisted urns hold 0 and change no weight)."""
+    if len(view) == 1:  # one group (the common case, on a hot path): its tuple as it is
+        return view[0][0]
     return tuple(k for counts, _ in view for k in counts)
 
 

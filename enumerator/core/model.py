@@ -25,7 +25,9 @@ raises :class:`~enumerator.errors.InvalidParameters`.
 
 from __future__ import annotations
 
+import bisect
 import operator
+from collections.abc import Mapping
 from fractions import Fraction
 from typing import Iterable, Optional, Sequence, Tuple
 
@@ -581,8 +583,6 @@ class UrnModel:
         >>> UrnModel(balls=3, urns=2**64, rule="MB").configuration_groups({5: 2, 2**64: 1})
         (((2, 1), 18446744073709551614),)
         """
-        from collections.abc import Mapping
-
         if not isinstance(config, Mapping):
             values = self.check_configuration(config)
             out, start = [], 0
@@ -590,8 +590,6 @@ class UrnModel:
                 out.append((values[start:start + g.count], 0))
                 start += g.count
             return tuple(out)
-        import bisect
-
         starts, total = [], 0
         for g in self.groups:
             starts.append(total + 1)
