@@ -1600,11 +1600,13 @@ def _gc_total(system: System, b, eta, formula):
     fug = mpmath.exp(eta)
     lead = [math.comb(m0 + i - 1, i) if m0 else int(i == 0) for i in range(d)]
     c1 = None if system.capacity is None else system.capacity + 1
+    q1 = mpmath.exp(-bs)
+    q = mpmath.mpf(1)
     fj = mpmath.mpf(1)
     j = 0
     while True:
         j += 1
-        q = mpmath.exp(-j * bs)
+        q = q * q1
         fj = fj * fug
         weight = 1 if c1 is None or j % c1 else 1 - c1
         inv = -1 / mpmath.expm1(-j * bs)  # 1/(1 - q): 1 - q rounds to 0 when b s is tiny (high T)
