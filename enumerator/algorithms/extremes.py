@@ -28,7 +28,7 @@ from flint import fmpz, fmpz_poly
 from ..core import series
 from .group_rows import capped_levels
 
-__all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_estimate"]
+__all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_estimate", "poly_dot"]
 
 mpz = gmpy2.mpz
 divexact = gmpy2.divexact
@@ -139,14 +139,23 @@ def _mb_max_extend(n: int, r: int, m: int, d: int, vtails) -> "mpz":
             for s in range(K + 1, K + m + 2):
                 falling *= s
             Fpow *= F
-        row = vtails[t]
-        acc = mpz(0)
-        for i, c in enumerate(E.coeffs()[: len(row)]):
-            if c:
-                acc += int(c) * row[i]
+        acc = poly_dot(E, vtails[t])
         if acc:
             total += binom * divexact(falling * acc, Fpow)
     return total
+
+
+def poly_dot(poly, row) -> "mpz":
+    """``sum_i poly[i] row[i]`` over the coefficients of a FLINT polynomial and a row of mpz (the shorter decides).
+
+    >>> int(poly_dot(fmpz_poly([1, 0, 2]), [mpz(5), mpz(7), mpz(3)]))
+    11
+    """
+    acc = mpz(0)
+    for i, c in enumerate(poly.coeffs()[: len(row)]):
+        if c:
+            acc += int(c) * row[i]
+    return acc
 
 
 #: Relative cost of one Miller step, one level step and one extension product

@@ -45,7 +45,7 @@ from ..core.errors import InvalidParameters
 from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
 from . import grouped
-from .extremes import mb_max_estimate
+from .extremes import mb_max_estimate, poly_dot
 from .group_rows import combine
 
 __all__ = ["marked_moments"]
@@ -273,11 +273,7 @@ def _mb_free_extend(groups, n: int, m: int, d: int, vtails: Dict[tuple, list]):
             parent = t[:g] + (t[g] - 1,) + t[g + 1:]
             E = polys[parent].mul_low(eps[g], size * (d - 1) + 1)
         polys[t] = E
-        row = vtails[t]
-        acc = mpz(0)
-        for i, c in enumerate(E.coeffs()[: len(row)]):
-            if c:
-                acc += int(c) * row[i]
+        acc = poly_dot(E, vtails[t])
         if acc:
             while len(powers) <= size:
                 powers.append(powers[-1] * F)
