@@ -105,6 +105,17 @@ def test_against_borrmann_franke(spectrum, n, temperature):
     )
 
 
+@pytest.mark.parametrize("n, temperature, levels", [(20, "1", 2), (20, "1", 6), (35, "7/10", 9), (13, "3", 3)])
+def test_occupation_above_the_listed_rungs(n, temperature, levels):
+    """The particles beyond the listed rungs (below, at or above the Fermi shell) against the plain
+    recursion (ensembles.canonical, route "recursion", 30 digits): an independent route."""
+    (p,) = fermion_canonical(harmonic_trap(), n, [temperature], digits=20, levels=levels)
+    (q,) = canonical(System.create(harmonic_trap(), n, "FD"), [temperature], digits=30, levels=levels, grand=False,
+                     route="recursion")
+    assert abs(p.occupation_above_approx - q.occupation_above_approx) <= 1e-19 * n
+    assert abs(p.occupation_above_approx - q.occupation_above_approx) <= p.errors["occupations"] + 1e-28 * n
+
+
 def test_closed_shell_969_low_temperature():
     """969 fermions fill the 3D-trap shells 0..16 (from memory: Σ (e+1)(e+2)/2 = C(19, 3))."""
     (p,) = fermion_canonical(harmonic_trap(), 969, ["1/100"], digits=15)

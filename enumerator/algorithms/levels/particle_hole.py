@@ -410,9 +410,14 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
     M1 = _shifted_dot(H[1], S[0], n_p) + _shifted_dot(H[0], S[1], n_p)
     M2 = _shifted_dot(H[2], S[0], n_p) + 2 * _shifted_dot(H[1], S[1], n_p) + _shifted_dot(H[0], S[2], n_p)
 
-    # Per-state occupation probability of each shell.
+    # Per-state occupation probability of the listed shells (and, on a
+    # ladder, of the unlisted ones below P, few); the unlisted rungs above P
+    # are summed at once below (two full products per shell otherwise).
+    listed = {spectrum.energies[i] if spectrum.ladder is None else spectrum.ladder.energy(i) for i in range(report)}
     per_state: Dict[int, arb] = {}
     for i, (e, g) in enumerate(below):
+        if e not in listed and spectrum.ladder is None:
+            continue
         y = (-(b * (e_p - e))).exp()
         rest = _factor(g - 1, y, 0, min(hlen, cut[e] + 1))[0] if g > 1 else arb_poly([1])
         without = _trunc(_trunc(h_pre[i] * rest, hlen) * h_suf[i + 1], hlen)
@@ -429,6 +434,8 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         # e_p = AG[s_b + n_p - p]
         e_side = arb_poly([_coeff(AG, s_b + n_p - p) for p in range(plen)])
         for i, (e, g) in enumerate(above):
+            if e not in listed:
+                continue
             y = (-(b * (e - e_p))).exp()
             rest = _factor(g - 1, y, 0, min(plen, cut[e] + 1))[0] if g > 1 else arb_poly([1])
             without = _trunc(_trunc(p_pre[i] * rest, plen) * p_suf[i + 1], plen)
@@ -547,9 +554,18 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         if spectrum.ladder is None:
             above_listed = zero
         else:
-            kept = sum(_mpf(per_state[e]) * g for e, g in shells[report:])
-            above_listed = kept
-            occ_err = max(occ_err, n * eta[0])
+            # Particles in the unlisted shells: those below P and P one by
+            # one, those above P as all particles above P (Σ_p p P_p e_p / Z)
+            # less the listed ones above P.
+            kept = arb(0)
+            for e, g in shells[report:]:
+                if e <= e_p:
+                    kept += g * per_state[e]
+            if above:
+                p_mean = _shifted_dot(arb_poly([p * _coeff(P[0], p) for p in range(P[0].length())]), e_side, 0) / Z
+                kept += p_mean - sum((g * per_state[e] for e, g in above if e in listed), arb(0))
+            above_listed = _mpf(kept)
+            occ_err = max(occ_err, _rad(kept) + n * eta[0])
         errors = {
             "ln_partition_function": lnZ_err,
             "excitation_energy": U_exc_err,
