@@ -20,7 +20,7 @@ import pytest
 from reference import level_microstates
 
 from enumerator.algorithms.levels import canonical, make_system
-from enumerator.algorithms.levels.ensembles import _canonical_float, pairwise_depth
+from enumerator.algorithms.levels.bosons_float import canonical_float, pairwise_depth
 
 REPORTED = ("ln_partition_function", "mean_energy", "heat_capacity", "occupations")
 
@@ -88,7 +88,7 @@ def test_float_route_is_within_its_bounds_against_the_exact_recursion(temperatur
     for key in REPORTED:
         assert actual[key] <= a.error_bounds[key], key
     # The level-0 variance (⟨δn_0²⟩, without the cancellation of ⟨n_0²⟩ - ⟨n_0⟩²) is bounded as well.
-    *_, extras = _canonical_float(system, Fraction(temperature), 4)
+    *_, extras = canonical_float(system, Fraction(temperature), 4)
     var_error = abs(a.ground_occupation_variance_approx / b.ground_occupation_variance_approx - 1)
     assert var_error <= extras["all_bounds"]["ground_occupation_variance"]
     # Far tighter than the bound this route had before, u (N(N+1)/2 + 12N) (2 + 6K) with
@@ -153,7 +153,7 @@ def test_float_bounds_stay_finite_and_small_for_ten_thousand_bosons_at_high_temp
     # The case (N = 10^4 in the 3D trap) at k_B T = 40, where the exact recursion takes about a
     # minute: only the bounds are checked here (against the exact route: scripts/workloads_levels.py).
     system = make_system(10_000, preset="trap", rule="BE")
-    *_, extras = _canonical_float(system, Fraction(40), 3)
+    *_, extras = canonical_float(system, Fraction(40), 3)
     bounds = extras["all_bounds"]
     assert all(math.isfinite(v) for v in bounds.values())
     assert bounds["heat_capacity"] < 1e-6 and bounds["ground_occupation_variance"] < 1e-6

@@ -2,7 +2,7 @@ r"""Energy levels with degeneracies: exact statistical mechanics of small system
 
 ``N`` particles on single-particle levels (energy ``ε_i``, degeneracy ``g_i``)
 under the MB, BE (optionally with a capacity per state: Gentile's
-intermediate statistics) or FD rule.  The package has three rooms, and this
+intermediate statistics) or FD rule.  The package has six rooms, and this
 module gives their public names in one place (as :mod:`networkx.algorithms`
 gathers its topic modules):
 
@@ -19,6 +19,9 @@ gathers its topic modules):
     the canonical ensemble from the Borrmann–Franke recursion (P. Borrmann
     and G. Franke, J. Chem. Phys. 98, 2484 (1993)) and the grand-canonical
     occupation formulas;
+:mod:`~enumerator.algorithms.levels.bosons_float`
+    canonical bosons at scale: the same recursion in double precision with
+    rigorous a-posteriori error bounds;
 :mod:`~enumerator.algorithms.levels.occupation`
     the canonical law ``P(n_l = k)`` of one level's occupation, to a
     requested precision or exact at a rational Boltzmann factor;

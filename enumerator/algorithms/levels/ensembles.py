@@ -16,7 +16,7 @@ r"""Ensembles of particles on energy levels: canonical and grand canonical.
   (:mod:`.particle_hole`, positive terms in ball arithmetic, chosen
   automatically), and bosons at scale take the float route (the recursion
   as a mixture of positive terms in double precision with rigorous
-  a-posteriori bounds, :func:`_canonical_float`): asked for with
+  a-posteriori bounds, :func:`.bosons_float.canonical_float`): asked for with
   ``route="float"``, or chosen by ``"auto"`` where the exact recursion would
   be slower and the bounds meet the digits asked.  Each point also carries the occupation above
   the listed levels, ``⟨δE²⟩`` and the variance of level 0's occupation.
@@ -32,7 +32,6 @@ Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass, replace
 from fractions import Fraction
@@ -45,8 +44,9 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
+from .bosons_float import FLOAT_MAX_DIGITS, canonical_float, float_cost, float_meets
 from .particle_hole import fermion_canonical
-from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature
+from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature, temperature_text
 
 __all__ = [
     "CanonicalPoint",
@@ -213,7 +213,7 @@ class CanonicalPoint:
     beside the grand-canonical ``grand_canonical_ground_variance_approx``.
     ``route`` names the method: ``"recursion"`` (Borrmann–Franke),
     ``"particle-hole"`` (:mod:`.particle_hole`, fermions far below the Fermi
-    temperature) or ``"float"`` (bosons at scale, :func:`_canonical_float`,
+    temperature) or ``"float"`` (bosons at scale, :func:`.bosons_float.canonical_float`,
     whose rigorous a-posteriori bounds are in ``error_bounds``: absolute for
     ``ln_partition_function``, relative for ``mean_energy``,
     ``heat_capacity`` and ``occupations``).
@@ -697,7 +697,7 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                 extras = {k: (None if v is None else +v) for k, v in extras.items()}
                 return +lnZ, +U, +C, +F, +S, tuple(+x for x in occ), extras
     raise TooLarge(
-        f"the canonical sums at T = {_temperature_text(temperature)} lose more digits than a reasonable working "
+        f"the canonical sums at T = {temperature_text(temperature)} lose more digits than a reasonable working "
         "precision holds; raise the temperature or lower the number of particles"
     )
 
@@ -731,7 +731,7 @@ def canonical(
     route : str
         ``"auto"`` (default), ``"recursion"``, ``"particle-hole"`` (FD
         only) or ``"float"`` (BE without capacity: double precision with
-        rigorous a-posteriori bounds, see :func:`_canonical_float`; *digits*
+        rigorous a-posteriori bounds, see :func:`.bosons_float.canonical_float`; *digits*
         is then not promised but the bounds are stated in ``error_bounds``;
         ``"auto"`` takes it only when they meet *digits*): see Notes.
 
@@ -785,7 +785,7 @@ def canonical(
     tests/test_levels_fluctuations.py).
 
     Bosons (BE without a capacity, route ``"auto"``) take the float route
-    (:func:`_canonical_float`) when at most :data:`FLOAT_MAX_DIGITS` digits
+    (:func:`.bosons_float.canonical_float`) when at most :data:`FLOAT_MAX_DIGITS` digits
     are asked and the exact recursion's estimated time is at least four
     times the float route's (:func:`_float_pays`: 10^4 bosons in the 3D trap
     from about ``k_B T = 6`` spacings up, where the recursion takes seconds
@@ -822,13 +822,13 @@ def canonical(
         temperature = parse_temperature(value)
         floated = None
         if route == "float":
-            floated = _canonical_float(system, temperature, count)
+            floated = canonical_float(system, temperature, count)
         elif route == "auto" and _float_pays(system, temperature, digits, count):
             try:
-                floated = _canonical_float(system, temperature, count)
+                floated = canonical_float(system, temperature, count)
             except TooLarge:
                 floated = None  # beyond the double range: the exact recursion below
-            if floated is not None and not _float_meets(floated[6]["all_bounds"], digits):
+            if floated is not None and not float_meets(floated[6]["all_bounds"], digits):
                 floated = None  # the bounds fall short of the digits asked: the exact recursion below
         if floated is not None:
             lnZ, U, C, F, S, occ, extras = floated
@@ -863,424 +863,8 @@ def canonical(
     return points
 
 
-def _temperature_text(temperature: Fraction) -> str:
-    """A temperature for a message: exact when short (``1/10``), else six significant digits (``1.0e-300``).
-
-    >>> _temperature_text(Fraction(1, 10)), _temperature_text(Fraction(1, 10**300))
-    ('1/10', '1.0e-300')
-    """
-    text = str(temperature)
-    if len(text) <= 16:
-        return text
-    with mpmath.workdps(15):
-        return mpmath.nstr(mpmath.mpf(temperature.numerator) / temperature.denominator, 6)
-
-
 #: The routes of :func:`canonical`.
 ROUTES = ("auto", "recursion", "particle-hole", "float")
-
-#: Unit roundoff of IEEE double precision.
-_U53 = 2.0**-53
-
-#: Absolute slack added to every bound of the float route: it covers the values that fall below the
-#: normal range of doubles (each then errs by at most ``2^-1000`` absolutely, far below any result).
-_FLOAT_TINY = 2.0**-900
-
-#: Most digits the float route is tried for on route ``"auto"`` (its bounds are never below ``N u``).
-FLOAT_MAX_DIGITS = 12
-
-
-def _gamma(j: int) -> float:
-    """Higham's ``γ_j = j u / (1 - j u)`` for double precision."""
-    return j * _U53 / (1 - j * _U53)
-
-
-@functools.lru_cache(maxsize=None)
-def pairwise_depth(n: int) -> int:
-    """The most roundings a term goes through in numpy's summation of *n* contiguous float64 values.
-
-    Parameters
-    ----------
-    n : int
-        Number of terms.
-
-    Returns
-    -------
-    int
-        ``h`` such that the computed sum is ``Σ x_i (1 + θ_i)`` with ``|θ_i| <= γ_h``.
-
-    Notes
-    -----
-    ``numpy.add.reduce`` over a contiguous axis of float64 sums by
-    ``DOUBLE_pairwise_sum`` (numpy/_core/src/umath/loops_utils.h.src):
-    fewer than 8 terms one after another; up to 128 terms in 8 interleaved
-    accumulators of ``n // 8`` terms each, joined by a balanced tree of depth
-    3, the ``n % 8`` remaining terms added after; more than 128 terms split
-    at ``n // 2`` rounded down to a multiple of 8, the halves summed
-    recursively and added.  A term passing through ``h`` rounded additions
-    errs by at most ``γ_h`` relative (N. J. Higham, *Accuracy and Stability
-    of Numerical Algorithms*, 2nd ed., 2002, Lemma 3.1 and § 4.2).
-    tests/test_levels_float_bound.py replays this tree and checks it
-    against numpy bit for bit.  Cost ``O(log n)``.
-
-    Examples
-    --------
-    >>> pairwise_depth(7), pairwise_depth(128), pairwise_depth(10_000)
-    (6, 18, 19)
-    """
-    if n < 8:
-        return max(n - 1, 0)
-    if n <= 128:
-        return n // 8 - 1 + 3 + n % 8
-    half = n // 2
-    half -= half % 8
-    return 1 + max(pairwise_depth(half), pairwise_depth(n - half))
-
-
-@dataclass(frozen=True)
-class _Kernels:
-    """Per-cycle kernels of the float route, index ``k = 0..N`` (index 0 unused), and their relative errors."""
-
-    a: object  # z_k = Z_1(kβ)
-    mean: object  # rows: k <e>_k, k π_k   (means of the two observables over a k-cycle)
-    var: object  # rows: k^2 Var_k(e), k^2 π_k (1 - π_k)
-    powers: object  # rows: y_i^k of the listed levels
-    eps_a: float
-    eps_mean: object  # per row
-    eps_var: object  # per row
-    eps_powers: float
-
-
-def _arb_to_float(values, eps_floor: float):
-    """Doubles of a list of arb balls and one relative error bound for all of them.
-
-    Rounding to double costs at most ``2u`` (any rounding direction); a ball's
-    own radius adds ``2^-rel_accuracy_bits``.  Values below ``2^-1000`` (and
-    exact zeros) are left to :data:`_FLOAT_TINY`; a ball too wide to give 60
-    bits makes the bound 1 (useless, so never chosen automatically).
-    """
-    out = []
-    worst = 0.0
-    tiny = 2.0**-1000
-    for x in values:
-        f = float(x.mid())
-        out.append(f)
-        if x.is_zero():
-            continue
-        if abs(f) < tiny:
-            if float(x.rad()) > tiny:  # a ball about zero wider than the slack: no bound
-                worst = 1.0
-            continue
-        bits = x.rel_accuracy_bits()
-        if bits < 60:
-            worst = 1.0
-        else:
-            worst = max(worst, 2.0 ** -bits)
-    return out, eps_floor + worst
-
-
-def _float_kernels(spectrum: Spectrum, b: Fraction, n: int, count: int) -> _Kernels:
-    """The kernels of :func:`_canonical_float` in ball arithmetic (128 bits), rounded to doubles.
-
-    Energies are in units above the lowest level; ``y = e^{-b e}``.  Per
-    cycle length ``k``: ``z_k = Σ g y^k``; the energy of a ``k``-cycle (``k``
-    particles in one state at ``kβ``) has mean ``k <e>_k`` and variance
-    ``k^2 Var_k(e)`` under the weights ``g y^k / z_k``; its count on listed
-    level 0 is ``k`` with probability ``π_k = g_0 y_0^k / z_k``.  A ladder
-    uses ``z_k = (1 - q^k)^{-d}``, ``<e>_k = d s r_k``, ``Var_k = d s^2
-    r_k (1 + r_k)``, ``r_k = q^k / (1 - q^k)``, ``q = e^{-b s}``; a finite
-    spectrum sums its levels (``Var_k`` as a sum of squares about the mean,
-    ``1 - π_k`` as the sum over the other levels: no cancellation).  Cost
-    ``O(N)`` ball operations for a ladder, ``O(N L)`` for ``L`` levels.
-    """
-    import numpy as np
-    from flint import arb, ctx
-
-    saved = ctx.prec
-    ctx.prec = 128
-    try:
-        def frac(q: Fraction):
-            return arb(q.numerator) / arb(q.denominator)
-
-        a, m0, m1, v0, v1 = ([arb(0)] for _ in range(5))
-        shift = spectrum.lowest
-        if spectrum.ladder is not None:
-            lad = spectrum.ladder
-            d, s = lad.dimension, lad.spacing
-            q = (-frac(b * s)).exp()
-            qk = arb(1)
-            for k in range(1, n + 1):
-                qk = qk * q
-                om = 1 - qk
-                r = qk / om
-                z = (1 / om) ** d
-                pi = 1 / z
-                a.append(z)
-                m0.append(k * d * s * r)
-                v0.append(k * k * d * s * s * r * (1 + r))
-                m1.append(k * pi)
-                rest = sum((math.comb(d, j) * r**j for j in range(2, d + 1)), d * r)  # z_k - 1, positive terms
-                v1.append(k * k * pi * rest / z)
-            ys = [(-frac(b * s * i)).exp() for i in range(count)]
-        else:
-            energies = [e - shift for e in spectrum.energies]
-            degs = list(spectrum.degeneracies)
-            ys = [(-frac(b * e)).exp() for e in energies]
-            powers = [arb(1)] * len(energies)
-            for k in range(1, n + 1):
-                powers = [p * y for p, y in zip(powers, ys)]
-                terms = [g * p for g, p in zip(degs, powers)]
-                z = sum(terms[1:], terms[0])
-                mean = sum((e * t for e, t in zip(energies[1:], terms[1:])), energies[0] * terms[0]) / z
-                var = sum(((e - mean) ** 2 * t for e, t in zip(energies, terms)), arb(0)) / z
-                rest = sum(terms[1:], arb(0)) / z
-                pi = terms[0] / z
-                a.append(z)
-                m0.append(k * mean)
-                v0.append(k * k * var)
-                m1.append(k * pi)
-                v1.append(k * k * pi * rest)
-            ys = ys[:count]
-        floor = 2 * _U53
-        a_f, eps_a = _arb_to_float(a, floor)
-        rows = [_arb_to_float(col, floor) for col in (m0, m1, v0, v1)]
-        y_f, eps_y = _arb_to_float(ys, floor)
-    finally:
-        ctx.prec = saved
-    powers_f = np.ones((len(y_f), n + 1))
-    for i, y in enumerate(y_f):
-        if n:
-            powers_f[i, 1:] = np.multiply.accumulate(np.full(n, y))  # y^k by k - 1 roundings
-    # y^k from a double within eps_y of y: (1 + eps_y)^k (1 + u)^(k-1), at most (N eps_y + N u) to first order.
-    eps_powers = n * (eps_y + _U53) * 1.001
-    return _Kernels(
-        a=np.array(a_f), mean=np.array([rows[0][0], rows[1][0]]), var=np.array([rows[2][0], rows[3][0]]),
-        powers=powers_f, eps_a=eps_a, eps_mean=np.array([rows[0][1], rows[1][1]]),
-        eps_var=np.array([rows[2][1], rows[3][1]]), eps_powers=eps_powers,
-    )
-
-
-def _float_cost(spectrum: Spectrum, n: int, count: int) -> Cost:
-    """Time and memory of :func:`_canonical_float` (measured on the 3D trap, scripts/workloads_levels.py)."""
-    levels = 1 if spectrum.ladder is not None else len(spectrum.energies)
-    seconds = 8e-9 * n * n + 2e-5 * n + 3e-6 * n * levels + 1e-7 * n * count
-    return Cost(seconds=seconds, memory=8 * (n + 1) * (30 + count))
-
-
-def _canonical_float(system: System, temperature: Fraction, count: int):
-    r"""Bosons at scale: the canonical recursion in double precision, with rigorous a-posteriori bounds.
-
-    Returns ``(lnZ, U, C, F, S, occupations, extras)`` like :func:`_canonical_at`;
-    ``extras["bounds"]`` holds the four bounds reported with the point and
-    ``extras["all_bounds"]`` also those of ``S``, ``U - E_0`` and the
-    level-0 variance (all relative except ``ln_partition_function``).
-
-    Algorithm.  Energies are measured from the lowest level, so every term
-    below is positive.  With ``z_k = Z_1(kβ)`` the BE recursion
-    ``n Z_n = Σ_{k=1}^{n} z_k Z_{n-k}`` (P. Borrmann and G. Franke, J. Chem.
-    Phys. 98, 2484 (1993)) makes ``p_{n,k} = z_k Z_{n-k} / (n Z_n)`` a
-    probability law over ``k`` (the length of the permutation cycle holding
-    a given particle; W. Krauth, *Statistical Mechanics: Algorithms and
-    Computations*, 2006, § 4.2, from memory).  Differentiating the recursion
-    in a field coupled to an additive observable ``O`` (the energy, ``-∂/∂β``;
-    the occupation of listed level 0) gives the mixture
-    ``O_n = X_k + O_{n-k}`` with the cycle's contribution ``X_k``
-    independent of the rest, hence with positive terms only
-    ``U_n = U_{n-1} + Σ_k p_{n,k} (μ_k + U_{n-k} - U_{n-1})`` and the law of
-    total variance ``V_n = Σ_k p_{n,k} (σ_k + V_{n-k} + c_{n,k}^2)``,
-    ``c_{n,k} = μ_k + U_{n-k} - U_n`` (``μ_k``, ``σ_k``: mean and variance of
-    ``X_k``, from :func:`_float_kernels`).  So ``C = β^2 V_N`` comes without
-    the cancellation of ``⟨E^2⟩ - ⟨E⟩^2`` (which costs a factor
-    ``⟨E⟩^2 / Var E``, up to ``3N``).  Each sum is numpy's pairwise sum of an
-    elementwise product; ``Z`` is rescaled by exact powers of two.  The
-    terms ``z_k Z_{n-k}`` do not increase with ``k`` (``z_k`` falls, ``Z_j``
-    grows: a particle added to a lowest state), so once ``(n - K)`` times
-    the ``K``-th is below ``2^-80`` of the sum the rest are dropped, that
-    share entering the bounds; far above ``T_c`` ``K`` stays small.
-
-    Error bound (first order in ``u = 2^-53``; every first-order quantity is
-    checked to be below ``10^-6``, and the bounds are multiplied by 1.01 for
-    the rest).  A pairwise sum of ``m`` positive terms errs by ``γ_h`` with
-    ``h = pairwise_depth(m)`` (19 for ``m = 10^4``, against ``m - 1`` for a
-    dot product in unknown order; Higham 2002, Lemma 3.1 and § 4.2).
-    Kernels come from ball arithmetic, within ``2u`` each.  Relative errors
-    ``D_n`` of ``Z_n`` follow ``D_n = Σ_k p_{n,k} D_{n-k} + ε_z + γ_h + 3u``
-    (computed alongside), so the weights err by ``Φ_n = max D + ε_z + u``;
-    since they sum to one, perturbed weights move a mean only through the
-    spread: by ``2 Φ_n Σ p |c|`` for ``U`` and ``2 Φ_n Σ p |t - V_n|`` for
-    ``V`` (``t`` the terms), both summed alongside.  Absolute errors of
-    ``U`` and ``V`` then add up over the steps (weights sum to one): per
-    step the roundings (``u U_n + (2 γ_h + 4u)(|U_n - U_{n-1}| + Σ p|c|)``,
-    resp. ``γ_{2h+5} V_n``), kernel errors, the weight term, and for ``V``
-    the error ``η`` of the ``c``: ``2 η Σ p|c| + 3 η^2``.  Reported:
-    ``ln Z`` absolute ``D_N``; ``U``, ``C``, the level-0 variance relative;
-    occupations ``g Σ_k y^k Z_{N-k} / Z_N`` relative ``2 max D + γ_h +
-    ε_y + 2u`` (``ε_y``: ``y^k`` by repeated products).  Measured for
-    ``N = 10^4`` in the 3D trap at ``k_B T = 0.5 .. 40`` spacings: the bound
-    on ``C`` between ``10^-10`` and ``2.4·10^-7`` (largest just below
-    ``T_c``), on ``⟨δn_0^2⟩`` up to ``6.5·10^-7``, on ``U`` and the
-    occupations ``10^-11``; the actual errors against the exact route are
-    about ``10^-15`` (tests/test_levels_float_bound.py checks the bounds at
-    ``N = 1000``).
-
-    Cost: about 18 vector passes of length ``K <= n`` at step ``n`` (at most
-    ``9 N^2`` flops in all, numpy), plus ``O(N)`` ball operations for the
-    kernels (``O(N L)`` for a finite spectrum of ``L`` levels) and ``O(N)``
-    per listed level; ``N = 10^4``: about 0.8 s per temperature below
-    ``T_c``, 0.35 s far above (one core).
-    """
-    import numpy as np
-
-    spectrum = system.spectrum
-    if count > len(spectrum.energies):
-        spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
-    n = system.particles
-    check(_float_cost(spectrum, n, count), f"the floating canonical recursion of {n} bosons",
-          parameters=["particles"])
-    b = spectrum.unit / temperature
-    kern = _float_kernels(spectrum, b, n, count)
-    if not all(np.isfinite(x).all() for x in (kern.a, kern.mean, kern.var)):
-        raise TooLarge(
-            f"the one-particle sums at T = {_temperature_text(temperature)} pass the range of double precision, "
-            "so the float route cannot hold them; use the exact recursion (route recursion)",
-            parameters=["route"],
-        )
-    u = _U53
-    a = kern.a
-    mean, var = kern.mean, kern.var
-    mean_max = mean[:, 1:].max(axis=1).tolist() if n else [0.0, 0.0]
-    Zr = np.zeros(n + 1)
-    Dr = np.zeros(n + 1)
-    Ur = np.zeros((2, n + 1))
-    Vr = np.zeros((2, n + 1))
-    Zr[n] = 1.0
-    W = np.empty(n)
-    B1, B2, B3 = np.empty((2, n)), np.empty((2, n)), np.empty((2, n))
-    mul, sub, add, red, absolute = np.multiply, np.subtract, np.add, np.add.reduce, np.abs
-    EU, EV, Umax, Vmax = [0.0, 0.0], [0.0, 0.0], [0.0, 0.0], [0.0, 0.0]
-    d_max = 0.0
-    scale_bits = 0
-    tiny_rel = n * float(a.max()) * 2.0**-1070 if n else 0.0  # products and Z values below the normal range
-    eps_a, eps_mean, eps_var = kern.eps_a, kern.eps_mean.tolist(), kern.eps_var.tolist()
-    tail_tol = 2.0**-80
-    var_max = var[:, 1:].max(axis=1).tolist() if n else [0.0, 0.0]
-    K = 0
-    for m in range(1, n + 1):
-        at = n - m + 1
-        # The terms w_k = z_k Z_{m-k} do not increase with k (z_k falls with k, Z_j grows with j:
-        # a particle added to a lowest state), so those past K weigh at most (m - K) w_K in all.
-        K = min(m, K + 1)
-        while True:
-            w = mul(a[1:K + 1], Zr[at:at + K], out=W[:K])
-            S = red(w)
-            tail = (m - K) * w[K - 1] * (1 + 1e-6) / S
-            if K == m or tail <= tail_tol:
-                break
-            K = min(m, 2 * K)
-        h = pairwise_depth(K)
-        g_h, g_2h = _gamma(h), _gamma(2 * h + 5)
-        tail = tail if K < m else 0.0
-        d_m = float(w @ Dr[at:at + K]) / S + eps_a + g_h + 3 * u + tiny_rel + tail
-        phi = d_max + eps_a + u + tiny_rel
-        Zr[n - m] = S / m
-        Dr[n - m] = d_m
-        d_max = max(d_max, d_m)
-        u_prev = Ur[:, at]
-        y = sub(Ur[:, at:at + K], u_prev[:, None], out=B1[:, :K])
-        add(y, mean[:, 1:K + 1], out=y)
-        corr = red(mul(y, w, out=B2[:, :K]), axis=1) / S
-        u_m = u_prev + corr
-        c = sub(y, corr[:, None], out=y)
-        cc = mul(c, c, out=B2[:, :K])
-        pc = (absolute(c, out=c) @ w) / S
-        t = add(var[:, 1:K + 1], Vr[:, at:at + K], out=B3[:, :K])
-        add(t, cc, out=t)
-        v_m = red(mul(t, w, out=B2[:, :K]), axis=1) / S
-        spread = (absolute(sub(t, v_m[:, None], out=t), out=t) @ w) / S
-        Ur[:, n - m] = u_m
-        Vr[:, n - m] = v_m
-        # Bounds (absolute, per observable: Python floats, two of each): see the docstring.
-        d_tail = tail
-        for j, (cj, uj, vj, pcj, spj) in enumerate(zip(corr.tolist(), u_m.tolist(), v_m.tolist(),
-                                                      pc.tolist(), spread.tolist())):
-            step = abs(cj)
-            reach = Umax[j] + mean_max[j] + uj  # bounds |x_k - U_m| for every k, the dropped ones included
-            rnd = u * (3 * Umax[j] + 3 * mean_max[j] + step + uj) + eps_mean[j] * mean_max[j]
-            eu = (EU[j] + u * uj + (2 * g_h + 4 * u) * (step + pcj) + u * mean_max[j]
-                  + 2 * phi * (pcj + 2 * EU[j] + rnd) + eps_mean[j] * mean_max[j] + d_tail * reach + _FLOAT_TINY)
-            EU[j] = eu
-            Umax[j] = max(Umax[j], uj)
-            eta = 2 * eu + rnd
-            c_err = 2 * eta * (pcj + eta) + eta * eta  # Σ p |ĉ^2 - c^2|
-            EV[j] += ((g_2h + eps_var[j]) * vj + 2 * phi * (spj + c_err) + c_err
-                      + d_tail * (vj + var_max[j] + Vmax[j] + reach * reach) + _FLOAT_TINY)
-            Vmax[j] = max(Vmax[j], vj)
-        # Shrink the window for the next step while its second half is negligible.
-        while K > 16 and (m - K // 2) * w[K // 2 - 1] * (1 + 1e-6) <= tail_tol * S:
-            K //= 2
-        if Zr[n - m] > 2.0**800:
-            Zr *= 2.0**-800  # exact, apart from values falling below the normal range
-            scale_bits += 800
-    ZN = Zr[0]
-    R = Zr / ZN  # R[j] = Z_{N-j} / Z_N, within 2 max D + u
-    d_N = float(Dr[0])
-    with mpmath.workdps(20):
-        T = mpmath.mpf(temperature.numerator) / temperature.denominator
-        unit = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
-        lnz = mpmath.log(mpmath.mpf(ZN)) + scale_bits * mpmath.ln2
-        m1 = mpmath.mpf(float(Ur[0, 0]))
-        bb = unit / T
-        shift_e = n * spectrum.lowest
-        lnZ = lnz - bb * shift_e
-        U = unit * (m1 + shift_e)
-        C = unit * unit * mpmath.mpf(float(Vr[0, 0])) / (T * T)
-        h_N = pairwise_depth(n)
-        occ_rel = []
-        occ = []
-        for i in range(count):
-            g = spectrum.degeneracies[i]
-            value = g * float(red(kern.powers[i, 1:] * R[1:]))
-            occ.append(mpmath.mpf(value))
-            rel = 2 * d_max + _gamma(h_N + 1) + kern.eps_powers + 3 * u
-            occ_rel.append(rel + g * n * _FLOAT_TINY / value if value > 0 else (0.0 if n == 0 else math.inf))
-        extras = {"above": n - mpmath.fsum(occ), "ground_variance": None, "excitation": unit * m1}
-        if count and n:
-            extras["ground_variance"] = mpmath.mpf(float(Vr[1, 0]))
-
-        def rel(err, value):
-            return float(err) / abs(float(value)) if value else (0.0 if err == 0 else math.inf)
-
-        safety = 1.01
-        trusted = d_max < 1e-6 and all(x < 1e-6 for x in (eps_a, *eps_mean, *eps_var))
-        d_lnz = d_N / (1 - d_N) + 1e-19
-        d_U = float(unit) * float(EU[0])
-        bounds = {
-            "ln_partition_function": d_lnz,
-            "mean_energy": rel(d_U, U),
-            "heat_capacity": rel(EV[0], Vr[0, 0]),
-            "occupations": max(occ_rel, default=0.0),
-        }
-        more = {
-            "entropy": rel(d_lnz + d_U / float(T), lnZ + U / T),
-            "free_energy": rel(d_lnz, lnZ),
-            "excitation_energy": rel(EU[0], Ur[0, 0]),
-            "ground_occupation_variance": rel(EV[1], Vr[1, 0]) if count else 0.0,
-        }
-        scale = safety if trusted else math.inf
-        extras["bounds"] = {k: v * scale for k, v in bounds.items()}
-        extras["all_bounds"] = {k: v * scale for k, v in {**bounds, **more}.items()}
-        return +lnZ, +U, +C, -T * lnZ, lnZ + U / T, tuple(occ), extras
-
-
-def _float_meets(bounds: Dict[str, float], digits: int) -> bool:
-    """Whether every bound of a float point (:func:`_canonical_float`) is within ``10^-digits``.
-
-    ``ln Z`` is held to ``digits`` significant digits through the free
-    energy's relative bound, the rest relative as they stand.
-    """
-    tol = 10.0 ** -digits
-    return all(value <= tol for key, value in bounds.items() if key != "ln_partition_function")
-
 
 def _float_pays(system: System, temperature: Fraction, digits: int, count: int) -> bool:
     """Whether route ``"auto"`` tries the float route first (it keeps it only when its bounds meet *digits*).
@@ -1288,7 +872,7 @@ def _float_pays(system: System, temperature: Fraction, digits: int, count: int) 
     Bosons (BE without a capacity, at least one particle), at most
     :data:`FLOAT_MAX_DIGITS` digits asked, and the exact recursion's estimated
     time (:func:`_recursion_cost`) at least four times the float route's
-    (:func:`_float_cost`).
+    (:func:`.bosons_float.float_cost`).
     """
     if system.rule is not Rule.BE or system.capacity is not None or system.particles == 0:
         return False
@@ -1300,7 +884,7 @@ def _float_pays(system: System, temperature: Fraction, digits: int, count: int) 
     n = system.particles
     bits = math.ceil(digits * math.log2(10)) + 8 + 2 * (n + 1).bit_length() + 16
     exact = _recursion_cost(System(spectrum, n, system.rule, system.capacity), spectrum, temperature, bits, True)
-    return exact.seconds >= 4 * _float_cost(spectrum, n, count).seconds
+    return exact.seconds >= 4 * float_cost(spectrum, n, count).seconds
 
 
 def particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:

@@ -804,3 +804,15 @@ def _count_up():
         yield m
         m += 1
 
+
+def temperature_text(temperature: Fraction) -> str:
+    """A temperature for a message: exact when short (``1/10``), else six significant digits (``1.0e-300``).
+
+    >>> temperature_text(Fraction(1, 10)), temperature_text(Fraction(1, 10**300))
+    ('1/10', '1.0e-300')
+    """
+    text = str(temperature)
+    if len(text) <= 16:
+        return text
+    with mpmath.workdps(15):
+        return mpmath.nstr(mpmath.mpf(temperature.numerator) / temperature.denominator, 6)
