@@ -21,6 +21,8 @@ from __future__ import annotations
 
 import functools
 import json
+import math
+import re
 import sys
 from fractions import Fraction
 from typing import TYPE_CHECKING, Iterable, Optional, Sequence
@@ -39,9 +41,12 @@ __all__ = [
     "approx",
     "console",
     "describe",
+    "JsonNumber",
     "emit_json",
     "exact",
     "float_cell",
+    "json_float",
+    "json_text",
     "format_rows",
     "human",
     "pyplot",
@@ -86,19 +91,132 @@ def exact(value) -> str:
     return exact_text(value)
 
 
+class JsonNumber:
+    """A JSON number written as its literal text, for an approximation beyond the double range.
+
+    JSON numbers have no range: ``1.2345678901234567e-500`` is a valid
+    number, which a reader parsing with ``Decimal`` or mpmath gets right and
+    one parsing as a double reads as ``0.0``.  :func:`emit_json` writes the
+    text unquoted; :func:`json_float` makes one where a float would lose it.
+    """
+
+    __slots__ = ("text",)
+
+    _NUMBER = re.compile(r"-?(?:0|[1-9][0-9]*)(?:\.[0-9]+)?(?:[eE][-+]?[0-9]+)?")
+
+    def __init__(self, text: str):
+        if not self._NUMBER.fullmatch(text):
+            raise ValueError(f"not a JSON number: {text!r}")
+        self.text = text
+
+    def __repr__(self) -> str:
+        return f"JsonNumber({self.text!r})"
+
+    def __eq__(self, other) -> bool:
+        return isinstance(other, JsonNumber) and other.text == self.text
+
+    def __hash__(self) -> int:
+        return hash(self.text)
+
+
+#: Marks a :class:`JsonNumber` inside the text ``json.dumps`` writes: a lone
+#: surrogate, which no payload can hold otherwise (it cannot be written to
+#: a UTF-8 stdout), around the number's text.
+_MARK = "\ud800"
+_MARKED = re.compile('"' + _MARK + "([-+.0-9eE]+)" + _MARK + '"')
+
+
+def _mark(value):
+    if isinstance(value, JsonNumber):
+        return _MARK + value.text + _MARK
+    raise TypeError(f"Object of type {type(value).__name__} is not JSON serializable")
+
+
+def json_text(payload) -> str:
+    """The JSON text of *payload* on one line: ``json.dumps`` with :class:`JsonNumber` values written unquoted.
+
+    Parameters
+    ----------
+    payload : dict, list or scalar
+        Exact numbers already encoded as strings (:func:`exact`).
+
+    Returns
+    -------
+    str
+        Exactly ``json.dumps(payload, ensure_ascii=False)`` when the payload
+        holds no :class:`JsonNumber`.
+
+    Examples
+    --------
+    >>> json_text({"p_approx": JsonNumber("1.2e-500"), "q_approx": 0.5})
+    '{"p_approx": 1.2e-500, "q_approx": 0.5}'
+    """
+    text = json.dumps(payload, ensure_ascii=False, default=_mark)
+    if _MARK in text:
+        text = _MARKED.sub(r"\1", text)
+    return text
+
+
+def json_float(x, significant: int = 17):
+    """An approximation for a JSON ``_approx`` field: a float, or a :class:`JsonNumber` beyond the double range.
+
+    Parameters
+    ----------
+    x : float, int, mpmath number or None
+        ``None`` stays ``None``.
+    significant : int
+        Significant digits of a value written as text (17: as many as a
+        double's shortest round trip can need).
+
+    Returns
+    -------
+    float, JsonNumber or None
+        ``float(x)`` when that is zero or a normal double (the same float as
+        before); otherwise, for a nonzero value below ``2.2e-308`` (where a
+        double is 0.0 or subnormal, with fewer digits) or above ``1.8e308``,
+        its *significant* digits and true exponent as a JSON number
+        (``1.2345678901234567e-500``).  Infinities and NaN stay floats.
+
+    Notes
+    -----
+    One ``float()`` and, beyond the range, one mpmath decimal conversion
+    (quasi-linear in *significant*).
+
+    Examples
+    --------
+    >>> import mpmath
+    >>> json_float(mpmath.mpf("0.25")), json_float(mpmath.exp(-10000))
+    (0.25, JsonNumber('1.1354838653147362e-4343'))
+    """
+    if x is None:
+        return None
+    f = float(x)
+    if (f == 0 and x == 0) or (math.isfinite(f) and abs(f) >= sys.float_info.min):
+        return f
+    import mpmath
+
+    value = mpmath.mpf(x)
+    if not mpmath.isfinite(value):
+        return f
+    # mpmath writes such a value in exponent form, correctly rounded: '1.2345678901234567e-500'.
+    return JsonNumber(mpmath.nstr(value, significant, strip_zeros=False, min_fixed=1, max_fixed=0))
+
+
 def emit_json(payload: dict) -> None:
     """Print *payload* as one JSON object on one line of stdout.
 
     Parameters
     ----------
     payload : dict
-        Already encoded: exact numbers as strings (:func:`exact`).
+        Already encoded: exact numbers as strings (:func:`exact`); an
+        approximation beyond the double range as a :class:`JsonNumber`
+        (:func:`json_float`), written as an unquoted number.
 
     Notes
     -----
-    Cost: linear in the size of the payload.
+    :func:`json_text`.  Cost: linear in the size of the payload.
     """
-    sys.stdout.write(json.dumps(payload, ensure_ascii=False) + "\n")
+    sys.stdout.write(json_text(payload) + "\n")
     sys.stdout.flush()
 
 

@@ -15,7 +15,7 @@ from typing import Dict, Optional, Sequence
 import mpmath
 
 from ..algorithms.levels import CanonicalPoint, MicroPoint, System
-from .render import console, exact, float_cell, pyplot, show_table
+from .render import console, exact, float_cell, json_float, pyplot, show_table
 
 __all__ = [
     "levels_payload",
@@ -170,17 +170,17 @@ def _entry(system: System, p: CanonicalPoint, law, factor) -> dict:
     """One object of ``"canonical"``."""
     entry = {
         "temperature": float(p.temperature),
-        "mean_energy_approx": float(p.mean_energy_approx),
-        "heat_capacity_approx": float(p.heat_capacity_approx),
-        "free_energy_approx": float(p.free_energy_approx),
-        "entropy_approx": float(p.entropy_approx),
-        "ln_partition_function_approx": float(p.ln_partition_function_approx),
-        "energy_variance_approx": float(p.energy_variance_approx),
+        "mean_energy_approx": json_float(p.mean_energy_approx),
+        "heat_capacity_approx": json_float(p.heat_capacity_approx),
+        "free_energy_approx": json_float(p.free_energy_approx),
+        "entropy_approx": json_float(p.entropy_approx),
+        "ln_partition_function_approx": json_float(p.ln_partition_function_approx),
+        "energy_variance_approx": json_float(p.energy_variance_approx),
         "ground_energy": None if p.ground_energy is None else exact(p.ground_energy),
-        "excitation_energy_approx": _float(p.excitation_energy_approx),
-        "occupation_approx": [float(x) for x in p.occupations_approx],
-        "occupation_above_approx": _float(p.occupation_above_approx),
-        "ground_occupation_variance_approx": _float(p.ground_occupation_variance_approx),
+        "excitation_energy_approx": json_float(p.excitation_energy_approx),
+        "occupation_approx": [json_float(x) for x in p.occupations_approx],
+        "occupation_above_approx": json_float(p.occupation_above_approx),
+        "ground_occupation_variance_approx": json_float(p.ground_occupation_variance_approx),
         "route": p.route,
     }
     if p.error_bounds is not None:
@@ -191,25 +191,25 @@ def _entry(system: System, p: CanonicalPoint, law, factor) -> dict:
         gc = p.grand_canonical_occupations_approx
         diff = p.occupation_differences_approx
         entry.update({
-            "grand_canonical_occupation_approx": None if gc is None else [float(x) for x in gc],
-            "occupation_difference_approx": None if diff is None else [float(x) for x in diff],
-            "chemical_potential_approx": _float(p.chemical_potential_approx),
-            "grand_canonical_ground_variance_approx": _float(p.grand_canonical_ground_variance_approx),
-            "grand_canonical_mean_energy_approx": _float(p.grand_canonical_mean_energy_approx),
-            "grand_canonical_heat_capacity_approx": _float(p.grand_canonical_heat_capacity_approx),
+            "grand_canonical_occupation_approx": None if gc is None else [json_float(x) for x in gc],
+            "occupation_difference_approx": None if diff is None else [json_float(x) for x in diff],
+            "chemical_potential_approx": json_float(p.chemical_potential_approx),
+            "grand_canonical_ground_variance_approx": json_float(p.grand_canonical_ground_variance_approx),
+            "grand_canonical_mean_energy_approx": json_float(p.grand_canonical_mean_energy_approx),
+            "grand_canonical_heat_capacity_approx": json_float(p.grand_canonical_heat_capacity_approx),
         })
     if law is not None:
         entry["occupation_level"] = law.level
-        entry["occupation_law_approx"] = {str(k): float(q) for k, q in enumerate(law.law)}
-        entry["occupation_mean_approx"] = float(law.mean)
-        entry["occupation_variance_approx"] = float(law.variance)
+        entry["occupation_law_approx"] = {str(k): json_float(q) for k, q in enumerate(law.law)}
+        entry["occupation_mean_approx"] = json_float(law.mean)
+        entry["occupation_variance_approx"] = json_float(law.variance)
         if law.exact:
             entry["occupation_law"] = {str(k): exact(q) for k, q in enumerate(law.law)}
             entry["occupation_mean"] = exact(law.mean)
             entry["occupation_variance"] = exact(law.variance)
         if system.has_reservoir:
-            entry["grand_canonical_occupation_mean_approx"] = _float(law.grand_canonical_mean_approx)
-            entry["grand_canonical_occupation_variance_approx"] = _float(law.grand_canonical_variance_approx)
+            entry["grand_canonical_occupation_mean_approx"] = json_float(law.grand_canonical_mean_approx)
+            entry["grand_canonical_occupation_variance_approx"] = json_float(law.grand_canonical_variance_approx)
     return entry
 
 
