@@ -84,11 +84,12 @@ import mpmath
 from flint import arb, arb_poly, ctx
 
 from ...core.errors import InvalidParameters, TooLarge
+from ...core.limits import Cost, check
 from ...core.model import as_count
 from ...core.rules import Rule
 from .spectra import Spectrum, System, parse_digits, parse_temperature
 
-__all__ = ["FermionPoint", "fermion_canonical"]
+__all__ = ["FermionPoint", "fermion_canonical", "fermion_cost"]
 
 #: Bits carried beyond the requested digits.
 GUARD_BITS = 40
@@ -341,23 +342,36 @@ def _degree(levels, e_fermi: int, beta: float, shift: float, budget: float, cap:
     return cap, Fraction(1)
 
 
-# --------------------------------------------------------------------------
-# One temperature
-# --------------------------------------------------------------------------
-def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: int, prec: int, top: int,
-        extra: int = 0, law_energy: Optional[int] = None):
-    """Everything at one temperature with ladder rungs through *top*: ``(point or None, widen the cut-offs?)``."""
-    ctx.prec = prec
-    unit = spectrum.unit
+@dataclass(frozen=True)
+class _Plan:
+    """The shells and cut-offs of one attempt at one temperature (chosen in floating point)."""
+
+    shells: List[Tuple[int, int]]
+    e_p: int
+    g_p: int
+    n_p: int
+    below: List[Tuple[int, int]]
+    above: List[Tuple[int, int]]
+    t_fug: float
+    hmax: int
+    r_h: Fraction
+    pmax: int
+    r_p: Fraction
+    cap_h: int
+    cap_p: int
+    cut: Dict[int, int]
+
+
+def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: int, extra: int) -> _Plan:
+    """The shells through *top*, the fugacity, the degree cut-offs and the per-level cut-offs."""
     fermi, _ = _fermi_shell(spectrum, n)
     shells = _shells(spectrum, top)
     e_p, g_p = shells[fermi]
     below = shells[:fermi]
     above = shells[fermi + 1:]
     n_p = n - sum(g for _e, g in below)
-    b = _frac(unit / temperature)  # inverse temperature per energy unit
-    beta_f = float(unit / temperature)
-    t_fug, log_f = _fugacity(below, above, e_p, g_p, n_p, beta_f)
+    beta_f = float(spectrum.unit / temperature)
+    t_fug, _log_f = _fugacity(below, above, e_p, g_p, n_p, beta_f)
     # Cut-offs at 15/16 of β (room for the moment bounds at β - δ); the
     # relaxed sum F exceeds Z by about the charge width (log_f - ln Z <~ 10).
     budget = (digits + 8 + extra) * math.log(10) + math.log(n + 1) + 12
@@ -366,10 +380,6 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
     cap_h = min(sum(g for _e, g in below), cap_p + g_p - n_p)
     hmax, r_h = _degree(below, e_p, beta_f * 15 / 16, -t_fug, budget, cap_h)
     pmax, r_p = _degree(above, e_p, beta_f * 15 / 16, t_fug, budget, cap_p)
-    fug = _frac(Fraction(t_fug).limit_denominator(1 << 30)).exp()
-    hlen, plen = hmax + 1, pmax + 1
-
-    one = (arb_poly([1]), arb_poly([0]), arb_poly([0]))
     # Per-level cut-offs: at most cut[e] holes/particles in one level.
     cut = {}
     for levels, sign, cap in ((below, -t_fug, hmax), (above, t_fug, pmax)):
@@ -380,6 +390,66 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             while k < min(g, cap) and (k + 1) * log_z - math.lgamma(k + 2) + z > -budget:
                 k += 1
             cut[e] = k
+    return _Plan(shells, e_p, g_p, n_p, below, above, t_fug, hmax, r_h, pmax, r_p, cap_h, cap_p, cut)
+
+
+def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Optional[int]) -> Tuple[int, int, int, int]:
+    """``(coefficient products, ball operations, logarithms, coefficients held)`` of one :func:`_at` with *plan*.
+
+    Coefficient products: those inside FLINT's ball-polynomial products
+    (``a c`` for lengths ``a`` and ``c``): seven per level by its short factor
+    (:func:`_mul3`'s six and the suffix's one), two full products per listed
+    level (prefix times the level without one state, times the suffix), the
+    Fermi shell's few and the law's.  Ball operations: the Python-level dot
+    products.  Logarithms: the truncation bound's (:func:`_log_product` and the
+    per-level terms, about fifteen evaluations of five per level).
+    Coefficients held: the prefix and suffix products of both sides.
+    """
+    hlen, plen = plan.hmax + 1, plan.pmax + 1
+    g_p = plan.g_p
+    ladder = spectrum.ladder is not None
+    listed = {spectrum.energies[i] if not ladder else spectrum.ladder.energy(i) for i in range(report)}
+    coefficient = ball = held = 0
+    for levels, length in ((plan.below, hlen), (plan.above, plen)):
+        acc = 1
+        for e, _g in levels:
+            c = min(length, plan.cut[e] + 1)
+            coefficient += 7 * acc * c
+            held += 2 * acc + 3 * c
+            acc = min(length, acc + c - 1)
+    coefficient += 5 * plen * (g_p + 1) + hlen * (g_p + 1)  # S = P G, SP, AG
+    ball += 8 * (hlen + plen + g_p)  # Z, M1, M2, the Fermi shell, e_side, the particles above
+    for levels, length, every in ((plan.below, hlen, ladder), (plan.above, plen, False)):
+        for e, _g in levels:
+            if every or e in listed:
+                coefficient += length * (plan.cut[e] + 1) + length * length
+                ball += length
+    if law_energy is not None:
+        if law_energy == plan.e_p:
+            ball += (g_p + 1) * (hlen + plen)
+        else:
+            length = hlen if law_energy < plan.e_p else plen
+            coefficient += length * length
+            ball += (min(plan.cut.get(law_energy, 0), length) + 1) * (hlen + plen)
+    logs = 75 * (len(plan.below) + len(plan.above) + 1)
+    return coefficient, ball, logs, held
+
+
+# --------------------------------------------------------------------------
+# One temperature
+# --------------------------------------------------------------------------
+def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: int, prec: int, top: int,
+        extra: int = 0, law_energy: Optional[int] = None):
+    """Everything at one temperature with ladder rungs through *top*: ``(point or None, widen the cut-offs?)``."""
+    ctx.prec = prec
+    unit = spectrum.unit
+    plan = _plan(spectrum, n, temperature, digits, top, extra)
+    shells, e_p, g_p, n_p, below, above = plan.shells, plan.e_p, plan.g_p, plan.n_p, plan.below, plan.above
+    hmax, r_h, pmax, r_p, cap_h, cap_p, cut = plan.hmax, plan.r_h, plan.pmax, plan.r_p, plan.cap_h, plan.cap_p, plan.cut
+    b = _frac(unit / temperature)  # inverse temperature per energy unit
+    fug = _frac(Fraction(plan.t_fug).limit_denominator(1 << 30)).exp()
+    hlen, plen = hmax + 1, pmax + 1
+    one = (arb_poly([1]), arb_poly([0]), arb_poly([0]))
     hole_factors = [_factor(g, (-(b * (e_p - e))).exp(), e_p - e, min(hlen, cut[e] + 1)) for e, g in below]
     part_factors = [_factor(g, (-(b * (e - e_p))).exp(), e - e_p, min(plen, cut[e] + 1)) for e, g in above]
 
@@ -641,6 +711,133 @@ def _first_top(spectrum: Spectrum, fermi: int, temperature: Fraction, digits: in
     return fermi + 2 + int(math.ceil(need / beta_step))
 
 
+def _setup(spectrum: Spectrum, n: int, levels, law_level) -> Tuple[int, int, Optional[int]]:
+    """``(Fermi shell index, levels reported, energy of the law's level or None)`` for *n* >= 1 fermions."""
+    fermi, _ = _fermi_shell(spectrum, n)
+    if spectrum.ladder is None:
+        report = len(spectrum.energies) if levels is None else as_count(levels, "levels", 1)
+        if report > len(spectrum.energies):
+            raise InvalidParameters(
+                f"the spectrum lists {len(spectrum.energies)} levels; ask for at most that many"
+            )
+    else:
+        report = fermi + 3 if levels is None else as_count(levels, "levels", 1)
+    law_energy = None
+    if law_level is not None:
+        index = as_count(law_level, "level", 0)
+        if spectrum.ladder is None:
+            if index >= len(spectrum.energies) or spectrum.energies.count(spectrum.energies[index]) > 1:
+                raise InvalidParameters(
+                    f"level {index} is not a listed level of its own energy; the particle-hole law needs one",
+                    parameters=["level"],
+                )
+            law_energy = spectrum.energies[index]
+        else:
+            law_energy = spectrum.ladder.energy(index)
+            report = max(report, index + 1)
+    return fermi, report, law_energy
+
+
+def _first_prec(digits: int, n: int) -> int:
+    """The working precision of the first attempt (bits)."""
+    return math.ceil(digits * math.log2(10)) + GUARD_BITS + 2 * (n + 1).bit_length()
+
+
+def _arguments(spectrum, particles, temperatures, digits):
+    """``(spectrum, N, digits, temperatures)`` checked: a :class:`~.spectra.System` must be FD and brings its N."""
+    if isinstance(spectrum, System):
+        if spectrum.rule is not Rule.FD:
+            raise InvalidParameters("the particle-hole expansion is for fermions (rule FD)")
+        if particles is None:
+            particles = spectrum.particles
+        spectrum = spectrum.spectrum
+    if particles is None:
+        raise InvalidParameters("give the number of particles")
+    n = as_count(particles, "particles")
+    digits = parse_digits(digits)
+    temps = [parse_temperature(t) for t in temperatures]
+    if spectrum.ladder is None:
+        states = spectrum.states()
+        if n > states:
+            raise InvalidParameters(
+                f"{n} fermions do not fit in the {states} single-particle states; "
+                "lower the number of particles or add levels"
+            )
+    return spectrum, n, digits, temps
+
+
+def _what(n: int, temps: List[Fraction], digits: int) -> str:
+    at = f"T = {temps[0]}" if len(temps) == 1 else f"{len(temps)} temperatures"
+    return f"the particle-hole sums of {n} fermions at {at} to {digits} digits"
+
+
+#: Seconds per coefficient product inside FLINT's ball-polynomial products,
+#: per logarithm or exponential of a ball, per Python-level ball operation, at
+#: 1000 bits (each grows with the precision as fitted in :func:`fermion_cost`).
+_COEFFICIENT_SECONDS = 20e-9
+_LOG_SECONDS = 1e-6
+_BALL_SECONDS = 1e-6
+
+
+def _attempt_cost(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Optional[int], prec: int) -> Cost:
+    """The cost of one :func:`_at` with *plan* at *prec* bits (see :func:`fermion_cost`)."""
+    coefficients, balls, logs, held = _operations(spectrum, plan, report, law_energy)
+    scale = prec / 1000
+    seconds = (coefficients * _COEFFICIENT_SECONDS * (1 + scale ** 1.6) + logs * _LOG_SECONDS * (1 + scale ** 1.8)
+               + balls * _BALL_SECONDS * (1 + scale ** 1.5))
+    return Cost(seconds=seconds, memory=held * (prec // 8 + 64))
+
+
+def fermion_cost(spectrum, particles=None, temperatures: Iterable = (), digits: int = 15,
+                 levels: Optional[int] = None, law_level: Optional[int] = None) -> Cost:
+    """Return the estimated cost of :func:`fermion_canonical` with the same arguments.
+
+    Parameters
+    ----------
+    spectrum, particles, temperatures, digits, levels, law_level
+        As for :func:`fermion_canonical`.
+
+    Returns
+    -------
+    Cost
+        CPU seconds summed over the temperatures, the largest memory of one.
+
+    Notes
+    -----
+    Each temperature's shells and cut-offs are chosen as the computation
+    chooses them (floating point, ``O(L k)`` for ``L`` levels and ``k``
+    trial degrees), then its work is counted (:func:`_operations`):
+    coefficient products inside the ball-polynomial products, logarithms of
+    the truncation bound and Python-level ball operations, each priced at
+    the working precision ``p`` (``digits log2 10`` plus guard bits): per
+    coefficient product ``20 ns (1 + (p/1000)^1.6)``, per logarithm
+    ``1 us (1 + (p/1000)^1.8)``, per ball operation ``1 us (1 + (p/1000)^1.5)``
+    (fitted to CPU times measured below).  Memory: the prefix and suffix
+    products held, ``p/8 + 64`` bytes a coefficient.  The first attempt
+    only: a second (a doubled precision or wider cut-offs) is rare.
+
+    Measured (3D trap, CPU seconds on 2 cores under a load of 1-2; ``N, T,
+    digits``: measured, estimate): see :data:`MEASURED`.
+
+    Examples
+    --------
+    >>> from enumerator.algorithms.levels.spectra import harmonic_trap
+    >>> low, high = (fermion_cost(harmonic_trap(), 969, ["0.3"], d) for d in (15, 300))
+    >>> low.seconds < high.seconds and low.memory < high.memory
+    True
+    """
+    spectrum, n, digits, temps = _arguments(spectrum, particles, temperatures, digits)
+    if n == 0:
+        return Cost()
+    fermi, report, law_energy = _setup(spectrum, n, levels, law_level)
+    prec = _first_prec(digits, n)
+    total = Cost()
+    for t in temps:
+        top = fermi if spectrum.ladder is None else max(_first_top(spectrum, fermi, t, digits, 0), report - 1)
+        total = total + _attempt_cost(spectrum, _plan(spectrum, n, t, digits, top, 0), report, law_energy, prec)
+    return total
+
+
 def fermion_canonical(
     spectrum,
     particles=None,
@@ -715,51 +912,15 @@ def fermion_canonical(
     >>> mpmath.nstr(sum(p.occupations_approx) + p.occupation_above_approx, 12)
     '4.0'
     """
-    if isinstance(spectrum, System):
-        if spectrum.rule is not Rule.FD:
-            raise InvalidParameters("the particle-hole expansion is for fermions (rule FD)")
-        if particles is None:
-            particles = spectrum.particles
-        spectrum = spectrum.spectrum
-    if particles is None:
-        raise InvalidParameters("give the number of particles")
-    n = as_count(particles, "particles")
-    digits = parse_digits(digits)
-    temps = [parse_temperature(t) for t in temperatures]
-    if spectrum.ladder is None:
-        states = spectrum.states()
-        if n > states:
-            raise InvalidParameters(
-                f"{n} fermions do not fit in the {states} single-particle states; "
-                "lower the number of particles or add levels"
-            )
+    spectrum, n, digits, temps = _arguments(spectrum, particles, temperatures, digits)
     if n == 0:
         return [_empty(spectrum, t, digits, levels) for t in temps]
-    fermi, _ = _fermi_shell(spectrum, n)
-    if spectrum.ladder is None:
-        report = len(spectrum.energies) if levels is None else as_count(levels, "levels", 1)
-        if report > len(spectrum.energies):
-            raise InvalidParameters(
-                f"the spectrum lists {len(spectrum.energies)} levels; ask for at most that many"
-            )
-    else:
-        report = fermi + 3 if levels is None else as_count(levels, "levels", 1)
-    law_energy = None
-    if law_level is not None:
-        index = as_count(law_level, "level", 0)
-        if spectrum.ladder is None:
-            if index >= len(spectrum.energies) or spectrum.energies.count(spectrum.energies[index]) > 1:
-                raise InvalidParameters(
-                    f"level {index} is not a listed level of its own energy; the particle-hole law needs one",
-                    parameters=["level"],
-                )
-            law_energy = spectrum.energies[index]
-        else:
-            law_energy = spectrum.ladder.energy(index)
-            report = max(report, index + 1)
+    fermi, report, law_energy = _setup(spectrum, n, levels, law_level)
+    check(fermion_cost(spectrum, n, temps, digits, levels, law_level), _what(n, temps, digits),
+          advice="lower digits= (or the temperature)", parameters=["digits", "temperatures"])
     points = []
     for t in temps:
-        prec = math.ceil(digits * math.log2(10)) + GUARD_BITS + 2 * (n + 1).bit_length()
+        prec = _first_prec(digits, n)
         extra = 0
         saved = ctx.prec
         try:
