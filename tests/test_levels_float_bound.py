@@ -20,7 +20,8 @@ import pytest
 from reference import level_microstates
 
 from enumerator.algorithms.levels import canonical, make_system
-from enumerator.algorithms.levels.bosons_float import canonical_float, pairwise_depth
+from enumerator.algorithms.levels.bosons_float import canonical_float, canonical_float_many, pairwise_depth
+from enumerator.core.errors import TooLarge
 
 REPORTED = ("ln_partition_function", "mean_energy", "heat_capacity", "occupations")
 
@@ -157,3 +158,36 @@ def test_float_bounds_stay_finite_and_small_for_ten_thousand_bosons_at_high_temp
     bounds = extras["all_bounds"]
     assert all(math.isfinite(v) for v in bounds.values())
     assert bounds["heat_capacity"] < 1e-6 and bounds["ground_occupation_variance"] < 1e-6
+
+
+def test_temperatures_in_one_pass_are_each_within_their_bounds():
+    # canonical_float_many shares one window across the temperatures of a pass (the largest any needs):
+    # every point must still be within its own bounds of the exact recursion (25 digits), and agree with
+    # the same temperature computed alone within the two bounds together.
+    system = make_system(1000, preset="trap", rule="BE")
+    temperatures = [Fraction(1, 2), Fraction(7), Fraction(9), Fraction(15), Fraction(40)]
+    batch = canonical_float_many(system, temperatures, 3)
+    for temperature, together in zip(temperatures, batch):
+        (b,) = canonical(system, [temperature], digits=25, levels=3, route="recursion", grand=False)
+        alone = canonical_float(system, temperature, 3)
+        bounds = together[6]["all_bounds"]
+        assert abs(together[0] - b.ln_partition_function_approx) <= bounds["ln_partition_function"]
+        assert abs(together[1] / b.mean_energy_approx - 1) <= bounds["mean_energy"]
+        assert abs(together[2] / b.heat_capacity_approx - 1) <= bounds["heat_capacity"]
+        for x, y in zip(together[5], b.occupations_approx):
+            assert abs(x / y - 1) <= bounds["occupations"]
+        both = bounds["heat_capacity"] + alone[6]["all_bounds"]["heat_capacity"]
+        assert abs(together[2] / alone[2] - 1) <= both
+
+
+def test_a_temperature_beyond_the_double_range_does_not_sink_its_pass():
+    # k_B T = 10^300 spacings: the one-particle sums pass the double range, so that temperature alone
+    # comes back as the refusal and the route "auto" gives it to the exact recursion (equipartition:
+    # C -> 3N, common practice); the others of the pass keep the float route.
+    system = make_system(3, preset="trap", rule="BE")
+    results = canonical_float_many(system, [Fraction(2), Fraction(10**300), Fraction(5)], 2)
+    assert isinstance(results[1], TooLarge)
+    assert not isinstance(results[0], TooLarge) and not isinstance(results[2], TooLarge)
+    points = canonical(system, [Fraction(2), Fraction(10**300)], digits=8, levels=2)
+    assert points[1].route == "recursion"
+    assert abs(points[1].heat_capacity_approx - 9) < 1e-6

@@ -19,7 +19,7 @@ import functools
 import math
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Dict
+from typing import Dict, List, Sequence
 
 import mpmath
 
@@ -208,11 +208,19 @@ def _float_kernels(spectrum: Spectrum, b: Fraction, n: int, count: int) -> _Kern
     )
 
 
-def float_cost(spectrum: Spectrum, n: int, count: int) -> Cost:
-    """Time and memory of :func:`canonical_float` (measured on the 3D trap, scripts/workloads_levels.py)."""
+def float_cost(spectrum: Spectrum, n: int, count: int, temperatures: int = 1) -> Cost:
+    """Time and memory of one pass of :func:`canonical_float_many` over *temperatures* temperatures.
+
+    Measured on the 3D trap (scripts/workloads_levels.py): per step the
+    Python work of about 40 numpy calls, once per pass; per temperature the
+    window's flops (at most ``9 N^2``), the ball-arithmetic kernels
+    (``O(N)`` for a ladder, ``O(N L)`` for ``L`` levels) and the powers of
+    the listed levels.
+    """
     levels = 1 if spectrum.ladder is not None else len(spectrum.energies)
-    seconds = 8e-9 * n * n + 2e-5 * n + 3e-6 * n * levels + 1e-7 * n * count
-    return Cost(seconds=seconds, memory=8 * (n + 1) * (30 + count))
+    per_temperature = 8e-9 * n * n + 1e-5 * n + 3e-6 * n * levels + 1e-7 * n * count
+    seconds = 4e-5 * n + temperatures * per_temperature
+    return Cost(seconds=seconds, memory=8 * (n + 1) * (temperatures * (30 + count) + 10))
 
 
 def canonical_float(system: System, temperature: Fraction, count: int):
@@ -277,41 +285,124 @@ def canonical_float(system: System, temperature: Fraction, count: int):
     per listed level; ``N = 10^4``: about 0.8 s per temperature below
     ``T_c``, 0.35 s far above (one core).
     """
+    (result,) = canonical_float_many(system, [temperature], count)
+    if isinstance(result, TooLarge):
+        raise result
+    return result
+
+
+#: Most temperatures one pass of :func:`canonical_float_many` carries: they share the recursion's
+#: window, so a pass holds neighbouring temperatures (measured on 10^4 trap bosons: 8 per pass).
+BATCH = 8
+
+
+def canonical_float_many(system: System, temperatures: Sequence[Fraction], count: int) -> List:
+    """:func:`canonical_float` at several temperatures, the recursion vectorised across them.
+
+    Parameters
+    ----------
+    system : System
+        Bosons (BE without a capacity).
+    temperatures : sequence of Fraction
+        Positive ``k_B T`` in the energy unit.
+    count : int
+        Listed levels whose occupations are reported.
+
+    Returns
+    -------
+    list
+        Per temperature, in the order given, the tuple of
+        :func:`canonical_float`, or the :class:`TooLarge` it would raise
+        (one-particle sums beyond the double range at that temperature).
+
+    Notes
+    -----
+    The temperatures are sorted and cut into passes of at most
+    :data:`BATCH`; within a pass every numpy operation of a step works on
+    all of them at once (arrays ``(T, K)``), with one window ``K`` (the
+    largest any of them needs: a longer window only adds terms, and the
+    bounds are those of the window used).  Each row of a row-wise
+    ``numpy.add.reduce`` is summed by the same pairwise tree as a single
+    vector, so the error analysis is unchanged; the Python work of a step
+    (about 40 numpy calls) is paid once per pass instead of once per
+    temperature.  Cost per pass ``O(N K̄ T)`` flops plus ``O(N)`` numpy
+    calls (:func:`float_cost`).
+    """
     import numpy as np
 
     spectrum = system.spectrum
     if count > len(spectrum.energies):
         spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
     n = system.particles
-    check(float_cost(spectrum, n, count), f"the floating canonical recursion of {n} bosons",
-          parameters=["particles"])
-    b = spectrum.unit / temperature
-    kern = _float_kernels(spectrum, b, n, count)
-    if not all(np.isfinite(x).all() for x in (kern.a, kern.mean, kern.var)):
-        raise TooLarge(
-            f"the one-particle sums at T = {temperature_text(temperature)} pass the range of double precision, "
-            "so the float route cannot hold them; use the exact recursion (route recursion)",
-            parameters=["route"],
-        )
+    temperatures = list(temperatures)
+    results: List = [None] * len(temperatures)
+    order = sorted(range(len(temperatures)), key=lambda i: temperatures[i])
+    for start in range(0, len(order), BATCH):
+        chunk = order[start:start + BATCH]
+        check(float_cost(spectrum, n, count, len(chunk)), f"the floating canonical recursion of {n} bosons",
+              parameters=["particles"])
+        kernels = []
+        for i in chunk:
+            temperature = temperatures[i]
+            kern = _float_kernels(spectrum, spectrum.unit / temperature, n, count)
+            if not all(np.isfinite(x).all() for x in (kern.a, kern.mean, kern.var)):
+                results[i] = TooLarge(
+                    f"the one-particle sums at T = {temperature_text(temperature)} pass the range of double "
+                    "precision, so the float route cannot hold them; use the exact recursion (route recursion)",
+                    parameters=["route"],
+                )
+            else:
+                kernels.append((i, kern))
+        if kernels:
+            state = _float_recursion([k for _, k in kernels], n)
+            for row, (i, kern) in enumerate(kernels):
+                results[i] = _float_point(spectrum, temperatures[i], n, count, kern, state, row)
+    return results
+
+
+@dataclass
+class _RecursionState:
+    """The arrays of :func:`_float_recursion`, one row per temperature of a pass."""
+
+    Z: object  # (T, N+1): Z[t, N - j] = Z_j 2^-scale_bits[t]
+    D: object  # (T, N+1): relative error bounds of Z
+    U: object  # (T, 2, N+1): means of the two observables (energy above the lowest level, n_0)
+    V: object  # (T, 2, N+1): their variances
+    EU: object  # (T, 2): absolute error bounds of U at N
+    EV: object  # (T, 2): absolute error bounds of V at N
+    d_max: object  # (T,)
+    scale_bits: object  # (T,) int
+
+
+def _float_recursion(kernels: List[_Kernels], n: int) -> _RecursionState:
+    """The recursion of :func:`canonical_float` for a pass of temperatures (see its docstring for the bounds)."""
+    import numpy as np
+
+    T = len(kernels)
     u = _U53
-    a = kern.a
-    mean, var = kern.mean, kern.var
-    mean_max = mean[:, 1:].max(axis=1).tolist() if n else [0.0, 0.0]
-    Zr = np.zeros(n + 1)
-    Dr = np.zeros(n + 1)
-    Ur = np.zeros((2, n + 1))
-    Vr = np.zeros((2, n + 1))
-    Zr[n] = 1.0
-    W = np.empty(n)
-    B1, B2, B3 = np.empty((2, n)), np.empty((2, n)), np.empty((2, n))
+    a = np.array([k.a for k in kernels])  # (T, N+1)
+    mean = np.array([k.mean for k in kernels])  # (T, 2, N+1)
+    var = np.array([k.var for k in kernels])
+    mean_max = mean[:, :, 1:].max(axis=2) if n else np.zeros((T, 2))
+    var_max = var[:, :, 1:].max(axis=2) if n else np.zeros((T, 2))
+    eps_a = np.array([k.eps_a for k in kernels])
+    eps_mean = np.array([k.eps_mean for k in kernels])  # (T, 2)
+    eps_var = np.array([k.eps_var for k in kernels])
+    Zr = np.zeros((T, n + 1))
+    Dr = np.zeros((T, n + 1))
+    Ur = np.zeros((T, 2, n + 1))
+    Vr = np.zeros((T, 2, n + 1))
+    Zr[:, n] = 1.0
+    W = np.empty((T, n))
+    B1, B2, B3 = (np.empty((T, 2, n)) for _ in range(3))
     mul, sub, add, red, absolute = np.multiply, np.subtract, np.add, np.add.reduce, np.abs
-    EU, EV, Umax, Vmax = [0.0, 0.0], [0.0, 0.0], [0.0, 0.0], [0.0, 0.0]
-    d_max = 0.0
-    scale_bits = 0
-    tiny_rel = n * float(a.max()) * 2.0**-1070 if n else 0.0  # products and Z values below the normal range
-    eps_a, eps_mean, eps_var = kern.eps_a, kern.eps_mean.tolist(), kern.eps_var.tolist()
+    EU, EV, Umax, Vmax = ([[0.0, 0.0] for _ in range(T)] for _ in range(4))
+    mean_max, var_max = mean_max.tolist(), var_max.tolist()
+    eps_mean, eps_var = eps_mean.tolist(), eps_var.tolist()
+    d_max = np.zeros(T)
+    scale_bits = np.zeros(T, dtype=np.int64)
+    tiny_rel = n * a.max(axis=1) * 2.0**-1070 if n else np.zeros(T)  # products and Z values below the normal range
     tail_tol = 2.0**-80
-    var_max = var[:, 1:].max(axis=1).tolist() if n else [0.0, 0.0]
     K = 0
     for m in range(1, n + 1):
         at = n - m + 1
@@ -319,63 +410,83 @@ def canonical_float(system: System, temperature: Fraction, count: int):
         # a particle added to a lowest state), so those past K weigh at most (m - K) w_K in all.
         K = min(m, K + 1)
         while True:
-            w = mul(a[1:K + 1], Zr[at:at + K], out=W[:K])
-            S = red(w)
-            tail = (m - K) * w[K - 1] * (1 + 1e-6) / S
-            if K == m or tail <= tail_tol:
+            w = mul(a[:, 1:K + 1], Zr[:, at:at + K], out=W[:, :K])
+            S = red(w, axis=1)
+            tail = (m - K) * w[:, K - 1] * (1 + 1e-6) / S
+            if K == m or (tail <= tail_tol).all():
                 break
             K = min(m, 2 * K)
         h = pairwise_depth(K)
         g_h, g_2h = _gamma(h), _gamma(2 * h + 5)
-        tail = tail if K < m else 0.0
-        d_m = float(w @ Dr[at:at + K]) / S + eps_a + g_h + 3 * u + tiny_rel + tail
-        phi = d_max + eps_a + u + tiny_rel
-        Zr[n - m] = S / m
-        Dr[n - m] = d_m
-        d_max = max(d_max, d_m)
-        u_prev = Ur[:, at]
-        y = sub(Ur[:, at:at + K], u_prev[:, None], out=B1[:, :K])
-        add(y, mean[:, 1:K + 1], out=y)
-        corr = red(mul(y, w, out=B2[:, :K]), axis=1) / S
+        if K == m:
+            tail = np.zeros(T)
+        d_m = np.einsum("tk,tk->t", w, Dr[:, at:at + K]) / S + eps_a + g_h + 3 * u + tiny_rel + tail
+        phi_t = d_max + eps_a + u + tiny_rel
+        Zr[:, n - m] = S / m
+        Dr[:, n - m] = d_m
+        d_max = np.maximum(d_max, d_m)
+        u_prev = Ur[:, :, at]
+        y = sub(Ur[:, :, at:at + K], u_prev[:, :, None], out=B1[:, :, :K])
+        add(y, mean[:, :, 1:K + 1], out=y)
+        w3 = w[:, None, :]
+        Sc = S[:, None]
+        corr = red(mul(y, w3, out=B2[:, :, :K]), axis=2) / Sc
         u_m = u_prev + corr
-        c = sub(y, corr[:, None], out=y)
-        cc = mul(c, c, out=B2[:, :K])
-        pc = (absolute(c, out=c) @ w) / S
-        t = add(var[:, 1:K + 1], Vr[:, at:at + K], out=B3[:, :K])
+        c = sub(y, corr[:, :, None], out=y)
+        cc = mul(c, c, out=B2[:, :, :K])
+        pc = np.einsum("tjk,tk->tj", absolute(c, out=c), w) / Sc
+        t = add(var[:, :, 1:K + 1], Vr[:, :, at:at + K], out=B3[:, :, :K])
         add(t, cc, out=t)
-        v_m = red(mul(t, w, out=B2[:, :K]), axis=1) / S
-        spread = (absolute(sub(t, v_m[:, None], out=t), out=t) @ w) / S
-        Ur[:, n - m] = u_m
-        Vr[:, n - m] = v_m
-        # Bounds (absolute, per observable: Python floats, two of each): see the docstring.
-        d_tail = tail
-        for j, (cj, uj, vj, pcj, spj) in enumerate(zip(corr.tolist(), u_m.tolist(), v_m.tolist(),
-                                                      pc.tolist(), spread.tolist())):
-            step = abs(cj)
-            reach = Umax[j] + mean_max[j] + uj  # bounds |x_k - U_m| for every k, the dropped ones included
-            rnd = u * (3 * Umax[j] + 3 * mean_max[j] + step + uj) + eps_mean[j] * mean_max[j]
-            eu = (EU[j] + u * uj + (2 * g_h + 4 * u) * (step + pcj) + u * mean_max[j]
-                  + 2 * phi * (pcj + 2 * EU[j] + rnd) + eps_mean[j] * mean_max[j] + d_tail * reach + _FLOAT_TINY)
-            EU[j] = eu
-            Umax[j] = max(Umax[j], uj)
-            eta = 2 * eu + rnd
-            c_err = 2 * eta * (pcj + eta) + eta * eta  # Σ p |ĉ^2 - c^2|
-            EV[j] += ((g_2h + eps_var[j]) * vj + 2 * phi * (spj + c_err) + c_err
-                      + d_tail * (vj + var_max[j] + Vmax[j] + reach * reach) + _FLOAT_TINY)
-            Vmax[j] = max(Vmax[j], vj)
-        # Shrink the window for the next step while its second half is negligible.
-        while K > 16 and (m - K // 2) * w[K // 2 - 1] * (1 + 1e-6) <= tail_tol * S:
+        v_m = red(mul(t, w3, out=B2[:, :, :K]), axis=2) / Sc
+        spread = np.einsum("tjk,tk->tj", absolute(sub(t, v_m[:, :, None], out=t), out=t), w) / Sc
+        Ur[:, :, n - m] = u_m
+        Vr[:, :, n - m] = v_m
+        # Bounds (absolute, per temperature and observable, in Python floats: cheaper than numpy calls on
+        # arrays this small): see canonical_float's docstring.
+        rows = zip(corr.tolist(), u_m.tolist(), v_m.tolist(), pc.tolist(), spread.tolist(), phi_t.tolist(),
+                   tail.tolist(), EU, EV, Umax, Vmax, mean_max, var_max, eps_mean, eps_var)
+        for cr, ur, vr, pcr, spr, phi, d_tail, eur, evr, umr, vmr, mmr, vxr, emr, evr_eps in rows:
+            for j in (0, 1):
+                uj, vj, pcj, spj = ur[j], vr[j], pcr[j], spr[j]
+                step = abs(cr[j])
+                reach = umr[j] + mmr[j] + uj  # bounds |x_k - U_m| for every k, the dropped ones included
+                rnd = u * (3 * umr[j] + 3 * mmr[j] + step + uj) + emr[j] * mmr[j]
+                eu = (eur[j] + u * uj + (2 * g_h + 4 * u) * (step + pcj) + u * mmr[j]
+                      + 2 * phi * (pcj + 2 * eur[j] + rnd) + emr[j] * mmr[j] + d_tail * reach + _FLOAT_TINY)
+                eur[j] = eu
+                umr[j] = max(umr[j], uj)
+                eta = 2 * eu + rnd
+                c_err = 2 * eta * (pcj + eta) + eta * eta  # Σ p |ĉ^2 - c^2|
+                evr[j] += ((g_2h + evr_eps[j]) * vj + 2 * phi * (spj + c_err) + c_err
+                           + d_tail * (vj + vxr[j] + vmr[j] + reach * reach) + _FLOAT_TINY)
+                vmr[j] = max(vmr[j], vj)
+        # Shrink the window for the next step while its second half is negligible for every temperature.
+        while K > 16 and ((m - K // 2) * w[:, K // 2 - 1] * (1 + 1e-6) <= tail_tol * S).all():
             K //= 2
-        if Zr[n - m] > 2.0**800:
-            Zr *= 2.0**-800  # exact, apart from values falling below the normal range
-            scale_bits += 800
+        big = Zr[:, n - m] > 2.0**800
+        if big.any():
+            Zr[big] *= 2.0**-800  # exact, apart from values falling below the normal range
+            scale_bits[big] += 800
+    return _RecursionState(Zr, Dr, Ur, Vr, np.array(EU), np.array(EV), d_max, scale_bits)
+
+
+def _float_point(spectrum: Spectrum, temperature: Fraction, n: int, count: int, kern: _Kernels,
+                 state: _RecursionState, row: int):
+    """One temperature's results and bounds from row *row* of a pass of :func:`_float_recursion`."""
+    import numpy as np
+
+    u = _U53
+    Zr, Ur, Vr = state.Z[row], state.U[row], state.V[row]
+    EU, EV = state.EU[row].tolist(), state.EV[row].tolist()
+    d_max = float(state.d_max[row])
+    eps_a, eps_mean, eps_var = kern.eps_a, kern.eps_mean.tolist(), kern.eps_var.tolist()
     ZN = Zr[0]
     R = Zr / ZN  # R[j] = Z_{N-j} / Z_N, within 2 max D + u
-    d_N = float(Dr[0])
+    d_N = float(state.D[row, 0])
     with mpmath.workdps(20):
         T = mpmath.mpf(temperature.numerator) / temperature.denominator
         unit = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
-        lnz = mpmath.log(mpmath.mpf(ZN)) + scale_bits * mpmath.ln2
+        lnz = mpmath.log(mpmath.mpf(ZN)) + int(state.scale_bits[row]) * mpmath.ln2
         m1 = mpmath.mpf(float(Ur[0, 0]))
         bb = unit / T
         shift_e = n * spectrum.lowest
@@ -387,7 +498,7 @@ def canonical_float(system: System, temperature: Fraction, count: int):
         occ = []
         for i in range(count):
             g = spectrum.degeneracies[i]
-            value = g * float(red(kern.powers[i, 1:] * R[1:]))
+            value = g * float(np.add.reduce(kern.powers[i, 1:] * R[1:]))
             occ.append(mpmath.mpf(value))
             rel = 2 * d_max + _gamma(h_N + 1) + kern.eps_powers + 3 * u
             occ_rel.append(rel + g * n * _FLOAT_TINY / value if value > 0 else (0.0 if n == 0 else math.inf))

@@ -44,7 +44,7 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
-from .bosons_float import FLOAT_MAX_DIGITS, canonical_float, float_cost, float_meets
+from .bosons_float import FLOAT_MAX_DIGITS, canonical_float_many, float_cost, float_meets
 from .particle_hole import fermion_canonical
 from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature, temperature_text
 
@@ -817,19 +817,11 @@ def canonical(
         raise InvalidParameters("the float route is for bosons (rule BE without a capacity): its sums must be "
                                 "positive", parameters=["route", "rule"])
     grand = grand and system.has_reservoir
+    temperatures = [parse_temperature(value) for value in temperatures]
+    floats = _float_points(system, temperatures, digits, count, route)
     points = []
-    for value in temperatures:
-        temperature = parse_temperature(value)
-        floated = None
-        if route == "float":
-            floated = canonical_float(system, temperature, count)
-        elif route == "auto" and _float_pays(system, temperature, digits, count):
-            try:
-                floated = canonical_float(system, temperature, count)
-            except TooLarge:
-                floated = None  # beyond the double range: the exact recursion below
-            if floated is not None and not float_meets(floated[6]["all_bounds"], digits):
-                floated = None  # the bounds fall short of the digits asked: the exact recursion below
+    for index, temperature in enumerate(temperatures):
+        floated = floats.get(index)
         if floated is not None:
             lnZ, U, C, F, S, occ, extras = floated
             point = CanonicalPoint(temperature, digits, lnZ, U, C, F, S, occ,
@@ -861,6 +853,40 @@ def canonical(
                             grand_canonical_heat_capacity_approx=gcap)
         points.append(point)
     return points
+
+
+def _float_points(system: System, temperatures: List[Fraction], digits: int, count: int, route: str) -> Dict:
+    """The float-route results of :func:`canonical`, by index into *temperatures*, all in one batched call.
+
+    Route ``"float"``: every temperature (a :class:`TooLarge` for one of
+    them is raised).  Route ``"auto"``: those where :func:`_float_pays`, kept
+    only where the bounds meet *digits* (the rest, and a batch refused by
+    the planner, go to the exact recursion).  Other routes: none.
+    """
+    if route == "float":
+        chosen = list(range(len(temperatures)))
+    elif route == "auto":
+        chosen = [i for i, t in enumerate(temperatures) if _float_pays(system, t, digits, count)]
+    else:
+        return {}
+    if not chosen:
+        return {}
+    try:
+        results = canonical_float_many(system, [temperatures[i] for i in chosen], count)
+    except TooLarge:
+        if route == "float":
+            raise
+        return {}
+    out = {}
+    for i, result in zip(chosen, results):
+        if isinstance(result, TooLarge):
+            if route == "float":
+                raise result
+            continue  # beyond the double range: the exact recursion
+        if route == "auto" and not float_meets(result[6]["all_bounds"], digits):
+            continue  # the bounds fall short of the digits asked: the exact recursion
+        out[i] = result
+    return out
 
 
 #: The routes of :func:`canonical`.
