@@ -357,6 +357,113 @@ def _smallest_factor_table(top: int):
 _RUN = 128
 
 
+class _ExclusionSum:
+    """The sum of :func:`_exclusion_sum` in parts: the smooth bases, and the bases by their largest prime.
+
+    ``part(lo, hi, smooth)`` is the sum of the terms ``±c_k k^n`` whose
+    largest prime factor is ``primes[lo:hi]`` (the primes above
+    ``sqrt(K)``, increasing), plus, with ``smooth``, those of the bases with
+    no prime factor above ``sqrt(K)`` (``k = 1`` included).  The parts of a
+    partition of ``range(len(primes))`` add up to the whole sum, exactly, in
+    any grouping; the tables (coefficient marks, smallest prime factors,
+    powers of the primes up to ``sqrt(K)``) are built once, before any part.
+    """
+
+    def __init__(self, n: int, r: int, j: int):
+        mpz = gmpy2.mpz
+        self.n, self.r, self.j = n, r, j
+        top = self.top = r - j - 1
+        step = self.step = 64
+        scaled = r * gmpy2.comb(r - 1, j)  # r C(r-1, j) = r! / (j! K!)
+        marks = self.marks = [scaled]
+        for base in range(0, top - step + 1, step):  # r C(r-1, j) C(K, base + step), one step at a time
+            marks.append(gmpy2.divexact(marks[-1] * math.prod(range(top - base - step + 1, top - base + 1)),
+                                        math.prod(range(base + 1, base + step + 1))))
+        spf = self.spf = _smallest_factor_table(top)
+        self.root = math.isqrt(top)
+        self.small = [q for q in range(2, self.root + 1) if spf[q] == q]
+        self.power = {q: mpz(q) ** n for q in self.small if q > 2}
+        self.primes = [p for p in range(self.root + 1, top + 1) if spf[p] == p]
+
+    def coefficient(self, k: int):
+        """``(-1)^(r-k+j) c_k``, from the nearest mark by one short product and one exact division."""
+        r, j, top, step, marks = self.r, self.j, self.top, self.step, self.marks
+        mark = min((k + step // 2) // step, len(marks) - 1)
+        base = mark * step
+        if k >= base:  # C(K, k) = C(K, base) (K-base)...(K-k+1) / ((base+1)...k)
+            up, down = math.prod(range(top - k + 1, top - base + 1)), math.prod(range(base + 1, k + 1))
+        else:  # C(K, k) = C(K, base) (k+1)...base / ((K-base+1)...(K-k))
+            up, down = math.prod(range(k + 1, base + 1)), math.prod(range(top - base + 1, top - k + 1))
+        c = gmpy2.divexact(marks[mark] * up, down * (r - k))
+        return -c if (r - k + j) & 1 else c
+
+    def node(self, m: int, largest: int):
+        """``V(m) = ±c_m + sum_Q Q^n V(mQ)`` over the primes ``Q`` up to *largest* and ``K/m``."""
+        n, power = self.n, self.power
+        value = self.coefficient(m)
+        bound = min(largest, self.top // m)
+        for q in self.small:
+            if q > bound:
+                break
+            below = self.node(m * q, q)
+            value += below << n if q == 2 else below * power[q]
+        return value
+
+    def run_sum(self, run):
+        """``sum ±c_k X`` over a run of ``(k, X)``, ``k`` increasing from ``a`` to ``b`` (one long product)."""
+        # c_k = c_a (r-a) h_k / d with h_k = (b!/k!) ((K-a)!/(K-k)!) (prod/(r-k)) and d = (b!/a!) prod, prod
+        # the r - k of the run; d/g divides every h_k (g = gcd(c_a (r-a), d), as each c_k is whole)
+        r, j, top = self.r, self.j, self.top
+        a, b = run[0][0], run[-1][0]
+        spread = math.prod(r - k for k, _ in run)
+        lead = abs(self.coefficient(a)) * (r - a)
+        d = math.prod(range(a + 1, b + 1)) * spread
+        common = gmpy2.gcd(lead, d)
+        rest = d // common
+        inner = gmpy2.mpz(0)
+        for k, x in run:
+            h = gmpy2.divexact(math.prod(range(k + 1, b + 1)) * math.prod(range(top - k + 1, top - a + 1))
+                               * (spread // (r - k)), rest)
+            inner += -h * x if (r - k + j) & 1 else h * x
+        return gmpy2.divexact(lead, common) * inner
+
+    def is_large(self, p: int) -> bool:
+        """Whether the prime ``p > sqrt(K)`` goes to the runs (``p > K/4``: cofactors ``m <= 3``)."""
+        return not (4 * p <= self.top or p <= 3)
+
+    def part(self, lo: int, hi: int, smooth: bool):
+        """The terms of the bases whose largest prime is ``primes[lo:hi]``, and of the smooth ones if *smooth*."""
+        mpz = gmpy2.mpz
+        n, top, power = self.n, self.top, self.power
+        total = mpz(0)
+        if smooth:
+            total += self.coefficient(1)
+            for q in self.small:
+                below = self.node(q, q)
+                total += below << n if q == 2 else below * power[q]
+        # the primes p > K/4 (k = m p, m <= 3): their terms go to one sum per m in runs of k spanning at most
+        # RUN bases, each term a product of p^n by a number of about 16 RUN bits instead of c_k
+        runs = {1: [], 2: [], 3: []}
+        sums = {1: mpz(0), 2: mpz(0), 3: mpz(0)}
+        for p in self.primes[lo:hi]:
+            if not self.is_large(p):
+                total += self.node(p, p) * mpz(p) ** n
+                continue
+            x = mpz(p) ** n
+            for m in range(1, top // p + 1):
+                run = runs[m]
+                if run and m * p - run[0][0] > _RUN:
+                    sums[m] += self.run_sum(run)
+                    run.clear()
+                run.append((m * p, x))
+        for m, run in runs.items():
+            if run:
+                sums[m] += self.run_sum(run)
+        if sums[3]:
+            total += sums[3] * power.get(3, mpz(3) ** n)
+        return total + sums[1] + (sums[2] << n)
+
+
 def _exclusion_sum(n: int, r: int, j: int):
     """``sum_{k=1}^{K} (-1)^(r-k+j) c_k k^n`` with ``c_k = C(r, k) C(r-k-1, j)`` and ``K = r - j - 1``, exact.
 
@@ -387,86 +494,10 @@ def _exclusion_sum(n: int, r: int, j: int):
     rule: D. E. Knuth, *The Art of Computer Programming*, vol. 2, 3rd ed.,
     1997, §4.6.4.
     """
-    mpz = gmpy2.mpz
-    top = r - j - 1
-    if top < 1:
-        return mpz(0)
-    step = 64
-    scaled = r * gmpy2.comb(r - 1, j)  # r C(r-1, j) = r! / (j! K!)
-    marks = [scaled]
-    for base in range(0, top - step + 1, step):  # r C(r-1, j) C(K, base + step), one step at a time
-        marks.append(gmpy2.divexact(marks[-1] * math.prod(range(top - base - step + 1, top - base + 1)),
-                                    math.prod(range(base + 1, base + step + 1))))
-
-    def coefficient(k):
-        mark = min((k + step // 2) // step, len(marks) - 1)
-        base = mark * step
-        if k >= base:  # C(K, k) = C(K, base) (K-base)...(K-k+1) / ((base+1)...k)
-            up, down = math.prod(range(top - k + 1, top - base + 1)), math.prod(range(base + 1, k + 1))
-        else:  # C(K, k) = C(K, base) (k+1)...base / ((K-base+1)...(K-k))
-            up, down = math.prod(range(k + 1, base + 1)), math.prod(range(top - base + 1, top - k + 1))
-        c = gmpy2.divexact(marks[mark] * up, down * (r - k))
-        return -c if (r - k + j) & 1 else c
-
-    spf = _smallest_factor_table(top)
-    root = math.isqrt(top)
-    small = [q for q in range(2, root + 1) if spf[q] == q]
-    power = {q: mpz(q) ** n for q in small if q > 2}
-
-    def node(m, largest):
-        value = coefficient(m)
-        bound = min(largest, top // m)
-        for q in small:
-            if q > bound:
-                break
-            below = node(m * q, q)
-            value += below << n if q == 2 else below * power[q]
-        return value
-
-    def run_sum(run):
-        # sum of ±c_k X over a run of (k, X), k increasing from a to b: c_k = c_a (r-a) h_k / d with
-        # h_k = (b!/k!) ((K-a)!/(K-k)!) (prod/(r-k)) and d = (b!/a!) prod, prod the r - k of the run;
-        # d/g divides every h_k (g = gcd(c_a (r-a), d), as each c_k is whole), so one long product per run
-        a, b = run[0][0], run[-1][0]
-        spread = math.prod(r - k for k, _ in run)
-        lead = abs(coefficient(a)) * (r - a)
-        d = math.prod(range(a + 1, b + 1)) * spread
-        common = gmpy2.gcd(lead, d)
-        rest = d // common
-        inner = mpz(0)
-        for k, x in run:
-            h = gmpy2.divexact(math.prod(range(k + 1, b + 1)) * math.prod(range(top - k + 1, top - a + 1))
-                               * (spread // (r - k)), rest)
-            inner += -h * x if (r - k + j) & 1 else h * x
-        return gmpy2.divexact(lead, common) * inner
-
-    total = coefficient(1)
-    for q in small:
-        below = node(q, q)
-        total += below << n if q == 2 else below * power[q]
-    # the primes p > K/4 (k = m p, m <= 3): their terms go to one sum per m in runs of k spanning at most
-    # RUN bases, each term a product of p^n by a number of about 16 RUN bits instead of c_k
-    runs = {1: [], 2: [], 3: []}
-    sums = {1: mpz(0), 2: mpz(0), 3: mpz(0)}
-    for p in range(root + 1, top + 1):
-        if spf[p] != p:
-            continue
-        if 4 * p <= top or p <= 3:
-            total += node(p, p) * mpz(p) ** n
-            continue
-        x = mpz(p) ** n
-        for m in range(1, top // p + 1):
-            run = runs[m]
-            if run and m * p - run[0][0] > _RUN:
-                sums[m] += run_sum(run)
-                run.clear()
-            run.append((m * p, x))
-    for m, run in runs.items():
-        if run:
-            sums[m] += run_sum(run)
-    if sums[3]:
-        total += sums[3] * power.get(3, mpz(3) ** n)
-    return total + sums[1] + (sums[2] << n)
+    if r - j - 1 < 1:
+        return gmpy2.mpz(0)
+    terms = _ExclusionSum(n, r, j)
+    return terms.part(0, len(terms.primes), smooth=True)
 
 
 def _exclusion_sum_by_odd_parts(n: int, r: int, j: int):
