@@ -15,11 +15,13 @@ from fractions import Fraction
 
 import mpmath
 import pytest
+from cli_helpers import one_line_error, run
 
 from enumerator.algorithms.levels.ensembles import canonical
-from enumerator.algorithms.levels.particle_hole import fermion_canonical
+from enumerator.algorithms.levels.particle_hole import fermion_canonical, fermion_cost
 from enumerator.algorithms.levels.spectra import System, harmonic_trap, make_spectrum
-from enumerator.core.errors import InvalidParameters
+from enumerator.core.errors import InvalidParameters, TooLarge
+from enumerator.core.limits import limited
 
 
 def brute_force(energies, degeneracies, n, temperature):
@@ -158,3 +160,30 @@ def test_system_input_and_refusals():
         fermion_canonical(System.create(harmonic_trap(), 4, "BE"), temperatures=["1"])
     (empty,) = fermion_canonical(harmonic_trap(), 0, ["1"])
     assert empty.ln_partition_function_approx == 0
+
+
+def test_cost_follows_the_digits_and_the_temperature():
+    """The estimate counts the work at the working precision: more digits or a higher T cost more."""
+    trap = harmonic_trap()
+    by_digits = [fermion_cost(trap, 969, ["0.3"], d) for d in (15, 100, 300, 600)]
+    for a, b in zip(by_digits, by_digits[1:]):
+        assert a.seconds < b.seconds and a.memory < b.memory
+    by_temperature = [fermion_cost(trap, 969, [t], 100) for t in ("0.1", "0.3", "1", "3")]
+    for a, b in zip(by_temperature, by_temperature[1:]):
+        assert a.seconds < b.seconds
+    # several temperatures: the seconds add up
+    both = fermion_cost(trap, 969, ["0.3", "1"], 100)
+    assert both.seconds == pytest.approx(by_temperature[1].seconds + by_temperature[2].seconds)
+    assert fermion_cost(trap, 0, ["1"]).seconds == 0
+
+
+def test_sums_beyond_the_limits_are_refused_before_they_start():
+    cost = fermion_cost(harmonic_trap(), 969, ["1"], 600)
+    with limited(seconds=cost.seconds / 2):
+        with pytest.raises(TooLarge, match="969 fermions at T = 1 to 600 digits.*lower digits="):
+            fermion_canonical(harmonic_trap(), 969, ["1"], digits=600)
+    # the command line: one line, exit 2, naming the options to change (it would take ~30 s CPU)
+    result = run("levels", "--preset", "trap", "--particles", 969, "--rule", "FD", "--temperatures", 1,
+                 "--digits", 600, "--max-seconds", 10)
+    line = one_line_error(result)
+    assert "--max-seconds" in line and "--digits" in line

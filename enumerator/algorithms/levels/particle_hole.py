@@ -61,14 +61,19 @@ Arithmetic and error bound
 
 Cost
     ``L`` levels used (the shells below ``P`` and the rungs kept above):
-    about ``10 L`` products of ball polynomials of length at most
+    seven products of ball polynomials of length at most
     ``max(hmax, pmax) + 1`` (``<= N + 1``; tens at ``T << ε_F``, a few
-    hundred for 969 fermions at ``T = ħω``), most of them by a short factor,
-    plus ``O(L (hmax + pmax))`` ball operations for the dot products:
-    ``O(L M(n))`` with ``M(n)`` one FLINT product of length ``n``.
-    Measured: 969 fermions in the 3D trap, 15 digits, 0.01 s at
-    ``T = 0.1``, 0.04 s at ``0.3``, 0.3 s at ``1`` (3.8 s at ``T = 3``,
-    where the plain recursion is the better route).
+    hundred for 969 fermions at ``T = ħω``) by one level's short factor per
+    level, two long products per listed level, and ``O(L)`` logarithms of
+    balls for the truncation bound, all at a working precision of
+    ``digits log2 10`` plus guard bits; ``L`` and the lengths grow about
+    linearly with the digits (more rungs and more excitations count), so
+    the time grows like ``digits^3``-``digits^4``.  :func:`fermion_cost`
+    counts this work before any sum and :func:`fermion_canonical` checks it
+    against the limits.  Measured: 969 fermions in the 3D trap, 15 digits,
+    0.006 s at ``T = 0.1``, 0.02 s at ``0.3``, 0.04 s at ``1``, 0.3 s at
+    ``T = 3`` (where the plain recursion is the better route); 300 digits at
+    ``T = 0.3``: 0.7 s.
 
 Units: energies and temperatures share the user's energy unit, ``k_B = 1``.
 """
@@ -393,46 +398,46 @@ def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: i
     return _Plan(shells, e_p, g_p, n_p, below, above, t_fug, hmax, r_h, pmax, r_p, cap_h, cap_p, cut)
 
 
-def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Optional[int]) -> Tuple[int, int, int, int]:
-    """``(coefficient products, ball operations, logarithms, coefficients held)`` of one :func:`_at` with *plan*.
+def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Optional[int]):
+    """``(short, full, balls, logs, held)``: the work of one :func:`_at` with *plan*, counted for :func:`fermion_cost`.
 
-    Coefficient products: those inside FLINT's ball-polynomial products
-    (``a c`` for lengths ``a`` and ``c``): seven per level by its short factor
-    (:func:`_mul3`'s six and the suffix's one), two full products per listed
-    level (prefix times the level without one state, times the suffix), the
-    Fermi shell's few and the law's.  Ball operations: the Python-level dot
-    products.  Logarithms: the truncation bound's (:func:`_log_product` and the
-    per-level terms, about fifteen evaluations of five per level).
-    Coefficients held: the prefix and suffix products of both sides.
+    *short*: coefficient products (``a c`` for lengths ``a`` and ``c``) of
+    the ball-polynomial products by one level's short factor, seven per
+    level (:func:`_mul3`'s six and the suffix's one).  *full*: the products
+    of two long polynomials (each listed level's, the Fermi shell's, the
+    law's), each counted as ``L^1.12`` for length ``L`` (FLINT multiplies
+    them by blocks; the exponent is fitted).  *balls*: the Python-level
+    ball operations of the dot products.  *logs*: logarithms and
+    exponentials of the truncation bound (fifteen evaluations of about five
+    per level).  *held*: the coefficients of the prefix and suffix products.
     """
     hlen, plen = plan.hmax + 1, plan.pmax + 1
     g_p = plan.g_p
     ladder = spectrum.ladder is not None
     listed = {spectrum.energies[i] if not ladder else spectrum.ladder.energy(i) for i in range(report)}
-    coefficient = ball = held = 0
+    short = balls = held = 0
     for levels, length in ((plan.below, hlen), (plan.above, plen)):
         acc = 1
         for e, _g in levels:
             c = min(length, plan.cut[e] + 1)
-            coefficient += 7 * acc * c
+            short += 7 * acc * c
             held += 2 * acc + 3 * c
             acc = min(length, acc + c - 1)
-    coefficient += 5 * plen * (g_p + 1) + hlen * (g_p + 1)  # S = P G, SP, AG
-    ball += 8 * (hlen + plen + g_p)  # Z, M1, M2, the Fermi shell, e_side, the particles above
+    lengths = [plen] * 5 + [hlen]  # S = P G, SP, AG (by the Fermi shell's g_P + 1 terms)
+    balls += 8 * (hlen + plen + g_p)  # Z, M1, M2, the Fermi shell, e_side, the particles above
     for levels, length, every in ((plan.below, hlen, ladder), (plan.above, plen, False)):
         for e, _g in levels:
             if every or e in listed:
-                coefficient += length * (plan.cut[e] + 1) + length * length
-                ball += length
+                lengths.append(length)
+                balls += length
     if law_energy is not None:
         if law_energy == plan.e_p:
-            ball += (g_p + 1) * (hlen + plen)
+            balls += (g_p + 1) * (hlen + plen)
         else:
-            length = hlen if law_energy < plan.e_p else plen
-            coefficient += length * length
-            ball += (min(plan.cut.get(law_energy, 0), length) + 1) * (hlen + plen)
+            lengths.append(hlen if law_energy < plan.e_p else plen)
+            balls += (min(plan.cut.get(law_energy, 0), hlen + plen) + 1) * (hlen + plen)
     logs = 75 * (len(plan.below) + len(plan.above) + 1)
-    return coefficient, ball, logs, held
+    return short, sum(length ** 1.12 for length in lengths), balls, logs, held
 
 
 # --------------------------------------------------------------------------
@@ -771,21 +776,23 @@ def _what(n: int, temps: List[Fraction], digits: int) -> str:
     return f"the particle-hole sums of {n} fermions at {at} to {digits} digits"
 
 
-#: Seconds per coefficient product inside FLINT's ball-polynomial products,
-#: per logarithm or exponential of a ball, per Python-level ball operation, at
-#: 1000 bits (each grows with the precision as fitted in :func:`fermion_cost`).
-_COEFFICIENT_SECONDS = 20e-9
-_LOG_SECONDS = 1e-6
-_BALL_SECONDS = 1e-6
+#: CPU seconds at 1000 bits of: a coefficient product of a short ball-polynomial
+#: product, a unit of a full product (``L^1.12`` for length ``L``), a
+#: logarithm or exponential of a ball, a Python-level ball operation; the
+#: precision factors and the exponents are in :func:`_attempt_cost` (fitted to
+#: the CPU times in :func:`fermion_cost`, times 1.55 for an upper bound).
+_SHORT_SECONDS = 152e-9
+_FULL_SECONDS = 12.1e-6
+_LOG_SECONDS = 12.3e-6
+_BALL_SECONDS = 1.7e-6
 
 
 def _attempt_cost(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Optional[int], prec: int) -> Cost:
     """The cost of one :func:`_at` with *plan* at *prec* bits (see :func:`fermion_cost`)."""
-    coefficients, balls, logs, held = _operations(spectrum, plan, report, law_energy)
-    scale = prec / 1000
-    seconds = (coefficients * _COEFFICIENT_SECONDS * (1 + scale ** 1.6) + logs * _LOG_SECONDS * (1 + scale ** 1.8)
-               + balls * _BALL_SECONDS * (1 + scale ** 1.5))
-    return Cost(seconds=seconds, memory=held * (prec // 8 + 64))
+    short, full, balls, logs, held = _operations(spectrum, plan, report, law_energy)
+    products = (short * _SHORT_SECONDS + full * _FULL_SECONDS) * ((prec + 250) / 1250) ** 1.6
+    python = (logs * _LOG_SECONDS + balls * _BALL_SECONDS) * ((prec + 1240) / 2240) ** 2.1
+    return Cost(seconds=products + python, memory=int(1.5 * held * (prec // 8 + 64)) + 8 * 10**6)
 
 
 def fermion_cost(spectrum, particles=None, temperatures: Iterable = (), digits: int = 15,
@@ -805,19 +812,32 @@ def fermion_cost(spectrum, particles=None, temperatures: Iterable = (), digits: 
     Notes
     -----
     Each temperature's shells and cut-offs are chosen as the computation
-    chooses them (floating point, ``O(L k)`` for ``L`` levels and ``k``
-    trial degrees), then its work is counted (:func:`_operations`):
-    coefficient products inside the ball-polynomial products, logarithms of
-    the truncation bound and Python-level ball operations, each priced at
-    the working precision ``p`` (``digits log2 10`` plus guard bits): per
-    coefficient product ``20 ns (1 + (p/1000)^1.6)``, per logarithm
-    ``1 us (1 + (p/1000)^1.8)``, per ball operation ``1 us (1 + (p/1000)^1.5)``
-    (fitted to CPU times measured below).  Memory: the prefix and suffix
-    products held, ``p/8 + 64`` bytes a coefficient.  The first attempt
-    only: a second (a doubled precision or wider cut-offs) is rare.
+    chooses them (:func:`_plan`, floating point, ``O(L k)`` for ``L`` levels
+    and ``k`` trial degrees: milliseconds), then its work is counted
+    (:func:`_operations`) and priced at the working precision ``p``
+    (``digits log2 10`` plus guard bits), which is what makes the estimate
+    follow ``digits``: the coefficient products of the short and the full
+    ball-polynomial products times ``((p + 250)/1250)^1.6``, the
+    logarithms and Python-level ball operations of the bounds and dot
+    products times ``((p + 1240)/2240)^2.1`` (Arb's multiplication,
+    ``exp`` and ``log`` slow down faster than linearly in ``p``).  The
+    constants were fitted by least squares in logarithms to 60 runs (the 3D
+    trap, ``N`` = 100 to 3000, ``T`` = 0.1 to 3, 15 to 1000 digits, 5 ms to
+    26 s) and raised by 1.55, so that the estimate lies between 0.93 and 2
+    times the CPU time of every run above 0.5 s.  Memory: the prefix and
+    suffix products held, ``1.5 (p/8 + 64)`` bytes a coefficient, plus
+    8 MB.  The first attempt only: a second one (a doubled precision or
+    wider cut-offs) was not needed in any of the runs.
 
-    Measured (3D trap, CPU seconds on 2 cores under a load of 1-2; ``N, T,
-    digits``: measured, estimate): see :data:`MEASURED`.
+    Measured (the 3D trap, ``law_level=0`` as the command line asks; CPU
+    time and peak RSS above the start, 2 cores under a load of 2-4;
+    ``N, T, digits``: measured, estimate): 969, 0.1, 600: 1.07 s, 30 MB
+    (1.47 s, 55 MB); 969, 0.3, 300: 0.70 s, 31 MB (1.14 s, 62 MB); 969,
+    0.3, 600: 4.3 s, 143 MB (7.1 s, 269 MB); 969, 1, 300: 3.3 s, 172 MB
+    (5.9 s, 324 MB); 969, 1, 600: 26 s, 764 MB (34.5 s, 1.35 GB); 969, 3,
+    300: 14.2 s, 736 MB (23.6 s, 1.28 GB); 3000, 1, 300: 4.8 s (9.4 s).
+    Before the estimate existed the route was not priced at all (969, 0.3,
+    300 digits ran 13 s before the per-rung occupations were dropped).
 
     Examples
     --------
