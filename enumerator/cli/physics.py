@@ -13,6 +13,7 @@ from typing import Annotated, Optional
 import typer
 
 from ..core.errors import InvalidParameters, TooLarge
+from ..core.workers import available_cores
 from .app import FLAGS
 from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope, plot_option
 from .render import emit_json
@@ -164,6 +165,13 @@ def levels_command(
         bool,
         _levels_opt("--microcanonical", "Also give ln Ω(E) and T(E) = 1/(d ln Ω/dE) (central differences).", _THERMO),
     ] = False,
+    processes: Annotated[
+        Optional[int],
+        _levels_opt("--processes", "Compute the temperatures side by side in up to this many local processes "
+                    "(default: the cores this process may use; 1: one after the other). They start when the "
+                    "lowest temperature alone took over a quarter of a second; the answers are those of "
+                    "separate calls for groups of neighbouring temperatures.", _THERMO, "P"),
+    ] = None,
     plot: LevelsPlot = None,
     as_json: Json = False,
     max_memory: MaxMemory = None,
@@ -198,12 +206,12 @@ def levels_command(
     with limits_scope(max_memory, max_seconds):
         _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
                 max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
-                as_json)
+                as_json, processes)
 
 
 def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
             max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
-            as_json) -> None:
+            as_json, processes=None) -> None:
     """The body of :func:`levels_command` (inside the limits the user set).
 
     Parameters
@@ -212,6 +220,8 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
         The system's options.
     max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot, as_json
         What to compute and how to show it.
+    processes : int, optional
+        Most local processes for the temperatures (default: the cores available).
     """
     from ..algorithms import levels as lv
     from ..core.errors import InvalidParameters
@@ -219,6 +229,8 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
 
     if report_levels is not None and report_levels < 1:
         raise InvalidParameters(f"--report-levels must be at least 1 (got {report_levels})")
+    if processes is not None and processes < 1:
+        raise InvalidParameters(f"--processes must be at least 1 (got {processes})")
     lv.parse_digits(digits)  # refused before any work, even where only multiplicities are asked
     system = _level_system(particles, energies, degeneracies, rule, capacity, preset, levels,
                            dimension, gap, oscillators)
@@ -256,7 +268,8 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
         report = report_levels
         if report is None and max_energy is None and not system.spectrum.finite:
             report = _default_report(lv, system, temps)
-        points = lv.canonical(system, temps, digits=digits, levels=report, route=route)
+        points = lv.canonical(system, temps, digits=digits, levels=report, route=route,
+                              processes=available_cores() if processes is None else processes)
         if occupation_law is not None:
             laws = [None] * len(temps)
             floats = [i for i, x in enumerate(factors) if x is None]

@@ -33,6 +33,7 @@ Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
 from __future__ import annotations
 
 import math
+import time
 from dataclasses import dataclass, replace
 from fractions import Fraction
 from typing import Dict, Iterable, List, Optional, Tuple
@@ -44,7 +45,8 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.limits import Cost, bigint_bytes, check, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
-from .bosons_float import FLOAT_MAX_DIGITS, canonical_float_many, float_cost, float_meets
+from ...core.workers import map_in_processes
+from .bosons_float import BATCH, FLOAT_MAX_DIGITS, canonical_float_many, float_cost, float_meets
 from .particle_hole import fermion_canonical
 from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature, temperature_text
 
@@ -719,6 +721,7 @@ def canonical(
     levels: Optional[int] = None,
     grand: bool = True,
     route: str = "auto",
+    processes: int = 1,
 ) -> List[CanonicalPoint]:
     """Return the canonical ensemble of *system* at each temperature.
 
@@ -744,6 +747,13 @@ def canonical(
         rigorous a-posteriori bounds, see :func:`.bosons_float.canonical_float`; *digits*
         is then not promised but the bounds are stated in ``error_bounds``;
         ``"auto"`` takes it only when they meet *digits*): see Notes.
+    processes : int
+        Most local processes computing temperatures side by side (default
+        1: one after the other here).  With more, the lowest temperature is
+        computed first, here; when it took over
+        :data:`PROCESSES_AFTER_SECONDS`, the others are cut into groups of
+        neighbouring temperatures for :func:`~enumerator.core.workers.map_in_processes`
+        (the same answers: each group is computed as by a call of its own).
 
     Returns
     -------
@@ -828,6 +838,8 @@ def canonical(
                                 "positive", parameters=["route", "rule"])
     grand = grand and system.has_reservoir
     temperatures = [parse_temperature(value) for value in temperatures]
+    if processes > 1 and len(temperatures) > 1:
+        return _canonical_in_processes(system, temperatures, digits, levels, grand, route, processes)
     floats = _float_points(system, temperatures, digits, count, route)
     points = []
     for index, temperature in enumerate(temperatures):
@@ -862,6 +874,46 @@ def canonical(
                             grand_canonical_ground_variance_approx=gvar, grand_canonical_mean_energy_approx=gu,
                             grand_canonical_heat_capacity_approx=gcap)
         points.append(point)
+    return points
+
+
+#: Seconds the lowest temperature must take before :func:`canonical` hands the others to processes
+#: (starting them and sending the answers back costs about 0.1 s).
+PROCESSES_AFTER_SECONDS = 0.25
+
+
+def _canonical_group(task) -> List[CanonicalPoint]:
+    """:func:`canonical` at one group of temperatures, in one process (a task of :func:`_canonical_in_processes`)."""
+    system, temperatures, digits, levels, grand, route = task
+    return canonical(system, temperatures, digits, levels, grand, route)
+
+
+def _canonical_in_processes(system: System, temperatures: List[Fraction], digits: int, levels: Optional[int],
+                            grand: bool, route: str, processes: int) -> List[CanonicalPoint]:
+    """:func:`canonical` with the temperatures shared among up to *processes* local processes.
+
+    The lowest temperature first, here, timed; if it took less than
+    :data:`PROCESSES_AFTER_SECONDS` the rest follow here too.  Otherwise the
+    rest, sorted, are cut into groups of neighbouring temperatures (at most
+    :data:`~.bosons_float.BATCH`, about three groups per process so that
+    unequal groups balance out) and computed by
+    :func:`~enumerator.core.workers.map_in_processes`.  Results in the order given.
+    """
+    order = sorted(range(len(temperatures)), key=lambda i: temperatures[i])
+    started = time.perf_counter()
+    (first,) = canonical(system, [temperatures[order[0]]], digits, levels, grand, route)
+    rest = order[1:]
+    if time.perf_counter() - started < PROCESSES_AFTER_SECONDS:
+        later = canonical(system, [temperatures[i] for i in rest], digits, levels, grand, route)
+    else:
+        size = max(1, min(BATCH, math.ceil(len(rest) / (3 * processes))))
+        groups = [rest[i:i + size] for i in range(0, len(rest), size)]
+        tasks = [(system, [temperatures[i] for i in group], digits, levels, grand, route) for group in groups]
+        later = [p for points in map_in_processes(_canonical_group, tasks, processes) for p in points]
+    points: List[Optional[CanonicalPoint]] = [None] * len(temperatures)
+    points[order[0]] = first
+    for i, point in zip(rest, later):
+        points[i] = point
     return points
 
 

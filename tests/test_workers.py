@@ -1,0 +1,68 @@
+"""Local worker processes: the same answers as one process, errors and limits carried across.
+
+References: the canonical ensemble at several temperatures computed in one
+process by the same library (the processes must not change an answer of the
+exact routes); the limits are the project's own contract (DESIGN.md,
+"Refused before it breaks").
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import pytest
+from cli_helpers import run
+
+from enumerator.algorithms.levels import canonical, ensembles, make_system
+from enumerator.core.errors import TooLarge
+from enumerator.core.limits import Cost, active_limits, check, limited
+from enumerator.core.workers import available_cores, map_in_processes
+
+
+def _square(x):
+    return x * x
+
+
+def _memory_limit(_):
+    return active_limits().memory
+
+
+def _refuse(x):
+    if x == 3:
+        check(Cost(seconds=1e9), "the third piece")
+    return x
+
+
+def test_results_come_back_in_the_order_of_the_pieces():
+    assert map_in_processes(_square, range(20), 2) == [x * x for x in range(20)]
+    assert map_in_processes(_square, [7], 4) == [49]  # one piece: computed here
+    assert available_cores() >= 1
+
+
+def test_each_worker_plans_against_its_share_of_the_memory_limit():
+    with limited(memory=8 * 2**20):
+        assert map_in_processes(_memory_limit, [0, 1], 2) == [4 * 2**20, 4 * 2**20]
+
+
+def test_a_refusal_in_a_worker_is_raised_here_with_its_message():
+    with pytest.raises(TooLarge, match="the third piece would take"):
+        map_in_processes(_refuse, [1, 2, 3, 4], 2)
+
+
+@pytest.mark.parametrize("rule, route", [("FD", "recursion"), ("BE", "recursion"), ("FD", "particle-hole")])
+def test_canonical_in_processes_equals_one_process(monkeypatch, rule, route):
+    # Force the processes even for this small system (the lowest temperature is fast).
+    monkeypatch.setattr(ensembles, "PROCESSES_AFTER_SECONDS", 0.0)
+    system = make_system(12, preset="trap", rule=rule)
+    temperatures = [Fraction(3), Fraction(1, 2), Fraction(2), Fraction(5), Fraction(1)]
+    together = canonical(system, temperatures, digits=20, levels=3, route=route)
+    apart = canonical(system, temperatures, digits=20, levels=3, route=route, processes=2)
+    assert [p.temperature for p in apart] == temperatures
+    for a, b in zip(together, apart):
+        assert a == b
+
+
+def test_the_command_line_refuses_zero_processes():
+    result = run("levels", "--preset", "trap", "--particles", "5", "--rule", "BE", "--temperatures", "1,2",
+                 "--processes", "0")
+    assert result.exit_code == 2 and result.stderr.count("\n") == 1 and "--processes" in result.stderr
