@@ -16,6 +16,9 @@ from __future__ import annotations
 
 import itertools
 import math
+import multiprocessing
+import os
+import threading
 from fractions import Fraction
 
 import pytest
@@ -129,3 +132,61 @@ def test_planner_takes_inclusion_exclusion_near_the_mean(monkeypatch):
     value = formulas.empty_urns_at_most(n, r, j)
     assert calls == [(n, r, j)]
     assert value == Fraction(r**n + _feller_sum(n, r, j), r**n)
+
+
+@pytest.mark.parametrize("n,r,j", [(3000, 1500, 203), (2000, 1000, 135), (1200, 1500, 400), (300, 150, 20),
+                                   (40, 20, 3), (12, 10, 0), (5, 3, 0)])
+def test_two_processes_give_feller_sum(n, r, j):
+    # the part computed in a forked child and the part computed here add up to the sum term by term
+    assert threading.active_count() == 1  # else the fork is (rightly) not taken and this tests one process
+    assert formulas._exclusion_sum(n, r, j, processes=2) == _feller_sum(n, r, j), (n, r, j)
+
+
+def test_the_split_shares_the_work(monkeypatch):
+    # both processes get primes to do, and the sum is taken in two processes once the estimate is large
+    terms = formulas._ExclusionSum(30000, 15000, 2030)
+    assert 0 < terms.halves() < len(terms.primes)
+    calls = []
+    real = formulas._in_two_processes
+    monkeypatch.setattr(formulas, "_in_two_processes", lambda *a: calls.append(a) or real(*a))
+    monkeypatch.setattr(formulas, "_exclusion_seconds", lambda n, r, j: 100.0)
+    monkeypatch.setattr(formulas, "_cores", lambda: 2)
+    assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
+    assert len(calls) == 1
+    monkeypatch.setattr(formulas, "_cores", lambda: 1)
+    assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
+    assert len(calls) == 1
+
+
+def test_a_child_that_dies_leaves_its_part_here(tmp_path):
+    parent = os.getpid()
+
+    def there():
+        if os.getpid() != parent:
+            (tmp_path / "child ran").touch()
+            os._exit(3)
+        return 5
+
+    assert formulas._in_two_processes(there, lambda: 7) == 12
+    assert (tmp_path / "child ran").exists()
+
+
+def test_an_error_in_the_child_is_raised_here_without_a_traceback_there(capfd):
+    def there():
+        raise ValueError("part failed")
+
+    with pytest.raises(ValueError, match="part failed"):
+        formulas._in_two_processes(there, lambda: 7)
+    assert "Traceback" not in capfd.readouterr().err
+
+
+def test_without_fork_both_parts_are_computed_here(monkeypatch):
+    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
+    assert formulas._exclusion_sum(2000, 1000, 135, processes=2) == _feller_sum(2000, 1000, 135)
+    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["fork"])
+    monkeypatch.setattr(multiprocessing.get_context("fork").Process, "start", _refuse_start)
+    assert formulas._exclusion_sum(2000, 1000, 135, processes=2) == _feller_sum(2000, 1000, 135)
+
+
+def _refuse_start(self):
+    raise OSError("no more processes")
