@@ -28,6 +28,14 @@
   at 10^5 balls (105-155 s CPU here), so there its time is extrapolated;
 * ``empty-law-point-3*10^4``: the same comparison at ``n = 3*10^4``, where
   both finish and the ratio is measured.  ``--quick``: ``n = 5000``.
+* ``empty-law-split-10^5``: the point of ``empty-law-point-10^5`` as
+  :func:`~enumerator.algorithms.asymptotics.formulas.empty_urns_at_most`
+  computes it (the sum split between this process and a forked child when
+  its estimate is 2 s or more and two cores are free) against the same sum
+  in one process (``formulas._exclusion_sum(..., processes=1)``, the route
+  before the split), the same final division.  Elapsed times: the split
+  saves no CPU time, so the gain needs two free cores.  ``--quick``:
+  ``n = 2*10^4``, the smallest point of the sweep that is split.
 
 In ``--quick`` mode the two sweeps report plain seconds: estimating the earlier exact
 side alone takes longer than the sweeps themselves.
@@ -158,6 +166,35 @@ def register(bench) -> None:
                     target=bench.faster_by(1))
     def _empty_law_point(ctx):
         return empty_law_point(ctx, 10**4 if ctx.quick else 10**5)
+
+    @bench.workload("empty-law-split-10^5",
+                    "exact P(E <= j), 10^5 balls in 5*10^4 urns, j = floor(r e^-2): the inclusion-exclusion sum "
+                    "split between two processes vs the same sum in one (elapsed time; needs two free cores)",
+                    target=bench.faster_by(1.5))
+    def _empty_law_split(ctx):
+        import gmpy2
+
+        from enumerator.algorithms.asymptotics import formulas
+        from enumerator.algorithms.counting import over_prime_power, power_primes
+        from enumerator.core.limits import limited
+
+        n = 2 * 10**4 if ctx.quick else 10**5
+        r = n // 2
+        j = math.floor(r * math.exp(-n / r))
+
+        def ours():
+            with limited(seconds=1e6):
+                return formulas.empty_urns_at_most(n, r, j)
+
+        def one_process():
+            whole = gmpy2.mpz(r) ** n
+            return over_prime_power(whole + formulas._exclusion_sum(n, r, j, processes=1), whole, power_primes(r, n))
+
+        split = formulas._two_processes(n, r, j)
+        return ctx.compare(Method("enumerator empty_urns_at_most" + (" (two processes)" if split else ""), ours),
+                           [Method("the same sum in one process", one_process)],
+                           notes=[f"n = {n:,}, r = {r:,}, j = {j:,}: " + ("split between two processes" if split
+                                                                         else "not split (one core, or small)")])
 
     @bench.workload("empty-law-point-3*10^4",
                     "exact P(E <= j), 3*10^4 balls in 15,000 urns, j = floor(r e^-2): the same two routes, "
