@@ -17,7 +17,9 @@ import mpmath
 import pytest
 from cli_helpers import one_line_error, run
 
+from enumerator.algorithms.levels import make_system
 from enumerator.algorithms.levels.ensembles import canonical
+from enumerator.algorithms.levels.occupation import occupation_law
 from enumerator.algorithms.levels.particle_hole import fermion_canonical, fermion_cost
 from enumerator.algorithms.levels.spectra import System, harmonic_trap, make_spectrum
 from enumerator.core.errors import InvalidParameters, TooLarge
@@ -187,3 +189,19 @@ def test_sums_beyond_the_limits_are_refused_before_they_start():
                  "--digits", 600, "--max-seconds", 10)
     line = one_line_error(result)
     assert "--max-seconds" in line and "--digits" in line
+
+
+@pytest.mark.parametrize("n, temperature, level", [(20, "0.05", 3), (35, "0.03", 6), (84, "0.1", 7), (220, "0.3", 9)])
+def test_law_far_below_the_fermi_temperature_keeps_its_smallest_probabilities(n, temperature, level):
+    """Every P(n_l = k), down to 1e-1042, against the plain recursion (occupation_law, route
+    "recursion": alternating sums in fixed point, relative accuracy for each k; an independent
+    route).  Before, the particle-hole law cut those below 10^-digits to 0."""
+    system = make_system(n, preset="trap", rule="FD")
+    (law,) = occupation_law(system, level, [temperature], digits=16, grand=False)
+    (ref,) = occupation_law(system, level, [temperature], digits=20, grand=False, route="recursion")
+    (p,) = fermion_canonical(system, temperatures=[temperature], digits=16, law_level=level, levels=1)
+    # "auto" took the particle-hole route (the same numbers, rounded to 16 digits)
+    assert all(abs(x - y) <= 1e-15 * y for x, y in zip(law.law, p.law))
+    assert 0 < min(ref.law) < 1e-60
+    for got, want in zip(law.law, ref.law):
+        assert abs(got - want) <= 1e-14 * want

@@ -368,7 +368,7 @@ def _check_system(system: System) -> None:
 
 
 def occupation_law(system: System, level: int, temperatures: Iterable, digits: int = DEFAULT_DIGITS,
-                   grand: bool = True) -> List[OccupationLaw]:
+                   grand: bool = True, route: str = "auto") -> List[OccupationLaw]:
     """Return the canonical law of the occupation of *level* at each temperature.
 
     Parameters
@@ -384,6 +384,10 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
         probability, the mean and the variance.
     grand : bool
         Also give the grand-canonical mean and variance of the level.
+    route : str
+        ``"auto"`` (default: the particle-hole sums for fermions far below
+        the Fermi temperature, the recursion otherwise), ``"recursion"`` or
+        ``"particle-hole"`` (fermions, a level of its own energy).
 
     Returns
     -------
@@ -413,8 +417,11 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     ``β (E_0 - N ε_min) / ln 2`` bits; the rule of
     :func:`~.ensembles.canonical`) take the particle-hole sums instead
     (:func:`.particle_hole.fermion_canonical` with ``law_level``): each
-    probability then within ``10^-digits`` *absolute* (ball radius plus
-    the truncation bound), not relative.
+    probability then within ``10^-digits`` *absolute* by a rigorous bound
+    (ball radius plus the truncation bound), and its leading configurations
+    are all kept however small it is, so that it agrees with the recursion
+    to about ``10^-digits`` *relative* down to ``10^-1042`` in the tests
+    (tests/test_particle_hole.py; not a proved relative bound).
 
     Examples
     --------
@@ -429,10 +436,16 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
     digits = parse_digits(digits)
     _check_system(system)
     _level(system, level)
+    if route not in ("auto", "recursion", "particle-hole"):
+        raise InvalidParameters(f"route must be auto, recursion or particle-hole (got {route!r})", parameters=["route"])
+    if route == "particle-hole" and (system.rule is not Rule.FD or system.capacity != 1
+                                     or not _own_energy(system, level)):
+        raise InvalidParameters("the particle-hole route is for fermions (rule FD) and a level of its own energy",
+                                parameters=["route", "rule"])
     out = []
     for value in temperatures:
         temperature = parse_temperature(value)
-        if system.particles and particle_hole_pays(system, temperature, digits, "auto") and _own_energy(system, level):
+        if system.particles and particle_hole_pays(system, temperature, digits, route) and _own_energy(system, level):
             (point,) = fermion_canonical(system, temperatures=[temperature], digits=digits, law_level=level,
                                          levels=1)
             law = point.law

@@ -367,8 +367,18 @@ class _Plan:
     cut: Dict[int, int]
 
 
-def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: int, extra: int) -> _Plan:
-    """The shells through *top*, the fugacity, the degree cut-offs and the per-level cut-offs."""
+def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: int, extra: int,
+          law_energy: Optional[int] = None) -> _Plan:
+    """The shells through *top*, the fugacity, the degree cut-offs and the per-level cut-offs.
+
+    With *law_energy* (the level whose law is asked for), that level is not
+    cut, both degree cut-offs grow by its degeneracy ``g`` and so do the
+    per-level cut-offs of the levels nearest the Fermi shell on each side
+    (until they hold ``g`` more): every ``P(n_l = k)``, however small, then
+    keeps its leading configurations (``k`` particles or ``g - k`` holes in
+    the level, the charge made up in the nearest levels) instead of being
+    cut to 0 below ``10^-digits``.
+    """
     fermi, _ = _fermi_shell(spectrum, n)
     shells = _shells(spectrum, top)
     e_p, g_p = shells[fermi]
@@ -385,6 +395,8 @@ def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: i
     cap_h = min(sum(g for _e, g in below), cap_p + g_p - n_p)
     hmax, r_h = _degree(below, e_p, beta_f * 15 / 16, -t_fug, budget, cap_h)
     pmax, r_p = _degree(above, e_p, beta_f * 15 / 16, t_fug, budget, cap_p)
+    law_g = next((g for e, g in shells if e == law_energy), 0)
+    hmax, pmax = min(cap_h, hmax + law_g), min(cap_p, pmax + law_g)
     # Per-level cut-offs: at most cut[e] holes/particles in one level.
     cut = {}
     for levels, sign, cap in ((below, -t_fug, hmax), (above, t_fug, pmax)):
@@ -394,7 +406,17 @@ def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: i
             k = 0
             while k < min(g, cap) and (k + 1) * log_z - math.lgamma(k + 2) + z > -budget:
                 k += 1
-            cut[e] = k
+            cut[e] = min(g, cap) if e == law_energy else k
+    if law_g:
+        # Room for the law's charge shift of up to g: the levels nearest the
+        # Fermi shell, outwards, until they hold g more holes (particles).
+        for levels, cap in ((below[::-1], hmax), (above, pmax)):
+            room = 0
+            for e, g in levels:
+                if room >= law_g:
+                    break
+                cut[e] = min(g, cap, cut[e] + law_g)
+                room += g
     return _Plan(shells, e_p, g_p, n_p, below, above, t_fug, hmax, r_h, pmax, r_p, cap_h, cap_p, cut)
 
 
@@ -407,7 +429,8 @@ def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Option
     of two long polynomials (each listed level's, the Fermi shell's, the
     law's), each counted as ``L^1.12`` for length ``L`` (FLINT multiplies
     them by blocks; the exponent is fitted).  *balls*: the Python-level
-    ball operations of the dot products.  *logs*: logarithms and
+    ball operations of the dot products and of the factors' coefficients.
+    *logs*: logarithms and
     exponentials of the truncation bound (fifteen evaluations of about five
     per level).  *held*: the coefficients of the prefix and suffix products.
     """
@@ -421,6 +444,7 @@ def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Option
         for e, _g in levels:
             c = min(length, plan.cut[e] + 1)
             short += 7 * acc * c
+            balls += 6 * c  # the factor's coefficients, built one by one (_factor)
             held += 2 * acc + 3 * c
             acc = min(length, acc + c - 1)
     lengths = [plen] * 5 + [hlen]  # S = P G, SP, AG (by the Fermi shell's g_P + 1 terms)
@@ -429,7 +453,7 @@ def _operations(spectrum: Spectrum, plan: _Plan, report: int, law_energy: Option
         for e, _g in levels:
             if every or e in listed:
                 lengths.append(length)
-                balls += length
+                balls += length + 6 * min(length, plan.cut[e] + 1)
     if law_energy is not None:
         if law_energy == plan.e_p:
             balls += (g_p + 1) * (hlen + plen)
@@ -448,7 +472,7 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
     """Everything at one temperature with ladder rungs through *top*: ``(point or None, widen the cut-offs?)``."""
     ctx.prec = prec
     unit = spectrum.unit
-    plan = _plan(spectrum, n, temperature, digits, top, extra)
+    plan = _plan(spectrum, n, temperature, digits, top, extra, law_energy)
     shells, e_p, g_p, n_p, below, above = plan.shells, plan.e_p, plan.g_p, plan.n_p, plan.below, plan.above
     hmax, r_h, pmax, r_p, cap_h, cap_p, cut = plan.hmax, plan.r_h, plan.pmax, plan.r_p, plan.cap_h, plan.cap_p, plan.cut
     b = _frac(unit / temperature)  # inverse temperature per energy unit
@@ -854,7 +878,8 @@ def fermion_cost(spectrum, particles=None, temperatures: Iterable = (), digits: 
     total = Cost()
     for t in temps:
         top = fermi if spectrum.ladder is None else max(_first_top(spectrum, fermi, t, digits, 0), report - 1)
-        total = total + _attempt_cost(spectrum, _plan(spectrum, n, t, digits, top, 0), report, law_energy, prec)
+        total = total + _attempt_cost(spectrum, _plan(spectrum, n, t, digits, top, 0, law_energy), report, law_energy,
+                                      prec)
     return total
 
 
@@ -892,7 +917,10 @@ def fermion_canonical(
         the Fermi shell): ``C(g, h) y^h Σ_{h'} W_{h'} S_{h'+h+n_P}`` with ``W``
         the hole polynomial without the level, and likewise above it; each
         probability within ``10^-digits`` absolute (ball radius plus the
-        truncation bound).  Its energy must not be shared with another
+        truncation bound).  The cut-offs make room for the level's whole
+        range (:func:`_plan`), so a probability far below ``10^-digits`` keeps
+        its leading configurations and its relative digits (checked against
+        the recursion, not bounded) instead of being cut to 0.  Its energy must not be shared with another
         listed level.
 
     Returns
