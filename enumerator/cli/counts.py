@@ -28,6 +28,7 @@ from .options import (
     output_folder,
     parse_config,
     store_scope,
+    whole_option,
     workers_option,
 )
 from .render import approx, describe, emit_json, exact, show_table, write_sparse, write_vectors
@@ -611,15 +612,15 @@ def list_command(
     weights: Weights = None,
     limit: Annotated[
         Optional[int],
-        typer.Option("--limit", help="Print at most this many configurations."),
+        whole_option("--limit", name="limit", help="Print at most this many configurations."),
     ] = None,
     start: Annotated[
         int,
-        typer.Option("--start", help="First lexicographic rank to print (0-based)."),
+        whole_option("--start", name="start", help="First lexicographic rank to print (0-based)."),
     ] = 0,
     stop: Annotated[
         Optional[int],
-        typer.Option("--stop", help="Stop before this rank (default: the end)."),
+        whole_option("--stop", name="stop", help="Stop before this rank (default: the end)."),
     ] = None,
     fmt: Annotated[
         ListFormat,
@@ -644,7 +645,7 @@ def list_command(
     ] = None,
     shards: Annotated[
         Optional[int],
-        typer.Option("--shards", min=1, metavar="N",
+        whole_option("--shards", name="shards", minimum=1, metavar="N",
                      help="With --output-dir: the number of files, equal rank ranges "
                      "(default: 4 per worker on a cluster, else 1)."),
     ] = None,

@@ -62,6 +62,7 @@ __all__ = [
     "limits_scope",
     "parse_config",
     "store_scope",
+    "whole_option",
 ]
 
 #: Help panels: the model's options, and where results go.
@@ -70,19 +71,81 @@ OUTPUT_PANEL = "Store and output"
 LIMITS_PANEL = "Limits"
 
 
+_NEGATIVE = re.compile(r"\s*-\s*[0-9]{1,40}\s*")
+
+
 def count_parser(name: str, minimum: int):
-    """A typer ``parser`` reading a whole number of any size digit by digit (see the module docstring)."""
+    """A typer ``parser`` reading a whole number of any size digit by digit (see the module docstring).
+
+    Parameters
+    ----------
+    name : str
+        What the number is, for the message (``"balls"``, ``"particles of A"``).
+    minimum : int
+        The least value accepted.
+
+    Returns
+    -------
+    callable
+        Text -> ``int``; a value that is not a whole number of at least
+        *minimum* raises ``typer.BadParameter``, which the CLI prints as one
+        line naming the option (``Invalid value for '--size': size must be at
+        least 0 (got -1)``).  An ``int`` (a default) is checked the same way.
+
+    Notes
+    -----
+    :func:`enumerator.core.groups.parse_count` does the reading, so a power
+    is sized before it is expanded.  Cost: linear in the length of the text.
+    """
 
     def parse(text) -> int:
         if isinstance(text, int) and not isinstance(text, bool):
-            return text  # a default, or a value handed over in-process
-        try:
-            return parse_count(str(text), name, minimum)
-        except InvalidParameters as error:
-            raise typer.BadParameter(str(error)) from None
+            value = text  # a default, or a value handed over in-process
+        elif _NEGATIVE.fullmatch(str(text)):
+            value = int(str(text).replace(" ", ""))  # a whole number, only below the minimum
+        else:
+            try:
+                return parse_count(str(text), name, minimum)
+            except InvalidParameters as error:
+                raise typer.BadParameter(str(error)) from None
+        if value < minimum:
+            raise typer.BadParameter(f"{name} must be at least {minimum} (got {value})")
+        return value
 
     parse.__name__ = name
     return parse
+
+
+def whole_option(*flags: str, name: str, minimum: int = 0, help: str, **settings) -> typer.models.OptionInfo:
+    """A ``typer.Option`` for a whole number read as ``--balls`` is read (digits, or a power such as ``2^64``).
+
+    Parameters
+    ----------
+    *flags : str
+        The option's flags (``"--size"``).
+    name : str
+        What the number is, in its messages (``"size"``).
+    minimum : int
+        The least value accepted (0 by default).
+    help : str
+        The ``--help`` text.
+    **settings
+        Any other ``typer.Option`` setting (``rich_help_panel``, ``metavar``).
+
+    Returns
+    -------
+    typer.models.OptionInfo
+        For a parameter annotated ``int`` or ``Optional[int]``.
+
+    Notes
+    -----
+    Every whole-number option of the CLI is declared with this (or
+    :func:`count_parser`), so each reads numbers the same way and refuses
+    them with the same one line (see :func:`count_parser`).  Cost: constant.
+    """
+    settings.setdefault("metavar", "INTEGER")
+    return typer.Option(*flags, parser=count_parser(name, minimum), help=help, **settings)
+
 
 Balls = Annotated[
     int,
@@ -119,16 +182,18 @@ RuleOpt = Annotated[
 ]
 Capacity = Annotated[
     Optional[int],
-    typer.Option(
+    whole_option(
         "--capacity",
+        name="capacity",
         help="Uniform upper bound: at most this many balls in every urn (FD: at most 1).",
         rich_help_panel=MODEL_PANEL,
     ),
 ]
 Minimum = Annotated[
     Optional[int],
-    typer.Option(
+    whole_option(
         "--minimum",
+        name="minimum",
         help="Uniform lower bound: at least this many balls in every urn (default 0).",
         rich_help_panel=MODEL_PANEL,
     ),
@@ -202,8 +267,10 @@ Json = Annotated[
 ]
 EventLimit = Annotated[
     Optional[int],
-    typer.Option(
+    whole_option(
         "--limit",
+        name="limit",
+        minimum=1,
         help="dist/prob: the most configurations (or profiles) handled one by one when no exact "
         "shortcut applies; above it the command stops with an error (default 1000000).",
         rich_help_panel=OUTPUT_PANEL,
@@ -232,7 +299,8 @@ def workers_option(help: str, panel: Optional[str] = CLUSTER_PANEL):
     typing.Annotated
         ``Optional[int]`` with its ``typer.Option``, for a parameter's annotation.
     """
-    return Annotated[Optional[int], typer.Option("--workers", min=1, metavar="K", help=help, rich_help_panel=panel)]
+    return Annotated[Optional[int], whole_option("--workers", name="workers", minimum=1, metavar="K", help=help,
+                                                 rich_help_panel=panel)]
 
 
 def cluster_option(help: str, panel: Optional[str] = CLUSTER_PANEL):

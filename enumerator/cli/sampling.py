@@ -21,6 +21,7 @@ from .options import (
     Weights,
     build_problem,
     limits_scope,
+    whole_option,
 )
 from .render import write_sparse, write_vectors
 
@@ -39,10 +40,10 @@ def sample_command(
     minimum: Minimum = None,
     bounds: Bounds = None,
     weights: Weights = None,
-    size: Annotated[int, typer.Option("--size", help="How many configurations to draw.")] = 10,
+    size: Annotated[int, whole_option("--size", name="size", help="How many configurations to draw.")] = 10,
     seed: Annotated[
         Optional[int],
-        typer.Option("--seed", help="Seed (a whole number): the same seed gives the same draws. "
+        whole_option("--seed", name="seed", help="Seed (a whole number): the same seed gives the same draws. "
                      "Default: a fresh random seed (shown in --json)."),
     ] = None,
     fmt: Annotated[
