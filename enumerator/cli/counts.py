@@ -620,7 +620,7 @@ def list_command(
     ] = 0,
     stop: Annotated[
         Optional[int],
-        whole_option("--stop", name="stop", help="Stop before this rank (default: the end)."),
+        whole_option("--stop", name="stop", help="Stop before this rank (default: the end; not before --start)."),
     ] = None,
     fmt: Annotated[
         ListFormat,
@@ -687,6 +687,11 @@ def list_command(
         start = as_count(start, "--start")
         if stop is not None:
             stop = as_count(stop, "--stop")
+            if stop < start:
+                from ..core.errors import InvalidParameters
+
+                raise InvalidParameters(f"--stop {stop} is before --start {start}: the ranks listed are "
+                                        f"[start, stop); give a --stop of at least {start}, or leave it out")
         if limit is not None:
             limit = as_count(limit, "--limit")
             stop = start + limit if stop is None else min(stop, start + limit)
