@@ -18,11 +18,12 @@ from .options import (
     Store,
     cluster_option,
     limits_scope,
+    whole_option,
     workers_option,
 )
 from .render import abbreviate, console, emit_json, exact, plural, show_table
 
-__all__ = ["commands"]
+__all__ = ["commands", "grid_range"]
 
 #: The commands of this module, merged into the root application by :mod:`enumerator.cli.app`.
 commands = typer.Typer()
@@ -60,6 +61,68 @@ UrnsRange = Annotated[
                  rich_help_panel=MODEL_PANEL),
 ]
 TableName = Annotated[str, typer.Argument(help="The table's name (see 'enumerator table list').")]
+
+
+def grid_range(text: str, flag: str, minimum: int = 0, capped: bool = True) -> range:
+    """Read a range of the grid, ``"0..200"`` (both ends included) or one number, each end as ``--balls`` reads it.
+
+    Parameters
+    ----------
+    text : str
+        ``A..B`` or ``A``; each end in digits or as a power (``1..2^10``).
+    flag : str
+        The option, for the messages (``--balls``).
+    minimum : int
+        The least value of the range (1 for urns).
+    capped : bool
+        Refuse more values than a table holds cells (``table build``); a
+        window of ``table show`` is clipped to its table instead.
+
+    Returns
+    -------
+    range
+        ``range(A, B + 1)``.
+
+    Raises
+    ------
+    InvalidParameters
+        A malformed end (the message of
+        :func:`enumerator.core.groups.parse_count`, sized before any power
+        is expanded), an end below *minimum*, or a range that runs backwards.
+    TooLarge
+        *capped* and more values than
+        :data:`enumerator.store.tables.MAX_CELLS`, so nothing downstream
+        meets a range too long to measure.
+
+    Notes
+    -----
+    Cost: linear in the length of *text*.
+
+    Examples
+    --------
+    >>> grid_range("0..2^3", "--balls"), grid_range(" 7 ", "--urns")
+    (range(0, 9), range(7, 8))
+    """
+    from ..core.errors import InvalidParameters, TooLarge
+    from ..core.groups import parse_count
+    from ..store.tables import MAX_CELLS
+
+    parts = str(text).split("..")
+    if len(parts) == 1:
+        first = last = parse_count(parts[0], flag, minimum)
+    elif len(parts) == 2:
+        first = parse_count(parts[0], f"the first end of {flag}", minimum)
+        last = parse_count(parts[1], f"the last end of {flag}", minimum)
+    else:
+        raise InvalidParameters(
+            f"{flag} must be a range like 0..200 (both ends included) or one whole number (got {str(text)[:40]!r})"
+        )
+    if last < first:
+        raise InvalidParameters(f"{flag} range {str(text).strip()!r} runs backwards; write the smaller end first")
+    if capped and last - first + 1 > MAX_CELLS:
+        raise TooLarge(f"{flag} {str(text).strip()} spans {last - first + 1:,} values, more than the "
+                       f"{MAX_CELLS:,} cells a table holds; choose a shorter range")
+    return range(first, last + 1)
 
 
 class TableFormat(str, Enum):
@@ -287,9 +350,9 @@ def table_build_command(
     from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
 
-    from ..store.tables import TableSpec, build_table, parse_range
+    from ..store.tables import TableSpec, build_table
 
-    spec = TableSpec.make(rule, parse_range(balls, "--balls"), parse_range(urns, "--urns"),
+    spec = TableSpec.make(rule, grid_range(balls, "--balls"), grid_range(urns, "--urns", 1),
                           capacity=capacity, minimum=minimum, quantity=quantity)
     distributed = workers is not None or cluster is not None
     if distributed:
@@ -435,19 +498,23 @@ def table_show_command(
 
         $ enumerator table show BE-configurations-n0..200-r1..50 --balls 0..10 --urns 1..5
     """
-    from ..store.tables import load_table, open_table, parse_range
+    from ..store.tables import load_table, open_table
 
     target = _open_store(store)
     spec = open_table(name, store=target).spec
-    rows = parse_range(balls, "--balls") if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
+    rows = grid_range(balls, "--balls", capped=False) if balls else range(spec.balls.start, min(spec.balls.stop, spec.balls.start + 20))
     fit = max(1, min(8, (console().width - 10) // 13))  # value columns that fit the terminal
-    cols = parse_range(urns, "--urns") if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    cols = grid_range(urns, "--urns", 1, capped=False) if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
+    windows = []
     for window, full, flag in ((rows, spec.balls, "--balls"), (cols, spec.urns, "--urns")):
-        if not range(max(window.start, full.start), min(window.stop, full.stop)):
+        inside = range(max(window.start, full.start), min(window.stop, full.stop))
+        if not inside:
             from ..core.errors import InvalidParameters
 
             raise InvalidParameters(f"{flag} {_range_text(window)} is outside the table, which covers "
                                     f"{flag.lstrip('-')} {_range_text(full)}; choose a window inside it")
+        windows.append(inside)  # the part of the window the table covers
+    rows, cols = windows
     # only the window is read (WHERE on n and r), plus one count of the whole table
     data = load_table(name, store=target, balls=rows, urns=cols)
     if as_json:
@@ -592,10 +659,10 @@ def cache_stats_command(store: Store = None, as_json: Json = False) -> None:
 @cache_app.command("verify")
 def cache_verify_command(
     sample: Annotated[
-        int, typer.Option("--sample", help="Recompute this many entries, drawn at random."),
+        int, whole_option("--sample", name="sample", help="Recompute this many entries, drawn at random."),
     ] = 200,
     verify_all: Annotated[bool, typer.Option("--all", help="Recompute every entry.")] = False,
-    seed: Annotated[Optional[int], typer.Option("--seed", help="Seed of the random sample.")] = None,
+    seed: Annotated[Optional[int], whole_option("--seed", name="seed", help="Seed of the random sample.")] = None,
     fix: Annotated[bool, typer.Option("--fix", help="Replace every wrong or damaged entry by the recomputed value.")] = False,
     store: Store = None,
     max_memory: MaxMemory = None,
