@@ -8,12 +8,13 @@ offer ``--store``/``--no-cache``.
 """
 
 import math
+import re
 from fractions import Fraction
 from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope, plot_path
+from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, count_parser, limits_scope, plot_path, whole_option
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -117,7 +118,11 @@ def _listing(contact, splits: Optional[str], summary: bool):
     window = (max(a, low), min(b, high))
     complete = window == (low, high)
     if window[0] > window[1]:
-        return Listing(None, False, True)
+        first_energy, last_energy = contact.energy_of(low), contact.energy_of(high)
+        raise InvalidParameters(
+            f"--splits {splits.strip()} lists no split: E_A runs from {first_energy} to {last_energy}; "
+            f"choose a window inside it, e.g. --splits {first_energy}..{last_energy}"
+        )
     return Listing(window, complete, summary or not complete)
 
 
@@ -134,21 +139,27 @@ def _side_options(side: str):
     dict of str to typer.models.OptionInfo
     """
     panel = f"System {side.upper()}"
+    name = side.upper()
     return {
-        "oscillators": typer.Option(f"--oscillators-{side}", rich_help_panel=panel,
-                                    help=f"{side.upper()} is an Einstein solid of this many oscillators."),
-        "particles": typer.Option(f"--particles-{side}", rich_help_panel=panel, help="Number of particles."),
+        "oscillators": whole_option(f"--oscillators-{side}", name=f"oscillators of {name}", minimum=1,
+                                    rich_help_panel=panel,
+                                    help=f"{name} is an Einstein solid of this many oscillators."),
+        "particles": whole_option(f"--particles-{side}", name=f"particles of {name}", rich_help_panel=panel,
+                                  help="Number of particles."),
         "energies": typer.Option(f"--energies-{side}", rich_help_panel=panel, metavar="E1,E2,...",
                                  help="Level energies."),
         "degeneracies": typer.Option(f"--degeneracies-{side}", rich_help_panel=panel, metavar="G1,G2,...",
                                      help="Level degeneracies (default all 1)."),
         "rule": typer.Option(f"--rule-{side}", rich_help_panel=panel, metavar="MB|BE|FD",
                              help="Rule of this side (default --rule, else MB)."),
-        "capacity": typer.Option(f"--capacity-{side}", rich_help_panel=panel, help="BE: at most this many per state."),
+        "capacity": whole_option(f"--capacity-{side}", name=f"capacity of {name}", minimum=1, rich_help_panel=panel,
+                                 help="BE: at most this many per state."),
         "preset": typer.Option(f"--preset-{side}", rich_help_panel=panel, metavar="NAME",
                                help="harmonic, trap, two-level or einstein."),
-        "levels": typer.Option(f"--levels-{side}", rich_help_panel=panel, help="harmonic/trap: number of levels."),
-        "dimension": typer.Option(f"--dimension-{side}", rich_help_panel=panel, help="trap: dimension."),
+        "levels": whole_option(f"--levels-{side}", name=f"levels of {name}", minimum=1, rich_help_panel=panel,
+                               help="harmonic/trap: number of levels."),
+        "dimension": whole_option(f"--dimension-{side}", name=f"dimension of {name}", minimum=1,
+                                  rich_help_panel=panel, help="trap: dimension."),
         "gap": typer.Option(f"--gap-{side}", rich_help_panel=panel, help="two-level: gap."),
     }
 
@@ -156,14 +167,75 @@ def _side_options(side: str):
 _A = _side_options("a")
 _B = _side_options("b")
 
+#: The library parameters of one side (:func:`enumerator.algorithms.levels.make_system`), each an option ``--NAME-a``/``-b``.
+_SIDE_PARAMETERS = ("oscillators", "particles", "energies", "degeneracies", "rule", "capacity", "preset", "levels",
+                    "dimension", "gap")
+
+
+def _respelled(error, flags: dict, prefix: str = ""):
+    """*error* again, its message naming this command's options (``--particles-a``, not ``--particles``).
+
+    Parameters
+    ----------
+    error : EnumeratorError
+        Raised by the library, naming library parameters (``particles=``).
+    flags : dict of str to str
+        Library parameter -> the option of ``contact`` that sets it.
+    prefix : str
+        Put before a message that names none of *flags* (which side it is about).
+
+    Returns
+    -------
+    EnumeratorError
+        Of the same class; the parameters left to spell (``max_memory``) are
+        kept for the CLI's error wrapper.
+    """
+    text = error.spelled(flags)
+    if not any(name in flags for name in error.parameters):
+        text = prefix + text
+    return type(error)(text, parameters=[name for name in error.parameters if name not in flags])
+
+
+#: The exponent of a decimal such as 1e-3 (sized before Fraction expands it).
+_EXPONENT = re.compile(r"[eE]\s*([+-]?[0-9]+)\s*$")
+
+
+def _check_energy(side_a, side_b, energy: str, flag: str) -> None:
+    """Refuse a negative total energy when no level of either side is negative (it can only be a mistake).
+
+    Raises
+    ------
+    InvalidParameters
+        Naming *flag* (``--energy`` or ``--quanta``): an energy that is not
+        an exact number, or a negative one.
+    """
+    from ..algorithms.levels import parse_rational
+    from ..core.errors import InvalidParameters
+    from ..core.groups import MAX_DIGITS
+
+    text = str(energy).strip()
+    exponent = _EXPONENT.search(text)
+    if len(text) > MAX_DIGITS or (exponent and abs(int(exponent.group(1))) > MAX_DIGITS):
+        # Fraction() would expand 1e999999999 digit by digit
+        raise InvalidParameters(f"{flag} {text[:40]!r} is too long; numbers are limited to {MAX_DIGITS:,} digits")
+    value = parse_rational(text, flag)
+    if value < 0 and side_a.spectrum.lowest >= 0 and side_b.spectrum.lowest >= 0:
+        raise InvalidParameters(f"{flag} must be at least 0 (got {energy}): no level of A or B lies below 0")
+
 
 @commands.command("contact")
 def contact_command(
     energy: Annotated[
-        str,
-        typer.Option("--quanta", "--energy", metavar="E",
-                     help="Total energy shared by A and B (for Einstein solids: the number of quanta)."),
-    ],
+        Optional[str],
+        typer.Option("--energy", metavar="E",
+                     help="Total energy shared by A and B, exact (6, 3/2, 0.5), in the energy unit of the levels."),
+    ] = None,
+    quanta: Annotated[
+        Optional[int],
+        typer.Option("--quanta", metavar="Q", parser=count_parser("quanta", 0),
+                     help="Instead of --energy: the number of quanta shared (Einstein solids, ladders), "
+                     "a whole number >= 0."),
+    ] = None,
     oscillators_a: Annotated[Optional[int], _A["oscillators"]] = None,
     particles_a: Annotated[Optional[int], _A["particles"]] = None,
     energies_a: Annotated[Optional[str], _A["energies"]] = None,
@@ -237,20 +309,36 @@ def contact_command(
         $ enumerator contact --preset-a two-level --gap-a 1/2 --particles-a 6 --preset-b two-level --gap-b 1/2 --particles-b 4 --energy 3/2 --json
     """
     from ..algorithms import levels as lv
+    from ..core.errors import EnumeratorError, InvalidParameters
     from . import render_contact
 
-    side_a = lv.make_system(
-        particles=particles_a, energies=energies_a, degeneracies=degeneracies_a, rule=rule_a or rule,
-        capacity=capacity_a, preset=preset_a, levels=levels_a, dimension=dimension_a, gap=gap_a,
-        oscillators=oscillators_a,
-    )
-    side_b = lv.make_system(
-        particles=particles_b, energies=energies_b, degeneracies=degeneracies_b, rule=rule_b or rule,
-        capacity=capacity_b, preset=preset_b, levels=levels_b, dimension=dimension_b, gap=gap_b,
-        oscillators=oscillators_b,
-    )
+    if (energy is None) == (quanta is None):
+        raise InvalidParameters("give the total energy once: --energy E, or --quanta Q for a number of quanta"
+                                if energy is None else "give --energy or --quanta, not both")
+    flag = "--energy" if quanta is None else "--quanta"
+    energy = energy if quanta is None else str(quanta)
+    sides = []
+    for side, options in (("a", dict(particles=particles_a, energies=energies_a, degeneracies=degeneracies_a,
+                                      rule=rule_a or rule, capacity=capacity_a, preset=preset_a, levels=levels_a,
+                                      dimension=dimension_a, gap=gap_a, oscillators=oscillators_a)),
+                          ("b", dict(particles=particles_b, energies=energies_b, degeneracies=degeneracies_b,
+                                      rule=rule_b or rule, capacity=capacity_b, preset=preset_b, levels=levels_b,
+                                      dimension=dimension_b, gap=gap_b, oscillators=oscillators_b))):
+        flags = {name: f"--{name}-{side}" for name in _SIDE_PARAMETERS}
+        if options["rule"] is not None and (rule_a if side == "a" else rule_b) is None:
+            flags["rule"] = "--rule"  # the rule of both sides
+        try:
+            sides.append(lv.make_system(**options))
+        except EnumeratorError as error:
+            raise _respelled(error, flags, f"system {side.upper()}: ") from None
+    side_a, side_b = sides
+    _check_energy(side_a, side_b, energy, flag)
     with limits_scope(max_memory, max_seconds):
-        result = lv.thermal_contact(side_a, side_b, energy)
+        try:
+            result = lv.thermal_contact(side_a, side_b, energy)
+        except EnumeratorError as error:
+            # the library's energy= and max_energy= are the total energy here
+            raise _respelled(error, {"energy": flag, "max_energy": flag}) from None
     listing = _listing(result, splits, summary)
     if plot is not None:
         render_contact.plot_contact(plot, result, side_a.label, side_b.label)
