@@ -37,3 +37,22 @@ def test_a_unit_step_range_must_reach_its_upper_end():
     points = run_json("levels", "--preset", "harmonic", "--particles", "3", "--rule", "BE",
                       "--temperatures", "0.5..2.5")["canonical"]
     assert [p["temperature"] for p in points] == [0.5, 1.5, 2.5]
+
+
+@pytest.mark.parametrize("temperature", ["1e-4", "1e-5"])
+def test_bosons_far_below_the_first_gap_answer_at_once(temperature):
+    # Ten bosons in the 3D trap at k_B T = 10^-4 and 10^-5 spacings: one particle lifted to the first
+    # rung (3 states, gap 1) carries U - E0 = 3 e^{-1/T} (1 + O(e^{-1/T})) and C = β^2 3 e^{-1/T}
+    # (the Boltzmann factor of the first excited states; common practice).  The precision the
+    # recursion needs (β/ln 2 bits) is asked for at once, not found by doubling.
+    import mpmath
+
+    from enumerator.algorithms.levels import canonical, make_system
+
+    system = make_system(10, preset="trap", rule="BE")
+    (point,) = canonical(system, [temperature], digits=20, levels=2)
+    with mpmath.workdps(30):
+        beta = 1 / mpmath.mpf(temperature)
+        expected = 3 * mpmath.exp(-beta)
+        assert abs(point.excitation_energy_approx / expected - 1) < 1e-15
+        assert abs(point.heat_capacity_approx / (beta**2 * expected) - 1) < 1e-15

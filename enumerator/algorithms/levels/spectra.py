@@ -806,11 +806,32 @@ def _count_up():
 
 
 def temperature_text(temperature: Fraction) -> str:
-    """A temperature for a message: exact when short (``1/10``), else six significant digits (``1.0e-300``).
+    """A temperature for a message, as the user likely wrote it.
 
-    >>> temperature_text(Fraction(1, 10)), temperature_text(Fraction(1, 10**300))
-    ('1/10', '1.0e-300')
+    A terminating decimal of at most 16 characters as a decimal (``0.005``),
+    else an exact fraction of at most 16 characters (``1/3``), else six
+    significant digits (``1.0e-300``).
+
+    >>> temperature_text(Fraction(1, 200)), temperature_text(Fraction(1, 3)), temperature_text(Fraction(1, 10**300))
+    ('0.005', '1/3', '1.0e-300')
+    >>> temperature_text(Fraction(1, 10**6)), temperature_text(Fraction(5)), temperature_text(Fraction(25, 2))
+    ('0.000001', '5', '12.5')
     """
+    rest, places = temperature.denominator, 0
+    for prime in (2, 5):
+        count = 0
+        while rest % prime == 0:
+            rest //= prime
+            count += 1
+        places = max(places, count)
+    if rest == 1:
+        scaled = str(abs(temperature.numerator) * 10**places // temperature.denominator)
+        if places:
+            scaled = scaled.rjust(places + 1, "0")
+            scaled = f"{scaled[:-places]}.{scaled[-places:]}"
+        scaled = "-" + scaled if temperature < 0 else scaled
+        if len(scaled) <= 16:
+            return scaled
     text = str(temperature)
     if len(text) <= 16:
         return text
