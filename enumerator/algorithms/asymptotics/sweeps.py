@@ -246,6 +246,18 @@ def _evaluate_tree(tree, value, tie) -> Fraction:
     return Fraction(math.floor(left / right))
 
 
+#: Most tokens, nesting levels and digits of a number in a parameter expression (:func:`parse_tie`):
+#: the parser and the evaluation recurse along the tree, so both are bounded before any recursion.
+_MOST_TOKENS = 400
+_MOST_DEPTH = 100
+_MOST_DIGITS = 4000  # as for numbers on the command line
+
+
+def _shown(source: str) -> str:
+    """*source* for a message: whole when short, else its start and length."""
+    return repr(source) if len(source) <= 60 else f"the expression {source[:40]!r}... ({len(source)} characters)"
+
+
 def parse_tie(text, variable: Optional[str] = None) -> Tie:
     """Parse a parameter value: an integer or an expression of *variable* (see :class:`Tie`).
 
@@ -298,6 +310,11 @@ def parse_tie(text, variable: Optional[str] = None) -> Tie:
             )
         number, name, op = match.groups()
         column = match.start(match.lastindex) + 1
+        if number is not None and len(number) > _MOST_DIGITS:
+            raise InvalidParameters(
+                f"the number at column {column} of {_shown(source)} has more than {_MOST_DIGITS} digits; "
+                "use smaller numbers"
+            )
         if name is not None and name != variable:
             allowed = f"only {variable} may appear" if variable else "nothing is varied, so only numbers may appear"
             raise InvalidParameters(f"{source!r} mentions {name!r} at column {column}; {allowed}")
@@ -305,7 +322,13 @@ def parse_tie(text, variable: Optional[str] = None) -> Tie:
         position = match.end()
     if not tokens:
         raise InvalidParameters("a parameter value is empty; give a whole number or an expression")
+    if len(tokens) > _MOST_TOKENS:
+        raise InvalidParameters(
+            f"{_shown(source)} has {len(tokens)} tokens, more than the {_MOST_TOKENS} a parameter may have; "
+            "write it shorter"
+        )
     index = 0
+    depth = 0
 
     def peek():
         return tokens[index][0] if index < len(tokens) else ("end", None)
@@ -333,11 +356,17 @@ def parse_tie(text, variable: Optional[str] = None) -> Tie:
         return tree
 
     def unary():
-        nonlocal index
+        nonlocal index, depth
         token = peek()
+        if token in (("op", "-"), ("op", "+"), ("op", "(")):
+            depth += 1
+            if depth > _MOST_DEPTH:
+                raise InvalidParameters(f"{_shown(source)} nests signs and parentheses more than {_MOST_DEPTH} "
+                                        "levels deep; write it flatter")
         if token in (("op", "-"), ("op", "+")):
             index += 1
             inner = unary()
+            depth -= 1
             return ("neg", inner) if token[1] == "-" else inner
         if token[0] in ("int", "name"):
             index += 1
@@ -348,6 +377,7 @@ def parse_tie(text, variable: Optional[str] = None) -> Tie:
             if peek() != ("op", ")"):
                 fail("expected ')'")
             index += 1
+            depth -= 1
             return inner
         fail("expected a number, a name or '('")
 
