@@ -14,7 +14,17 @@ from typing import Annotated, Optional
 
 import typer
 
-from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, count_parser, limits_scope, plot_path, whole_option
+from .options import (
+    OUTPUT_PANEL,
+    Json,
+    MaxMemory,
+    MaxSeconds,
+    count_parser,
+    limits_scope,
+    plot_path,
+    rule_parser,
+    whole_option,
+)
 from .render import emit_json
 
 __all__ = ["commands"]
@@ -150,7 +160,7 @@ def _side_options(side: str):
                                  help="Level energies."),
         "degeneracies": typer.Option(f"--degeneracies-{side}", rich_help_panel=panel, metavar="G1,G2,...",
                                      help="Level degeneracies (default all 1)."),
-        "rule": typer.Option(f"--rule-{side}", rich_help_panel=panel, metavar="MB|BE|FD",
+        "rule": typer.Option(f"--rule-{side}", rich_help_panel=panel, metavar="MB|BE|FD", parser=rule_parser,
                              help="Rule of this side (default --rule, else MB)."),
         "capacity": whole_option(f"--capacity-{side}", name=f"capacity of {name}", minimum=1, rich_help_panel=panel,
                                  help="BE: at most this many per state."),
@@ -258,7 +268,8 @@ def contact_command(
     gap_b: Annotated[Optional[str], _B["gap"]] = None,
     rule: Annotated[
         Optional[str],
-        typer.Option("--rule", metavar="MB|BE|FD", help="Rule of both systems unless --rule-a/--rule-b say otherwise."),
+        typer.Option("--rule", metavar="MB|BE|FD", parser=rule_parser,
+                     help="Rule of both systems unless --rule-a/--rule-b say otherwise."),
     ] = None,
     summary: Annotated[
         bool,

@@ -61,6 +61,7 @@ __all__ = [
     "count_parser",
     "limits_scope",
     "parse_config",
+    "rule_parser",
     "store_scope",
     "whole_option",
 ]
@@ -114,6 +115,33 @@ def count_parser(name: str, minimum: int):
 
     parse.__name__ = name
     return parse
+
+
+def rule_parser(text) -> str:
+    """A typer ``parser`` checking a rule's name (``MB``, ``BE``, ``FD``, any case) at parse time.
+
+    Parameters
+    ----------
+    text : str
+        The option's text.
+
+    Returns
+    -------
+    str
+        *text* unchanged (the model reads it).
+
+    Raises
+    ------
+    typer.BadParameter
+        Another name; printed as one line naming the option the user typed
+        (``--rule``, ``--rule-a``), with the message of
+        :meth:`enumerator.core.rules.Rule.parse`.
+    """
+    try:
+        Rule.parse(text)
+    except InvalidParameters as error:
+        raise typer.BadParameter(str(error)) from None
+    return text if isinstance(text, str) else Rule.parse(text).value
 
 
 def whole_option(*flags: str, name: str, minimum: int = 0, help: str, **settings) -> typer.models.OptionInfo:
@@ -173,6 +201,7 @@ RuleOpt = Annotated[
     typer.Option(
         "--rule",
         metavar="MB|BE|FD",
+        parser=rule_parser,
         help="Counting rule. MB: distinguishable balls, each assignment of balls to urns "
         "equally likely. BE: identical balls, each occupancy vector equally likely. "
         "FD: identical balls, at most one per urn, each occupancy vector equally likely. "
@@ -514,7 +543,8 @@ def limits_scope(max_memory: Optional[str] = None, max_seconds: Optional[float] 
     Parameters
     ----------
     max_memory : str or None
-        A size such as ``512M`` or ``8G`` (bytes without a suffix).
+        A size such as ``512M`` or ``8G`` (bytes without a suffix, or as a
+        power such as ``2^30``).
     max_seconds : float or None
         Seconds.
 
@@ -543,7 +573,13 @@ def limits_scope(max_memory: Optional[str] = None, max_seconds: Optional[float] 
     memory = None
     if max_memory is not None:
         try:
-            memory = parse_size(max_memory, "max_memory=")
+            if "^" in max_memory:  # a number of bytes as a power, read as --balls reads one
+                memory = parse_count(max_memory, "max_memory=", 1)
+                if memory >= 2 ** 80:
+                    raise InvalidParameters(f"max_memory= {max_memory!r} is beyond any machine; "
+                                            "give a size such as 512M, 8G or 2^40")
+            else:
+                memory = parse_size(max_memory, "max_memory=")
         except InvalidParameters as error:
             raise InvalidParameters(str(error), parameters=["max_memory"]) from None
     if max_seconds is not None and not (0 < max_seconds < float("inf")):

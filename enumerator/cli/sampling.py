@@ -31,6 +31,15 @@ __all__ = ["commands"]
 commands = typer.Typer()
 
 
+def _method(text) -> str:
+    """Check ``--method`` at parse time against the library's methods, so a typo names the option."""
+    from ..algorithms.sampling import METHODS
+
+    if text not in METHODS:
+        raise typer.BadParameter(f"method must be one of {', '.join(METHODS)} (got {text!r})")
+    return text
+
+
 @commands.command("sample")
 def sample_command(
     balls: Balls,
@@ -58,6 +67,7 @@ def sample_command(
         Optional[str],
         typer.Option(
             "--method",
+            parser=_method,
             metavar="stars-and-bars|subset|uniform-balls|rejection|sequential",
             help="Force one exact method where it applies (same law; the default picks the fastest).",
         ),

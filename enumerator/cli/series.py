@@ -37,9 +37,21 @@ Upto = Annotated[
     typer.Option("--upto", metavar="N", parser=count_parser("upto", 0),
                  help="Last degree (number of balls) of the coefficient row."),
 ]
+def _variable(text) -> str:
+    """Check ``--var`` at parse time, so a bad name is a usage error naming the option."""
+    from ..algorithms.expressions import symbol
+    from ..core.errors import InvalidParameters
+
+    try:
+        symbol(str(text), "var")
+    except InvalidParameters as error:
+        raise typer.BadParameter(str(error)) from None
+    return str(text)
+
+
 Var = Annotated[
     str,
-    typer.Option("--var", help="Name of the variable of the generating function."),
+    typer.Option("--var", parser=_variable, help="Name of the variable of the generating function."),
 ]
 
 
