@@ -219,3 +219,32 @@ def test_json_of_contact_by_quanta_and_by_energy_agree():
     by_quanta = run_json("contact", *EINSTEIN, "--quanta", 6)
     assert by_quanta == run_json("contact", *EINSTEIN, "--energy", 6)
     assert by_quanta["total"] == str(math.comb(11, 6))
+
+
+# --------------------------------------------------------------------------
+# Names checked when the options are read, so the error names the option
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    "args, option",
+    [
+        (["count", *MODEL, "--no-cache", "--rule", "XY"], "--rule"),
+        (["table", "build", "--balls", "0..2", "--urns", "1..2", "--rule", "XY"], "--rule"),
+        (["contact", *EINSTEIN, "--quanta", 3, "--rule-b", "XY"], "--rule-b"),
+        (["contact", *EINSTEIN, "--quanta", 3, "--rule", "XY"], "--rule"),
+        (["sample", *MODEL, "--method", "bogus"], "--method"),
+        (["gf", *MODEL, "--no-cache", "--var", "1x"], "--var"),
+        (["coeff", "1/(1-x)", "--var", "x y"], "--var"),
+        (["count", *MODEL, "--no-cache", "--max-memory", "2^0-1"], "--max-memory"),
+        (["count", *MODEL, "--no-cache", "--max-memory", "2^1000"], "--max-memory"),
+        (["count", *MODEL, "--no-cache", "--max-memory", "2^99999999"], "--max-memory"),
+    ],
+)
+def test_a_bad_name_or_size_is_one_line_naming_the_option(args, option):
+    assert re.search(rf"(?<![\w-]){re.escape(option)}(?![\w-])", one_line_error(run(*args)))
+
+
+def test_max_memory_reads_a_power_of_bytes():
+    # 2^10 bytes is 1K (arithmetic): the same refusal, naming the same limit
+    args = ["count", "-n", 100_000, "-r", 100_000, "--capacity", 3, "--rule", "BE", "--no-cache", "--max-memory"]
+    assert one_line_error(run(*args, "2^10")) == one_line_error(run(*args, "1K"))
+    assert run_json("count", *MODEL, "--no-cache", "--max-memory", "2^30")["microstates"] == str(3 ** 5)
