@@ -300,22 +300,44 @@ def _law_cost(system: System, temperature: Fraction, bits: int) -> Cost:
     accumulators, the kernel's FLINT polynomials and the products of the
     divide and conquer; doubled with the majorant of alternating weights);
     seconds ``1.2`` times the products of ``log2 N`` levels plus ``8 N``
-    small products, plus ``4e-5`` s per particle for the mpmath sums.
+    products of the base loops (CPython integers, a *bits*-bit kernel value
+    times a ``size``-bit sum: :func:`_python_product_seconds`, times 1.3),
+    plus ``4e-5`` s per particle for the mpmath sums.  The base loops
+    dominate at high precision: they were priced at GMP's rate before,
+    which said 0.71 s where 1000 bosons at ``T = 5`` and 10000 digits take
+    4.0 s.
 
     Measured (``occupation_law`` of level 0 of the BE trap, 15 digits
     unless said; CPU time, peak RSS above the start, 2 cores under a load of
     4-5; ``N, k_B T``: measured, estimate): 2000, 10: 0.15 s, 6.7 MB (0.20 s,
     7.5 MB); 8000, 10: 0.78 s, 38 MB (1.3 s, 48 MB); 8000, 10, 200 digits:
-    1.05 s, 43 MB; 20000, 10: 2.5 s, 105 MB (4.6 s, 150 MB); 20000, 40:
-    27 s, 886 MB (44 s, 1.5 GB).  The estimate before (the integers at
-    *bits* bits) said 0.19 s and 2 MB at 20000, 40.
+    1.05 s, 43 MB (1.9 s, 54 MB); 20000, 10: 2.5 s, 105 MB (4.6 s, 150 MB);
+    20000, 40: 27 s, 886 MB (44 s, 1.5 GB).  The estimate before (the
+    integers at *bits* bits) said 0.19 s and 2 MB at 20000, 40.  At high
+    precision (load 2-4; CPU time only): 1000, 5, 1000 digits: 0.27 s
+    (0.23 s); 1000, 5, 3000 digits: 0.82 s (0.85 s); 1000, 5, 10000
+    digits: 4.0 s (4.8 s); 5000, 5, 3000 digits: 4.1 s (4.7 s); FD 100, 3,
+    10000 digits: 0.66 s (0.90 s).
     """
     n = max(system.particles, 1)
     size = bits + ln_partition_bound(system.spectrum, n, temperature) / math.log(2)
     sequences = 1 if system.capacity is None else 2
-    seconds = sequences * 1.2 * (2 * max(1, n.bit_length()) * product_seconds(n * size)
-                                 + 8 * n * product_seconds(size)) + 4e-5 * n
+    seconds = sequences * (1.2 * 2 * max(1, n.bit_length()) * product_seconds(n * size)
+                           + 1.3 * 8 * n * _python_product_seconds(bits, size)) + 4e-5 * n
     return Cost(seconds=seconds, memory=9 * sequences * (n + 1) * bigint_bytes(size))
+
+
+def _python_product_seconds(a: float, b: float) -> float:
+    """CPU seconds of one CPython ``int`` product of an *a*-bit and a *b*-bit number.
+
+    CPython multiplies its own integers by Karatsuba, ``O(m^1.585)`` for
+    ``m``-bit factors (not GMP's FFT): measured 1.5 us at 1000 bits, 65 us
+    at 10^4, 416 us at 34000, 1.2 ms at 70000 (CPU time, 2 cores under a
+    load of 2-4), ``2.7e-11 m^1.585``; an unbalanced product is about
+    ``max/min`` balanced ones of the shorter size.
+    """
+    lo, hi = max(min(a, b), 64.0), max(a, b, 64.0)
+    return 2e-7 + hi / lo * 2.7e-11 * lo ** 1.585
 
 
 def _binomial_law(system: System, index: int, e_l: int, g: int, power):
