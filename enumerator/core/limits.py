@@ -284,8 +284,15 @@ def limited(memory=None, seconds=None) -> Iterator[Limits]:
         _active.reset(token)
 
 
-def _size_text(value: float) -> str:
-    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+def size_text(value: float) -> str:
+    """A number of bytes in its largest decimal unit, up to exabytes, beyond them in powers of ten.
+
+    >>> size_text(512), size_text(4 * 2**30), size_text(6.4e22), size_text(2e25)
+    ('512 bytes', '4.3 GB', '64000.0 EB', '2.0e+25 bytes')
+    """
+    if value >= 1e23:
+        return f"{value:.1e} bytes"
+    for unit, scale in (("EB", 1e18), ("PB", 1e15), ("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
         if value >= scale:
             return f"{value / scale:.1f} {unit}"
     return f"{int(value)} bytes"
@@ -328,8 +335,8 @@ def check(cost: Cost, what: str, *, advice: str = "make the problem smaller",
     limits = active_limits()
     if cost.memory > limits.memory:
         raise TooLarge(
-            f"{what} would need about {_size_text(cost.memory)} of memory, above the limit of "
-            f"{_size_text(limits.memory)}; raise max_memory= (or {ENV_MAX_MEMORY}), or {advice}",
+            f"{what} would need about {size_text(cost.memory)} of memory, above the limit of "
+            f"{size_text(limits.memory)}; raise max_memory= (or {ENV_MAX_MEMORY}), or {advice}",
             parameters=("max_memory", *parameters),
         )
     if cost.seconds > limits.seconds:

@@ -526,14 +526,7 @@ class TablePlan:
     def describe(self) -> str:
         """One phrase for messages: ``"building table T (40,100 cells to compute, about 28.0 MB in the store)"``."""
         return (f"building table {self.name} ({self.cells:,} cells to compute, about "
-                f"{_size_text(self.store_bytes_approx)} in the store)")
-
-
-def _size_text(value: float) -> str:
-    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
-        if value >= scale:
-            return f"{value / scale:.1f} {unit}"
-    return f"{int(value)} bytes"
+                f"{limits.size_text(self.store_bytes_approx)} in the store)")
 
 
 def _log2_factorials(k):
@@ -848,8 +841,8 @@ def check_table_plan(plan: TablePlan, store=None) -> None:
     free = _free_bytes(store)
     if free is not None and plan.store_bytes_approx > free[0]:
         raise TooLarge(
-            f"{plan.describe()} would need about {_size_text(plan.store_bytes_approx)} of disk, more than the "
-            f"{_size_text(free[0])} free in {free[1]}; narrow balls= or urns=, free space there, or choose "
+            f"{plan.describe()} would need about {limits.size_text(plan.store_bytes_approx)} of disk, more than the "
+            f"{limits.size_text(free[0])} free in {free[1]}; narrow balls= or urns=, free space there, or choose "
             "another store=",
             parameters=["balls", "urns", "store"],
         )
