@@ -120,6 +120,15 @@ def test_occupation_above_the_listed_rungs(n, temperature, levels):
     assert abs(p.occupation_above_approx - q.occupation_above_approx) <= p.errors["occupations"] + 1e-28 * n
 
 
+@pytest.mark.parametrize("energies, degeneracies, n, levels", [("0,1,2,3,4", "2,2,2,2,2", 4, 2),
+                                                            ("2,0,1,1,3", "1,2,2,1,3", 3, 3)])
+def test_occupation_above_the_listed_levels_of_a_finite_spectrum(energies, degeneracies, n, levels):
+    """Reference: brute-force enumeration of every microstate (above): N less the listed occupations."""
+    (p,) = fermion_canonical(make_spectrum(energies, degeneracies), n, ["1"], digits=20, levels=levels)
+    ref = brute_force(energies.split(","), [int(g) for g in degeneracies.split(",")], n, "1")
+    assert abs(p.occupation_above_approx - total(ref["occ"][levels:])) <= 1e-19
+
+
 def test_closed_shell_969_low_temperature():
     """969 fermions fill the 3D-trap shells 0..16 (from memory: Σ (e+1)(e+2)/2 = C(19, 3))."""
     (p,) = fermion_canonical(harmonic_trap(), 969, ["1/100"], digits=15)

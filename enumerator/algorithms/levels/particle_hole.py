@@ -652,6 +652,12 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
             occ_err = max(occ_err, g * (_rad(f) + eta[0]))
         if spectrum.ladder is None:
             above_listed = zero
+            if report < len(spectrum.energies):
+                # The particles in the unlisted levels: N less the listed ones (absolute errors add).
+                kept = arb(n) - sum((g * per_state[e] for e, g in
+                                     zip(spectrum.energies[:report], spectrum.degeneracies[:report])), arb(0))
+                above_listed = _mpf(kept)
+                occ_err = max(occ_err, _rad(kept) + n * eta[0])
         else:
             # Particles in the unlisted shells: those below P and P one by
             # one, those above P as all particles above P (Σ_p p P_p e_p / Z)
