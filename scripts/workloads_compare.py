@@ -31,7 +31,7 @@
 * ``empty-law-split-10^5``: the point of ``empty-law-point-10^5`` as
   :func:`~enumerator.algorithms.asymptotics.formulas.empty_urns_at_most`
   computes it (the sum split between this process and a forked child when
-  its estimate is 2 s or more and two cores are free) against the same sum
+  its estimate is 1 s or more and two cores are free) against the same sum
   in one process (``formulas._exclusion_sum(..., processes=1)``, the route
   before the split), the same final division.  Elapsed times: the split
   saves no CPU time, so the gain needs two free cores.  ``--quick``:

@@ -246,11 +246,14 @@ def _exclusion_seconds(n: int, r: int, j: int) -> float:
         return 1e-6
     bits = max(64.0, n * math.log2(max(r, 2)))
     primes = top / math.log(top) if top > 2 else 1.0  # about pi(K) full powers P^n, one per prime
-    # measured (loaded machine, 2 cores shared), r = n/2, j = floor(r e^-2): 10^5 balls (K = 43,233)
-    # 37 s CPU, 3*10^4: 2.7 s, 10^4: 0.2 s, that is 10.5, 8.4 and 5.5 products at the rate of
-    # core.limits per prime; 16 per prime keeps the estimate above them.  The second term is the
-    # coefficient of each base: a product of a number of _coefficient_bits by a short one, and a division.
-    return primes * 16 * limits.product_seconds(bits) + top * 4 * limits.product_seconds(_coefficient_bits(r, j))
+    # measured CPU in one process (2 cores shared, load 3-5), r = n/2, j = floor(r e^-2): 5000 balls
+    # 0.04 s, 10^4 0.16 s, 2*10^4 0.72 s, 3*10^4 1.8-2.4 s, 6*10^4 9.5 s, 10^5 (K = 43,233) 24-37 s:
+    # 0.6 to 0.9 products of core.limits.multiply_seconds per prime (its power P^n is about 0.45 of
+    # the work, the products by coefficients and cofactors the rest); one product per prime keeps
+    # the estimate above them, within 2x.  The second term is the coefficient of each base: a product
+    # of a number of _coefficient_bits by a short one, and a division.  Split between two processes
+    # (_exclusion_sum), the CPU time is the same.
+    return primes * limits.multiply_seconds(bits) + top * 4 * limits.product_seconds(_coefficient_bits(r, j))
 
 
 def _coefficient_bits(r: int, j: int) -> float:
@@ -323,9 +326,9 @@ def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     and two products of ``n log2 r`` bits.  Inclusion–exclusion (:func:`_exclusion_sum`) takes one
     full power ``P^n`` of ``n log2 r`` bits and about one product of that
     size per prime ``P <= K = r - j - 1`` (about ``K / ln K`` of them; the
-    rest are products by shorter powers), rated at sixteen products of
-    :func:`~enumerator.core.limits.product_seconds` per prime (measured:
-    5.5 to 10.5 on a loaded machine from ``10^4`` to ``10^5`` balls), plus a
+    rest are products by shorter powers), rated at one product of
+    :func:`~enumerator.core.limits.multiply_seconds` per prime (measured:
+    0.6 to 0.9 on a loaded machine from ``5000`` to ``10^5`` balls), plus a
     short product per term for its binomial coefficient.  Memory: a few
     dozen ``n log2 r``-bit numbers (the powers in the runs of
     :func:`_exclusion_sum`), the powers ``Q^n`` of the primes
@@ -521,7 +524,7 @@ def _exclusion_sum(n: int, r: int, j: int, processes=None):
     grouping (:class:`_ExclusionSum`): the smooth bases with the smaller
     primes ``P``, and the larger primes, split where the rated costs are
     equal (:meth:`_ExclusionSum.halves`).  When the estimate
-    (:func:`_exclusion_seconds`) is 2 s or more and two cores are free to
+    (:func:`_exclusion_seconds`) is 1 s or more and two cores are free to
     this process, the second part is computed in a forked child while
     this process computes the first (*processes* ``= 1`` or ``2`` forces
     the choice); without ``fork`` (or with other threads running, or a
@@ -547,11 +550,11 @@ def _exclusion_sum(n: int, r: int, j: int, processes=None):
 
 
 #: The estimated seconds (:func:`_exclusion_seconds`) from which :func:`_exclusion_sum` works in two processes.
-_TWO_PROCESSES_SECONDS = 2.0
+_TWO_PROCESSES_SECONDS = 1.0
 
 
 def _two_processes(n: int, r: int, j: int) -> bool:
-    """Whether :func:`_exclusion_sum` works in two processes: two cores, and an estimate of 2 s or more."""
+    """Whether :func:`_exclusion_sum` works in two processes: two cores, and an estimate of 1 s or more."""
     return r - j - 1 >= 1 and _exclusion_seconds(n, r, j) >= _TWO_PROCESSES_SECONDS and _cores() >= 2
 
 
