@@ -524,14 +524,14 @@ def _exclusion_sum(n: int, r: int, j: int, processes=None):
     grouping (:class:`_ExclusionSum`): the smooth bases with the smaller
     primes ``P``, and the larger primes, split where the rated costs are
     equal (:meth:`_ExclusionSum.halves`).  When the estimate
-    (:func:`_exclusion_seconds`) is 1 s or more and two cores are free to
-    this process, the second part is computed in a forked child while
+    (:func:`_exclusion_seconds`) is 1 s or more and this process may run
+    on two cores or more, the second part is computed in a forked child while
     this process computes the first (*processes* ``= 1`` or ``2`` forces
     the choice); without ``fork`` (or with other threads running, or a
     child that fails) both parts are computed here.  The answer is the same
     integer either way.  The powers ``P^n`` are almost half the work and
     cannot be shared between primes, so the CPU time is what it was and
-    the elapsed time about half of it.
+    the elapsed time, on two free cores, about half of it.
 
     Source of the sum: W. Feller, vol. 1, 3rd ed., 1968, §IV.2; Horner's
     rule: D. E. Knuth, *The Art of Computer Programming*, vol. 2, 3rd ed.,
