@@ -248,3 +248,26 @@ def test_max_memory_reads_a_power_of_bytes():
     args = ["count", "-n", 100_000, "-r", 100_000, "--capacity", 3, "--rule", "BE", "--no-cache", "--max-memory"]
     assert one_line_error(run(*args, "2^10")) == one_line_error(run(*args, "1K"))
     assert run_json("count", *MODEL, "--no-cache", "--max-memory", "2^30")["microstates"] == str(3 ** 5)
+
+
+@pytest.mark.parametrize(
+    "args, option",
+    [
+        (["--energies-a", "0,1e99999999", "--particles-a", 1], "--energies-a"),
+        (["--energies-a", "0,1", "--degeneracies-a", "1,1e99999999999999999999", "--particles-a", 1],
+         "--degeneracies-a"),
+        (["--preset-a", "two-level", "--gap-a", "1e-99999999", "--particles-a", 1], "--gap-a"),
+    ],
+)
+def test_contact_refuses_numbers_too_long_to_read_before_reading_them(args, option):
+    # 1e99999999 would be expanded by Fraction into 10^8 digits (minutes); refused at once
+    line = one_line_error(run("contact", *args, "--oscillators-b", 2, "--quanta", 3))
+    assert option in line and "limited to 4,000 digits" in line
+
+
+def test_contact_reads_a_decimal_exponent_exactly():
+    # Brute force: one particle on levels 0 and 15 (1.5e1) beside 2 oscillators sharing 16 quanta:
+    # E_A = 0 leaves 16 quanta, C(17, 1) = 17 ways; E_A = 15 leaves 1 quantum, 2 ways (stars and bars)
+    payload = run_json("contact", "--energies-a", "0,1.5e1", "--particles-a", 1, "--oscillators-b", 2,
+                       "--energy", 16)
+    assert {e: v for e, v in payload["split"].items() if v != "0"} == {"0": "17", "15": "2"}

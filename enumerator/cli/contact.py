@@ -8,7 +8,6 @@ offer ``--store``/``--no-cache``.
 """
 
 import math
-import re
 from fractions import Fraction
 from typing import Annotated, Optional
 
@@ -19,6 +18,7 @@ from .options import (
     Json,
     MaxMemory,
     MaxSeconds,
+    check_exact_numbers,
     count_parser,
     limits_scope,
     plot_path,
@@ -206,10 +206,6 @@ def _respelled(error, flags: dict, prefix: str = ""):
     return type(error)(text, parameters=[name for name in error.parameters if name not in flags])
 
 
-#: The exponent of a decimal such as 1e-3 (sized before Fraction expands it).
-_EXPONENT = re.compile(r"[eE]\s*([+-]?[0-9]+)\s*$")
-
-
 def _check_energy(side_a, side_b, energy: str, flag: str) -> None:
     """Refuse a negative total energy when no level of either side is negative (it can only be a mistake).
 
@@ -221,14 +217,9 @@ def _check_energy(side_a, side_b, energy: str, flag: str) -> None:
     """
     from ..algorithms.levels import parse_rational
     from ..core.errors import InvalidParameters
-    from ..core.groups import MAX_DIGITS
 
     text = str(energy).strip()
-    exponent = _EXPONENT.search(text)
-    if len(text) > MAX_DIGITS or (exponent and abs(int(exponent.group(1))) > MAX_DIGITS):
-        # Fraction() would expand 1e999999999 digit by digit
-        raise InvalidParameters(f"{flag} {text[:40]!r} is too long; numbers are limited to {MAX_DIGITS:,} digits")
-    value = parse_rational(text, flag)
+    value = parse_rational(check_exact_numbers(text, flag), flag)
     if value < 0 and side_a.spectrum.lowest >= 0 and side_b.spectrum.lowest >= 0:
         raise InvalidParameters(f"{flag} must be at least 0 (got {energy}): no level of A or B lies below 0")
 
@@ -336,6 +327,8 @@ def contact_command(
                                       rule=rule_b or rule, capacity=capacity_b, preset=preset_b, levels=levels_b,
                                       dimension=dimension_b, gap=gap_b, oscillators=oscillators_b))):
         flags = {name: f"--{name}-{side}" for name in _SIDE_PARAMETERS}
+        for name in ("energies", "degeneracies", "gap"):
+            check_exact_numbers(options[name], flags[name])
         if options["rule"] is not None and (rule_a if side == "a" else rule_b) is None:
             flags["rule"] = "--rule"  # the rule of both sides
         try:

@@ -58,6 +58,7 @@ __all__ = [
     "Workers",
     "build_model",
     "build_problem",
+    "check_exact_numbers",
     "count_parser",
     "limits_scope",
     "parse_config",
@@ -634,6 +635,56 @@ def store_scope(location: Optional[str], no_cache: bool) -> Iterator[None]:
 
 
 _WHOLE = re.compile(r"[+-]?\d+")
+#: The exponent of a decimal such as 1e-3, in any item of a list.
+_EXPONENT = re.compile(r"[eE]\s*([+-]?[0-9]+)")
+
+
+def check_exact_numbers(text: Optional[str], flag: str) -> Optional[str]:
+    """Refuse exact numbers too long to read (``1e999999999``) in *text*, before anything expands them.
+
+    Parameters
+    ----------
+    text : str or None
+        One number or a comma-separated list (``--energies``, ``--gap``,
+        ``--energy``); ``None`` is passed through.
+    flag : str
+        The option, for the message.
+
+    Returns
+    -------
+    str or None
+        *text* unchanged.
+
+    Raises
+    ------
+    InvalidParameters
+        An item longer than :data:`enumerator.core.groups.MAX_DIGITS`
+        characters, or with a decimal exponent beyond it: ``Fraction``
+        would expand ``1e999999999`` into a billion digits.
+
+    Notes
+    -----
+    The numbers themselves are read by the library; this only sizes them,
+    as :func:`count_parser` sizes a power.  Cost: linear in the length of
+    *text*.
+
+    Examples
+    --------
+    >>> check_exact_numbers("0,1/2,2.5e3", "--energies")
+    '0,1/2,2.5e3'
+    """
+    from ..core.groups import MAX_DIGITS
+
+    if text is None:
+        return None
+    for position, item in enumerate(str(text).split(","), start=1):
+        item = item.strip()
+        exponent = _EXPONENT.search(item)
+        if len(item) > MAX_DIGITS or (exponent and (len(exponent.group(1)) > 12
+                                                    or abs(int(exponent.group(1))) > MAX_DIGITS)):
+            which = f"{flag} {item[:40]!r}" if "," not in str(text) else f"item {position} of {flag} ({item[:40]!r})"
+            raise InvalidParameters(f"{which} is too long to read exactly; numbers are limited to {MAX_DIGITS:,} digits")
+    return text
 
 
 def parse_config(text: str):
