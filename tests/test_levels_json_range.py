@@ -110,3 +110,21 @@ def test_occupation_law_far_below_the_double_range():
     doubles = json.loads(line)["canonical"][0]["occupation_law_approx"]
     assert doubles["0"] == 0.0 and doubles[str(n)] == float(law[str(n)])
     assert '"0": 1.13548386531473' in line
+
+
+def test_table_cells_beyond_the_double_range_keep_their_digits():
+    """Reference: mpmath's own decimal form at 6 digits; inside the range format(float(x), ".6g") as before."""
+    from fractions import Fraction
+
+    from enumerator.cli.render import float_cell
+
+    with mpmath.workdps(30):
+        tiny = mpmath.exp(-10000)
+        assert float_cell(tiny) == mpmath.nstr(tiny, 6) == "1.13548e-4343"
+    assert float_cell(Fraction(1, 10**500)) == "1e-500"  # float() made it 0.0
+    assert float_cell(Fraction(10**400)) == "1e+400" and float_cell(-(10**400)) == "-1e+400"  # float() raised
+    for x in (0.125, 1e-300, 123456789.0, 0, Fraction(1, 3)):
+        assert float_cell(x) == format(float(x), ".6g")
+    assert float_cell(None) == "-"
+    big = json_float(Fraction(10**400, 3))
+    assert isinstance(big, JsonNumber) and mpmath.mpf(big.text) == pytest.approx(mpmath.mpf(10) ** 400 / 3, rel=1e-16)

@@ -162,7 +162,7 @@ def json_float(x, significant: int = 17):
 
     Parameters
     ----------
-    x : float, int, mpmath number or None
+    x : float, int, Fraction, mpmath number or None
         ``None`` stays ``None``.
     significant : int
         Significant digits of a value written as text (17: as many as a
@@ -190,12 +190,16 @@ def json_float(x, significant: int = 17):
     """
     if x is None:
         return None
-    f = float(x)
+    try:
+        f = float(x)
+    except OverflowError:  # an int or Fraction beyond the range
+        f = math.inf if x > 0 else -math.inf
     if (f == 0 and x == 0) or (math.isfinite(f) and abs(f) >= sys.float_info.min):
         return f
     import mpmath
 
-    value = mpmath.mpf(x)
+    with mpmath.workdps(significant + 10):
+        value = mpmath.mpf(x.numerator) / x.denominator if isinstance(x, Fraction) else mpmath.mpf(x)
     if not mpmath.isfinite(value):
         return f
     # mpmath writes such a value in exponent form, correctly rounded: '1.2345678901234567e-500'.
@@ -290,9 +294,22 @@ def float_cell(x) -> str:
     Returns
     -------
     str
-        ``format(float(x), ".6g")``, or ``"-"`` when *x* is None.
+        ``format(float(x), ".6g")``, or ``"-"`` when *x* is None; a value
+        beyond the double range (an mpmath number of 1e-4343, which
+        ``float`` makes 0.0) in the same form from its own digits.
+
+    Examples
+    --------
+    >>> import mpmath
+    >>> float_cell(0.125), float_cell(None), float_cell(mpmath.exp(-10000))
+    ('0.125', '-', '1.13548e-4343')
     """
-    return "-" if x is None else f"{float(x):.6g}"
+    if x is None:
+        return "-"
+    cell = json_float(x, 6)
+    if isinstance(cell, JsonNumber):  # as .6g writes it: no trailing zeros, no bare point
+        return re.sub(r"\.?0*e", "e", cell.text) if "." in cell.text else cell.text
+    return f"{cell:.6g}"
 
 
 #: The message of :func:`pyplot` when matplotlib is missing.
