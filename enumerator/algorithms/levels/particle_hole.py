@@ -92,7 +92,7 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.limits import Cost, check
 from ...core.model import as_count
 from ...core.rules import Rule
-from .spectra import Spectrum, System, parse_digits, parse_temperature
+from .spectra import Spectrum, System, parse_digits, parse_temperature, temperature_text
 
 __all__ = ["FermionPoint", "fermion_canonical", "fermion_cost"]
 
@@ -802,7 +802,7 @@ def _arguments(spectrum, particles, temperatures, digits):
 
 
 def _what(n: int, temps: List[Fraction], digits: int) -> str:
-    at = f"T = {temps[0]}" if len(temps) == 1 else f"{len(temps)} temperatures"
+    at = f"T = {temperature_text(temps[0])}" if len(temps) == 1 else f"{len(temps)} temperatures"
     return f"the particle-hole sums of {n} fermions at {at} to {digits} digits"
 
 
