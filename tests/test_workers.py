@@ -66,3 +66,37 @@ def test_the_command_line_refuses_zero_processes():
     result = run("levels", "--preset", "trap", "--particles", "5", "--rule", "BE", "--temperatures", "1,2",
                  "--processes", "0")
     assert result.exit_code == 2 and result.stderr.count("\n") == 1 and "--processes" in result.stderr
+
+
+def test_the_maximum_load_law_shared_among_processes_equals_one_process(monkeypatch):
+    # MB 300 balls in 20 urns: every A_m = #(max <= m) by the plan's steps in two processes against one;
+    # the suffix sums above n/2 against the closed form r^n - r sum_{s>m} C(n,s)(r-1)^(n-s) (Feller,
+    # vol. 1, ch. IV, inclusion-exclusion with one term).
+    from math import comb
+
+    from enumerator.algorithms import extremes
+    from enumerator.core.workers import processes
+
+    monkeypatch.setattr(extremes, "PROCESSES_AFTER_SECONDS", 0.0)
+    with processes(1):
+        alone = extremes.mb_max_cumulative(300, 20, 300)
+    with processes(2):
+        shared = extremes.mb_max_cumulative(300, 20, 300)
+    assert alone == shared
+    m = 200
+    assert shared[m] == 20**300 - 20 * sum(comb(300, s) * 19 ** (300 - s) for s in range(m + 1, 301))
+
+
+def test_the_process_count_comes_from_a_block_or_the_environment(monkeypatch):
+    from enumerator.core.errors import InvalidParameters
+    from enumerator.core.workers import ENV_PROCESSES, active_processes, processes
+
+    monkeypatch.setenv(ENV_PROCESSES, "3")
+    assert active_processes() == 3
+    with processes(1):
+        assert active_processes() == 1
+    monkeypatch.setenv(ENV_PROCESSES, "none")
+    with pytest.raises(InvalidParameters, match=ENV_PROCESSES):
+        active_processes()
+    result = run("levels", "--preset", "trap", "--particles", "5", "--rule", "BE", "--temperatures", "1,2")
+    assert result.exit_code == 2 and result.stderr.count("\n") == 1 and ENV_PROCESSES in result.stderr

@@ -26,6 +26,7 @@ import gmpy2
 from flint import fmpz, fmpz_poly
 
 from ..core import series
+from ..core.workers import active_processes, map_in_processes
 from .group_rows import capped_levels
 
 __all__ = ["be_max_cumulative", "mb_at_least", "mb_capped_moments", "mb_max_cumulative", "mb_max_estimate", "poly_dot"]
@@ -208,15 +209,28 @@ def mb_max_estimate(n: int, r: int, top: int) -> Tuple[float, int]:
         return 0.0, 0
     bits = n * math.log2(r)
     plan = _mb_max_plan(n, r, lo, min(top, n // 2 - 1))
-    units = sum(step[3] for step in plan)
-    per_unit = max(0.16, 1.45e-5 * bits - 0.03) * 1e-6
+    seconds, longest = _plan_seconds(n, r, plan)
+    workers = _plan_processes(n, r, plan)
+    if workers > 1:  # shared out longest first: at most the even share plus the longest step
+        seconds = min(seconds, seconds / workers + longest)
     kept = 0
     for m, D, miller, _ in plan:
         if not miller and D > 1:
             T = min(r, n // (m + 1))
             kept = max(kept, sum(min(n - t * (m + 1) + 1, t * (D - 1) + 1) for t in range(T + 1)))
     numbers = (min(top, n) - lo + 1) + 2 * (n + 1) + kept
-    return units * per_unit + n * (1 + bits / 4000) * 2e-7, numbers * (int(bits // 8) + 32)
+    memory = numbers * (int(bits // 8) + 32)
+    if workers > 1:  # each process holds two level rows and its own kept tails; the answers come back here
+        memory += (workers - 1) * (2 * (n + 1) + kept) * (int(bits // 8) + 32)
+    return seconds + n * (1 + bits / 4000) * 2e-7, memory
+
+
+def _plan_seconds(n: int, r: int, plan) -> Tuple[float, float]:
+    """``(total, longest)`` seconds of the steps of *plan* (see :func:`mb_max_estimate` for the rate)."""
+    bits = n * math.log2(r)
+    per_unit = max(0.16, 1.45e-5 * bits - 0.03) * 1e-6
+    units = [step[3] for step in plan]
+    return sum(units) * per_unit, max(units, default=0.0) * per_unit
 
 
 def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
@@ -274,24 +288,52 @@ def mb_max_cumulative(n: int, r: int, top: int) -> Dict[int, "mpz"]:
                 A[s] = total - r * suffix
             suffix += term
             term = divexact(term * s * (r - 1), n - s + 1)
-    for m, D, miller, _ in _mb_max_plan(n, r, lo, min(top, half - 1)):
-        if miller:
-            A[m] = _mb_miller(n, r, m)
-            continue
-        value, tails = _mb_max_levels(n, r, m, lambda t, D=D: t * max(D - 1, 0) + 1)
-        A[m] = value
-        if D:
-            vtails = []
-            for t, tail in enumerate(tails):
-                K = n - t * (m + 1)
-                row = []
-                falling = mpz(1)
-                for i, v in enumerate(tail):
-                    row.append(falling * v)
-                    falling *= K - i
-                vtails.append(row)
-            for d in range(1, D + 1):
-                A[m + d] = _mb_max_extend(n, r, m, d, vtails)
+    plan = _mb_max_plan(n, r, lo, min(top, half - 1))
+    steps = [(n, r, m, D, miller) for m, D, miller, _ in plan]
+    workers = _plan_processes(n, r, plan)
+    if workers > 1:
+        # the longest steps first, so that the last ones to finish are short (LPT scheduling)
+        order = sorted(range(len(steps)), key=lambda i: -plan[i][3])
+        for part in map_in_processes(_plan_step, [steps[i] for i in order], workers):
+            A.update(part)
+    else:
+        for step in steps:
+            A.update(_plan_step(step))
+    return A
+
+
+#: Estimated seconds above which :func:`mb_max_cumulative` shares its plan's steps among local processes.
+PROCESSES_AFTER_SECONDS = 2.0
+
+
+def _plan_processes(n: int, r: int, plan) -> int:
+    """Processes for *plan* (:func:`~enumerator.core.workers.active_processes` when its estimate is long, else 1)."""
+    workers = min(active_processes(), len(plan))
+    if workers <= 1:
+        return 1
+    seconds, _ = _plan_seconds(n, r, plan)
+    return workers if seconds > PROCESSES_AFTER_SECONDS else 1
+
+
+def _plan_step(step) -> Dict[int, "mpz"]:
+    """One step ``(n, r, m, D, miller)`` of the plan: ``{m: A_m}``, or the levels at ``m`` and ``D`` extensions."""
+    n, r, m, D, miller = step
+    if miller:
+        return {m: _mb_miller(n, r, m)}
+    value, tails = _mb_max_levels(n, r, m, lambda t: t * max(D - 1, 0) + 1)
+    A = {m: value}
+    if D:
+        vtails = []
+        for t, tail in enumerate(tails):
+            K = n - t * (m + 1)
+            row = []
+            falling = mpz(1)
+            for i, v in enumerate(tail):
+                row.append(falling * v)
+                falling *= K - i
+            vtails.append(row)
+        for d in range(1, D + 1):
+            A[m + d] = _mb_max_extend(n, r, m, d, vtails)
     return A
 
 

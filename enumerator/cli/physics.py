@@ -13,7 +13,7 @@ from typing import Annotated, Optional
 import typer
 
 from ..core.errors import InvalidParameters, TooLarge
-from ..core.workers import available_cores
+from ..core.workers import active_processes
 from .app import FLAGS
 from .options import OUTPUT_PANEL, Json, MaxMemory, MaxSeconds, limits_scope, plot_option
 from .render import emit_json
@@ -168,7 +168,7 @@ def levels_command(
     processes: Annotated[
         Optional[int],
         _levels_opt("--processes", "Compute the temperatures side by side in up to this many local processes "
-                    "(default: the cores this process may use; 1: one after the other). They start when the "
+                    "(default: $ENUMERATOR_PROCESSES, else the cores this process may use; 1: one after the other). They start when the "
                     "lowest temperature alone took over a quarter of a second; the answers are those of "
                     "separate calls for groups of neighbouring temperatures.", _THERMO, "P"),
     ] = None,
@@ -269,7 +269,7 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
         if report is None and max_energy is None and not system.spectrum.finite:
             report = _default_report(lv, system, temps)
         points = lv.canonical(system, temps, digits=digits, levels=report, route=route,
-                              processes=available_cores() if processes is None else processes)
+                              processes=active_processes() if processes is None else processes)
         if occupation_law is not None:
             laws = [None] * len(temps)
             floats = [i for i, x in enumerate(factors) if x is None]

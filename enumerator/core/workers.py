@@ -4,7 +4,10 @@ Some answers are lists of independent pieces that each take a second or more
 (the canonical ensemble at forty temperatures, say).  :func:`map_in_processes`
 computes them in worker processes on this machine, one piece per task, the
 results back in order; :func:`available_cores` says how many cores this
-process may use.  This is for pieces inside one call; spreading whole tables
+process may use, and :func:`active_processes` how many an algorithm may take
+(``$ENUMERATOR_PROCESSES``, else the cores; a :func:`processes` block sets it
+for the work inside, as :func:`~enumerator.core.limits.limited` does for the
+limits).  This is for pieces inside one call; spreading whole tables
 and enumerations over a Dask cluster is :mod:`enumerator.store.cluster`.
 
 The limits in force (:func:`~enumerator.core.limits.active_limits`) travel to
@@ -17,11 +20,19 @@ the order of the pieces.
 from __future__ import annotations
 
 import os
-from typing import Callable, List, Sequence, TypeVar
+from contextlib import contextmanager
+from contextvars import ContextVar
+from typing import Callable, Iterator, List, Optional, Sequence, TypeVar
 
+from .errors import InvalidParameters
 from .limits import Limits, active_limits, limited
 
-__all__ = ["available_cores", "map_in_processes"]
+__all__ = ["ENV_PROCESSES", "active_processes", "available_cores", "map_in_processes", "processes"]
+
+#: Environment variable: most local processes one computation may use (default: the cores available).
+ENV_PROCESSES = "ENUMERATOR_PROCESSES"
+
+_active: ContextVar[Optional[int]] = ContextVar("enumerator_processes", default=None)
 
 T = TypeVar("T")
 R = TypeVar("R")
@@ -37,6 +48,46 @@ def available_cores() -> int:
         return max(1, len(os.sched_getaffinity(0)))
     except (AttributeError, OSError):  # not on Linux
         return max(1, os.cpu_count() or 1)
+
+
+def _whole_count(value, name: str) -> int:
+    try:
+        count = int(str(value).strip())
+    except ValueError:
+        count = 0
+    if count < 1:
+        raise InvalidParameters(f"{name} must be a whole number of processes, at least 1 (got {value!r})")
+    return count
+
+
+def active_processes() -> int:
+    """Most local processes a computation here may use.
+
+    A :func:`processes` block's value, else ``$ENUMERATOR_PROCESSES``, else
+    :func:`available_cores`; always 1 inside a daemonic process (a Dask
+    worker or a pool's worker, which may not start processes of its own).
+    """
+    import multiprocessing
+
+    if multiprocessing.current_process().daemon:
+        return 1
+    chosen = _active.get()
+    if chosen is not None:
+        return chosen
+    text = os.environ.get(ENV_PROCESSES, "").strip()
+    if text:
+        return _whole_count(text, ENV_PROCESSES)
+    return available_cores()
+
+
+@contextmanager
+def processes(count) -> Iterator[int]:
+    """Within the block, computations use at most *count* local processes (1: none besides this one)."""
+    token = _active.set(_whole_count(count, "processes"))
+    try:
+        yield _active.get()
+    finally:
+        _active.reset(token)
 
 
 def _run(task):
@@ -73,11 +124,14 @@ def map_in_processes(func: Callable[[T], R], items: Sequence[T], workers: int) -
     workers, plus about 0.1 s to start them and the pickling of items and
     results.
     """
+    import multiprocessing  # here, not at import: the command line starts faster without them
+
     items = list(items)
     workers = max(1, min(int(workers), len(items)))
+    if multiprocessing.current_process().daemon:
+        workers = 1  # a daemonic process (a Dask worker, a pool's worker) may not start processes
     if workers == 1:
         return [func(item) for item in items]
-    import multiprocessing  # here, not at import: the command line starts faster without them
     from concurrent.futures import ProcessPoolExecutor
 
     limits = active_limits()
