@@ -160,6 +160,18 @@ def test_list_stop_before_start_is_refused():
     assert run_json("list", *MODEL, "--start", 5, "--stop", 5)["listed"] == "0"
 
 
+def test_list_start_past_the_end_is_refused_with_the_count():
+    # MB with 5 balls in 3 urns: C(7, 2) = 21 vectors (stars and bars), ranks 0..20
+    total = math.comb(7, 2)
+    assert run_json("list", *MODEL, "--start", total)["listed"] == "0"  # the end itself: empty
+    assert run_json("list", *MODEL, "--start", total - 1)["listed"] == "1"
+    for extra in ([], ["--sparse"], ["--json"]):
+        line = one_line_error(run("list", *MODEL, "--start", total + 1, *extra))
+        assert f"--start {total + 1} is past the end" in line and f"at most {total}" in line
+    # FD: 5 balls cannot fit in 2 urns, so any start past 0 is past the end
+    assert "admits no configuration" in one_line_error(run("list", "-n", 5, "-r", 2, "--rule", "FD", "--start", 1))
+
+
 def test_contact_negative_quanta_or_energy_is_refused():
     line = one_line_error(run("contact", *EINSTEIN, "--quanta", -1))
     assert "'--quanta'" in line and "at least 0" in line

@@ -692,6 +692,16 @@ def list_command(
 
                 raise InvalidParameters(f"--stop {stop} is before --start {start}: the ranks listed are "
                                         f"[start, stop); give a --stop of at least {start}, or leave it out")
+        if start:
+            from ..algorithms.counting import count_configurations  # the pure count: no store
+            from ..core.errors import InvalidParameters
+
+            total = count_configurations(model)  # kept per model, so the listing's own count is free
+            if start > total:
+                raise InvalidParameters(f"--start {start} is past the end: the listing has {total} "
+                                        f"configurations (ranks 0 to {total - 1}); give a --start of at most {total}"
+                                        if total else f"--start {start} is past the end: {model} admits no "
+                                        "configuration, so there is nothing to list")
         if limit is not None:
             limit = as_count(limit, "--limit")
             stop = start + limit if stop is None else min(stop, start + limit)
