@@ -283,3 +283,11 @@ def test_contact_reads_a_decimal_exponent_exactly():
     payload = run_json("contact", "--energies-a", "0,1.5e1", "--particles-a", 1, "--oscillators-b", 2,
                        "--energy", 16)
     assert {e: v for e, v in payload["split"].items() if v != "0"} == {"0": "17", "15": "2"}
+
+
+def test_contact_splits_k_reads_a_power_and_a_window_is_sized():
+    # 2^1+1 = 3 (arithmetic): the three splits around the peak, the same as --splits 3
+    args = ("contact", "--oscillators-a", 30, "--oscillators-b", 30, "--quanta", 60)
+    assert run_json(*args, "--splits", "2^1+1") == run_json(*args, "--splits", 3)
+    assert list(run_json(*args, "--splits", 3)["split"]) == ["29", "30", "31"]  # symmetric solids peak at 30
+    assert "--splits" in one_line_error(run(*args, "--splits", "1e99999999..2"))  # not expanded by Fraction

@@ -105,12 +105,12 @@ def _listing(contact, splits: Optional[str], summary: bool):
     try:
         if ".." in text:
             # energies in the user's unit; the window holds the grid points between them
-            first, last = (Fraction(v.strip()) for v in text.split("..", 1))
+            first, last = (Fraction(check_exact_numbers(v.strip(), "--splits")) for v in text.split("..", 1))
             a, b = math.ceil(first / unit), math.floor(last / unit)
         else:
-            count = int(text)
-            if count < 1:
-                raise ValueError
+            from ..core.groups import parse_count
+
+            count = parse_count(text, "--splits", 1)  # digits or a power; InvalidParameters is a ValueError
             peak = contact.most_probable if contact.most_probable is not None else low
             a = max(low, peak - (count - 1) // 2)
             b = min(high, a + count - 1)
