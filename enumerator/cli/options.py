@@ -10,11 +10,15 @@ into an :class:`~enumerator.facade.Occupancy`, :func:`store_scope` applies
 ``--max-memory``/``--max-seconds``, and :func:`parse_config` reads an
 occupancy vector.
 
-``--balls`` and ``--urns`` are read digit by digit, or as a power ``B^E``
-with an optional ``+K``/``-K`` (:func:`enumerator.core.groups.parse_count`):
-any size (``2^64`` urns and beyond) reaches the model as an ``int``, and text
-such as ``1e999999999``, ``2^99999999`` or a number of millions of digits is
-refused before it is expanded.
+``--balls``, ``--urns`` and every other whole-number option (declared with
+:func:`whole_option` or :func:`count_parser`) are read digit by digit, or as a
+power ``B^E`` with an optional ``+K``/``-K``
+(:func:`enumerator.core.groups.parse_count`): any size (``2^64`` urns and
+beyond) reaches the model as an ``int``, and text such as ``1e999999999``,
+``2^99999999`` or a number of millions of digits is refused before it is
+expanded, in one line naming the option.  Names (``--rule``) are checked
+when read (:func:`rule_parser`), and exact numbers that the library reads
+with ``Fraction`` are sized first (:func:`check_exact_numbers`).
 
 Importing this module is cheap (typer only): the store is imported when a
 command enters :func:`store_scope`.
