@@ -30,12 +30,15 @@
   both finish and the ratio is measured.  ``--quick``: ``n = 5000``.
 * ``empty-law-split-10^5``: the point of ``empty-law-point-10^5`` as
   :func:`~enumerator.algorithms.asymptotics.formulas.empty_urns_at_most`
-  computes it (the sum split between this process and a forked child when
-  its estimate is 1 s or more and two cores are free) against the same sum
-  in one process (``formulas._exclusion_sum(..., processes=1)``, the route
-  before the split), the same final division.  Elapsed times: the split
-  saves no CPU time, so the gain needs two free cores.  ``--quick``:
-  ``n = 2*10^4``, the smallest point of the sweep that is split.
+  computes it (the sum split between this process and forked children,
+  one per core up to 8, when its estimate is 1 s or more) against the same
+  sum in one process (``formulas._exclusion_sum(..., processes=1)``, the
+  route before the split), the same final division.  Elapsed times: the
+  split saves no CPU time, so the gain needs free cores (measured
+  2026-12-02 on 2 cores under a load of 4-5 from other work, medians of 3
+  interleaved runs: one process 29.5 s CPU, two processes 14.5 s + 15.2 s
+  CPU and no shorter in elapsed time, since no core was free).
+  ``--quick``: ``n = 2*10^4``, the smallest point of the sweep that is split.
 
 In ``--quick`` mode the two sweeps report plain seconds: estimating the earlier exact
 side alone takes longer than the sweeps themselves.
@@ -190,10 +193,10 @@ def register(bench) -> None:
             whole = gmpy2.mpz(r) ** n
             return over_prime_power(whole + formulas._exclusion_sum(n, r, j, processes=1), whole, power_primes(r, n))
 
-        split = formulas._two_processes(n, r, j)
-        return ctx.compare(Method("enumerator empty_urns_at_most" + (" (two processes)" if split else ""), ours),
+        split = formulas._processes(n, r, j)
+        return ctx.compare(Method(f"enumerator empty_urns_at_most ({split} process{'es' if split > 1 else ''})", ours),
                            [Method("the same sum in one process", one_process)],
-                           notes=[f"n = {n:,}, r = {r:,}, j = {j:,}: " + ("split between two processes" if split
+                           notes=[f"n = {n:,}, r = {r:,}, j = {j:,}: " + (f"split between {split} processes" if split > 1
                                                                          else "not split (one core, or small)")])
 
     @bench.workload("empty-law-point-3*10^4",

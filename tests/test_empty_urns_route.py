@@ -134,28 +134,33 @@ def test_planner_takes_inclusion_exclusion_near_the_mean(monkeypatch):
     assert value == Fraction(r**n + _feller_sum(n, r, j), r**n)
 
 
+@pytest.mark.parametrize("processes", [2, 3, 8])
 @pytest.mark.parametrize("n,r,j", [(3000, 1500, 203), (2000, 1000, 135), (1200, 1500, 400), (300, 150, 20),
                                    (40, 20, 3), (12, 10, 0), (5, 3, 0)])
-def test_two_processes_give_feller_sum(n, r, j):
-    # the part computed in a forked child and the part computed here add up to the sum term by term
+def test_several_processes_give_feller_sum(n, r, j, processes):
+    # the parts computed in forked children and the part computed here add up to the sum term by term
     assert threading.active_count() == 1  # else the fork is (rightly) not taken and this tests one process
-    assert formulas._exclusion_sum(n, r, j, processes=2) == _feller_sum(n, r, j), (n, r, j)
+    assert formulas._exclusion_sum(n, r, j, processes=processes) == _feller_sum(n, r, j), (n, r, j)
 
 
-def test_the_split_shares_the_work(monkeypatch):
-    # both processes get primes to do, and the sum is taken in two processes once the estimate is large
+def test_the_cuts_share_the_work(monkeypatch):
+    # every part gets primes to do, and the sum is split once the estimate is large, one process per core
     terms = formulas._ExclusionSum(30000, 15000, 2030)
-    assert 0 < terms.halves() < len(terms.primes)
+    for parts in (2, 3, 8):
+        cuts = terms.bounds(parts)
+        assert cuts[0] == 0 and cuts[-1] == len(terms.primes) and len(cuts) == parts + 1
+        assert cuts[0] <= cuts[1] and all(a < b for a, b in zip(cuts[1:], cuts[2:]))  # only the first may lack primes
     calls = []
-    real = formulas._in_two_processes
-    monkeypatch.setattr(formulas, "_in_two_processes", lambda *a: calls.append(a) or real(*a))
+    real = formulas._in_processes
+    monkeypatch.setattr(formulas, "_in_processes", lambda parts: calls.append(len(parts)) or real(parts))
     monkeypatch.setattr(formulas, "_exclusion_seconds", lambda n, r, j: 100.0)
-    monkeypatch.setattr(formulas, "_cores", lambda: 2)
-    assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
-    assert len(calls) == 1
+    for cores, expected in ((2, [2]), (3, [2, 3]), (64, [2, 3, 8])):
+        monkeypatch.setattr(formulas, "_cores", lambda cores=cores: cores)
+        assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
+        assert calls == expected
     monkeypatch.setattr(formulas, "_cores", lambda: 1)
     assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
-    assert len(calls) == 1
+    assert calls == [2, 3, 8]
 
 
 def test_a_child_that_dies_leaves_its_part_here(tmp_path):
@@ -163,29 +168,29 @@ def test_a_child_that_dies_leaves_its_part_here(tmp_path):
 
     def there():
         if os.getpid() != parent:
-            (tmp_path / "child ran").touch()
+            (tmp_path / f"child {os.getpid()} ran").touch()
             os._exit(3)
         return 5
 
-    assert formulas._in_two_processes(there, lambda: 7) == 12
-    assert (tmp_path / "child ran").exists()
+    assert formulas._in_processes([lambda: 7, there, there]) == 17
+    assert len(list(tmp_path.iterdir())) == 2  # both children ran (and died)
 
 
-def test_an_error_in_the_child_is_raised_here_without_a_traceback_there(capfd):
+def test_an_error_in_a_child_is_raised_here_without_a_traceback_there(capfd):
     def there():
         raise ValueError("part failed")
 
     with pytest.raises(ValueError, match="part failed"):
-        formulas._in_two_processes(there, lambda: 7)
+        formulas._in_processes([lambda: 7, lambda: 1, there])
     assert "Traceback" not in capfd.readouterr().err
 
 
-def test_without_fork_both_parts_are_computed_here(monkeypatch):
+def test_without_fork_every_part_is_computed_here(monkeypatch):
     monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
     assert formulas._exclusion_sum(2000, 1000, 135, processes=2) == _feller_sum(2000, 1000, 135)
     monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["fork"])
     monkeypatch.setattr(multiprocessing.get_context("fork").Process, "start", _refuse_start)
-    assert formulas._exclusion_sum(2000, 1000, 135, processes=2) == _feller_sum(2000, 1000, 135)
+    assert formulas._exclusion_sum(2000, 1000, 135, processes=3) == _feller_sum(2000, 1000, 135)
 
 
 def _refuse_start(self):
