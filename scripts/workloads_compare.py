@@ -30,10 +30,11 @@
   both finish and the ratio is measured.  ``--quick``: ``n = 5000``.
 * ``empty-law-split-10^5``: the point of ``empty-law-point-10^5`` as
   :func:`~enumerator.algorithms.asymptotics.formulas.empty_urns_at_most`
-  computes it (the sum split between this process and forked children,
-  one per core up to 8, when its estimate is 1 s or more) against the same
-  sum in one process (``formulas._exclusion_sum(..., processes=1)``, the
-  route before the split), the same final division.  Elapsed times: the
+  computes it (the sum cut in parts computed by worker processes, as many
+  as ``core.workers.active_processes()`` allows up to 8, when its estimate
+  is 1 s or more) against the same sum in one process
+  (``formulas._exclusion_sum(..., processes=1)``, the route before the
+  split), the same final division.  Elapsed times: the
   split saves no CPU time, so the gain needs free cores (measured
   2026-12-02 on 2 cores under a load of 4-5 from other work, medians of 3
   interleaved runs: one process 29.5 s CPU, two processes 14.5 s + 15.2 s

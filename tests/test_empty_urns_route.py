@@ -16,9 +16,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import multiprocessing
-import os
-import threading
 from fractions import Fraction
 
 import pytest
@@ -29,6 +26,7 @@ from sympy.functions.combinatorial.numbers import stirling
 from enumerator import TooLarge
 from enumerator.algorithms.asymptotics import formulas
 from enumerator.core.limits import limited
+from enumerator.core.workers import processes
 
 
 def _feller_sum(n, r, j):
@@ -138,60 +136,45 @@ def test_planner_takes_inclusion_exclusion_near_the_mean(monkeypatch):
 @pytest.mark.parametrize("n,r,j", [(3000, 1500, 203), (2000, 1000, 135), (1200, 1500, 400), (300, 150, 20),
                                    (40, 20, 3), (12, 10, 0), (5, 3, 0)])
 def test_several_processes_give_feller_sum(n, r, j, processes):
-    # the parts computed in forked children and the part computed here add up to the sum term by term
-    assert threading.active_count() == 1  # else the fork is (rightly) not taken and this tests one process
+    # the parts computed by worker processes add up to the sum term by term
     assert formulas._exclusion_sum(n, r, j, processes=processes) == _feller_sum(n, r, j), (n, r, j)
 
 
-def test_the_cuts_share_the_work(monkeypatch):
-    # every part gets primes to do, and the sum is split once the estimate is large, one process per core
+def test_the_cuts_share_the_work():
+    # every part after the first has primes to do (the first holds the smooth bases), and the parts cover them all
     terms = formulas._ExclusionSum(30000, 15000, 2030)
     for parts in (2, 3, 8):
         cuts = terms.bounds(parts)
         assert cuts[0] == 0 and cuts[-1] == len(terms.primes) and len(cuts) == parts + 1
-        assert cuts[0] <= cuts[1] and all(a < b for a, b in zip(cuts[1:], cuts[2:]))  # only the first may lack primes
+        assert cuts[0] <= cuts[1] and all(a < b for a, b in zip(cuts[1:], cuts[2:]))
+    assert terms.marks is None  # cutting needs the primes only
+
+
+def test_processes_as_many_as_allowed_once_the_estimate_is_a_second(monkeypatch):
+    # the sum is split once the estimate reaches 1 s, in as many parts as active_processes() allows (at most 8),
+    # and the estimate of the route is shared out among them
     calls = []
-    real = formulas._in_processes
-    monkeypatch.setattr(formulas, "_in_processes", lambda parts: calls.append(len(parts)) or real(parts))
+    real = formulas.map_in_processes
+    monkeypatch.setattr(formulas, "map_in_processes", lambda f, parts, w: calls.append((len(parts), w)) or real(f, parts, w))
+    n, r, j = 500, 250, 33
+    assert formulas._exclusion_sum(n, r, j) == _feller_sum(n, r, j) and calls == []  # 0.01 s estimated
     monkeypatch.setattr(formulas, "_exclusion_seconds", lambda n, r, j: 100.0)
-    for cores, expected in ((2, [2]), (3, [2, 3]), (64, [2, 3, 8])):
-        monkeypatch.setattr(formulas, "_cores", lambda cores=cores: cores)
-        assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
-        assert calls == expected
-    monkeypatch.setattr(formulas, "_cores", lambda: 1)
-    assert formulas._exclusion_sum(500, 250, 33) == _feller_sum(500, 250, 33)
-    assert calls == [2, 3, 8]
+    with processes(1):
+        one = formulas.empty_urns_cost(10**4, 5000, 676)
+    for allowed, expected in ((1, 1), (2, 2), (3, 3), (64, 8)):
+        calls.clear()
+        with processes(allowed):
+            assert formulas._exclusion_sum(n, r, j) == _feller_sum(n, r, j)
+            cost = formulas.empty_urns_cost(10**4, 5000, 676)
+        assert calls == ([(expected, expected)] if expected > 1 else [])
+        assert cost.seconds <= one.seconds / expected + 0.2 and cost.memory == expected * one.memory
 
 
-def test_a_child_that_dies_leaves_its_part_here(tmp_path):
-    parent = os.getpid()
-
-    def there():
-        if os.getpid() != parent:
-            (tmp_path / f"child {os.getpid()} ran").touch()
-            os._exit(3)
-        return 5
-
-    assert formulas._in_processes([lambda: 7, there, there]) == 17
-    assert len(list(tmp_path.iterdir())) == 2  # both children ran (and died)
-
-
-def test_an_error_in_a_child_is_raised_here_without_a_traceback_there(capfd):
-    def there():
+def test_an_error_in_a_part_is_raised_here(monkeypatch):
+    # the workers are forked after the patch, so the part they compute raises
+    def refuse(self, lo, hi, smooth):
         raise ValueError("part failed")
 
+    monkeypatch.setattr(formulas._ExclusionSum, "part", refuse)
     with pytest.raises(ValueError, match="part failed"):
-        formulas._in_processes([lambda: 7, lambda: 1, there])
-    assert "Traceback" not in capfd.readouterr().err
-
-
-def test_without_fork_every_part_is_computed_here(monkeypatch):
-    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
-    assert formulas._exclusion_sum(2000, 1000, 135, processes=2) == _feller_sum(2000, 1000, 135)
-    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["fork"])
-    monkeypatch.setattr(multiprocessing.get_context("fork").Process, "start", _refuse_start)
-    assert formulas._exclusion_sum(2000, 1000, 135, processes=3) == _feller_sum(2000, 1000, 135)
-
-
-def _refuse_start(self):
-    raise OSError("no more processes")
+        formulas._exclusion_sum(2000, 1000, 135, processes=2)

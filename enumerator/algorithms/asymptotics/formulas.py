@@ -15,9 +15,7 @@ r"""The formulas the catalogue is built from: exact sides, Stirling's series, si
 from __future__ import annotations
 
 import bisect
-import functools
 import math
-import os
 from fractions import Fraction
 from typing import List, Sequence, Tuple, Union
 
@@ -30,6 +28,7 @@ from ...core.errors import InvalidParameters
 from ...core.exact import coprime_fraction
 from ...core.limits import Cost
 from ...core.model import as_count
+from ...core.workers import active_processes, map_in_processes
 from ..counting import over_prime_power, power_primes
 
 __all__ = [
@@ -335,22 +334,23 @@ def empty_urns_cost(balls: int, urns: int, at: int) -> Cost:
     dozen ``n log2 r``-bit numbers (the powers in the runs of
     :func:`_exclusion_sum`), the powers ``Q^n`` of the primes
     ``Q <= sqrt(K)`` (half that size each on average), and one
-    coefficient of ``log2(r C(r-1, j)) + K`` bits at most per 64 bases;
-    as much again for each child process when the sum is split
-    (:func:`_exclusion_sum`).  The seconds are CPU seconds: split in ``c``
-    processes, the elapsed time is about a ``c``-th of them on ``c`` free
-    cores.
+    coefficient of ``log2(r C(r-1, j)) + K`` bits at most per 64 bases.
+    When the sum is split between ``w`` worker processes
+    (:func:`_exclusion_sum`), the seconds are ``1/w`` of these (the parts
+    have equal rated costs; measured 14.5 s and 15.2 s of CPU for 29.5 s in
+    one process) plus 0.2 s to start them, and the memory ``w`` times.
     """
     if at >= urns:
         return Cost(seconds=1e-6, memory=64)
     bits, stirling, exclusion = _empty_routes(balls, urns, at)
+    workers = _processes(balls, urns, at) if exclusion < stirling else 1
     top = max(0, urns - at - 1)
     root = math.isqrt(top)
     small = root / math.log(root) if root > 2 else 1.0
     # measured: 2.5 MB above the start for 3*10^4 balls in 15,000 urns (numbers of 51 KB)
     memory = (48 + small / 2) * limits.bigint_bytes(bits) + (top // 64 + 1) * limits.bigint_bytes(_coefficient_bits(urns, at))
-    if exclusion < stirling:
-        memory *= _processes(balls, urns, at)  # each child has a working set of its own (tables copied on write)
+    if workers > 1:  # parts of equal rated cost side by side, each worker with its tables and working set
+        return Cost(seconds=exclusion / workers + _WORKERS_START_SECONDS, memory=workers * memory)
     return Cost(seconds=min(stirling, exclusion), memory=memory)
 
 
@@ -377,25 +377,34 @@ class _ExclusionSum:
     ``sqrt(K)``, increasing), plus, with ``smooth``, those of the bases with
     no prime factor above ``sqrt(K)`` (``k = 1`` included).  The parts of a
     partition of ``range(len(primes))`` add up to the whole sum, exactly, in
-    any grouping; the tables (coefficient marks, smallest prime factors,
-    powers of the primes up to ``sqrt(K)``) are built once, before any part.
+    any grouping.  The smallest prime factors are tabled at once (the
+    primes are needed to cut the parts, :meth:`bounds`); the coefficient
+    marks and the powers of the primes up to ``sqrt(K)`` on the first
+    :meth:`part`, once.
     """
 
     def __init__(self, n: int, r: int, j: int):
-        mpz = gmpy2.mpz
         self.n, self.r, self.j = n, r, j
         top = self.top = r - j - 1
-        step = self.step = 64
-        scaled = r * gmpy2.comb(r - 1, j)  # r C(r-1, j) = r! / (j! K!)
-        marks = self.marks = [scaled]
-        for base in range(0, top - step + 1, step):  # r C(r-1, j) C(K, base + step), one step at a time
-            marks.append(gmpy2.divexact(marks[-1] * math.prod(range(top - base - step + 1, top - base + 1)),
-                                        math.prod(range(base + 1, base + step + 1))))
+        self.step = 64
         spf = self.spf = _smallest_factor_table(top)
         self.root = math.isqrt(top)
         self.small = [q for q in range(2, self.root + 1) if spf[q] == q]
-        self.power = {q: mpz(q) ** n for q in self.small if q > 2}
         self.primes = [p for p in range(self.root + 1, top + 1) if spf[p] == p]
+        self.marks = self.power = None
+
+    def _tables(self):
+        """The coefficient marks ``r C(r-1, j) C(K, 64 i)`` and the powers ``Q^n``, ``2 < Q <= sqrt(K)``."""
+        if self.marks is not None:
+            return
+        n, r, j, top, step = self.n, self.r, self.j, self.top, self.step
+        scaled = r * gmpy2.comb(r - 1, j)  # r C(r-1, j) = r! / (j! K!)
+        marks = [scaled]
+        for base in range(0, top - step + 1, step):  # r C(r-1, j) C(K, base + step), one step at a time
+            marks.append(gmpy2.divexact(marks[-1] * math.prod(range(top - base - step + 1, top - base + 1)),
+                                        math.prod(range(base + 1, base + step + 1))))
+        self.power = {q: gmpy2.mpz(q) ** n for q in self.small if q > 2}
+        self.marks = marks
 
     def coefficient(self, k: int):
         """``(-1)^(r-k+j) c_k``, from the nearest mark by one short product and one exact division."""
@@ -446,6 +455,7 @@ class _ExclusionSum:
     def part(self, lo: int, hi: int, smooth: bool):
         """The terms of the bases whose largest prime is ``primes[lo:hi]``, and of the smooth ones if *smooth*."""
         mpz = gmpy2.mpz
+        self._tables()
         n, top, power = self.n, self.top, self.power
         total = mpz(0)
         if smooth:
@@ -536,16 +546,15 @@ def _exclusion_sum(n: int, r: int, j: int, processes=None):
     any grouping (:class:`_ExclusionSum`): the smooth bases with the
     smallest primes ``P``, then ranges of larger primes, cut where the
     rated costs are equal (:meth:`_ExclusionSum.bounds`).  When the
-    estimate (:func:`_exclusion_seconds`) is 1 s or more and this process
-    may run on ``c >= 2`` cores, the sum is cut in ``min(c, 8)`` parts, all
-    but the first computed in forked children while this process computes
-    the first (:func:`_in_processes`; *processes* forces the number);
-    without ``fork`` (or with other threads running, or a child that fails)
-    the parts are computed here.  The answer is the same integer either
-    way.  The powers ``P^n`` are almost half the work and cannot be shared
-    between primes, so the CPU time is what it was and the elapsed time,
-    on ``c`` free cores, about a ``c``-th of it (measured at 10^5 balls on
-    2 cores: 14.5 s and 15.2 s of CPU in the two processes, 29.5 s in one).
+    estimate (:func:`_exclusion_seconds`) is 1 s or more, the sum is cut in
+    as many parts as :func:`~enumerator.core.workers.active_processes`
+    allows (at most 8; *processes* forces the number), computed by
+    :func:`~enumerator.core.workers.map_in_processes`.  The answer is the
+    same integer either way.  The powers ``P^n`` are almost half the work
+    and cannot be shared between primes, so the CPU time is what it was
+    and the elapsed time, on ``c`` free cores, about a ``c``-th of it
+    (measured at 10^5 balls on 2 cores: 14.5 s and 15.2 s of CPU in two
+    processes, 29.5 s in one).
 
     Source of the sum: W. Feller, vol. 1, 3rd ed., 1968, §IV.2; Horner's
     rule: D. E. Knuth, *The Art of Computer Programming*, vol. 2, 3rd ed.,
@@ -559,89 +568,35 @@ def _exclusion_sum(n: int, r: int, j: int, processes=None):
     if processes < 2:
         return terms.part(0, len(terms.primes), smooth=True)
     cuts = terms.bounds(processes)
-    return _in_processes([functools.partial(terms.part, cuts[i], cuts[i + 1], i == 0) for i in range(processes)])
+    parts = [(n, r, j, cuts[i], cuts[i + 1], i == 0) for i in range(processes)]
+    return sum(map_in_processes(_exclusion_part, parts, processes))
 
 
 #: The estimated seconds (:func:`_exclusion_seconds`) from which :func:`_exclusion_sum` works in several processes.
 _SPLIT_SECONDS = 1.0
 #: The most processes :func:`_exclusion_sum` works in.
 _MOST_PROCESSES = 8
+#: Starting the workers of :func:`_exclusion_sum`, sending the parts and answers, building the tables again.
+_WORKERS_START_SECONDS = 0.2
 
 
 def _processes(n: int, r: int, j: int) -> int:
-    """The processes :func:`_exclusion_sum` works in: one per core (at most 8) from an estimate of 1 s, else 1."""
-    if r - j - 1 < 1 or _exclusion_seconds(n, r, j) < _SPLIT_SECONDS:
+    """The processes :func:`_exclusion_sum` works in: from an estimate of 1 s, as many as
+    :func:`~enumerator.core.workers.active_processes` allows (at most 8), else 1."""
+    workers = min(active_processes(), _MOST_PROCESSES)
+    if workers <= 1 or r - j - 1 < 1 or _exclusion_seconds(n, r, j) < _SPLIT_SECONDS:
         return 1
-    return min(_cores(), _MOST_PROCESSES)
+    return workers
 
 
-def _cores() -> int:
-    """Cores this process may run on."""
-    try:
-        return len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # not on Linux
-        return os.cpu_count() or 1
+def _exclusion_part(task):
+    """One part of :func:`_exclusion_sum` in a worker: ``task = (n, r, j, lo, hi, smooth)``.
 
-
-def _in_processes(calls):
-    """``calls[0]() + calls[1]() + ...``, each call after the first in a forked child while this process makes the first.
-
-    Where no child can be forked (no ``fork`` on this system, a daemonic
-    process, a process with other threads running, no process left) or a
-    child dies, its call is made here instead: the same sum, in fewer
-    processes.  A child's exception is raised again by that call here, and
-    a child prints no traceback.  The children send their answers back
-    pickled (gmpy2 writes an ``mpz`` in binary); they share this process's
-    tables, copied on write, and are stopped if this process fails.
+    The worker builds the tables again (0.07 s at 10^5 balls) and returns
+    ``_ExclusionSum(n, r, j).part(lo, hi, smooth)``.
     """
-    import multiprocessing
-    import threading
-
-    if len(calls) < 2 or "fork" not in multiprocessing.get_all_start_methods() or threading.active_count() > 1:
-        return sum(call() for call in calls)
-    context = multiprocessing.get_context("fork")
-    children = []  # (process or None, receiving end or None, call)
-
-    def start(call):
-        receive, send = context.Pipe(duplex=False)
-
-        def child():
-            receive.close()
-            try:
-                send.send(call())
-            except BaseException:  # noqa: BLE001 - no traceback there: the parent makes this call and raises
-                pass
-            finally:
-                send.close()
-
-        process = context.Process(target=child, daemon=True)
-        try:
-            process.start()
-        except (AssertionError, OSError):  # a daemonic process may not have children; no process left
-            receive.close()
-            send.close()
-            return None, None, call
-        send.close()
-        return process, receive, call
-
-    try:
-        for call in calls[1:]:
-            children.append(start(call))
-        total = calls[0]()
-        for _, receive, call in children:
-            try:
-                total += receive.recv() if receive is not None else call()
-            except (EOFError, OSError):  # the child died without an answer: its call here
-                total += call()
-    finally:
-        for process, receive, _ in children:
-            if receive is not None:
-                receive.close()
-            if process is not None:
-                if process.is_alive():
-                    process.terminate()
-                process.join()
-    return total
+    n, r, j, lo, hi, smooth = task
+    return _ExclusionSum(n, r, j).part(lo, hi, smooth)
 
 
 def _exclusion_sum_by_odd_parts(n: int, r: int, j: int):
