@@ -178,3 +178,27 @@ def test_an_error_in_a_part_is_raised_here(monkeypatch):
     monkeypatch.setattr(formulas._ExclusionSum, "part", refuse)
     with pytest.raises(ValueError, match="part failed"):
         formulas._exclusion_sum(2000, 1000, 135, processes=2)
+
+
+def _complete_homogeneous(d, xs):
+    """``h_d(xs)``, the sum of all monomials of degree *d* in *xs*, by adding one variable at a time."""
+    row = [1] + [0] * d
+    for x in xs:
+        for i in range(1, d + 1):
+            row[i] += x * row[i - 1]
+    return row[d] if d >= 0 else 0
+
+
+@pytest.mark.parametrize("n,r,j,processes", [(9, 4, 1, 1), (30, 12, 2, 1), (60, 30, 3, 2), (400, 200, 27, 2),
+                                             (400, 200, 27, 3), (250, 300, 120, 2)])
+def test_law_is_a_complete_homogeneous_polynomial(monkeypatch, n, r, j, processes):
+    # the partial fractions of prod 1/(1 - x t) give h_d(x_1..x_m) = sum_i x_i^(d+m-1) / prod_{l != i} (x_i - x_l)
+    # (complete homogeneous symmetric polynomials; I. G. Macdonald, Symmetric Functions and Hall Polynomials,
+    # 2nd ed., 1995, ch. I §2, from memory); on the nodes 0..K and r Feller's sum becomes
+    # r^n P(E <= j) = r!/j! h_{n-K-1}(1, 2, ..., K, r), K = r - j - 1, with h here by its recurrence
+    _forced_exclusion(monkeypatch)
+    real = formulas._exclusion_sum
+    monkeypatch.setattr(formulas, "_exclusion_sum", lambda n, r, j: real(n, r, j, processes=processes))
+    K = r - j - 1
+    expected = math.factorial(r) // math.factorial(j) * _complete_homogeneous(n - K - 1, [*range(1, K + 1), r])
+    assert formulas.empty_urns_at_most(n, r, j) == Fraction(expected, r**n)
