@@ -214,3 +214,21 @@ def test_law_far_below_the_fermi_temperature_keeps_its_smallest_probabilities(n,
     assert 0 < min(ref.law) < 1e-60
     for got, want in zip(law.law, ref.law):
         assert abs(got - want) <= 1e-14 * want
+
+
+@pytest.mark.parametrize("temperature", ["0.000001", "1e-20"])
+def test_a_closed_shell_far_below_the_gap_keeps_relative_digits(temperature):
+    # 20 fermions fill the trap's shells 0..3 (1 + 3 + 6 + 10 states): E0 = 45.  The first excitations
+    # lift one of the 10 particles of shell 3 to one of the 15 states of shell 4 (gap 1): 150 of them,
+    # so Z e^{βE0} = 1 + 150 e^{-β} + O(e^{-2β}), U - E0 = 150 e^{-β}, C = 150 β² e^{-β} and
+    # S = 150 (1 + β) e^{-β}, each to relative order e^{-β} (the low-temperature expansion; common
+    # practice).  At these temperatures e^{-β} is far below 2^-prec: the values must stay relative.
+    system = make_system(20, preset="trap", rule="FD")
+    (point,) = canonical(system, [temperature], digits=30, levels=2)
+    with mpmath.workdps(40):
+        beta = 1 / mpmath.mpf(temperature)
+        lead = 150 * mpmath.exp(-beta)
+        assert abs(point.excitation_energy_approx / lead - 1) < 1e-28
+        assert abs(point.heat_capacity_approx / (beta**2 * lead) - 1) < 1e-28
+        assert abs(point.entropy_approx / ((1 + beta) * lead) - 1) < 1e-28
+        assert abs(point.ln_partition_function_approx + 45 * beta) < 1e-28 * 45 * beta

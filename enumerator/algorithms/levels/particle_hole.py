@@ -396,9 +396,15 @@ def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: i
     hmax, r_h = _degree(below, e_p, beta_f * 15 / 16, -t_fug, budget, cap_h)
     pmax, r_p = _degree(above, e_p, beta_f * 15 / 16, t_fug, budget, cap_p)
     law_g = next((g for e, g in shells if e == law_energy), 0)
+    # At least two holes and two particles, however cold: the energy moments are then led by the
+    # excitations kept (e^{-βΔ}), and the neglected ones weigh e^{-2βΔ} against them, so the bounds
+    # are relative even where every excitation is far below 10^-digits of Z.
+    hmax, pmax = max(hmax, min(cap_h, 2)), max(pmax, min(cap_p, 2))
     hmax, pmax = min(cap_h, hmax + law_g), min(cap_p, pmax + law_g)
-    # Per-level cut-offs: at most cut[e] holes/particles in one level.
+    # Per-level cut-offs: at most cut[e] holes/particles in one level (the nearest level on each
+    # side of the Fermi shell keeps two, as above).
     cut = {}
+    nearest = {levels[i][0] for levels, i in ((below, -1), (above, 0)) if levels}
     for levels, sign, cap in ((below, -t_fug, hmax), (above, t_fug, pmax)):
         for e, g in levels:
             log_z = math.log(g) + sign - beta_f * 15 / 16 * abs(e - e_p)
@@ -406,6 +412,8 @@ def _plan(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, top: i
             k = 0
             while k < min(g, cap) and (k + 1) * log_z - math.lgamma(k + 2) + z > -budget:
                 k += 1
+            if e in nearest:
+                k = max(k, min(g, cap, 2))
             cut[e] = min(g, cap) if e == law_energy else k
     if law_g:
         # Room for the law's charge shift of up to g: the levels nearest the
@@ -597,6 +605,8 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
                     continue
                 z = g * scale * (-(bb * abs(e - e_p))).exp()
                 total += (log_f + (k + 1) * z.log() - arb(k + 2).lgamma() + z).exp()
+        if not total.is_finite():
+            return mpmath.inf  # no bound from this shift (an overflow far below the spacing)
         return _upper(total)
 
     eta = [zero, zero, zero]
@@ -605,10 +615,14 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         if z_low <= 0:
             return None, True
         eta[0] = weight(b) / z_low
+        # Shifts δ of the inverse temperature for the Cauchy bounds: fractions of b, and fixed
+        # ones (in units of the energy grid) for b far above them, where b/256 would cost e^{bΔ/256}.
+        deltas = [b / split for split in (4, 8, 16, 32, 64, 128, 256)]
+        b_float = float(unit / temperature)
+        deltas += [_frac(Fraction(1, 64) * 4**i) for i in range(7) if Fraction(1, 64) * 4**i < b_float / 256]
         for j in (1, 2):
             best = mpmath.inf
-            for split in (4, 8, 16, 32, 64, 128, 256):
-                delta = b / split
+            for delta in deltas:
                 c = _upper((arb(j) / (arb(1).exp() * delta)) ** j)  # (j/(e δ))^j
                 best = min(best, c * weight(b - delta))
             eta[j] = best / z_low
@@ -621,7 +635,17 @@ def _at(spectrum: Spectrum, n: int, temperature: Fraction, digits: int, report: 
         E0 = e0_units * unit
         e0 = mpmath.mpf(E0.numerator) / E0.denominator
 
-        lnz_exc = Z.log()
+        # ln Z from the ground weight C(g_P, n_P) (exact) and the excited weight E = Z - C(g_P, n_P)
+        # summed on its own: log1p keeps E's relative accuracy where it is far below 2^-prec (the
+        # entropy and free energy far below the first gap), where Z.log() would leave 2^-prec of it.
+        ground = math.comb(g_p, n_p)
+        excited = arb(0)
+        for h in range(1, H[0].length()):
+            excited += H[0][h] * _coeff(S[0], h + n_p)
+        for p in range(1, P[0].length()):
+            if 0 <= n_p - p < G.length():
+                excited += P[0][p] * G[n_p - p]
+        lnz_exc = arb(ground).log() + (excited / ground).log1p()
         mean_units = M1 / Z
         var_units = M2 / Z - mean_units * mean_units
         zero_var = not below and not above  # a single shell: nothing moves
@@ -993,7 +1017,9 @@ def fermion_canonical(
                     prec = 2 * prec
             else:
                 raise TooLarge(
-                    f"the particle-hole sums at T = {t} did not meet {digits} digits; lower digits="
+                    f"the particle-hole sums at T = {temperature_text(t)} did not meet {digits} digits; "
+                    "lower digits= or raise the temperature",
+                    parameters=["digits", "temperatures"],
                 )
         finally:
             ctx.prec = saved
