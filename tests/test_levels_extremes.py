@@ -56,3 +56,37 @@ def test_bosons_far_below_the_first_gap_answer_at_once(temperature):
         expected = 3 * mpmath.exp(-beta)
         assert abs(point.excitation_energy_approx / expected - 1) < 1e-15
         assert abs(point.heat_capacity_approx / (beta**2 * expected) - 1) < 1e-15
+
+
+@pytest.mark.parametrize("args, words", [
+    (("--particles", "3", "--energies", "0,1", "--rule", "BE", "--max-energy", "1e400"), "10^400 steps"),
+    (("--particles", "3", "--energies", "0,1e400", "--rule", "BE"), "10^400 steps"),
+    (("--preset", "harmonic", "--particles", "3", "--rule", "BE", "--max-energy", "99999999999999999999"),
+     "10^19 rungs"),
+])
+def test_multiplicities_beyond_any_limit_are_refused_in_one_line(args, words):
+    # These were an OverflowError in the estimate's floats, or a MemoryError listing 10^20 rungs (exit 1).
+    result = run("levels", *args)
+    assert result.exit_code == 2 and result.stderr.count("\n") == 1 and words in result.stderr
+
+
+def test_canonical_results_on_a_level_beyond_the_double_range():
+    # Levels 0 and 10^400, three distinguishable particles: the upper level is out of reach at T = 1, so
+    # U = 3 · 10^400 e^{-10^400} to leading order (each particle independently; common practice) -- written
+    # beyond the double range in JSON, and the multiplicities, refused on their size, are named as left out.
+    # Bosons would need 10^400 / ln 2 bits in the recursion: refused in one line.
+    import json
+
+    refused = run("levels", "--particles", "3", "--energies", "0,1e400", "--rule", "BE", "--temperatures", "1")
+    assert refused.exit_code == 2 and refused.stderr.count("\n") == 1 and "raise the temperature" in refused.stderr
+    result = run("levels", "--particles", "3", "--energies", "0,1e400", "--rule", "MB", "--temperatures", "1",
+                 "--json")
+    assert result.exit_code == 0
+    payload = json.loads(result.stdout, parse_float=str)  # the number's text (Decimal's exponent range is too short)
+    assert "10^400 steps" in payload["multiplicity_omitted"]
+    u = payload["canonical"][0]["mean_energy_approx"]
+    import mpmath
+
+    with mpmath.workdps(440):  # e^{-10^400} to 30 digits needs the argument to 430
+        expected = 3 * mpmath.mpf(10) ** 400 * mpmath.exp(-mpmath.mpf(10) ** 400)
+        assert abs(mpmath.mpf(u) / expected - 1) < 1e-12

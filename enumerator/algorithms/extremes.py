@@ -462,6 +462,7 @@ def mb_capped_moments(n: int, r: int, c: int) -> List:
     ``min(n, t c) + 1``: ``sum_t min(n, t c)`` multiplications in all.
     """
     fac = gmpy2.fac
+    c = min(c, n)  # e_c = e^x up to x^n once c >= n: the same moments (and no window of c terms)
     eps = series.falling_window(0, c)  # c!/k! x^k
     scale = fac(c)
     B = []

@@ -452,7 +452,7 @@ def _free_binomial_moments(n: int, r: int, rule: Rule, low: int, high: Optional[
         # the falling factorial (n - jJ)^(J) / J! from one j to the next
         J = low
         B = []
-        fJ = fac(J)
+        fJ = fac(J) if J <= n else mpz(1)  # past n only j = 0 is possible, and J! is never used
         multinomial = mpz(1)
         choose = mpz(1)
         for j in range(r + 1):

@@ -236,6 +236,11 @@ def levels_command(
                 as_json, processes)
 
 
+#: Most ladder rungs --max-energy may list (each is a level of the spectrum; a table of Ω(N, E) that far
+#: is refused by its plan long before).
+_MOST_RUNGS = 10**6
+
+
 def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators,
             max_energy, temperatures, factor, occupation_law, route, digits, report_levels, micro, plot,
             as_json, processes=None) -> None:
@@ -263,7 +268,13 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
                            dimension, gap, oscillators)
     if max_energy is not None and not system.spectrum.finite:
         top = lv.parse_rational(max_energy, "--max-energy")
-        listed = system.spectrum.through(math.floor(top / system.spectrum.unit))
+        rungs = math.floor(top / system.spectrum.unit)
+        if rungs > _MOST_RUNGS:
+            raise TooLarge(
+                f"--max-energy {max_energy} lists about 10^{len(str(rungs)) - 1} rungs of the ladder, more than the "
+                f"{_MOST_RUNGS:,} a table of multiplicities can reach; lower --max-energy (canonical results "
+                "need none)", parameters=["max_energy"])
+        listed = system.spectrum.through(rungs)
         system = lv.System(listed, system.particles, system.rule, system.capacity)
     temps, factors = _thermal_points(lv, system, temperatures, factor, digits)
     if occupation_law is not None and not temps:

@@ -507,12 +507,36 @@ def ln_partition_bound(spectrum: Spectrum, particles: int, temperature: Fraction
         log_z1 = -lad.dimension * math.log(-math.expm1(-x)) if x < 700 else 0.0
     else:
         low = spectrum.lowest
-        log_z1 = math.log(sum(g * math.exp(-b * (e - low)) for e, g in zip(spectrum.energies, spectrum.degeneracies)))
+        # an energy beyond the float range weighs nothing here (e^-700 and less are dropped by exp anyway)
+        log_z1 = math.log(sum(g * math.exp(-b * float(min(e - low, Fraction(10**300))))
+                              for e, g in zip(spectrum.energies, spectrum.degeneracies)))
     if log_z1 < 600:
         z1 = math.exp(log_z1)
         return z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
     # z_1 ln(1 + N/z_1) <= N and N ln(1 + z_1/N) <= N ln(2 z_1/N) once z_1 >= N
     return n + n * (log_z1 - math.log(n) + math.log(2))
+
+
+def _argument_digits(spectrum: Spectrum, temperature: Fraction, particles: int = 1) -> int:
+    """Decimal digits of the largest exponent ``β (ε - ε_min)`` (times *particles* on a ladder) the sums meet.
+
+    ``e^{-x}`` to ``d`` digits needs ``x`` itself to ``d + log10 x`` digits
+    (a relative error ``η`` of ``x`` is one of ``x η`` in ``e^{-x}``), so the
+    working precision grows by this many digits: none for ordinary
+    temperatures, 400 for a level at ``10^400`` in ``k_B T`` units.
+
+    >>> from .spectra import make_spectrum
+    >>> _argument_digits(make_spectrum([0, 10**400]), Fraction(1)), _argument_digits(make_spectrum([0, 1]), Fraction(1))
+    (401, 1)
+    """
+    if spectrum.ladder is not None:
+        span = Fraction(spectrum.ladder.spacing) * max(1, particles)
+    else:
+        span = max(spectrum.energies) - spectrum.lowest
+    x = span * spectrum.unit / temperature
+    if x <= 1:
+        return 1
+    return max(1, math.ceil((x.numerator.bit_length() - x.denominator.bit_length() + 1) * math.log10(2)))
 
 
 def _recursion_cost(system: System, spectrum: Spectrum, temperature: Fraction, bits: int, moments: bool) -> Cost:
@@ -612,14 +636,14 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                 return +lnZ, +energy, zero, +energy, zero, tuple(occ), extras
     target = math.ceil(digits * math.log2(10))
     margin = 8 + 2 * (n + 1).bit_length()
-    bits = target + margin + 16
+    bits = target + margin + 16 + math.ceil(_argument_digits(spectrum, temperature, n) * math.log2(10))
     if moments and system.rule is Rule.BE and system.capacity is None and n:
         # Bosons: the energy variance is about e^{-β Δ} (one particle lifted by the first gap Δ) against
         # Z_N, so the fixed point needs β Δ / ln 2 more bits to resolve it; asked for at once, not
         # found by doubling (which ran out of attempts far below the Bose temperature).
         gaps = [e - spectrum.lowest for e in spectrum.energies if e > spectrum.lowest]
         if gaps:
-            lost = float(min(gaps) * spectrum.unit / temperature) / math.log(2)
+            lost = float(min(min(gaps) * spectrum.unit / temperature, Fraction(2**64))) / math.log(2)
             bits = max(bits, target + margin + 16 + math.ceil(min(lost, 2.0**64)))
     if system.rule is not Rule.MB:
         check(_recursion_cost(system, spectrum, temperature, bits, moments),
@@ -1076,7 +1100,7 @@ def grand_canonical_thermo(system: System, temperature, mu, digits: int = 20):
     """
     spectrum = system.spectrum
     cap = system.capacity
-    with mpmath.workdps(digits + GUARD_DIGITS):
+    with mpmath.workdps(digits + GUARD_DIGITS + _argument_digits(spectrum, temperature)):
         T = mpmath.mpf(temperature.numerator) / temperature.denominator
         u = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
         eps = mpmath.mpf(10) ** -(digits + 4)
@@ -1166,7 +1190,7 @@ def grand_canonical_level_variance(system: System, temperature, mu, index: int, 
         e_units, g = spectrum.ladder.energy(index), spectrum.ladder.degeneracy(index)
     else:
         e_units, g = spectrum.energies[index], spectrum.degeneracies[index]
-    with mpmath.workdps(digits + GUARD_DIGITS):
+    with mpmath.workdps(digits + GUARD_DIGITS + _argument_digits(spectrum, temperature)):
         f = mean / g
         if system.rule is Rule.MB:
             var = g * f
@@ -1369,7 +1393,7 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
             )
         return None, tuple(mpmath.mpf(cap * g) for g in spectrum.degeneracies[:count])
     formula = _occupation_formula(system)
-    with mpmath.workdps(digits + GUARD_DIGITS):
+    with mpmath.workdps(digits + GUARD_DIGITS + _argument_digits(spectrum, temperature)):
         T = mpmath.mpf(temperature.numerator) / temperature.denominator
         u = mpmath.mpf(spectrum.unit.numerator) / spectrum.unit.denominator
         b = u / T

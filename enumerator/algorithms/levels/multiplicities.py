@@ -379,6 +379,11 @@ def _coefficient_bits(system: System, particles: int, degree: int) -> float:
     return max(1.0, bound / math.log(2) + math.log2(n + 1))
 
 
+#: Most steps of the energy grid a multiplicity table may span: one coefficient a step, so far
+#: beyond any time limit (10^15 cells), and below the range where the estimates' floats overflow.
+_MOST_UNITS = 10**15
+
+
 def _plan(system: System, degree: int, rows: Optional[int] = None) -> _Plan:
     """Choose the route for excitation energies up to *degree* and estimate its cost.
 
@@ -393,6 +398,14 @@ def _plan(system: System, degree: int, rows: Optional[int] = None) -> _Plan:
     """
     n = system.particles
     spectrum = system.spectrum
+    if degree > _MOST_UNITS:
+        # Beyond any limit on its size alone (and beyond the floats of the estimates below).
+        raise TooLarge(
+            f"multiplicities up to about 10^{len(str(degree)) - 1} steps of the energy grid {spectrum.unit} would "
+            "take far longer "
+            "than any limit; lower max_energy=, or give energies on a coarser grid",
+            parameters=["max_energy"],
+        )
     if system.rule is Rule.MB and rows is None:
         # lower bound first: a coefficient is at least a machine word
         bits = 64.0 if degree > 10**8 else _coefficient_bits(system, n, degree)
