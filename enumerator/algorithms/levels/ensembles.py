@@ -1027,10 +1027,11 @@ def particle_hole_pays(system: System, temperature: Fraction, digits: int, route
     ``β (E_0 - N ε_min) / ln 2`` bits to cancellation; the particle-hole sums
     lose none but grow with the temperature.  ``auto`` takes the
     particle-hole route when that loss exceeds four times the bits asked
-    for plus ``256 + 25 N^{3/4}``: the crossover measured on the 3D trap
-    (969 fermions, 15 digits: particle-hole 0.02 / 0.04 / 0.4 / 6.6 / 15 s
-    at ``T = 0.1 / 0.3 / 1 / 3 / 6``, recursion > 120 / 89 / - / 13.7 /
-    1.1 s; 100 fermions at ``T = 1``: 0.16 against 0.13 s).
+    for plus ``256 + 12 N^{3/4}``: the crossover measured on the 3D trap
+    (969 fermions, 15 digits, CPU: particle-hole 0.23 / 0.69 / 1.2 s at
+    ``T = 3 / 6 / 10``, recursion 3.1 / 2.2 / 0.47 s; the rule switches
+    near ``T = 7``; 100 fermions at ``T = 1``: 0.16 against 0.13 s, the
+    recursion kept).
     """
     if system.rule is not Rule.FD or system.particles == 0:
         return False
@@ -1039,7 +1040,7 @@ def particle_hole_pays(system: System, temperature: Fraction, digits: int, route
     spectrum = system.spectrum
     excess = ground_energy(system) - system.particles * spectrum.lowest
     loss = float(excess * spectrum.unit / temperature) / math.log(2)
-    return loss > 4 * digits * math.log2(10) + 256 + 25 * system.particles ** 0.75
+    return loss > 4 * digits * math.log2(10) + 256 + 12 * system.particles ** 0.75
 
 
 def _particle_hole_point(system: System, temperature: Fraction, digits: int, count: int) -> CanonicalPoint:
