@@ -501,18 +501,22 @@ def parse_factor(value) -> Fraction:
     Raises
     ------
     InvalidParameters
-        Not a number, a float, or outside ``(0, 1)``.
+        Not a number, a float, text too long to read (more than 4,000
+        digits or a decimal exponent beyond 4,000: ``1e-99999999`` is
+        refused before it is expanded), or outside ``(0, 1)``.
 
     Notes
     -----
-    ``fractions.Fraction`` parsing, linear in the length of the text.
+    ``fractions.Fraction`` parsing after sizing the text
+    (:func:`~enumerator.algorithms.levels.spectra.size_number_text`), linear
+    in the length of the text.
 
     Examples
     --------
     >>> parse_factor("1/2")
     Fraction(1, 2)
     """
-    x = parse_rational(value, "factor")
+    x = parse_rational(value, "factor", "factor")
     if not 0 < x < 1:
         raise InvalidParameters(
             f"the Boltzmann factor e^(-unit/T) must lie strictly between 0 and 1 (got {x}); "
