@@ -31,6 +31,7 @@ from __future__ import annotations
 import errno
 import importlib
 import os
+import re
 import sys
 import traceback
 from collections.abc import MutableMapping
@@ -249,7 +250,8 @@ class _Group(TyperGroup):
             ctx = getattr(error, "ctx", None)
             if ctx is not None:
                 hint = f" Try '{ctx.command_path} --help'."
-            message = error.format_message().strip()
+            # typer reads some types (enum choices) through pydantic, whose wording starts "Value error, "
+            message = _VALUE_ERROR.sub(r"\1", error.format_message().strip())
             if message and message[-1] not in ".?!":
                 message += "."
             _fail(f"Error: {message}{hint}", error.exit_code)
@@ -257,6 +259,12 @@ class _Group(TyperGroup):
             # The reader stopped early (``enumerator list | head``): not a failure.
             _silence_stdout()
             sys.exit(0)
+        except SystemExit as stop:
+            # rich (printing --help) and typer end a closed pipe with exit 1 (``enumerator count --help | head -1``)
+            if stop.code == 1 and _pipe_closed():
+                _silence_stdout()
+                sys.exit(0)
+            raise
         except KeyboardInterrupt:
             _fail("Interrupted.", 130)
         except OSError as error:
@@ -278,6 +286,25 @@ class _Group(TyperGroup):
             # Caught here, before click's own EPIPE handler turns it into exit 1.
             _silence_stdout()
             raise typer.Exit(0) from None
+
+
+#: The prefix pydantic puts before a validator's message (``Value error, 'bogus' is not one of ...``).
+_VALUE_ERROR = re.compile(r"(^|: )Value error, ")
+
+
+def _pipe_closed() -> bool:
+    """True when stdout was a pipe its reader closed, as rich and typer leave it after the failed write.
+
+    rich points the stdout descriptor at ``os.devnull`` (``Console.on_broken_pipe``)
+    and typer wraps ``sys.stdout`` in ``PacifyFlushWrapper``; a real /dev/null
+    never breaks, so neither happens without a closed pipe.  Cost: two ``stat`` calls.
+    """
+    if type(sys.stdout).__name__ == "PacifyFlushWrapper":
+        return True
+    try:
+        return os.path.samestat(os.fstat(sys.stdout.fileno()), os.stat(os.devnull))
+    except (OSError, ValueError, AttributeError):
+        return False
 
 
 #: errno values of an unusable path the user gave (exit 2, not an internal error).
