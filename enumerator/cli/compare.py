@@ -23,6 +23,7 @@ from .options import (
     limits_scope,
     plot_option,
     store_scope,
+    whole_option,
 )
 from .render import emit_json
 
@@ -72,11 +73,12 @@ def compare_command(
     ] = None,
     step: Annotated[
         Optional[int],
-        typer.Option("--step", rich_help_panel=_SWEEP, help="Points START, START+S, ... (up to STOP)."),
+        whole_option("--step", name="step", minimum=1, rich_help_panel=_SWEEP,
+                     help="Points START, START+S, ... (up to STOP)."),
     ] = None,
     geometric: Annotated[
         Optional[int],
-        typer.Option("--geometric", metavar="K", rich_help_panel=_SWEEP,
+        whole_option("--geometric", name="geometric", minimum=1, metavar="K", rich_help_panel=_SWEEP,
                      help="K points evenly spaced on a log scale from START to STOP (the default, K=10)."),
     ] = None,
     balls: Annotated[Optional[str], _tie_option("--balls", "-n", help="Number of balls n.")] = None,
