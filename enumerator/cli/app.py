@@ -76,6 +76,7 @@ COMMANDS: Dict[str, str] = {
 FLAGS: Dict[str, str] = {
     "at": "--at",
     "balls": "--balls",
+    "bounds": "--bounds",
     "capacity": "--capacity",
     "cluster": "--cluster",
     "degeneracies": "--degeneracies",
@@ -112,6 +113,7 @@ FLAGS: Dict[str, str] = {
     "urns": "--urns",
     "var": "--var",
     "vary": "--vary",
+    "weights": "--weights",
     "workers": "--workers",
 }
 

@@ -250,7 +250,9 @@ class UrnModel:
             if bounds is not None:
                 if capacity is not None or (minimum not in (0, None)):
                     raise InvalidParameters(
-                        "give either per-urn bounds or a uniform capacity/minimum, not both"
+                        "give either per-urn bounds or a uniform capacity/minimum, not both; "
+                        "drop bounds= or capacity=/minimum=",
+                        parameters=["bounds", "capacity", "minimum"],
                     )
                 bound_runs = _bound_runs(bounds)
                 if not bound_runs:
@@ -259,16 +261,21 @@ class UrnModel:
                     listed = sum(c for c, _ in bound_runs)
                     if as_count(urns, "urns", 1) != listed:
                         raise InvalidParameters(
-                            f"urns is {urns} but bounds lists {listed} urns; give one bound per urn"
+                            f"urns is {urns} but bounds lists {listed} urns; give one bound per urn in bounds=, "
+                            "or drop urns=",
+                            parameters=["bounds", "urns"],
                         )
             else:
                 if urns is None and weights is None:
-                    raise InvalidParameters("urns is required (or give per-urn bounds)")
+                    raise InvalidParameters("urns is required: give urns= (or per-urn bounds=)",
+                                            parameters=["urns", "bounds"])
                 a = as_count(0 if minimum is None else minimum, "minimum")
                 b = None if capacity is None else as_count(capacity, "capacity")
                 if b is not None and b < a:
                     raise InvalidParameters(
-                        f"minimum {a} is above capacity {b}; the minimum must be <= the capacity"
+                        f"minimum {a} is above capacity {b}; the minimum must be <= the capacity "
+                        "(lower minimum= or raise capacity=)",
+                        parameters=["minimum", "capacity"],
                     )
                 r = as_count(urns, "urns", 1) if urns is not None else sum(c for c, _ in weight_runs)
                 bound_runs = ((r, (a, b)),)
@@ -283,7 +290,8 @@ class UrnModel:
                 if g.upper is not None and g.upper > most:
                     raise InvalidParameters(
                         f"{rule_.value} allows at most one ball per urn, but urn {first} has capacity {g.upper}; "
-                        "use capacity 1 (or leave it out), or rule BE for a larger capacity"
+                        "use capacity= 1 (or leave it out), or rule= BE for a larger capacity",
+                        parameters=["capacity", "rule"],
                     )
                 if g.lower > most:
                     raise InvalidParameters(

@@ -524,8 +524,9 @@ def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum
             degs.append(as_count(g, f"degeneracy {i + 1}", 1))
         if len(degs) != len(values):
             raise InvalidParameters(
-                f"give one degeneracy per energy: {len(values)} energies but "
-                f"{len(degs)} degeneracies"
+                f"give one degeneracy per energy (degeneracies=): {len(values)} energies but "
+                f"{len(degs)} degeneracies",
+                parameters=["degeneracies"],
             )
     lcm = 1
     for v in values:
@@ -597,7 +598,7 @@ def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -
     d = as_count(dimension, "dimension", 1)
     if d > MAX_DIMENSION:
         raise InvalidParameters(
-            f"dimension {d:,} is beyond {MAX_DIMENSION}: the degeneracy C(m + d - 1, d - 1) of rung m grows "
+            f"dimension= {d:,} is beyond {MAX_DIMENSION}: the degeneracy C(m + d - 1, d - 1) of rung m grows "
             "like m^(d-1), so every canonical sum would hold numbers of that size; choose a smaller dimension",
             parameters=["dimension"],
         )
@@ -645,10 +646,11 @@ def two_level(gap=1, degeneracies=(1, 1)) -> Spectrum:
     """
     delta = parse_rational(gap, "gap")
     if delta <= 0:
-        raise InvalidParameters(f"gap must be positive (got {delta})")
+        raise InvalidParameters(f"gap= must be positive (got {delta})", parameters=["gap"])
     degs = _split_list(degeneracies, "degeneracies")
     if len(degs) != 2:
-        raise InvalidParameters("a two-level system takes two degeneracies, e.g. 1,1")
+        raise InvalidParameters("a two-level system takes two degeneracies, e.g. degeneracies= 1,1",
+                                parameters=["degeneracies"])
     spectrum = make_spectrum([Fraction(0), delta], degs, "two-level system")
     return spectrum
 
@@ -781,7 +783,7 @@ def make_system(
         for value, option in ((levels, "levels"), (dimension, "dimension"), (gap, "gap")):
             if value is not None:
                 raise InvalidParameters(
-                    f"{option} belongs to a preset; add preset= or drop {option}=", parameters=["preset", option]
+                    f"{option}= belongs to a preset; add preset= or drop {option}=", parameters=["preset", option]
                 )
         if oscillators is not None:
             preset = "einstein"
