@@ -41,6 +41,7 @@ HUGE = [
     ([*TRAP, "--factor", "1/2,1e-9_999_999"], "--factor", "1e-9_999_999"),
     (["levels", "--preset", "two-level", "--particles", 2, "--gap", "1e99999999"], "--gap", "1e99999999"),
     ([*TRAP, "--temperatures", "1" + "0" * 5000], "--temperatures", "1" + "0" * 39),
+    (["levels", "--particles", 3, "--energies", "0,1", "--degeneracies", "1," + "9" * 5000], "--degeneracies", "9" * 40),
 ]
 
 
@@ -79,6 +80,7 @@ def test_the_limit_is_4000_digits_as_the_command_line_reads_numbers():
         (lambda: parse_temperature("1e99999999"), "temperatures="),
         (lambda: parse_temperatures("0.5..1e99999999:4"), "temperatures="),
         (lambda: make_spectrum("0,1e99999999"), "energies="),
+        (lambda: make_spectrum("0,1", "1," + "9" * 5000), "degeneracies="),
     ],
 )
 def test_the_library_refuses_before_expanding(call, parameter):

@@ -492,8 +492,9 @@ def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum
     Raises
     ------
     InvalidParameters
-        Empty lists, lengths that differ, a degeneracy below 1, a float or a
-        non-number.
+        Empty lists, lengths that differ, a degeneracy below 1, a float, a
+        non-number, or a number longer than 4,000 digits
+        (:func:`size_number_text`).
 
     Notes
     -----
@@ -515,11 +516,12 @@ def make_spectrum(energies, degeneracies=None, name: str = "levels") -> Spectrum
         degs = []
         for i, g in enumerate(raw):
             if isinstance(g, str):
+                size_number_text(g, f"degeneracy {i + 1}", "degeneracies")
                 try:
                     g = int(g)
                 except ValueError:
                     raise InvalidParameters(
-                        f"degeneracy {i + 1} ({g!r}) must be a whole number >= 1"
+                        f"degeneracy {i + 1} ({g[:40]!r}) must be a whole number >= 1"
                     ) from None
             degs.append(as_count(g, f"degeneracy {i + 1}", 1))
         if len(degs) != len(values):
