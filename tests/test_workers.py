@@ -100,3 +100,29 @@ def test_the_process_count_comes_from_a_block_or_the_environment(monkeypatch):
         active_processes()
     result = run("levels", "--preset", "trap", "--particles", "5", "--rule", "BE", "--temperatures", "1,2")
     assert result.exit_code == 2 and result.stderr.count("\n") == 1 and ENV_PROCESSES in result.stderr
+
+
+def test_the_weighted_maximum_law_shared_among_processes_equals_brute_force(monkeypatch):
+    # MB, 6 balls in 6 urns of weights 1,1,2,2,3,3: P(max = m) by brute force over the 6^6 outcomes
+    # (each outcome weighs the product of its urns' weights over 12^6), against the law of max by groups
+    # with its plan's steps shared among two processes (the planner forced to share).
+    import itertools
+    from collections import Counter
+    from fractions import Fraction
+
+    from cli_helpers import run_json
+
+    from enumerator.algorithms import group_laws
+
+    weights = [1, 1, 2, 2, 3, 3]
+    law = Counter()
+    for outcome in itertools.product(range(6), repeat=6):
+        weight = 1
+        for urn in outcome:
+            weight *= weights[urn]
+        law[max(outcome.count(u) for u in range(6))] += weight
+    expected = {str(m): str(Fraction(w, 12**6)) for m, w in sorted(law.items())}
+    monkeypatch.setattr(group_laws, "PROCESSES_AFTER_SECONDS", 0.0)
+    monkeypatch.setenv("ENUMERATOR_PROCESSES", "2")
+    shared = run_json("dist", "-n", "6", "--weights", "2x1,2x2,2x3", "--stat", "max", "--no-cache")
+    assert shared["pmf"] == expected

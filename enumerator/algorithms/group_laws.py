@@ -44,6 +44,7 @@ from ..core import limits
 from ..core.errors import InvalidParameters
 from ..core.limits import Cost, bigint_bytes
 from ..core.model import UrnModel
+from ..core.workers import active_processes, map_in_processes
 from . import grouped
 from .extremes import mb_max_estimate, poly_dot
 from .group_rows import combine
@@ -631,29 +632,56 @@ def _group_max_counts(model: UrnModel, total) -> Dict[int, "mpz"]:
         stride = max(1, -(-span // 4096))
         for m in range(lo, last + 1, stride):
             cost = cost + grouped.row_cost(_capped(groups, m), n, False).times(min(stride, last + 1 - m))
+    workers = min(active_processes(), len(plan)) if cost.seconds > PROCESSES_AFTER_SECONDS else 1
+    if workers > 1:
+        # shared out longest first: at most the even share plus the longest step; each worker holds its own rows
+        longest = max(step.seconds for _, _, _, step in plan)
+        biggest = max(step.memory for _, _, _, step in plan)
+        cost = Cost(seconds=min(cost.seconds, cost.seconds / workers + longest),
+                    memory=cost.memory + (workers - 1) * biggest)
     limits.check(cost, f"the law of max for {n} balls in {r} urns",
                  advice="ask for P(max <= m) at one m (an event) instead of the whole law")
     if free and hi >= n // 2:
         cumulative.update(_mb_free_tail(groups, n, max(lo, n // 2)))
+    if workers > 1:
+        order = sorted(plan, key=lambda step: -step[3].seconds)
+        tasks = [(groups, model, n, m, D, route) for m, D, route, _ in order]
+        for part in map_in_processes(_max_step, tasks, workers):
+            cumulative.update(part)
     steps = {m: (D, route) for m, D, route, _ in plan}
 
     def at_most(m: int) -> mpz:
         value = cumulative.get(m)
         if value is None and m in steps:
             D, route = steps[m]
-            if route == "levels":
-                value, tails = _mb_free_levels(groups, n, m, extensions=D)
-                if D:
-                    vtails = _extension_tails(n, m, tails)
-                    for d in range(1, D + 1):
-                        cumulative[m + d] = _mb_free_extend(groups, n, m, d, vtails)
-            elif route == "blocks":
-                value = _blocks_capped(groups, n, m)
+            part = _max_step((groups, model, n, m, D, route))
+            cumulative.update(part)
+            value = part[m]
         if value is None:
             value = mpz(_total_of(_capped(groups, m), model, "a bounded count"))
         return value
 
     return law_from_cumulative(at_most, lo, hi, total)
+
+
+#: Estimated seconds above which the law of max shares its plan's steps among local processes.
+PROCESSES_AFTER_SECONDS = 2.0
+
+
+def _max_step(task) -> Dict[int, "mpz"]:
+    """One step ``(groups, model, n, m, D, route)`` of :func:`_max_plan`: ``{m: A_m}`` and, after levels, ``A_{m+1..m+D}``."""
+    groups, model, n, m, D, route = task
+    if route == "levels":
+        value, tails = _mb_free_levels(groups, n, m, extensions=D)
+        out = {m: value}
+        if D:
+            vtails = _extension_tails(n, m, tails)
+            for d in range(1, D + 1):
+                out[m + d] = _mb_free_extend(groups, n, m, d, vtails)
+        return out
+    if route == "blocks":
+        return {m: _blocks_capped(groups, n, m)}
+    return {m: mpz(_total_of(_capped(groups, m), model, "a bounded count"))}
 
 
 def law_from_cumulative(at_most: Callable[[int], "mpz"], lo: int, hi: int, total) -> Dict[int, "mpz"]:
