@@ -27,6 +27,11 @@
   against it (``--quick``: 1200 bosons).  Both compare answers to 5
   digits: the exact route at 6 digits may round a value near a boundary
   the other way.
+* ``levels-bosons-10^4-40T-processes``: the 40 temperatures on route auto
+  shared among two local processes (``processes=2``: the lowest alone,
+  then groups of neighbouring temperatures) against one process, in
+  elapsed time (it needs two free cores to show; ``--quick``: 1200 bosons
+  at 8 temperatures).
 """
 
 from __future__ import annotations
@@ -154,6 +159,26 @@ def register(bench) -> None:
                                     "rounding boundary may round either way at 6)"])
         result.notes.append(f"auto took the float route at {routes.get('float', 0)} of {len(temps)} temperatures")
         return result
+
+    @bench.workload("levels-bosons-10^4-40T-processes",
+                    "canonical 10^4 bosons in the 3D trap at 40 temperatures (quick: 1200 at 8), 6 digits, "
+                    "route auto: two local processes vs one (elapsed time; needs two free cores)",
+                    target=bench.faster_by(1.5))
+    def _bosons_processes(ctx):
+        from enumerator.algorithms.levels import canonical, make_system, parse_temperatures
+
+        temps = parse_temperatures("0.5..40:8" if ctx.quick else "0.5..40:40")
+        n = 1200 if ctx.quick else 10_000
+        system = make_system(n, preset="trap", rule="BE")
+
+        def run(processes):
+            return _rounded(canonical(system, temps, digits=6, levels=3, grand=True, processes=processes), 5)
+
+        return ctx.compare(Method("enumerator (2 processes)", lambda: run(2)),
+                           [Method("one process", lambda: run(1))],
+                           items=len(temps),
+                           notes=[f"{n} bosons, {len(temps)} temperatures with the grand-canonical comparison; "
+                                  "answers compared to 5 digits"])
 
     @bench.workload("levels-bosons-10^4-3T-auto",
                     "canonical 10^4 bosons in the 3D trap at T = 0.5, 10, 15 (quick: 1200 bosons), 6 digits: "
