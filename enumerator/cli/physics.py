@@ -34,7 +34,8 @@ LevelsPlot = plot_option("Draw what was computed: multiplicity against energy; c
                          "and δN0(T) against the grand-canonical curves; with --occupation-law the law P(n = k).")
 
 
-def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None):
+def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None,
+                whole: Optional[int] = None):
     """An option of ``levels`` in its help panel.
 
     Parameters
@@ -47,36 +48,19 @@ def _levels_opt(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[st
         The help panel it is listed under.
     metavar : str, optional
         The placeholder shown for its value.
+    whole : int, optional
+        For a whole number: the least value accepted.  It is then read as
+        every whole-number option is (digits or a power such as ``2^10``,
+        sized before it is expanded; :func:`.options.whole_option`).
 
     Returns
     -------
     typer.models.OptionInfo
     """
+    if whole is not None:
+        return whole_option(flag, name=flag.lstrip("-").replace("-", " "), minimum=whole, help=help,
+                            rich_help_panel=panel, metavar=metavar or "INTEGER")
     return typer.Option(flag, help=help, rich_help_panel=panel, metavar=metavar)
-
-
-def _levels_whole(flag: str, help: str, panel: str = _LEVELS, metavar: Optional[str] = None, minimum: int = 0):
-    """A whole-number option of ``levels`` (digits or a power such as ``2^10``, sized before it is expanded).
-
-    Parameters
-    ----------
-    flag : str
-        The option's name.
-    help : str
-        Its help text.
-    panel : str
-        The help panel it is listed under.
-    metavar : str, optional
-        The placeholder shown for its value.
-    minimum : int
-        The least value accepted.
-
-    Returns
-    -------
-    typer.models.OptionInfo
-    """
-    return whole_option(flag, name=flag.lstrip("-").replace("-", " "), minimum=minimum, help=help, rich_help_panel=panel,
-                        metavar=metavar or "INTEGER")
 
 
 def _level_system(particles, energies, degeneracies, rule, capacity, preset, levels, dimension, gap, oscillators):
@@ -111,7 +95,7 @@ def _level_system(particles, energies, degeneracies, rule, capacity, preset, lev
 
 @commands.command("levels")
 def levels_command(
-    particles: Annotated[Optional[int], _levels_whole("--particles", "Number of particles N, >= 0.")] = None,
+    particles: Annotated[Optional[int], _levels_opt("--particles", "Number of particles N, >= 0.", whole=0)] = None,
     energies: Annotated[
         Optional[str],
         _levels_opt("--energies", 'Level energies "0,1,2,3" (integers, fractions like 1/2 or decimals).', metavar="E1,E2,..."),
@@ -128,8 +112,8 @@ def levels_command(
     ] = None,
     capacity: Annotated[
         Optional[int],
-        _levels_whole("--capacity", "BE only: at most this many particles per single-particle state "
-                    "(intermediate statistics; 1 is FD)."),
+        _levels_opt("--capacity", "BE only: at most this many particles per single-particle state "
+                    "(intermediate statistics; 1 is FD).", whole=0),
     ] = None,
     preset: Annotated[
         Optional[str],
@@ -138,12 +122,12 @@ def levels_command(
     ] = None,
     levels: Annotated[
         Optional[int],
-        _levels_whole("--levels", "harmonic/trap: keep only this many levels (default: the infinite ladder).", _PRESET),
+        _levels_opt("--levels", "harmonic/trap: keep only this many levels (default: the infinite ladder).", _PRESET, whole=0),
     ] = None,
-    dimension: Annotated[Optional[int], _levels_whole("--dimension", "trap: its dimension (default 3).", _PRESET)] = None,
+    dimension: Annotated[Optional[int], _levels_opt("--dimension", "trap: its dimension (default 3).", _PRESET, whole=0)] = None,
     gap: Annotated[Optional[str], _levels_opt("--gap", "two-level: the energy gap (default 1).", _PRESET)] = None,
     oscillators: Annotated[
-        Optional[int], _levels_whole("--oscillators", "einstein: number of oscillators N.", _PRESET)
+        Optional[int], _levels_opt("--oscillators", "einstein: number of oscillators N.", _PRESET, whole=0)
     ] = None,
     max_energy: Annotated[
         Optional[str],
@@ -165,9 +149,9 @@ def levels_command(
     ] = None,
     occupation_law: Annotated[
         Optional[int],
-        _levels_whole("--occupation-law", "The canonical law P(n = k) of the occupation of this level "
+        _levels_opt("--occupation-law", "The canonical law P(n = k) of the occupation of this level "
                     "(0 = the lowest listed level / ladder rung), with its mean and variance beside the "
-                    "grand-canonical variance.", _THERMO, "LEVEL"),
+                    "grand-canonical variance.", _THERMO, "LEVEL", whole=0),
     ] = None,
     route: Annotated[
         str,
@@ -179,11 +163,11 @@ def levels_command(
                     "per temperature).", _THERMO, "ROUTE"),
     ] = "auto",
     digits: Annotated[
-        int, _levels_whole("--digits", "Significant digits of the canonical arithmetic (mpmath), at most 10,000.", _THERMO)
+        int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath), at most 10,000.", _THERMO, whole=0)
     ] = 50,
     report_levels: Annotated[
         Optional[int],
-        _levels_whole("--report-levels", "Report occupations of this many lowest levels (default: every listed level).", _THERMO),
+        _levels_opt("--report-levels", "Report occupations of this many lowest levels (default: every listed level).", _THERMO, whole=0),
     ] = None,
     micro: Annotated[
         bool,
@@ -191,10 +175,10 @@ def levels_command(
     ] = False,
     processes: Annotated[
         Optional[int],
-        _levels_whole("--processes", "Compute the temperatures side by side in up to this many local processes "
+        _levels_opt("--processes", "Compute the temperatures side by side in up to this many local processes "
                     "(default: $ENUMERATOR_PROCESSES, else the cores this process may use; 1: one after the other). They start when the "
                     "lowest temperature alone took over a quarter of a second; the answers are those of "
-                    "separate calls for groups of neighbouring temperatures.", _THERMO, "P", minimum=1),
+                    "separate calls for groups of neighbouring temperatures.", _THERMO, "P", whole=1),
     ] = None,
     plot: LevelsPlot = None,
     as_json: Json = False,
