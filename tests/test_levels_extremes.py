@@ -90,3 +90,13 @@ def test_canonical_results_on_a_level_beyond_the_double_range():
     with mpmath.workdps(440):  # e^{-10^400} to 30 digits needs the argument to 430
         expected = 3 * mpmath.mpf(10) ** 400 * mpmath.exp(-mpmath.mpf(10) ** 400)
         assert abs(mpmath.mpf(u) / expected - 1) < 1e-12
+
+
+def test_reported_levels_are_planned():
+    # 10^6 reported levels were computed (and 10^20 ran out of memory) before any plan; 64,000 take about
+    # 2 s at 10 particles, linear in the levels (the lowest level was recomputed per level: quadratic).
+    for count in ("1000000", "99999999999999999999"):
+        result = run("levels", "--preset", "trap", "--particles", "10", "--rule", "BE", "--temperatures", "1",
+                     "--report-levels", count, "--max-seconds", "5")
+        assert result.exit_code == 2 and result.stderr.count("\n") == 1
+        assert "report fewer levels" in result.stderr
