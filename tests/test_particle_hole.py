@@ -232,3 +232,24 @@ def test_a_closed_shell_far_below_the_gap_keeps_relative_digits(temperature):
         assert abs(point.heat_capacity_approx / (beta**2 * lead) - 1) < 1e-28
         assert abs(point.entropy_approx / ((1 + beta) * lead) - 1) < 1e-28
         assert abs(point.ln_partition_function_approx + 45 * beta) < 1e-28 * 45 * beta
+
+
+def test_the_particle_hole_point_states_its_proved_bounds():
+    # 40 trap fermions at T = 1, 20 digits, by the particle-hole route against the Borrmann-Franke recursion at 40
+    # digits (the reference): every stated bound holds (ln Z absolute, U, C, S relative, occupations absolute).
+    system = make_system(40, preset="trap", rule="FD")
+    (a,) = canonical(system, ["1"], digits=20, levels=4, route="particle-hole", grand=False)
+    (b,) = canonical(system, ["1"], digits=40, levels=4, route="recursion", grand=False)
+    bounds = a.error_bounds
+    assert a.route == "particle-hole" and set(bounds) >= {"ln_partition_function", "mean_energy", "heat_capacity",
+                                                           "entropy", "occupations_absolute"}
+    assert abs(a.ln_partition_function_approx - b.ln_partition_function_approx) <= bounds["ln_partition_function"]
+    assert abs(a.mean_energy_approx / b.mean_energy_approx - 1) <= bounds["mean_energy"]
+    assert abs(a.heat_capacity_approx / b.heat_capacity_approx - 1) <= bounds["heat_capacity"]
+    assert abs(a.entropy_approx / b.entropy_approx - 1) <= bounds["entropy"]
+    for x, y in zip(a.occupations_approx, b.occupations_approx):
+        assert abs(x - y) <= bounds["occupations_absolute"]
+    assert max(bounds.values()) < 1e-18  # 20 digits: the rounding of ln Z (about -100) is 1.7e-19
+    payload = run("levels", "--preset", "trap", "--particles", "40", "--rule", "FD", "--temperatures", "1",
+                  "--route", "particle-hole", "--json")
+    assert "error_bound_approx" in payload.stdout

@@ -219,7 +219,8 @@ class CanonicalPoint:
     temperature) or ``"float"`` (bosons at scale, :func:`.bosons_float.canonical_float`,
     whose rigorous a-posteriori bounds are in ``error_bounds``: absolute for
     ``ln_partition_function``, relative for ``mean_energy``,
-    ``heat_capacity`` and ``occupations``).
+    ``heat_capacity`` and ``occupations``; the particle-hole route's proved
+    bounds are there too, with ``occupations_absolute`` instead).
     """
 
     temperature: Fraction
@@ -1068,6 +1069,7 @@ def _particle_hole_point(system: System, temperature: Fraction, digits: int, cou
         with mpmath.workdps(digits + GUARD_DIGITS):
             mean = mpmath.fsum(k * q for k, q in enumerate(p.law))
             variance = mpmath.fsum((k - mean) ** 2 * q for k, q in enumerate(p.law))
+    bounds = _particle_hole_bounds(p, digits)
     with mpmath.workdps(digits):
         return CanonicalPoint(
             temperature, digits, +p.ln_partition_function_approx, +p.mean_energy_approx,
@@ -1076,7 +1078,48 @@ def _particle_hole_point(system: System, temperature: Fraction, digits: int, cou
             occupation_above_approx=+p.occupation_above_approx, route="particle-hole",
             excitation_energy_approx=+p.excitation_energy_approx,
             ground_occupation_variance_approx=None if variance is None else +variance,
+            error_bounds=bounds,
         )
+
+
+def _float_up(x) -> float:
+    """The smallest double at least the non-negative mpmath number *x* (a bound stays a bound)."""
+    value = float(x)
+    if value < x:
+        value = math.nextafter(value, math.inf)
+    return value
+
+
+def _particle_hole_bounds(p, digits: int) -> Dict[str, float]:
+    """The particle-hole point's proved error bounds in the float route's terms, rounded up to doubles.
+
+    ``ln_partition_function`` absolute; ``mean_energy``, ``excitation_energy``,
+    ``heat_capacity`` and ``entropy`` relative to their values;
+    ``occupations_absolute`` the largest absolute bound over the listed
+    levels (a relative one would be meaningless for a nearly empty level).
+    Each includes the rounding of the value to *digits* digits (``2^{1-p}``
+    relative at mpmath's precision ``p`` for them), as the point holds it.
+    """
+    errors = p.errors
+    with mpmath.workdps(digits):
+        rounding = mpmath.ldexp(1, 1 - mpmath.mp.prec)
+
+    def relative(key, value):
+        if not value:
+            return 0.0 if errors[key] == 0 else math.inf
+        return _float_up(errors[key] / abs(value) + rounding)
+
+    with mpmath.workdps(30):
+        big = max((abs(x) for x in p.occupations_approx), default=mpmath.mpf(0))
+        return {
+            "ln_partition_function": _float_up(errors["ln_partition_function"]
+                                               + abs(p.ln_partition_function_approx) * rounding),
+            "mean_energy": relative("mean_energy", p.mean_energy_approx),
+            "excitation_energy": relative("excitation_energy", p.excitation_energy_approx),
+            "heat_capacity": relative("heat_capacity", p.heat_capacity_approx),
+            "entropy": relative("entropy", p.entropy_approx),
+            "occupations_absolute": _float_up(errors["occupations"] + big * rounding),
+        }
 
 
 #: Most ladder rungs :func:`grand_canonical_thermo` sums one by one.
