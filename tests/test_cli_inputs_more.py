@@ -100,6 +100,10 @@ def test_a_ladder_listed_beyond_the_limits_is_refused_before_listing():
         harmonic_trap().through(10**12)
     with pytest.raises(TooLarge):
         harmonic_trap().through(10**3999)
+    with pytest.raises(TooLarge, match="levels="):
+        harmonic_trap(10**12)
+    message = one_line_error(run(*TRAP, "--levels", "10^12", "--temperatures", 1))
+    assert "--levels" in message and "levels=" not in message
     listed = harmonic_trap().through(5)
     # stars and bars: rung m of the 3D trap holds (m + 1)(m + 2)/2 states
     assert listed.degeneracies == tuple((m + 1) * (m + 2) // 2 for m in range(6))

@@ -584,6 +584,9 @@ def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -
     ------
     InvalidParameters
         A dimension or number of levels below 1, a spacing that is not positive.
+    TooLarge
+        Listing *levels* levels would take longer or more memory than the
+        active limits allow (:func:`listing_cost`).
 
     Notes
     -----
@@ -614,6 +617,8 @@ def harmonic_trap(levels: Optional[int] = None, dimension: int = 3, spacing=1) -
         return Spectrum((0,), (1,), unit, Ladder(d, s), name)
     count = as_count(levels, "levels", 1)
     lad = Ladder(d, s)
+    check(listing_cost(lad, count), f"listing {_count_text(count)} levels of the {name}",
+          advice="ask for fewer levels (levels=), or leave levels= out for the whole ladder", parameters=["levels"])
     return Spectrum(
         tuple(lad.energy(m) for m in range(count)),
         tuple(lad.degeneracy(m) for m in range(count)),
