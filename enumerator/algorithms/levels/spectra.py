@@ -36,6 +36,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from functools import cached_property
 from fractions import Fraction
 from typing import List, Optional, Tuple
 
@@ -361,9 +362,9 @@ class Spectrum:
         """True when the listed levels are the whole spectrum."""
         return self.ladder is None
 
-    @property
+    @cached_property
     def lowest(self) -> int:
-        """The lowest single-particle energy, in units."""
+        """The lowest single-particle energy, in units (found once: callers read it once per level)."""
         return min(self.energies)
 
     def level_energy(self, i: int) -> Fraction:
