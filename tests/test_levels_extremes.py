@@ -100,3 +100,18 @@ def test_reported_levels_are_planned():
                      "--report-levels", count, "--max-seconds", "5")
         assert result.exit_code == 2 and result.stderr.count("\n") == 1
         assert "report fewer levels" in result.stderr
+
+
+def test_few_digits_asked_still_give_every_digit_of_a_double():
+    # 6 digits on the exact recursion were rounded in binary to ~20 bits (9999.38671875 for 9999.3874...), and
+    # the occupations with the rest above them missed N by 1e-3; the recursion now computes at least 17 digits.
+    # Reference: the same system at 30 digits (the recursion itself at higher precision).
+    import json
+
+    low = json.loads(run("levels", "--preset", "trap", "--particles", "2000", "--rule", "BE", "--temperatures", "2",
+                         "--digits", "6", "--route", "recursion", "--json").stdout)["canonical"][0]
+    high = json.loads(run("levels", "--preset", "trap", "--particles", "2000", "--rule", "BE", "--temperatures", "2",
+                          "--digits", "30", "--route", "recursion", "--json").stdout)["canonical"][0]
+    for key in ("mean_energy_approx", "heat_capacity_approx", "entropy_approx"):
+        assert low[key] == pytest.approx(high[key], rel=1e-15)
+    assert sum(low["occupation_approx"]) + low["occupation_above_approx"] == pytest.approx(2000, rel=1e-15)

@@ -617,7 +617,11 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
     ``|w_k|``, equal to ``Z`` for BE).  The working precision is accepted when
     that error is below ``10^-digits`` relative to ``Z_N``, ``M1_N`` and the
     variance ``M2_N Z_N - M1_N^2``; otherwise it is raised by the shortfall.
+    At least :data:`FLOAT_DIGITS` digits are computed, whatever is asked: the
+    values end as doubles on the command line, and a value rounded to fewer
+    (binary) digits printed false ones (``9999.38671875`` at 6 digits).
     """
+    digits = max(digits, FLOAT_DIGITS)
     spectrum = system.spectrum
     if count > len(spectrum.energies):
         spectrum = spectrum.through(spectrum.ladder.energy(count - 1))
@@ -1006,6 +1010,9 @@ def _float_points(system: System, temperatures: List[Fraction], digits: int, cou
         out[i] = result
     return out
 
+
+#: Fewest digits the exact recursion computes (a double's 17 significant digits).
+FLOAT_DIGITS = 17
 
 #: Most digits of the grand-canonical comparison in :func:`canonical` (its fields are approximations beside
 #: the canonical ones; at 3000 digits the chemical potential alone took 25-32 s).
