@@ -653,10 +653,15 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
             lost = float(min(min(gaps) * spectrum.unit / temperature, Fraction(2**64))) / math.log(2)
             bits = max(bits, target + margin + 16 + math.ceil(min(lost, 2.0**64)))
     if system.rule is not Rule.MB:
+        # the float route only where its one-particle sums stay in the double range (e^{-β Δ} above e^-700)
+        low = spectrum.lowest
+        gaps = [e - low for e in spectrum.energies if e > low]
+        floatable = (system.rule is Rule.BE and system.capacity is None
+                     and (not gaps or min(gaps) * spectrum.unit / temperature < 700))
         check(_recursion_cost(system, spectrum, temperature, bits, moments),
               f"the canonical recursion of {n} particles at T = {temperature_text(temperature)}",
-              advice="raise the temperature, lower particles=, or for bosons use route= float",
-              parameters=["particles", "route"])
+              advice="raise the temperature, lower particles=" + (", or use route= float" if floatable else ""),
+              parameters=["particles", "route"] if floatable else ["particles"])
     for _attempt in range(12):
         with mpmath.workprec(bits + 32):
             T = mpmath.mpf(temperature.numerator) / temperature.denominator
