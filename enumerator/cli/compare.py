@@ -182,6 +182,10 @@ def compare_command(
     def spell(error):
         return error.spelled(FLAGS)
 
+    if factor is not None:  # sized before the library's Fraction reads it (1e-99999999 would not end)
+        from ..algorithms.levels.spectra import size_number_text
+
+        size_number_text(factor, "--factor")
     with store_scope(store, no_cache), limits_scope(max_memory, max_seconds):
         plans = plan_sweep(
             names, vary, step=step, geometric=geometric, balls=balls, urns=urns, rule=rule,
