@@ -127,7 +127,7 @@ def catalogue_text(entries: Sequence[dict]) -> str:
 # ---------------------------------------------------------------------------
 # JSON
 # ---------------------------------------------------------------------------
-def row_payload(row: Row, spell: Spell = _plain) -> dict:
+def row_payload(row: Row, spell: Spell = _plain, extra: Sequence[str] = ()) -> dict:
     """The ``--json`` object of one row.
 
     Parameters
@@ -135,25 +135,33 @@ def row_payload(row: Row, spell: Spell = _plain) -> dict:
     row : Row
     spell : callable
         Turns a skip reason (an error) into text.
+    extra : sequence of str
+        The other parameters the approximation uses (``capacity``,
+        ``minimum``, ``at``, ``factor``), written after ``urns`` so that
+        the points of a sweep over one of them can be told apart.
 
     Returns
     -------
     dict
-        Computed: ``{"balls", "urns", "exact", "approx", "relative_error_approx"}``
-        (``exact`` exact text, ``approx`` decimal text, the error a float or,
-        beyond double range, mpmath's decimal text), plus ``"note"`` when
-        the relative error is undefined (``null``).  Skipped:
-        ``{"balls", "urns", "skipped": reason}``.
+        Computed: ``{"balls", "urns", <extra>, "exact", "approx",
+        "relative_error_approx"}`` (``exact`` exact text, ``approx`` decimal
+        text, the error a float or, beyond double range, mpmath's decimal
+        text; an extra parameter a whole number, ``factor`` exact text
+        ``"p/q"``), plus ``"note"`` when the relative error is undefined
+        (``null``).  Skipped: ``{"balls", "urns", <extra>, "skipped": reason}``.
 
     Notes
     -----
     Cost: linear in the length of the exact value's text.
     """
+    point = {"balls": row.point.balls, "urns": row.point.urns}
+    for name in extra:
+        value = row.point.value(name)
+        point[name] = value if value is None or isinstance(value, int) else exact_text(value)
     if row.error is not None:
-        return {"balls": row.point.balls, "urns": row.point.urns, "skipped": spell(row.error)}
+        return {**point, "skipped": spell(row.error)}
     payload = {
-        "balls": row.point.balls,
-        "urns": row.point.urns,
+        **point,
         "exact": exact_text(row.exact),
         "approx": row.approx_text(),
         "relative_error_approx": float_or_text(row.relative_error_approx),
@@ -189,7 +197,7 @@ def comparison_payload(comparison: Comparison, spell: Spell = _plain) -> dict:
         return {"approximation": comparison.approximation.name, "error": spell(comparison.error)}
     return {
         "approximation": comparison.approximation.name,
-        "rows": [row_payload(row, spell) for row in comparison.rows],
+        "rows": [row_payload(row, spell, _extra_columns(comparison)) for row in comparison.rows],
         "order_approx": comparison.order_approx,
     }
 
@@ -229,6 +237,7 @@ class _JsonWriter:
         self.out, self.several, self.spell = out, several, spell
         self.first_comparison = True
         self.first_row = True
+        self.extra: List[str] = []
         if several:
             out.write('{"comparisons": [')
 
@@ -241,12 +250,13 @@ class _JsonWriter:
         self._open()
         self.out.write('{"approximation": ' + _dumps(plan.approximation.name) + ', "rows": [')
         self.first_row = True
+        self.extra = _extra_columns(plan)
 
     def row(self, row: Row, local: Optional[float]) -> None:
         if not self.first_row:
             self.out.write(", ")
         self.first_row = False
-        self.out.write(_dumps(row_payload(row, self.spell)))
+        self.out.write(_dumps(row_payload(row, self.spell, self.extra)))
         self.out.flush()
 
     def end(self, comparison: Comparison) -> None:
