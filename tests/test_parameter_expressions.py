@@ -33,3 +33,10 @@ def test_expressions_within_the_bounds_evaluate_as_python_does():
     assert parse_tie("-" * 99 + "5", "balls")() == -5  # 99 minus signs: odd, so negative
     assert parse_tie("1+" * 199 + "balls", "balls")(3) == 202
     assert parse_tie("balls*balls//3 - (balls+1)/2", "balls")(9) == 9 * 9 // 3 - 5
+
+
+def test_a_negative_parameter_names_the_point_only_in_a_sweep():
+    fixed = run("compare", "birthday", "--balls", "-1", "--urns", "3")
+    assert fixed.exit_code == 2 and fixed.stderr.strip() == "Error: balls is -1; it must be at least 0"
+    swept = run("compare", "birthday", "--vary", "balls=1..3", "--urns", "balls-2")
+    assert swept.exit_code == 2 and "urns is -1 at balls=1" in swept.stderr

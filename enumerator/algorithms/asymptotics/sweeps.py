@@ -574,7 +574,8 @@ def sweep(vary: Optional[str] = None, step=None, geometric=None, **parameters) -
             numbers[variable] = value
         for k, v in numbers.items():
             if v < 0:
-                raise InvalidParameters(f"{k} is {v} at {variable}={value}; it must be at least 0")
+                where = "" if value is None else f" at {variable}={value}"
+                raise InvalidParameters(f"{k} is {v}{where}; it must be at least 0", parameters=[k])
         points.append(Point(
             balls=numbers["balls"],
             urns=numbers.get("urns"),
