@@ -36,8 +36,8 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from functools import cached_property
 from fractions import Fraction
+from functools import cached_property
 from typing import List, Optional, Tuple
 
 import mpmath
