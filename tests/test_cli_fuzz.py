@@ -91,6 +91,68 @@ EXPRESSIONS = mix(st.sampled_from(["1/(1-x)", "1/(1 - x - x^2)", "(1+x)^5", "(1+
 TARGETS = mix(st.sampled_from(["0.5", "1/2", "1e-6", "0.999", "0.9", "1/10", "1"]),
               st.sampled_from(["2", "0", "-1", "abc", "1e-9999", ""]))
 
+ENERGIES = mix(st.sampled_from(["0,1,2,3", "0,1/2,3/2", "0,1", "-1,0,2", "0,0.25,1"]),
+               st.sampled_from(["0,1e400", "", "0,a", "1/0", "0,1e99999999", "0," + "9" * 5000]))
+TEMPERATURES = mix(st.sampled_from(["1", "0.5,2", "0.1..3:4", "1..3", "0.5..4:3:log", "10", "1e-6", "1e300"]),
+                   st.sampled_from(["0", "-1", "", "1e-400", "1e99999999", "1..", "3..1:2", "0.5..0.6"]))
+FACTORS = mix(st.sampled_from(["1/2", "2/3", "1/10"]), st.sampled_from(["1", "0", "2", "-1/2", "1e-99999999"]))
+
+
+def _levels_argv(draw):
+    args = ["levels"]
+    if draw(st.booleans()):
+        args += ["--preset", draw(mix(st.sampled_from(["harmonic", "trap", "two-level"]), st.just("nope")))]
+    else:
+        args += ["--energies", draw(ENERGIES)]
+        if draw(st.booleans()):
+            args += ["--degeneracies", draw(mix(st.sampled_from(["1,2,3,4", "1,1", "2,2,2"]),
+                                                st.sampled_from(["0,1", "-1", "a"])))]
+    args += ["--particles", draw(COUNTS), "--rule", draw(RULES)]
+    what = draw(st.sampled_from(["temperatures", "temperatures", "factor", "max-energy"]))
+    if what == "temperatures":
+        args += ["--temperatures", draw(TEMPERATURES)]
+    elif what == "factor":
+        args += ["--factor", draw(FACTORS)]
+    else:
+        args += ["--max-energy", draw(mix(st.sampled_from(["6", "20", "7/2"]),
+                                          st.sampled_from(["-1", "1e400", "99999999999999999999", ""])))]
+    args += draw(st.sampled_from([[], ["--occupation-law", "0"], ["--report-levels", draw(COUNTS)],
+                                  ["--digits", draw(mix(st.sampled_from(["10", "30"]), st.sampled_from(["2", "99999"])))],
+                                  ["--route", draw(st.sampled_from(["auto", "float", "particle-hole", "nope"]))],
+                                  ["--processes", draw(COUNTS)]]))
+    return args + ["--json"]
+
+
+def _contact_argv(draw):
+    args = ["contact"]
+    for side in ("a", "b"):
+        if draw(st.booleans()):
+            args += [f"--oscillators-{side}", draw(COUNTS)]
+        else:
+            args += [f"--energies-{side}", draw(ENERGIES), f"--particles-{side}", draw(COUNTS)]
+    if draw(st.booleans()):
+        args += ["--quanta", draw(COUNTS)]
+    else:
+        args += ["--energy", draw(mix(st.sampled_from(["3", "5/2", "0"]), st.sampled_from(["-1", "1e400", "x"])))]
+    args += draw(st.sampled_from([[], ["--summary"], ["--splits", "1..3"], ["--splits", "2"], ["--splits", "9..1"]]))
+    return args + ["--json"]
+
+
+def _compare_argv(draw):
+    name = draw(mix(st.sampled_from(["birthday", "empty-mean", "poisson", "normal", "stirling1", "saddle",
+                                     "boltzmann", "entropy", "birthday,empty-mean"]), st.just("nope")))
+    args = ["compare", name]
+    if draw(st.booleans()):
+        args += ["--vary", draw(mix(st.sampled_from(["balls=10..40", "balls=2..200", "at=0..2"]),
+                                    st.sampled_from(["balls=5..1", "x=1..2", "balls=..3"]))),
+                 "--urns", draw(mix(st.sampled_from(["balls", "balls//2", "balls*balls", "7"]),
+                                    st.sampled_from(["balls-100", "(" * 200 + "balls" + ")" * 200, "balls/0"])))]
+        if "at=" in args[-3]:
+            args += ["--balls", "30"]
+    else:
+        args += ["--balls", draw(COUNTS), "--urns", draw(COUNTS)]
+    return args + ["--no-cache", "--json"]
+
 
 def _model_options(draw, *, need_urns=True):
     args = ["-n", draw(COUNTS)]
@@ -113,7 +175,13 @@ def _model_options(draw, *, need_urns=True):
 @st.composite
 def argvs(draw):
     command = draw(mix(st.sampled_from(["count", "prob", "dist", "list", "gf", "coeff", "sample", "ways",
-                                        "threshold"]), st.just("bogus")))
+                                        "threshold", "levels", "contact", "compare"]), st.just("bogus")))
+    if command == "levels":
+        return _levels_argv(draw)
+    if command == "contact":
+        return _contact_argv(draw)
+    if command == "compare":
+        return _compare_argv(draw)
     if command == "count":
         return ["count", *_model_options(draw), "--no-cache"] + draw(st.sampled_from([[], ["--json"]]))
     if command == "prob":

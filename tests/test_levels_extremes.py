@@ -12,6 +12,19 @@ import pytest
 from cli_helpers import run, run_json
 
 
+@pytest.mark.parametrize("rule", ["FD", "MB"])
+@pytest.mark.parametrize("temperature", ["1e6", "1e100"])
+def test_fermions_far_above_the_spacing_answer_at_once(rule, temperature):
+    # Three particles in the 1D oscillator far above the spacing: U -> N k_B T, C -> N (equipartition, from
+    # memory as above); FD's grand-canonical comparison summed millions of rungs one by one before; the
+    # occupation law of level 1 (at 1e300 its formula divided by 1 - e^{-βs} rounded to 0).
+    point = run_json("levels", "--particles", "3", "--preset", "harmonic", "--rule", rule,
+                     "--temperatures", temperature, "--occupation-law", "1")["canonical"][0]
+    assert point["heat_capacity_approx"] == pytest.approx(3, rel=1e-5)
+    assert point["mean_energy_approx"] == pytest.approx(3 * float(temperature), rel=1e-5)
+    assert sum(point["occupation_law_approx"].values()) == pytest.approx(1, rel=1e-12)
+
+
 @pytest.mark.parametrize("temperature", ["1e100", "1e300"])
 def test_bosons_far_above_the_spacing_reach_equipartition(temperature):
     point = run_json("levels", "--particles", "3", "--preset", "trap", "--rule", "BE",

@@ -1373,9 +1373,10 @@ def _gc_total(system: System, b, eta, formula):
     # q = e^{-j b s}, in closed form q^m0 sum_{i<d} C(m0+i-1, i) (1-q)^{-(d-i)}
     # (Vandermonde's convolution).
     m0 = max(0, int(mpmath.ceil((eta + _TAIL_GAP) / bs)))
-    if m0 and system.capacity is None and eta < 0:
-        # Bosons (and MB): the tail series converges from rung 0 on (fugacity e^eta < 1), in
-        # about prec ln 2 / |eta| terms; far fewer than m0 rungs when k_B T is many spacings.
+    if m0 and eta < 0:
+        # A fugacity e^eta < 1: the tail series converges from rung 0 on (every x >= -eta > 0; for FD and
+        # a capacity its weights alternate, the terms still falling), in about prec ln 2 / |eta| terms:
+        # far fewer than m0 rungs when k_B T is many spacings.
         if mpmath.mp.prec * 0.7 / -eta < m0:
             m0 = 0
     total = mpmath.mpf(0)
@@ -1492,11 +1493,16 @@ def grand_canonical(system: System, temperature, digits: int = DEFAULT_DIGITS, l
             def h(e):
                 return _gc_total(sysx, b, e, formula) - target
 
-            lo, hi = mpmath.mpf(-1), mpmath.mpf(1)
+            # Start about the classical fugacity N / z_1 when it is small (far above the Fermi
+            # temperature every statistics is MB's): a bracket at eta = 1 there would sum ~5/(β s)
+            # rungs one by one (millions at k_B T = 10^6 spacings).
+            z1 = _Single(spectrum, b, False).sums(1)[0][1]
+            start = mpmath.log(target / z1) if target < z1 else mpmath.mpf(0)
+            lo, hi = start - 1, start + 1
             while h(lo) > 0:
-                lo = 2 * lo
+                lo = lo - 2 * (1 + abs(lo - start))
             while h(hi) < 0:
-                hi = 2 * hi
+                hi = hi + 2 * (1 + abs(hi - start))
             eta = _bracketed_root(h, lo, hi, target)
         occ = [
             g * formula(mpmath.exp(b * (e - shift) - eta))

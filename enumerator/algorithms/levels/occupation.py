@@ -168,11 +168,13 @@ def _kmax(system: System, g: int) -> int:
     return min(n, system.capacity * g)
 
 
-def _reduced_sums(system: System, index: int, low: int, kmax: int, power):
+def _reduced_sums(system: System, index: int, low: int, kmax: int, power, one_minus=None):
     """``z'_k`` (``k = 1..kmax``) of the remaining levels, energies from *low*; index 0 unused.
 
     *power(e)* returns ``e^{-β e}`` for an energy ``e`` in units (an mpmath
     number or an exact ``mpq``), so the same code serves both arithmetics.
+    *one_minus(e)*, when given, returns ``1 - e^{-β e}`` without cancelling
+    (``-expm1(-β e)``): far above the spacing ``e^{-β s}`` rounds to 1.
     """
     spectrum = system.spectrum
     out = [None]
@@ -192,9 +194,9 @@ def _reduced_sums(system: System, index: int, low: int, kmax: int, power):
     qk = q1 * 0 + 1
     yk = qk
     binom = [math.comb(d, j) for j in range(d + 1)]
-    for _ in range(kmax):
+    for k in range(1, kmax + 1):
         qk = qk * q1
-        inv = 1 / (1 - qk)
+        inv = 1 / (1 - qk if one_minus is None else one_minus(k * lad.spacing))
         r = qk * inv
         if index == 0:
             # ((1 + r)^d - 1) q^-k = Σ_{j>=1} C(d, j) r^(j-1) / (1 - q^k): positive terms.
@@ -232,8 +234,9 @@ def _law_at(system: System, index: int, temperature: Fraction, digits: int):
         with mpmath.workprec(bits + 32):
             T = mpmath.mpf(temperature.numerator) / temperature.denominator
             b = mpmath.mpf(u_frac.numerator) / u_frac.denominator / T
+            one_minus = lambda e, b=b: -mpmath.expm1(-b * e)  # noqa: E731
             if system.rule is Rule.MB:
-                law = _binomial_law(system, index, e_l, g, lambda e, b=b: mpmath.exp(-b * e))
+                law = _binomial_law(system, index, e_l, g, lambda e, b=b: mpmath.exp(-b * e), one_minus)
                 return law, bits
             low, cap_rest = _others(system, index)
             w = system.weights(n)
@@ -244,7 +247,7 @@ def _law_at(system: System, index: int, temperature: Fraction, digits: int):
             else:
                 # z'_k lose at most log2(Z_1) bits to the subtraction for an upper rung.
                 with mpmath.workprec(bits + 64 + 4 * n.bit_length()):
-                    zp = _reduced_sums(system, index, low, n, lambda e, b=b: mpmath.exp(-b * e))
+                    zp = _reduced_sums(system, index, low, n, lambda e, b=b: mpmath.exp(-b * e), one_minus)
                 kern = [0] + [to_fixed(w[k] * zp[k], bits) for k in range(1, n + 1)]
                 kernels, couplings, starts = [kern], [[(0, 0)]], [1 << bits]
                 if alternating:
@@ -340,13 +343,13 @@ def _python_product_seconds(a: float, b: float) -> float:
     return 2e-7 + hi / lo * 2.7e-11 * lo ** 1.585
 
 
-def _binomial_law(system: System, index: int, e_l: int, g: int, power):
+def _binomial_law(system: System, index: int, e_l: int, g: int, power, one_minus=None):
     """MB: ``C(N, k) p^k (1 - p)^(N-k)``, ``p = g y_l / (g y_l + z'_1)`` (energies from the lowest other level)."""
     n = system.particles
     low, _cap = _others(system, index)
     if low is None:
         return [0] * n + [1]
-    zp1 = _reduced_sums(system, index, low, 1, power)[1]
+    zp1 = _reduced_sums(system, index, low, 1, power, one_minus)[1]
     a = g * power(e_l - low)
     p = a / (a + zp1)
     q = zp1 / (a + zp1)
