@@ -128,3 +128,25 @@ def test_few_digits_asked_still_give_every_digit_of_a_double():
     for key in ("mean_energy_approx", "heat_capacity_approx", "entropy_approx"):
         assert low[key] == pytest.approx(high[key], rel=1e-15)
     assert sum(low["occupation_approx"]) + low["occupation_above_approx"] == pytest.approx(2000, rel=1e-15)
+
+
+@pytest.mark.parametrize("rule", ["MB", "BE", "FD"])
+def test_a_degeneracy_beyond_the_double_range(rule):
+    # Levels 0 (one state) and 1 (G = 10^400 - 1 states), three particles at T = 1: the upper level wins, and
+    # distinguishable particles are independent with P(level 0) = p = 1/(1 + G/e), so C = 3 p (1 - p) (the
+    # two-level system; common practice).  FD and BE agree with MB to leading order: at most one particle
+    # can sit in the single lower state, and two or more there weigh p^2 relatively.  The bound on ln Z
+    # overflowed a float, and MB's z2/z - (z1/z)^2 lost the variance entirely (C = 0).
+    import json
+
+    import mpmath
+
+    g = "9" * 400
+    result = run("levels", "--energies", "0,1", "--degeneracies", f"1,{g}", "--particles", "3", "--rule", rule,
+                 "--temperatures", "1", "--json")
+    assert result.exit_code == 0, result.stderr
+    point = json.loads(result.stdout, parse_float=str)["canonical"][0]
+    with mpmath.workdps(30):
+        p = 1 / (1 + mpmath.mpf(int(g)) / mpmath.e)
+        expected = 3 * p * (1 - p)
+        assert abs(mpmath.mpf(point["heat_capacity_approx"]) / expected - 1) < 1e-10

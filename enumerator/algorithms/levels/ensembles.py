@@ -509,8 +509,11 @@ def ln_partition_bound(spectrum: Spectrum, particles: int, temperature: Fraction
     else:
         low = spectrum.lowest
         # an energy beyond the float range weighs nothing here (e^-700 and less are dropped by exp anyway)
-        log_z1 = math.log(sum(g * math.exp(-b * float(min(e - low, Fraction(10**300))))
-                              for e, g in zip(spectrum.energies, spectrum.degeneracies)))
+        # in logarithms: a degeneracy may pass the double range (10^400 states)
+        logs = [math.log(g) - b * float(min(e - low, Fraction(10**300)))
+                for e, g in zip(spectrum.energies, spectrum.degeneracies)]
+        top = max(logs)
+        log_z1 = top + math.log(sum(math.exp(x - top) for x in logs))
     if log_z1 < 600:
         z1 = math.exp(log_z1)
         return z1 * math.log1p(n / z1) + n * math.log1p(z1 / n)
@@ -589,17 +592,25 @@ def _report_count(spectrum: Spectrum, levels: Optional[int]) -> int:
 
 
 def _canonical_mb(system, spectrum, b, count, target_bits):
-    """MB closed forms: ``ln Z = N ln z``, ``U = N z1/z``, ``Var = N (z2/z - (z1/z)^2)``.
+    """MB closed forms: ``ln Z = N ln z``, ``U = N z1/z``, ``Var = N Var_1``.
 
-    Returns the values and the bits the one-particle variance lost to cancellation.
+    The one-particle variance without the cancellation of ``z2/z - (z1/z)^2``
+    (which lost everything when it is ``10^-400`` of the squared mean): a
+    finite spectrum as ``Σ g y (e - <e>)^2 / z``, positive terms; a ladder
+    in closed form, ``d s^2 r (1 + r)`` with ``r = 1/(e^{b s} - 1)``.
+    Returns the values and the bits lost to cancellation (none now).
     """
-    z, z1, z2 = _Single(spectrum, b, True).sums(1)
+    single = _Single(spectrum, b, True)
+    z, z1, z2 = single.sums(1)
     n = system.particles
     mean1 = z1[1] / z[1]
-    var1 = z2[1] / z[1] - mean1 * mean1
+    if spectrum.finite:
+        var1 = mpmath.fsum(g * y * (e - mean1) ** 2 for g, y, e in zip(single.g, single.y, single.shifted)) / z[1]
+    else:
+        lad = spectrum.ladder
+        r = 1 / mpmath.expm1(b * lad.spacing)
+        var1 = lad.dimension * lad.spacing**2 * r * (1 + r)
     lost = 0
-    if var1 > 0 and mean1 > 0:
-        lost = max(0, int(mpmath.log(mean1 * mean1 / var1, 2)) + 1)
     occ = []
     low = spectrum.lowest  # a min over the levels: once, not per level
     for i in range(count):

@@ -315,7 +315,10 @@ def _level_arrays(spectrum: Spectrum, degree: int):
             g = np.concatenate([g, below(edges[1:]) - below(edges[:-1])])
         return m * lad.spacing, g
     pairs = [(e - low, g) for e, g in spectrum.levels_below(low + min(degree, _BOUND_LEVELS))]
-    return (np.array([e for e, _ in pairs], dtype=float), np.array([g for _, g in pairs], dtype=float))
+    # a degeneracy beyond the double range (10^400 states) is held at 2^1000 here: these arrays only size the
+    # coefficients for the plan, and such a level is refused on its own size before that matters
+    return (np.array([float(min(e, 2**1000)) for e, _ in pairs], dtype=float),
+            np.array([float(min(g, 2**1000)) for _, g in pairs], dtype=float))
 
 
 def _minimise(f, lo: float = -40.0, hi: float = 12.0) -> float:
