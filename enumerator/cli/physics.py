@@ -157,10 +157,10 @@ def levels_command(
         str,
         _levels_opt("--route", "Canonical method: auto (fermions far below the Fermi temperature by the "
                     "particle-hole expansion; bosons by the float route when --digits is at most 12, the "
-                    "recursion would be 4 times slower and the float bounds meet the digits; the rest by "
+                    "recursion would be twice as slow and the float bounds meet the digits; the rest by "
                     "the Borrmann-Franke recursion), recursion, particle-hole (FD only), float (BE only: "
-                    "double precision with rigorous error bounds in the output; N = 10^4 in 0.35-0.8 s "
-                    "per temperature).", _THERMO, "ROUTE"),
+                    "double precision with rigorous error bounds in the output; N = 10^4 in about half a "
+                    "second per temperature, temperatures side by side in passes of 8).", _THERMO, "ROUTE"),
     ] = "auto",
     digits: Annotated[
         int, _levels_opt("--digits", "Significant digits of the canonical arithmetic (mpmath), at most 10,000.", _THERMO, whole=0)

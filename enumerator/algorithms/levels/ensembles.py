@@ -876,10 +876,11 @@ def canonical(
 
     Bosons (BE without a capacity, route ``"auto"``) take the float route
     (:func:`.bosons_float.canonical_float`) when at most :data:`FLOAT_MAX_DIGITS` digits
-    are asked and the exact recursion's estimated time is at least four
-    times the float route's (:func:`_float_pays`: 10^4 bosons in the 3D trap
-    from about ``k_B T = 6`` spacings up, where the recursion takes seconds
-    to minutes), and keep it only when every bound (``ln Z`` through ``F``,
+    are asked and the exact recursion's estimated time is at least twice
+    the float route's share of a pass (:func:`_float_pays`: 10^4 bosons in
+    the 3D trap at every ``k_B T`` from 0.5 spacings up, where the recursion
+    takes one second to minutes a temperature and the float route about
+    half a second), and keep it only when every bound (``ln Z`` through ``F``,
     ``U``, ``U - E_0``, ``C``, ``S``, the occupations and the level-0
     variance) is within ``10^-digits`` relative; otherwise the exact
     recursion runs.  The point then says ``route="float"`` and carries its
@@ -1042,7 +1043,8 @@ def _float_pays(system: System, temperature: Fraction, digits: int, count: int) 
 
     Bosons (BE without a capacity, at least one particle), at most
     :data:`FLOAT_MAX_DIGITS` digits asked, and the exact recursion's estimated
-    time (:func:`_recursion_cost`) at least four times the float route's
+    time (:func:`_recursion_cost`) at least twice the float route's share of
+    a pass of :data:`~.bosons_float.BATCH` temperatures
     (:func:`.bosons_float.float_cost`).
     """
     if system.rule is not Rule.BE or system.capacity is not None or system.particles == 0:
@@ -1055,7 +1057,9 @@ def _float_pays(system: System, temperature: Fraction, digits: int, count: int) 
     n = system.particles
     bits = math.ceil(digits * math.log2(10)) + 8 + 2 * (n + 1).bit_length() + 16
     exact = _recursion_cost(System(spectrum, n, system.rule, system.capacity), spectrum, temperature, bits, True)
-    return exact.seconds >= 4 * float_cost(spectrum, n, count).seconds
+    # the float route's share of a pass of BATCH temperatures (they go in passes), at least twice cheaper
+    share = float_cost(spectrum, n, count, BATCH).seconds / BATCH
+    return exact.seconds >= 2 * share
 
 
 def particle_hole_pays(system: System, temperature: Fraction, digits: int, route: str) -> bool:
