@@ -207,11 +207,11 @@ def test_mpmath_log_of_a_large_binomial():
     # mpmath.loggamma as an independent, approximate route: ln C(n+r-1, n)
     import mpmath
 
-    mpmath.mp.dps = 60
     n, r = 50000, 3000
     exact = Occupancy(balls=n, urns=r, rule="BE").configurations()
-    approx = mpmath.loggamma(n + r) - mpmath.loggamma(n + 1) - mpmath.loggamma(r)
-    assert abs(mpmath.log(exact) - approx) < mpmath.mpf(10) ** -40
+    with mpmath.workdps(60):  # not mp.dps = 60: that leaked into every later test
+        approx = mpmath.loggamma(n + r) - mpmath.loggamma(n + 1) - mpmath.loggamma(r)
+        assert abs(mpmath.log(exact) - approx) < mpmath.mpf(10) ** -40
 
 
 # ---------------------------------------------------------------------------
