@@ -506,6 +506,7 @@ def table_show_command(
     fit = max(1, min(8, (console().width - 10) // 13))  # value columns that fit the terminal
     cols = grid_range(urns, "--urns", 1, capped=False) if urns else range(spec.urns.start, min(spec.urns.stop, spec.urns.start + fit))
     windows = []
+    clipped = []
     for window, full, flag in ((rows, spec.balls, "--balls"), (cols, spec.urns, "--urns")):
         inside = range(max(window.start, full.start), min(window.stop, full.stop))
         if not inside:
@@ -514,6 +515,8 @@ def table_show_command(
             raise InvalidParameters(f"{flag} {_range_text(window)} is outside the table, which covers "
                                     f"{flag.lstrip('-')} {_range_text(full)}; choose a window inside it")
         windows.append(inside)  # the part of the window the table covers
+        if inside != window:
+            clipped.append(f"{flag} {_range_text(window)} reaches past the table; shown: {_range_text(inside)}")
     rows, cols = windows
     # only the window is read (WHERE on n and r), plus one count of the whole table
     data = load_table(name, store=target, balls=rows, urns=cols)
@@ -545,6 +548,8 @@ def table_show_command(
         sys.stdout.write("ab…[d]: a value of d digits that starts with ab; 'table export' gives them in full.\n")
     if data.missing:
         sys.stdout.write("· not built yet; run 'enumerator table build' with the same grid to finish.\n")
+    for line in clipped:
+        sys.stdout.write(line + ".\n")
 
 
 @table_app.command("export")
