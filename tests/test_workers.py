@@ -126,3 +126,23 @@ def test_the_weighted_maximum_law_shared_among_processes_equals_brute_force(monk
     monkeypatch.setenv("ENUMERATOR_PROCESSES", "2")
     shared = run_json("dist", "-n", "6", "--weights", "2x1,2x2,2x3", "--stat", "max", "--no-cache")
     assert shared["pmf"] == expected
+
+
+def test_occupation_laws_in_processes_equal_one_process(monkeypatch):
+    # The canonical law of the ground occupation of 12 trap bosons at four temperatures: the same numbers when
+    # the temperatures go to two processes (the lowest first, here), and each law sums to 1 (common practice).
+    import mpmath
+
+    from enumerator.algorithms.levels import occupation_law
+
+    monkeypatch.setattr(ensembles, "PROCESSES_AFTER_SECONDS", 0.0)
+    from enumerator.algorithms.levels import occupation as occupation_module
+
+    monkeypatch.setattr(occupation_module, "PROCESSES_AFTER_SECONDS", 0.0)
+    system = make_system(12, preset="trap", rule="BE")
+    temperatures = [Fraction(1), Fraction(1, 2), Fraction(3), Fraction(2)]
+    alone = occupation_law(system, 0, temperatures, digits=20)
+    shared = occupation_law(system, 0, temperatures, digits=20, processes=2)
+    assert alone == shared
+    for law in shared:
+        assert abs(mpmath.fsum(law.law) - 1) < 1e-18

@@ -175,7 +175,8 @@ def levels_command(
     ] = False,
     processes: Annotated[
         Optional[int],
-        _levels_opt("--processes", "Compute the temperatures side by side in up to this many local processes "
+        _levels_opt("--processes", "Compute the temperatures (and their occupation laws) side by side in up to "
+                    "this many local processes "
                     "(default: $ENUMERATOR_PROCESSES, else the cores this process may use; 1: one after the other). They start when the "
                     "lowest temperature alone took over a quarter of a second; the answers are those of "
                     "separate calls for groups of neighbouring temperatures.", _THERMO, "P", whole=1),
@@ -290,13 +291,13 @@ def _levels(particles, energies, degeneracies, rule, capacity, preset, levels, d
         report = report_levels
         if report is None and max_energy is None and not system.spectrum.finite:
             report = _default_report(lv, system, temps)
-        points = lv.canonical(system, temps, digits=digits, levels=report, route=route,
-                              processes=active_processes() if processes is None else processes)
+        workers = active_processes() if processes is None else processes
+        points = lv.canonical(system, temps, digits=digits, levels=report, route=route, processes=workers)
         if occupation_law is not None:
             laws = [None] * len(temps)
             floats = [i for i, x in enumerate(factors) if x is None]
             for i, law in zip(floats, lv.occupation_law(system, occupation_law, [temps[i] for i in floats],
-                                                        digits=max(digits, 16))):
+                                                        digits=max(digits, 16), processes=workers)):
                 laws[i] = law
             for i, x in enumerate(factors):
                 if x is not None:

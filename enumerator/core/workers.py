@@ -27,7 +27,7 @@ from typing import Callable, Iterator, List, Optional, Sequence, TypeVar
 from .errors import InvalidParameters
 from .limits import Limits, active_limits, limited
 
-__all__ = ["ENV_PROCESSES", "active_processes", "available_cores", "map_in_processes", "processes"]
+__all__ = ["ENV_PROCESSES", "active_processes", "available_cores", "map_after_first", "map_in_processes", "processes"]
 
 #: Environment variable: most local processes one computation may use (default: the cores available).
 ENV_PROCESSES = "ENUMERATOR_PROCESSES"
@@ -140,3 +140,32 @@ def map_in_processes(func: Callable[[T], R], items: Sequence[T], workers: int) -
     context = multiprocessing.get_context("fork" if "fork" in methods else None)
     with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
         return list(pool.map(_run, [(func, item, share) for item in items]))
+
+
+def map_after_first(func: Callable[[T], R], items: Sequence[T], workers: int, after_seconds: float) -> List[R]:
+    """``[func(item) for item in items]``: the first here, timed; the rest in processes if it was slow.
+
+    Parameters
+    ----------
+    func, items, workers
+        As for :func:`map_in_processes`.
+    after_seconds : float
+        The rest go to up to *workers* processes only when the first item
+        took at least this long (starting them costs about 0.1 s); otherwise
+        they are computed here, one after the other.
+
+    Returns
+    -------
+    list
+        The results in the order of *items*.
+    """
+    import time
+
+    items = list(items)
+    if not items:
+        return []
+    started = time.perf_counter()
+    first = func(items[0])
+    if workers > 1 and len(items) > 1 and time.perf_counter() - started >= after_seconds:
+        return [first, *map_in_processes(func, items[1:], workers)]
+    return [first, *(func(item) for item in items[1:])]

@@ -33,7 +33,6 @@ Boltzmann's constant ``k_B = 1`` (a temperature ``T`` means ``k_B T = T``).
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass, replace
 from fractions import Fraction
 from typing import Dict, Iterable, List, Optional, Tuple
@@ -46,7 +45,7 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.limits import Cost, bigint_bytes, check, multiply_seconds, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
-from ...core.workers import map_in_processes
+from ...core.workers import map_after_first
 from .bosons_float import BATCH, FLOAT_MAX_DIGITS, canonical_float_many, float_cost, float_meets
 from .particle_hole import fermion_canonical
 from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature, temperature_text
@@ -969,28 +968,22 @@ def _canonical_in_processes(system: System, temperatures: List[Fraction], digits
                             grand: bool, route: str, processes: int) -> List[CanonicalPoint]:
     """:func:`canonical` with the temperatures shared among up to *processes* local processes.
 
-    The lowest temperature first, here, timed; if it took less than
-    :data:`PROCESSES_AFTER_SECONDS` the rest follow here too.  Otherwise the
-    rest, sorted, are cut into groups of neighbouring temperatures (at most
+    The lowest temperature first, here, timed (:func:`~enumerator.core.workers.map_after_first`);
+    the rest, sorted, in groups of neighbouring temperatures (at most
     :data:`~.bosons_float.BATCH`, about three groups per process so that
-    unequal groups balance out) and computed by
-    :func:`~enumerator.core.workers.map_in_processes`.  Results in the order given.
+    unequal groups balance out), in processes when the first took over
+    :data:`PROCESSES_AFTER_SECONDS`, else here.  Results in the order given.
     """
     order = sorted(range(len(temperatures)), key=lambda i: temperatures[i])
-    started = time.perf_counter()
-    (first,) = canonical(system, [temperatures[order[0]]], digits, levels, grand, route)
     rest = order[1:]
-    if time.perf_counter() - started < PROCESSES_AFTER_SECONDS:
-        later = canonical(system, [temperatures[i] for i in rest], digits, levels, grand, route)
-    else:
-        size = max(1, min(BATCH, math.ceil(len(rest) / (3 * processes))))
-        groups = [rest[i:i + size] for i in range(0, len(rest), size)]
-        tasks = [(system, [temperatures[i] for i in group], digits, levels, grand, route) for group in groups]
-        later = [p for points in map_in_processes(_canonical_group, tasks, processes) for p in points]
+    size = max(1, min(BATCH, math.ceil(len(rest) / (3 * processes))))
+    groups = [order[:1]] + [rest[i:i + size] for i in range(0, len(rest), size)]
+    tasks = [(system, [temperatures[i] for i in group], digits, levels, grand, route) for group in groups]
+    results = map_after_first(_canonical_group, tasks, processes, PROCESSES_AFTER_SECONDS)
     points: List[Optional[CanonicalPoint]] = [None] * len(temperatures)
-    points[order[0]] = first
-    for i, point in zip(rest, later):
-        points[i] = point
+    for group, group_points in zip(groups, results):
+        for i, point in zip(group, group_points):
+            points[i] = point
     return points
 
 

@@ -69,9 +69,11 @@ from ...core.exact import coprime_fraction
 from ...core.limits import Cost, bigint_bytes, check, decimal_seconds, multiply_seconds, product_seconds
 from ...core.model import as_count
 from ...core.rules import Rule
+from ...core.workers import map_after_first
 from .ensembles import (
     DEFAULT_DIGITS,
     GUARD_DIGITS,
+    PROCESSES_AFTER_SECONDS,
     grand_canonical,
     grand_canonical_level_variance,
     ln_partition_bound,
@@ -392,8 +394,15 @@ def _check_system(system: System) -> None:
         )
 
 
+def _law_piece(task) -> OccupationLaw:
+    """:func:`occupation_law` at one temperature, in one process (a piece for ``processes=``)."""
+    system, level, temperature, digits, grand, route = task
+    (law,) = occupation_law(system, level, [temperature], digits, grand, route)
+    return law
+
+
 def occupation_law(system: System, level: int, temperatures: Iterable, digits: int = DEFAULT_DIGITS,
-                   grand: bool = True, route: str = "auto") -> List[OccupationLaw]:
+                   grand: bool = True, route: str = "auto", processes: int = 1) -> List[OccupationLaw]:
     """Return the canonical law of the occupation of *level* at each temperature.
 
     Parameters
@@ -413,6 +422,11 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
         ``"auto"`` (default: the particle-hole sums for fermions far below
         the Fermi temperature, the recursion otherwise), ``"recursion"`` or
         ``"particle-hole"`` (fermions, a level of its own energy).
+    processes : int
+        Most local processes computing temperatures side by side (default
+        1); the first temperature here, timed, the others in processes when
+        it took over :data:`~.ensembles.PROCESSES_AFTER_SECONDS`
+        (:func:`~enumerator.core.workers.map_after_first`).  The same laws.
 
     Returns
     -------
@@ -467,9 +481,12 @@ def occupation_law(system: System, level: int, temperatures: Iterable, digits: i
                                      or not _own_energy(system, level)):
         raise InvalidParameters("the particle-hole route is for fermions (rule FD) and a level of its own energy",
                                 parameters=["route", "rule"])
+    temperatures = [parse_temperature(value) for value in temperatures]
+    if processes > 1 and len(temperatures) > 1:
+        tasks = [(system, level, t, digits, grand, route) for t in temperatures]
+        return map_after_first(_law_piece, tasks, processes, PROCESSES_AFTER_SECONDS)
     out = []
-    for value in temperatures:
-        temperature = parse_temperature(value)
+    for temperature in temperatures:
         if system.particles and particle_hole_pays(system, temperature, digits, route) and _own_energy(system, level):
             (point,) = fermion_canonical(system, temperatures=[temperature], digits=digits, law_level=level,
                                          levels=1)
