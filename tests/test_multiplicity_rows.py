@@ -36,6 +36,7 @@ from enumerator.algorithms.levels import (
     multiplicity_table,
     two_level,
 )
+from enumerator.algorithms.levels.spectra import ground_and_gap
 from enumerator.core.errors import TooLarge
 from enumerator.core.limits import limited
 
@@ -206,7 +207,7 @@ def test_modular_row_matches_brute_force(energies, degeneracies, n, rule, capaci
     assert {shift + e: v for e, v in enumerate(coeffs) if shift + e >= low} == expected
     # through the planner: with only the modular route's memory allowed the row takes that route
     whole = mult._coefficient_bits(system, n, degree)  # the size bound of Omega(N, E) the primes must hold
-    lean = mult._modular_cost(spectrum, degree, mult._ground_and_gap(spectrum)[1], whole)
+    lean = mult._modular_cost(spectrum, degree, ground_and_gap(spectrum)[1], whole)
     assert mult._plan(system, degree, rows=n + 1).cost.memory > lean.memory  # the recursion's table
     with limited(memory=lean.memory):
         assert mult._plan(system, degree).route == "modular"

@@ -48,7 +48,7 @@ from ...core.errors import InvalidParameters, TooLarge
 from ...core.exact import coprime_fraction
 from ...core.limits import Cost, active_limits, check
 from ...core.rules import Rule
-from .spectra import Spectrum, System, ground_energy, parse_rational
+from .spectra import Spectrum, System, ground_and_gap, ground_energy, parse_rational
 
 __all__ = [
     "Contact",
@@ -275,19 +275,6 @@ class _Plan:
     cost: Cost
 
 
-def _ground_and_gap(spectrum: Spectrum):
-    """``(g0, gap)``: the degeneracy of the lowest level and the distance to the next (``None``: none)."""
-    low = spectrum.lowest
-    lad = spectrum.ladder
-    if lad is not None and lad.offset == low:
-        return lad.degeneracy(0), lad.spacing
-    g0 = sum(g for e, g in zip(spectrum.energies, spectrum.degeneracies) if e == low)
-    above = [e - low for e in spectrum.energies if e > low]
-    if lad is not None:
-        above.append(lad.energy(1) - low)
-    return g0, (min(above) if above else None)
-
-
 def _level_arrays(spectrum: Spectrum, degree: int):
     """Shifted energies and degeneracies (floats) of the levels at most *degree* above the lowest."""
     low = spectrum.lowest
@@ -415,7 +402,7 @@ def _plan(system: System, degree: int, rows: Optional[int] = None) -> _Plan:
         steps = max(1, n.bit_length())
         seconds = 2 * steps * (degree + 1) * (bits + 64) / _POLY_BITS_PER_SECOND
         return _Plan("mb", degree, n, bits, Cost(seconds, int((degree + 1) * (6 * bits / 8 + 100))))
-    g0, gap = _ground_and_gap(spectrum)
+    g0, gap = ground_and_gap(spectrum)
     top = n if rows is not None else (0 if gap is None else min(n, degree // gap))
     route = "recursion"
     if rows is None and system.rule is Rule.BE and system.capacity is None and g0 == 1 and gap is not None \
@@ -597,7 +584,7 @@ def _excited_recursion(system: System, top: int, degree: int) -> fmpz_poly:
     ``Z_N = Σ_m G_{N-m} Y_m``.
     """
     spectrum = system.spectrum
-    g0, _ = _ground_and_gap(spectrum)
+    g0, _ = ground_and_gap(spectrum)
     z = _series_z(spectrum, spectrum.lowest, degree)
     z[0] = 0
     rows = _partition_polynomials_of(z, system.weights(top), top, degree)
@@ -754,7 +741,7 @@ def _modular_row(system: System, degree: int, bits: float) -> List[int]:
     the recursion.
     """
     n = system.particles
-    g0, gap = _ground_and_gap(system.spectrum)
+    g0, gap = ground_and_gap(system.spectrum)
     points = degree // gap + 1
     entries = _modular_entries(system, degree, points)
     ground = [_ground_ways(system, g0, n - m) for m in range(min(n, points - 1) + 1)]
@@ -1095,7 +1082,7 @@ def _table_plan(system: System, degree: int) -> _Plan:
     all ``N + 1`` rows (:func:`_plan` with ``rows``).
     """
     n = system.particles
-    g0, gap = _ground_and_gap(system.spectrum)
+    g0, gap = ground_and_gap(system.spectrum)
     top = 0 if gap is None else min(n, degree // gap)
     if top >= n:
         return _plan(system, degree, rows=n + 1)
@@ -1176,7 +1163,7 @@ def _excited_table(system: System, top: int, degree: int):
     """
     spectrum = system.spectrum
     n = system.particles
-    g0, _ = _ground_and_gap(spectrum)
+    g0, _ = ground_and_gap(spectrum)
     z = _series_z(spectrum, spectrum.lowest, degree)
     z[0] = 0
     rows = _partition_polynomials_of(z, system.weights(top), top, degree)

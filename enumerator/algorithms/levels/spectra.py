@@ -907,6 +907,23 @@ def _preset_key(name: str) -> str:
 # --------------------------------------------------------------------------
 # Ground energy
 # --------------------------------------------------------------------------
+def ground_and_gap(spectrum: Spectrum):
+    """``(g0, gap)``: the degeneracy of the lowest level and the distance to the next (``None``: none).
+
+    In units of the energy grid.  A ladder counts its rungs beyond the listed
+    levels (a ladder listed to rung 0 still has the gap of its spacing).
+    """
+    low = spectrum.lowest
+    lad = spectrum.ladder
+    if lad is not None and lad.offset == low:
+        return lad.degeneracy(0), lad.spacing
+    g0 = sum(g for e, g in zip(spectrum.energies, spectrum.degeneracies) if e == low)
+    above = [e - low for e in spectrum.energies if e > low]
+    if lad is not None:
+        above.append(lad.energy(1) - low)
+    return g0, (min(above) if above else None)
+
+
 def ground_energy(system: System) -> Optional[int]:
     """The lowest total energy of *system*, in units (``None`` if no state exists).
 
