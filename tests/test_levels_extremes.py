@@ -52,18 +52,20 @@ def test_a_unit_step_range_must_reach_its_upper_end():
     assert [p["temperature"] for p in points] == [0.5, 1.5, 2.5]
 
 
+@pytest.mark.parametrize("levels", [1, 2])
 @pytest.mark.parametrize("temperature", ["1e-4", "1e-5"])
-def test_bosons_far_below_the_first_gap_answer_at_once(temperature):
+def test_bosons_far_below_the_first_gap_answer_at_once(temperature, levels):
     # Ten bosons in the 3D trap at k_B T = 10^-4 and 10^-5 spacings: one particle lifted to the first
     # rung (3 states, gap 1) carries U - E0 = 3 e^{-1/T} (1 + O(e^{-1/T})) and C = β^2 3 e^{-1/T}
     # (the Boltzmann factor of the first excited states; common practice).  The precision the
-    # recursion needs (β/ln 2 bits) is asked for at once, not found by doubling.
+    # recursion needs (β/ln 2 bits) is asked for at once, not found by doubling.  The gap is the ladder's,
+    # however few levels are reported: with one (the ladder listed to rung 0) U and C came out 0.
     import mpmath
 
     from enumerator.algorithms.levels import canonical, make_system
 
     system = make_system(10, preset="trap", rule="BE")
-    (point,) = canonical(system, [temperature], digits=20, levels=2)
+    (point,) = canonical(system, [temperature], digits=20, levels=levels)
     with mpmath.workdps(30):
         beta = 1 / mpmath.mpf(temperature)
         expected = 3 * mpmath.exp(-beta)

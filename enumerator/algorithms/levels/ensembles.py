@@ -48,7 +48,15 @@ from ...core.rules import Rule
 from ...core.workers import map_after_first
 from .bosons_float import BATCH, FLOAT_MAX_DIGITS, canonical_float_many, float_cost, float_meets
 from .particle_hole import fermion_canonical
-from .spectra import Spectrum, System, ground_energy, parse_digits, parse_temperature, temperature_text
+from .spectra import (
+    Spectrum,
+    System,
+    ground_and_gap,
+    ground_energy,
+    parse_digits,
+    parse_temperature,
+    temperature_text,
+)
 
 __all__ = [
     "CanonicalPoint",
@@ -611,7 +619,7 @@ def _canonical_mb(system, spectrum, b, count, target_bits):
         var1 = lad.dimension * lad.spacing**2 * r * (1 + r)
     lost = 0
     occ = []
-    low = spectrum.lowest  # a min over the levels: once, not per level
+    low = spectrum.lowest
     for i in range(count):
         e = spectrum.energies[i] - low
         occ.append(n * spectrum.degeneracies[i] * mpmath.exp(-b * e) / z[1])
@@ -653,21 +661,19 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
     target = math.ceil(digits * math.log2(10))
     margin = 8 + 2 * (n + 1).bit_length()
     bits = target + margin + 16 + math.ceil(_argument_digits(spectrum, temperature, n) * math.log2(10))
-    if moments and system.rule is Rule.BE and system.capacity is None and n:
+    # β Δ for the first gap Δ of the whole spectrum (a ladder listed to rung 0 still has its spacing)
+    _, gap = ground_and_gap(spectrum)
+    beta_gap = None if gap is None else gap * spectrum.unit / temperature
+    if moments and system.rule is Rule.BE and system.capacity is None and n and beta_gap is not None:
         # Bosons: the energy variance is about e^{-β Δ} (one particle lifted by the first gap Δ) against
         # Z_N, so the fixed point needs β Δ / ln 2 more bits to resolve it; asked for at once, not
         # found by doubling (which ran out of attempts far below the Bose temperature).
-        low = spectrum.lowest
-        gaps = [e - low for e in spectrum.energies if e > low]
-        if gaps:
-            lost = float(min(min(gaps) * spectrum.unit / temperature, Fraction(2**64))) / math.log(2)
-            bits = max(bits, target + margin + 16 + math.ceil(min(lost, 2.0**64)))
+        lost = float(min(beta_gap, Fraction(2**64))) / math.log(2)
+        bits = max(bits, target + margin + 16 + math.ceil(lost))
     if system.rule is not Rule.MB:
         # the float route only where its one-particle sums stay in the double range (e^{-β Δ} above e^-700)
-        low = spectrum.lowest
-        gaps = [e - low for e in spectrum.energies if e > low]
         floatable = (system.rule is Rule.BE and system.capacity is None
-                     and (not gaps or min(gaps) * spectrum.unit / temperature < 700))
+                     and (beta_gap is None or beta_gap < 700))
         check(_recursion_cost(system, spectrum, temperature, bits, moments),
               f"the canonical recursion of {n} particles at T = {temperature_text(temperature)}",
               advice="raise the temperature, lower particles=" + (", or use route= float" if floatable else ""),
@@ -730,11 +736,12 @@ def _canonical_at(system: System, temperature: Fraction, digits: int, count: int
                     continue
                 need = target + margin + max(0, _bits(H[n]) - _bits(ZN))
                 if moments:
-                    # With two distinct level energies (and not every state full,
-                    # handled above) the energy fluctuates: M1_N > 0 and V > 0
-                    # exactly, so a zero or negative value is rounding noise and
-                    # the bounds below then ask for more bits.
-                    fluctuates = n > 0 and len(set(spectrum.energies)) > 1
+                    # With a gap above the lowest level (of the whole spectrum: a ladder
+                    # listed to rung 0 has one) and not every state full (handled above)
+                    # the energy fluctuates: M1_N > 0 and V > 0 exactly, so a zero or
+                    # negative value is rounding noise and the bounds below then ask
+                    # for more bits.
+                    fluctuates = n > 0 and gap is not None
                     M1N, M2N = seqs[1][n], seqs[2][n]
                     if fluctuates:
                         need = max(need, target + margin + _bits(H1[n] + H[n]) - _bits(max(M1N, 1)))
